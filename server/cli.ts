@@ -1,0 +1,72 @@
+// The earshot command line: `npm run --silent earshot -- <command> [options]`.
+// Every command takes --json and then prints exactly one JSON document on
+// stdout; an error exits non-zero with a one-line message on stderr.
+import { z } from 'zod';
+import { CliUsageError, describeOptionError, parseArgv, type CliCommand, type CliContext } from './cli/framework.ts';
+import { adminCommands } from './cli/admin.ts';
+import { radioCommands } from './cli/radio.ts';
+import { terrainCommands } from './cli/terrain.ts';
+import { propagationCommands } from './cli/propagation.ts';
+import { linkCommands } from './cli/links.ts';
+import { coverageCommands } from './cli/coverage.ts';
+
+export const allCommands: CliCommand[] = [
+  ...adminCommands,
+  ...radioCommands,
+  ...terrainCommands,
+  ...propagationCommands,
+  ...linkCommands,
+  ...coverageCommands,
+];
+
+function usage(): string {
+  const lines = allCommands.map((command) => `  ${command.words.padEnd(18)} ${command.summary}`);
+  return ['usage: earshot <command> [options] [--json]', '', 'commands:', ...lines].join('\n');
+}
+
+async function readStdin(): Promise<string> {
+  const chunks: Buffer[] = [];
+  for await (const chunk of process.stdin) chunks.push(chunk as Buffer);
+  return Buffer.concat(chunks).toString('utf8');
+}
+
+function progress(fraction: number, label = ''): void {
+  if (!process.stderr.isTTY) return;
+  const width = 30;
+  const filled = Math.round(Math.max(0, Math.min(1, fraction)) * width);
+  process.stderr.write(`\r[${'#'.repeat(filled)}${'.'.repeat(width - filled)}] ${(fraction * 100).toFixed(0)}% ${label}`);
+  if (fraction >= 1) process.stderr.write('\n');
+}
+
+export async function runCli(argv: string[]): Promise<number> {
+  const context: CliContext = { readStdin, progress };
+  try {
+    const { words, options } = parseArgv(argv);
+    if (words.length === 0 || words[0] === 'help' || options.help === true) {
+      process.stdout.write(`${usage()}\n`);
+      return words.length === 0 && options.help !== true ? 2 : 0;
+    }
+    const commandWords = words.join(' ');
+    const command = allCommands.find((candidate) => candidate.words === commandWords);
+    if (!command) throw new CliUsageError(`unknown command "${commandWords}" (try: earshot help)`);
+    const json = options.json === true;
+    delete options.json;
+    const parsed = command.options.safeParse(options);
+    if (!parsed.success) throw new CliUsageError(describeOptionError(parsed.error));
+    const result = await command.run(parsed.data, context);
+    if (json) process.stdout.write(`${JSON.stringify(result)}\n`);
+    else process.stdout.write(`${command.formatText ? command.formatText(result) : JSON.stringify(result, null, 2)}\n`);
+    return 0;
+  } catch (error) {
+    const message = error instanceof z.ZodError ? describeOptionError(error) : error instanceof Error ? error.message : String(error);
+    process.stderr.write(`earshot: ${message.split('\n')[0]}\n`);
+    return error instanceof CliUsageError ? 2 : 1;
+  }
+}
+
+const isMain = process.argv[1] && import.meta.url.endsWith(process.argv[1].split('/').pop() ?? '');
+if (isMain) {
+  runCli(process.argv.slice(2)).then((code) => {
+    process.exitCode = code;
+  });
+}

@@ -1,0 +1,118 @@
+// The small command framework every `earshot` command is written against.
+// A command declares its words ("airtime", "team add"), a zod schema over its
+// options, and a run function returning one JSON-serialisable document.
+// The dispatcher (server/cli.ts) prints that document with --json, or the
+// command's own text form without it; errors become one line on stderr.
+import { z } from 'zod';
+
+/** Raised for anything the user must fix; printed as one line, exit code 2. */
+export class CliUsageError extends Error {}
+
+/** Raw options as parsed from argv: `--key value`, `--key=value`, `--flag`. */
+export type RawOptions = Record<string, string | true>;
+
+export interface CliContext {
+  /** Reads all of standard input (for `--input -`). */
+  readStdin: () => Promise<string>;
+  /** Writes progress to stderr (only shown when stderr is a terminal). */
+  progress: (fraction: number, label?: string) => void;
+}
+
+export interface CliCommand<S extends z.ZodType = z.ZodType> {
+  /** Command words, e.g. "airtime" or "token issue". */
+  words: string;
+  summary: string;
+  /** Schema over the options with their kebab-case names as keys (values arrive as strings or `true`). */
+  options: S;
+  run: (options: z.infer<S>, context: CliContext) => Promise<unknown> | unknown;
+  /** Human-readable form when --json is not given; defaults to pretty JSON. */
+  formatText?: (result: unknown) => string;
+}
+
+/** Helper so each command file gets its option types inferred. */
+export function defineCommand<S extends z.ZodType>(command: CliCommand<S>): CliCommand {
+  return command as unknown as CliCommand;
+}
+
+/** Splits argv into command words and raw options. */
+export function parseArgv(argv: string[]): { words: string[]; options: RawOptions } {
+  const words: string[] = [];
+  const options: RawOptions = {};
+  for (let i = 0; i < argv.length; i++) {
+    const arg = argv[i];
+    if (arg.startsWith('--')) {
+      const body = arg.slice(2);
+      const eq = body.indexOf('=');
+      if (eq >= 0) {
+        options[body.slice(0, eq)] = body.slice(eq + 1);
+      } else {
+        const next = argv[i + 1];
+        // A following token is this option's value unless it is another option.
+        // Negative numbers ("-3.5") are values, not options.
+        if (next !== undefined && (!next.startsWith('--') || /^-\d/.test(next))) {
+          options[body] = next;
+          i++;
+        } else {
+          options[body] = true;
+        }
+      }
+    } else if (Object.keys(options).length === 0) {
+      words.push(arg);
+    } else {
+      throw new CliUsageError(`unexpected argument "${arg}"`);
+    }
+  }
+  return { words, options };
+}
+
+/** Turns a zod error into one line naming the option and the rule. */
+export function describeOptionError(error: z.ZodError): string {
+  const issue = error.issues[0];
+  const path = issue.path.length > 0 ? `--${issue.path.join('.')}` : 'options';
+  return `${path}: ${issue.message}`;
+}
+
+/** Number option given as a string on the command line. */
+export const numberOption = () =>
+  z.union([z.string(), z.literal(true)]).transform((value, ctx) => {
+    const parsed = typeof value === 'string' ? Number(value) : Number.NaN;
+    if (!Number.isFinite(parsed)) {
+      ctx.addIssue({ code: 'custom', message: 'must be a finite number' });
+      return z.NEVER;
+    }
+    return parsed;
+  });
+
+/** Integer option given as a string on the command line. */
+export const integerOption = () =>
+  numberOption().refine((value) => Number.isInteger(value), { message: 'must be a whole number' });
+
+/** String option (a bare flag without a value is rejected). */
+export const stringOption = () => z.string({ error: 'needs a value' }).min(1, 'needs a value');
+
+/** "LAT,LON" option. */
+export const latLonOption = () =>
+  stringOption().transform((value, ctx) => {
+    const parts = value.split(',').map((part) => Number(part.trim()));
+    if (parts.length !== 2 || !parts.every(Number.isFinite)) {
+      ctx.addIssue({ code: 'custom', message: 'must be LAT,LON in decimal degrees' });
+      return z.NEVER;
+    }
+    const [lat, lon] = parts;
+    if (lat < -90 || lat > 90) {
+      ctx.addIssue({ code: 'custom', message: 'latitude must be within ±90°' });
+      return z.NEVER;
+    }
+    if (lon < -180 || lon > 180) {
+      ctx.addIssue({ code: 'custom', message: 'longitude must be within ±180°' });
+      return z.NEVER;
+    }
+    return { lat, lon };
+  });
+
+/** Boolean flag: present (`--x`) or `--x on|off|true|false`. */
+export const flagOption = () =>
+  z
+    .union([z.literal(true), z.enum(['on', 'off', 'true', 'false'])])
+    .optional()
+    .transform((value) => value === true || value === 'on' || value === 'true');

@@ -1,0 +1,4 @@
+// Commands of this room; each is a defineCommand(...) from ./framework.ts.
+import type { CliCommand } from './framework.ts';
+
+export const linkCommands: CliCommand[] = [];
