@@ -1,0 +1,23 @@
+// The served / marginal / unserved rule the fleet table and reports use.
+
+export type LinkStatus = 'served' | 'marginal' | 'unserved';
+
+export interface ServiceTarget {
+  /** Margin over sensitivity the plan asks for, dB. */
+  targetMarginDb: number;
+  /** Probability of delivery the plan asks for (0–1). */
+  targetDelivery: number;
+}
+
+/**
+ * served: the best link meets the target margin at some allowed SF and the
+ *   combined probability of delivery meets the target;
+ * unserved: no gateway is heard even at the median (best margin below 0 dB at
+ *   the most robust allowed SF) — messages get through less than half the time;
+ * marginal: everything in between.
+ */
+export function linkStatus(bestMarginDb: number | null, combinedDelivery: number, target: ServiceTarget): LinkStatus {
+  if (bestMarginDb === null || !(bestMarginDb >= 0)) return 'unserved';
+  if (bestMarginDb >= target.targetMarginDb && combinedDelivery >= target.targetDelivery) return 'served';
+  return 'marginal';
+}
