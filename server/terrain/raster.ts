@@ -1,0 +1,427 @@
+// One georeferenced single-band raster read through geotiff.js: its grid,
+// CRS, NoData and scale/offset, and windows of samples as Float32 (NaN for
+// NoData). A file is opened with geotiff's fromFile, so only the header and
+// the tiles/strips a window touches are ever read from disk.
+import { fromArrayBuffer, fromFile, type GeoTIFF, type GeoTIFFImage, type TypedArray } from 'geotiff';
+import { crsForEpsg, transformForCrs, UnsupportedCrsError, type CrsInfo, type CrsTransform } from './crs.ts';
+import type { GeoTransform } from './geotiff-writer.ts';
+
+export type { GeoTransform } from './geotiff-writer.ts';
+
+/** Why a raster cannot be used; the API maps codes to HTTP statuses. */
+export type RasterErrorCode =
+  | 'not_tiff'
+  | 'no_georeferencing'
+  | 'unsupported_compression'
+  | 'unsupported_crs'
+  | 'unsupported_layout'
+  | 'corrupt';
+
+export class RasterError extends Error {
+  readonly code: RasterErrorCode;
+  constructor(code: RasterErrorCode, message: string) {
+    super(message);
+    this.name = 'RasterError';
+    this.code = code;
+  }
+}
+
+export interface Bounds {
+  minX: number;
+  minY: number;
+  maxX: number;
+  maxY: number;
+}
+
+export interface LonLatBounds {
+  west: number;
+  south: number;
+  east: number;
+  north: number;
+}
+
+export interface OverviewInfo {
+  widthPx: number;
+  heightPx: number;
+  /** Full-resolution pixels per overview pixel along x. */
+  factor: number;
+}
+
+/** How the store caches this raster: blocks of blockWidthPx × blockHeightPx (edge blocks smaller). */
+export interface BlockLayout {
+  blockWidthPx: number;
+  blockHeightPx: number;
+  blocksAcross: number;
+  blocksDown: number;
+}
+
+export type SampleFormat = 'uint8' | 'int8' | 'uint16' | 'int16' | 'uint32' | 'int32' | 'float32' | 'float64';
+
+export interface GeoRaster {
+  widthPx: number;
+  heightPx: number;
+  /** GDAL order, pixel-is-area corner convention: x = gt[0] + col·gt[1], y = gt[3] + row·gt[5] at pixel corners. */
+  geoTransform: GeoTransform;
+  crs: { epsg: number; proj4: string; kind: 'geographic' | 'projected'; name: string };
+  /** NoData value in raw sample units (before scale/offset), or null. */
+  noData: number | null;
+  scale: number;
+  offset: number;
+  /** The file's GTRasterTypeGeoKey; the geoTransform above is already converted to the corner convention. */
+  rasterType: 'area' | 'point';
+  /** Extent in CRS units (outer pixel edges). */
+  bounds: Bounds;
+  /** Extent in WGS 84 degrees (the CRS extent's corners and edge points transformed; for projected CRSs, the enclosing box). */
+  boundsLonLat: LonLatBounds;
+  /** Approximate pixel size in metres along x and y at the raster centre. */
+  resolutionM: { x: number; y: number };
+  sampleFormat: SampleFormat;
+  compression: string;
+  tiled: boolean;
+  /** Native tile or strip size. */
+  nativeBlock: { widthPx: number; heightPx: number };
+  overviews: OverviewInfo[];
+  blockLayout: BlockLayout;
+  /** Reads a window of the full-resolution image (or of overview `level` ≥ 1) as Float32 with NaN for NoData, scale/offset applied. */
+  readWindow(x0: number, y0: number, w: number, h: number, level?: number): Promise<Float32Array>;
+  /** Reads cache block (bx, by) of blockLayout (width/height = the block's actual size). */
+  readBlock(bx: number, by: number): Promise<{ data: Float32Array; widthPx: number; heightPx: number }>;
+  /** Continuous pixel coordinates (corner convention: pixel (i, j) spans [i, i+1) × [j, j+1)) of a WGS 84 position. */
+  lonLatToPixel(lon: number, lat: number): { x: number; y: number };
+  /** WGS 84 position of continuous pixel coordinates (x + 0.5, y + 0.5 is the centre of pixel (x, y)). */
+  pixelToLonLat(x: number, y: number): { lon: number; lat: number };
+  /** The WGS 84 ↔ CRS transform used by the two helpers above. */
+  transform: CrsTransform;
+  close(): Promise<void>;
+}
+
+// TIFF compression codes we read (TIFF 6.0 §3, §9, §13; Adobe deflate 8 and the old 32946).
+const COMPRESSION_NAMES: Record<number, string> = { 1: 'none', 5: 'LZW', 8: 'deflate', 32946: 'deflate', 32773: 'PackBits' };
+const OTHER_COMPRESSION_NAMES: Record<number, string> = {
+  2: 'CCITT RLE', 3: 'CCITT Group 3', 4: 'CCITT Group 4', 6: 'old JPEG', 7: 'JPEG', 34887: 'LERC', 34925: 'LZMA', 50000: 'ZSTD', 50001: 'WebP', 50002: 'JPEG XL',
+};
+
+const MAX_CACHE_BLOCK_BYTES = 4 * 1024 * 1024;
+
+function formatOf(sampleFormat: number, bits: number): SampleFormat | null {
+  if (sampleFormat === 1 && bits === 8) return 'uint8';
+  if (sampleFormat === 2 && bits === 8) return 'int8';
+  if (sampleFormat === 1 && bits === 16) return 'uint16';
+  if (sampleFormat === 2 && bits === 16) return 'int16';
+  if (sampleFormat === 1 && bits === 32) return 'uint32';
+  if (sampleFormat === 2 && bits === 32) return 'int32';
+  if (sampleFormat === 3 && bits === 32) return 'float32';
+  if (sampleFormat === 3 && bits === 64) return 'float64';
+  return null;
+}
+
+type Directory = ReturnType<GeoTIFFImage['getFileDirectory']>;
+
+function tagNumbers(directory: Directory, name: string): number[] | null {
+  if (!directory.hasTag(name as never)) return null;
+  const value = directory.getValue(name as never) as unknown;
+  if (value === undefined || value === null) return null;
+  if (typeof value === 'number') return [value];
+  if (ArrayLike(value)) return Array.from(value as ArrayLike<number>, Number);
+  return null;
+}
+
+function ArrayLike(value: unknown): boolean {
+  return Array.isArray(value) || ArrayBuffer.isView(value);
+}
+
+/** Opens a GeoTIFF from a path (read lazily from disk) or from bytes in memory and checks it is usable. */
+export async function openGeoRaster(source: string | ArrayBuffer): Promise<GeoRaster> {
+  let tiff: GeoTIFF;
+  try {
+    tiff = typeof source === 'string' ? await fromFile(source) : await fromArrayBuffer(source);
+  } catch (error) {
+    const message = error instanceof Error ? error.message : String(error);
+    if (/ENOENT/.test(message)) throw new RasterError('not_tiff', `file not found: ${typeof source === 'string' ? source : '(buffer)'}`);
+    throw new RasterError('not_tiff', `not a TIFF file (${message.split('\n')[0]})`);
+  }
+  try {
+    return await describe(tiff);
+  } catch (error) {
+    await closeQuietly(tiff);
+    if (error instanceof RasterError) throw error;
+    if (error instanceof UnsupportedCrsError) throw new RasterError('unsupported_crs', error.message);
+    const message = error instanceof Error ? error.message : String(error);
+    throw new RasterError('corrupt', `unreadable TIFF structure (${message.split('\n')[0]})`);
+  }
+}
+
+async function closeQuietly(tiff: GeoTIFF): Promise<void> {
+  try {
+    const closing = tiff.close();
+    if (closing) await closing;
+  } catch {
+    // already closed
+  }
+}
+
+async function describe(tiff: GeoTIFF): Promise<GeoRaster> {
+  const imageCount = await tiff.getImageCount();
+  const image = await tiff.getImage(0);
+  const directory = image.getFileDirectory();
+  const widthPx = image.getWidth();
+  const heightPx = image.getHeight();
+  if (!(widthPx > 0 && heightPx > 0)) throw new RasterError('unsupported_layout', `raster has no pixels (${widthPx} × ${heightPx})`);
+
+  const compressionCode = tagNumbers(directory, 'Compression')?.[0] ?? 1;
+  const compression = COMPRESSION_NAMES[compressionCode];
+  if (!compression) {
+    const name = OTHER_COMPRESSION_NAMES[compressionCode] ?? `code ${compressionCode}`;
+    throw new RasterError('unsupported_compression', `unsupported compression ${name} (TIFF code ${compressionCode}); supported: none, deflate, LZW, PackBits`);
+  }
+  const bits = image.getBitsPerSample(0);
+  const sampleFormat = formatOf(image.getSampleFormat(0), bits);
+  if (!sampleFormat) throw new RasterError('unsupported_layout', `unsupported sample type (SampleFormat ${image.getSampleFormat(0)}, ${bits} bits); supported: Int8/UInt8/Int16/UInt16/Int32/UInt32/Float32/Float64`);
+
+  const geoTransformAndType = readGeoTransform(image, directory);
+  const crsInfo = readCrs(image);
+  const transform = transformForCrs(crsInfo);
+
+  const noDataText = directory.hasTag('GDAL_NODATA') ? String(directory.getValue('GDAL_NODATA')).replace(/\0+$/, '').trim() : '';
+  const noData = noDataText === '' ? null : noDataText.toLowerCase() === 'nan' ? Number.NaN : Number(noDataText);
+  if (noData !== null && Number.isNaN(noData) && noDataText.toLowerCase() !== 'nan') throw new RasterError('corrupt', `GDAL_NODATA tag "${noDataText}" is not a number`);
+
+  let scale = 1;
+  let offset = 0;
+  const metadata = await image.getGDALMetadata(0);
+  if (metadata) {
+    if (metadata.SCALE !== undefined) scale = Number(metadata.SCALE);
+    if (metadata.OFFSET !== undefined) offset = Number(metadata.OFFSET);
+    if (!Number.isFinite(scale) || !Number.isFinite(offset)) throw new RasterError('corrupt', 'GDAL_METADATA scale/offset is not a number');
+  }
+
+  const tiled = image.isTiled;
+  const nativeBlock = { widthPx: image.getTileWidth(), heightPx: image.getTileHeight() };
+
+  const overviews: OverviewInfo[] = [];
+  const overviewImages: GeoTIFFImage[] = [];
+  for (let i = 1; i < imageCount; i++) {
+    const candidate = await tiff.getImage(i);
+    const subfileType = tagNumbers(candidate.getFileDirectory(), 'NewSubfileType')?.[0] ?? 0;
+    // Bit 0: reduced-resolution version; bit 2: transparency mask (skipped).
+    if ((subfileType & 1) === 1 && (subfileType & 4) === 0 && candidate.getWidth() < widthPx) {
+      overviews.push({ widthPx: candidate.getWidth(), heightPx: candidate.getHeight(), factor: widthPx / candidate.getWidth() });
+      overviewImages.push(candidate);
+    }
+  }
+
+  const blockLayout = chooseBlockLayout(widthPx, heightPx, tiled, nativeBlock);
+  const gt = geoTransformAndType.geoTransform;
+  const bounds: Bounds = {
+    minX: gt[0],
+    maxX: gt[0] + widthPx * gt[1],
+    maxY: gt[3],
+    minY: gt[3] + heightPx * gt[5],
+  };
+  const boundsLonLat = lonLatBoundsOf(bounds, transform);
+  const resolutionM = resolutionInMetres(crsInfo, gt, boundsLonLat);
+
+  const fillRaw = noData !== null ? noData : 0;
+  const readRaw = async (img: GeoTIFFImage, x0: number, y0: number, w: number, h: number): Promise<TypedArray> => {
+    const result = await img.readRasters({ window: [x0, y0, x0 + w, y0 + h], samples: [0], interleave: true, fillValue: fillRaw });
+    return result as unknown as TypedArray;
+  };
+
+  const toFloat = (raw: TypedArray): Float32Array => {
+    const out = new Float32Array(raw.length);
+    const n = raw.length;
+    if (noData === null) {
+      for (let i = 0; i < n; i++) out[i] = raw[i] * scale + offset;
+    } else if (Number.isNaN(noData)) {
+      for (let i = 0; i < n; i++) out[i] = raw[i] * scale + offset; // NaN stays NaN
+    } else {
+      // Compare in the sample's own precision (a Float32 NoData such as -3.4028235e38 is not exactly the double).
+      const nd = sampleFormat === 'float32' ? Math.fround(noData) : noData;
+      for (let i = 0; i < n; i++) {
+        const v = raw[i];
+        out[i] = v === nd ? Number.NaN : v * scale + offset;
+      }
+    }
+    return out;
+  };
+
+  const readWindow = async (x0: number, y0: number, w: number, h: number, level = 0): Promise<Float32Array> => {
+    const img = level === 0 ? image : overviewImages[level - 1];
+    if (!img) throw new RangeError(`readWindow: no overview level ${level} (raster has ${overviewImages.length})`);
+    const levelW = img.getWidth();
+    const levelH = img.getHeight();
+    if (!(Number.isInteger(x0) && Number.isInteger(y0) && Number.isInteger(w) && Number.isInteger(h)) || w < 1 || h < 1 || x0 < 0 || y0 < 0 || x0 + w > levelW || y0 + h > levelH) {
+      throw new RangeError(`readWindow: window ${x0},${y0} ${w}×${h} outside the ${levelW}×${levelH} image`);
+    }
+    let raw: TypedArray;
+    try {
+      raw = await readRaw(img, x0, y0, w, h);
+    } catch (error) {
+      const message = error instanceof Error ? error.message : String(error);
+      throw new RasterError('corrupt', `cannot decode pixels ${x0},${y0} ${w}×${h}: ${message.split('\n')[0]}`);
+    }
+    if (raw.length !== w * h) throw new RasterError('corrupt', `decoded ${raw.length} samples for a ${w}×${h} window`);
+    return toFloat(raw);
+  };
+
+  const readBlock = async (bx: number, by: number) => {
+    const x0 = bx * blockLayout.blockWidthPx;
+    const y0 = by * blockLayout.blockHeightPx;
+    const w = Math.min(blockLayout.blockWidthPx, widthPx - x0);
+    const h = Math.min(blockLayout.blockHeightPx, heightPx - y0);
+    return { data: await readWindow(x0, y0, w, h), widthPx: w, heightPx: h };
+  };
+
+  const lonLatToPixel = (lon: number, lat: number) => {
+    const [x, y] = transform.forward(lon, lat);
+    return { x: (x - gt[0]) / gt[1], y: (y - gt[3]) / gt[5] };
+  };
+  const pixelToLonLat = (px: number, py: number) => {
+    const [lon, lat] = transform.inverse(gt[0] + px * gt[1], gt[3] + py * gt[5]);
+    return { lon, lat };
+  };
+
+  return {
+    widthPx,
+    heightPx,
+    geoTransform: gt,
+    crs: { epsg: crsInfo.epsg, proj4: crsInfo.proj4, kind: crsInfo.kind, name: crsInfo.name },
+    noData,
+    scale,
+    offset,
+    rasterType: geoTransformAndType.rasterType,
+    bounds,
+    boundsLonLat,
+    resolutionM,
+    sampleFormat,
+    compression,
+    tiled,
+    nativeBlock,
+    overviews,
+    blockLayout,
+    readWindow,
+    readBlock,
+    lonLatToPixel,
+    pixelToLonLat,
+    transform,
+    close: () => closeQuietly(tiff),
+  };
+}
+
+function readGeoTransform(image: GeoTIFFImage, directory: Directory): { geoTransform: GeoTransform; rasterType: 'area' | 'point' } {
+  const keys = image.getGeoKeys() ?? {};
+  const rasterTypeCode = Number((keys as Record<string, unknown>).GTRasterTypeGeoKey ?? 1);
+  const rasterType: 'area' | 'point' = rasterTypeCode === 2 ? 'point' : 'area';
+  const scale = tagNumbers(directory, 'ModelPixelScale');
+  const tiepoint = tagNumbers(directory, 'ModelTiepoint');
+  const matrix = tagNumbers(directory, 'ModelTransformation');
+  let gt: GeoTransform;
+  if (scale && tiepoint && tiepoint.length >= 6) {
+    const [i, j, , x, y] = tiepoint;
+    const [sx, sy] = scale;
+    if (!(sx > 0) || !(sy > 0)) throw new RasterError('no_georeferencing', `ModelPixelScale ${sx}, ${sy} is not positive`);
+    gt = [x - i * sx, sx, 0, y + j * sy, 0, -sy];
+  } else if (matrix && matrix.length >= 8) {
+    const [a, b, , d, e, f, , h] = matrix;
+    if (b !== 0 || e !== 0) throw new RasterError('unsupported_layout', 'rotated or sheared rasters (ModelTransformation with rotation terms) are not supported');
+    if (!(a > 0) || !(f < 0)) throw new RasterError('unsupported_layout', 'only north-up rasters are supported (ModelTransformation needs a positive x scale and a negative y scale)');
+    gt = [d, a, 0, h, 0, f];
+  } else {
+    throw new RasterError('no_georeferencing', 'the TIFF has no georeferencing (no ModelPixelScale + ModelTiepoint or ModelTransformation tags)');
+  }
+  if (!gt.every(Number.isFinite)) throw new RasterError('no_georeferencing', 'georeferencing tags hold non-finite numbers');
+  if (rasterType === 'point') {
+    // Pixel-is-point: the model coordinates name pixel centres; shift to the corner convention as GDAL does.
+    gt = [gt[0] - gt[1] / 2, gt[1], 0, gt[3] - gt[5] / 2, 0, gt[5]];
+  }
+  return { geoTransform: gt, rasterType };
+}
+
+function readCrs(image: GeoTIFFImage): CrsInfo {
+  const keys = (image.getGeoKeys() ?? {}) as Record<string, unknown>;
+  const model = Number(keys.GTModelTypeGeoKey ?? 0);
+  const projected = Number(keys.ProjectedCSTypeGeoKey ?? 0);
+  const geographic = Number(keys.GeographicTypeGeoKey ?? 0);
+  if (model === 1 || (model === 0 && projected > 0)) {
+    if (projected === 32767 || projected === 0) {
+      throw new RasterError('unsupported_crs', 'user-defined projected CRS (no EPSG code in ProjectedCSTypeGeoKey); re-save the raster with an EPSG code');
+    }
+    return crsForEpsg(projected);
+  }
+  if (model === 2 || (model === 0 && geographic > 0)) {
+    if (geographic === 32767 || geographic === 0) {
+      throw new RasterError('unsupported_crs', 'user-defined geographic CRS (no EPSG code in GeographicTypeGeoKey); re-save the raster with an EPSG code');
+    }
+    return crsForEpsg(geographic);
+  }
+  if (model === 3) throw new RasterError('unsupported_crs', 'geocentric model type (GTModelTypeGeoKey 3) is not supported');
+  throw new RasterError('no_georeferencing', 'the TIFF has no coordinate reference system (GeoKeyDirectory missing or without a model type)');
+}
+
+function chooseBlockLayout(widthPx: number, heightPx: number, tiled: boolean, native: { widthPx: number; heightPx: number }): BlockLayout {
+  let blockWidthPx: number;
+  let blockHeightPx: number;
+  if (tiled && native.widthPx * native.heightPx * 4 <= MAX_CACHE_BLOCK_BYTES) {
+    // Tiled: cache blocks are the file's own tiles, so one block read decodes exactly one tile.
+    blockWidthPx = native.widthPx;
+    blockHeightPx = native.heightPx;
+  } else if (!tiled && native.heightPx * widthPx * 4 <= MAX_CACHE_BLOCK_BYTES) {
+    // Stripped: full-width blocks of whole strips, about 1 MiB each.
+    blockWidthPx = widthPx;
+    const strips = Math.max(1, Math.floor((1024 * 1024) / (native.heightPx * widthPx * 4)));
+    blockHeightPx = Math.min(heightPx, strips * native.heightPx);
+  } else {
+    // Huge tiles or strips: square 512-pixel windows (each read decodes the blocks it needs again).
+    blockWidthPx = Math.min(widthPx, 512);
+    blockHeightPx = Math.min(heightPx, 512);
+  }
+  return { blockWidthPx, blockHeightPx, blocksAcross: Math.ceil(widthPx / blockWidthPx), blocksDown: Math.ceil(heightPx / blockHeightPx) };
+}
+
+function lonLatBoundsOf(bounds: Bounds, transform: CrsTransform): LonLatBounds {
+  if (transform.identity) return { west: bounds.minX, south: bounds.minY, east: bounds.maxX, north: bounds.maxY };
+  let west = Infinity;
+  let south = Infinity;
+  let east = -Infinity;
+  let north = -Infinity;
+  const steps = 16;
+  for (let k = 0; k <= steps; k++) {
+    const t = k / steps;
+    const edgePoints: [number, number][] = [
+      [bounds.minX + t * (bounds.maxX - bounds.minX), bounds.minY],
+      [bounds.minX + t * (bounds.maxX - bounds.minX), bounds.maxY],
+      [bounds.minX, bounds.minY + t * (bounds.maxY - bounds.minY)],
+      [bounds.maxX, bounds.minY + t * (bounds.maxY - bounds.minY)],
+    ];
+    for (const [x, y] of edgePoints) {
+      const [lon, lat] = transform.inverse(x, y);
+      if (!Number.isFinite(lon) || !Number.isFinite(lat)) continue;
+      west = Math.min(west, lon);
+      east = Math.max(east, lon);
+      south = Math.min(south, lat);
+      north = Math.max(north, lat);
+    }
+  }
+  return { west, south, east, north };
+}
+
+// Metres per degree of latitude and longitude on the WGS 84 ellipsoid at a latitude (meridional and
+// prime-vertical radii of curvature).
+function metresPerDegree(latDeg: number): { lat: number; lon: number } {
+  const a = 6378137;
+  const e2 = 0.00669437999014;
+  const phi = (latDeg * Math.PI) / 180;
+  const s = Math.sin(phi);
+  const w = Math.sqrt(1 - e2 * s * s);
+  const meridional = (a * (1 - e2)) / (w * w * w);
+  const primeVertical = a / w;
+  return { lat: (meridional * Math.PI) / 180, lon: (primeVertical * Math.cos(phi) * Math.PI) / 180 };
+}
+
+function resolutionInMetres(crs: CrsInfo, gt: GeoTransform, lonLat: LonLatBounds): { x: number; y: number } {
+  if (crs.kind === 'projected') return { x: Math.abs(gt[1]), y: Math.abs(gt[5]) };
+  const perDegree = metresPerDegree((lonLat.south + lonLat.north) / 2);
+  return { x: Math.abs(gt[1]) * perDegree.lon, y: Math.abs(gt[5]) * perDegree.lat };
+}
+
+export { metresPerDegree };
