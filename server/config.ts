@@ -1,0 +1,73 @@
+// Server configuration from environment variables. Every value has a default so
+// `npm start` works with no set-up; README.md lists them in its configuration table.
+import { availableParallelism } from 'node:os';
+import { join, resolve } from 'node:path';
+
+export interface Config {
+  port: number;
+  host: string;
+  /** Data folder: embedded database (`<dataDir>/pglite`), files (`<dataDir>/files`), admin.json. */
+  dataDir: string;
+  /** PostgreSQL connection string; unset = embedded PGlite in the data folder. */
+  databaseUrl?: string;
+  /** Redis connection string; set = BullMQ queues and `npm run worker` processes. */
+  redisUrl?: string;
+  maxUploadBytes: number;
+  maxRasterCells: number;
+  tileCacheBytes: number;
+  workerCount: number;
+  publicBaseUrl?: string;
+  onlineBaseLayerUrl?: string;
+  /** Largest JSON request body in bytes (bigger bodies get 413). */
+  maxJsonBodyBytes: number;
+  /** Log level for the request log (pino). */
+  logLevel: string;
+  /** Seed the demo team and plan on an empty database. */
+  seedDemo: boolean;
+  /** Folder holding files: `<dataDir>/files`. */
+  filesDir: string;
+}
+
+export class ConfigError extends Error {}
+
+function positiveNumber(env: NodeJS.ProcessEnv, name: string, fallback: number): number {
+  const raw = env[name];
+  if (raw === undefined || raw.trim() === '') return fallback;
+  const value = Number(raw);
+  if (!Number.isFinite(value) || value <= 0) throw new ConfigError(`${name}: must be a positive number (got "${raw}")`);
+  return value;
+}
+
+function optional(env: NodeJS.ProcessEnv, name: string): string | undefined {
+  const raw = env[name];
+  return raw === undefined || raw.trim() === '' ? undefined : raw.trim();
+}
+
+export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
+  const port = positiveNumber(env, 'PORT', 8080);
+  if (!Number.isInteger(port) || port > 65535) throw new ConfigError(`PORT: must be a whole number 1-65535 (got "${env.PORT}")`);
+  const dataDir = resolve(optional(env, 'EARSHOT_DATA_DIR') ?? './data');
+  const workers = positiveNumber(env, 'EARSHOT_WORKERS', Math.max(1, availableParallelism()));
+  if (!Number.isInteger(workers)) throw new ConfigError(`EARSHOT_WORKERS: must be a whole number (got "${env.EARSHOT_WORKERS}")`);
+  const databaseUrl = optional(env, 'DATABASE_URL');
+  if (databaseUrl && !/^postgres(ql)?:\/\//.test(databaseUrl)) {
+    throw new ConfigError('DATABASE_URL: must start with postgres:// or postgresql://');
+  }
+  return {
+    port,
+    host: optional(env, 'HOST') ?? '127.0.0.1',
+    dataDir,
+    databaseUrl,
+    redisUrl: optional(env, 'REDIS_URL'),
+    maxUploadBytes: Math.round(positiveNumber(env, 'EARSHOT_MAX_UPLOAD_MB', 512) * 1024 * 1024),
+    maxRasterCells: Math.round(positiveNumber(env, 'EARSHOT_MAX_RASTER_CELLS', 40000 * 40000)),
+    tileCacheBytes: Math.round(positiveNumber(env, 'EARSHOT_TILE_CACHE_MB', 256) * 1024 * 1024),
+    workerCount: workers,
+    publicBaseUrl: optional(env, 'EARSHOT_PUBLIC_URL'),
+    onlineBaseLayerUrl: optional(env, 'EARSHOT_BASE_LAYER_URL'),
+    maxJsonBodyBytes: Math.round(positiveNumber(env, 'EARSHOT_MAX_JSON_KB', 1024) * 1024),
+    logLevel: optional(env, 'EARSHOT_LOG_LEVEL') ?? 'info',
+    seedDemo: (optional(env, 'EARSHOT_DEMO') ?? 'on') !== 'off',
+    filesDir: join(dataDir, 'files'),
+  };
+}
