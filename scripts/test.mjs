@@ -43,7 +43,7 @@ if (missing.length > 0) {
 
 // 2. Generated files: the Prisma client (see scripts/prisma-generate.mjs) and the web bundle.
 if (existsSync('prisma/schema.prisma')) run('prisma generate', process.execPath, ['scripts/prisma-generate.mjs']);
-if (existsSync('web/index.html')) run('web build', process.execPath, ['node_modules/vite/bin/vite.js', 'build', '--logLevel', 'warn'], { cwd: 'web' });
+if (existsSync('web/index.html')) run('web build', process.execPath, ['../node_modules/vite/bin/vite.js', 'build', '--logLevel', 'warn'], { cwd: 'web' });
 
 // 3. Quality gates.
 run('typecheck (tsc --noEmit, strict)', process.execPath, ['node_modules/typescript/bin/tsc', '--noEmit']);
