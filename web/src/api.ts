@@ -1,0 +1,478 @@
+// The one typed client for earshot's HTTP API (/api/v1). Every view calls the
+// server through these functions; nothing else in web/ calls fetch directly.
+// Authentication: the sign-in cookie set by GET /signin?token=..., or a pasted
+// API token kept for this browser tab (sessionStorage) and sent as a bearer.
+
+const base = '/api/v1';
+const tokenKey = 'earshot.token';
+
+export class ApiError extends Error {
+  readonly status: number;
+  readonly code: string;
+  /** Structured extra detail some routes send (e.g. row errors of an import). */
+  readonly detail: unknown;
+  constructor(status: number, code: string, message: string, detail?: unknown) {
+    super(message);
+    this.status = status;
+    this.code = code;
+    this.detail = detail;
+  }
+  /** True when the route is not deployed on this server (404 from the router itself). */
+  get notAvailable(): boolean {
+    return this.status === 404 && (this.code === 'route_not_found' || this.code === 'not_available');
+  }
+}
+
+export function storedToken(): string | null {
+  try {
+    return sessionStorage.getItem(tokenKey);
+  } catch {
+    return null;
+  }
+}
+
+export function storeToken(token: string | null): void {
+  if (token === null) sessionStorage.removeItem(tokenKey);
+  else sessionStorage.setItem(tokenKey, token);
+}
+
+function headers(json: boolean): Record<string, string> {
+  const out: Record<string, string> = { accept: 'application/json' };
+  if (json) out['content-type'] = 'application/json';
+  const token = storedToken();
+  if (token) out.authorization = `Bearer ${token}`;
+  return out;
+}
+
+async function parseError(response: Response): Promise<ApiError> {
+  let code = `http_${response.status}`;
+  let message = response.statusText || `HTTP ${response.status}`;
+  let detail: unknown;
+  try {
+    const body = (await response.json()) as {
+      error?: { code?: string; message?: string; details?: unknown; errors?: unknown; rows?: unknown };
+      errors?: unknown;
+      message?: string;
+    };
+    if (body.error?.code) code = body.error.code;
+    if (body.error?.message) message = body.error.message;
+    else if (body.message) message = body.message;
+    detail = body.error?.errors ?? body.error?.rows ?? body.error?.details ?? body.errors;
+  } catch {
+    // not JSON: keep the status text
+  }
+  return new ApiError(response.status, code, message, detail);
+}
+
+export async function request<T>(method: string, path: string, body?: unknown): Promise<T> {
+  const response = await fetch(`${base}${path}`, {
+    method,
+    credentials: 'same-origin',
+    headers: headers(body !== undefined),
+    body: body === undefined ? undefined : JSON.stringify(body),
+  });
+  if (!response.ok) throw await parseError(response);
+  if (response.status === 204) return undefined as T;
+  const text = await response.text();
+  return (text ? JSON.parse(text) : undefined) as T;
+}
+
+export interface ListPage<T> {
+  items: T[];
+  total: number;
+  next: string | null;
+}
+
+/** Reads every page of a list endpoint ({items,total,next}; `next` is the cursor). */
+async function listAll<T>(path: string, pageSize = 500): Promise<T[]> {
+  const out: T[] = [];
+  let cursor: string | null = null;
+  for (let guard = 0; guard < 200; guard++) {
+    const sep = path.includes('?') ? '&' : '?';
+    const query = `${sep}limit=${pageSize}${cursor ? `&cursor=${encodeURIComponent(cursor)}` : ''}`;
+    const page: ListPage<T> = await request<ListPage<T>>('GET', `${path}${query}`);
+    out.push(...page.items);
+    if (!page.next || page.items.length === 0) break;
+    cursor = page.next;
+  }
+  return out;
+}
+
+// ---------- plans and fleet objects ----------
+
+export interface Plan {
+  id: string;
+  name: string;
+  description?: string;
+  bandPlanId?: string;
+  targetMarginDb?: number;
+  locationSigmaDb?: number | null;
+  propagationMethod?: string;
+  version: number;
+  [key: string]: unknown;
+}
+
+export interface Site {
+  id: string;
+  planId: string;
+  name: string;
+  lat: number;
+  lon: number;
+  kind?: 'candidate' | 'used';
+  groundM?: number | null;
+  notes?: string;
+  costUsd?: number | null;
+  maxAntennaHeightAglM?: number | null;
+  version: number;
+  [key: string]: unknown;
+}
+
+export interface Gateway {
+  id: string;
+  planId: string;
+  siteId?: string | null;
+  name: string;
+  lat: number;
+  lon: number;
+  antennaDesignId: string;
+  antennaHeightAglM: number;
+  feedlineId: string;
+  feedlineLengthM?: number;
+  mastOptionId?: string | null;
+  noiseFigureDb?: number;
+  txPowerDbm?: number;
+  notes?: string;
+  version: number;
+  [key: string]: unknown;
+}
+
+export interface FleetNode {
+  id: string;
+  planId: string;
+  name: string;
+  lat: number;
+  lon: number;
+  deviceType: string;
+  antennaDesignId: string;
+  antennaHeightAglM: number;
+  feedlineId?: string | null;
+  feedlineLengthM?: number;
+  mastOptionId?: string | null;
+  txPowerDbm?: number;
+  sfPolicy?: 'adaptive' | 'fixed';
+  fixedSf?: number | null;
+  payloadBytes?: number;
+  messagesPerHour?: number;
+  environment?: 'outdoor' | 'indoor' | 'pit';
+  installStatus?: 'planned' | 'installed' | 'needs-visit';
+  notes?: string;
+  version: number;
+  [key: string]: unknown;
+}
+
+export type EntityKind = 'nodes' | 'gateways' | 'sites';
+export type Entity = FleetNode | Gateway | Site;
+
+export const listPlans = (): Promise<Plan[]> => listAll<Plan>('/plans');
+export const getPlan = (planId: string): Promise<Plan> => request<Plan>('GET', `/plans/${planId}`);
+export const createPlan = (name: string): Promise<Plan> => request<Plan>('POST', '/plans', { name });
+
+export function listEntities<T extends Entity>(planId: string, kind: EntityKind): Promise<T[]> {
+  return listAll<T>(`/plans/${planId}/${kind}`);
+}
+export function createEntity<T extends Entity>(planId: string, kind: EntityKind, body: Record<string, unknown>): Promise<T> {
+  return request<T>('POST', `/plans/${planId}/${kind}`, body);
+}
+export function updateEntity<T extends Entity>(planId: string, kind: EntityKind, id: string, body: Record<string, unknown>): Promise<T> {
+  return request<T>('PATCH', `/plans/${planId}/${kind}/${id}`, body);
+}
+export function deleteEntity(planId: string, kind: EntityKind, id: string, version: number): Promise<void> {
+  return request<void>('DELETE', `/plans/${planId}/${kind}/${id}?version=${version}`);
+}
+
+// ---------- kit catalog ----------
+
+export interface AntennaDesign {
+  id: string;
+  name: string;
+  gainDbi: number;
+  kind?: string;
+  homemade?: boolean;
+  costUsd?: number;
+  [key: string]: unknown;
+}
+export interface FeedlineType {
+  id: string;
+  name: string;
+  lossDbPer100m: number;
+  referenceMhz?: number;
+  costUsdPerM?: number;
+  [key: string]: unknown;
+}
+export interface MastOption {
+  id: string;
+  name: string;
+  heightM: number;
+  costUsd?: number;
+  [key: string]: unknown;
+}
+export interface Catalog {
+  antennas: AntennaDesign[];
+  feedlines: FeedlineType[];
+  masts: MastOption[];
+}
+
+export async function getCatalog(): Promise<Catalog> {
+  const [antennas, feedlines, masts] = await Promise.all([
+    listAll<AntennaDesign>('/catalog/antenna-designs'),
+    listAll<FeedlineType>('/catalog/feedlines'),
+    listAll<MastOption>('/catalog/masts'),
+  ]);
+  return { antennas, feedlines, masts };
+}
+
+// ---------- bulk node import ----------
+
+export interface ImportRowError {
+  row: number;
+  field?: string;
+  message: string;
+}
+export interface ImportResult {
+  dryRun?: boolean;
+  valid?: number;
+  created?: number;
+  total?: number;
+  errors: ImportRowError[];
+  preview?: Array<Record<string, unknown>>;
+  items?: FleetNode[];
+  [key: string]: unknown;
+}
+
+export function importNodes(planId: string, format: 'csv' | 'geojson', content: string, dryRun: boolean): Promise<ImportResult> {
+  return request<ImportResult>('POST', `/plans/${planId}/nodes/import${dryRun ? '?dryRun=true' : ''}`, { format, content, dryRun });
+}
+
+// ---------- terrain ----------
+
+export interface TerrainLayer {
+  id: string;
+  name?: string;
+  kind?: string;
+  crs?: string;
+  resolutionM?: number;
+  extent?: { west: number; south: number; east: number; north: number } | number[];
+  [key: string]: unknown;
+}
+export async function listTerrain(planId: string): Promise<TerrainLayer[]> {
+  const body = await request<ListPage<TerrainLayer> | TerrainLayer[]>('GET', `/plans/${planId}/terrain`);
+  return Array.isArray(body) ? body : body.items;
+}
+export const hillshadeTileUrl = (planId: string): string => `${base}/plans/${planId}/terrain/tiles/{z}/{x}/{y}.png`;
+
+// ---------- links, link check, recommendation, readings ----------
+
+export type LinkStatus = 'served' | 'marginal' | 'unserved';
+
+export interface Link {
+  gatewayId: string;
+  gatewayName?: string;
+  distanceM: number;
+  basicLossDb: number;
+  rssiDbm: number;
+  snrDb: number;
+  marginDb: number;
+  bestSf: number | null;
+  deliveryProbability: number;
+  timeOnAirMs?: number | null;
+  legal?: { ok?: boolean; eirpDbm?: number; limitDbm?: number; message?: string } | boolean;
+  [key: string]: unknown;
+}
+export interface NodeLinks {
+  links: Link[];
+  combinedDeliveryProbability: number;
+  status: LinkStatus;
+  [key: string]: unknown;
+}
+export const getNodeLinks = (planId: string, nodeId: string): Promise<NodeLinks> =>
+  request<NodeLinks>('GET', `/plans/${planId}/nodes/${nodeId}/links`);
+
+export interface ProfilePoint {
+  distanceM: number;
+  groundM: number | null;
+  clutterTopM?: number | null;
+  [key: string]: unknown;
+}
+export interface KitChoice {
+  antennaDesignId?: string | null;
+  mastHeightM?: number;
+  feedlineId?: string | null;
+  feedlineLengthM?: number;
+  cost?: number;
+  [key: string]: unknown;
+}
+export interface LinkCheck {
+  gatewayId?: string;
+  profile?: ProfilePoint[];
+  points?: ProfilePoint[];
+  ray?: Array<{ distanceM: number; heightM: number }> | { fromM: number; toM: number };
+  fresnel?: Array<{ distanceM: number; lowerM: number; upperM: number }>;
+  obstructions?: Array<{ distanceM: number; heightM?: number; groundM?: number; clearanceM?: number }>;
+  expected?: { rssiDbm?: { p10: number; p90: number }; snrDb?: { p10: number; p90: number } };
+  currentKit?: KitChoice;
+  recommendedKit?: KitChoice | null;
+  cautions?: string[];
+  [key: string]: unknown;
+}
+export const getLinkCheck = (planId: string, nodeId: string): Promise<LinkCheck> =>
+  request<LinkCheck>('GET', `/plans/${planId}/nodes/${nodeId}/check`);
+
+export interface RecommendRequest {
+  targetMarginDb?: number;
+  targetDelivery?: number;
+  antennaDesignIds?: string[];
+  mastHeightsM?: number[];
+  feedlineIds?: string[];
+  maxCost?: number;
+}
+export interface RecommendOption {
+  antennaDesignId: string;
+  mastHeightM: number;
+  feedlineId: string;
+  cost: number;
+  marginDb: number;
+  deliveryProbability: number;
+  meetsTarget: boolean;
+  reason?: string;
+  [key: string]: unknown;
+}
+export interface Recommendation {
+  options: RecommendOption[];
+  message?: string;
+  [key: string]: unknown;
+}
+export const recommend = (planId: string, nodeId: string, body: RecommendRequest): Promise<Recommendation> =>
+  request<Recommendation>('POST', `/plans/${planId}/nodes/${nodeId}/recommend`, body);
+
+export const visitSheetUrl = (planId: string, nodeId: string): string => `${base}/plans/${planId}/nodes/${nodeId}/visit-sheet`;
+export const getVisitSheet = (planId: string, nodeId: string): Promise<Record<string, unknown>> =>
+  request<Record<string, unknown>>('GET', `/plans/${planId}/nodes/${nodeId}/visit-sheet?format=json`);
+
+export interface ReadingInput {
+  nodeId: string;
+  gatewayId: string;
+  rssiDbm: number;
+  snrDb: number;
+  sf: number;
+  measuredAt: string;
+  lat?: number;
+  lon?: number;
+  note?: string;
+}
+export interface Reading extends ReadingInput {
+  id: string;
+  predictedRssiDbm?: number | null;
+  differenceDb?: number | null;
+  [key: string]: unknown;
+}
+export const postReading = (planId: string, body: ReadingInput): Promise<Reading> =>
+  request<Reading>('POST', `/plans/${planId}/readings`, body);
+
+export interface FleetRow {
+  nodeId: string;
+  nodeName?: string;
+  status: LinkStatus;
+  bestGatewayId?: string | null;
+  marginDb?: number | null;
+  rssiDbm?: number | null;
+  snrDb?: number | null;
+  bestSf?: number | null;
+  combinedDeliveryProbability?: number | null;
+  gatewaysWithMargin?: number;
+  [key: string]: unknown;
+}
+export interface FleetTable extends ListPage<FleetRow> {
+  counts?: Partial<Record<LinkStatus, number>>;
+}
+export async function getFleet(planId: string, status?: LinkStatus): Promise<FleetTable> {
+  const rows: FleetRow[] = [];
+  let counts: FleetTable['counts'];
+  let cursor: string | null = null;
+  let total = 0;
+  for (let guard = 0; guard < 200; guard++) {
+    const q = new URLSearchParams({ limit: '500' });
+    if (status) q.set('status', status);
+    if (cursor) q.set('cursor', cursor);
+    const page: FleetTable = await request<FleetTable>('GET', `/plans/${planId}/links?${q.toString()}`);
+    rows.push(...page.items);
+    counts = counts ?? page.counts;
+    total = page.total;
+    if (!page.next || page.items.length === 0) break;
+    cursor = page.next;
+  }
+  return { items: rows, total, next: null, counts };
+}
+
+// ---------- coverage ----------
+
+export type RunState = 'queued' | 'running' | 'done' | 'failed' | 'cancelled';
+export interface CoverageRun {
+  id: string;
+  state?: RunState;
+  status?: RunState;
+  progress?: number;
+  error?: string | null;
+  gatewayId?: string | null;
+  mode?: string;
+  summary?: Record<string, unknown> | null;
+  [key: string]: unknown;
+}
+export interface CoverageRequest {
+  gatewayId?: string;
+  gatewayIds?: string[];
+  mode?: 'los' | 'fast' | 'full';
+  radiusKm?: number;
+  targetHeightM?: number;
+}
+export const runState = (run: CoverageRun): RunState => (run.state ?? run.status ?? 'queued');
+export const startCoverage = (planId: string, body: CoverageRequest): Promise<CoverageRun> =>
+  request<CoverageRun>('POST', `/plans/${planId}/coverage`, body);
+export const getCoverage = (planId: string, runId: string): Promise<CoverageRun> =>
+  request<CoverageRun>('GET', `/plans/${planId}/coverage/${runId}`);
+export const cancelCoverage = (planId: string, runId: string): Promise<CoverageRun> =>
+  request<CoverageRun>('POST', `/plans/${planId}/coverage/${runId}/cancel`, {});
+export async function listCoverage(planId: string): Promise<CoverageRun[]> {
+  const body = await request<ListPage<CoverageRun> | CoverageRun[]>('GET', `/plans/${planId}/coverage`);
+  return Array.isArray(body) ? body : body.items;
+}
+export const coverageEventsUrl = (planId: string, runId: string): string => `${base}/plans/${planId}/coverage/${runId}/events`;
+export const coverageTileUrl = (planId: string, runId: string, layer?: string): string =>
+  `${base}/plans/${planId}/coverage/${runId}/tiles/{z}/{x}/{y}.png${layer ? `?layer=${layer}` : ''}`;
+
+export interface LegendEntry {
+  label: string;
+  color: string;
+  minDb?: number | null;
+  maxDb?: number | null;
+  [key: string]: unknown;
+}
+export async function getCoverageLegend(planId: string, runId: string, layer?: string): Promise<LegendEntry[]> {
+  const body = await request<{ entries?: LegendEntry[]; classes?: LegendEntry[]; items?: LegendEntry[] } | LegendEntry[]>(
+    'GET',
+    `/plans/${planId}/coverage/${runId}/legend${layer ? `?layer=${layer}` : ''}`,
+  );
+  if (Array.isArray(body)) return body;
+  return body.entries ?? body.classes ?? body.items ?? [];
+}
+
+// ---------- session ----------
+
+export interface Me {
+  userId?: string;
+  teamId?: string;
+  role: 'planner' | 'installer' | 'viewer';
+  name?: string;
+  teamName?: string;
+  [key: string]: unknown;
+}
+export const getMe = (): Promise<Me> => request<Me>('GET', '/me');

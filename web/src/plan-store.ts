@@ -1,0 +1,202 @@
+// The plan being viewed: its nodes, gateways, sites, catalog and the fleet
+// status per node, plus every edit the planner makes (so it can be undone)
+// and the explanation of a 409 version conflict.
+import {
+  ApiError,
+  createEntity,
+  deleteEntity,
+  getCatalog,
+  getFleet,
+  getPlan,
+  listEntities,
+  updateEntity,
+  type Catalog,
+  type Entity,
+  type EntityKind,
+  type FleetNode,
+  type FleetRow,
+  type Gateway,
+  type Plan,
+  type Site,
+} from './api.ts';
+import { kindLabel } from './views/edit-dialog.ts';
+import { h, openDialog } from './ui.ts';
+
+export interface UndoEntry {
+  label: string;
+  run: () => Promise<void>;
+}
+
+/** Fields a create call accepts back when an undo re-creates a deleted object. */
+const serverFields = new Set(['id', 'planId', 'version', 'createdAt', 'updatedAt']);
+
+export class PlanStore {
+  readonly planId: string;
+  plan!: Plan;
+  nodes: FleetNode[] = [];
+  gateways: Gateway[] = [];
+  sites: Site[] = [];
+  catalog: Catalog = { antennas: [], feedlines: [], masts: [] };
+  fleet = new Map<string, FleetRow>();
+  /** Why the fleet status is missing, if it is (e.g. the links API is not deployed yet). */
+  fleetProblem: string | null = null;
+  undoStack: UndoEntry[] = [];
+  private listeners = new Set<() => void>();
+
+  constructor(planId: string) {
+    this.planId = planId;
+  }
+
+  onChange(listener: () => void): () => void {
+    this.listeners.add(listener);
+    return () => this.listeners.delete(listener);
+  }
+  changed(): void {
+    for (const l of this.listeners) l();
+  }
+
+  async load(): Promise<void> {
+    const [plan, nodes, gateways, sites, catalog] = await Promise.all([
+      getPlan(this.planId),
+      listEntities<FleetNode>(this.planId, 'nodes'),
+      listEntities<Gateway>(this.planId, 'gateways'),
+      listEntities<Site>(this.planId, 'sites'),
+      getCatalog().catch(() => ({ antennas: [], feedlines: [], masts: [] }) as Catalog),
+    ]);
+    this.plan = plan;
+    this.nodes = nodes;
+    this.gateways = gateways;
+    this.sites = sites;
+    this.catalog = catalog;
+    await this.loadFleet();
+  }
+
+  async loadFleet(): Promise<void> {
+    try {
+      const table = await getFleet(this.planId);
+      this.fleet = new Map(table.items.map((row) => [row.nodeId, row]));
+      this.fleetProblem = null;
+    } catch (err) {
+      this.fleet = new Map();
+      this.fleetProblem = err instanceof ApiError && err.status === 404 ? 'link predictions are not available on this server yet' : `link predictions failed: ${err instanceof Error ? err.message : String(err)}`;
+    }
+  }
+
+  list(kind: EntityKind): Entity[] {
+    return kind === 'nodes' ? this.nodes : kind === 'gateways' ? this.gateways : this.sites;
+  }
+  find(kind: EntityKind, id: string): Entity | undefined {
+    return this.list(kind).find((e) => e.id === id);
+  }
+  private put(kind: EntityKind, entity: Entity): void {
+    const list = this.list(kind);
+    const i = list.findIndex((e) => e.id === entity.id);
+    if (i >= 0) list[i] = entity;
+    else list.push(entity);
+  }
+  private drop(kind: EntityKind, id: string): void {
+    const list = this.list(kind);
+    const i = list.findIndex((e) => e.id === id);
+    if (i >= 0) list.splice(i, 1);
+  }
+  private pushUndo(entry: UndoEntry): void {
+    this.undoStack.push(entry);
+    if (this.undoStack.length > 30) this.undoStack.shift();
+  }
+
+  async create(kind: EntityKind, body: Record<string, unknown>, recordUndo = true): Promise<Entity> {
+    const created = await createEntity<Entity>(this.planId, kind, body);
+    this.put(kind, created);
+    if (recordUndo) {
+      this.pushUndo({ label: `added ${kindLabel[kind]} ${created.name}`, run: () => this.remove(kind, created.id, false) });
+    }
+    await this.afterWrite(kind);
+    return created;
+  }
+
+  async update(kind: EntityKind, id: string, changes: Record<string, unknown>, recordUndo = true, label?: string): Promise<Entity> {
+    const before = this.find(kind, id);
+    if (!before) throw new Error(`${kindLabel[kind]} ${id} is no longer in this plan`);
+    const beforeRecord = before as unknown as Record<string, unknown>;
+    const previous: Record<string, unknown> = {};
+    for (const key of Object.keys(changes)) previous[key] = beforeRecord[key] ?? null;
+    const updated = await updateEntity<Entity>(this.planId, kind, id, { ...changes, version: before.version });
+    this.put(kind, updated);
+    if (recordUndo) {
+      this.pushUndo({ label: label ?? `edited ${kindLabel[kind]} ${updated.name}`, run: () => this.update(kind, id, previous, false).then(() => undefined) });
+    }
+    await this.afterWrite(kind);
+    return updated;
+  }
+
+  async remove(kind: EntityKind, id: string, recordUndo = true): Promise<void> {
+    const before = this.find(kind, id);
+    if (!before) return;
+    await deleteEntity(this.planId, kind, id, before.version);
+    this.drop(kind, id);
+    if (recordUndo) {
+      const copy: Record<string, unknown> = {};
+      for (const [key, value] of Object.entries(before)) if (!serverFields.has(key) && value !== null) copy[key] = value;
+      this.pushUndo({ label: `deleted ${kindLabel[kind]} ${before.name}`, run: () => this.create(kind, copy, false).then(() => undefined) });
+    }
+    await this.afterWrite(kind);
+  }
+
+  async undo(): Promise<string | null> {
+    const entry = this.undoStack.pop();
+    if (!entry) return null;
+    await entry.run();
+    return entry.label;
+  }
+
+  private async afterWrite(kind: EntityKind): Promise<void> {
+    // Link predictions depend on nodes, gateways and kit: refresh the statuses.
+    if (kind !== 'sites') await this.loadFleet();
+    this.changed();
+  }
+
+  /** Reloads one object after a conflict so the map shows the stored state. */
+  async reloadAll(): Promise<void> {
+    await this.load();
+    this.changed();
+  }
+}
+
+/** A write failed: explain it in words (409 gets its own dialog) and return the one-line text. */
+export function explainWriteError(err: unknown, store: PlanStore, what: string): string {
+  if (err instanceof ApiError && err.status === 409) {
+    openDialog('Someone else changed this first', (body, close) => {
+      body.append(
+        h(
+          'p',
+          {},
+          `Your change to ${what} was not saved: the copy you were editing is older than the one on the server (another person, tab or import changed it since you loaded the plan). `,
+          'Nothing was overwritten.',
+        ),
+        h('p', {}, 'Reload to see the current values, then make your change again if it is still needed.'),
+        h('p', { class: 'muted' }, `Server said: ${err.message}`),
+        h(
+          'div',
+          { class: 'dialog-actions' },
+          h(
+            'button',
+            {
+              type: 'button',
+              class: 'primary',
+              onclick: () => {
+                close();
+                void store.reloadAll();
+              },
+            },
+            'Reload the plan',
+          ),
+          h('button', { type: 'button', onclick: close }, 'Close'),
+        ),
+      );
+    });
+    return `Not saved: ${what} was changed by someone else (version conflict).`;
+  }
+  if (err instanceof ApiError && err.status === 403) return `Not saved: your role may not change ${what} (${err.message}).`;
+  if (err instanceof ApiError) return `Not saved: ${err.message}`;
+  return `Not saved: ${err instanceof Error ? err.message : String(err)}`;
+}

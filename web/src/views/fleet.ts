@@ -1,0 +1,175 @@
+// Fleet table: every node with its predicted status and best link; sortable
+// by any column, filterable by status, each row linked to the map.
+import type { Route } from '../router.ts';
+import { planHash } from '../router.ts';
+import { PlanStore } from '../plan-store.ts';
+import { clear, db, dbm, h, metres, notice, percent } from '../ui.ts';
+import { nodeSymbolSvg, statusStyle, symbolElement, type NodeClass } from '../symbols.ts';
+
+interface Row {
+  id: string;
+  name: string;
+  status: NodeClass;
+  gateway: string;
+  marginDb: number | null;
+  rssiDbm: number | null;
+  snrDb: number | null;
+  bestSf: number | null;
+  delivery: number | null;
+  heard: number | null;
+  device: string;
+  heightM: number | null;
+}
+
+type Key = keyof Row;
+const statusOrder: Record<NodeClass, number> = { unserved: 0, marginal: 1, served: 2, unknown: 3 };
+
+const columns: Array<{ key: Key; label: string; numeric?: boolean }> = [
+  { key: 'name', label: 'Node' },
+  { key: 'status', label: 'Status' },
+  { key: 'gateway', label: 'Best gateway' },
+  { key: 'marginDb', label: 'Margin (dB)', numeric: true },
+  { key: 'rssiDbm', label: 'RSSI (dBm)', numeric: true },
+  { key: 'snrDb', label: 'SNR (dB)', numeric: true },
+  { key: 'bestSf', label: 'Best SF', numeric: true },
+  { key: 'delivery', label: 'Delivery', numeric: true },
+  { key: 'heard', label: 'Gateways with margin', numeric: true },
+  { key: 'device', label: 'Device' },
+  { key: 'heightM', label: 'Antenna height (m)', numeric: true },
+];
+
+const num = (v: unknown): number | null => (typeof v === 'number' && Number.isFinite(v) ? v : null);
+
+export async function renderFleet(main: HTMLElement, route: Route): Promise<void> {
+  const planId = route.planId as string;
+  const store = new PlanStore(planId);
+  await store.load();
+  main.append(h('h1', {}, `Fleet table · ${store.plan.name}`));
+  if (store.fleetProblem) main.append(notice('info', `Statuses are missing: ${store.fleetProblem}.`));
+
+  const rows: Row[] = store.nodes.map((n) => {
+    const f = store.fleet.get(n.id);
+    const gw = f?.bestGatewayId ? store.gateways.find((g) => g.id === f.bestGatewayId)?.name ?? f.bestGatewayId : '';
+    return {
+      id: n.id,
+      name: n.name,
+      status: f?.status ?? 'unknown',
+      gateway: gw ?? '',
+      marginDb: num(f?.marginDb),
+      rssiDbm: num(f?.rssiDbm),
+      snrDb: num(f?.snrDb),
+      bestSf: num(f?.bestSf),
+      delivery: num(f?.combinedDeliveryProbability),
+      heard: num(f?.gatewaysWithMargin),
+      device: n.deviceType,
+      heightM: num(n.antennaHeightAglM),
+    };
+  });
+
+  let sortKey: Key = 'status';
+  let ascending = true;
+  const filter = h('select', { id: 'fleet-filter' });
+  for (const [value, label] of [
+    ['', 'all statuses'],
+    ['served', 'served'],
+    ['marginal', 'marginal'],
+    ['unserved', 'unserved'],
+    ['unknown', 'not predicted'],
+  ]) {
+    filter.append(h('option', { value }, label));
+  }
+  if (route.params.get('status')) filter.value = route.params.get('status') ?? '';
+  const search = h('input', { type: 'search', id: 'fleet-search', placeholder: 'name or device' });
+  const countLine = h('p', { id: 'fleet-count', 'aria-live': 'polite' });
+  const table = h('table', { class: 'data-table', id: 'fleet-table' });
+  main.append(
+    h(
+      'div',
+      { class: 'toolbar' },
+      h('label', { for: 'fleet-filter' }, 'Status '),
+      filter,
+      h('label', { for: 'fleet-search' }, ' Search '),
+      search,
+    ),
+    countLine,
+    h('div', { class: 'table-scroll' }, table),
+  );
+
+  const compare = (a: Row, b: Row): number => {
+    const va = a[sortKey];
+    const vb = b[sortKey];
+    let c: number;
+    if (sortKey === 'status') c = statusOrder[a.status] - statusOrder[b.status];
+    else if (va === null || va === undefined) c = vb === null || vb === undefined ? 0 : 1;
+    else if (vb === null || vb === undefined) c = -1;
+    else if (typeof va === 'number' && typeof vb === 'number') c = va - vb;
+    else c = String(va).localeCompare(String(vb), undefined, { numeric: true });
+    if (c === 0) c = a.name.localeCompare(b.name, undefined, { numeric: true });
+    return ascending ? c : -c;
+  };
+
+  const draw = (): void => {
+    clear(table);
+    const q = search.value.trim().toLowerCase();
+    const shown = rows
+      .filter((r) => !filter.value || r.status === filter.value)
+      .filter((r) => !q || r.name.toLowerCase().includes(q) || r.device.toLowerCase().includes(q))
+      .sort(compare);
+    const c = { served: 0, marginal: 0, unserved: 0, unknown: 0 };
+    for (const r of rows) c[r.status] += 1;
+    countLine.textContent = `Showing ${shown.length} of ${rows.length} nodes (${c.served} served, ${c.marginal} marginal, ${c.unserved} unserved${c.unknown ? `, ${c.unknown} not predicted` : ''}).`;
+    table.append(h('caption', { class: 'visually-hidden' }, 'Nodes of the plan with their predicted status; the column buttons sort the table'));
+    const head = h('tr', {});
+    for (const col of columns) {
+      const active = col.key === sortKey;
+      const button = h(
+        'button',
+        {
+          type: 'button',
+          class: 'sort-button',
+          onclick: () => {
+            if (sortKey === col.key) ascending = !ascending;
+            else {
+              sortKey = col.key;
+              ascending = true;
+            }
+            draw();
+          },
+        },
+        col.label,
+        active ? (ascending ? ' ▲' : ' ▼') : '',
+      );
+      head.append(h('th', { scope: 'col', 'aria-sort': active ? (ascending ? 'ascending' : 'descending') : 'none', class: col.numeric ? 'num' : '' }, button));
+    }
+    head.append(h('th', { scope: 'col' }, 'Map'));
+    table.append(h('thead', {}, head));
+    const body = h('tbody', {});
+    for (const r of shown) {
+      body.append(
+        h(
+          'tr',
+          { 'data-node-id': r.id },
+          h('th', { scope: 'row' }, r.name),
+          h('td', {}, symbolElement(nodeSymbolSvg(r.status, 14), ''), ` ${r.status === 'unknown' ? 'not predicted' : r.status}`),
+          h('td', {}, r.gateway || '–'),
+          h('td', { class: r.marginDb !== null && r.marginDb < 0 ? 'num neg' : 'num' }, db(r.marginDb)),
+          h('td', { class: 'num' }, dbm(r.rssiDbm)),
+          h('td', { class: 'num' }, db(r.snrDb)),
+          h('td', { class: 'num' }, r.bestSf ? `SF${r.bestSf}` : '–'),
+          h('td', { class: 'num' }, percent(r.delivery)),
+          h('td', { class: 'num' }, r.heard === null ? '–' : String(r.heard)),
+          h('td', {}, r.device),
+          h('td', { class: 'num' }, metres(r.heightM)),
+          h('td', {}, h('a', { href: planHash(planId, `?node=${encodeURIComponent(r.id)}`), 'aria-label': `Show ${r.name} on the map` }, 'Show on map')),
+        ),
+      );
+    }
+    table.append(body);
+  };
+  filter.addEventListener('change', draw);
+  search.addEventListener('input', draw);
+  draw();
+  main.append(
+    h('ul', { class: 'status-key inline' }, ...(Object.keys(statusStyle) as NodeClass[]).map((c) => h('li', {}, symbolElement(nodeSymbolSvg(c, 14), ''), statusStyle[c].label))),
+  );
+}

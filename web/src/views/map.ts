@@ -1,0 +1,352 @@
+// The plan map: the plan's own hillshade as base layer (works offline),
+// nodes by status (shape + colour), gateways, candidate sites, coverage
+// overlays; planner editing (add, drag, edit, delete, import, undo); the
+// side panel shows the selected object (the node panel has the link check).
+import * as L from 'leaflet';
+import { hillshadeTileUrl, listTerrain, type Entity, type EntityKind, type FleetNode } from '../api.ts';
+import { explainWriteError, PlanStore } from '../plan-store.ts';
+import type { Route } from '../router.ts';
+import { canEdit } from '../session.ts';
+import { announce, append, clear, coords, errorText, h, metres, notice, openDialog } from '../ui.ts';
+import { gatewaySymbolSvg, nodeSymbolSvg, siteSymbolSvg, statusStyle, symbolElement, type NodeClass } from '../symbols.ts';
+import { kindLabel, openEditDialog } from './edit-dialog.ts';
+import { openImportDialog } from './import-dialog.ts';
+import { renderNodePanel } from './node-panel.ts';
+import { renderCoveragePanel } from './coverage-panel.ts';
+
+export function nodeClass(store: PlanStore, nodeId: string): NodeClass {
+  return store.fleet.get(nodeId)?.status ?? 'unknown';
+}
+
+export async function renderMap(main: HTMLElement, route: Route): Promise<() => void> {
+  const planId = route.planId as string;
+  const store = new PlanStore(planId);
+  const loading = h('p', { class: 'muted' }, 'Loading the plan…');
+  main.append(loading);
+  await store.load();
+  loading.remove();
+
+  const mapEl = h('div', { class: 'map', id: 'plan-map', role: 'region', 'aria-label': `Map of plan ${store.plan.name}` });
+  const sidebar = h('aside', { class: 'sidebar', 'aria-label': 'Plan tools' });
+  const detail = h('section', { class: 'panel detail', id: 'detail-panel', 'aria-live': 'polite', 'aria-label': 'Selected object' });
+  main.append(h('div', { class: 'map-layout' }, h('div', { class: 'map-wrap' }, mapEl), sidebar));
+
+  const map = L.map(mapEl, { zoomControl: true, keyboard: true, attributionControl: true, preferCanvas: false });
+  map.attributionControl.setPrefix(false);
+  const hillshade = L.tileLayer(hillshadeTileUrl(planId), {
+    maxZoom: 18,
+    minZoom: 5,
+    attribution: 'Hillshade from the plan’s terrain layers',
+  });
+  hillshade.addTo(map);
+  let terrainNote = '';
+  try {
+    const layers = await listTerrain(planId);
+    if (layers.length === 0) terrainNote = 'This plan has no terrain layer yet: the base layer is blank until one is uploaded.';
+    else if (layers.some((l) => /synthetic/i.test(String(l.name ?? '') + String(l.source ?? '') + String(l.notes ?? ''))))
+      terrainNote = 'Terrain: synthetic demo terrain (not a real place).';
+  } catch (err) {
+    terrainNote = `Terrain layers could not be listed: ${errorText(err)}`;
+  }
+  const onlineUrl = typeof store.plan.onlineBaseLayerUrl === 'string' ? store.plan.onlineBaseLayerUrl : null;
+  const online = onlineUrl ? L.tileLayer(onlineUrl, { maxZoom: 19, attribution: 'Configured online base layer' }) : null;
+
+  const nodeLayer = L.layerGroup().addTo(map);
+  const gatewayLayer = L.layerGroup().addTo(map);
+  const siteLayer = L.layerGroup().addTo(map);
+  const markers = new Map<string, L.Marker>();
+  let selected: { kind: EntityKind; id: string } | null = null;
+
+  // ---------- sidebar: layers ----------
+  const layersPanel = h('section', { class: 'panel', 'aria-labelledby': 'layers-h' }, h('h2', { id: 'layers-h' }, store.plan.name));
+  const toggle = (label: string, layer: L.Layer, on: boolean, symbol?: HTMLElement): HTMLElement => {
+    const box = h('input', { type: 'checkbox' });
+    box.checked = on;
+    box.addEventListener('change', () => {
+      if (box.checked) map.addLayer(layer);
+      else map.removeLayer(layer);
+    });
+    return h('label', { class: 'toggle' }, box, symbol ?? null, label);
+  };
+  const counts = h('p', { class: 'muted', id: 'fleet-counts' });
+  append(
+    layersPanel,
+    h('p', { class: 'muted' }, `Target margin ${store.plan.targetMarginDb ?? '–'} dB · band plan ${store.plan.bandPlanId ?? '–'}`),
+    h(
+      'fieldset',
+      { class: 'layer-list' },
+      h('legend', {}, 'Layers'),
+      toggle('Hillshade (plan terrain)', hillshade, true),
+      online ? toggle('Online base layer', online, false) : null,
+      toggle('Nodes', nodeLayer, true),
+      toggle('Gateways', gatewayLayer, true, symbolElement(gatewaySymbolSvg(18), '')),
+      toggle('Candidate sites', siteLayer, true, symbolElement(siteSymbolSvg(16), '')),
+    ),
+    h(
+      'ul',
+      { class: 'status-key', 'aria-label': 'Node status key' },
+      ...(Object.keys(statusStyle) as NodeClass[]).map((c) => h('li', {}, symbolElement(nodeSymbolSvg(c, 16), ''), statusStyle[c].label)),
+    ),
+    counts,
+    terrainNote ? h('p', { class: 'muted small' }, terrainNote) : null,
+  );
+  if (store.fleetProblem) layersPanel.append(notice('info', `Node status not shown: ${store.fleetProblem}.`));
+
+  // A keyboard route to every node without hunting markers on the map.
+  const finder = h('select', { id: 'node-finder', 'aria-label': 'Find a node' });
+  const fillFinder = (): void => {
+    clear(finder);
+    finder.append(h('option', { value: '' }, `Find a node (${store.nodes.length})…`));
+    for (const n of [...store.nodes].sort((a, b) => a.name.localeCompare(b.name))) {
+      finder.append(h('option', { value: n.id }, `${n.name} · ${nodeClass(store, n.id)}`));
+    }
+  };
+  finder.addEventListener('change', () => {
+    if (finder.value) select('nodes', finder.value, true);
+  });
+  layersPanel.append(h('div', { class: 'field' }, h('label', { for: 'node-finder' }, 'Go to node'), finder));
+
+  // ---------- sidebar: editing tools ----------
+  const tools = h('section', { class: 'panel', 'aria-labelledby': 'tools-h' }, h('h2', { id: 'tools-h' }, 'Edit the fleet'));
+  const toolStatus = h('p', { class: 'tool-status', 'aria-live': 'polite' });
+  const undoButton = h('button', { type: 'button', id: 'undo-button', disabled: true }, 'Undo last change');
+  let placing: EntityKind | null = null;
+  const placeButtons = new Map<EntityKind, HTMLButtonElement>();
+  const setPlacing = (kind: EntityKind | null): void => {
+    placing = kind;
+    mapEl.classList.toggle('placing', kind !== null);
+    for (const [k, b] of placeButtons) b.setAttribute('aria-pressed', String(k === kind));
+    toolStatus.textContent = kind ? `Click the map where the new ${kindLabel[kind]} goes (Esc cancels), or use “at map centre”.` : '';
+  };
+  const addAt = async (kind: EntityKind, latlng: L.LatLng): Promise<void> => {
+    setPlacing(null);
+    const n = store.list(kind).length + 1;
+    const body: Record<string, unknown> = { name: `New ${kindLabel[kind]} ${n}`, lat: round6(latlng.lat), lon: round6(latlng.lng) };
+    const antenna = store.catalog.antennas[0]?.id;
+    const feedline = store.catalog.feedlines[0]?.id;
+    if (kind === 'nodes') Object.assign(body, { deviceType: 'sensor', antennaDesignId: antenna, antennaHeightAglM: 1.5 });
+    if (kind === 'gateways') Object.assign(body, { antennaDesignId: antenna, antennaHeightAglM: 10, feedlineId: feedline, feedlineLengthM: 10 });
+    try {
+      const created = await store.create(kind, body);
+      announce(`Added ${kindLabel[kind]} ${created.name}`);
+      select(kind, created.id, true);
+    } catch (err) {
+      toolStatus.textContent = explainWriteError(err, store, `the new ${kindLabel[kind]}`);
+    }
+  };
+  if (canEdit()) {
+    const row = h('div', { class: 'button-row' });
+    for (const kind of ['nodes', 'gateways', 'sites'] as EntityKind[]) {
+      const b = h('button', { type: 'button', 'aria-pressed': 'false', onclick: () => setPlacing(placing === kind ? null : kind) }, `Add ${kindLabel[kind]}`);
+      placeButtons.set(kind, b);
+      row.append(b);
+    }
+    const centre = h('button', { type: 'button', onclick: () => placing && void addAt(placing, map.getCenter()) }, 'Place at map centre');
+    tools.append(
+      row,
+      h('div', { class: 'button-row' }, centre, h('button', { type: 'button', id: 'import-button', onclick: () => openImportDialog(store) }, 'Import nodes (CSV / GeoJSON)'), undoButton),
+      toolStatus,
+      h('p', { class: 'muted small' }, 'Drag a marker to move it. Select an object to edit or delete it.'),
+    );
+  } else {
+    tools.append(h('p', { class: 'muted' }, 'Your role can read this plan; only planners edit it.'));
+  }
+  undoButton.addEventListener('click', () => {
+    void store
+      .undo()
+      .then((label) => {
+        toolStatus.textContent = label ? `Undone: ${label}.` : 'Nothing to undo.';
+        announce(toolStatus.textContent);
+      })
+      .catch((err: unknown) => {
+        toolStatus.textContent = explainWriteError(err, store, 'the undo');
+      });
+  });
+
+  const coveragePanel = h('section', { class: 'panel', 'aria-labelledby': 'coverage-h' });
+  sidebar.append(layersPanel, detail, tools, coveragePanel);
+  const stopCoverage = renderCoveragePanel(coveragePanel, store, map);
+
+  // ---------- markers ----------
+  const draggable = canEdit();
+  function markerFor(kind: EntityKind, entity: Entity): L.Marker {
+    let html: string;
+    let size: [number, number];
+    let title: string;
+    if (kind === 'nodes') {
+      const cls = nodeClass(store, entity.id);
+      const isSel = selected?.kind === 'nodes' && selected.id === entity.id;
+      html = nodeSymbolSvg(cls, isSel ? 24 : 18, isSel);
+      size = isSel ? [24, 24] : [18, 18];
+      title = `Node ${entity.name}: ${cls}`;
+    } else if (kind === 'gateways') {
+      html = gatewaySymbolSvg(28);
+      size = [28, 28];
+      title = `Gateway ${entity.name}`;
+    } else {
+      html = siteSymbolSvg(22);
+      size = [22, 22];
+      title = `Candidate site ${entity.name}`;
+    }
+    const icon = L.divIcon({ html, className: `marker marker-${kind}`, iconSize: size, iconAnchor: [size[0] / 2, size[1] / 2] });
+    const marker = L.marker([entity.lat, entity.lon], { icon, title, alt: title, keyboard: true, draggable, riseOnHover: true, autoPan: true });
+    marker.on('click', () => select(kind, entity.id, false));
+    marker.on('dragend', () => {
+      const to = marker.getLatLng();
+      const current = store.find(kind, entity.id);
+      if (!current) return;
+      void store
+        .update(kind, entity.id, { lat: round6(to.lat), lon: round6(to.lng) }, true, `moved ${kindLabel[kind]} ${current.name}`)
+        .then(() => {
+          toolStatus.textContent = `Moved ${current.name} to ${coords(to.lat, to.lng)}.`;
+          announce(toolStatus.textContent);
+        })
+        .catch((err: unknown) => {
+          marker.setLatLng([current.lat, current.lon]);
+          toolStatus.textContent = explainWriteError(err, store, `${kindLabel[kind]} ${current.name}`);
+        });
+    });
+    return marker;
+  }
+  function drawMarkers(): void {
+    nodeLayer.clearLayers();
+    gatewayLayer.clearLayers();
+    siteLayer.clearLayers();
+    markers.clear();
+    const layerOf: Record<EntityKind, L.LayerGroup> = { nodes: nodeLayer, gateways: gatewayLayer, sites: siteLayer };
+    for (const kind of ['sites', 'nodes', 'gateways'] as EntityKind[]) {
+      for (const entity of store.list(kind)) {
+        const m = markerFor(kind, entity);
+        m.addTo(layerOf[kind]);
+        markers.set(`${kind}:${entity.id}`, m);
+      }
+    }
+    const c = { served: 0, marginal: 0, unserved: 0, unknown: 0 };
+    for (const n of store.nodes) c[nodeClass(store, n.id)] += 1;
+    counts.textContent = `${store.nodes.length} nodes: ${c.served} served, ${c.marginal} marginal, ${c.unserved} unserved${c.unknown ? `, ${c.unknown} not predicted` : ''} · ${store.gateways.length} gateways · ${store.sites.length} candidate sites`;
+    undoButton.disabled = store.undoStack.length === 0;
+    undoButton.textContent = store.undoStack.length ? `Undo: ${store.undoStack[store.undoStack.length - 1].label}` : 'Undo last change';
+    fillFinder();
+  }
+
+  // ---------- selection and detail panel ----------
+  function select(kind: EntityKind, id: string, pan: boolean): void {
+    selected = { kind, id };
+    const entity = store.find(kind, id);
+    drawMarkers();
+    clear(detail);
+    if (!entity) return;
+    if (pan) map.panTo([entity.lat, entity.lon]);
+    if (kind === 'nodes') {
+      const url = new URL(location.href);
+      history.replaceState(null, '', `${url.pathname}#/plan/${encodeURIComponent(planId)}?node=${encodeURIComponent(id)}`);
+      void renderNodePanel(detail, store, entity as FleetNode, {
+        onEdit: () => edit(kind, id),
+        onDelete: () => remove(kind, id),
+      });
+    } else {
+      append(
+        detail,
+        h('h2', {}, `${kind === 'gateways' ? 'Gateway' : 'Candidate site'}: ${entity.name}`),
+        h('p', {}, coords(entity.lat, entity.lon)),
+        kind === 'gateways' ? h('p', {}, `Antenna ${metres(Number(entity.antennaHeightAglM))} above ground`) : h('p', {}, `Kind: ${String(entity.kind ?? 'candidate')}`),
+        entity.notes ? h('p', { class: 'muted' }, String(entity.notes)) : null,
+        canEdit()
+          ? h(
+              'div',
+              { class: 'button-row' },
+              h('button', { type: 'button', onclick: () => edit(kind, id) }, 'Edit'),
+              h('button', { type: 'button', class: 'danger', onclick: () => remove(kind, id) }, 'Delete'),
+            )
+          : null,
+      );
+    }
+  }
+
+  function edit(kind: EntityKind, id: string): void {
+    const entity = store.find(kind, id);
+    if (!entity) return;
+    openEditDialog(kind, entity, store.catalog, async (changes) => {
+      try {
+        await store.update(kind, id, changes);
+        announce(`Saved ${entity.name}`);
+        select(kind, id, false);
+        return null;
+      } catch (err) {
+        return explainWriteError(err, store, `${kindLabel[kind]} ${entity.name}`);
+      }
+    });
+  }
+
+  function remove(kind: EntityKind, id: string): void {
+    const entity = store.find(kind, id);
+    if (!entity) return;
+    openDialog(`Delete ${kindLabel[kind]} ${entity.name}?`, (body, close) => {
+      const status = h('p', { 'aria-live': 'polite' });
+      body.append(
+        h('p', {}, `The ${kindLabel[kind]} and its cached predictions are removed from the plan. “Undo last change” puts it back (as a new object with the same values).`),
+        h(
+          'div',
+          { class: 'dialog-actions' },
+          h(
+            'button',
+            {
+              type: 'button',
+              class: 'danger',
+              onclick: () => {
+                void store
+                  .remove(kind, id)
+                  .then(() => {
+                    close();
+                    selected = null;
+                    clear(detail);
+                    announce(`Deleted ${entity.name}`);
+                  })
+                  .catch((err: unknown) => {
+                    status.textContent = explainWriteError(err, store, `${kindLabel[kind]} ${entity.name}`);
+                  });
+              },
+            },
+            'Delete',
+          ),
+          h('button', { type: 'button', onclick: close }, 'Keep it'),
+        ),
+        status,
+      );
+    });
+  }
+
+  map.on('click', (event: L.LeafletMouseEvent) => {
+    if (placing) void addAt(placing, event.latlng);
+  });
+  const onKey = (event: KeyboardEvent): void => {
+    if (event.key === 'Escape' && placing) setPlacing(null);
+  };
+  document.addEventListener('keydown', onKey);
+
+  const unsubscribe = store.onChange(() => {
+    drawMarkers();
+    if (selected && !store.find(selected.kind, selected.id)) {
+      selected = null;
+      clear(detail);
+    }
+  });
+  drawMarkers();
+
+  // initial view: the fleet's extent, or the plan's terrain
+  const all: L.LatLngExpression[] = [...store.nodes, ...store.gateways, ...store.sites].map((e) => [e.lat, e.lon] as L.LatLngTuple);
+  if (all.length > 0) map.fitBounds(L.latLngBounds(all), { padding: [30, 30], maxZoom: 15 });
+  else map.setView([0, 0], 5);
+  if (route.nodeId && store.find('nodes', route.nodeId)) select('nodes', route.nodeId, true);
+
+  return () => {
+    stopCoverage();
+    unsubscribe();
+    document.removeEventListener('keydown', onKey);
+    map.remove();
+  };
+}
+
+function round6(v: number): number {
+  return Math.round(v * 1e6) / 1e6;
+}

@@ -1,0 +1,331 @@
+// Node panel: the node's links to every gateway (RSSI, SNR, margin, best SF,
+// delivery probability), the path profile of the best link, a kit chooser
+// that asks the server for the margin of the chosen antenna × mast height ×
+// feedline, the server's recommendation, and the visit sheet.
+import {
+  ApiError,
+  getLinkCheck,
+  getNodeLinks,
+  recommend,
+  visitSheetUrl,
+  type FleetNode,
+  type LinkCheck,
+  type NodeLinks,
+  type RecommendOption,
+  type RecommendRequest,
+} from '../api.ts';
+import { explainWriteError, type PlanStore } from '../plan-store.ts';
+import { planHash } from '../router.ts';
+import { canEdit } from '../session.ts';
+import { announce, cautionsBlock, clear, coords, db, dbm, distance, errorText, field, fmt, h, metres, money, notice, percent, present, select } from '../ui.ts';
+import { nodeSymbolSvg, statusStyle, symbolElement, type NodeClass } from '../symbols.ts';
+import { profileChart, profileKey, profileSeries } from './profile-chart.ts';
+
+interface Actions {
+  onEdit: () => void;
+  onDelete: () => void;
+}
+
+function notAvailable(err: unknown, what: string): HTMLElement {
+  if (err instanceof ApiError && err.status === 404 && err.code !== 'not_found') return notice('info', `${what} is not available on this server yet.`);
+  return notice('error', `${what} failed: ${errorText(err)}`);
+}
+
+export function kitLabel(store: PlanStore, kit: { antennaDesignId?: string | null; mastHeightM?: number; antennaHeightAglM?: number; feedlineId?: string | null; feedlineLengthM?: number }): string {
+  const antenna = store.catalog.antennas.find((a) => a.id === kit.antennaDesignId);
+  const feedline = store.catalog.feedlines.find((f) => f.id === kit.feedlineId);
+  const height = kit.mastHeightM ?? kit.antennaHeightAglM;
+  return [
+    antenna ? `${antenna.name} (${antenna.gainDbi.toFixed(1)} dBi)` : kit.antennaDesignId ? `antenna ${kit.antennaDesignId}` : 'antenna not set',
+    `at ${metres(height)} above ground`,
+    feedline ? `${feedline.name}${kit.feedlineLengthM ? `, ${metres(kit.feedlineLengthM)}` : ''}` : 'no feedline',
+  ].join(' · ');
+}
+
+export async function renderNodePanel(panel: HTMLElement, store: PlanStore, node: FleetNode, actions: Actions): Promise<void> {
+  const status: NodeClass = store.fleet.get(node.id)?.status ?? 'unknown';
+  panel.append(
+    h('h2', { id: 'node-panel-title' }, symbolElement(nodeSymbolSvg(status, 18), ''), ` Node ${node.name}`),
+    h('p', { class: `status-line status-${status}` }, statusStyle[status].label),
+    h(
+      'dl',
+      { class: 'facts' },
+      h('dt', {}, 'Position'),
+      h('dd', {}, coords(node.lat, node.lon)),
+      h('dt', {}, 'Device'),
+      h('dd', {}, `${node.deviceType} · ${node.environment ?? 'outdoor'}`),
+      h('dt', {}, 'Kit now'),
+      h('dd', { id: 'node-kit-now' }, kitLabel(store, node)),
+      h('dt', {}, 'Transmit power'),
+      h('dd', {}, dbm(node.txPowerDbm)),
+    ),
+    h(
+      'div',
+      { class: 'button-row' },
+      canEdit() ? h('button', { type: 'button', onclick: actions.onEdit }, 'Edit node') : null,
+      canEdit() ? h('button', { type: 'button', class: 'danger', onclick: actions.onDelete }, 'Delete node') : null,
+      h('a', { class: 'button', href: visitSheetUrl(store.planId, node.id), target: '_blank', rel: 'noopener' }, 'Visit sheet (printable)'),
+      h('a', { class: 'button', href: planHash(store.planId, `/install/${encodeURIComponent(node.id)}`) }, 'Installer view'),
+    ),
+  );
+
+  // links per gateway
+  const linksBox = h('section', { class: 'subpanel', 'aria-labelledby': 'links-h' }, h('h3', { id: 'links-h' }, 'Links to gateways'), h('p', { class: 'muted' }, 'Predicting…'));
+  const profileBox = h('section', { class: 'subpanel', 'aria-labelledby': 'profile-h' }, h('h3', { id: 'profile-h' }, 'Path profile (best link)'), h('p', { class: 'muted' }, 'Loading…'));
+  const kitBox = h('section', { class: 'subpanel', 'aria-labelledby': 'kit-h' });
+  const recBox = h('section', { class: 'subpanel', 'aria-labelledby': 'rec-h' }, h('h3', { id: 'rec-h' }, 'Recommended kit'), h('p', { class: 'muted' }, 'Searching the catalog…'));
+  panel.append(linksBox, profileBox, kitBox, recBox, cautionsBlock());
+
+  const linksP = getNodeLinks(store.planId, node.id);
+  const checkP = getLinkCheck(store.planId, node.id);
+  renderKitChooser(kitBox, store, node);
+
+  try {
+    renderLinks(linksBox, store, await linksP);
+  } catch (err) {
+    clear(linksBox);
+    linksBox.append(h('h3', { id: 'links-h' }, 'Links to gateways'), notAvailable(err, 'Link prediction'));
+  }
+  try {
+    renderProfile(profileBox, await checkP);
+  } catch (err) {
+    clear(profileBox);
+    profileBox.append(h('h3', { id: 'profile-h' }, 'Path profile (best link)'), notAvailable(err, 'The link check'));
+  }
+  try {
+    const rec = await recommend(store.planId, node.id, {});
+    renderRecommendation(recBox, store, node, rec.options, rec.message);
+  } catch (err) {
+    clear(recBox);
+    recBox.append(h('h3', { id: 'rec-h' }, 'Recommended kit'), notAvailable(err, 'The kit recommendation'));
+  }
+}
+
+function gatewayName(store: PlanStore, id: string): string {
+  return store.gateways.find((g) => g.id === id)?.name ?? id;
+}
+
+function renderLinks(box: HTMLElement, store: PlanStore, links: NodeLinks): void {
+  clear(box);
+  box.append(h('h3', { id: 'links-h' }, 'Links to gateways'));
+  if (links.links.length === 0) {
+    box.append(notice('warn', 'No gateway of this plan is within range of this node.'));
+    return;
+  }
+  const rows = [...links.links].sort((a, b) => b.marginDb - a.marginDb);
+  const table = h(
+    'table',
+    { class: 'data-table compact', id: 'links-table' },
+    h('caption', { class: 'visually-hidden' }, 'Predicted link to each gateway'),
+    h(
+      'thead',
+      {},
+      h('tr', {}, ...['Gateway', 'Distance', 'Path loss', 'RSSI', 'SNR', 'Margin', 'Best SF', 'Delivery', 'Time on air', 'Legal'].map((t) => h('th', { scope: 'col' }, t))),
+    ),
+    h(
+      'tbody',
+      {},
+      ...rows.map((l) => {
+        const legal = typeof l.legal === 'boolean' ? l.legal : l.legal?.ok;
+        const legalText = legal === undefined ? '–' : legal ? 'yes' : `no${typeof l.legal === 'object' && l.legal?.message ? `: ${l.legal.message}` : ''}`;
+        return h(
+          'tr',
+          {},
+          h('th', { scope: 'row' }, l.gatewayName ?? gatewayName(store, l.gatewayId)),
+          h('td', {}, distance(l.distanceM)),
+          h('td', {}, db(l.basicLossDb)),
+          h('td', {}, dbm(l.rssiDbm)),
+          h('td', {}, db(l.snrDb)),
+          h('td', { class: l.marginDb >= 0 ? 'num' : 'num neg' }, db(l.marginDb)),
+          h('td', {}, l.bestSf ? `SF${l.bestSf}` : 'none'),
+          h('td', {}, percent(l.deliveryProbability)),
+          h('td', {}, fmt(l.timeOnAirMs ?? null, 'ms', 0)),
+          h('td', {}, legalText),
+        );
+      }),
+    ),
+  );
+  box.append(
+    h('div', { class: 'table-scroll' }, table),
+    h('p', {}, 'Probability that at least one gateway hears a message: ', h('strong', { id: 'combined-delivery' }, percent(links.combinedDeliveryProbability)), ' (gateways assumed independent).'),
+  );
+}
+
+function renderProfile(box: HTMLElement, check: LinkCheck): void {
+  clear(box);
+  box.append(h('h3', { id: 'profile-h' }, 'Path profile (best link)'));
+  const series = profileSeries(check);
+  if (!series) {
+    box.append(notice('info', 'No terrain profile for this link (no terrain under the path).'));
+  } else {
+    const wrap = h('figure', { class: 'chart' });
+    wrap.append(profileChart(series, 'Terrain profile from the node to its best gateway'), profileKey());
+    box.append(wrap);
+    if (series.obstructions.length > 0) box.append(notice('warn', `${series.obstructions.length} point(s) of terrain or clutter enter the first Fresnel zone: expect diffraction loss.`));
+    else box.append(h('p', { class: 'muted' }, 'The first Fresnel zone is clear of terrain and clutter.'));
+  }
+  const ex = check.expected;
+  if (ex?.rssiDbm || ex?.snrDb) {
+    box.append(
+      h(
+        'p',
+        { id: 'expected-range' },
+        'Expected at the gateway (10th–90th percentile): RSSI ',
+        h('strong', {}, ex.rssiDbm ? `${ex.rssiDbm.p10.toFixed(1)} to ${ex.rssiDbm.p90.toFixed(1)} dBm` : '–'),
+        ', SNR ',
+        h('strong', {}, ex.snrDb ? `${ex.snrDb.p10.toFixed(1)} to ${ex.snrDb.p90.toFixed(1)} dB` : '–'),
+        '.',
+      ),
+    );
+  }
+  if (check.cautions && check.cautions.length > 0) box.append(h('ul', { class: 'server-cautions' }, ...check.cautions.map((c) => h('li', {}, c))));
+}
+
+// ---------- kit chooser ----------
+
+function renderKitChooser(box: HTMLElement, store: PlanStore, node: FleetNode): void {
+  box.append(h('h3', { id: 'kit-h' }, 'Try another kit'));
+  if (store.catalog.antennas.length === 0) {
+    box.append(notice('info', 'The kit catalog is empty or not available on this server yet.'));
+    return;
+  }
+  const antenna = select(
+    store.catalog.antennas.map((a) => ({ value: a.id, label: `${a.name} (${a.gainDbi.toFixed(1)} dBi${a.homemade ? ', home-made' : ''})` })),
+    node.antennaDesignId,
+    { id: 'kit-antenna' },
+  );
+  const height = h('input', { id: 'kit-height', type: 'number', min: '0.3', max: '30', step: '0.5', inputmode: 'decimal' });
+  height.value = String(node.antennaHeightAglM ?? 1.5);
+  const heightRange = h('input', { id: 'kit-height-range', type: 'range', min: '0.5', max: '15', step: '0.5', 'aria-label': 'Mast height slider (m)' });
+  heightRange.value = height.value;
+  const feedline = select(
+    [{ value: '', label: 'none (antenna on the device)' }, ...store.catalog.feedlines.map((f) => ({ value: f.id, label: `${f.name} (${f.lossDbPer100m.toFixed(1)} dB/100 m)` }))],
+    node.feedlineId ?? '',
+    { id: 'kit-feedline' },
+  );
+  const out = h('div', { class: 'kit-result', id: 'kit-result', 'aria-live': 'polite' });
+  const applyStatus = h('p', { 'aria-live': 'polite' });
+  box.append(
+    h('p', { class: 'muted small' }, 'Change the antenna, the mast height or the feedline: earshot predicts this node with that kit (nothing is saved until you apply it).'),
+    h('div', { class: 'kit-grid' }, field('Antenna design', antenna), field('Mast height above ground (m)', height), heightRange, field('Feedline', feedline)),
+    out,
+  );
+  let seq = 0;
+  let lastOption: RecommendOption | null = null;
+  const evaluate = async (): Promise<void> => {
+    const mine = ++seq;
+    const heightM = Number(height.value);
+    if (!Number.isFinite(heightM) || heightM <= 0) {
+      out.replaceChildren(notice('error', 'Mast height must be a number of metres above 0.'));
+      return;
+    }
+    out.classList.add('busy');
+    const body: RecommendRequest = { antennaDesignIds: [antenna.value], mastHeightsM: [heightM] };
+    if (feedline.value) body.feedlineIds = [feedline.value];
+    try {
+      const result = await recommend(store.planId, node.id, body);
+      if (mine !== seq) return;
+      const option = result.options[0];
+      lastOption = option ?? null;
+      if (!option) {
+        out.replaceChildren(notice('warn', result.message ?? 'No prediction for this kit.'));
+        return;
+      }
+      out.replaceChildren(
+        ...present<HTMLElement>(
+        h(
+          'dl',
+          { class: 'facts big' },
+          h('dt', {}, 'Margin'),
+          h('dd', { id: 'kit-margin', class: option.marginDb >= 0 ? '' : 'neg' }, db(option.marginDb)),
+          h('dt', {}, 'Delivery probability'),
+          h('dd', { id: 'kit-delivery' }, percent(option.deliveryProbability)),
+          h('dt', {}, 'Kit cost'),
+          h('dd', {}, money(option.cost)),
+          h('dt', {}, 'Target'),
+          h('dd', {}, option.meetsTarget ? 'met ✓' : 'not met ✗'),
+        ),
+        option.reason ? h('p', { class: 'muted small' }, option.reason) : null,
+        canEdit()
+          ? h(
+              'button',
+              {
+                type: 'button',
+                id: 'kit-apply',
+                onclick: () => {
+                  if (!lastOption) return;
+                  const changes: Record<string, unknown> = {
+                    antennaDesignId: lastOption.antennaDesignId,
+                    antennaHeightAglM: lastOption.mastHeightM,
+                    feedlineId: lastOption.feedlineId || null,
+                  };
+                  void store
+                    .update('nodes', node.id, changes, true, `changed the kit of ${node.name}`)
+                    .then(() => {
+                      applyStatus.textContent = 'Kit saved to the node (undo is available).';
+                      announce(applyStatus.textContent);
+                    })
+                    .catch((err: unknown) => {
+                      applyStatus.textContent = explainWriteError(err, store, `node ${node.name}`);
+                    });
+                },
+              },
+              'Apply this kit to the node',
+            )
+          : null,
+        applyStatus,
+        heightM > 2 ? notice('warn', `A ${metres(heightM)} mast means work at height: see the safety cautions below.`) : null,
+        ),
+      );
+    } catch (err) {
+      if (mine !== seq) return;
+      out.replaceChildren(notAvailable(err, 'Predicting this kit'));
+    } finally {
+      if (mine === seq) out.classList.remove('busy');
+    }
+  };
+  let timer: number | undefined;
+  const schedule = (): void => {
+    window.clearTimeout(timer);
+    timer = window.setTimeout(() => void evaluate(), 250);
+  };
+  antenna.addEventListener('change', schedule);
+  feedline.addEventListener('change', schedule);
+  height.addEventListener('input', () => {
+    heightRange.value = height.value;
+    schedule();
+  });
+  heightRange.addEventListener('input', () => {
+    height.value = heightRange.value;
+    schedule();
+  });
+  void evaluate();
+}
+
+function renderRecommendation(box: HTMLElement, store: PlanStore, node: FleetNode, options: RecommendOption[], message?: string): void {
+  clear(box);
+  box.append(h('h3', { id: 'rec-h' }, 'Recommended kit'));
+  if (options.length === 0) {
+    box.append(notice('warn', message ?? 'The catalog has no option for this node.'));
+    return;
+  }
+  const best = options[0];
+  if (!best.meetsTarget) {
+    box.append(notice('warn', message ?? 'No option in the catalog meets the target margin. The best available is shown; another gateway site may be needed.'));
+  }
+  const list = h('ol', { class: 'rec-list', id: 'rec-list' });
+  for (const option of options.slice(0, 3)) {
+    list.append(
+      h(
+        'li',
+        {},
+        h('strong', {}, kitLabel(store, { antennaDesignId: option.antennaDesignId, mastHeightM: option.mastHeightM, feedlineId: option.feedlineId })),
+        h('br', {}),
+        `margin ${db(option.marginDb)} · delivery ${percent(option.deliveryProbability)} · cost ${money(option.cost)} · ${option.meetsTarget ? 'meets the target' : 'below the target'}`,
+        option.reason ? h('span', { class: 'muted small' }, ` — ${option.reason}`) : null,
+      ),
+    );
+  }
+  box.append(list);
+  void node;
+}

@@ -1,0 +1,171 @@
+// Path profile chart in SVG: terrain, clutter tops, the straight ray between
+// the antennas, the first Fresnel zone and the obstructions, with axes in km
+// and m. Drawn from the link check's numbers; nothing is recomputed here.
+import type { LinkCheck, ProfilePoint } from '../api.ts';
+import { s } from '../ui.ts';
+
+export interface ProfileSeries {
+  points: Array<{ distanceM: number; groundM: number | null; clutterTopM: number | null }>;
+  ray: Array<{ distanceM: number; heightM: number }>;
+  fresnel: Array<{ distanceM: number; lowerM: number; upperM: number }>;
+  obstructions: Array<{ distanceM: number; heightM: number }>;
+}
+
+function num(v: unknown): number | null {
+  return typeof v === 'number' && Number.isFinite(v) ? v : null;
+}
+
+/** Normalises the /check answer into the series the chart draws. */
+export function profileSeries(check: LinkCheck): ProfileSeries | null {
+  const raw: ProfilePoint[] = check.profile ?? check.points ?? [];
+  if (raw.length < 2) return null;
+  const points = raw.map((p) => {
+    const ground = num(p.groundM);
+    const clutterTop = num(p.clutterTopM) ?? (ground !== null && num(p.clutterHeightM) !== null ? ground + (num(p.clutterHeightM) ?? 0) : null);
+    return { distanceM: p.distanceM, groundM: ground, clutterTopM: clutterTop };
+  });
+  let ray: ProfileSeries['ray'] = [];
+  if (Array.isArray(check.ray)) ray = check.ray.map((r) => ({ distanceM: r.distanceM, heightM: r.heightM }));
+  else if (check.ray && typeof check.ray === 'object') {
+    const last = points[points.length - 1].distanceM;
+    ray = [
+      { distanceM: 0, heightM: check.ray.fromM },
+      { distanceM: last, heightM: check.ray.toM },
+    ];
+  } else {
+    // Per-point ray heights, when the server reports them beside each point.
+    ray = raw.filter((p) => num(p.rayM) !== null).map((p) => ({ distanceM: p.distanceM, heightM: num(p.rayM) ?? 0 }));
+  }
+  let fresnel: ProfileSeries['fresnel'] = [];
+  if (Array.isArray(check.fresnel)) fresnel = check.fresnel.map((f) => ({ distanceM: f.distanceM, lowerM: f.lowerM, upperM: f.upperM }));
+  else
+    fresnel = raw
+      .filter((p) => num(p.fresnelLowerM) !== null && num(p.fresnelUpperM) !== null)
+      .map((p) => ({ distanceM: p.distanceM, lowerM: num(p.fresnelLowerM) ?? 0, upperM: num(p.fresnelUpperM) ?? 0 }));
+  const obstructions = (check.obstructions ?? []).map((o) => {
+    const at = points.reduce((best, p) => (Math.abs(p.distanceM - o.distanceM) < Math.abs(best.distanceM - o.distanceM) ? p : best), points[0]);
+    return { distanceM: o.distanceM, heightM: num(o.heightM) ?? at.clutterTopM ?? at.groundM ?? 0 };
+  });
+  return { points, ray, fresnel, obstructions };
+}
+
+const W = 640;
+const H = 260;
+const pad = { left: 56, right: 14, top: 14, bottom: 40 };
+
+function niceStep(span: number, count: number): number {
+  const raw = span / count;
+  const mag = 10 ** Math.floor(Math.log10(raw));
+  const n = raw / mag;
+  return (n < 1.5 ? 1 : n < 3.5 ? 2 : n < 7.5 ? 5 : 10) * mag;
+}
+
+export function profileChart(series: ProfileSeries, title: string): SVGElement {
+  const maxD = series.points[series.points.length - 1].distanceM || 1;
+  const heights: number[] = [];
+  for (const p of series.points) {
+    if (p.groundM !== null) heights.push(p.groundM);
+    if (p.clutterTopM !== null) heights.push(p.clutterTopM);
+  }
+  for (const r of series.ray) heights.push(r.heightM);
+  for (const f of series.fresnel) heights.push(f.lowerM, f.upperM);
+  const minH = Math.min(...heights);
+  const maxH = Math.max(...heights);
+  const spanH = Math.max(10, maxH - minH);
+  const lo = minH - spanH * 0.08;
+  const hi = maxH + spanH * 0.08;
+  const x = (d: number): number => pad.left + (d / maxD) * (W - pad.left - pad.right);
+  const y = (m: number): number => pad.top + (1 - (m - lo) / (hi - lo)) * (H - pad.top - pad.bottom);
+
+  const svg = s('svg', { viewBox: `0 0 ${W} ${H}`, class: 'profile-chart', role: 'img', 'aria-labelledby': 'profile-title profile-desc' });
+  svg.append(s('title', { id: 'profile-title' }, title));
+  const groundPts = series.points.filter((p) => p.groundM !== null);
+  const lowestGround = Math.min(...groundPts.map((p) => p.groundM ?? 0));
+  const highestGround = Math.max(...groundPts.map((p) => p.groundM ?? 0));
+  svg.append(
+    s(
+      'desc',
+      { id: 'profile-desc' },
+      `Path of ${(maxD / 1000).toFixed(2)} km; ground from ${lowestGround.toFixed(0)} m to ${highestGround.toFixed(0)} m; ${series.obstructions.length} obstruction(s) in the first Fresnel zone.`,
+    ),
+  );
+
+  // grid and axes
+  const grid = s('g', { class: 'grid' });
+  const stepD = niceStep(maxD, 6);
+  for (let d = 0; d <= maxD + 1e-6; d += stepD) {
+    grid.append(s('line', { x1: x(d), x2: x(d), y1: pad.top, y2: H - pad.bottom }));
+    grid.append(s('text', { x: x(d), y: H - pad.bottom + 16, 'text-anchor': 'middle' }, (d / 1000).toFixed(stepD < 1000 ? 1 : 0)));
+  }
+  const stepH = niceStep(hi - lo, 5);
+  for (let m = Math.ceil(lo / stepH) * stepH; m <= hi; m += stepH) {
+    grid.append(s('line', { x1: pad.left, x2: W - pad.right, y1: y(m), y2: y(m) }));
+    grid.append(s('text', { x: pad.left - 6, y: y(m) + 4, 'text-anchor': 'end' }, m.toFixed(0)));
+  }
+  grid.append(s('text', { x: (pad.left + W - pad.right) / 2, y: H - 6, 'text-anchor': 'middle', class: 'axis-label' }, 'distance from node (km)'));
+  grid.append(s('text', { x: 14, y: (pad.top + H - pad.bottom) / 2, 'text-anchor': 'middle', class: 'axis-label', transform: `rotate(-90 14 ${(pad.top + H - pad.bottom) / 2})` }, 'height above sea level (m)'));
+  svg.append(grid);
+
+  // Fresnel zone band
+  if (series.fresnel.length > 1) {
+    const upper = series.fresnel.map((f) => `${x(f.distanceM).toFixed(1)},${y(f.upperM).toFixed(1)}`);
+    const lower = [...series.fresnel].reverse().map((f) => `${x(f.distanceM).toFixed(1)},${y(f.lowerM).toFixed(1)}`);
+    svg.append(s('polygon', { points: [...upper, ...lower].join(' '), class: 'fresnel' }));
+  }
+  // clutter tops
+  const clutter = series.points.filter((p) => p.clutterTopM !== null && p.groundM !== null && (p.clutterTopM ?? 0) > (p.groundM ?? 0) + 0.01);
+  if (clutter.length > 0) {
+    const pts = series.points
+      .filter((p) => p.groundM !== null)
+      .map((p) => `${x(p.distanceM).toFixed(1)},${y(p.clutterTopM ?? p.groundM ?? 0).toFixed(1)}`);
+    svg.append(s('polyline', { points: pts.join(' '), class: 'clutter' }));
+  }
+  // terrain (filled)
+  const base = y(lo);
+  const terrain = [
+    `${x(groundPts[0].distanceM).toFixed(1)},${base.toFixed(1)}`,
+    ...groundPts.map((p) => `${x(p.distanceM).toFixed(1)},${y(p.groundM ?? lo).toFixed(1)}`),
+    `${x(groundPts[groundPts.length - 1].distanceM).toFixed(1)},${base.toFixed(1)}`,
+  ];
+  svg.append(s('polygon', { points: terrain.join(' '), class: 'terrain' }));
+  // NoData gaps marked
+  for (const p of series.points) {
+    if (p.groundM === null) svg.append(s('line', { x1: x(p.distanceM), x2: x(p.distanceM), y1: pad.top, y2: H - pad.bottom, class: 'nodata' }));
+  }
+  // straight ray
+  if (series.ray.length > 1) {
+    svg.append(s('polyline', { points: series.ray.map((r) => `${x(r.distanceM).toFixed(1)},${y(r.heightM).toFixed(1)}`).join(' '), class: 'ray' }));
+  }
+  // obstructions: an X over a ring, so they read without colour
+  for (const o of series.obstructions) {
+    const cx = x(o.distanceM);
+    const cy = y(o.heightM);
+    const g = s('g', { class: 'obstruction' });
+    g.append(s('circle', { cx, cy, r: 6 }), s('path', { d: `M${cx - 4} ${cy - 4} L${cx + 4} ${cy + 4} M${cx + 4} ${cy - 4} L${cx - 4} ${cy + 4}` }));
+    g.append(s('title', {}, `Obstruction at ${(o.distanceM / 1000).toFixed(2)} km, ${o.heightM.toFixed(0)} m`));
+    svg.append(g);
+  }
+  return svg;
+}
+
+/** The chart's key, as HTML beside the SVG. */
+export function profileKey(): HTMLElement {
+  const key = document.createElement('ul');
+  key.className = 'chart-key';
+  const items: Array<[string, string]> = [
+    ['key-terrain', 'terrain'],
+    ['key-clutter', 'clutter tops'],
+    ['key-ray', 'straight ray (antenna to antenna)'],
+    ['key-fresnel', 'first Fresnel zone'],
+    ['key-obstruction', 'obstruction (⊗)'],
+  ];
+  for (const [cls, label] of items) {
+    const li = document.createElement('li');
+    const sw = document.createElement('span');
+    sw.className = `swatch ${cls}`;
+    sw.setAttribute('aria-hidden', 'true');
+    li.append(sw, label);
+    key.append(li);
+  }
+  return key;
+}

@@ -1,0 +1,149 @@
+// Manager view: the plan on one page. Share of nodes served / marginal /
+// unserved, redundancy (how many gateways hear each node with margin), the
+// kit bill from catalog prices, and the latest coverage run's summary.
+import { listCoverage, runState, type CoverageRun } from '../api.ts';
+import { PlanStore } from '../plan-store.ts';
+import type { Route } from '../router.ts';
+import { planHash } from '../router.ts';
+import { append, h, notice, percent } from '../ui.ts';
+import { nodeSymbolSvg, statusStyle, symbolElement, type NodeClass } from '../symbols.ts';
+
+const usd = (v: number): string => `${v.toLocaleString('en-US', { minimumFractionDigits: 2, maximumFractionDigits: 2 })} USD`;
+
+export async function renderSummary(main: HTMLElement, route: Route): Promise<void> {
+  const planId = route.planId as string;
+  const store = new PlanStore(planId);
+  await store.load();
+  main.append(
+    h(
+      'div',
+      { class: 'summary-head' },
+      h('h1', {}, `Plan summary · ${store.plan.name}`),
+      h('button', { type: 'button', onclick: () => window.print() }, 'Print'),
+    ),
+    h('p', { class: 'muted' }, `Target margin ${store.plan.targetMarginDb ?? '–'} dB · band plan ${store.plan.bandPlanId ?? '–'} · ${store.nodes.length} nodes · ${store.gateways.length} gateways · ${store.sites.length} candidate sites`),
+  );
+  if (store.fleetProblem) main.append(notice('info', `Link statuses are missing: ${store.fleetProblem}.`));
+
+  // service shares
+  const counts: Record<NodeClass, number> = { served: 0, marginal: 0, unserved: 0, unknown: 0 };
+  for (const n of store.nodes) counts[store.fleet.get(n.id)?.status ?? 'unknown'] += 1;
+  const total = Math.max(1, store.nodes.length);
+  const bar = h('div', { class: 'share-bar', role: 'img', 'aria-label': (Object.keys(counts) as NodeClass[]).map((c) => `${c} ${counts[c]}`).join(', ') });
+  for (const c of Object.keys(counts) as NodeClass[]) {
+    if (counts[c] === 0) continue;
+    bar.append(h('span', { class: `share share-${c}`, style: `flex-grow:${counts[c]}` }, `${Math.round((counts[c] / total) * 100)} %`));
+  }
+  main.append(
+    h(
+      'section',
+      { class: 'card', 'aria-labelledby': 'share-h', id: 'summary-shares' },
+      h('h2', { id: 'share-h' }, 'Nodes heard with margin'),
+      bar,
+      h(
+        'table',
+        { class: 'data-table compact' },
+        h('thead', {}, h('tr', {}, h('th', { scope: 'col' }, 'Status'), h('th', { scope: 'col' }, 'Nodes'), h('th', { scope: 'col' }, 'Share'))),
+        h(
+          'tbody',
+          {},
+          ...(Object.keys(counts) as NodeClass[]).map((c) =>
+            h(
+              'tr',
+              {},
+              h('th', { scope: 'row' }, symbolElement(nodeSymbolSvg(c, 14), ''), ` ${statusStyle[c].label}`),
+              h('td', { class: 'num' }, h('a', { href: planHash(planId, `/fleet?status=${c}`) }, String(counts[c]))),
+              h('td', { class: 'num' }, percent(counts[c] / total)),
+            ),
+          ),
+        ),
+      ),
+    ),
+  );
+
+  // redundancy
+  const heard = new Map<string, number>();
+  let known = 0;
+  for (const n of store.nodes) {
+    const k = store.fleet.get(n.id)?.gatewaysWithMargin;
+    if (typeof k !== 'number') continue;
+    known += 1;
+    const label = k >= 3 ? '3 or more' : String(k);
+    heard.set(label, (heard.get(label) ?? 0) + 1);
+  }
+  const redundancy = h('section', { class: 'card', 'aria-labelledby': 'red-h', id: 'summary-redundancy' }, h('h2', { id: 'red-h' }, 'Redundancy'));
+  if (known === 0) redundancy.append(h('p', { class: 'muted' }, 'Not available: the fleet table does not report how many gateways hear each node.'));
+  else
+    redundancy.append(
+      h('p', {}, 'How many gateways hear each node with the target margin:'),
+      h(
+        'table',
+        { class: 'data-table compact' },
+        h('thead', {}, h('tr', {}, h('th', { scope: 'col' }, 'Gateways'), h('th', { scope: 'col' }, 'Nodes'), h('th', { scope: 'col' }, 'Share'))),
+        h(
+          'tbody',
+          {},
+          ...['0', '1', '2', '3 or more'].map((label) =>
+            h('tr', {}, h('th', { scope: 'row' }, label), h('td', { class: 'num' }, String(heard.get(label) ?? 0)), h('td', { class: 'num' }, percent((heard.get(label) ?? 0) / known))),
+          ),
+        ),
+      ),
+    );
+  main.append(redundancy);
+
+  // kit cost from the catalog
+  const antennaCost = new Map(store.catalog.antennas.map((a) => [a.id, a.costUsd ?? 0]));
+  const feedCost = new Map(store.catalog.feedlines.map((f) => [f.id, f.costUsdPerM ?? 0]));
+  const mastCost = new Map(store.catalog.masts.map((m) => [m.id, m.costUsd ?? 0]));
+  let antennas = 0;
+  let feedlines = 0;
+  let masts = 0;
+  let unpriced = 0;
+  for (const item of [...store.nodes, ...store.gateways]) {
+    if (antennaCost.has(item.antennaDesignId)) antennas += antennaCost.get(item.antennaDesignId) ?? 0;
+    else unpriced += 1;
+    if (item.feedlineId) feedlines += (feedCost.get(item.feedlineId) ?? 0) * (item.feedlineLengthM ?? 0);
+    if (item.mastOptionId) masts += mastCost.get(item.mastOptionId) ?? 0;
+  }
+  main.append(
+    h(
+      'section',
+      { class: 'card', 'aria-labelledby': 'cost-h', id: 'summary-cost' },
+      h('h2', { id: 'cost-h' }, 'Kit cost (catalog prices)'),
+      h(
+        'table',
+        { class: 'data-table compact' },
+        h(
+          'tbody',
+          {},
+          h('tr', {}, h('th', { scope: 'row' }, 'Antennas'), h('td', { class: 'num' }, usd(antennas))),
+          h('tr', {}, h('th', { scope: 'row' }, 'Feedlines'), h('td', { class: 'num' }, usd(feedlines))),
+          h('tr', {}, h('th', { scope: 'row' }, 'Masts'), h('td', { class: 'num' }, usd(masts))),
+          h('tr', { class: 'total' }, h('th', { scope: 'row' }, 'Total'), h('td', { class: 'num', id: 'summary-cost-total' }, usd(antennas + feedlines + masts))),
+        ),
+      ),
+      unpriced ? h('p', { class: 'muted small' }, `${unpriced} node(s) or gateway(s) use an antenna that is not in the catalog and are not priced.`) : null,
+      h('p', { class: 'muted small' }, 'Nodes and gateways of this plan; labour, gateways’ radios and site costs are not included.'),
+    ),
+  );
+
+  // latest coverage
+  const coverage = h('section', { class: 'card', 'aria-labelledby': 'cov-h' }, h('h2', { id: 'cov-h' }, 'Latest coverage run'));
+  main.append(coverage);
+  try {
+    const runs = await listCoverage(planId);
+    const done: CoverageRun | undefined = runs.find((r) => runState(r) === 'done');
+    if (!done) coverage.append(h('p', { class: 'muted' }, 'No finished coverage run yet. Start one from the map.'));
+    else {
+      const s = (done.summary ?? {}) as Record<string, unknown>;
+      const items = Object.entries(s).filter(([, v]) => typeof v === 'number' || typeof v === 'string');
+      append(
+        coverage,
+        h('p', {}, `Run ${done.id} (${String(done.mode ?? (done.params as Record<string, unknown> | undefined)?.mode ?? '')}) finished ${String(done.finishedAt ?? '')}.`),
+        items.length ? h('dl', { class: 'facts' }, ...items.flatMap(([k, v]) => [h('dt', {}, k), h('dd', {}, typeof v === 'number' ? v.toFixed(3) : String(v))])) : null,
+      );
+    }
+  } catch {
+    coverage.append(h('p', { class: 'muted' }, 'Coverage runs are not available on this server yet.'));
+  }
+}
