@@ -24,7 +24,8 @@ export interface EndKit {
 
 export interface NodeRadio {
   txPowerDbm: number;
-  payloadBytes: number;
+  /** Bytes on air after the LoRa header (application payload + LoRaWAN framing). */
+  phyPayloadBytes: number;
   sfPolicy: 'adaptive' | 'fixed';
   fixedSf: number | null;
   environment: NodeEnvironment;
@@ -122,7 +123,7 @@ export function linkBudget(path: PathPrediction, nodeKit: EndKit, gatewayKit: En
       spreadingFactor: r.spreadingFactor,
       bandwidthKhz: settings.bandwidthKhz,
       codingRate: settings.codingRate,
-      payloadBytes: node.payloadBytes,
+      payloadBytes: node.phyPayloadBytes,
       preambleSymbols: settings.preambleSymbols,
     }).timeOnAirMs,
     meetsTarget: r.marginDb >= settings.targetMarginDb,

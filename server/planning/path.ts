@@ -4,6 +4,7 @@
 // The node is the transmitter (uplink); the profile runs node → gateway.
 import { freeSpaceLossDb } from '../propagation/free-space.ts';
 import { bullingtonLossDb } from '../propagation/bullington.ts';
+import { P1812Predictor, pathCentreLatitudeDeg, ZONE_COASTAL_LAND, ZONE_INLAND, ZONE_SEA } from '../propagation/p1812/index.ts';
 import { bearingsBetween, EARTH_RADIUS_KM, medianEarthFactor, pathElevationDeg } from './geometry.ts';
 
 export type PropagationMethodId = 'p1812' | 'bullington' | 'free-space';
@@ -70,7 +71,7 @@ export interface PathPrediction {
 }
 
 /** Predicts the path loss of one node → gateway path over `profile`. */
-export function predictPath(profile: PathProfile, settings: PathSettings, node: PathEnd, gateway: PathEnd): PathPrediction {
+export function predictPath(profile: PathProfile, settings: PathSettings, node: PathEnd, gateway: PathEnd, predictor?: P1812Predictor): PathPrediction {
   const count = profile.distanceM.length;
   if (count < 2) throw new RangeError('profile: needs at least 2 points');
   const warnings: string[] = [];
@@ -106,7 +107,7 @@ export function predictPath(profile: PathProfile, settings: PathSettings, node: 
       break;
     }
     case 'p1812':
-      ({ basicLossDb, terms } = p1812PathLoss(profile, settings, node, gateway, warnings));
+      ({ basicLossDb, terms } = p1812PathLoss(profile, settings, node, gateway, predictor ?? new P1812Predictor()));
       break;
     default:
       throw new RangeError(`method: must be one of ${PROPAGATION_METHODS.join(', ')}`);
@@ -158,12 +159,49 @@ function clearOfTerrain(profile: PathProfile, nodeAmslM: number, gatewayAmslM: n
   return true;
 }
 
+/** P.1812-8 median basic loss; location variability is applied by the caller (σ = 0, pL = 50 % here). */
 function p1812PathLoss(
-  _profile: PathProfile,
-  _settings: PathSettings,
-  _node: PathEnd,
-  _gateway: PathEnd,
-  _warnings: string[],
+  profile: PathProfile,
+  settings: PathSettings,
+  node: PathEnd,
+  gateway: PathEnd,
+  predictor: P1812Predictor,
 ): { basicLossDb: number; terms: Record<string, number> } {
-  throw new Error('P.1812 is not wired in yet');
+  const count = profile.distanceM.length;
+  if (count < 3) throw new RangeError('profile: P.1812 needs at least 3 points');
+  if (settings.frequencyMhz < 30 || settings.frequencyMhz > 6000) throw new RangeError('frequencyMhz: P.1812 covers 30–6000 MHz');
+  const distanceKm = new Float64Array(count);
+  for (let i = 0; i < count; i++) distanceKm[i] = profile.distanceM[i] / 1000;
+  const zoneCode = settings.zone === 'sea' ? ZONE_SEA : settings.zone === 'coastal' ? ZONE_COASTAL_LAND : ZONE_INLAND;
+  const totalKm = distanceKm[count - 1] - distanceKm[0];
+  const result = predictor.predict({
+    frequencyMhz: settings.frequencyMhz,
+    timePercent: settings.timePercent,
+    locationPercent: 50,
+    locationSigmaDb: 0,
+    polarisation: settings.polarization,
+    deltaN: settings.deltaN,
+    n0: settings.n0,
+    txCoastDistanceKm: settings.coastDistanceKm,
+    rxCoastDistanceKm: settings.coastDistanceKm,
+    txHeightAglM: node.antennaHeightAglM,
+    rxHeightAglM: gateway.antennaHeightAglM,
+    pathCentreLatDeg: pathCentreLatitudeDeg(node.lat, node.lon, gateway.lat, gateway.lon, totalKm),
+    distanceKm,
+    heightM: profile.groundM,
+    clutterHeightM: profile.clutterHeightM ?? new Float64Array(count),
+    zone: new Uint8Array(count).fill(zoneCode),
+  });
+  return {
+    basicLossDb: result.lbDb,
+    terms: {
+      freeSpaceDb: result.lbfsDb,
+      lb0pDb: result.lb0pDb,
+      diffractionMedianDb: result.ld50Db,
+      diffractionDb: result.ldpDb,
+      troposcatterDb: result.lbsDb,
+      ductingDb: result.lbaDb,
+      lbcDb: result.lbcDb,
+    },
+  };
 }

@@ -7,6 +7,8 @@
 // median (P = 0.5) is what a link budget subtracts, the spread is added to the
 // location variability when the probability of delivery is computed.
 
+import { inverseComplementaryNormal } from '../propagation/p1812/statistics.ts';
+
 export type BuildingType = 'traditional' | 'thermally-efficient';
 
 interface P2109Coefficients {
@@ -30,20 +32,13 @@ export const P2109_MIN_FREQUENCY_MHZ = 80;
 export const P2109_MAX_FREQUENCY_MHZ = 100_000;
 
 /**
- * Inverse of the standard normal cumulative distribution, F⁻¹(p) (0 < p < 1).
- * Rational approximation of ITU-R P.1057 §3 (|error| < 4.5·10⁻⁴), the same
- * one P.1812 uses for its I(x); ample for loss distributions quoted to 0.1 dB.
+ * Inverse of the standard normal cumulative distribution, F⁻¹(p) (0 < p < 1),
+ * through the P.1812 I(x) of the propagation room: F⁻¹(p) = I(1 − p)
+ * (rational approximation of ITU-R P.1057, |error| < 4.5·10⁻⁴).
  */
 export function inverseStandardNormal(probability: number): number {
   if (!(probability > 0 && probability < 1)) throw new RangeError('probability must be strictly between 0 and 1');
-  // P.1057 gives the inverse complementary normal Q⁻¹(x) for x ≤ 0.5;
-  // F⁻¹(p) = −Q⁻¹(p) = Q⁻¹(1 − p).
-  const upper = probability > 0.5; // F⁻¹(p) > 0 ⇔ p > 0.5
-  const tail = upper ? 1 - probability : probability;
-  const t = Math.sqrt(-2 * Math.log(tail));
-  const xi = ((0.010328 * t + 0.802853) * t + 2.515516698) / (((0.001308 * t + 0.189269) * t + 1.432788) * t + 1);
-  const q = t - xi; // Q⁻¹(tail) ≥ 0
-  return upper ? q : -q;
+  return inverseComplementaryNormal(1 - probability);
 }
 
 export interface BuildingEntryLossInput {

@@ -11,7 +11,7 @@ function kit(antenna: EndKit['antenna'], connectorLossDb = 0, feedlineLengthM = 
   const feedline = feedlineLengthM > 0 ? builtInFeedlines.find((f) => f.id === feedlineId) ?? null : null;
   return { antenna, boresightAzimuthDeg: null, feedline, feedlineLengthM, connectorLossDb };
 }
-const node: NodeRadio = { txPowerDbm: 14, payloadBytes: 12, sfPolicy: 'adaptive', fixedSf: null, environment: 'outdoor' };
+const node: NodeRadio = { txPowerDbm: 14, phyPayloadBytes: 12, sfPolicy: 'adaptive', fixedSf: null, environment: 'outdoor' };
 const radio: LinkRadioSettings = {
   frequencyMhz: 915,
   bandwidthKhz: 125,
@@ -107,5 +107,18 @@ describe('node summary over gateways', () => {
     expect(summary.links[0].gatewayId).toBe('near');
     expect(summary.combinedDeliveryProbability).toBeCloseTo(1 - (1 - a.deliveryProbability) * (1 - b.deliveryProbability), 12);
     expect(summary.status).toBe('served');
+  });
+});
+
+describe('P.1812 through the link path (wired to the propagation room)', () => {
+  it('a clear flat 2 km path is within 1 dB of free space; the knife-edge path loses at least 15 dB more than free space', () => {
+    const steps = Array.from({ length: 41 }, (_, i) => [i * 50, 0] as [number, number]);
+    const clear = predictPath(profileOf(steps), settings('p1812'), nodeEnd, gatewayEnd);
+    expect(clear.lineOfSight).toBe(true);
+    expect(Math.abs(clear.basicLossDb - clear.freeSpaceLossDb)).toBeLessThan(1);
+    const edge = Array.from({ length: 101 }, (_, i) => [i * 100, i === 50 ? 60 : 0] as [number, number]);
+    const blocked = predictPath(profileOf(edge), settings('p1812'), nodeEnd, gatewayEnd);
+    expect(blocked.lineOfSight).toBe(false);
+    expect(blocked.basicLossDb - blocked.freeSpaceLossDb).toBeGreaterThan(15);
   });
 });
