@@ -31,26 +31,30 @@ export function geodesicPoints(from: LatLon, to: LatLon, count: number, lat: Flo
   if (count < 2) throw new RangeError('geodesicPoints: count must be at least 2');
   const stepM = lengthM / (count - 1);
   const mask = Geodesic.LATITUDE | Geodesic.LONGITUDE | Geodesic.AZIMUTH | Geodesic.LONG_UNROLL;
-  let prev = line.Position(0, mask);
+  const at = (s: number) => {
+    const r = line.Position(s, mask);
+    return { lat: r.lat2 ?? Number.NaN, lon: r.lon2 ?? Number.NaN, azi: r.azi2 ?? Number.NaN };
+  };
+  let prev = at(0);
   lat[0] = from.lat;
   lon[0] = from.lon;
   for (let start = 0; start < count - 1; start += NODE_EVERY) {
     const end = Math.min(count - 1, start + NODE_EVERY);
-    const next = line.Position(end * stepM, mask);
+    const next = at(end * stepM);
     const segmentM = (end - start) * stepM;
     // Derivatives d(lat)/ds and d(lon)/ds (degrees per metre) at both nodes, from the azimuths.
-    const m0 = metresPerDegree(prev.lat2);
-    const m1 = metresPerDegree(next.lat2);
-    const a0 = (prev.azi2 * Math.PI) / 180;
-    const a1 = (next.azi2 * Math.PI) / 180;
+    const m0 = metresPerDegree(prev.lat);
+    const m1 = metresPerDegree(next.lat);
+    const a0 = (prev.azi * Math.PI) / 180;
+    const a1 = (next.azi * Math.PI) / 180;
     const dLat0 = (Math.cos(a0) / m0.lat) * segmentM;
     const dLon0 = (Math.sin(a0) / m0.lon) * segmentM;
     const dLat1 = (Math.cos(a1) / m1.lat) * segmentM;
     const dLon1 = (Math.sin(a1) / m1.lon) * segmentM;
-    const lat0 = prev.lat2;
-    const lon0 = prev.lon2;
-    const lat1 = next.lat2;
-    const lon1 = next.lon2;
+    const lat0 = prev.lat;
+    const lon0 = prev.lon;
+    const lat1 = next.lat;
+    const lon1 = next.lon;
     for (let i = start + 1; i < end; i++) {
       const t = (i - start) / (end - start);
       const t2 = t * t;
