@@ -1,55 +1,56 @@
-// Cached link predictions (model Link). A row holds the result for one
-// node–gateway pair and the hash of every input it was computed from; a
-// lookup with a different hash is a miss, so any change to the node, the
+// Cached link predictions (model Link). A row holds, for one node–gateway
+// pair, the hash of every input its result was computed from and the result
+// (the path prediction with its own path hash, and the link budget result).
+// A lookup with a different hash is a miss, so any change to the node, the
 // gateway, the kit, the plan's settings or the terrain invalidates it.
 import type { Database } from '../client.ts';
 import type { Prisma } from '../generated/client.ts';
 
-export interface CachedLink<T> {
+export interface LinkRow {
   nodeId: string;
   gatewayId: string;
   inputHash: string;
-  result: T;
+  result: unknown;
 }
 
-/** Cached results for a set of pairs of one plan whose hash still matches. */
-export async function findFreshLinks<T>(
-  db: Database,
-  planId: string,
-  wanted: ReadonlyArray<{ nodeId: string; gatewayId: string; inputHash: string }>,
-): Promise<Map<string, T>> {
-  const fresh = new Map<string, T>();
-  if (wanted.length === 0) return fresh;
-  const hashes = [...new Set(wanted.map((pair) => pair.inputHash))];
-  const rows = await db.prisma.link.findMany({
-    where: { planId, inputHash: { in: hashes } },
-    select: { nodeId: true, gatewayId: true, inputHash: true, result: true },
-  });
-  const wantedHash = new Map(wanted.map((pair) => [`${pair.nodeId}|${pair.gatewayId}`, pair.inputHash]));
-  for (const row of rows) {
-    const key = `${row.nodeId}|${row.gatewayId}`;
-    if (wantedHash.get(key) === row.inputHash) fresh.set(key, row.result as T);
-  }
-  return fresh;
+/** Cached rows of one node. */
+export async function listNodeLinkRows(db: Database, planId: string, nodeId: string): Promise<LinkRow[]> {
+  return db.prisma.link.findMany({ where: { planId, nodeId }, select: { nodeId: true, gatewayId: true, inputHash: true, result: true } });
 }
 
-/** Stores (or replaces) the cached result of each pair. */
-export async function saveLinks<T>(db: Database, planId: string, links: ReadonlyArray<CachedLink<T>>): Promise<void> {
-  if (links.length === 0) return;
-  // One statement per pair in a transaction: an upsert keyed on (nodeId, gatewayId).
-  await db.prisma.$transaction(
-    links.map((link) =>
-      db.prisma.link.upsert({
-        where: { nodeId_gatewayId: { nodeId: link.nodeId, gatewayId: link.gatewayId } },
-        create: { planId, nodeId: link.nodeId, gatewayId: link.gatewayId, inputHash: link.inputHash, result: link.result as Prisma.InputJsonValue },
-        update: { inputHash: link.inputHash, result: link.result as Prisma.InputJsonValue, computedAt: new Date() },
+/** Cached rows of a whole plan. */
+export async function listPlanLinkRows(db: Database, planId: string): Promise<LinkRow[]> {
+  return db.prisma.link.findMany({ where: { planId }, select: { nodeId: true, gatewayId: true, inputHash: true, result: true } });
+}
+
+/** Stores (or replaces) the cached result of each pair, in one transaction. */
+export async function saveLinkRows(db: Database, planId: string, rows: readonly LinkRow[]): Promise<void> {
+  if (rows.length === 0) return;
+  const chunk = 500;
+  const operations: Prisma.PrismaPromise<unknown>[] = [];
+  for (let start = 0; start < rows.length; start += chunk) {
+    const part = rows.slice(start, start + chunk);
+    operations.push(
+      db.prisma.link.deleteMany({ where: { planId, OR: part.map((row) => ({ nodeId: row.nodeId, gatewayId: row.gatewayId })) } }),
+      db.prisma.link.createMany({
+        data: part.map((row) => ({ planId, nodeId: row.nodeId, gatewayId: row.gatewayId, inputHash: row.inputHash, result: row.result as Prisma.InputJsonValue })),
       }),
-    ),
-  );
+    );
+  }
+  await db.prisma.$transaction(operations);
 }
 
-/** Drops every cached link of a plan (e.g. after a terrain change, to free space). */
+/** Drops every cached link of a plan. */
 export async function clearPlanLinks(db: Database, planId: string): Promise<number> {
   const { count } = await db.prisma.link.deleteMany({ where: { planId } });
   return count;
+}
+
+/** The plan's terrain layers as the link engine needs them (files and a change signature). */
+export async function listTerrainForLinks(db: Database, planId: string) {
+  return db.prisma.terrainLayer.findMany({
+    where: { planId },
+    orderBy: [{ priority: 'desc' }, { resolutionM: 'asc' }, { createdAt: 'asc' }],
+    select: { id: true, kind: true, name: true, filePath: true, sha256: true, resolutionM: true, priority: true, createdAt: true },
+  });
 }

@@ -1,0 +1,85 @@
+// Authentication and roles. Every /api/v1 route except health and the OpenAPI document
+// needs `Authorization: Bearer <token>` or the sign-in cookie. Tokens are checked by
+// server/db/repositories/accounts.ts (scrypt hash, constant-time compare).
+//
+// CSRF: the cookie is HttpOnly + SameSite=Strict, and on unsafe methods (POST, PUT, PATCH,
+// DELETE) a cookie-authenticated request must also prove it comes from our own page:
+// an Origin (or Referer) whose host is this server's Host, or the header
+// `X-Earshot-Request: 1` (a custom header a foreign page cannot send without CORS,
+// and CORS is off). Bearer-token requests need neither.
+import '@fastify/cookie';
+import type { FastifyInstance, FastifyReply, FastifyRequest } from 'fastify';
+import type { Database } from '../db/client.ts';
+import { verifyToken, type Principal, type Role } from '../db/repositories/accounts.ts';
+import { ApiError, sendError } from './errors.ts';
+
+export type { Principal, Role };
+
+declare module 'fastify' {
+  interface FastifyRequest {
+    /** Set for every authenticated /api/v1 request. */
+    principal: Principal;
+  }
+}
+
+export const sessionCookieName = 'earshot_session';
+export const csrfHeaderName = 'x-earshot-request';
+const publicApiPaths = new Set(['/api/v1/health', '/api/v1/openapi.json']);
+const safeMethods = new Set(['GET', 'HEAD', 'OPTIONS']);
+
+/** Throws 403 unless the caller has one of the roles. */
+export function requireRole(request: FastifyRequest, ...allowed: Role[]): Principal {
+  const principal = request.principal;
+  if (!principal) throw new ApiError(401, 'unauthorized', 'sign in or send Authorization: Bearer <token>');
+  if (!allowed.includes(principal.role)) {
+    throw new ApiError(403, 'forbidden', `this needs the ${allowed.join(' or ')} role (you are ${principal.role})`);
+  }
+  return principal;
+}
+
+function bearerToken(request: FastifyRequest): string | null {
+  const header = request.headers.authorization;
+  if (!header) return null;
+  const match = /^Bearer\s+(\S+)\s*$/i.exec(header);
+  return match ? match[1] : '';
+}
+
+function sameOrigin(request: FastifyRequest): boolean {
+  if (request.headers[csrfHeaderName] === '1') return true;
+  const host = request.headers.host;
+  const origin = request.headers.origin ?? request.headers.referer;
+  if (!host || !origin || origin === 'null') return false;
+  try {
+    return new URL(origin).host === host;
+  } catch {
+    return false;
+  }
+}
+
+export function isPublicPath(path: string): boolean {
+  return publicApiPaths.has(path) || !path.startsWith('/api/v1/');
+}
+
+export function installAuth(app: FastifyInstance, db: Database): void {
+  app.decorateRequest('principal', undefined as unknown as Principal);
+  app.addHook('onRequest', async (request: FastifyRequest, reply: FastifyReply) => {
+    const path = request.url.split('?')[0];
+    if (isPublicPath(path)) return;
+    const bearer = bearerToken(request);
+    if (bearer === '') return sendError(reply, 401, 'unauthorized', 'Authorization header must be "Bearer <token>"');
+    let token: string;
+    if (bearer !== null) {
+      token = bearer;
+    } else {
+      const cookie = request.cookies?.[sessionCookieName];
+      if (!cookie) return sendError(reply, 401, 'unauthorized', 'sign in or send Authorization: Bearer <token>');
+      if (!safeMethods.has(request.method) && !sameOrigin(request)) {
+        return sendError(reply, 403, 'csrf_rejected', `cookie sign-in needs a same-origin request (Origin) or the ${csrfHeaderName}: 1 header`);
+      }
+      token = cookie;
+    }
+    const principal = await verifyToken(db, token);
+    if (!principal) return sendError(reply, 401, 'unauthorized', 'token is unknown, revoked or expired');
+    request.principal = { userId: principal.userId, teamId: principal.teamId, role: principal.role, tokenId: principal.tokenId };
+  });
+}

@@ -1,0 +1,98 @@
+// One error shape for the whole API: { error: { code, message } } with a fitting status.
+// Validation failures name the field and the rule; anything unexpected is logged and
+// answered with a generic 500 (never a stack trace).
+import type { FastifyError, FastifyInstance, FastifyReply, FastifyRequest } from 'fastify';
+import { hasZodFastifySchemaValidationErrors, isResponseSerializationError } from 'fastify-type-provider-zod';
+import { ConflictError, NotFoundError, VersionConflictError } from '../db/errors.ts';
+
+export class ApiError extends Error {
+  constructor(
+    readonly statusCode: number,
+    readonly code: string,
+    message: string,
+    readonly extra?: Record<string, unknown>,
+  ) {
+    super(message);
+  }
+}
+
+export interface ErrorBody {
+  error: { code: string; message: string; [key: string]: unknown };
+}
+
+export function errorBody(code: string, message: string, extra?: Record<string, unknown>): ErrorBody {
+  return { error: { code, message, ...extra } };
+}
+
+interface ValidationIssue {
+  instancePath: string;
+  message?: string;
+  keyword?: string;
+  params?: Record<string, unknown>;
+}
+
+/** "lat: latitude must be within ±90°" — the field path (dots) then the rule. */
+export function describeValidation(issues: readonly ValidationIssue[], context?: string): string {
+  const parts = issues.slice(0, 5).map((issue) => {
+    const path = issue.instancePath.replace(/^\//, '').split('/').filter(Boolean).join('.');
+    if (issue.keyword === 'unrecognized_keys' && Array.isArray(issue.params?.keys)) {
+      const keys = (issue.params.keys as string[]).map((key) => (path ? `${path}.${key}` : key));
+      return `${keys.join(', ')}: unknown field${keys.length > 1 ? 's' : ''}`;
+    }
+    return `${path || context || 'body'}: ${issue.message ?? 'invalid'}`;
+  });
+  if (issues.length > 5) parts.push(`(${issues.length - 5} more)`);
+  return parts.join('; ');
+}
+
+export function sendError(reply: FastifyReply, statusCode: number, code: string, message: string, extra?: Record<string, unknown>) {
+  return reply.status(statusCode).type('application/json; charset=utf-8').send(errorBody(code, message, extra));
+}
+
+export function installErrorHandlers(app: FastifyInstance): void {
+  app.setNotFoundHandler((request: FastifyRequest, reply: FastifyReply) =>
+    sendError(reply, 404, 'not_found', `no route ${request.method} ${request.url.split('?')[0]}`),
+  );
+
+  app.setErrorHandler((error: FastifyError | Error, request: FastifyRequest, reply: FastifyReply) => {
+    if (error instanceof ApiError) return sendError(reply, error.statusCode, error.code, error.message, error.extra);
+    if (error instanceof NotFoundError) return sendError(reply, 404, 'not_found', error.message);
+    if (error instanceof VersionConflictError) {
+      return sendError(reply, 409, 'version_conflict', error.message, { currentVersion: error.currentVersion });
+    }
+    if (error instanceof ConflictError) return sendError(reply, 409, 'conflict', error.message);
+    if (hasZodFastifySchemaValidationErrors(error)) {
+      const context = (error as { validationContext?: string }).validationContext;
+      return sendError(reply, 400, 'invalid_input', describeValidation(error.validation, context));
+    }
+    if (isResponseSerializationError(error)) {
+      request.log.error({ err: error }, 'response did not match its schema');
+      return sendError(reply, 500, 'internal', 'internal error');
+    }
+    const fastifyError = error as FastifyError;
+    switch (fastifyError.code) {
+      case 'FST_ERR_CTP_BODY_TOO_LARGE':
+        return sendError(reply, 413, 'payload_too_large', 'request body is larger than this endpoint accepts');
+      case 'FST_ERR_CTP_INVALID_MEDIA_TYPE':
+        return sendError(reply, 415, 'unsupported_media_type', `content type ${request.headers['content-type'] ?? '(none)'} is not accepted here`);
+      case 'FST_ERR_CTP_EMPTY_JSON_BODY':
+        return sendError(reply, 400, 'invalid_json', 'body: a JSON body is required');
+      case 'FST_ERR_CTP_INVALID_JSON_BODY':
+        return sendError(reply, 400, 'invalid_json', `body: not valid JSON (${fastifyError.message})`);
+      default:
+        break;
+    }
+    if (error instanceof SyntaxError && fastifyError.statusCode === 400) {
+      return sendError(reply, 400, 'invalid_json', `body: not valid JSON (${error.message})`);
+    }
+    if (fastifyError.statusCode === 429) return sendError(reply, 429, 'rate_limited', 'too many requests; wait and retry');
+    if (fastifyError.validation) {
+      return sendError(reply, 400, 'invalid_input', describeValidation(fastifyError.validation, fastifyError.validationContext));
+    }
+    if (typeof fastifyError.statusCode === 'number' && fastifyError.statusCode >= 400 && fastifyError.statusCode < 500) {
+      return sendError(reply, fastifyError.statusCode, 'bad_request', fastifyError.message);
+    }
+    request.log.error({ err: error }, 'unexpected error');
+    return sendError(reply, 500, 'internal', 'internal error');
+  });
+}

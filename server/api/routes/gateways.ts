@@ -1,0 +1,104 @@
+// Gateways of a plan: position (or a site), antenna, mast height, feedline, noise figure.
+import type { FastifyInstance } from 'fastify';
+import type { ZodTypeProvider } from 'fastify-type-provider-zod';
+import { z } from 'zod';
+import { recordAudit } from '../../db/repositories/audit.ts';
+import { createGateway, deleteGateway, findGateway, listGateways, updateGateway } from '../../db/repositories/gateways.ts';
+import { findSite } from '../../db/repositories/sites.ts';
+import { requireRole } from '../auth.ts';
+import { ApiError } from '../errors.ts';
+import { assertKitVisible } from '../kit-check.ts';
+import { loadPlanForPrincipal } from '../scope.ts';
+import { finite, id, latitude, longitude, name, nonNegative, notes, pageQuery, planItemParams, planParams, version } from '../schemas.ts';
+
+export const defaultGatewayAntennaId = 'collinear-fibreglass-6dbi';
+export const defaultGatewayFeedlineId = 'low-loss-10mm';
+
+const gatewayFields = {
+  name: name(),
+  siteId: id().nullable().optional(),
+  lat: latitude().optional(),
+  lon: longitude().optional(),
+  antennaDesignId: id().optional(),
+  antennaHeightAglM: nonNegative().max(500, 'must be ≤ 500 m').optional(),
+  feedlineId: id().optional(),
+  feedlineLengthM: nonNegative().max(1000, 'must be ≤ 1000 m').optional(),
+  mastOptionId: id().nullable().optional(),
+  noiseFigureDb: finite().min(0, 'must be ≥ 0 dB').max(20, 'must be ≤ 20 dB').optional(),
+  txPowerDbm: finite().min(-10, 'must be ≥ -10 dBm').max(36, 'must be ≤ 36 dBm').optional(),
+  notes: notes().optional(),
+};
+export const gatewayCreateBody = z.strictObject(gatewayFields);
+export const gatewayPatchBody = z.strictObject({ ...gatewayFields, name: name().optional(), version: version() });
+
+export default async function gatewayRoutes(app: FastifyInstance): Promise<void> {
+  const api = app.withTypeProvider<ZodTypeProvider>();
+  const { db } = app.deps;
+  const tags = ['gateways'];
+
+  async function siteOf(planId: string, siteId: string | null | undefined) {
+    if (!siteId) return null;
+    const site = await findSite(db, planId, siteId);
+    if (!site) throw new ApiError(400, 'invalid_input', `siteId: no site "${siteId}" in this plan`);
+    return site;
+  }
+
+  api.get('/plans/:planId/gateways', { schema: { summary: 'Gateways of a plan', tags, params: planParams, querystring: pageQuery } }, async (request) => {
+    const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
+    return listGateways(db, plan.id, request.query);
+  });
+
+  api.post(
+    '/plans/:planId/gateways',
+    { schema: { summary: 'Add a gateway (at a site: lat/lon default to the site; kit defaults to a 6 dBi collinear on 10 m of low-loss coax at 10 m)', tags, params: planParams, body: gatewayCreateBody } },
+    async (request, reply) => {
+      const principal = requireRole(request, 'planner');
+      const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
+      const body = request.body;
+      const site = await siteOf(plan.id, body.siteId);
+      const lat = body.lat ?? site?.lat;
+      const lon = body.lon ?? site?.lon;
+      if (lat === undefined) throw new ApiError(400, 'invalid_input', 'lat: required (or give a siteId)');
+      if (lon === undefined) throw new ApiError(400, 'invalid_input', 'lon: required (or give a siteId)');
+      const data = {
+        ...body,
+        lat,
+        lon,
+        antennaDesignId: body.antennaDesignId ?? defaultGatewayAntennaId,
+        feedlineId: body.feedlineId ?? defaultGatewayFeedlineId,
+        antennaHeightAglM: body.antennaHeightAglM ?? 10,
+        feedlineLengthM: body.feedlineLengthM ?? 10,
+      };
+      await assertKitVisible(db, principal.teamId, data);
+      const gateway = await createGateway(db, plan.id, data);
+      await recordAudit(db, { principal, action: 'create', entity: 'gateway', entityId: gateway.id, detail: { planId: plan.id, name: gateway.name } });
+      return reply.status(201).send(gateway);
+    },
+  );
+
+  api.get('/plans/:planId/gateways/:id', { schema: { summary: 'One gateway', tags, params: planItemParams } }, async (request) => {
+    const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
+    const gateway = await findGateway(db, plan.id, request.params.id);
+    if (!gateway) throw new ApiError(404, 'not_found', 'gateway not found');
+    return gateway;
+  });
+
+  api.patch('/plans/:planId/gateways/:id', { schema: { summary: 'Update a gateway (send the version you read)', tags, params: planItemParams, body: gatewayPatchBody } }, async (request) => {
+    const principal = requireRole(request, 'planner');
+    const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
+    const { version: expected, ...patch } = request.body;
+    await siteOf(plan.id, patch.siteId);
+    await assertKitVisible(db, principal.teamId, patch);
+    const gateway = await updateGateway(db, plan.id, request.params.id, expected, patch);
+    await recordAudit(db, { principal, action: 'update', entity: 'gateway', entityId: gateway.id, detail: { planId: plan.id, fields: Object.keys(patch), version: gateway.version } });
+    return gateway;
+  });
+
+  api.delete('/plans/:planId/gateways/:id', { schema: { summary: 'Delete a gateway (and its cached links)', tags, params: planItemParams } }, async (request, reply) => {
+    const principal = requireRole(request, 'planner');
+    const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
+    await deleteGateway(db, plan.id, request.params.id);
+    await recordAudit(db, { principal, action: 'delete', entity: 'gateway', entityId: request.params.id, detail: { planId: plan.id } });
+    return reply.status(204).send();
+  });
+}

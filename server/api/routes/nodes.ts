@@ -1,0 +1,210 @@
+// Nodes of a plan: position, device, kit, radio settings, environment, install status.
+// Installers may change installStatus and notes only; planners edit everything.
+// POST /plans/:planId/nodes/import takes CSV or GeoJSON: all rows or none (?dryRun=true previews).
+import type { FastifyInstance } from 'fastify';
+import type { ZodTypeProvider } from 'fastify-type-provider-zod';
+import { z } from 'zod';
+import { recordAudit } from '../../db/repositories/audit.ts';
+import { createNode, createNodesAtomically, deleteNode, findNode, listNodes, updateNode, type NodeCreate } from '../../db/repositories/nodes.ts';
+import type { Database } from '../../db/client.ts';
+import type { InstallStatus } from '../../db/generated/client.ts';
+import { requireRole } from '../auth.ts';
+import { ApiError } from '../errors.ts';
+import { assertKitVisible } from '../kit-check.ts';
+import { ImportFormatError, importRecords, validateRecords, type RowError } from '../node-import.ts';
+import { loadPlanForPrincipal } from '../scope.ts';
+import { finite, id, latitude, longitude, name, nonNegative, notes, pageQuery, planItemParams, planParams, version } from '../schemas.ts';
+import { findAntennaDesignRow, findFeedlineRow, findMastRow } from '../../db/repositories/kit.ts';
+
+export const defaultNodeAntennaId = 'helical-stub';
+export const installStatuses = ['planned', 'installed', 'needs-visit'] as const;
+type ApiInstallStatus = (typeof installStatuses)[number];
+
+// The database enum spells needs-visit as needs_visit (Prisma identifiers); the API uses the hyphen.
+const toDbStatus = (status: ApiInstallStatus): InstallStatus => (status === 'needs-visit' ? 'needs_visit' : status);
+/** A node as the API shows it (installStatus spelled with the hyphen). */
+export function nodeView<T extends { installStatus?: unknown }>(node: T): Omit<T, 'installStatus'> & { installStatus: ApiInstallStatus } {
+  const status = node.installStatus ?? 'planned';
+  return { ...node, installStatus: (status === 'needs_visit' ? 'needs-visit' : status) as ApiInstallStatus };
+}
+
+const nodeFields = {
+  name: name(),
+  lat: latitude(),
+  lon: longitude(),
+  deviceType: name(),
+  antennaDesignId: id().optional(),
+  antennaHeightAglM: finite().min(-10, 'must be ≥ -10 m (pits are below ground)').max(200, 'must be ≤ 200 m').optional(),
+  feedlineId: id().nullable().optional(),
+  feedlineLengthM: nonNegative().max(500, 'must be ≤ 500 m').optional(),
+  mastOptionId: id().nullable().optional(),
+  txPowerDbm: finite().min(-10, 'must be ≥ -10 dBm').max(30, 'must be ≤ 30 dBm').optional(),
+  sfPolicy: z.enum(['adaptive', 'fixed'], { error: 'must be adaptive or fixed' }).optional(),
+  fixedSf: z.number({ error: 'must be a number' }).int('must be a whole number').min(5, 'must be 5-12').max(12, 'must be 5-12').nullable().optional(),
+  payloadBytes: z.number({ error: 'must be a number' }).int('must be a whole number').min(1, 'must be 1-255').max(255, 'must be 1-255').optional(),
+  messagesPerHour: finite().positive('must be > 0').max(3600, 'must be ≤ 3600').optional(),
+  environment: z.enum(['outdoor', 'indoor', 'pit'], { error: 'must be outdoor, indoor or pit' }).optional(),
+  buildingType: z.string().max(100).nullable().optional(),
+  installStatus: z.enum(installStatuses, { error: 'must be planned, installed or needs-visit' }).optional(),
+  notes: notes().optional(),
+};
+
+function fixedSfRule(body: { sfPolicy?: string; fixedSf?: number | null }, ctx: z.RefinementCtx) {
+  if (body.sfPolicy === 'fixed' && (body.fixedSf === undefined || body.fixedSf === null)) {
+    ctx.addIssue({ code: 'custom', path: ['fixedSf'], message: 'required when sfPolicy is fixed' });
+  }
+}
+
+export const nodeCreateBody = z.strictObject(nodeFields).superRefine(fixedSfRule);
+export const nodePatchBody = z.strictObject({
+  ...nodeFields,
+  name: name().optional(),
+  lat: latitude().optional(),
+  lon: longitude().optional(),
+  deviceType: name().optional(),
+  version: version(),
+});
+const nodeFieldNames = Object.keys(nodeFields);
+const installerFields = new Set(['installStatus', 'notes']);
+
+type NodeBody = z.infer<typeof nodeCreateBody>;
+function toNodeData(body: NodeBody): NodeCreate {
+  return { ...body, antennaDesignId: body.antennaDesignId ?? defaultNodeAntennaId, antennaHeightAglM: body.antennaHeightAglM ?? 1.5, installStatus: body.installStatus ? toDbStatus(body.installStatus) : undefined };
+}
+
+/** Kit references of many rows, checked against the catalog once per distinct id. */
+async function kitErrors(db: Database, teamId: string, rows: NodeCreate[]): Promise<RowError[]> {
+  const errors: RowError[] = [];
+  const cache = new Map<string, boolean>();
+  const visible = async (field: string, value: string) => {
+    const key = `${field}:${value}`;
+    if (!cache.has(key)) {
+      const row =
+        field === 'antennaDesignId' ? await findAntennaDesignRow(db, teamId, value) : field === 'feedlineId' ? await findFeedlineRow(db, teamId, value) : await findMastRow(db, teamId, value);
+      cache.set(key, row !== null);
+    }
+    return cache.get(key) === true;
+  };
+  for (const [index, row] of rows.entries()) {
+    for (const field of ['antennaDesignId', 'feedlineId', 'mastOptionId'] as const) {
+      const value = row[field];
+      if (value && !(await visible(field, value))) errors.push({ row: index + 1, field, message: `no ${field.replace(/Id$/, '')} "${value}" in the kit catalog` });
+    }
+  }
+  return errors;
+}
+
+export default async function nodeRoutes(app: FastifyInstance): Promise<void> {
+  const api = app.withTypeProvider<ZodTypeProvider>();
+  const { db, config } = app.deps;
+  const tags = ['nodes'];
+
+  api.get(
+    '/plans/:planId/nodes',
+    {
+      schema: {
+        summary: 'Nodes of a plan',
+        tags,
+        params: planParams,
+        querystring: pageQuery.extend({ installStatus: z.enum(installStatuses).optional(), deviceType: z.string().max(200).optional() }),
+      },
+    },
+    async (request) => {
+      const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
+      const { installStatus, deviceType, ...page } = request.query;
+      const filter: { installStatus?: InstallStatus; deviceType?: string } = { ...(installStatus ? { installStatus: toDbStatus(installStatus) } : {}), ...(deviceType ? { deviceType } : {}) };
+      const result = await listNodes(db, plan.id, page, filter);
+      return { ...result, items: result.items.map(nodeView) };
+    },
+  );
+
+  api.post('/plans/:planId/nodes', { schema: { summary: 'Add a node (antenna defaults to a helical stub)', tags, params: planParams, body: nodeCreateBody } }, async (request, reply) => {
+    const principal = requireRole(request, 'planner');
+    const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
+    const data = toNodeData(request.body);
+    await assertKitVisible(db, principal.teamId, data);
+    const node = await createNode(db, plan.id, data);
+    await recordAudit(db, { principal, action: 'create', entity: 'node', entityId: node.id, detail: { planId: plan.id, name: node.name } });
+    return reply.status(201).send(nodeView(node));
+  });
+
+  api.post(
+    '/plans/:planId/nodes/import',
+    {
+      bodyLimit: Math.min(config.maxUploadBytes, 64 * 1024 * 1024),
+      schema: {
+        summary: 'Import nodes from CSV (text/csv, header row of field names) or GeoJSON (FeatureCollection of Points): all rows or none; ?dryRun=true previews',
+        tags,
+        params: planParams,
+        querystring: z.strictObject({ dryRun: z.enum(['true', 'false', '1', '0']).optional() }),
+      },
+    },
+    async (request, reply) => {
+      const principal = requireRole(request, 'planner');
+      const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
+      const dryRun = request.query.dryRun === 'true' || request.query.dryRun === '1';
+      let records: Record<string, unknown>[];
+      try {
+        records = importRecords(request.body, nodeFieldNames);
+      } catch (error) {
+        if (error instanceof ImportFormatError) throw new ApiError(400, 'invalid_input', error.message);
+        throw error;
+      }
+      if (records.length === 0) throw new ApiError(400, 'invalid_input', 'body: no rows to import');
+      if (records.length > 20_000) throw new ApiError(400, 'invalid_input', `body: ${records.length} rows; at most 20000 per import`);
+      const { rows, errors } = validateRecords(records, nodeCreateBody);
+      const data = rows.map(toNodeData);
+      if (errors.length === 0) errors.push(...(await kitErrors(db, principal.teamId, data)));
+      errors.sort((a, b) => a.row - b.row);
+      if (dryRun) {
+        return { dryRun: true, valid: errors.length === 0, rowCount: records.length, errors, preview: data.slice(0, 100).map(nodeView) };
+      }
+      if (errors.length > 0) {
+        throw new ApiError(400, 'invalid_rows', `${new Set(errors.map((e) => e.row)).size} of ${records.length} rows have errors; nothing was imported (first: row ${errors[0].row} ${errors[0].field}: ${errors[0].message})`, {
+          rows: errors.slice(0, 500),
+        });
+      }
+      const created = await createNodesAtomically(db, plan.id, data);
+      await recordAudit(db, { principal, action: 'import', entity: 'node', entityId: plan.id, detail: { planId: plan.id, count: created.length } });
+      return reply.status(201).send({ created: created.length, items: created.map(nodeView) });
+    },
+  );
+
+  api.get('/plans/:planId/nodes/:id', { schema: { summary: 'One node', tags, params: planItemParams } }, async (request) => {
+    const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
+    const node = await findNode(db, plan.id, request.params.id);
+    if (!node) throw new ApiError(404, 'not_found', 'node not found');
+    return nodeView(node);
+  });
+
+  api.patch(
+    '/plans/:planId/nodes/:id',
+    { schema: { summary: 'Update a node (send the version you read); installers may change installStatus and notes', tags, params: planItemParams, body: nodePatchBody } },
+    async (request) => {
+      const principal = requireRole(request, 'planner', 'installer');
+      const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
+      const { version: expected, ...patch } = request.body;
+      if (principal.role === 'installer') {
+        const forbidden = Object.keys(patch).filter((field) => !installerFields.has(field));
+        if (forbidden.length > 0) throw new ApiError(403, 'forbidden', `installers may change installStatus and notes only (not ${forbidden.join(', ')})`);
+      }
+      if (patch.sfPolicy === 'fixed' && patch.fixedSf == null) {
+        const current = await findNode(db, plan.id, request.params.id);
+        if (current && current.fixedSf == null) throw new ApiError(400, 'invalid_input', 'fixedSf: required when sfPolicy is fixed');
+      }
+      await assertKitVisible(db, principal.teamId, patch);
+      const data = { ...patch, installStatus: patch.installStatus ? toDbStatus(patch.installStatus) : undefined };
+      const node = await updateNode(db, plan.id, request.params.id, expected, data);
+      await recordAudit(db, { principal, action: 'update', entity: 'node', entityId: node.id, detail: { planId: plan.id, fields: Object.keys(patch), version: node.version } });
+      return nodeView(node);
+    },
+  );
+
+  api.delete('/plans/:planId/nodes/:id', { schema: { summary: 'Delete a node (and its cached links and field readings)', tags, params: planItemParams } }, async (request, reply) => {
+    const principal = requireRole(request, 'planner');
+    const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
+    await deleteNode(db, plan.id, request.params.id);
+    await recordAudit(db, { principal, action: 'delete', entity: 'node', entityId: request.params.id, detail: { planId: plan.id } });
+    return reply.status(204).send();
+  });
+}

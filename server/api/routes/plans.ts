@@ -1,0 +1,71 @@
+// Plans of the caller's team: list, create (only a name is needed), read, update (with
+// version), delete. Planners edit; everyone in the team reads.
+import type { FastifyInstance } from 'fastify';
+import type { ZodTypeProvider } from 'fastify-type-provider-zod';
+import { z } from 'zod';
+import { bandPlans } from '../../radio/band-plans.ts';
+import { recordAudit } from '../../db/repositories/audit.ts';
+import { createPlan, deletePlan, listPlans, planCounts, updatePlan } from '../../db/repositories/plans.ts';
+import type { Prisma } from '../../db/generated/client.ts';
+import { requireRole } from '../auth.ts';
+import { loadPlanForPrincipal } from '../scope.ts';
+import { finite, jsonObject, name, notes, pageQuery, planParams, version } from '../schemas.ts';
+
+const bandPlanIds = bandPlans.map((plan) => plan.id) as [string, ...string[]];
+
+const planFields = {
+  name: name(),
+  description: notes().optional(),
+  bandPlanId: z.enum(bandPlanIds, { error: `must be one of ${bandPlanIds.join(', ')}` }).optional(),
+  targetMarginDb: finite().min(-20, 'must be ≥ -20 dB').max(60, 'must be ≤ 60 dB').optional(),
+  locationSigmaDb: finite().min(0, 'must be ≥ 0 dB').max(30, 'must be ≤ 30 dB').nullable().optional(),
+  propagationMethod: z.string().regex(/^[a-z0-9-]{1,40}$/, 'must be a method id such as p1812').optional(),
+  settings: jsonObject.optional(),
+};
+
+export const planCreateBody = z.strictObject(planFields);
+export const planPatchBody = z.strictObject({ ...planFields, name: name().optional(), version: version() });
+
+function toData<T extends { settings?: Record<string, unknown> }>(body: T) {
+  const { settings, ...rest } = body;
+  return settings === undefined ? rest : { ...rest, settings: settings as Prisma.InputJsonValue };
+}
+
+export default async function planRoutes(app: FastifyInstance): Promise<void> {
+  const api = app.withTypeProvider<ZodTypeProvider>();
+  const { db } = app.deps;
+  const tags = ['plans'];
+
+  api.get('/plans', { schema: { summary: "The team's plans", tags, querystring: pageQuery } }, async (request) =>
+    listPlans(db, request.principal.teamId, request.query),
+  );
+
+  api.post('/plans', { schema: { summary: 'Create a plan (only name is required; defaults: US 902-928 MHz, 10 dB target margin, P.1812)', tags, body: planCreateBody } }, async (request, reply) => {
+    const principal = requireRole(request, 'planner');
+    const plan = await createPlan(db, principal.teamId, toData(request.body));
+    await recordAudit(db, { principal, action: 'create', entity: 'plan', entityId: plan.id, detail: { name: plan.name } });
+    return reply.status(201).send(plan);
+  });
+
+  api.get('/plans/:planId', { schema: { summary: 'One plan with counts of what it holds', tags, params: planParams } }, async (request) => {
+    const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
+    return { ...plan, counts: await planCounts(db, plan.id) };
+  });
+
+  api.patch('/plans/:planId', { schema: { summary: 'Update a plan (send the version you read; stale -> 409)', tags, params: planParams, body: planPatchBody } }, async (request) => {
+    const principal = requireRole(request, 'planner');
+    const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
+    const { version: expected, ...patch } = request.body;
+    const updated = await updatePlan(db, principal.teamId, plan.id, expected, toData(patch));
+    await recordAudit(db, { principal, action: 'update', entity: 'plan', entityId: plan.id, detail: { fields: Object.keys(patch), version: updated.version } });
+    return updated;
+  });
+
+  api.delete('/plans/:planId', { schema: { summary: 'Delete a plan and everything in it', tags, params: planParams } }, async (request, reply) => {
+    const principal = requireRole(request, 'planner');
+    const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
+    await deletePlan(db, principal.teamId, plan.id);
+    await recordAudit(db, { principal, action: 'delete', entity: 'plan', entityId: plan.id, detail: { name: plan.name } });
+    return reply.status(204).send();
+  });
+}
