@@ -37,6 +37,9 @@ export interface GeoTiffOptions {
   rasterType?: 'area' | 'point';
   /** Treat the EPSG code as geographic or projected (default: from our CRS table). */
   crsKind?: 'geographic' | 'projected';
+  /** value = raw · scale + offset, stored as GDAL's GDAL_METADATA items (role scale/offset) of band 0. */
+  scale?: number;
+  offset?: number;
 }
 
 /** Streaming form: samples come block by block from a function, so a huge raster never sits in memory. */
@@ -70,6 +73,7 @@ const TAG = {
   ModelPixelScale: 33550,
   ModelTiepoint: 33922,
   GeoKeyDirectory: 34735,
+  GDAL_METADATA: 42112,
   GDAL_NODATA: 42113,
 } as const;
 
@@ -215,6 +219,13 @@ function levelFields(options: Omit<GeoTiffOptions, 'data'>, level: LevelPlan, in
       { tag: TAG.ModelTiepoint, type: DOUBLE, values: [0, 0, 0, tieX, tieY, 0] },
       { tag: TAG.GeoKeyDirectory, type: SHORT, values: geoKeyDirectory(options.epsg, kind, rasterType) },
     );
+  }
+  if (index === 0 && (options.scale !== undefined || options.offset !== undefined)) {
+    const items = [
+      options.offset !== undefined ? `<Item name="OFFSET" sample="0" role="offset">${options.offset}</Item>` : '',
+      options.scale !== undefined ? `<Item name="SCALE" sample="0" role="scale">${options.scale}</Item>` : '',
+    ].join('');
+    fields.push({ tag: TAG.GDAL_METADATA, type: ASCII, values: `<GDALMetadata>${items}</GDALMetadata>\0` });
   }
   if (options.noData !== undefined) fields.push({ tag: TAG.GDAL_NODATA, type: ASCII, values: `${formatNoData(options.noData)}\0` });
   return fields;
