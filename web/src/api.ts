@@ -17,9 +17,9 @@ export class ApiError extends Error {
     this.code = code;
     this.detail = detail;
   }
-  /** True when the route is not deployed on this server (404 from the router itself). */
+  /** True when the route is not deployed on this server (the router's own 404, "no route ..."). */
   get notAvailable(): boolean {
-    return this.status === 404 && (this.code === 'route_not_found' || this.code === 'not_available');
+    return this.status === 404 && this.message.startsWith('no route');
   }
 }
 
@@ -37,7 +37,8 @@ export function storeToken(token: string | null): void {
 }
 
 function headers(json: boolean): Record<string, string> {
-  const out: Record<string, string> = { accept: 'application/json' };
+  // The custom header proves to the server's CSRF check that the request comes from our page.
+  const out: Record<string, string> = { accept: 'application/json', 'x-earshot-request': '1' };
   if (json) out['content-type'] = 'application/json';
   const token = storedToken();
   if (token) out.authorization = `Bearer ${token}`;
@@ -64,12 +65,14 @@ async function parseError(response: Response): Promise<ApiError> {
   return new ApiError(response.status, code, message, detail);
 }
 
-export async function request<T>(method: string, path: string, body?: unknown): Promise<T> {
+export async function request<T>(method: string, path: string, body?: unknown, rawContentType?: string): Promise<T> {
+  const hdrs = headers(body !== undefined && !rawContentType);
+  if (rawContentType) hdrs['content-type'] = rawContentType;
   const response = await fetch(`${base}${path}`, {
     method,
     credentials: 'same-origin',
-    headers: headers(body !== undefined),
-    body: body === undefined ? undefined : JSON.stringify(body),
+    headers: hdrs,
+    body: body === undefined ? undefined : rawContentType ? String(body) : JSON.stringify(body),
   });
   if (!response.ok) throw await parseError(response);
   if (response.status === 204) return undefined as T;
@@ -186,8 +189,8 @@ export function createEntity<T extends Entity>(planId: string, kind: EntityKind,
 export function updateEntity<T extends Entity>(planId: string, kind: EntityKind, id: string, body: Record<string, unknown>): Promise<T> {
   return request<T>('PATCH', `/plans/${planId}/${kind}/${id}`, body);
 }
-export function deleteEntity(planId: string, kind: EntityKind, id: string, version: number): Promise<void> {
-  return request<void>('DELETE', `/plans/${planId}/${kind}/${id}?version=${version}`);
+export function deleteEntity(planId: string, kind: EntityKind, id: string): Promise<void> {
+  return request<void>('DELETE', `/plans/${planId}/${kind}/${id}`);
 }
 
 // ---------- kit catalog ----------
@@ -224,9 +227,9 @@ export interface Catalog {
 
 export async function getCatalog(): Promise<Catalog> {
   const [antennas, feedlines, masts] = await Promise.all([
-    listAll<AntennaDesign>('/catalog/antenna-designs'),
-    listAll<FeedlineType>('/catalog/feedlines'),
-    listAll<MastOption>('/catalog/masts'),
+    listAll<AntennaDesign>('/kit/antenna-designs'),
+    listAll<FeedlineType>('/kit/feedlines'),
+    listAll<MastOption>('/kit/masts'),
   ]);
   return { antennas, feedlines, masts };
 }
@@ -240,17 +243,20 @@ export interface ImportRowError {
 }
 export interface ImportResult {
   dryRun?: boolean;
-  valid?: number;
+  /** Dry run: true when every row passed. */
+  valid?: boolean;
+  rowCount?: number;
   created?: number;
-  total?: number;
   errors: ImportRowError[];
   preview?: Array<Record<string, unknown>>;
   items?: FleetNode[];
   [key: string]: unknown;
 }
 
+/** CSV goes as text/csv, GeoJSON as application/geo+json; ?dryRun=true validates and previews only. */
 export function importNodes(planId: string, format: 'csv' | 'geojson', content: string, dryRun: boolean): Promise<ImportResult> {
-  return request<ImportResult>('POST', `/plans/${planId}/nodes/import${dryRun ? '?dryRun=true' : ''}`, { format, content, dryRun });
+  const type = format === 'csv' ? 'text/csv' : 'application/geo+json';
+  return request<ImportResult>('POST', `/plans/${planId}/nodes/import${dryRun ? '?dryRun=true' : ''}`, content, type);
 }
 
 // ---------- terrain ----------
@@ -468,11 +474,8 @@ export async function getCoverageLegend(planId: string, runId: string, layer?: s
 // ---------- session ----------
 
 export interface Me {
-  userId?: string;
-  teamId?: string;
+  user: { id: string; name: string; email?: string | null };
+  team: { id: string; slug: string; name: string };
   role: 'planner' | 'installer' | 'viewer';
-  name?: string;
-  teamName?: string;
-  [key: string]: unknown;
 }
 export const getMe = (): Promise<Me> => request<Me>('GET', '/me');

@@ -31,7 +31,7 @@ function shell(route: Route): HTMLElement {
       link(`#/plan/${p}/install`, 'Installer', route.name === 'install'),
     );
   }
-  const who = session.me ? `${session.me.name ?? 'signed in'} · ${role()}` : 'signed in';
+  const who = session.me ? `${session.me.user.name} · ${session.me.team.name} · ${role()}` : 'signed in';
   return h(
     'header',
     { class: 'topbar' },

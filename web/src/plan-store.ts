@@ -78,7 +78,7 @@ export class PlanStore {
       this.fleetProblem = null;
     } catch (err) {
       this.fleet = new Map();
-      this.fleetProblem = err instanceof ApiError && err.status === 404 ? 'link predictions are not available on this server yet' : `link predictions failed: ${err instanceof Error ? err.message : String(err)}`;
+      this.fleetProblem = err instanceof ApiError && err.notAvailable ? 'link predictions are not available on this server yet' : `link predictions failed: ${err instanceof Error ? err.message : String(err)}`;
     }
   }
 
@@ -132,7 +132,7 @@ export class PlanStore {
   async remove(kind: EntityKind, id: string, recordUndo = true): Promise<void> {
     const before = this.find(kind, id);
     if (!before) return;
-    await deleteEntity(this.planId, kind, id, before.version);
+    await deleteEntity(this.planId, kind, id);
     this.drop(kind, id);
     if (recordUndo) {
       const copy: Record<string, unknown> = {};

@@ -1,7 +1,7 @@
 // Who is signed in, and what they may do. Filled once at start (and after a
 // token is pasted); the views ask `canEdit()` before showing editing tools.
 
-import { ApiError, getMe, listPlans, type Me } from './api.ts';
+import { ApiError, getMe, type Me } from './api.ts';
 
 export interface Session {
   me: Me | null;
@@ -19,16 +19,6 @@ export async function refreshSession(): Promise<Session> {
     if (err instanceof ApiError && err.status === 401) {
       session.me = null;
       session.signedIn = false;
-    } else if (err instanceof ApiError && err.status === 404) {
-      // No /me route on this server: a plan list that answers proves the sign-in.
-      try {
-        await listPlans();
-        session.signedIn = true;
-        session.me = null;
-      } catch (inner) {
-        if (inner instanceof ApiError && inner.status === 401) session.signedIn = false;
-        else throw inner;
-      }
     } else {
       throw err;
     }

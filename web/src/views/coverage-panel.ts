@@ -173,7 +173,7 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
         startButton.disabled = false;
         clear(runBox);
         runBox.append(
-          err instanceof ApiError && err.status === 404 && err.code !== 'not_found'
+          err instanceof ApiError && err.notAvailable
             ? notice('info', 'Coverage runs are not available on this server yet.')
             : notice('error', `The run did not start: ${errorText(err)}`),
         );

@@ -78,7 +78,7 @@ function rowErrorsOf(err: ApiError): ImportResult['errors'] | null {
 function showResult(out: HTMLElement, result: ImportResult, dryRun: boolean): void {
   const parts: HTMLElement[] = [];
   const errors = result.errors ?? [];
-  const okCount = result.valid ?? result.preview?.length ?? result.created ?? result.items?.length ?? 0;
+  const okCount = result.created ?? result.rowCount ?? result.preview?.length ?? 0;
   if (errors.length > 0) {
     parts.push(notice('error', `${errors.length} row(s) have problems; nothing was imported. Fix them and check again.`));
     parts.push(

@@ -27,7 +27,7 @@ interface Actions {
 }
 
 function notAvailable(err: unknown, what: string): HTMLElement {
-  if (err instanceof ApiError && err.status === 404 && err.code !== 'not_found') return notice('info', `${what} is not available on this server yet.`);
+  if (err instanceof ApiError && err.notAvailable) return notice('info', `${what} is not available on this server yet.`);
   return notice('error', `${what} failed: ${errorText(err)}`);
 }
 

@@ -1,0 +1,221 @@
+// The map front end in a real browser (Debian chromium via playwright-core)
+// against the real server with the demo plan: sign in, the map with nodes
+// and gateways, the node panel's kit chooser, a CSV import with a bad row,
+// a coverage run, the fleet table and summary, and an installer recording a
+// reading on a phone-sized screen. Every step fails on a console error or a
+// request that leaves the local server. Screenshots: test-artefacts/screenshots/.
+import { afterAll, beforeAll, beforeEach, describe, expect, it } from 'vitest';
+import type { Browser, BrowserContext, Page } from 'playwright-core';
+import { buildWeb, cli, guard, launchBrowser, newContext, screenshot, startServer, type Guard, type RunningServer } from './harness.ts';
+
+let server: RunningServer;
+let browser: Browser;
+let context: BrowserContext;
+let page: Page;
+let watch: Guard;
+let planId = '';
+
+beforeAll(async () => {
+  buildWeb();
+  [server, browser] = await Promise.all([startServer(), launchBrowser()]);
+  context = await newContext(browser);
+  page = await context.newPage();
+  page.setDefaultTimeout(30_000);
+  watch = guard(page, server.baseUrl);
+}, 240_000);
+
+afterAll(async () => {
+  await context?.close();
+  await browser?.close();
+  await server?.stop();
+});
+
+beforeEach(() => {
+  watch?.reset();
+});
+
+async function textOf(selector: string): Promise<string> {
+  return (await page.locator(selector).first().textContent()) ?? '';
+}
+
+describe('map front end (chromium)', () => {
+  it('signs in with the one-time link printed by the server and lists the plans', async () => {
+    // Before signing in the app probes /api/v1/me and gets 401: that one is expected.
+    watch.expectHttpError(/\/api\/v1\/me$/, 401);
+    await page.goto(`${server.baseUrl}/`);
+    await page.getByRole('heading', { name: 'Sign in' }).waitFor();
+    await screenshot(page, '01-sign-in');
+    await page.goto(server.signInUrl);
+    await page.getByRole('heading', { name: 'Plans' }).waitFor();
+    const planLinks = page.locator('a.plan-link');
+    expect(await planLinks.count()).toBeGreaterThan(0);
+    await expect.poll(() => textOf('.role-badge')).toContain('planner');
+    await screenshot(page, '02-plan-list');
+    watch.assertClean();
+  });
+
+  it('opens the demo plan: hillshade, nodes and gateways on the map', async () => {
+    await page.locator('a.plan-link').first().click();
+    await page.waitForSelector('#plan-map');
+    planId = decodeURIComponent(/#\/plan\/([^/?]+)/.exec(page.url())?.[1] ?? '');
+    expect(planId).not.toBe('');
+    await expect.poll(() => page.locator('.marker-nodes').count()).toBeGreaterThanOrEqual(40);
+    expect(await page.locator('.marker-gateways').count()).toBeGreaterThanOrEqual(1);
+    expect(await page.locator('.marker-sites').count()).toBeGreaterThanOrEqual(3);
+    // The base layer is the plan's own hillshade, served by the local server.
+    await expect.poll(() => page.locator('img.leaflet-tile-loaded[src*="/terrain/tiles/"]').count()).toBeGreaterThan(0);
+    await expect.poll(() => textOf('#fleet-counts')).toMatch(/\d+ served/);
+    await page.waitForTimeout(300);
+    await screenshot(page, '03-plan-map');
+    watch.assertClean();
+  });
+
+  it('node panel: link check and profile; a different mast height changes the margin', async () => {
+    const finder = page.locator('#node-finder');
+    const options = await finder.locator('option').evaluateAll((els) => els.map((e) => ({ value: (e as HTMLOptionElement).value, label: e.textContent ?? '' })));
+    // Prefer a node that is not comfortably served: height matters most there.
+    const pick = options.find((o) => /marginal|unserved/.test(o.label)) ?? options.find((o) => o.value !== '');
+    expect(pick).toBeDefined();
+    await finder.selectOption(pick?.value ?? '');
+    await page.locator('#node-panel-title').waitFor();
+    await page.locator('#links-table tbody tr').first().waitFor();
+    await page.locator('svg.profile-chart').waitFor();
+    await page.locator('#kit-margin').waitFor();
+    const before = await textOf('#kit-margin');
+    expect(before).toMatch(/-?\d+\.\d dB/);
+    const height = Number(await page.locator('#kit-height').inputValue());
+    await page.locator('#kit-height').fill(String(height < 6 ? 9 : 1));
+    await expect.poll(() => textOf('#kit-margin'), { timeout: 20_000 }).not.toBe(before);
+    expect(await textOf('#kit-margin')).toMatch(/-?\d+\.\d dB/);
+    await page.locator('#detail-panel').screenshot({ path: 'test-artefacts/screenshots/04-node-panel.png' });
+    await screenshot(page, '04-node-panel-map');
+    watch.assertClean();
+  });
+
+  it('CSV import: a bad row is reported with its row number and field, nothing is imported; the fixed file imports', async () => {
+    const nodesBefore = await page.locator('.marker-nodes').count();
+    await page.locator('#import-button').click();
+    const centre = await page.evaluate(() => {
+      const markers = Array.from(document.querySelectorAll('.marker-nodes'));
+      return markers.length;
+    });
+    expect(centre).toBe(nodesBefore);
+    const csvGood1 = 'E2E probe A,LAT1,LON1,soil probe,1.5,outdoor';
+    const csvBad = 'E2E probe B,95.5,LON1,soil probe,1.5,outdoor';
+    const csvGood2 = 'E2E probe C,LAT2,LON2,tank level,2,outdoor';
+    // Put the new rows next to an existing node of the plan.
+    const at = await page.evaluate(async (id) => {
+      const r = await fetch(`/api/v1/plans/${id}/nodes?limit=1`, { credentials: 'same-origin' });
+      const body = (await r.json()) as { items: Array<{ lat: number; lon: number }> };
+      return body.items[0];
+    }, planId);
+    const fill = (row: string): string =>
+      row
+        .replace('LAT1', (at.lat + 0.001).toFixed(6))
+        .replace('LON1', (at.lon + 0.001).toFixed(6))
+        .replace('LAT2', (at.lat - 0.001).toFixed(6))
+        .replace('LON2', (at.lon - 0.001).toFixed(6));
+    const header = 'name,lat,lon,deviceType,antennaHeightAglM,environment';
+    await page.locator('#import-text').fill([header, fill(csvGood1), fill(csvBad), fill(csvGood2)].join('\n'));
+    await page.locator('#import-preview').click();
+    await page.locator('#import-errors').waitFor();
+    const errors = await textOf('#import-errors');
+    expect(errors).toContain('lat');
+    expect(await page.locator('#import-errors tbody tr').first().locator('td').first().textContent()).toBe('2');
+    expect(await page.locator('#import-commit').isDisabled()).toBe(true);
+    await page.locator('dialog').screenshot({ path: 'test-artefacts/screenshots/05-import-errors.png' });
+    // fix the row, check again, import
+    await page.locator('#import-text').fill([header, fill(csvGood1), fill(csvGood2)].join('\n'));
+    await page.locator('#import-preview').click();
+    await expect.poll(() => textOf('#import-result')).toContain('valid');
+    await page.locator('#import-commit').click();
+    await expect.poll(() => textOf('#import-result')).toContain('Imported 2');
+    await page.locator('dialog button[aria-label="Close dialog"]').click();
+    await expect.poll(() => page.locator('.marker-nodes').count()).toBe(nodesBefore + 2);
+    watch.assertClean();
+  });
+
+  it('coverage: a run shows its progress, then the overlay and its legend', async () => {
+    const gateways = await page.locator('#coverage-gateway option').evaluateAll((els) => els.map((e) => (e as HTMLOptionElement).value));
+    await page.locator('#coverage-gateway').selectOption(gateways.find((v) => v !== '') ?? '');
+    await page.locator('#coverage-mode').selectOption('fast');
+    await page.locator('#coverage-radius').fill('3');
+    await page.locator('#coverage-start').click();
+    // Progress: the bar appears while the run is queued or running.
+    await page.locator('#coverage-progress').waitFor({ state: 'attached', timeout: 15_000 });
+    await page.locator('#coverage-run').screenshot({ path: 'test-artefacts/screenshots/06-coverage-progress.png' });
+    await expect.poll(() => textOf('#coverage-state'), { timeout: 120_000 }).toContain('finished');
+    await expect.poll(() => page.locator('img.leaflet-tile-loaded[src*="/coverage/"]').count(), { timeout: 20_000 }).toBeGreaterThan(0);
+    expect(await page.locator('#coverage-legend li').count()).toBeGreaterThan(1);
+    await page.locator('#coverage-opacity').fill('0.4');
+    await page.waitForTimeout(400);
+    await screenshot(page, '07-coverage-overlay');
+    watch.assertClean();
+  });
+
+  it('fleet table: sorts, filters by status and links back to the map', async () => {
+    await page.goto(`${server.baseUrl}/#/plan/${encodeURIComponent(planId)}/fleet`);
+    await page.locator('#fleet-table tbody tr').first().waitFor();
+    const all = await page.locator('#fleet-table tbody tr').count();
+    expect(all).toBeGreaterThanOrEqual(40);
+    await page.getByRole('button', { name: /^Margin \(dB\)/ }).click();
+    const margins = await page.locator('#fleet-table tbody tr td:nth-child(4)').allTextContents();
+    const values = margins.map((t) => Number.parseFloat(t)).filter((v) => Number.isFinite(v));
+    expect(values.length).toBeGreaterThan(0);
+    for (let i = 1; i < values.length; i++) expect(values[i]).toBeGreaterThanOrEqual(values[i - 1]);
+    await screenshot(page, '08-fleet-table');
+    await page.locator('#fleet-filter').selectOption('served');
+    const served = await page.locator('#fleet-table tbody tr').count();
+    expect(served).toBeLessThanOrEqual(all);
+    const statuses = await page.locator('#fleet-table tbody tr td:nth-child(2)').allTextContents();
+    for (const s of statuses) expect(s.trim()).toBe('served');
+    await page.locator('#fleet-filter').selectOption('');
+    await page.locator('#fleet-table tbody tr').first().getByRole('link').click();
+    await page.locator('#node-panel-title').waitFor();
+    watch.assertClean();
+  });
+
+  it('manager summary: shares served / marginal / unserved, redundancy and kit cost', async () => {
+    await page.goto(`${server.baseUrl}/#/plan/${encodeURIComponent(planId)}/summary`);
+    await page.locator('#summary-shares').waitFor();
+    expect(await textOf('#summary-shares')).toMatch(/Served/);
+    expect(await textOf('#summary-cost-total')).toMatch(/USD/);
+    await page.waitForTimeout(200);
+    await screenshot(page, '09-summary');
+    watch.assertClean();
+  });
+
+  it('installer on a phone-sized screen: signs in with a token, opens a node and records a reading', async () => {
+    const issued = cli(server, ['token', 'issue', '--team', 'demo', '--role', 'installer']) as { token: string };
+    expect(typeof issued.token).toBe('string');
+    const phone = await newContext(browser, { width: 390, height: 844 });
+    const p = await phone.newPage();
+    p.setDefaultTimeout(30_000);
+    const w = guard(p, server.baseUrl);
+    w.expectHttpError(/\/api\/v1\/me$/, 401);
+    try {
+      await p.goto(`${server.baseUrl}/`);
+      await p.getByLabel('API token or sign-in link').fill(issued.token);
+      await p.getByRole('button', { name: 'Sign in' }).click();
+      await p.getByRole('heading', { name: 'Plans' }).waitFor();
+      await p.goto(`${server.baseUrl}/#/plan/${encodeURIComponent(planId)}/install`);
+      await p.locator('.node-choice a').first().click();
+      await p.locator('#install-coords').waitFor();
+      expect(await p.locator('#install-coords').textContent()).toMatch(/°/);
+      await screenshot(p, '10-installer-node');
+      await p.locator('#reading-rssi').fill('-108.5');
+      await p.locator('#reading-snr').fill('-4.2');
+      await p.getByRole('button', { name: 'Save reading' }).click();
+      await p.locator('#reading-saved').waitFor();
+      expect(await p.locator('#reading-saved').textContent()).toContain('-108.5 dBm');
+      await p.locator('#reading-form').scrollIntoViewIfNeeded();
+      await screenshot(p, '11-installer-reading-saved');
+      // The layout fits the phone: no horizontal scrolling.
+      const overflow = await p.evaluate(() => document.documentElement.scrollWidth - document.documentElement.clientWidth);
+      expect(overflow).toBeLessThanOrEqual(0);
+      w.assertClean();
+    } finally {
+      await phone.close();
+    }
+  });
+});
