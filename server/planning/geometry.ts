@@ -1,11 +1,8 @@
 // Geometry of a link seen from its two ends: the bearing each antenna must
 // look along, and the elevation of the path at each end over a curved earth.
-import geodesic from 'geographiclib-geodesic';
+import { geodesicInverse } from '../terrain/geodesic.ts';
+import { EARTH_RADIUS_KM } from '../propagation/path-geometry.ts';
 
-const WGS84 = geodesic.Geodesic.WGS84;
-
-/** Mean earth radius used with the effective-earth factor, km (ITU-R P.1812 / P.452 a = 6371 km). */
-export const EARTH_RADIUS_KM = 6371;
 
 /** Median effective earth-radius factor k50 = 157 / (157 − ΔN), ITU-R P.1812-8 Eq. (5). */
 export function medianEarthFactor(deltaN = 45): number {
@@ -20,14 +17,11 @@ export interface Bearings {
   backAzimuthDeg: number;
 }
 
-/** Geodesic distance and the azimuth at each end (WGS84, Karney's algorithm via geographiclib). */
+/** Geodesic distance and the azimuth at each end (WGS84, through the terrain room's geodesic). */
 export function bearingsBetween(fromLat: number, fromLon: number, toLat: number, toLon: number): Bearings {
-  const r = WGS84.Inverse(fromLat, fromLon, toLat, toLon);
-  const s12 = r.s12 ?? 0;
-  const azi1 = r.azi1 ?? 0;
-  const azi2 = r.azi2 ?? 0;
-  // azi2 is the forward direction at the far point; the back azimuth points the other way.
-  return { distanceM: s12, forwardAzimuthDeg: normaliseDeg(azi1), backAzimuthDeg: normaliseDeg(azi2 + 180) };
+  const r = geodesicInverse({ lat: fromLat, lon: fromLon }, { lat: toLat, lon: toLon });
+  // azimuthToDeg is the forward direction at the far point; looking back is the opposite way.
+  return { distanceM: r.distanceM, forwardAzimuthDeg: normaliseDeg(r.azimuthFromDeg), backAzimuthDeg: normaliseDeg(r.azimuthToDeg + 180) };
 }
 
 /**

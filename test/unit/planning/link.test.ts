@@ -99,7 +99,7 @@ describe('monotonic sanity a planner relies on', () => {
 
 describe('node summary over gateways', () => {
   it('independent gateways combine; the status follows the rule', () => {
-    const near = predictPath(profileOf([[0, 0], [2000, 0]]), settings('free-space'), nodeEnd, gatewayEnd);
+    const near = predictPath(profileOf([[0, 0], [1000, 0], [2000, 0]]), settings('free-space'), nodeEnd, gatewayEnd);
     const far = predictPath(profileOf([[0, 0], [5000, 60], [10000, 0]]), settings('bullington'), nodeEnd, gatewayEnd);
     const a = linkResult('far', far, linkBudget(far, kit(isotropic), kit(threeDbi, 0.5), node, { noiseFigureDb: 6 }, radio));
     const b = linkResult('near', near, linkBudget(near, kit(isotropic), kit(threeDbi, 0.5), node, { noiseFigureDb: 6 }, radio));

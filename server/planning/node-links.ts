@@ -1,0 +1,55 @@
+// A node's links to all its gateways from their predicted paths: where a
+// directional node antenna points, the budgets, the summary; and the input
+// hashes that key the link cache.
+import { createHash } from 'node:crypto';
+import { linkBudget, linkResult, summariseNodeLinks, type EndKit, type GatewayRadio, type LinkRadioSettings, type LinkResult, type NodeLinkSummary, type NodeRadio } from './link.ts';
+import type { PathPrediction } from './path.ts';
+
+/** Bumped whenever a formula here or in the rooms below changes results, so old cache rows miss. */
+export const LINK_ENGINE_VERSION = 'links-1';
+
+/** SHA-256 (hex) of a JSON-serialisable value, with object keys in sorted order. */
+export function hashOf(value: unknown): string {
+  return createHash('sha256').update(stableJson(value)).digest('hex');
+}
+
+/** JSON with object keys sorted, typed arrays as plain arrays: equal inputs give equal text. */
+export function stableJson(value: unknown): string {
+  if (value === null || typeof value !== 'object') return JSON.stringify(value ?? null);
+  if (ArrayBuffer.isView(value)) return JSON.stringify(Array.from(value as unknown as ArrayLike<number>));
+  if (Array.isArray(value)) return `[${value.map(stableJson).join(',')}]`;
+  if (value instanceof Date) return JSON.stringify(value.toISOString());
+  const entries = Object.entries(value as Record<string, unknown>)
+    .filter(([, v]) => v !== undefined)
+    .sort(([a], [b]) => (a < b ? -1 : a > b ? 1 : 0));
+  return `{${entries.map(([k, v]) => `${JSON.stringify(k)}:${stableJson(v)}`).join(',')}}`;
+}
+
+export interface GatewayLinkInput {
+  gatewayId: string;
+  path: PathPrediction;
+  kit: EndKit;
+  radio: GatewayRadio;
+}
+
+/**
+ * Where a directional node antenna points: at the gateway with the least
+ * basic loss (the installer aims at the best-heard site). null for an omni.
+ */
+export function nodeAimAzimuthDeg(nodeKit: EndKit, paths: readonly { path: PathPrediction }[]): number | null {
+  const directional = nodeKit.antenna.pattern.kind === 'directional';
+  if (!directional || paths.length === 0) return null;
+  if (nodeKit.boresightAzimuthDeg !== null) return nodeKit.boresightAzimuthDeg;
+  let best = paths[0].path;
+  for (const { path } of paths) if (path.basicLossDb < best.basicLossDb) best = path;
+  return best.nodeAzimuthDeg;
+}
+
+/** Link results of one node over the given gateway paths, with the aim fixed once for all of them. */
+export function nodeLinkResults(nodeKit: EndKit, node: NodeRadio, gateways: readonly GatewayLinkInput[], settings: LinkRadioSettings): LinkResult[] {
+  const aim = nodeAimAzimuthDeg(nodeKit, gateways);
+  const kit: EndKit = aim === null ? nodeKit : { ...nodeKit, boresightAzimuthDeg: aim };
+  return gateways.map((gateway) => linkResult(gateway.gatewayId, gateway.path, linkBudget(gateway.path, kit, gateway.kit, node, gateway.radio, settings)));
+}
+
+export { summariseNodeLinks, type NodeLinkSummary };
