@@ -1,0 +1,133 @@
+// The `predict-path` command: input validation (one line naming the field) and the output contract.
+import { spawnSync } from 'node:child_process';
+import path from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { describe, expect, it } from 'vitest';
+import { propagationCommands } from '../../../server/cli/propagation.ts';
+import type { CliContext } from '../../../server/cli/framework.ts';
+import type { PathPrediction } from '../../../server/propagation/path-prediction.ts';
+
+const repoRoot = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '../../..');
+const command = propagationCommands.find((c) => c.words === 'predict-path');
+if (!command) throw new Error('predict-path is not registered');
+
+function context(stdin: string): CliContext {
+  return { readStdin: async () => stdin, progress: () => {} };
+}
+
+function request(overrides: Record<string, unknown> = {}): Record<string, unknown> {
+  return {
+    method: 'p1812',
+    frequencyMhz: 868,
+    timePercent: 50,
+    tx: { lat: 45, lon: 7, heightAglM: 15 },
+    rx: { lat: 45.05, lon: 7.01, heightAglM: 1.5 },
+    profile: [
+      { distanceKm: 0, groundM: 300 },
+      { distanceKm: 1.5, groundM: 330, clutterM: 12, zone: 'inland' },
+      { distanceKm: 3, groundM: 310 },
+      { distanceKm: 5.8, groundM: 290 },
+    ],
+    ...overrides,
+  };
+}
+
+async function run(body: unknown): Promise<PathPrediction> {
+  return (await command!.run({ input: '-' }, context(JSON.stringify(body)))) as PathPrediction;
+}
+
+async function failure(body: unknown): Promise<string> {
+  try {
+    await run(body);
+  } catch (error) {
+    return (error as Error).message;
+  }
+  throw new Error('expected the command to fail');
+}
+
+describe('predict-path input validation', () => {
+  it('frequency outside 30–6000 MHz for p1812 names frequencyMhz', async () => {
+    expect(await failure(request({ frequencyMhz: 20 }))).toMatch(/^frequencyMhz: must be within 30–6000 MHz/);
+    expect(await failure(request({ frequencyMhz: 6500 }))).toMatch(/^frequencyMhz:/);
+  });
+  it('time percent outside 1–50 names timePercent', async () => {
+    expect(await failure(request({ timePercent: 0.5 }))).toMatch(/^timePercent: must be within 1–50 %/);
+    expect(await failure(request({ timePercent: 60 }))).toMatch(/^timePercent:/);
+  });
+  it('non-increasing distances name the point', async () => {
+    const body = request();
+    (body.profile as { distanceKm: number }[])[2].distanceKm = 1.5;
+    expect(await failure(body)).toMatch(/^profile\[2\]\.distanceKm: must be greater than/);
+  });
+  it('fewer than 3 points', async () => {
+    expect(await failure(request({ profile: [{ distanceKm: 0, groundM: 1 }, { distanceKm: 1, groundM: 1 }] }))).toMatch(
+      /^profile: needs at least 3 points/,
+    );
+  });
+  it('null and NoData heights name the point', async () => {
+    const withNull = request();
+    (withNull.profile as { groundM: unknown }[])[1].groundM = null;
+    expect(await failure(withNull)).toMatch(/^profile\[1\]\.groundM:/);
+    const withNoData = request();
+    (withNoData.profile as { groundM: unknown }[])[3].groundM = -32768;
+    expect(await failure(withNoData)).toMatch(/^profile\[3\]\.groundM: is a NoData value/);
+  });
+  it('unknown zone, method and polarisation are refused', async () => {
+    const body = request();
+    (body.profile as { zone: unknown }[])[0].zone = 'forest';
+    expect(await failure(body)).toMatch(/^profile\[0\]\.zone:/);
+    expect(await failure(request({ method: 'okumura' }))).toMatch(/^method: must be one of/);
+    expect(await failure(request({ polarization: 'circular' }))).toMatch(/^polarization:/);
+  });
+  it('bad JSON and unreadable files are one-line --input errors', async () => {
+    await expect(command!.run({ input: '-' }, context('{ nope'))).rejects.toThrow(/^--input: not valid JSON/);
+    await expect(command!.run({ input: '/nonexistent/path.json' }, context(''))).rejects.toThrow(/^--input: cannot read/);
+  });
+});
+
+describe('predict-path output contract', () => {
+  it('p1812 maps Lbfs, Ld50, Ldp, Lbs, Lba, Lb onto the contract fields', async () => {
+    const out = await run(request());
+    expect(out.method).toBe('p1812');
+    expect(out.basicLossDb).toBe(out.p1812?.lbDb);
+    expect(out.terms.freeSpaceDb).toBe(out.p1812?.lbfsDb);
+    expect(out.terms.diffractionMedianDb).toBe(out.p1812?.ld50Db);
+    expect(out.terms.diffractionDb).toBe(out.p1812?.ldpDb);
+    expect(out.terms.troposcatterDb).toBe(out.p1812?.lbsDb);
+    expect(out.terms.ductingDb).toBe(out.p1812?.lbaDb);
+    expect(typeof out.lineOfSight).toBe('boolean');
+    expect(Number.isFinite(out.fresnelClearanceRatio)).toBe(true);
+    expect(Array.isArray(out.warnings)).toBe(true);
+    // Eq. (70) for 1 kW e.r.p. (the default)
+    expect(out.fieldStrengthDbuvm).toBeCloseTo(199.36 + 20 * Math.log10(0.868) - out.basicLossDb, 9);
+  });
+  it('each fast method answers, never below free space, and free space warns when the ray is blocked', async () => {
+    const blocked = request({
+      profile: [
+        { distanceKm: 0, groundM: 300 },
+        { distanceKm: 2, groundM: 400 },
+        { distanceKm: 4, groundM: 300 },
+      ],
+    });
+    const fs = await run({ ...blocked, method: 'free-space' });
+    for (const method of ['bullington', 'knife-edge', 'deygout'] as const) {
+      const out = await run({ ...blocked, method });
+      expect(out.method).toBe(method);
+      expect(out.basicLossDb).toBeGreaterThan(fs.basicLossDb + 10);
+      expect(out.lineOfSight).toBe(false);
+    }
+    expect(fs.warnings.join(' ')).toMatch(/blocked/);
+    expect(fs.terms.diffractionDb).toBeNull();
+  });
+  it('a failing run exits non-zero with exactly one line on stderr and nothing on stdout', () => {
+    const proc = spawnSync(process.execPath, ['--import', 'tsx', 'server/cli.ts', 'predict-path', '--input', '-', '--json'], {
+      cwd: repoRoot,
+      input: JSON.stringify(request({ timePercent: 75 })),
+      encoding: 'utf8',
+    });
+    expect(proc.status).not.toBe(0);
+    expect(proc.stdout).toBe('');
+    expect(proc.stderr.trim().split('\n')).toHaveLength(1);
+    expect(proc.stderr).toMatch(/timePercent/);
+  });
+});
