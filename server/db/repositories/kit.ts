@@ -2,6 +2,7 @@
 // server/radio (teamId null) and are re-synced on every open, so a new release's catalog
 // reaches existing databases; teams add their own rows (teamId set, cuid ids).
 // The *ForTeam helpers return the server/radio shapes the computation rooms take.
+import { createHash } from 'node:crypto';
 import type { Database } from '../client.ts';
 import type { Prisma } from '../generated/client.ts';
 import { NotFoundError } from '../errors.ts';
@@ -67,20 +68,40 @@ function mastData(mast: RadioMastOption) {
   return { name, heightM, costUsd, notes: notes.join('\n'), details: json({ ...rest, notes }) };
 }
 
-/** Upserts the built-in catalog from server/radio (teamId null). */
+/** Hash of the built-in catalog as this release ships it (stored in each built-in row's details). */
+function catalogHash(): string {
+  return createHash('sha256').update(JSON.stringify([builtInAntennaDesigns, builtInFeedlines, builtInMastOptions])).digest('hex').slice(0, 16);
+}
+
+/**
+ * Brings the built-in catalog (teamId null) up to this release's server/radio lists.
+ * Cheap when nothing changed: three counts of rows carrying the current catalog hash.
+ */
 export async function syncBuiltInKit(db: Database): Promise<void> {
+  const hash = catalogHash();
+  const current = { path: ['catalogHash'], equals: hash };
+  const [antennas, feedlines, masts] = await Promise.all([
+    db.prisma.antennaDesign.count({ where: { teamId: null, details: current } }),
+    db.prisma.feedlineType.count({ where: { teamId: null, details: current } }),
+    db.prisma.mastOption.count({ where: { teamId: null, details: current } }),
+  ]);
+  if (antennas === builtInAntennaDesigns.length && feedlines === builtInFeedlines.length && masts === builtInMastOptions.length) return;
+  const stamp = (details: Prisma.InputJsonValue) => ({ ...(details as Record<string, unknown>), catalogHash: hash }) as Prisma.InputJsonValue;
   const ops = [
     ...builtInAntennaDesigns.map((design) => {
       const data = antennaData(design);
-      return db.prisma.antennaDesign.upsert({ where: { id: design.id }, create: { id: design.id, teamId: null, ...data }, update: data });
+      const row = { ...data, details: stamp(data.details) };
+      return db.prisma.antennaDesign.upsert({ where: { id: design.id }, create: { id: design.id, teamId: null, ...row }, update: row });
     }),
     ...builtInFeedlines.map((feedline) => {
       const data = feedlineData(feedline);
-      return db.prisma.feedlineType.upsert({ where: { id: feedline.id }, create: { id: feedline.id, teamId: null, ...data }, update: data });
+      const row = { ...data, details: stamp(data.details) };
+      return db.prisma.feedlineType.upsert({ where: { id: feedline.id }, create: { id: feedline.id, teamId: null, ...row }, update: row });
     }),
     ...builtInMastOptions.map((mast) => {
       const data = mastData(mast);
-      return db.prisma.mastOption.upsert({ where: { id: mast.id }, create: { id: mast.id, teamId: null, ...data }, update: data });
+      const row = { ...data, details: stamp(data.details) };
+      return db.prisma.mastOption.upsert({ where: { id: mast.id }, create: { id: mast.id, teamId: null, ...row }, update: row });
     }),
   ];
   await db.prisma.$transaction(ops);
@@ -175,7 +196,7 @@ export async function deleteKitRow(db: Database, teamId: string, kind: KitKind, 
 
 /** A catalog row in the shape server/radio computes with. */
 export function toRadioAntennaDesign(row: AntennaDesignRow): RadioAntennaDesign {
-  const details = (row.details ?? {}) as Partial<RadioAntennaDesign>;
+  const { catalogHash: _hash, ...details } = (row.details ?? {}) as Partial<RadioAntennaDesign> & { catalogHash?: string };
   return {
     relativeCost: 1,
     priceNote: row.teamId ? 'entered by the team' : '',
@@ -197,7 +218,7 @@ export function toRadioAntennaDesign(row: AntennaDesignRow): RadioAntennaDesign 
 }
 
 export function toRadioFeedline(row: FeedlineRow): RadioFeedline {
-  const details = (row.details ?? {}) as Partial<RadioFeedline>;
+  const { catalogHash: _hash, ...details } = (row.details ?? {}) as Partial<RadioFeedline> & { catalogHash?: string };
   const table = (Array.isArray(row.lossTable) && row.lossTable.length > 0
     ? row.lossTable
     : [{ frequencyMhz: row.referenceMhz, lossDbPer100m: row.lossDbPer100m }]) as unknown as AttenuationPoint[];
@@ -219,7 +240,7 @@ export function toRadioFeedline(row: FeedlineRow): RadioFeedline {
 }
 
 export function toRadioMastOption(row: MastRow): RadioMastOption {
-  const details = (row.details ?? {}) as Partial<RadioMastOption>;
+  const { catalogHash: _hash, ...details } = (row.details ?? {}) as Partial<RadioMastOption> & { catalogHash?: string };
   return {
     mounting: 'ground',
     priceNote: row.teamId ? 'entered by the team' : '',
