@@ -18,7 +18,8 @@ export function mismatchFromVswr(vswr: number): Mismatch {
   if (!Number.isFinite(vswr) || vswr < 1) throw new RangeError(`VSWR must be a finite number of at least 1 (got ${vswr})`);
   const gamma = (vswr - 1) / (vswr + 1);
   const returnLossDb = gamma === 0 ? null : -20 * Math.log10(gamma);
-  const mismatchLossDb = -10 * Math.log10(1 - gamma * gamma);
+  // `+ 0` turns −0 (from −10·log10(1)) into 0.
+  const mismatchLossDb = -10 * Math.log10(1 - gamma * gamma) + 0;
   return { vswr, reflectionCoefficient: gamma, returnLossDb, mismatchLossDb, reflectedPowerPercent: gamma * gamma * 100 };
 }
 
