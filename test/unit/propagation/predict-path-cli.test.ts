@@ -6,6 +6,8 @@ import { describe, expect, it } from 'vitest';
 import { propagationCommands } from '../../../server/cli/propagation.ts';
 import type { CliContext } from '../../../server/cli/framework.ts';
 import type { PathPrediction } from '../../../server/propagation/path-prediction.ts';
+import { extractProfile } from '../../../server/terrain/profile.ts';
+import { openTerrainStore } from '../../../server/terrain/store.ts';
 
 const repoRoot = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '../../..');
 const command = propagationCommands.find((c) => c.words === 'predict-path');
@@ -129,5 +131,28 @@ describe('predict-path output contract', () => {
     expect(proc.stdout).toBe('');
     expect(proc.stderr.trim().split('\n')).toHaveLength(1);
     expect(proc.stderr).toMatch(/timePercent/);
+  });
+});
+
+describe('predict-path with "terrain" (profile extracted by the terrain engine)', () => {
+  // terrain-samples/elev.tif: a small real DEM (SRTM-derived, see terrain-samples/README.md).
+  const dem = path.join(repoRoot, 'terrain-samples/elev.tif');
+  const ends = { tx: { lat: 49.8, lon: 6.0, heightAglM: 20 }, rx: { lat: 49.6, lon: 6.3, heightAglM: 1.5 } };
+  it('gives the same answer as the extracted profile passed as points', async () => {
+    const viaTerrain = await run({ ...request(), ...ends, profile: undefined, terrain: [dem] });
+    const store = await openTerrainStore([{ path: dem }]);
+    const extracted = await extractProfile(store, ends.tx, ends.rx);
+    await store.close();
+    const points = Array.from(extracted.distanceM, (m, i) => ({ distanceKm: m / 1000, groundM: extracted.groundM[i] }));
+    const viaPoints = await run({ ...request(), ...ends, profile: points });
+    expect(viaTerrain.distanceKm).toBeCloseTo(extracted.lengthM / 1000, 9);
+    expect(viaTerrain.basicLossDb).toBeCloseTo(viaPoints.basicLossDb, 9);
+    expect(viaTerrain.warnings.join(' ')).toMatch(/extracted from terrain/);
+  });
+  it('a path leaving the raster is refused, naming terrain', async () => {
+    expect(await failure({ ...request(), ...ends, rx: { lat: 49.0, lon: 6.3, heightAglM: 1.5 }, profile: undefined, terrain: [dem] })).toMatch(
+      /^terrain: \d+ of \d+ profile points have no elevation data/,
+    );
+    expect(await failure({ ...request(), ...ends, profile: undefined, terrain: ['/nonexistent.tif'] })).toMatch(/^terrain:/);
   });
 });
