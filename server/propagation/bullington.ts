@@ -1,5 +1,6 @@
 // Bullington diffraction over a terrain profile, ITU-R P.526-16 §4.5.1
-// (the same construction ITU-R P.1812-8 §4.3.1 Eqs (13)–(21) uses).
+// (the same construction ITU-R P.1812-8 §4.3.1 uses, ending in its Eq. (21); the step
+// numbers below follow that order: Ce, Stim, Str, νmax or Srim/dbp/νb, Luc, Lbull).
 import { knifeEdgeLossDb } from './knife-edge.ts';
 
 /**
@@ -7,7 +8,7 @@ import { knifeEdgeLossDb } from './knife-edge.ts';
  * `distanceKm`/`heightM` hold `count` points from the transmitter (index 0) to the receiver
  * (index count−1); only the intermediate points are obstacles. `txHeightAmslM`/`rxHeightAmslM`
  * are the antenna heights above the profile datum, `effectiveRadiusKm` the effective earth
- * radius (earth curvature Ce = 1/ae, Eq. (13)), `wavelengthM` the wavelength.
+ * radius (earth curvature Ce = 1/ae), `wavelengthM` the wavelength.
  * With `flat` true every intermediate height is taken as 0 (the smooth profile of P.1812 §4.3.1).
  */
 export function bullingtonLossDb(
@@ -22,10 +23,10 @@ export function bullingtonLossDb(
 ): number {
   const d = distanceKm[count - 1] - distanceKm[0];
   const d0 = distanceKm[0];
-  const ce = 1 / effectiveRadiusKm; // Eq. (13)
+  const ce = 1 / effectiveRadiusKm; // Ce
   const hts = txHeightAmslM;
   const hrs = rxHeightAmslM;
-  // Eq. (14): highest slope of the line from the transmitter to any intermediate point (m/km).
+  // Stim: highest slope of the line from the transmitter to any intermediate point (m/km).
   let stim = -Infinity;
   for (let i = 1; i < count - 1; i++) {
     const di = distanceKm[i] - d0;
@@ -33,10 +34,10 @@ export function bullingtonLossDb(
     const slope = (hi + 500 * ce * di * (d - di) - hts) / di;
     if (slope > stim) stim = slope;
   }
-  const str = (hrs - hts) / d; // Eq. (15)
+  const str = (hrs - hts) / d; // Str
   let luc: number;
   if (stim < str) {
-    // Eq. (16)–(17): line of sight; the highest diffraction parameter over the path.
+    // Line of sight (Stim < Str): the highest diffraction parameter over the path.
     let vmax = -Infinity;
     for (let i = 1; i < count - 1; i++) {
       const di = distanceKm[i] - d0;
@@ -48,7 +49,7 @@ export function bullingtonLossDb(
     }
     luc = count > 2 ? knifeEdgeLossDb(vmax) : 0;
   } else {
-    // Eq. (18): highest slope from the receiver.
+    // Srim: highest slope from the receiver.
     let srim = -Infinity;
     for (let i = 1; i < count - 1; i++) {
       const di = distanceKm[i] - d0;
@@ -56,12 +57,12 @@ export function bullingtonLossDb(
       const slope = (hi + 500 * ce * di * (d - di) - hrs) / (d - di);
       if (slope > srim) srim = slope;
     }
-    const dbp = (hrs - hts + srim * d) / (stim + srim); // Eq. (19): Bullington point
+    const dbp = (hrs - hts + srim * d) / (stim + srim); // dbp: distance of the Bullington point
     const vb =
       (hts + stim * dbp - (hts * (d - dbp) + hrs * dbp) / d) *
-      Math.sqrt((0.002 * d) / (wavelengthM * dbp * (d - dbp))); // Eq. (20)
+      Math.sqrt((0.002 * d) / (wavelengthM * dbp * (d - dbp))); // νb
     luc = knifeEdgeLossDb(vb);
   }
-  // Eq. (21): empirical correction that grows with distance.
+  // P.1812-8 Eq. (21): empirical correction that grows with distance.
   return luc + (1 - Math.exp(-luc / 6)) * (10 + 0.02 * d);
 }

@@ -1,4 +1,5 @@
-// Ducting and layer reflection, ITU-R P.1812-8 §4.5, Eqs (46)–(56):
+// Ducting and layer reflection, ITU-R P.1812-8 §4.5 (Lba is Eq. (46), its sub-terms
+// follow in Eqs (47)–(56); they are cited by role here, not by number):
 // Lba = Af + Ad(p), with the fixed coupling losses Af (Alf, Ast/Asr, Act/Acr)
 // and the time-percentage and angular-distance dependent loss Ad(p).
 
@@ -17,7 +18,7 @@ export interface DuctingInput {
   hmM: number;
   aeKm: number;
   beta0Percent: number;
-  /** τ of Eq. (6) (from dlm). */
+  /** τ of the β0 formula (from dlm). */
   tau: number;
   omega: number;
   txCoastDistanceKm: number;
@@ -62,14 +63,14 @@ export function emptyDuctingTerms(): DuctingTerms {
   };
 }
 
-/** Site-shielding loss Ast or Asr (dB), Eq. (48), with θ'' = θ − 0.1·dl (mrad). */
+/** Site-shielding loss Ast or Asr (dB), with θ'' = θ − 0.1·dl (mrad). */
 function siteShieldingDb(frequencyGhz: number, thetaMrad: number, horizonKm: number): number {
   const t = thetaMrad - 0.1 * horizonKm;
   if (t <= 0) return 0;
   return 20 * Math.log10(1 + 0.361 * t * Math.sqrt(frequencyGhz * horizonKm)) + 0.264 * t * Math.cbrt(frequencyGhz);
 }
 
-/** Over-sea surface-duct coupling correction Act or Acr (dB), Eq. (49). */
+/** Over-sea surface-duct coupling correction Act or Acr (dB): only for ω ≥ 0.75 with the coast within 5 km and the horizon. */
 function seaDuctCouplingDb(omega: number, coastKm: number, horizonKm: number, heightAmslM: number): number {
   if (omega >= 0.75 && coastKm <= horizonKm && coastKm <= 5) {
     return -3 * Math.exp(-0.25 * coastKm * coastKm) * (1 + Math.tanh(0.07 * (50 - heightAmslM)));
@@ -81,13 +82,13 @@ function seaDuctCouplingDb(omega: number, coastKm: number, horizonKm: number, he
 export function ductingLoss(input: DuctingInput, out: DuctingTerms): DuctingTerms {
   const f = input.frequencyGhz;
   const d = input.distanceKm;
-  // Eq. (47a): empirical correction for the increasing attenuation with wavelength below 0.5 GHz.
+  // Alf: empirical correction for the increasing attenuation with wavelength below 0.5 GHz.
   out.alfDb = f < 0.5 ? 45.375 - 137 * f + 92.5 * f * f : 0;
   out.astDb = siteShieldingDb(f, input.thetaTMrad, input.dltKm);
   out.asrDb = siteShieldingDb(f, input.thetaRMrad, input.dlrKm);
   out.actDb = seaDuctCouplingDb(input.omega, input.txCoastDistanceKm, input.dltKm, input.htsM);
   out.acrDb = seaDuctCouplingDb(input.omega, input.rxCoastDistanceKm, input.dlrKm, input.hrsM);
-  // Eq. (47): total of the fixed coupling losses.
+  // Af: total of the fixed coupling losses between the antennas and the anomalous structure.
   out.afDb =
     102.45 +
     20 * Math.log10(f) +
@@ -98,9 +99,9 @@ export function ductingLoss(input: DuctingInput, out: DuctingTerms): DuctingTerm
     out.actDb +
     out.acrDb;
 
-  // Eq. (51): specific attenuation inside the duct.
+  // γd: specific attenuation inside the duct (dB/mrad).
   out.gammaDDbPerMrad = 5e-5 * input.aeKm * Math.cbrt(f);
-  // Eqs (52)–(53): angular distance, horizon angles capped at 0.1·dl.
+  // θ': angular distance with the horizon angles capped at 0.1·dl.
   const tt = input.thetaTMrad <= 0.1 * input.dltKm ? input.thetaTMrad : 0.1 * input.dltKm;
   const tr = input.thetaRMrad <= 0.1 * input.dlrKm ? input.thetaRMrad : 0.1 * input.dlrKm;
   out.thetaPrimeMrad = (1000 * d) / input.aeKm + tt + tr;
@@ -119,19 +120,19 @@ export function ductingLoss(input: DuctingInput, out: DuctingTerms): DuctingTerm
     mu3 = Math.exp(-4.6e-5 * (input.hmM - 10) * (43 + 6 * di));
   }
   out.mu3 = mu3;
-  // Eq. (56): time percentage associated with the above.
+  // β = β0·μ2·μ3: time percentage of anomalous propagation on this path.
   const beta = input.beta0Percent * mu2 * mu3;
   out.betaPercent = beta;
   const logBeta = Math.log10(beta);
-  // Eq. (55): exponent of the time-percentage variability.
+  // Γ: exponent of the time-percentage variability.
   const gamma =
     (1.076 / Math.pow(2.0058 - logBeta, 1.012)) *
     Math.exp(-(9.51 - 4.8 * logBeta + 0.198 * logBeta * logBeta) * 1e-6 * Math.pow(d, 1.13));
   out.gammaExponent = gamma;
   const ratio = input.timePercent / beta;
-  // Eq. (54): time-percentage variability (cumulative distribution).
+  // A(p): time-percentage variability (cumulative distribution).
   out.apDb = -12 + (1.2 + 3.7e-3 * d) * Math.log10(ratio) + 12 * Math.pow(ratio, gamma);
-  // Eq. (50): time percentage and angular-distance dependent losses.
+  // Ad(p): time percentage and angular-distance dependent losses.
   out.adDb = out.gammaDDbPerMrad * out.thetaPrimeMrad + out.apDb;
   out.lbaDb = out.afDb + out.adDb; // Eq. (46)
   return out;

@@ -1,4 +1,4 @@
-// Location variability and field strength, ITU-R P.1812-8 §4.8–4.9, Eqs (64)–(70).
+// Location variability and field strength, ITU-R P.1812-8 §4.7–4.9: Lb of Eq. (69), Ep of Eq. (70).
 import { inverseComplementaryNormal } from './statistics.ts';
 
 /**

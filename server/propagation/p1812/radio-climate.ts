@@ -1,5 +1,5 @@
 // Radio-meteorological parameters of ITU-R P.1812-8 §3.4–3.5: path centre,
-// time percentage β0 for anomalous propagation (Eq. (5)–(6)), effective earth
+// time percentage β0 for anomalous propagation (Eq. (5) with μ1, τ and μ4), effective earth
 // radii (Eq. (7a)–(7b)), and the zone statistics dtm, dlm and ω of the profile.
 import { ZONE_INLAND, ZONE_SEA } from './types.ts';
 
@@ -37,7 +37,7 @@ export const BETA_EFFECTIVE_RADIUS_KM = EARTH_RADIUS_KM * 3;
 
 /**
  * β0 (%), the time percentage for which refractivity lapse rates exceeding 100 N-units/km
- * can be expected in the first 100 m of the atmosphere, Eq. (5) with μ1 (Eq. (6)), τ and μ4.
+ * can be expected in the first 100 m of the atmosphere, Eq. (5) with μ1, τ and μ4.
  */
 export function beta0Percent(pathCentreLatDeg: number, dtmKm: number, dlmKm: number): number {
   const lat = Math.abs(pathCentreLatDeg);
@@ -53,7 +53,7 @@ export function beta0Percent(pathCentreLatDeg: number, dtmKm: number, dlmKm: num
   return 4.17 * mu1 * mu4;
 }
 
-/** τ of Eq. (6), needed again by the ducting model (α of μ2). */
+/** τ of the β0 formula (Eq. (5)), needed again by the ducting model (α of μ2). */
 export function tauOfInlandLength(dlmKm: number): number {
   return 1 - Math.exp(-4.12e-4 * Math.pow(dlmKm, 2.41));
 }
