@@ -2,14 +2,17 @@
 // radio budget at every allowed SF, the best (fastest) SF that meets the
 // plan's target margin, time on air there, probability of delivery and the
 // legal check of the node's EIRP.
-import { antennaGainDbi, type AntennaDesign } from '../radio/antennas.ts';
-import { feedlineLossDb, type FeedlineType } from '../radio/feedlines.ts';
-import { mismatchLossDb } from '../radio/mismatch.ts';
-import { receptionPerSf, timeOnAirMs, type CodingRate } from '../radio/lora-phy.ts';
+import type { AntennaDesign } from '../radio/antennas.ts';
+import type { BandPlan } from '../radio/band-plans.ts';
+import type { ConnectorUse, FeedlineType } from '../radio/feedlines.ts';
+import type { CodingRate } from '../radio/lora-phy.ts';
+import { computeLinkBudget, type LegalCheck } from '../radio/link-budget.ts';
 import { environmentLoss, type EnvironmentSettings, type NodeEnvironment } from './environment.ts';
 import { combinedDeliveryProbability, combineSigmasDb, deliveryProbability } from './probability.ts';
 import { linkStatus, type LinkStatus, type ServiceTarget } from './status.ts';
 import type { PathPrediction } from './path.ts';
+
+export type { LegalCheck };
 
 /** The kit at one end of a link. */
 export interface EndKit {
@@ -18,8 +21,8 @@ export interface EndKit {
   boresightAzimuthDeg: number | null;
   feedline: Pick<FeedlineType, 'id' | 'fit'> | null;
   feedlineLengthM: number;
-  /** Connectors and arrestors in the run, dB. */
-  connectorLossDb: number;
+  /** Connectors and arrestors in the run. */
+  connectors: ConnectorUse[];
 }
 
 export interface NodeRadio {
@@ -40,12 +43,10 @@ export interface LinkRadioSettings {
   bandwidthKhz: number;
   codingRate: CodingRate;
   preambleSymbols: number;
-  /** SFs the band plan allows for uplinks at this bandwidth, ascending. */
+  /** SFs the band plan allows for uplinks at this bandwidth (and payload), ascending. */
   allowedSfs: readonly number[];
-  /** EIRP limit of the channel, dBm (null = none known). */
-  maxEirpDbm: number | null;
-  /** Where that limit comes from (regulation section), shown with the check. */
-  limitSource: string;
+  /** Band plan for the legal, duty-cycle and dwell-time checks. */
+  bandPlan: BandPlan;
   targetMarginDb: number;
   /** Location variability σ (dB) of the path. */
   locationSigmaDb: number;
@@ -58,14 +59,10 @@ export interface SfBudget {
   marginDb: number;
   timeOnAirMs: number;
   meetsTarget: boolean;
-}
-
-export interface LegalCheck {
-  ok: boolean;
-  eirpDbm: number;
-  maxEirpDbm: number | null;
-  source: string;
-  message: string;
+  /** Messages per hour the duty-cycle rule allows (null = no rule). */
+  messagesPerHour: number | null;
+  /** Frame within the dwell-time limit (null = no limit). */
+  dwellOk: boolean | null;
 }
 
 export interface LinkBudget {
@@ -81,9 +78,9 @@ export interface LinkBudget {
   rssiDbm: number;
   snrDb: number;
   perSf: SfBudget[];
-  /** Fastest allowed SF meeting the target margin; null when none does. */
+  /** Fastest allowed SF meeting the target margin (and the dwell limit); null when none does. */
   bestSf: number | null;
-  /** SF the node would use: bestSf, else the most robust allowed (adaptive) or the fixed SF. */
+  /** SF the node would use: bestSf, else the allowed SF with the most margin (adaptive) or the fixed SF. */
   usedSf: number;
   /** Margin at usedSf, dB. */
   marginDb: number;
@@ -91,83 +88,81 @@ export interface LinkBudget {
   /** σ of the received level (location variability ⊕ environment spread), dB. */
   sigmaDb: number;
   deliveryProbability: number;
-  legal: LegalCheck;
+  legal: LegalCheck | null;
+  warnings: string[];
 }
 
-/** Loss of a feedline run (cable + connectors), dB. */
-export function runLossDb(kit: EndKit, frequencyMhz: number): number {
-  const cableDb = kit.feedline && kit.feedlineLengthM > 0 ? feedlineLossDb(kit.feedline, frequencyMhz, kit.feedlineLengthM) : 0;
-  return cableDb + kit.connectorLossDb;
-}
-
-/** The uplink budget (node transmits, gateway receives) over a predicted path. */
+/**
+ * The uplink budget (node transmits, gateway receives) over a predicted path,
+ * through the radio room's computeLinkBudget; the node's environment loss
+ * (building entry, pit) is added to the path loss.
+ */
 export function linkBudget(path: PathPrediction, nodeKit: EndKit, gatewayKit: EndKit, node: NodeRadio, gateway: GatewayRadio, settings: LinkRadioSettings): LinkBudget {
-  const f = settings.frequencyMhz;
-  const nodeGainDbi = antennaGainDbi(nodeKit.antenna, path.nodeAzimuthDeg, path.nodeElevationDeg, nodeKit.boresightAzimuthDeg ?? path.nodeAzimuthDeg);
-  const gatewayGainDbi = antennaGainDbi(gatewayKit.antenna, path.gatewayAzimuthDeg, path.gatewayElevationDeg, gatewayKit.boresightAzimuthDeg ?? path.gatewayAzimuthDeg);
-  const nodeFeedlineLossDb = runLossDb(nodeKit, f);
-  const gatewayFeedlineLossDb = runLossDb(gatewayKit, f);
-  const nodeMismatchLossDb = mismatchLossDb(nodeKit.antenna.typicalVswr);
-  const gatewayMismatchLossDb = mismatchLossDb(gatewayKit.antenna.typicalVswr);
-  const env = environmentLoss(node.environment, f, path.nodeElevationDeg, settings.environment);
-  // EIRP toward the gateway: TX power − feedline − mismatch + gain in that direction.
-  const eirpDbm = node.txPowerDbm - nodeFeedlineLossDb - nodeMismatchLossDb + nodeGainDbi;
-  const rssiDbm = eirpDbm - path.basicLossDb - env.lossDb + gatewayGainDbi - gatewayFeedlineLossDb - gatewayMismatchLossDb;
-  const sfs = node.sfPolicy === 'fixed' && node.fixedSf !== null ? [node.fixedSf] : settings.allowedSfs;
-  const reception = receptionPerSf(rssiDbm, settings.bandwidthKhz, gateway.noiseFigureDb, sfs);
-  const perSf: SfBudget[] = reception.map((r) => ({
-    sf: r.spreadingFactor,
-    sensitivityDbm: r.sensitivityDbm,
-    marginDb: r.marginDb,
-    timeOnAirMs: timeOnAirMs({
-      spreadingFactor: r.spreadingFactor,
-      bandwidthKhz: settings.bandwidthKhz,
-      codingRate: settings.codingRate,
-      payloadBytes: node.phyPayloadBytes,
-      preambleSymbols: settings.preambleSymbols,
-    }).timeOnAirMs,
-    meetsTarget: r.marginDb >= settings.targetMarginDb,
+  const env = environmentLoss(node.environment, settings.frequencyMhz, path.nodeElevationDeg, settings.environment);
+  const sfs = node.sfPolicy === 'fixed' && node.fixedSf !== null ? [node.fixedSf] : [...settings.allowedSfs];
+  const budget = computeLinkBudget({
+    frequencyMhz: settings.frequencyMhz,
+    bandwidthKhz: settings.bandwidthKhz,
+    pathLossDb: path.basicLossDb + env.lossDb,
+    transmitter: {
+      powerDbm: node.txPowerDbm,
+      antenna: nodeKit.antenna,
+      towardAzimuthDeg: path.nodeAzimuthDeg,
+      towardElevationDeg: path.nodeElevationDeg,
+      boresightAzimuthDeg: nodeKit.boresightAzimuthDeg ?? path.nodeAzimuthDeg,
+      feedline: nodeKit.feedline && nodeKit.feedlineLengthM > 0 ? { feedline: nodeKit.feedline, lengthM: nodeKit.feedlineLengthM } : undefined,
+      connectors: nodeKit.connectors,
+    },
+    receiver: {
+      antenna: gatewayKit.antenna,
+      towardAzimuthDeg: path.gatewayAzimuthDeg,
+      towardElevationDeg: path.gatewayElevationDeg,
+      boresightAzimuthDeg: gatewayKit.boresightAzimuthDeg ?? path.gatewayAzimuthDeg,
+      feedline: gatewayKit.feedline && gatewayKit.feedlineLengthM > 0 ? { feedline: gatewayKit.feedline, lengthM: gatewayKit.feedlineLengthM } : undefined,
+      connectors: gatewayKit.connectors,
+      noiseFigureDb: gateway.noiseFigureDb,
+    },
+    targetMarginDb: settings.targetMarginDb,
+    spreadingFactors: sfs,
+    bandPlan: settings.bandPlan,
+    frame: { codingRate: settings.codingRate, payloadBytes: node.phyPayloadBytes, preambleSymbols: settings.preambleSymbols },
+  });
+  const perSf: SfBudget[] = budget.perSf.map((entry) => ({
+    sf: entry.spreadingFactor,
+    sensitivityDbm: entry.sensitivityDbm,
+    marginDb: entry.marginDb,
+    timeOnAirMs: entry.timeOnAirMs ?? Number.NaN,
+    meetsTarget: entry.meetsTarget,
+    messagesPerHour: entry.messagesPerHour,
+    dwellOk: entry.dwellOk,
   }));
-  // Fastest = lowest SF (shortest time on air) that meets the target.
-  const best = perSf.find((entry) => entry.meetsTarget) ?? null;
-  const used = best ?? perSf[perSf.length - 1];
+  // Without an SF meeting the target, an adaptive node falls back to the most robust
+  // SF it may use (dwell limit respected); a fixed node stays at its SF.
+  const usable = perSf.filter((entry) => entry.dwellOk !== false);
+  const fallback = (usable.length > 0 ? usable : perSf).reduce((best, entry) => (entry.marginDb > best.marginDb ? entry : best));
+  const used = budget.bestSf !== null ? (perSf.find((entry) => entry.sf === budget.bestSf) as SfBudget) : fallback;
   const sigmaDb = combineSigmasDb(settings.locationSigmaDb, env.sigmaDb);
-  const legal = legalCheck(eirpDbm, settings);
   return {
-    eirpDbm,
-    nodeGainDbi,
-    gatewayGainDbi,
-    nodeFeedlineLossDb,
-    gatewayFeedlineLossDb,
-    nodeMismatchLossDb,
-    gatewayMismatchLossDb,
+    eirpDbm: budget.transmitter.eirpDbm,
+    nodeGainDbi: budget.transmitter.antennaGainDbi,
+    gatewayGainDbi: budget.receiver.antennaGainDbi,
+    nodeFeedlineLossDb: budget.transmitter.feedlineLossDb + budget.transmitter.connectorLossDb,
+    gatewayFeedlineLossDb: budget.receiver.feedlineLossDb + budget.receiver.connectorLossDb,
+    nodeMismatchLossDb: budget.transmitter.mismatchLossDb,
+    gatewayMismatchLossDb: budget.receiver.mismatchLossDb,
     environmentLossDb: env.lossDb,
     environmentSource: env.source,
-    rssiDbm,
-    snrDb: reception[0]?.snrDb ?? Number.NaN,
+    rssiDbm: budget.receivedPowerDbm,
+    snrDb: budget.snrDb,
     perSf,
-    bestSf: best ? best.sf : null,
+    bestSf: budget.bestSf,
     usedSf: used.sf,
     marginDb: used.marginDb,
     timeOnAirMs: used.timeOnAirMs,
     sigmaDb,
     deliveryProbability: deliveryProbability(used.marginDb, sigmaDb),
-    legal,
-  };
-}
-
-function legalCheck(eirpDbm: number, settings: LinkRadioSettings): LegalCheck {
-  const max = settings.maxEirpDbm;
-  if (max === null) return { ok: true, eirpDbm, maxEirpDbm: null, source: settings.limitSource, message: 'no EIRP limit known for this band plan; check local regulations' };
-  const ok = eirpDbm <= max + 1e-9;
-  return {
-    ok,
-    eirpDbm,
-    maxEirpDbm: max,
-    source: settings.limitSource,
-    message: ok
-      ? `EIRP ${eirpDbm.toFixed(1)} dBm within the ${max.toFixed(1)} dBm limit`
-      : `EIRP ${eirpDbm.toFixed(1)} dBm exceeds the ${max.toFixed(1)} dBm limit by ${(eirpDbm - max).toFixed(1)} dB: lower the TX power or use a lower-gain antenna`,
+    legal: budget.legal,
+    warnings: budget.warnings,
   };
 }
 
@@ -189,7 +184,7 @@ export interface LinkResult {
   usedSf: number;
   deliveryProbability: number;
   timeOnAirMs: number;
-  legal: LegalCheck;
+  legal: LegalCheck | null;
   eirpDbm: number;
   sigmaDb: number;
   nodeAzimuthDeg: number;
@@ -242,7 +237,7 @@ export function linkResult(gatewayId: string, path: PathPrediction, budget: Link
     environmentSource: budget.environmentSource,
     perSf: budget.perSf,
     terms: path.terms,
-    warnings: path.warnings,
+    warnings: [...path.warnings, ...budget.warnings],
   };
 }
 

@@ -3,13 +3,15 @@ import { predictPath, DEFAULT_PATH_SETTINGS, type PathProfile, type PathSettings
 import { linkBudget, linkResult, summariseNodeLinks, type EndKit, type LinkRadioSettings, type NodeRadio } from '../../../server/planning/link.ts';
 import { DEFAULT_ENVIRONMENT_SETTINGS } from '../../../server/planning/environment.ts';
 import { builtInFeedlines } from '../../../server/radio/feedlines.ts';
+import { findBandPlan } from '../../../server/radio/band-plans.ts';
 
 const flat = { kind: 'omni' as const, elevation: { angleDeg: [-90, 90], relativeDb: [0, 0] } };
 const isotropic = { id: 'iso', gainDbi: 0, pattern: flat, typicalVswr: 1 };
 const threeDbi = { id: 'iso3', gainDbi: 3, pattern: flat, typicalVswr: 1 };
 function kit(antenna: EndKit['antenna'], connectorLossDb = 0, feedlineLengthM = 0, feedlineId = 'rg-58'): EndKit {
   const feedline = feedlineLengthM > 0 ? builtInFeedlines.find((f) => f.id === feedlineId) ?? null : null;
-  return { antenna, boresightAzimuthDeg: null, feedline, feedlineLengthM, connectorLossDb };
+  const connectors = connectorLossDb > 0 ? [{ connector: { id: 'test', name: `test ${connectorLossDb} dB`, lossDb: connectorLossDb, source: 'test', notes: [] }, count: 1 }] : [];
+  return { antenna, boresightAzimuthDeg: null, feedline, feedlineLengthM, connectors };
 }
 const node: NodeRadio = { txPowerDbm: 14, phyPayloadBytes: 12, sfPolicy: 'adaptive', fixedSf: null, environment: 'outdoor' };
 const radio: LinkRadioSettings = {
@@ -18,8 +20,7 @@ const radio: LinkRadioSettings = {
   codingRate: '4/5',
   preambleSymbols: 8,
   allowedSfs: [7, 8, 9, 10, 11, 12],
-  maxEirpDbm: 36,
-  limitSource: 'test',
+  bandPlan: findBandPlan('us-902-928'),
   targetMarginDb: 5,
   locationSigmaDb: 6,
   environment: DEFAULT_ENVIRONMENT_SETTINGS,

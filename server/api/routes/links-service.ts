@@ -1,0 +1,548 @@
+// The link engine the routes and the CLI share: loads a plan's nodes,
+// gateways, kit and terrain, asks the pure rooms (terrain → planning →
+// propagation/radio) for predictions, and keeps the Link cache.
+// Same numbers everywhere: the API routes (./links.ts) and `earshot link`
+// (server/cli/links.ts) both call this class.
+import { existsSync } from 'node:fs';
+import { isAbsolute, join, resolve } from 'node:path';
+import type { Config } from '../../config.ts';
+import type { Database } from '../../db/client.ts';
+import { NotFoundError } from '../../db/errors.ts';
+import { listGateways, type GatewayRow } from '../../db/repositories/gateways.ts';
+import { findNode, listNodes, type NodeRow } from '../../db/repositories/nodes.ts';
+import type { PlanRow } from '../../db/repositories/plans.ts';
+import { findAntennaDesignForTeam, findFeedlineForTeam } from '../../db/repositories/kit.ts';
+import { listNodeLinkRows, listPlanLinkRows, listTerrainForLinks, saveLinkRows, type LinkRow } from '../../db/repositories/links.ts';
+import type { AntennaDesign } from '../../radio/antennas.ts';
+import { connectorLossDb, findConnector, type ConnectorUse, type FeedlineType } from '../../radio/feedlines.ts';
+import type { BuildingType } from '../../radio/building-entry-loss.ts';
+import { openTerrainStore, type TerrainStore } from '../../terrain/store.ts';
+import { extractProfile } from '../../terrain/profile.ts';
+import type { EndKit, GatewayRadio, LinkRadioSettings, LinkResult, NodeRadio } from '../../planning/link.ts';
+import { hashOf, LINK_ENGINE_VERSION, nodeAimAzimuthDeg, nodeLinkResults, summariseNodeLinks, type NodeLinkSummary } from '../../planning/node-links.ts';
+import { predictPath, type PathPrediction, type PathProfile } from '../../planning/path.ts';
+import { resolveLinkSettings, type ResolvedLinkSettings } from '../../planning/settings.ts';
+import { bearingsBetween } from '../../planning/geometry.ts';
+
+/** Connectors assumed in a node's feedline run: two mated N/SMA pairs (common practice, 0.1 dB each). */
+const NODE_CONNECTORS = [{ id: 'n-type', count: 2 }];
+/** At a gateway: two mated N pairs and an inline surge arrestor (common practice). */
+const GATEWAY_CONNECTORS = [
+  { id: 'n-type', count: 2 },
+  { id: 'surge-arrestor', count: 1 },
+];
+
+function connectorUses(list: ReadonlyArray<{ id: string; count: number }>): ConnectorUse[] {
+  return list.map((entry) => ({ connector: findConnector(entry.id), count: entry.count }));
+}
+
+/** Raised for input the caller must fix (unknown kit id, bad override); routes map it to 400/404. */
+export class LinkInputError extends Error {
+  constructor(
+    readonly statusCode: 400 | 404 | 422,
+    readonly code: string,
+    message: string,
+  ) {
+    super(message);
+  }
+}
+
+/** Kit overrides a preview may pass instead of the node's saved kit. */
+export interface KitOverrides {
+  antennaDesignId?: string;
+  antennaHeightAglM?: number;
+  feedlineId?: string | null;
+  feedlineLengthM?: number;
+}
+
+interface GatewayContext {
+  row: GatewayRow;
+  kit: EndKit;
+  radio: GatewayRadio;
+  kitHash: string;
+  antenna: AntennaDesign;
+  feedline: FeedlineType;
+}
+
+/** Everything about a plan a link needs, loaded once per request / CLI run. */
+export interface PlanContext {
+  plan: PlanRow;
+  teamId: string;
+  settings: ResolvedLinkSettings;
+  gateways: GatewayContext[];
+  terrain: TerrainStore | null;
+  terrainSignature: string;
+  /** Hash of everything path-related that is plan-wide (method, refractivity, terrain...). */
+  pathSettingsHash: string;
+  /** Hash of everything budget-related that is plan-wide. */
+  radioSettingsHash: string;
+  antennaCache: Map<string, Promise<AntennaDesign>>;
+  feedlineCache: Map<string, Promise<FeedlineType>>;
+  warnings: string[];
+}
+
+export interface ResolvedNode {
+  row: NodeRow;
+  antennaHeightAglM: number;
+  kit: EndKit;
+  radio: NodeRadio;
+  radioSettings: LinkRadioSettings;
+  antenna: AntennaDesign;
+  feedline: FeedlineType | null;
+  kitHash: string;
+  warnings: string[];
+}
+
+export interface NodeLinksOutcome extends NodeLinkSummary {
+  node: ResolvedNode;
+  /** Paths by gateway id (for the check view and the recommendation). */
+  paths: Map<string, PathPrediction>;
+  computed: number;
+  cached: number;
+  outOfRange: Array<{ gatewayId: string; distanceM: number }>;
+}
+
+interface StoredLink {
+  pathHash: string;
+  path: PathPrediction;
+  link: LinkResult;
+}
+
+function isStoredLink(value: unknown): value is StoredLink {
+  return !!value && typeof value === 'object' && typeof (value as StoredLink).pathHash === 'string' && !!(value as StoredLink).path && !!(value as StoredLink).link;
+}
+
+function buildingTypeOf(value: string | null, fallback: BuildingType): BuildingType {
+  return value === 'traditional' || value === 'thermally-efficient' ? value : fallback;
+}
+
+export class LinkEngine {
+  private readonly stores = new Map<string, { signature: string; store: Promise<TerrainStore> }>();
+
+  constructor(
+    private readonly db: Database,
+    private readonly config: Config,
+  ) {}
+
+  /** Closes the terrain stores this engine opened. */
+  async close(): Promise<void> {
+    const stores = [...this.stores.values()];
+    this.stores.clear();
+    await Promise.all(stores.map(async (entry) => (await entry.store.catch(() => null))?.close()));
+  }
+
+  private resolveFile(filePath: string): string {
+    if (isAbsolute(filePath)) return filePath;
+    for (const candidate of [join(this.config.filesDir, filePath), join(this.config.dataDir, filePath), resolve(filePath)]) {
+      if (existsSync(candidate)) return candidate;
+    }
+    return join(this.config.filesDir, filePath);
+  }
+
+  private async terrainFor(plan: PlanRow, clutterHeightsM: Record<string, number> | undefined): Promise<{ store: TerrainStore | null; signature: string }> {
+    const layers = await listTerrainForLinks(this.db, plan.id);
+    const signature = hashOf({ layers: layers.map((l) => [l.id, l.sha256, l.priority, l.createdAt.toISOString(), l.kind]), clutterHeightsM: clutterHeightsM ?? null });
+    if (layers.length === 0 || !layers.some((layer) => layer.kind === 'elevation')) return { store: null, signature };
+    const existing = this.stores.get(plan.id);
+    if (existing && existing.signature === signature) return { store: await existing.store, signature };
+    if (existing) {
+      this.stores.delete(plan.id);
+      void existing.store.then((store) => store.close()).catch(() => undefined);
+    }
+    // Finest layers first: the store lets a finer layer win where layers overlap.
+    const ordered = [...layers].sort((a, b) => (a.kind === b.kind ? a.resolutionM - b.resolutionM : a.kind === 'elevation' ? -1 : 1));
+    const store = openTerrainStore(
+      ordered.map((layer) => ({ path: this.resolveFile(layer.filePath), kind: layer.kind, name: layer.name })),
+      { cacheBytes: 64 * 1024 * 1024, clutterHeightsM },
+    );
+    this.stores.set(plan.id, { signature, store });
+    if (this.stores.size > 8) {
+      const [oldestId, oldest] = this.stores.entries().next().value as [string, { store: Promise<TerrainStore> }];
+      this.stores.delete(oldestId);
+      void oldest.store.then((s) => s.close()).catch(() => undefined);
+    }
+    try {
+      return { store: await store, signature };
+    } catch (error) {
+      this.stores.delete(plan.id);
+      throw new LinkInputError(422, 'terrain_unreadable', `the plan's terrain could not be opened: ${(error as Error).message}`);
+    }
+  }
+
+  private antenna(ctx: Pick<PlanContext, 'antennaCache' | 'teamId'>, id: string): Promise<AntennaDesign> {
+    let found = ctx.antennaCache.get(id);
+    if (!found) {
+      found = findAntennaDesignForTeam(this.db, ctx.teamId, id);
+      found.catch(() => ctx.antennaCache.delete(id));
+      ctx.antennaCache.set(id, found);
+    }
+    return found;
+  }
+
+  private feedline(ctx: Pick<PlanContext, 'feedlineCache' | 'teamId'>, id: string): Promise<FeedlineType> {
+    let found = ctx.feedlineCache.get(id);
+    if (!found) {
+      found = findFeedlineForTeam(this.db, ctx.teamId, id);
+      found.catch(() => ctx.feedlineCache.delete(id));
+      ctx.feedlineCache.set(id, found);
+    }
+    return found;
+  }
+
+  /** Loads a plan's settings, gateways and terrain. */
+  async planContext(plan: PlanRow): Promise<PlanContext> {
+    const settings = resolveLinkSettings(plan);
+    const raw = plan.settings && typeof plan.settings === 'object' && !Array.isArray(plan.settings) ? (plan.settings as Record<string, unknown>) : {};
+    const clutterHeightsM = raw.clutterHeightsM && typeof raw.clutterHeightsM === 'object' ? (raw.clutterHeightsM as Record<string, number>) : undefined;
+    const { store, signature } = await this.terrainFor(plan, clutterHeightsM);
+    const ctx: PlanContext = {
+      plan,
+      teamId: plan.teamId,
+      settings,
+      gateways: [],
+      terrain: store,
+      terrainSignature: signature,
+      pathSettingsHash: hashOf({ v: LINK_ENGINE_VERSION, path: settings.path, terrain: signature, step: settings.profileStepM }),
+      radioSettingsHash: '',
+      antennaCache: new Map(),
+      feedlineCache: new Map(),
+      warnings: [...settings.warnings],
+    };
+    const { bandPlan: _bandPlan, warnings: _w, path: _p, ...radioPart } = settings;
+    ctx.radioSettingsHash = hashOf({ v: LINK_ENGINE_VERSION, bandPlanId: settings.bandPlan.id, radio: radioPart });
+    if (!store) ctx.warnings.push('no elevation layer in this plan: paths are predicted over a smooth earth at 0 m (upload terrain for real predictions)');
+    const gatewayRows = await allRows((cursor) => listGateways(this.db, plan.id, { limit: 1000, cursor }));
+    for (const row of gatewayRows) {
+      let antenna: AntennaDesign;
+      let feedline: FeedlineType;
+      try {
+        antenna = await this.antenna(ctx, row.antennaDesignId);
+        feedline = await this.feedline(ctx, row.feedlineId);
+      } catch (error) {
+        if (error instanceof NotFoundError) {
+          ctx.warnings.push(`gateway ${row.name}: ${error.message}; left out of the predictions`);
+          continue;
+        }
+        throw error;
+      }
+      const kit: EndKit = { antenna, boresightAzimuthDeg: null, feedline, feedlineLengthM: row.feedlineLengthM, connectors: row.feedlineLengthM > 0 ? connectorUses(GATEWAY_CONNECTORS) : [] };
+      const radio: GatewayRadio = { noiseFigureDb: row.noiseFigureDb };
+      ctx.gateways.push({ row, kit, radio, antenna, feedline, kitHash: hashOf({ antenna, feedline, length: row.feedlineLengthM, c: kit.connectors, radio }) });
+    }
+    return ctx;
+  }
+
+  /** The node with its kit (saved, or overridden for a preview) resolved from the catalog. */
+  async resolveNode(ctx: PlanContext, row: NodeRow, overrides: KitOverrides = {}): Promise<ResolvedNode> {
+    const warnings: string[] = [];
+    const antennaId = overrides.antennaDesignId ?? row.antennaDesignId;
+    const feedlineId = overrides.feedlineId !== undefined ? overrides.feedlineId : row.feedlineId;
+    const feedlineLengthM = overrides.feedlineLengthM ?? row.feedlineLengthM;
+    const antennaHeightAglM = overrides.antennaHeightAglM ?? row.antennaHeightAglM;
+    let antenna: AntennaDesign;
+    try {
+      antenna = await this.antenna(ctx, antennaId);
+    } catch (error) {
+      if (error instanceof NotFoundError) throw new LinkInputError(overrides.antennaDesignId ? 400 : 422, 'invalid_input', `antennaDesignId: no antenna design "${antennaId}" in the catalog`);
+      throw error;
+    }
+    let feedline: FeedlineType | null = null;
+    if (feedlineId) {
+      try {
+        feedline = await this.feedline(ctx, feedlineId);
+      } catch (error) {
+        if (error instanceof NotFoundError) throw new LinkInputError(overrides.feedlineId ? 400 : 422, 'invalid_input', `feedlineId: no feedline "${feedlineId}" in the catalog`);
+        throw error;
+      }
+    }
+    const f = ctx.settings.frequencyMhz;
+    if (f < antenna.bandMhz.fromMhz || f > antenna.bandMhz.toMhz) {
+      warnings.push(`antenna ${antenna.name} is made for ${antenna.bandMhz.fromMhz}–${antenna.bandMhz.toMhz} MHz, the plan uses ${f} MHz: expect a poor match`);
+    }
+    const kit: EndKit = {
+      antenna,
+      boresightAzimuthDeg: null,
+      feedline,
+      feedlineLengthM: feedline ? feedlineLengthM : 0,
+      connectors: feedline && feedlineLengthM > 0 ? connectorUses(NODE_CONNECTORS) : [],
+    };
+    const settings = ctx.settings;
+    const payloadBytes = row.payloadBytes;
+    let allowed = settings.uplinkSfs.filter((entry) => entry.maxAppPayloadBytes === null || payloadBytes <= entry.maxAppPayloadBytes).map((entry) => entry.sf);
+    if (allowed.length === 0) {
+      warnings.push(`a ${payloadBytes}-byte payload exceeds every data rate's limit in ${settings.bandPlan.name}; predicting at every SF anyway`);
+      allowed = settings.uplinkSfs.map((entry) => entry.sf);
+    } else if (allowed.length < settings.uplinkSfs.length) {
+      const dropped = settings.uplinkSfs.filter((entry) => !allowed.includes(entry.sf)).map((entry) => `SF${entry.sf}`);
+      warnings.push(`${dropped.join(', ')} cannot carry a ${payloadBytes}-byte payload under ${settings.bandPlan.name} (LoRaWAN maximum payload per data rate)`);
+    }
+    if (row.sfPolicy === 'fixed' && row.fixedSf !== null && !allowed.includes(row.fixedSf)) {
+      warnings.push(`fixed SF${row.fixedSf} is not among the uplink SFs the band plan allows for this payload`);
+    }
+    const radio: NodeRadio = {
+      txPowerDbm: row.txPowerDbm,
+      phyPayloadBytes: payloadBytes + settings.framingOverheadBytes,
+      sfPolicy: row.sfPolicy,
+      fixedSf: row.fixedSf,
+      environment: row.environment,
+    };
+    const radioSettings: LinkRadioSettings = {
+      frequencyMhz: f,
+      bandwidthKhz: settings.bandwidthKhz,
+      codingRate: settings.codingRate,
+      preambleSymbols: settings.preambleSymbols,
+      allowedSfs: allowed,
+      bandPlan: settings.bandPlan,
+      targetMarginDb: settings.targetMarginDb,
+      locationSigmaDb: settings.locationSigmaDb,
+      environment: { ...settings.environment, indoorBuildingType: buildingTypeOf(row.buildingType, settings.environment.indoorBuildingType) },
+    };
+    const { bandPlan: _plan, ...radioPart } = radioSettings;
+    const kitHash = hashOf({ antenna, feedline, length: kit.feedlineLengthM, c: kit.connectors, radio, radioPart });
+    return { row, antennaHeightAglM, kit, radio, radioSettings, antenna, feedline, kitHash, warnings };
+  }
+
+  /** The terrain profile node → gateway (smooth earth at 0 m without terrain). */
+  async profile(ctx: PlanContext, from: { lat: number; lon: number }, to: { lat: number; lon: number }): Promise<PathProfile & { lat: Float64Array | null; lon: Float64Array | null; filledPoints: number }> {
+    if (!ctx.terrain) {
+      const lengthM = bearingsBetween(from.lat, from.lon, to.lat, to.lon).distanceM;
+      const count = Math.max(3, Math.min(2001, Math.ceil(lengthM / 30) + 1));
+      const distanceM = new Float64Array(count);
+      for (let i = 0; i < count; i++) distanceM[i] = (lengthM * i) / (count - 1);
+      return { distanceM, groundM: new Float64Array(count), clutterHeightM: null, lat: null, lon: null, filledPoints: 0 };
+    }
+    const step = ctx.settings.profileStepM ?? undefined;
+    let profile;
+    try {
+      profile = await extractProfile(ctx.terrain, from, to, { stepM: step, maxPoints: 20_001 });
+    } catch (error) {
+      if (!(error instanceof RangeError)) throw error;
+      const lengthM = bearingsBetween(from.lat, from.lon, to.lat, to.lon).distanceM;
+      profile = await extractProfile(ctx.terrain, from, to, { stepM: Math.max(lengthM / 20_000, step ?? 0), maxPoints: 20_001 });
+    }
+    let distanceM = profile.distanceM;
+    let groundM = profile.groundM;
+    let clutter = profile.clutterHeightM ?? null;
+    if (distanceM.length < 3) {
+      // Very short paths: three points so every method has a mid-point.
+      const total = distanceM[distanceM.length - 1];
+      distanceM = Float64Array.from([0, total / 2, total]);
+      const g0 = groundM[0];
+      const g1 = groundM[groundM.length - 1];
+      groundM = Float64Array.from([g0, (g0 + g1) / 2, g1]);
+      clutter = clutter ? Float64Array.from([clutter[0], (clutter[0] + clutter[clutter.length - 1]) / 2, clutter[clutter.length - 1]]) : null;
+    }
+    const filledPoints = fillGaps(groundM);
+    if (clutter) for (let i = 0; i < clutter.length; i++) if (!Number.isFinite(clutter[i])) clutter[i] = 0;
+    return { distanceM, groundM, clutterHeightM: clutter, lat: profile.lat, lon: profile.lon, filledPoints };
+  }
+
+  private pathHash(ctx: PlanContext, node: ResolvedNode, gateway: GatewayContext): string {
+    return hashOf({
+      s: ctx.pathSettingsHash,
+      n: [node.row.lat, node.row.lon, node.antennaHeightAglM],
+      g: [gateway.row.lat, gateway.row.lon, gateway.row.antennaHeightAglM],
+    });
+  }
+
+  private async computePath(ctx: PlanContext, node: ResolvedNode, gateway: GatewayContext): Promise<PathPrediction> {
+    const profile = await this.profile(ctx, node.row, gateway.row);
+    const path = predictPath(profile, ctx.settings.path, { lat: node.row.lat, lon: node.row.lon, antennaHeightAglM: node.antennaHeightAglM }, { lat: gateway.row.lat, lon: gateway.row.lon, antennaHeightAglM: gateway.row.antennaHeightAglM });
+    if (profile.filledPoints > 0) path.warnings.push(`${profile.filledPoints} profile points had no terrain data and were filled from their neighbours`);
+    return path;
+  }
+
+  /**
+   * A node's links to every gateway within range, from the cache where the
+   * inputs are unchanged. `save` false (previews) leaves the cache untouched.
+   */
+  async nodeLinks(ctx: PlanContext, node: ResolvedNode, cachedRows: readonly LinkRow[] | null, save: boolean): Promise<{ outcome: NodeLinksOutcome; toSave: LinkRow[] }> {
+    const rows = cachedRows ?? (await listNodeLinkRows(this.db, ctx.plan.id, node.row.id));
+    const byGateway = new Map(rows.map((row) => [row.gatewayId, row]));
+    const inRange: Array<{ gateway: GatewayContext; path: PathPrediction; pathHash: string; row: LinkRow | undefined }> = [];
+    const outOfRange: Array<{ gatewayId: string; distanceM: number }> = [];
+    let computed = 0;
+    let cached = 0;
+    for (const gateway of ctx.gateways) {
+      const distanceM = bearingsBetween(node.row.lat, node.row.lon, gateway.row.lat, gateway.row.lon).distanceM;
+      if (distanceM > ctx.settings.maxLinkRangeM) {
+        outOfRange.push({ gatewayId: gateway.row.id, distanceM });
+        continue;
+      }
+      const pathHash = this.pathHash(ctx, node, gateway);
+      const row = byGateway.get(gateway.row.id);
+      const stored = row && isStoredLink(row.result) ? row.result : null;
+      const path = stored && stored.pathHash === pathHash ? stored.path : await this.computePath(ctx, node, gateway);
+      inRange.push({ gateway, path, pathHash, row });
+    }
+    const aim = nodeAimAzimuthDeg(node.kit, inRange);
+    const toSave: LinkRow[] = [];
+    const links: LinkResult[] = [];
+    for (const entry of inRange) {
+      const inputHash = hashOf({ p: entry.pathHash, n: node.kitHash, g: entry.gateway.kitHash, r: ctx.radioSettingsHash, aim });
+      const stored = entry.row && isStoredLink(entry.row.result) ? entry.row.result : null;
+      if (entry.row && entry.row.inputHash === inputHash && stored) {
+        links.push(stored.link);
+        cached++;
+        continue;
+      }
+      const [link] = nodeLinkResults(aim === null ? node.kit : { ...node.kit, boresightAzimuthDeg: aim }, node.radio, [{ gatewayId: entry.gateway.row.id, path: entry.path, kit: entry.gateway.kit, radio: entry.gateway.radio }], node.radioSettings);
+      links.push(link);
+      computed++;
+      if (save) toSave.push({ nodeId: node.row.id, gatewayId: entry.gateway.row.id, inputHash, result: { pathHash: entry.pathHash, path: entry.path, link } satisfies StoredLink });
+    }
+    const summary = summariseNodeLinks(links, { targetMarginDb: ctx.settings.targetMarginDb, targetDelivery: ctx.settings.targetDelivery }, ctx.settings.gatewayCorrelation);
+    const paths = new Map(inRange.map((entry) => [entry.gateway.row.id, entry.path]));
+    return { outcome: { ...summary, node, paths, computed, cached, outOfRange }, toSave };
+  }
+
+  /** One node's links (saved to the cache unless it is a preview with overrides). */
+  async linksForNode(ctx: PlanContext, nodeId: string, overrides: KitOverrides = {}): Promise<NodeLinksOutcome> {
+    const row = await findNode(this.db, ctx.plan.id, nodeId);
+    if (!row) throw new LinkInputError(404, 'not_found', 'node not found');
+    const preview = Object.values(overrides).some((value) => value !== undefined);
+    const node = await this.resolveNode(ctx, row, overrides);
+    const { outcome, toSave } = await this.nodeLinks(ctx, node, null, !preview);
+    if (toSave.length > 0) await saveLinkRows(this.db, ctx.plan.id, toSave);
+    return outcome;
+  }
+
+  /** Every node of the plan (the fleet table), computing what the cache lacks. */
+  async fleet(ctx: PlanContext, onProgress?: (done: number, total: number) => void): Promise<NodeLinksOutcome[]> {
+    const nodes = await allRows((cursor) => listNodes(this.db, ctx.plan.id, { limit: 1000, cursor }));
+    const rows = await listPlanLinkRows(this.db, ctx.plan.id);
+    const byNode = new Map<string, LinkRow[]>();
+    for (const row of rows) {
+      const list = byNode.get(row.nodeId);
+      if (list) list.push(row);
+      else byNode.set(row.nodeId, [row]);
+    }
+    const outcomes: NodeLinksOutcome[] = [];
+    let pending: LinkRow[] = [];
+    for (let i = 0; i < nodes.length; i++) {
+      let node: ResolvedNode;
+      try {
+        node = await this.resolveNode(ctx, nodes[i]);
+      } catch (error) {
+        if (!(error instanceof LinkInputError)) throw error;
+        outcomes.push(brokenNodeOutcome(nodes[i], error.message));
+        continue;
+      }
+      const { outcome, toSave } = await this.nodeLinks(ctx, node, byNode.get(node.row.id) ?? [], true);
+      outcomes.push(outcome);
+      pending.push(...toSave);
+      if (pending.length >= 500) {
+        await saveLinkRows(this.db, ctx.plan.id, pending);
+        pending = [];
+      }
+      onProgress?.(i + 1, nodes.length);
+    }
+    await saveLinkRows(this.db, ctx.plan.id, pending);
+    return outcomes;
+  }
+
+  /** Finds a node row of the plan or throws a 404 input error. */
+  async nodeRow(ctx: PlanContext, nodeId: string): Promise<NodeRow> {
+    const row = await findNode(this.db, ctx.plan.id, nodeId);
+    if (!row) throw new LinkInputError(404, 'not_found', 'node not found');
+    return row;
+  }
+
+  /** Path of a node at another antenna height to one gateway (for the recommendation's mast sweep). */
+  async pathAtHeight(ctx: PlanContext, node: ResolvedNode, gateway: GatewayContext, antennaHeightAglM: number): Promise<PathPrediction> {
+    return this.computePath(ctx, { ...node, antennaHeightAglM }, gateway);
+  }
+
+  /** Gateways of the context within range of a node. */
+  gatewaysInRange(ctx: PlanContext, node: { lat: number; lon: number }): GatewayContext[] {
+    return ctx.gateways.filter((gateway) => bearingsBetween(node.lat, node.lon, gateway.row.lat, gateway.row.lon).distanceM <= ctx.settings.maxLinkRangeM);
+  }
+
+  /** Resolves catalog entries for the recommendation. */
+  async catalogAntenna(ctx: PlanContext, id: string): Promise<AntennaDesign> {
+    try {
+      return await this.antenna(ctx, id);
+    } catch (error) {
+      if (error instanceof NotFoundError) throw new LinkInputError(400, 'invalid_input', `antennaDesignIds: no antenna design "${id}" in the catalog`);
+      throw error;
+    }
+  }
+
+  async catalogFeedline(ctx: PlanContext, id: string): Promise<FeedlineType> {
+    try {
+      return await this.feedline(ctx, id);
+    } catch (error) {
+      if (error instanceof NotFoundError) throw new LinkInputError(400, 'invalid_input', `feedlineIds: no feedline "${id}" in the catalog`);
+      throw error;
+    }
+  }
+
+  get database(): Database {
+    return this.db;
+  }
+}
+
+export type { GatewayContext };
+
+/** Node connectors for a feedline run (as resolveNode assumes). */
+export function nodeConnectors(hasFeedline: boolean): ConnectorUse[] {
+  return hasFeedline ? connectorUses(NODE_CONNECTORS) : [];
+}
+
+/** Loss of those connectors, dB. */
+export function nodeConnectorLossDb(hasFeedline: boolean): number {
+  return connectorLossDb(nodeConnectors(hasFeedline));
+}
+
+function brokenNodeOutcome(row: NodeRow, message: string): NodeLinksOutcome {
+  return {
+    links: [],
+    combinedDeliveryProbability: 0,
+    status: 'unserved',
+    bestGatewayId: null,
+    bestMarginDb: null,
+    node: { row, antennaHeightAglM: row.antennaHeightAglM, warnings: [message] } as unknown as ResolvedNode,
+    paths: new Map(),
+    computed: 0,
+    cached: 0,
+    outOfRange: [],
+  };
+}
+
+/** Fills NaN ground heights from the nearest valid neighbours (linear between them); returns how many. */
+function fillGaps(values: Float64Array): number {
+  let filled = 0;
+  const n = values.length;
+  let last = -1;
+  for (let i = 0; i < n; i++) {
+    if (Number.isFinite(values[i])) {
+      if (last < i - 1) {
+        for (let j = last + 1; j < i; j++) {
+          values[j] = last < 0 ? values[i] : values[last] + ((values[i] - values[last]) * (j - last)) / (i - last);
+          filled++;
+        }
+      }
+      last = i;
+    }
+  }
+  if (last < 0) {
+    values.fill(0);
+    return n;
+  }
+  for (let j = last + 1; j < n; j++) {
+    values[j] = values[last];
+    filled++;
+  }
+  return filled;
+}
+
+async function allRows<T>(page: (cursor: string | undefined) => Promise<{ items: T[]; next: string | null }>): Promise<T[]> {
+  const rows: T[] = [];
+  let cursor: string | undefined;
+  for (;;) {
+    const result = await page(cursor);
+    rows.push(...result.items);
+    if (!result.next) return rows;
+    cursor = result.next;
+  }
+}
