@@ -24,7 +24,13 @@ const pointSchema = z.object({
     .refine((value) => value > NODATA_THRESHOLD_M, { message: 'is a NoData value; fill the gap or re-extract the profile' })
     .refine((value) => value < 9000, { message: 'must be below 9000 m' }),
   clutterM: finite().min(0, 'must be 0 or more').max(200, 'must be at most 200 m').default(0),
-  zone: z.enum(['inland', 'coastal', 'sea'], { error: 'must be "inland", "coastal" or "sea"' }).default('inland'),
+  // Names, or the Recommendation's zone codes 1 (sea), 3 (coastal land), 4 (inland) as in the SG3 profiles.
+  zone: z
+    .union([z.enum(['inland', 'coastal', 'sea']), z.literal(1), z.literal(3), z.literal(4)], {
+      error: 'must be "inland", "coastal" or "sea" (or zone code 4, 3 or 1)',
+    })
+    .transform((zone) => (zone === 1 ? 'sea' : zone === 3 ? 'coastal' : zone === 4 ? 'inland' : zone))
+    .default('inland'),
 });
 
 const terrainFileSchema = z.union([

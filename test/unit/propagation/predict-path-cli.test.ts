@@ -81,6 +81,17 @@ describe('predict-path input validation', () => {
     expect(await failure(request({ method: 'okumura' }))).toMatch(/^method: must be one of/);
     expect(await failure(request({ polarization: 'circular' }))).toMatch(/^polarization:/);
   });
+  it('zones may be given as the SG3 codes 1/3/4 and mean the same as their names', async () => {
+    const named = request();
+    const coded = request();
+    const zones = ['sea', 'coastal', 'inland', 'inland'] as const;
+    const codes = [1, 3, 4, 4];
+    (named.profile as { zone: string }[]).forEach((p, i) => (p.zone = zones[i]));
+    (coded.profile as { zone: number }[]).forEach((p, i) => (p.zone = codes[i]));
+    expect((await run(coded)).basicLossDb).toBe((await run(named)).basicLossDb);
+    (coded.profile as { zone: number }[])[1].zone = 2;
+    expect(await failure(coded)).toMatch(/^profile\[1\]\.zone:/);
+  });
   it('bad JSON and unreadable files are one-line --input errors', async () => {
     await expect(command!.run({ input: '-' }, context('{ nope'))).rejects.toThrow(/^--input: not valid JSON/);
     await expect(command!.run({ input: '/nonexistent/path.json' }, context(''))).rejects.toThrow(/^--input: cannot read/);
