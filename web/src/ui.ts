@@ -2,6 +2,8 @@
 // that always carry their unit, an announcer for screen readers, and a modal
 // dialog that keeps keyboard focus inside while open.
 
+import { ApiError } from './api.ts';
+
 type Child = Node | string | number | null | undefined | false;
 type Attrs = Record<string, string | number | boolean | null | undefined | EventListener>;
 
@@ -69,7 +71,7 @@ export function percent(p: number | null | undefined, digits = 1): string {
 }
 export function money(v: number | null | undefined): string {
   if (v === null || v === undefined || !Number.isFinite(v)) return dash;
-  return `${v.toFixed(2)} (catalog currency)`;
+  return `${v.toFixed(2)} USD`;
 }
 export function coords(lat: number, lon: number): string {
   const ns = lat >= 0 ? 'N' : 'S';
@@ -96,6 +98,7 @@ export function notice(kind: 'info' | 'warn' | 'error' | 'ok', ...content: Child
 }
 
 export function errorText(err: unknown): string {
+  if (err instanceof ApiError && err.notAvailable) return 'not available on this server yet';
   if (err instanceof Error) return err.message;
   return String(err);
 }

@@ -110,7 +110,7 @@ async function renderNodeVisit(main: HTMLElement, store: PlanStore, node: FleetN
   if (check?.expected?.rssiDbm) {
     exp.append(h('p', {}, `Likely range (10th–90th percentile): RSSI ${check.expected.rssiDbm.p10.toFixed(1)} to ${check.expected.rssiDbm.p90.toFixed(1)} dBm${check.expected.snrDb ? `, SNR ${check.expected.snrDb.p10.toFixed(1)} to ${check.expected.snrDb.p90.toFixed(1)} dB` : ''}.`));
   }
-  if (!links) exp.append(notice('info', `Predictions not available: ${linksR.status === 'rejected' ? errorText(linksR.reason) : ''}`));
+  if (!links) exp.append(notice('info', `Predictions: ${linksR.status === 'rejected' ? errorText(linksR.reason) : 'none'}.`));
   main.append(exp);
 
   // visit sheet
@@ -121,7 +121,7 @@ async function renderNodeVisit(main: HTMLElement, store: PlanStore, node: FleetN
     h('p', {}, h('a', { href: visitSheetUrl(store.planId, node.id), target: '_blank', rel: 'noopener', id: 'visit-sheet-link' }, 'Open the printable visit sheet')),
   );
   if (sheet) sheetBox.append(renderSheet(sheet));
-  else sheetBox.append(notice('info', `The visit sheet is not available: ${sheetR.status === 'rejected' ? errorText(sheetR.reason) : ''}`));
+  else sheetBox.append(notice('info', `Visit sheet: ${sheetR.status === 'rejected' ? errorText(sheetR.reason) : 'empty'}.`));
   main.append(sheetBox);
 
   main.append(cautionsBlock(check?.cautions ?? []));

@@ -3,7 +3,7 @@
 // overlays; planner editing (add, drag, edit, delete, import, undo); the
 // side panel shows the selected object (the node panel has the link check).
 import * as L from 'leaflet';
-import { hillshadeTileUrl, listTerrain, type Entity, type EntityKind, type FleetNode } from '../api.ts';
+import { ApiError, hillshadeTileUrl, listTerrain, type Entity, type EntityKind, type FleetNode } from '../api.ts';
 import { explainWriteError, PlanStore } from '../plan-store.ts';
 import type { Route } from '../router.ts';
 import { canEdit } from '../session.ts';
@@ -46,7 +46,7 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
     else if (layers.some((l) => /synthetic/i.test(String(l.name ?? '') + String(l.source ?? '') + String(l.notes ?? ''))))
       terrainNote = 'Terrain: synthetic demo terrain (not a real place).';
   } catch (err) {
-    terrainNote = `Terrain layers could not be listed: ${errorText(err)}`;
+    terrainNote = `Terrain layers: ${errorText(err)}.`;
   }
   const onlineUrl = typeof store.plan.onlineBaseLayerUrl === 'string' ? store.plan.onlineBaseLayerUrl : null;
   const online = onlineUrl ? L.tileLayer(onlineUrl, { maxZoom: 19, attribution: 'Configured online base layer' }) : null;
@@ -56,6 +56,8 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
   const siteLayer = L.layerGroup().addTo(map);
   const markers = new Map<string, L.Marker>();
   let selected: { kind: EntityKind; id: string } | null = null;
+  /** id:version of the object the detail panel shows, to re-render it when it changes. */
+  let shownVersion = '';
 
   // ---------- sidebar: layers ----------
   const layersPanel = h('section', { class: 'panel', 'aria-labelledby': 'layers-h' }, h('h2', { id: 'layers-h' }, store.plan.name));
@@ -124,7 +126,8 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
     const body: Record<string, unknown> = { name: `New ${kindLabel[kind]} ${n}`, lat: round6(latlng.lat), lon: round6(latlng.lng) };
     const antenna = store.catalog.antennas[0]?.id;
     const feedline = store.catalog.feedlines[0]?.id;
-    if (kind === 'nodes') Object.assign(body, { deviceType: 'sensor', antennaDesignId: antenna, antennaHeightAglM: 1.5 });
+    // Nodes get the server's default antenna; the planner picks the kit in the node panel.
+    if (kind === 'nodes') Object.assign(body, { deviceType: 'sensor', antennaHeightAglM: 1.5 });
     if (kind === 'gateways') Object.assign(body, { antennaDesignId: antenna, antennaHeightAglM: 10, feedlineId: feedline, feedlineLengthM: 10 });
     try {
       const created = await store.create(kind, body);
@@ -164,7 +167,7 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
   });
 
   const coveragePanel = h('section', { class: 'panel', 'aria-labelledby': 'coverage-h' });
-  sidebar.append(layersPanel, detail, tools, coveragePanel);
+  sidebar.append(detail, layersPanel, tools, coveragePanel);
   const stopCoverage = renderCoveragePanel(coveragePanel, store, map);
 
   // ---------- markers ----------
@@ -233,10 +236,12 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
   function select(kind: EntityKind, id: string, pan: boolean): void {
     selected = { kind, id };
     const entity = store.find(kind, id);
+    shownVersion = entity ? `${entity.id}:${entity.version}` : '';
     drawMarkers();
     clear(detail);
     if (!entity) return;
     if (pan) map.panTo([entity.lat, entity.lon]);
+    sidebar.scrollTop = 0;
     if (kind === 'nodes') {
       const url = new URL(location.href);
       history.replaceState(null, '', `${url.pathname}#/plan/${encodeURIComponent(planId)}?node=${encodeURIComponent(id)}`);
@@ -273,7 +278,9 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
         select(kind, id, false);
         return null;
       } catch (err) {
-        return explainWriteError(err, store, `${kindLabel[kind]} ${entity.name}`);
+        const text = explainWriteError(err, store, `${kindLabel[kind]} ${entity.name}`);
+        // A version conflict has its own dialog (with reload): the stale form closes.
+        return err instanceof ApiError && err.status === 409 ? null : text;
       }
     });
   }
@@ -326,9 +333,14 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
 
   const unsubscribe = store.onChange(() => {
     drawMarkers();
-    if (selected && !store.find(selected.kind, selected.id)) {
+    if (!selected) return;
+    const current = store.find(selected.kind, selected.id);
+    if (!current) {
       selected = null;
       clear(detail);
+    } else if (`${current.id}:${current.version}` !== shownVersion) {
+      // The selected object changed (edit, undo, kit applied, reload): show its new state.
+      select(selected.kind, selected.id, false);
     }
   });
   drawMarkers();

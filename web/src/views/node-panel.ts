@@ -36,7 +36,7 @@ export function kitLabel(store: PlanStore, kit: { antennaDesignId?: string | nul
   const feedline = store.catalog.feedlines.find((f) => f.id === kit.feedlineId);
   const height = kit.mastHeightM ?? kit.antennaHeightAglM;
   return [
-    antenna ? `${antenna.name} (${antenna.gainDbi.toFixed(1)} dBi)` : kit.antennaDesignId ? `antenna ${kit.antennaDesignId}` : 'antenna not set',
+    antenna ? (/dBi/.test(antenna.name) ? antenna.name : `${antenna.name} (${antenna.gainDbi.toFixed(1)} dBi)`) : kit.antennaDesignId ? `antenna ${kit.antennaDesignId}` : 'antenna not set',
     `at ${metres(height)} above ground`,
     feedline ? `${feedline.name}${kit.feedlineLengthM ? `, ${metres(kit.feedlineLengthM)}` : ''}` : 'no feedline',
   ].join(' · ');
@@ -76,29 +76,31 @@ export async function renderNodePanel(panel: HTMLElement, store: PlanStore, node
   const recBox = h('section', { class: 'subpanel', 'aria-labelledby': 'rec-h' }, h('h3', { id: 'rec-h' }, 'Recommended kit'), h('p', { class: 'muted' }, 'Searching the catalog…'));
   panel.append(linksBox, profileBox, kitBox, recBox, cautionsBlock());
 
-  const linksP = getNodeLinks(store.planId, node.id);
-  const checkP = getLinkCheck(store.planId, node.id);
   renderKitChooser(kitBox, store, node);
-
-  try {
-    renderLinks(linksBox, store, await linksP);
-  } catch (err) {
-    clear(linksBox);
-    linksBox.append(h('h3', { id: 'links-h' }, 'Links to gateways'), notAvailable(err, 'Link prediction'));
-  }
-  try {
-    renderProfile(profileBox, await checkP);
-  } catch (err) {
-    clear(profileBox);
-    profileBox.append(h('h3', { id: 'profile-h' }, 'Path profile (best link)'), notAvailable(err, 'The link check'));
-  }
-  try {
-    const rec = await recommend(store.planId, node.id, {});
-    renderRecommendation(recBox, store, node, rec.options, rec.message);
-  } catch (err) {
-    clear(recBox);
-    recBox.append(h('h3', { id: 'rec-h' }, 'Recommended kit'), notAvailable(err, 'The kit recommendation'));
-  }
+  // The three requests run side by side; each fills its own box when it answers.
+  await Promise.all([
+    getNodeLinks(store.planId, node.id).then(
+      (links) => renderLinks(linksBox, store, links),
+      (err: unknown) => {
+        clear(linksBox);
+        linksBox.append(h('h3', { id: 'links-h' }, 'Links to gateways'), notAvailable(err, 'Link prediction'));
+      },
+    ),
+    getLinkCheck(store.planId, node.id).then(
+      (check) => renderProfile(profileBox, check),
+      (err: unknown) => {
+        clear(profileBox);
+        profileBox.append(h('h3', { id: 'profile-h' }, 'Path profile (best link)'), notAvailable(err, 'The link check'));
+      },
+    ),
+    recommend(store.planId, node.id, {}).then(
+      (rec) => renderRecommendation(recBox, store, node, rec.options, rec.message),
+      (err: unknown) => {
+        clear(recBox);
+        recBox.append(h('h3', { id: 'rec-h' }, 'Recommended kit'), notAvailable(err, 'The kit recommendation'));
+      },
+    ),
+  ]);
 }
 
 function gatewayName(store: PlanStore, id: string): string {
