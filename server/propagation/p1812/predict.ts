@@ -30,6 +30,25 @@ function emptyDelta(): DeltaBullingtonTerms {
   return { lbullaDb: 0, lbullsDb: 0, ldsphDb: 0, ldDb: 0 };
 }
 
+/** Cheap checks at the door (the CLI/API schemas give the friendlier messages first). */
+function checkInput(input: P1812Input, count: number): void {
+  if (count < 3) throw new RangeError(`distanceKm: a profile needs at least 3 points (got ${count})`);
+  for (const [name, array] of [
+    ['heightM', input.heightM],
+    ['clutterHeightM', input.clutterHeightM],
+    ['zone', input.zone],
+  ] as const) {
+    if (array.length !== count) throw new RangeError(`${name}: has ${array.length} entries, distanceKm has ${count}`);
+  }
+  if (!(input.frequencyMhz >= 30 && input.frequencyMhz <= 6000)) throw new RangeError('frequencyMhz: must be within 30–6000 MHz');
+  if (!(input.timePercent >= 1 && input.timePercent <= 50)) throw new RangeError('timePercent: must be within 1–50 %');
+  if (!(input.locationPercent >= 1 && input.locationPercent <= 99)) throw new RangeError('locationPercent: must be within 1–99 %');
+  if (!(input.deltaN > 0 && input.deltaN < 157)) throw new RangeError('deltaN: must be within 0–157 N-units/km');
+  for (let i = 1; i < count; i++) {
+    if (!(input.distanceKm[i] > input.distanceKm[i - 1])) throw new RangeError(`distanceKm[${i}]: distances must increase`);
+  }
+}
+
 /**
  * A reusable P.1812-8 predictor: keeps its scratch arrays between calls so that
  * repeated predictions (coverage rasters) allocate nothing per profile point.
@@ -53,6 +72,7 @@ export class P1812Predictor {
 
   predict(input: P1812Input): P1812Detail {
     const count = input.distanceKm.length;
+    checkInput(input, count);
     this.ensureCapacity(count);
     const d = this.distance;
     const d0 = input.distanceKm[0];

@@ -177,7 +177,10 @@ export function analyseProfile(
   // Eqs (91), (93): terrain roughness between the horizon points.
   const m = (hsrDuct - hstDuct) / dist;
   let hm = -Infinity;
-  for (let i = out.txHorizonIndex; i <= out.rxHorizonIndex; i++) {
+  // ilt ≤ ilr on any real transhorizon profile; take them in order so odd profiles still get a value.
+  const from = Math.min(out.txHorizonIndex, out.rxHorizonIndex);
+  const to = Math.max(out.txHorizonIndex, out.rxHorizonIndex);
+  for (let i = from; i <= to; i++) {
     const r = h[i] - (hstDuct + m * d[i]);
     if (r > hm) hm = r;
   }

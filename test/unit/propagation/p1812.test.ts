@@ -123,3 +123,16 @@ describe('whole method behaviour', () => {
     expect(predictP1812(shifted).lbDb).toBeCloseTo(predictP1812(input).lbDb, 9);
   });
 });
+
+describe('P1812Predictor checks its input at the door', () => {
+  it('refuses short profiles, mismatched arrays, out-of-range frequency/time and non-increasing distances', () => {
+    const ok = baseInput();
+    expect(() => predictP1812({ ...ok, ...flatPath(0.1, 0.1, 4) })).toThrow(/at least 3 points/);
+    expect(() => predictP1812({ ...ok, zone: new Uint8Array(3) })).toThrow(/^zone:/);
+    expect(() => predictP1812({ ...ok, frequencyMhz: 7000 })).toThrow(/^frequencyMhz:/);
+    expect(() => predictP1812({ ...ok, timePercent: 0.1 })).toThrow(/^timePercent:/);
+    const d = ok.distanceKm.slice();
+    d[5] = d[4];
+    expect(() => predictP1812({ ...ok, distanceKm: d })).toThrow(/^distanceKm\[5\]/);
+  });
+});
