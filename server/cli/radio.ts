@@ -23,6 +23,14 @@ function options<T extends z.ZodRawShape>(shape: T) {
   });
 }
 
+/** A required option: a missing one is reported as "is required" rather than a type error. */
+function required<T extends z.ZodType>(schema: T): z.ZodType<z.output<T>> {
+  return z
+    .unknown()
+    .refine((value) => value !== undefined, { message: 'is required', abort: true })
+    .pipe(schema as unknown as z.ZodType<z.output<T>, NonNullable<unknown> | null>);
+}
+
 const clean = (value: number) => Math.round(value * 1e6) / 1e6;
 
 const spreadingFactorOption = () =>
@@ -43,10 +51,10 @@ const airtime = defineCommand({
   words: 'airtime',
   summary: 'LoRa time on air of one frame (SX1276 §4.1.1.6 / SX1261 §6.1.4)',
   options: options({
-    sf: spreadingFactorOption(),
-    'bw-khz': bandwidthOption(),
+    sf: required(spreadingFactorOption()),
+    'bw-khz': required(bandwidthOption()),
     cr: z.enum(CODING_RATES as [CodingRate, ...CodingRate[]], { error: `must be one of ${CODING_RATES.join(', ')}` }).default('4/5'),
-    'payload-bytes': integerOption().refine((n) => n >= 0 && n <= 255, { message: 'must be from 0 to 255 bytes' }),
+    'payload-bytes': required(integerOption().refine((n) => n >= 0 && n <= 255, { message: 'must be from 0 to 255 bytes' })),
     'preamble-symbols': integerOption()
       .refine((n) => n >= 1 && n <= 65535, { message: 'must be from 1 to 65535 symbols' })
       .optional(),
@@ -93,8 +101,8 @@ const sensitivity = defineCommand({
   words: 'sensitivity',
   summary: 'LoRa receiver sensitivity, noise floor and SNR floor for an SF and bandwidth',
   options: options({
-    sf: spreadingFactorOption(),
-    'bw-khz': bandwidthOption(),
+    sf: required(spreadingFactorOption()),
+    'bw-khz': required(bandwidthOption()),
     'noise-figure-db': numberOption()
       .refine((nf) => nf >= 0 && nf <= 30, { message: 'must be from 0 to 30 dB' })
       .optional(),
@@ -121,7 +129,7 @@ const mismatch = defineCommand({
   words: 'mismatch',
   summary: 'Reflection coefficient, return loss and mismatch loss from VSWR',
   options: options({
-    vswr: numberOption().refine((v) => v >= 1, { message: 'VSWR must be at least 1' }),
+    vswr: required(numberOption().refine((v) => v >= 1, { message: 'VSWR must be at least 1' })),
   }),
   run: (o) => {
     const m = mismatchFromVswr(o.vswr);
@@ -144,8 +152,8 @@ const buildSheetCommand = defineCommand({
   words: 'build-sheet',
   summary: `Cut lengths and tuning advice for a hand-built antenna (${BUILD_SHEET_IDS.join(', ')})`,
   options: options({
-    design: stringOption(),
-    'frequency-mhz': numberOption().refine((f) => f > 0, { message: 'must be a positive frequency in MHz' }),
+    design: required(stringOption()),
+    'frequency-mhz': required(numberOption().refine((f) => f > 0, { message: 'must be a positive frequency in MHz' })),
     radials: integerOption().optional(),
     'droop-deg': numberOption().optional(),
     'length-factor': numberOption().optional(),

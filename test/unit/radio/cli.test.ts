@@ -31,6 +31,8 @@ const cases: Record<string, string[]> = {
   badBw: ['airtime', '--sf', '7', '--bw-khz', '100', '--cr', '4/5', '--payload-bytes', '3', '--json'],
   badCr: ['airtime', '--sf', '7', '--bw-khz', '125', '--cr', '4/9', '--payload-bytes', '3', '--json'],
   unknownOption: ['airtime', '--sf', '7', '--bw-khz', '125', '--payload-bytes', '3', '--spreading', '7', '--json'],
+  missingSf: ['airtime', '--bw-khz', '125', '--payload-bytes', '3', '--json'],
+  sheetDrooped: ['build-sheet', '--design', 'quarter-wave-ground-plane-drooped', '--frequency-mhz', '868', '--radials', '6', '--json'],
   sensitivity: ['sensitivity', '--sf', '12', '--bw-khz', '125', '--json'],
   sensitivityNf: ['sensitivity', '--sf', '7', '--bw-khz', '500', '--noise-figure-db', '3', '--json'],
   mismatch: ['mismatch', '--vswr', '2', '--json'],
@@ -102,6 +104,7 @@ describe('earshot airtime (SX1276 datasheet §4.1.1.6 formula)', () => {
     failsWith('badBw', /--bw-khz: .*7\.8/);
     failsWith('badCr', /--cr: .*4\/5/);
     failsWith('unknownOption', /unknown option --spreading/);
+    failsWith('missingSf', /--sf: is required/);
   });
 });
 
@@ -136,6 +139,12 @@ describe('earshot build-sheet (trade rule 2832/f inches, common practice)', () =
   it('frequency outside the design band says which band the design covers; unknown design lists the known ones', () => {
     failsWith('sheetOutside', /covers 430–930 MHz/);
     failsWith('sheetUnknown', /build sheets exist for: quarter-wave-ground-plane/);
+  });
+  it('drooped variant honours --radials; 868 MHz radiator = 2832/868 in = 82.9 mm', () => {
+    const s = json('sheetDrooped');
+    expect(s.droopDeg).toBe(45);
+    expect(s.elements.find((e: { name: string }) => e.name === 'radial').count).toBe(6);
+    expect(s.elements.find((e: { name: string }) => e.name === 'radiator').lengthMm).toBeCloseTo(82.87, 1);
   });
 });
 
