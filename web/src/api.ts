@@ -291,13 +291,18 @@ export interface Link {
   bestSf: number | null;
   deliveryProbability: number;
   timeOnAirMs?: number | null;
-  legal?: { ok?: boolean; eirpDbm?: number; limitDbm?: number; message?: string } | boolean;
+  usedSf?: number;
+  lineOfSight?: boolean;
+  method?: string;
+  legal: { withinLimit: boolean; peakEirpDbm: number; maxEirpDbm: number | null; excessDb: number | null; source: string | null } | null;
   [key: string]: unknown;
 }
 export interface NodeLinks {
   links: Link[];
   combinedDeliveryProbability: number;
   status: LinkStatus;
+  bestGatewayId?: string | null;
+  bestMarginDb?: number | null;
   [key: string]: unknown;
 }
 export const getNodeLinks = (planId: string, nodeId: string): Promise<NodeLinks> =>
@@ -344,18 +349,28 @@ export interface RecommendRequest {
 export interface RecommendOption {
   antennaDesignId: string;
   mastHeightM: number;
-  feedlineId: string;
+  mastOptionId: string | null;
+  /** null = the radio sits at the antenna (no feedline). */
+  feedlineId: string | null;
+  feedlineLengthM: number;
+  /** Kit cost, USD (catalog prices). */
   cost: number;
-  marginDb: number;
+  /** Best link margin at the chosen SF; null = no gateway in range. */
+  marginDb: number | null;
   deliveryProbability: number;
+  bestGatewayId: string | null;
   meetsTarget: boolean;
-  reason?: string;
-  [key: string]: unknown;
+  reason: string;
 }
 export interface Recommendation {
+  nodeId: string;
   options: RecommendOption[];
-  message?: string;
-  [key: string]: unknown;
+  anyMeetsTarget: boolean;
+  best: RecommendOption | null;
+  /** Plain advice when nothing meets the target. */
+  advice: string[];
+  warnings: string[];
+  target: { targetMarginDb: number; targetDelivery: number };
 }
 export const recommend = (planId: string, nodeId: string, body: RecommendRequest): Promise<Recommendation> =>
   request<Recommendation>('POST', `/plans/${planId}/nodes/${nodeId}/recommend`, body);

@@ -12,6 +12,7 @@ import {
   type LinkCheck,
   type NodeLinks,
   type RecommendOption,
+  type Recommendation,
   type RecommendRequest,
 } from '../api.ts';
 import { explainWriteError, type PlanStore } from '../plan-store.ts';
@@ -94,7 +95,7 @@ export async function renderNodePanel(panel: HTMLElement, store: PlanStore, node
       },
     ),
     recommend(store.planId, node.id, {}).then(
-      (rec) => renderRecommendation(recBox, store, node, rec.options, rec.message),
+      (rec) => renderRecommendation(recBox, store, rec),
       (err: unknown) => {
         clear(recBox);
         recBox.append(h('h3', { id: 'rec-h' }, 'Recommended kit'), notAvailable(err, 'The kit recommendation'));
@@ -128,8 +129,11 @@ function renderLinks(box: HTMLElement, store: PlanStore, links: NodeLinks): void
       'tbody',
       {},
       ...rows.map((l) => {
-        const legal = typeof l.legal === 'boolean' ? l.legal : l.legal?.ok;
-        const legalText = legal === undefined ? '–' : legal ? 'yes' : `no${typeof l.legal === 'object' && l.legal?.message ? `: ${l.legal.message}` : ''}`;
+        const legalText = !l.legal
+          ? '–'
+          : l.legal.withinLimit
+            ? `yes (${l.legal.peakEirpDbm.toFixed(1)} dBm EIRP)`
+            : `NO: ${l.legal.excessDb !== null ? `${l.legal.excessDb.toFixed(1)} dB over` : 'outside'} the limit`;
         return h(
           'tr',
           {},
@@ -139,7 +143,7 @@ function renderLinks(box: HTMLElement, store: PlanStore, links: NodeLinks): void
           h('td', {}, dbm(l.rssiDbm)),
           h('td', {}, db(l.snrDb)),
           h('td', { class: l.marginDb >= 0 ? 'num' : 'num neg' }, db(l.marginDb)),
-          h('td', {}, l.bestSf ? `SF${l.bestSf}` : 'none'),
+          h('td', {}, l.bestSf ? `SF${l.bestSf}` : l.usedSf ? `none (uses SF${l.usedSf})` : 'none'),
           h('td', {}, percent(l.deliveryProbability)),
           h('td', {}, fmt(l.timeOnAirMs ?? null, 'ms', 0)),
           h('td', {}, legalText),
@@ -227,10 +231,11 @@ function renderKitChooser(box: HTMLElement, store: PlanStore, node: FleetNode): 
     try {
       const result = await recommend(store.planId, node.id, body);
       if (mine !== seq) return;
-      const option = result.options[0];
+      // Without a feedline choice the server also ranks every feedline: keep the "none" option.
+      const option = feedline.value ? result.options[0] : (result.options.find((o) => o.feedlineId === null) ?? result.options[0]);
       lastOption = option ?? null;
       if (!option) {
-        out.replaceChildren(notice('warn', result.message ?? 'No prediction for this kit.'));
+        out.replaceChildren(notice('warn', [...result.warnings, ...result.advice].join(' ') || 'No prediction for this kit.'));
         return;
       }
       out.replaceChildren(
@@ -239,7 +244,7 @@ function renderKitChooser(box: HTMLElement, store: PlanStore, node: FleetNode): 
           'dl',
           { class: 'facts big' },
           h('dt', {}, 'Margin'),
-          h('dd', { id: 'kit-margin', class: option.marginDb >= 0 ? '' : 'neg' }, db(option.marginDb)),
+          h('dd', { id: 'kit-margin', class: option.marginDb !== null && option.marginDb < 0 ? 'neg' : '' }, option.marginDb === null ? 'no gateway in range' : db(option.marginDb)),
           h('dt', {}, 'Delivery probability'),
           h('dd', { id: 'kit-delivery' }, percent(option.deliveryProbability)),
           h('dt', {}, 'Kit cost'),
@@ -259,7 +264,9 @@ function renderKitChooser(box: HTMLElement, store: PlanStore, node: FleetNode): 
                   const changes: Record<string, unknown> = {
                     antennaDesignId: lastOption.antennaDesignId,
                     antennaHeightAglM: lastOption.mastHeightM,
-                    feedlineId: lastOption.feedlineId || null,
+                    mastOptionId: lastOption.mastOptionId,
+                    feedlineId: lastOption.feedlineId,
+                    feedlineLengthM: lastOption.feedlineId ? lastOption.feedlineLengthM : 0,
                   };
                   void store
                     .update('nodes', node.id, changes, true, `changed the kit of ${node.name}`)
@@ -304,16 +311,18 @@ function renderKitChooser(box: HTMLElement, store: PlanStore, node: FleetNode): 
   void evaluate();
 }
 
-function renderRecommendation(box: HTMLElement, store: PlanStore, node: FleetNode, options: RecommendOption[], message?: string): void {
+function renderRecommendation(box: HTMLElement, store: PlanStore, rec: Recommendation): void {
   clear(box);
   box.append(h('h3', { id: 'rec-h' }, 'Recommended kit'));
+  const options = rec.options;
+  const advice = [...rec.advice, ...rec.warnings].join(' ');
   if (options.length === 0) {
-    box.append(notice('warn', message ?? 'The catalog has no option for this node.'));
+    box.append(notice('warn', advice || 'The catalog has no option for this node.'));
     return;
   }
-  const best = options[0];
-  if (!best.meetsTarget) {
-    box.append(notice('warn', message ?? 'No option in the catalog meets the target margin. The best available is shown; another gateway site may be needed.'));
+  box.append(h('p', { class: 'muted small' }, `Target: margin ${db(rec.target.targetMarginDb)}, delivery ${percent(rec.target.targetDelivery)}. Cheapest option that meets it first.`));
+  if (!rec.anyMeetsTarget) {
+    box.append(notice('warn', `No kit in the catalog meets the target; the best available is shown. ${advice}`));
   }
   const list = h('ol', { class: 'rec-list', id: 'rec-list' });
   for (const option of options.slice(0, 3)) {
@@ -321,7 +330,7 @@ function renderRecommendation(box: HTMLElement, store: PlanStore, node: FleetNod
       h(
         'li',
         {},
-        h('strong', {}, kitLabel(store, { antennaDesignId: option.antennaDesignId, mastHeightM: option.mastHeightM, feedlineId: option.feedlineId })),
+        h('strong', {}, kitLabel(store, { antennaDesignId: option.antennaDesignId, mastHeightM: option.mastHeightM, feedlineId: option.feedlineId, feedlineLengthM: option.feedlineLengthM })),
         h('br', {}),
         `margin ${db(option.marginDb)} · delivery ${percent(option.deliveryProbability)} · cost ${money(option.cost)} · ${option.meetsTarget ? 'meets the target' : 'below the target'}`,
         option.reason ? h('span', { class: 'muted small' }, ` — ${option.reason}`) : null,
@@ -329,5 +338,4 @@ function renderRecommendation(box: HTMLElement, store: PlanStore, node: FleetNod
     );
   }
   box.append(list);
-  void node;
 }
