@@ -36,6 +36,7 @@ function requestFor(name: string): { json: string; expectedLb: number } {
 
 const present = sg3DataPresent();
 if (!present && process.env.CI !== 'true') {
+  console.warn(`SKIPPED predict-path SG3 check: ${SG3_P1812_DIR} not found (it must sit beside the checkout)`);
   describe.skip(`predict-path on SG3 examples: SKIPPED, ${SG3_P1812_DIR} not found`, () => {
     it('needs the shared reference data beside the checkout', () => {});
   });

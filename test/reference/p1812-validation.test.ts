@@ -74,6 +74,7 @@ if (!present) {
       });
     });
   } else {
+    console.warn(`SKIPPED ITU-R P.1812-8 SG3 validation: ${SG3_P1812_DIR} not found (it must sit beside the checkout)`);
     describe.skip(`ITU-R P.1812-8 SG3 validation examples: SKIPPED, ${SG3_P1812_DIR} not found`, () => {
       it('needs the shared reference data beside the checkout', () => {});
     });
