@@ -1,4 +1,140 @@
-// Commands of this room; each is a defineCommand(...) from ./framework.ts.
-import type { CliCommand } from './framework.ts';
+// Admin commands: `earshot team add`, `earshot token issue`, `earshot token revoke`.
+// They work on DATABASE_URL (PostgreSQL: opened directly, safe alongside running servers)
+// and on the embedded data folder (EARSHOT_DATA_DIR). An embedded PGlite folder must never
+// be opened by two processes: when a server runs on it (it wrote <dataDir>/admin.json),
+// the command goes through that server's loopback admin endpoint with the local secret;
+// otherwise the command opens the folder itself under the pid lock (server/db/client.ts).
+import { existsSync, readFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { z } from 'zod';
+import { loadConfig, type Config } from '../config.ts';
+import { dataFolderHolder, openDatabase, type Database } from '../db/client.ts';
+import { adminTeamAdd, adminTokenIssue, adminTokenRevoke, teamAddInput, tokenIssueInput, tokenRevokeInput } from '../db/repositories/admin-ops.ts';
+import { ConflictError, NotFoundError } from '../db/errors.ts';
+import { CliUsageError, defineCommand, stringOption, type CliCommand } from './framework.ts';
 
-export const adminCommands: CliCommand[] = [];
+interface AdminFile {
+  port: number;
+  host: string;
+  pid: number;
+  secret: string;
+}
+
+function readAdminFile(config: Config): AdminFile | null {
+  const path = join(config.dataDir, 'admin.json');
+  if (!existsSync(path)) return null;
+  try {
+    const parsed = JSON.parse(readFileSync(path, 'utf8')) as AdminFile;
+    return typeof parsed.port === 'number' && typeof parsed.secret === 'string' ? parsed : null;
+  } catch {
+    return null;
+  }
+}
+
+function pidAlive(pid: number): boolean {
+  try {
+    process.kill(pid, 0);
+    return true;
+  } catch (error) {
+    return (error as NodeJS.ErrnoException).code === 'EPERM';
+  }
+}
+
+/** Calls the running server's admin endpoint; null when no server answers there. */
+async function viaServer(admin: AdminFile, operation: string, body: unknown): Promise<unknown | null> {
+  let response: Response;
+  try {
+    response = await fetch(`http://127.0.0.1:${admin.port}/_admin/${operation}`, {
+      method: 'POST',
+      headers: { 'content-type': 'application/json', 'x-earshot-admin': admin.secret },
+      body: JSON.stringify(body),
+      signal: AbortSignal.timeout(30_000),
+    });
+  } catch {
+    return null;
+  }
+  const payload = (await response.json().catch(() => ({}))) as { error?: { message?: string } };
+  if (!response.ok) throw new CliUsageError(payload.error?.message ?? `the running server answered ${response.status}`);
+  return payload;
+}
+
+export type AdminOperation = 'team-add' | 'token-issue' | 'token-revoke';
+
+async function direct(db: Database, operation: AdminOperation, body: never): Promise<unknown> {
+  try {
+    if (operation === 'team-add') return await adminTeamAdd(db, body);
+    if (operation === 'token-issue') return await adminTokenIssue(db, body);
+    return await adminTokenRevoke(db, body);
+  } catch (error) {
+    if (error instanceof NotFoundError || error instanceof ConflictError) throw new CliUsageError(error.message);
+    throw error;
+  }
+}
+
+/** Runs an admin operation against the configured database, the safe way (see the header). */
+export async function runAdminOperation(operation: AdminOperation, body: unknown, env: NodeJS.ProcessEnv = process.env): Promise<unknown> {
+  const config = loadConfig(env);
+  if (!config.databaseUrl) {
+    const admin = readAdminFile(config);
+    if (admin && pidAlive(admin.pid)) {
+      const answer = await viaServer(admin, operation, body);
+      if (answer !== null) return answer;
+    }
+    const holder = dataFolderHolder(config.dataDir);
+    if (holder !== null) {
+      throw new CliUsageError(`the data folder ${config.dataDir} is in use by process ${holder} and no server answers for it; wait and retry`);
+    }
+  }
+  const db = await openDatabase(config);
+  try {
+    return await direct(db, operation, body as never);
+  } finally {
+    await db.close();
+  }
+}
+
+const roleOption = z.enum(['planner', 'installer', 'viewer'], { error: 'must be planner, installer or viewer' });
+
+export const adminCommands: CliCommand[] = [
+  defineCommand({
+    words: 'team add',
+    summary: 'Add a team (--slug, --name)',
+    options: z.strictObject({ slug: stringOption(), name: stringOption() }),
+    async run(options) {
+      const input = teamAddInput.safeParse(options);
+      if (!input.success) throw new CliUsageError(`--${String(input.error.issues[0].path[0] ?? 'slug')}: ${input.error.issues[0].message}`);
+      return runAdminOperation('team-add', input.data);
+    },
+    formatText: (result) => {
+      const team = result as { slug: string; name: string; id: string };
+      return `team ${team.slug} (${team.name}) created, id ${team.id}`;
+    },
+  }),
+  defineCommand({
+    words: 'token issue',
+    summary: 'Issue an API token (--team <slug> --role planner|installer|viewer [--name <user>])',
+    options: z.strictObject({ team: stringOption(), role: roleOption, name: stringOption().optional() }),
+    async run(options) {
+      const input = tokenIssueInput.parse({ team: options.team, role: options.role, name: options.name });
+      return runAdminOperation('token-issue', input);
+    },
+    formatText: (result) => {
+      const issued = result as { token: string; role: string; team: string };
+      return `${issued.token}\n(${issued.role} token for team ${issued.team}; shown once, valid until revoked)`;
+    },
+  }),
+  defineCommand({
+    words: 'token revoke',
+    summary: 'Revoke a token (--token <token> or --id <id>)',
+    options: z.strictObject({ token: stringOption().optional(), id: stringOption().optional() }),
+    async run(options) {
+      const input = tokenRevokeInput.safeParse(options);
+      if (!input.success) throw new CliUsageError(input.error.issues[0].message);
+      return runAdminOperation('token-revoke', input.data);
+    },
+    formatText: (result) => {
+      const revoked = result as { id: string; alreadyRevoked: boolean };
+      return revoked.alreadyRevoked ? `token ${revoked.id} was already revoked` : `token ${revoked.id} revoked`;
+    },
+  }),
+];
