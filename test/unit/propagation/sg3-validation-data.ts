@@ -49,6 +49,12 @@ export function readSg3Log(file: string): Map<string, number> {
   for (const line of fs.readFileSync(file, 'utf8').split(/\r?\n/)) {
     if (line.startsWith('#') || line.trim() === '') continue;
     const cells = line.split(',');
+    if (line.startsWith('Ep (dBuV/m) w.r.t.')) {
+      // "Ep (dBuV/m) w.r.t. Ptx, Gtx, Grx,,,VALUE,": the label itself holds commas.
+      const value = Number(cells[5]);
+      if (Number.isFinite(value)) values.set('Ep w.r.t. Ptx', value);
+      continue;
+    }
     const label = cells[0].replace(/\s*\(.*\)\s*$/, '').trim();
     const ref = (cells[1] ?? '').trim();
     const value = Number(cells[3]);
