@@ -30,7 +30,14 @@ export interface AreaRequest {
 
 /** Buffer sizes and plan for a request on a terrain window. */
 export function planArea(terrain: TerrainWindow, request: AreaRequest): RayPlan {
-  return planRays(terrain.frame, request.radiusM, { raySpacingCells: request.raySpacingCells, sampleStepCells: request.sampleStepCells });
+  // Visibility is a yes/no per cell and flips on single ridge cells, so los
+  // samples twice as densely (half-cell rays and steps); losses vary smoothly
+  // enough for one-cell steps.
+  const dense = request.mode === 'los';
+  return planRays(terrain.frame, request.radiusM, {
+    raySpacingCells: request.raySpacingCells ?? (dense ? 0.5 : 0.9),
+    sampleStepCells: request.sampleStepCells ?? (dense ? 0.5 : 1),
+  });
 }
 
 /** Size of the per-sample buffer (Float32 elements) a sweep writes. */

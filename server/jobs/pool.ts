@@ -1,0 +1,99 @@
+// A pool of worker threads for CPU-heavy coverage work in the server (or CLI)
+// process. Workers stay alive between runs; each task is a slice of one area
+// prediction (a sector of rays, or a band of rows) over shared memory, so the
+// terrain and result buffers are never copied.
+import { availableParallelism } from 'node:os';
+import { Worker } from 'node:worker_threads';
+import type { AreaTask, AreaTaskResult } from './pool-worker.ts';
+
+interface Pending {
+  task: AreaTask;
+  resolve: (result: AreaTaskResult) => void;
+  reject: (error: Error) => void;
+}
+
+interface Slot {
+  worker: Worker;
+  busy: Pending | null;
+}
+
+/** Number of worker threads used when none is configured: every core. */
+export function defaultWorkerCount(): number {
+  return Math.max(1, availableParallelism());
+}
+
+export class WorkerPool {
+  readonly size: number;
+  private slots: Slot[] = [];
+  private queue: Pending[] = [];
+  private closed = false;
+
+  constructor(size = defaultWorkerCount()) {
+    if (!Number.isInteger(size) || size < 1) throw new RangeError('worker pool size must be a whole number ≥ 1');
+    this.size = size;
+    for (let i = 0; i < size; i++) this.slots.push(this.spawn());
+  }
+
+  private spawn(): Slot {
+    const worker = new Worker(new URL('./worker-boot.mjs', import.meta.url), {
+      workerData: { entry: new URL('./pool-worker.ts', import.meta.url).href },
+      execArgv: [],
+    });
+    const slot: Slot = { worker, busy: null };
+    worker.on('message', (result: AreaTaskResult) => {
+      const pending = slot.busy;
+      slot.busy = null;
+      if (pending) {
+        if (result.error) pending.reject(new Error(result.error));
+        else pending.resolve(result);
+      }
+      this.pump();
+    });
+    worker.on('error', (error) => {
+      const pending = slot.busy;
+      slot.busy = null;
+      pending?.reject(error instanceof Error ? error : new Error(String(error)));
+    });
+    worker.on('exit', () => {
+      const index = this.slots.indexOf(slot);
+      if (index < 0 || this.closed) return;
+      // A dead worker is replaced so the pool keeps its size.
+      const pending = slot.busy;
+      slot.busy = null;
+      pending?.reject(new Error('coverage worker thread exited'));
+      this.slots[index] = this.spawn();
+      this.pump();
+    });
+    worker.unref();
+    return slot;
+  }
+
+  /** Runs one task on the next free worker. */
+  exec(task: AreaTask): Promise<AreaTaskResult> {
+    if (this.closed) return Promise.reject(new Error('worker pool is closed'));
+    return new Promise((resolve, reject) => {
+      this.queue.push({ task, resolve, reject });
+      this.pump();
+    });
+  }
+
+  private pump(): void {
+    for (const slot of this.slots) {
+      if (this.queue.length === 0) return;
+      if (slot.busy) continue;
+      const next = this.queue.shift()!;
+      slot.busy = next;
+      slot.worker.ref();
+      slot.worker.postMessage(next.task);
+    }
+    for (const slot of this.slots) if (!slot.busy) slot.worker.unref();
+  }
+
+  async close(): Promise<void> {
+    this.closed = true;
+    for (const pending of this.queue) pending.reject(new Error('worker pool is closed'));
+    this.queue = [];
+    await Promise.all(this.slots.map((slot) => slot.worker.terminate()));
+    this.slots = [];
+  }
+}
