@@ -62,15 +62,21 @@ export function dataFolderHolder(dataDir: string): number | null {
   return pidAlive(pid) && pid !== process.pid ? pid : null;
 }
 
+/** Data folders this process has open (a lock naming our own pid is stale only if it is not here). */
+const openedHere = new Set<string>();
+
 /** Takes the embedded data folder for this process (a pid lock file); returns the release function. */
 function lockDataFolder(dataDir: string): () => void {
   const lockPath = dataFolderLockPath(dataDir);
+  if (openedHere.has(lockPath)) throw new DatabaseBusyError(lockPath, process.pid);
   for (let attempt = 0; attempt < 2; attempt++) {
     try {
       const fd = openSync(lockPath, 'wx', 0o600);
       writeSync(fd, `${process.pid}\n`);
       closeSync(fd);
+      openedHere.add(lockPath);
       const release = () => {
+        openedHere.delete(lockPath);
         try {
           if (existsSync(lockPath) && readFileSync(lockPath, 'utf8').trim() === String(process.pid)) rmSync(lockPath);
         } catch {
