@@ -21,6 +21,7 @@ import nodeRoutes from './routes/nodes.ts';
 import kitRoutes from './routes/kit.ts';
 import auditRoutes from './routes/audit.ts';
 import adminRoutes from './routes/admin.ts';
+import terrainRoutes from './routes/terrain.ts';
 
 declare module 'fastify' {
   interface FastifyInstance {
@@ -72,6 +73,8 @@ async function registerApiRoutes(api: FastifyInstance): Promise<void> {
   await api.register(kitRoutes);
   await api.register(auditRoutes);
   // Other rooms: one register line each below (e.g. `await api.register(terrainRoutes);`).
+  await api.register(terrainRoutes);
+  await api.register((await import('./routes/links.ts')).default);
 }
 
 export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {

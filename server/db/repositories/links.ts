@@ -54,3 +54,31 @@ export async function listTerrainForLinks(db: Database, planId: string) {
     select: { id: true, kind: true, name: true, filePath: true, sha256: true, resolutionM: true, priority: true, createdAt: true },
   });
 }
+
+// Fleet-wide kit recommendation runs are kept in the job table (model
+// CoverageRun, kind 'kit-recommendation') so their progress and result
+// survive a restart.
+export const KIT_JOB_KIND = 'kit-recommendation';
+
+export async function createKitJob(db: Database, planId: string, params: unknown, createdById: string | null, lockedBy: string) {
+  return db.prisma.coverageRun.create({
+    data: { planId, kind: KIT_JOB_KIND, params: params as Prisma.InputJsonValue, status: 'running', progress: 0, createdById, startedAt: new Date(), lockedBy, lockedAt: new Date() },
+  });
+}
+
+export async function updateKitJob(db: Database, id: string, patch: { progress?: number; status?: 'running' | 'done' | 'failed'; error?: string | null; summary?: unknown }) {
+  const { summary, ...rest } = patch;
+  return db.prisma.coverageRun.update({
+    where: { id },
+    data: {
+      ...rest,
+      ...(summary !== undefined ? { summary: summary as Prisma.InputJsonValue } : {}),
+      lockedAt: new Date(),
+      ...(patch.status === 'done' || patch.status === 'failed' ? { finishedAt: new Date() } : {}),
+    },
+  });
+}
+
+export async function findKitJob(db: Database, planId: string, id: string) {
+  return db.prisma.coverageRun.findFirst({ where: { id, planId, kind: KIT_JOB_KIND } });
+}

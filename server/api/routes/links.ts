@@ -1,0 +1,333 @@
+// Links and kit: a node's predicted links, the fleet table, the installer's
+// link check and visit sheet, kit recommendations (one node, or the fleet as
+// a job with progress) and field readings beside the prediction.
+// Routes stay thin: the work is in ./links-service.ts, ./recommend.ts,
+// ./visit-sheet.ts and the pure rooms under server/planning/.
+import { hostname } from 'node:os';
+import type { FastifyInstance } from 'fastify';
+import type { ZodTypeProvider } from 'fastify-type-provider-zod';
+import { z } from 'zod';
+import { recordAudit } from '../../db/repositories/audit.ts';
+import { createKitJob, findKitJob, updateKitJob } from '../../db/repositories/links.ts';
+import { linkCheck, installCautions } from '../../planning/check.ts';
+import { PlanSettingsError } from '../../planning/settings.ts';
+import type { LinkResult } from '../../planning/link.ts';
+import type { PlanRow } from '../../db/repositories/plans.ts';
+import { requireRole } from '../auth.ts';
+import { ApiError } from '../errors.ts';
+import { loadPlanForPrincipal } from '../scope.ts';
+import { finite, id, pageQuery } from '../schemas.ts';
+import { decodeCursor, encodeCursor } from '../../db/repositories/pagination.ts';
+import { LinkEngine, LinkInputError, type NodeLinksOutcome, type PlanContext } from './links-service.ts';
+import { loadCatalog, recommendForNode, type RecommendRequest } from './recommend.ts';
+import { visitSheet, visitSheetHtml } from './visit-sheet.ts';
+import { registerReadingRoutes } from './readings.ts';
+
+const nodeParams = z.strictObject({ planId: id(), nodeId: id() });
+const jobParams = z.strictObject({ planId: id(), jobId: id() });
+const planParams = z.strictObject({ planId: id() });
+
+const coerceNumber = (rule: z.ZodNumber) =>
+  z.preprocess((value) => (typeof value === 'string' && value.trim() !== '' ? Number(value) : value), rule);
+
+export const kitOverrideQuery = z.strictObject({
+  antennaDesignId: id().optional(),
+  antennaHeightAglM: coerceNumber(finite().min(-10, 'must be ≥ -10 m').max(200, 'must be ≤ 200 m')).optional(),
+  feedlineId: z.string().max(100).optional(),
+  feedlineLengthM: coerceNumber(finite().min(0, 'must be ≥ 0 m').max(500, 'must be ≤ 500 m')).optional(),
+});
+
+export const recommendBody = z.strictObject({
+  targetMarginDb: finite().min(-20, 'must be ≥ -20 dB').max(60, 'must be ≤ 60 dB').optional(),
+  targetDelivery: finite().min(0, 'must be within 0–1').max(1, 'must be within 0–1').optional(),
+  antennaDesignIds: z.array(id()).min(1, 'must list at least one id').max(100).optional(),
+  mastHeightsM: z.array(finite().min(0, 'must be ≥ 0 m').max(200, 'must be ≤ 200 m')).min(1, 'must list at least one height').max(50).optional(),
+  feedlineIds: z.array(id()).min(1, 'must list at least one id').max(50).optional(),
+  maxCost: finite().min(0, 'must be ≥ 0').optional(),
+});
+
+const fleetQuery = pageQuery.extend({
+  status: z.enum(['served', 'marginal', 'unserved'], { error: 'must be served, marginal or unserved' }).optional(),
+});
+
+const checkQuery = z.strictObject({ gatewayId: id().optional() });
+const sheetQuery = z.strictObject({ format: z.enum(['html', 'json'], { error: 'must be html or json' }).optional() });
+
+/** The link as the API shows it: the contract fields first, then the details. */
+export function linkView(link: LinkResult, gatewayName: string | undefined) {
+  const { gatewayId, distanceM, basicLossDb, rssiDbm, snrDb, marginDb, bestSf, deliveryProbability, timeOnAirMs, legal, ...details } = link;
+  return { gatewayId, gatewayName: gatewayName ?? null, distanceM, basicLossDb, rssiDbm, snrDb, marginDb, bestSf, deliveryProbability, timeOnAirMs, legal, ...details };
+}
+
+export function nodeLinksView(ctx: PlanContext, outcome: NodeLinksOutcome) {
+  const names = new Map(ctx.gateways.map((g) => [g.row.id, g.row.name]));
+  return {
+    nodeId: outcome.node.row.id,
+    links: outcome.links.map((link) => linkView(link, names.get(link.gatewayId))),
+    combinedDeliveryProbability: outcome.combinedDeliveryProbability,
+    status: outcome.status,
+    bestGatewayId: outcome.bestGatewayId,
+    target: { targetMarginDb: ctx.settings.targetMarginDb, targetDelivery: ctx.settings.targetDelivery },
+    assumptions: {
+      method: ctx.settings.path.method,
+      frequencyMhz: ctx.settings.frequencyMhz,
+      bandwidthKhz: ctx.settings.bandwidthKhz,
+      locationSigmaDb: ctx.settings.locationSigmaDb,
+      locationSigmaSource: ctx.settings.locationSigmaSource,
+      gatewayCorrelation: ctx.settings.gatewayCorrelation,
+      combination: 'probability that at least one gateway receives: 1 − Π(1 − p_i), gateways assumed independent; a correlation factor ρ blends toward the best gateway alone',
+    },
+    kit: {
+      antennaDesignId: outcome.node.antenna.id,
+      antennaHeightAglM: outcome.node.antennaHeightAglM,
+      feedlineId: outcome.node.feedline ? outcome.node.feedline.id : null,
+      feedlineLengthM: outcome.node.kit.feedlineLengthM,
+    },
+    outOfRange: outcome.outOfRange,
+    cache: { computed: outcome.computed, cached: outcome.cached },
+    warnings: [...ctx.warnings, ...outcome.node.warnings],
+  };
+}
+
+/** Maps the engine's input errors onto the API's error shape. */
+export function asApiError(error: unknown): never {
+  if (error instanceof LinkInputError) throw new ApiError(error.statusCode, error.code, error.message);
+  if (error instanceof PlanSettingsError) throw new ApiError(422, 'invalid_plan_settings', error.message);
+  throw error;
+}
+
+export default async function linkRoutes(app: FastifyInstance): Promise<void> {
+  const api = app.withTypeProvider<ZodTypeProvider>();
+  const { db, config } = app.deps;
+  const engine = new LinkEngine(db, config);
+  const running = new Set<Promise<void>>();
+  const processId = `${hostname()}:${process.pid}:${Date.now()}`;
+  app.addHook('onClose', async () => {
+    await Promise.allSettled([...running]);
+    await engine.close();
+  });
+  const tags = ['links'];
+
+  async function context(plan: PlanRow): Promise<PlanContext> {
+    try {
+      return await engine.planContext(plan);
+    } catch (error) {
+      return asApiError(error);
+    }
+  }
+
+  api.get(
+    '/plans/:planId/nodes/:nodeId/links',
+    {
+      schema: {
+        summary: "A node's predicted link to every gateway within range, the probability that at least one hears it, and its status; kit query parameters preview another kit without saving",
+        tags,
+        params: nodeParams,
+        querystring: kitOverrideQuery,
+      },
+    },
+    async (request) => {
+      const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
+      const ctx = await context(plan);
+      const query = request.query;
+      const overrides = { ...query, feedlineId: query.feedlineId === undefined ? undefined : query.feedlineId === '' || query.feedlineId === 'none' ? null : query.feedlineId };
+      try {
+        const outcome = await engine.linksForNode(ctx, request.params.nodeId, overrides);
+        return { ...nodeLinksView(ctx, outcome), preview: Object.values(query).some((v) => v !== undefined) };
+      } catch (error) {
+        return asApiError(error);
+      }
+    },
+  );
+
+  api.get(
+    '/plans/:planId/links',
+    { schema: { summary: 'The fleet table: every node with its status, best gateway and margin, paginated, with counts per status', tags, params: planParams, querystring: fleetQuery } },
+    async (request) => {
+      const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
+      const ctx = await context(plan);
+      let outcomes: NodeLinksOutcome[];
+      try {
+        outcomes = await engine.fleet(ctx);
+      } catch (error) {
+        return asApiError(error);
+      }
+      const counts = { served: 0, marginal: 0, unserved: 0 };
+      let computed = 0;
+      let cached = 0;
+      for (const outcome of outcomes) {
+        counts[outcome.status]++;
+        computed += outcome.computed;
+        cached += outcome.cached;
+      }
+      const names = new Map(ctx.gateways.map((g) => [g.row.id, g.row.name]));
+      const filtered = request.query.status ? outcomes.filter((o) => o.status === request.query.status) : outcomes;
+      const offset = decodeCursor(request.query.cursor);
+      const limit = request.query.limit ?? 100;
+      const page = filtered.slice(offset, offset + limit);
+      return {
+        items: page.map((o) => {
+          const best = o.links[0];
+          return {
+            nodeId: o.node.row.id,
+            nodeName: o.node.row.name,
+            lat: o.node.row.lat,
+            lon: o.node.row.lon,
+            status: o.status,
+            combinedDeliveryProbability: o.combinedDeliveryProbability,
+            bestGatewayId: o.bestGatewayId,
+            bestGatewayName: o.bestGatewayId ? (names.get(o.bestGatewayId) ?? null) : null,
+            bestMarginDb: o.bestMarginDb,
+            bestSf: best ? best.bestSf : null,
+            timeOnAirMs: best ? best.timeOnAirMs : null,
+            gatewaysHeard: o.links.filter((link) => link.marginDb >= 0).length,
+            legal: o.links.every((link) => link.legal === null || link.legal.withinLimit),
+            warnings: o.node.warnings,
+          };
+        }),
+        total: filtered.length,
+        next: offset + page.length < filtered.length ? encodeCursor(offset + page.length) : null,
+        counts,
+        cache: { computed, cached },
+        warnings: ctx.warnings,
+      };
+    },
+  );
+
+  api.get(
+    '/plans/:planId/nodes/:nodeId/check',
+    {
+      schema: {
+        summary: "The installer's link check of the best link (or ?gatewayId=): profile with clutter tops, straight ray, first Fresnel zone, obstructions, expected RSSI/SNR range, current and recommended kit, cautions",
+        tags,
+        params: nodeParams,
+        querystring: checkQuery,
+      },
+    },
+    async (request) => {
+      const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
+      const ctx = await context(plan);
+      try {
+        const outcome = await engine.linksForNode(ctx, request.params.nodeId);
+        const wanted = request.query.gatewayId ?? outcome.bestGatewayId;
+        const link = outcome.links.find((l) => l.gatewayId === wanted);
+        if (request.query.gatewayId && !link) throw new ApiError(404, 'not_found', 'gateway not found or not within range of this node');
+        const gateway = ctx.gateways.find((g) => g.row.id === wanted);
+        const recommendation = await recommendForNode(engine, ctx, outcome.node.row, {});
+        let view = null;
+        if (link && gateway) {
+          const profile = await engine.profile(ctx, outcome.node.row, gateway.row);
+          view = linkCheck(profile, ctx.settings.frequencyMhz, ctx.settings.path.deltaN, outcome.node.antennaHeightAglM, gateway.row.antennaHeightAglM, link);
+        }
+        const links = nodeLinksView(ctx, outcome);
+        return {
+          nodeId: outcome.node.row.id,
+          nodeName: outcome.node.row.name,
+          status: outcome.status,
+          combinedDeliveryProbability: outcome.combinedDeliveryProbability,
+          gatewayId: wanted ?? null,
+          gatewayName: gateway ? gateway.row.name : null,
+          link: links.links.find((l) => l.gatewayId === wanted) ?? null,
+          profile: view,
+          currentKit: links.kit,
+          recommendedKit: recommendation.options[0] ?? null,
+          recommendation: { anyMeetsTarget: recommendation.anyMeetsTarget, advice: recommendation.advice },
+          cautions: installCautions(ctx.settings.bandPlan.cautions),
+          warnings: links.warnings,
+        };
+      } catch (error) {
+        return asApiError(error);
+      }
+    },
+  );
+
+  api.post(
+    '/plans/:planId/nodes/:nodeId/recommend',
+    { schema: { summary: 'Kit options for a node (antenna × mast height × feedline), cheapest meeting the target first; an honest answer when none does', tags, params: nodeParams, body: recommendBody.optional() } },
+    async (request) => {
+      const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
+      const ctx = await context(plan);
+      try {
+        const row = await engine.nodeRow(ctx, request.params.nodeId);
+        return await recommendForNode(engine, ctx, row, (request.body ?? {}) as RecommendRequest);
+      } catch (error) {
+        return asApiError(error);
+      }
+    },
+  );
+
+  api.post(
+    '/plans/:planId/recommend',
+    { schema: { summary: 'Kit recommendation for the whole fleet as a job; poll GET /plans/:planId/recommend/:jobId for progress and the result', tags, params: planParams, body: recommendBody.optional() } },
+    async (request, reply) => {
+      const principal = requireRole(request, 'planner');
+      const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
+      const ctx = await context(plan);
+      const body = (request.body ?? {}) as RecommendRequest;
+      const job = await createKitJob(db, plan.id, body, principal.userId, processId);
+      await recordAudit(db, { principal, action: 'create', entity: 'kit-recommendation', entityId: job.id, detail: { planId: plan.id } });
+      const work = runFleetRecommendation(engine, ctx, job.id, body).finally(() => running.delete(work));
+      running.add(work);
+      return reply.status(202).send({ id: job.id, status: 'running', progress: 0, poll: `/api/v1/plans/${plan.id}/recommend/${job.id}` });
+    },
+  );
+
+  api.get('/plans/:planId/recommend/:jobId', { schema: { summary: 'Progress and result of a fleet kit recommendation', tags, params: jobParams } }, async (request) => {
+    const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
+    let job = await findKitJob(db, plan.id, request.params.jobId);
+    if (!job) throw new ApiError(404, 'not_found', 'job not found');
+    // A run whose process is gone (restart) would never finish: say so instead of spinning.
+    if (job.status === 'running' && job.lockedBy !== processId && job.lockedAt && Date.now() - job.lockedAt.getTime() > 60_000) {
+      job = await updateKitJob(db, job.id, { status: 'failed', error: 'interrupted: the server restarted while it ran; start it again' });
+    }
+    return { id: job.id, status: job.status, progress: job.progress, error: job.error, createdAt: job.createdAt, finishedAt: job.finishedAt, result: job.summary };
+  });
+
+  api.get(
+    '/plans/:planId/nodes/:nodeId/visit-sheet',
+    { schema: { summary: "The installer's printable visit sheet (HTML; ?format=json for the same content as JSON)", tags, params: nodeParams, querystring: sheetQuery } },
+    async (request, reply) => {
+      const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
+      const ctx = await context(plan);
+      try {
+        const outcome = await engine.linksForNode(ctx, request.params.nodeId);
+        const recommendation = outcome.status === 'served' ? null : await recommendForNode(engine, ctx, outcome.node.row, {});
+        const sheet = visitSheet(ctx, outcome, recommendation);
+        if (request.query.format === 'json') return sheet;
+        return reply.type('text/html; charset=utf-8').send(visitSheetHtml(sheet));
+      } catch (error) {
+        return asApiError(error);
+      }
+    },
+  );
+
+  registerReadingRoutes(api, engine, context);
+}
+
+async function runFleetRecommendation(engine: LinkEngine, ctx: PlanContext, jobId: string, body: RecommendRequest): Promise<void> {
+  const db = engine.database;
+  try {
+    const catalog = await loadCatalog(db, ctx.teamId);
+    const outcomes = await engine.fleet(ctx);
+    const nodes: unknown[] = [];
+    const counts = { meetsTarget: 0, noOption: 0, alreadyServed: 0 };
+    let lastWrite = 0;
+    for (let i = 0; i < outcomes.length; i++) {
+      const outcome = outcomes[i];
+      const recommendation = await recommendForNode(engine, ctx, outcome.node.row, body, catalog);
+      if (recommendation.anyMeetsTarget) counts.meetsTarget++;
+      else counts.noOption++;
+      if (outcome.status === 'served') counts.alreadyServed++;
+      nodes.push({ nodeId: outcome.node.row.id, nodeName: outcome.node.row.name, status: outcome.status, anyMeetsTarget: recommendation.anyMeetsTarget, best: recommendation.options[0] ?? null, advice: recommendation.advice });
+      const progress = (i + 1) / outcomes.length;
+      if (Date.now() - lastWrite > 500 || i === outcomes.length - 1) {
+        lastWrite = Date.now();
+        await updateKitJob(db, jobId, { progress: Math.min(progress, 0.999) });
+      }
+    }
+    await updateKitJob(db, jobId, { status: 'done', progress: 1, summary: { counts, nodes } });
+  } catch (error) {
+    const message = error instanceof LinkInputError || error instanceof PlanSettingsError ? error.message : 'the recommendation failed; see the server log';
+    await updateKitJob(db, jobId, { status: 'failed', error: message }).catch(() => undefined);
+  }
+}
