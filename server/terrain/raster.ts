@@ -2,6 +2,7 @@
 // CRS, NoData and scale/offset, and windows of samples as Float32 (NaN for
 // NoData). A file is opened with geotiff's fromFile, so only the header and
 // the tiles/strips a window touches are ever read from disk.
+import { stat } from 'node:fs/promises';
 import { fromArrayBuffer, fromFile, type GeoTIFF, type GeoTIFFImage, type TypedArray } from 'geotiff';
 import { crsForEpsg, transformForCrs, UnsupportedCrsError, type CrsInfo, type CrsTransform } from './crs.ts';
 import type { GeoTransform } from './geotiff-writer.ts';
@@ -92,6 +93,10 @@ export interface GeoRaster {
   pixelToLonLat(x: number, y: number): { lon: number; lat: number };
   /** The WGS 84 ↔ CRS transform used by the two helpers above. */
   transform: CrsTransform;
+  /** Size of the file (or buffer) in bytes. */
+  fileBytes: number;
+  /** Checks that every tile/strip of every image lies inside the file (a truncated upload fails here); throws RasterError 'corrupt'. */
+  verifyBlockExtents(): Promise<void>;
   close(): Promise<void>;
 }
 
@@ -133,7 +138,9 @@ function ArrayLike(value: unknown): boolean {
 /** Opens a GeoTIFF from a path (read lazily from disk) or from bytes in memory and checks it is usable. */
 export async function openGeoRaster(source: string | ArrayBuffer): Promise<GeoRaster> {
   let tiff: GeoTIFF;
+  let fileBytes = 0;
   try {
+    fileBytes = typeof source === 'string' ? (await stat(source)).size : source.byteLength;
     tiff = typeof source === 'string' ? await fromFile(source) : await fromArrayBuffer(source);
   } catch (error) {
     const message = error instanceof Error ? error.message : String(error);
@@ -141,7 +148,7 @@ export async function openGeoRaster(source: string | ArrayBuffer): Promise<GeoRa
     throw new RasterError('not_tiff', `not a TIFF file (${message.split('\n')[0]})`);
   }
   try {
-    return await describe(tiff);
+    return await describe(tiff, fileBytes);
   } catch (error) {
     await closeQuietly(tiff);
     if (error instanceof RasterError) throw error;
@@ -160,7 +167,7 @@ async function closeQuietly(tiff: GeoTIFF): Promise<void> {
   }
 }
 
-async function describe(tiff: GeoTIFF): Promise<GeoRaster> {
+async function describe(tiff: GeoTIFF, fileBytes: number): Promise<GeoRaster> {
   const imageCount = await tiff.getImageCount();
   const image = await tiff.getImage(0);
   const directory = image.getFileDirectory();
@@ -281,7 +288,37 @@ async function describe(tiff: GeoTIFF): Promise<GeoRaster> {
     return { lon, lat };
   };
 
+  const verifyBlockExtents = async (): Promise<void> => {
+    const images = [image, ...overviewImages];
+    for (let level = 0; level < images.length; level++) {
+      const dir = images[level].getFileDirectory();
+      const tiledImage = dir.hasTag('TileOffsets');
+      let offsets: ArrayLike<number | bigint> | undefined;
+      let counts: ArrayLike<number | bigint> | undefined;
+      try {
+        offsets = (await dir.loadValue(tiledImage ? 'TileOffsets' : 'StripOffsets')) as ArrayLike<number | bigint> | undefined;
+        counts = (await dir.loadValue(tiledImage ? 'TileByteCounts' : 'StripByteCounts')) as ArrayLike<number | bigint> | undefined;
+      } catch (error) {
+        throw new RasterError('corrupt', `the ${tiledImage ? 'tile' : 'strip'} table of image ${level} cannot be read (${error instanceof Error ? error.message : String(error)})`);
+      }
+      if (!offsets || !counts || offsets.length !== counts.length) throw new RasterError('corrupt', `image ${level} has no consistent ${tiledImage ? 'tile' : 'strip'} offset/byte-count tables`);
+      const img = images[level];
+      const expected = tiledImage
+        ? Math.ceil(img.getWidth() / img.getTileWidth()) * Math.ceil(img.getHeight() / img.getTileHeight())
+        : Math.ceil(img.getHeight() / img.getTileHeight());
+      if (offsets.length < expected) throw new RasterError('corrupt', `image ${level} lists ${offsets.length} ${tiledImage ? 'tiles' : 'strips'}, its size needs ${expected}`);
+      for (let i = 0; i < offsets.length; i++) {
+        const end = Number(offsets[i]) + Number(counts[i]);
+        if (!(end <= fileBytes)) {
+          throw new RasterError('corrupt', `the file is truncated or corrupt: ${tiledImage ? 'tile' : 'strip'} ${i} of image ${level} ends at byte ${end}, the file has ${fileBytes}`);
+        }
+      }
+    }
+  };
+
   return {
+    fileBytes,
+    verifyBlockExtents,
     widthPx,
     heightPx,
     geoTransform: gt,
