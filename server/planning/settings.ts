@@ -42,6 +42,8 @@ export interface ResolvedLinkSettings {
   maxLinkRangeM: number;
   /** Profile step, m (null = the terrain's finest resolution under the path). */
   profileStepM: number | null;
+  /** Terrain sampling along the profile (bilinear default). */
+  profileInterpolation: 'bilinear' | 'nearest';
   /** Feedline length for a mast height: height + this drop to the radio box, m. */
   feedlineDropM: number;
   warnings: string[];
@@ -123,7 +125,8 @@ function uplinkSfsFor(plan: BandPlan, bandwidthKhz: number): Array<{ sf: number;
  * ('traditional'), pitExtraLossDb (15), pitSigmaDb (4), timePercent (50),
  * polarization ('vertical'), deltaN (45), n0 (325), zone ('inland'),
  * coastDistanceKm (500), locationWidthM (100), maxLinkRangeKm (50),
- * profileStepM (terrain resolution), feedlineDropM (1).
+ * profileStepM (terrain resolution), profileInterpolation ('bilinear'),
+ * feedlineDropM (1).
  */
 export function resolveLinkSettings(plan: PlanLinkColumns): ResolvedLinkSettings {
   const warnings: string[] = [];
@@ -179,6 +182,7 @@ export function resolveLinkSettings(plan: PlanLinkColumns): ResolvedLinkSettings
     path,
     maxLinkRangeM: num(s, 'maxLinkRangeKm', 50, 0.1, 500, warnings) * 1000,
     profileStepM,
+    profileInterpolation: pick(s, 'profileInterpolation', ['bilinear', 'nearest'] as const, 'bilinear', warnings),
     feedlineDropM: num(s, 'feedlineDropM', 1, 0, 100, warnings),
     warnings,
   };

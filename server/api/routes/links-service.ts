@@ -202,7 +202,7 @@ export class LinkEngine {
       gateways: [],
       terrain: store,
       terrainSignature: signature,
-      pathSettingsHash: hashOf({ v: LINK_ENGINE_VERSION, path: settings.path, terrain: signature, step: settings.profileStepM }),
+      pathSettingsHash: hashOf({ v: LINK_ENGINE_VERSION, path: settings.path, terrain: signature, step: settings.profileStepM, interpolation: settings.profileInterpolation }),
       radioSettingsHash: '',
       antennaCache: new Map(),
       feedlineCache: new Map(),
@@ -314,11 +314,11 @@ export class LinkEngine {
     const step = ctx.settings.profileStepM ?? undefined;
     let profile;
     try {
-      profile = await extractProfile(ctx.terrain, from, to, { stepM: step, maxPoints: 20_001 });
+      profile = await extractProfile(ctx.terrain, from, to, { stepM: step, interpolation: ctx.settings.profileInterpolation, maxPoints: 20_001 });
     } catch (error) {
       if (!(error instanceof RangeError)) throw error;
       const lengthM = bearingsBetween(from.lat, from.lon, to.lat, to.lon).distanceM;
-      profile = await extractProfile(ctx.terrain, from, to, { stepM: Math.max(lengthM / 20_000, step ?? 0), maxPoints: 20_001 });
+      profile = await extractProfile(ctx.terrain, from, to, { stepM: Math.max(lengthM / 20_000, step ?? 0), interpolation: ctx.settings.profileInterpolation, maxPoints: 20_001 });
     }
     let distanceM = profile.distanceM;
     let groundM = profile.groundM;
