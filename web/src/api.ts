@@ -298,42 +298,85 @@ export interface Link {
   [key: string]: unknown;
 }
 export interface NodeLinks {
+  nodeId: string;
+  /** Best first (highest delivery probability, then margin). */
   links: Link[];
   combinedDeliveryProbability: number;
   status: LinkStatus;
-  bestGatewayId?: string | null;
-  bestMarginDb?: number | null;
-  [key: string]: unknown;
+  bestGatewayId: string | null;
+  target: { targetMarginDb: number; targetDelivery: number };
+  assumptions?: { method?: string; frequencyMhz?: number; locationSigmaDb?: number; combination?: string; [key: string]: unknown };
+  kit?: { antennaDesignId: string; antennaHeightAglM: number; feedlineId: string | null; feedlineLengthM: number };
+  outOfRange?: Array<{ gatewayId: string; distanceM: number }>;
+  preview?: boolean;
+  warnings?: string[];
 }
-export const getNodeLinks = (planId: string, nodeId: string): Promise<NodeLinks> =>
-  request<NodeLinks>('GET', `/plans/${planId}/nodes/${nodeId}/links`);
+/** Kit fields GET .../links accepts to preview another kit without saving it. */
+export interface KitPreview {
+  antennaDesignId?: string;
+  antennaHeightAglM?: number;
+  /** '' or 'none' = no feedline. */
+  feedlineId?: string;
+  feedlineLengthM?: number;
+}
+export function getNodeLinks(planId: string, nodeId: string, preview?: KitPreview): Promise<NodeLinks> {
+  const q = new URLSearchParams();
+  for (const [key, value] of Object.entries(preview ?? {})) if (value !== undefined) q.set(key, String(value));
+  const query = q.toString();
+  return request<NodeLinks>('GET', `/plans/${planId}/nodes/${nodeId}/links${query ? `?${query}` : ''}`);
+}
 
 export interface ProfilePoint {
   distanceM: number;
-  groundM: number | null;
-  clutterTopM?: number | null;
-  [key: string]: unknown;
+  lat: number | null;
+  lon: number | null;
+  groundM: number;
+  /** Ground + clutter height, m. */
+  clutterTopM: number;
+  /** Straight ray node → gateway on the chart's flat baseline, m. */
+  rayM: number;
+  fresnelUpperM: number;
+  fresnelLowerM: number;
+  /** Ground + clutter + earth bulge: the surface the ray must clear, m. */
+  obstacleM: number;
+}
+export interface Range {
+  p10: number;
+  p50: number;
+  p90: number;
+}
+export interface LinkProfile {
+  gatewayId: string;
+  lineOfSight: boolean;
+  worstClearanceRatio: number | null;
+  worstClearanceAtM: number | null;
+  kFactor: number;
+  points: ProfilePoint[];
+  obstructions: Array<{ distanceM: number; obstacleM: number; clearanceM: number; clearanceRatio: number }>;
+  expected: { rssiDbm: Range; snrDb: Range; sigmaDb: number; sf: number; note: string };
 }
 export interface KitChoice {
   antennaDesignId?: string | null;
+  antennaHeightAglM?: number;
   mastHeightM?: number;
   feedlineId?: string | null;
   feedlineLengthM?: number;
   cost?: number;
-  [key: string]: unknown;
 }
 export interface LinkCheck {
-  gatewayId?: string;
-  profile?: ProfilePoint[];
-  points?: ProfilePoint[];
-  ray?: Array<{ distanceM: number; heightM: number }> | { fromM: number; toM: number };
-  fresnel?: Array<{ distanceM: number; lowerM: number; upperM: number }>;
-  obstructions?: Array<{ distanceM: number; heightM?: number; groundM?: number; clearanceM?: number }>;
-  expected?: { rssiDbm?: { p10: number; p90: number }; snrDb?: { p10: number; p90: number } };
-  currentKit?: KitChoice;
-  recommendedKit?: KitChoice | null;
-  cautions?: string[];
-  [key: string]: unknown;
+  nodeId: string;
+  status: LinkStatus;
+  combinedDeliveryProbability: number;
+  gatewayId: string | null;
+  gatewayName: string | null;
+  link: Link | null;
+  /** null when no gateway is in range. */
+  profile: LinkProfile | null;
+  currentKit: KitChoice;
+  recommendedKit: (KitChoice & { meetsTarget?: boolean; reason?: string }) | null;
+  recommendation?: { anyMeetsTarget: boolean; advice: string[] };
+  cautions: string[];
+  warnings: string[];
 }
 export const getLinkCheck = (planId: string, nodeId: string): Promise<LinkCheck> =>
   request<LinkCheck>('GET', `/plans/${planId}/nodes/${nodeId}/check`);
@@ -376,8 +419,42 @@ export const recommend = (planId: string, nodeId: string, body: RecommendRequest
   request<Recommendation>('POST', `/plans/${planId}/nodes/${nodeId}/recommend`, body);
 
 export const visitSheetUrl = (planId: string, nodeId: string): string => `${base}/plans/${planId}/nodes/${nodeId}/visit-sheet`;
-export const getVisitSheet = (planId: string, nodeId: string): Promise<Record<string, unknown>> =>
-  request<Record<string, unknown>>('GET', `/plans/${planId}/nodes/${nodeId}/visit-sheet?format=json`);
+export interface BuildSheet {
+  design: string;
+  designName: string;
+  frequencyMhz: number;
+  wavelengthMm: number;
+  elements: Array<{ name: string; count: number; lengthMm: number; lengthIn: number; note?: string }>;
+  notes: string[];
+  cautions: string[];
+  feedImpedanceOhm?: number;
+  estimatedVswr?: number;
+  radialCount?: number;
+  droopDeg?: number;
+  sources: string[];
+}
+export interface VisitSheet {
+  title: string;
+  generatedAt: string;
+  plan: { id: string; name: string; bandPlan: string; frequencyMhz: number };
+  node: { id: string; name: string; deviceType: string; lat: number; lon: number; environment: string; installStatus: string; accessNotes: string };
+  status: LinkStatus;
+  combinedDeliveryProbability: number;
+  kit: {
+    antenna: { id: string; name: string; homemade: boolean; gainDbi: number };
+    feedline: { id: string; name: string; lengthM: number } | null;
+    antennaHeightAglM: number;
+    mastOptionId: string | null;
+    meetsTarget: boolean;
+    recommended: { antennaDesignId: string; mastHeightM: number; feedlineId: string | null; feedlineLengthM: number; cost: number; reason: string } | null;
+  };
+  buildSheet: BuildSheet | null;
+  gateways: Array<{ id: string; name: string; distanceM: number; aimAzimuthDeg: number; elevationDeg: number; sf: number; expectedRssiDbm: Range; expectedSnrDb: Range; marginDb: number }>;
+  cautions: string[];
+  warnings: string[];
+}
+export const getVisitSheet = (planId: string, nodeId: string): Promise<VisitSheet> =>
+  request<VisitSheet>('GET', `/plans/${planId}/nodes/${nodeId}/visit-sheet?format=json`);
 
 export interface ReadingInput {
   nodeId: string;
@@ -392,25 +469,34 @@ export interface ReadingInput {
 }
 export interface Reading extends ReadingInput {
   id: string;
-  predictedRssiDbm?: number | null;
-  differenceDb?: number | null;
-  [key: string]: unknown;
+  predictedRssiDbm: number | null;
+  predictedSnrDb: number | null;
+  /** measured − predicted, dB */
+  rssiDifferenceDb: number | null;
+  snrDifferenceDb: number | null;
 }
-export const postReading = (planId: string, body: ReadingInput): Promise<Reading> =>
-  request<Reading>('POST', `/plans/${planId}/readings`, body);
+export const postReading = (planId: string, body: ReadingInput): Promise<{ items: Reading[] }> =>
+  request<{ items: Reading[] }>('POST', `/plans/${planId}/readings`, body);
+export const getNodeReadings = (planId: string, nodeId: string): Promise<{ items: Reading[]; total: number; meanRssiDifferenceDb: number | null }> =>
+  request('GET', `/plans/${planId}/nodes/${nodeId}/readings`);
 
 export interface FleetRow {
   nodeId: string;
-  nodeName?: string;
+  nodeName: string;
+  lat: number;
+  lon: number;
   status: LinkStatus;
-  bestGatewayId?: string | null;
-  marginDb?: number | null;
-  rssiDbm?: number | null;
-  snrDb?: number | null;
-  bestSf?: number | null;
-  combinedDeliveryProbability?: number | null;
-  gatewaysWithMargin?: number;
-  [key: string]: unknown;
+  combinedDeliveryProbability: number;
+  bestGatewayId: string | null;
+  bestGatewayName: string | null;
+  bestMarginDb: number | null;
+  bestSf: number | null;
+  timeOnAirMs: number | null;
+  /** Gateways that hear the node with margin ≥ 0 dB. */
+  gatewaysHeard: number;
+  /** Every link within the band plan's power limit. */
+  legal: boolean;
+  warnings: string[];
 }
 export interface FleetTable extends ListPage<FleetRow> {
   counts?: Partial<Record<LinkStatus, number>>;

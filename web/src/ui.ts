@@ -160,13 +160,14 @@ export const safetyCautions = [
   'Local codes and permits: mast height, roof work and radio power limits are set by local building codes and the radio regulator; follow them and licensed practice.',
 ];
 
-export function cautionsBlock(extra: string[] = []): HTMLElement {
-  const all = [...safetyCautions, ...extra.filter((c) => !safetyCautions.includes(c))];
+/** The server's cautions for this plan's band when given; else the general list above. */
+export function cautionsBlock(fromServer: readonly string[] = []): HTMLElement {
+  const list = fromServer.length > 0 ? fromServer : safetyCautions;
   return h(
     'section',
     { class: 'cautions', 'aria-label': 'Safety cautions' },
     h('h3', {}, '⚠ Safety before mast work'),
-    h('ul', {}, ...all.map((c) => h('li', {}, c))),
+    h('ul', {}, ...list.map((c) => h('li', {}, c))),
   );
 }
 

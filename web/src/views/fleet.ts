@@ -3,7 +3,7 @@
 import type { Route } from '../router.ts';
 import { planHash } from '../router.ts';
 import { PlanStore } from '../plan-store.ts';
-import { clear, db, dbm, h, metres, notice, percent } from '../ui.ts';
+import { clear, db, fmt, h, metres, notice, percent } from '../ui.ts';
 import { nodeSymbolSvg, statusStyle, symbolElement, type NodeClass } from '../symbols.ts';
 
 interface Row {
@@ -12,11 +12,11 @@ interface Row {
   status: NodeClass;
   gateway: string;
   marginDb: number | null;
-  rssiDbm: number | null;
-  snrDb: number | null;
   bestSf: number | null;
+  toaMs: number | null;
   delivery: number | null;
   heard: number | null;
+  legal: string;
   device: string;
   heightM: number | null;
 }
@@ -29,11 +29,11 @@ const columns: Array<{ key: Key; label: string; numeric?: boolean }> = [
   { key: 'status', label: 'Status' },
   { key: 'gateway', label: 'Best gateway' },
   { key: 'marginDb', label: 'Margin (dB)', numeric: true },
-  { key: 'rssiDbm', label: 'RSSI (dBm)', numeric: true },
-  { key: 'snrDb', label: 'SNR (dB)', numeric: true },
   { key: 'bestSf', label: 'Best SF', numeric: true },
+  { key: 'toaMs', label: 'Time on air (ms)', numeric: true },
   { key: 'delivery', label: 'Delivery', numeric: true },
-  { key: 'heard', label: 'Gateways with margin', numeric: true },
+  { key: 'heard', label: 'Gateways heard (margin ≥ 0 dB)', numeric: true },
+  { key: 'legal', label: 'Power legal' },
   { key: 'device', label: 'Device' },
   { key: 'heightM', label: 'Antenna height (m)', numeric: true },
 ];
@@ -49,18 +49,18 @@ export async function renderFleet(main: HTMLElement, route: Route): Promise<void
 
   const rows: Row[] = store.nodes.map((n) => {
     const f = store.fleet.get(n.id);
-    const gw = f?.bestGatewayId ? store.gateways.find((g) => g.id === f.bestGatewayId)?.name ?? f.bestGatewayId : '';
+    const gw = f?.bestGatewayName ?? f?.bestGatewayId ?? '';
     return {
       id: n.id,
       name: n.name,
       status: f?.status ?? 'unknown',
       gateway: gw ?? '',
-      marginDb: num(f?.marginDb),
-      rssiDbm: num(f?.rssiDbm),
-      snrDb: num(f?.snrDb),
+      marginDb: num(f?.bestMarginDb),
       bestSf: num(f?.bestSf),
+      toaMs: num(f?.timeOnAirMs),
       delivery: num(f?.combinedDeliveryProbability),
-      heard: num(f?.gatewaysWithMargin),
+      heard: num(f?.gatewaysHeard),
+      legal: f ? (f.legal ? 'yes' : 'NO') : '–',
       device: n.deviceType,
       heightM: num(n.antennaHeightAglM),
     };
@@ -153,11 +153,11 @@ export async function renderFleet(main: HTMLElement, route: Route): Promise<void
           h('td', {}, symbolElement(nodeSymbolSvg(r.status, 14), ''), ` ${r.status === 'unknown' ? 'not predicted' : r.status}`),
           h('td', {}, r.gateway || '–'),
           h('td', { class: r.marginDb !== null && r.marginDb < 0 ? 'num neg' : 'num' }, db(r.marginDb)),
-          h('td', { class: 'num' }, dbm(r.rssiDbm)),
-          h('td', { class: 'num' }, db(r.snrDb)),
           h('td', { class: 'num' }, r.bestSf ? `SF${r.bestSf}` : '–'),
+          h('td', { class: 'num' }, fmt(r.toaMs, 'ms', 0)),
           h('td', { class: 'num' }, percent(r.delivery)),
           h('td', { class: 'num' }, r.heard === null ? '–' : String(r.heard)),
+          h('td', {}, r.legal),
           h('td', {}, r.device),
           h('td', { class: 'num' }, metres(r.heightM)),
           h('td', {}, h('a', { href: planHash(planId, `?node=${encodeURIComponent(r.id)}`), 'aria-label': `Show ${r.name} on the map` }, 'Show on map')),

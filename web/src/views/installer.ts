@@ -2,21 +2,12 @@
 // (coordinates), what to bring and how high to mount it (visit sheet), what
 // the gateway should hear, the safety cautions, and a form to record the
 // RSSI/SNR actually measured (shown beside the prediction).
-import {
-  getLinkCheck,
-  getNodeLinks,
-  getVisitSheet,
-  postReading,
-  visitSheetUrl,
-  type FleetNode,
-  type LinkCheck,
-  type NodeLinks,
-} from '../api.ts';
+import { getVisitSheet, postReading, visitSheetUrl, type FleetNode, type VisitSheet } from '../api.ts';
 import { explainWriteError, PlanStore } from '../plan-store.ts';
 import type { Route } from '../router.ts';
 import { planHash } from '../router.ts';
 import { canRecordReadings } from '../session.ts';
-import { announce, cautionsBlock, coords, db, dbm, errorText, field, h, notice, percent, select } from '../ui.ts';
+import { announce, cautionsBlock, coords, db, dbm, distance, errorText, field, h, metres, notice, percent, select } from '../ui.ts';
 import { nodeSymbolSvg, statusStyle, symbolElement } from '../symbols.ts';
 import { kitLabel } from './node-panel.ts';
 
@@ -64,69 +55,118 @@ function renderNodeChooser(main: HTMLElement, store: PlanStore): void {
 
 async function renderNodeVisit(main: HTMLElement, store: PlanStore, node: FleetNode): Promise<void> {
   const status = store.fleet.get(node.id)?.status ?? 'unknown';
-  const [linksR, checkR, sheetR] = await Promise.allSettled([getNodeLinks(store.planId, node.id), getLinkCheck(store.planId, node.id), getVisitSheet(store.planId, node.id)]);
-  const links: NodeLinks | null = linksR.status === 'fulfilled' ? linksR.value : null;
-  const check: LinkCheck | null = checkR.status === 'fulfilled' ? checkR.value : null;
-  const sheet = sheetR.status === 'fulfilled' ? sheetR.value : null;
+  let sheet: VisitSheet | null = null;
+  let sheetProblem = '';
+  try {
+    sheet = await getVisitSheet(store.planId, node.id);
+  } catch (err) {
+    sheetProblem = errorText(err);
+  }
 
   main.append(
     h('p', {}, h('a', { href: planHash(store.planId, '/install') }, '← all nodes')),
     h('h1', {}, symbolElement(nodeSymbolSvg(status, 20), ''), ` ${node.name}`),
-    h('p', { class: `status-line status-${status}` }, statusStyle[status].label, links ? ` · delivery ${percent(links.combinedDeliveryProbability)}` : ''),
+    h('p', { class: `status-line status-${status}` }, statusStyle[status].label, sheet ? ` · delivery ${percent(sheet.combinedDeliveryProbability)}` : ''),
+    h('p', { class: 'muted small' }, `${node.deviceType} · ${node.environment ?? 'outdoor'} · install status: ${node.installStatus ?? 'planned'}`),
   );
 
   // where
-  const coordText = coords(node.lat, node.lon);
   const copy = h('button', { type: 'button', onclick: () => void navigator.clipboard?.writeText(`${node.lat.toFixed(6)}, ${node.lon.toFixed(6)}`).then(() => announce('Coordinates copied')) }, 'Copy coordinates');
   main.append(
     h(
       'section',
       { class: 'card', 'aria-labelledby': 'where-h' },
       h('h2', { id: 'where-h' }, 'Where'),
-      h('p', { class: 'big-coords', id: 'install-coords' }, coordText),
+      h('p', { class: 'big-coords', id: 'install-coords' }, coords(node.lat, node.lon)),
       h('p', { class: 'muted small' }, `Decimal: ${node.lat.toFixed(6)}, ${node.lon.toFixed(6)} (WGS84)`),
       h('div', { class: 'button-row' }, copy, h('a', { class: 'button', href: `geo:${node.lat.toFixed(6)},${node.lon.toFixed(6)}` }, 'Open in a maps app')),
       node.notes ? h('p', {}, h('strong', {}, 'Access notes: '), node.notes) : null,
     ),
   );
 
-  // what to bring
-  const kitSection = h('section', { class: 'card', 'aria-labelledby': 'kit-h' }, h('h2', { id: 'kit-h' }, 'Kit and mounting'), h('p', {}, kitLabel(store, node)));
-  const rec = check?.recommendedKit;
-  if (rec && (rec.antennaDesignId !== node.antennaDesignId || rec.mastHeightM !== node.antennaHeightAglM)) {
-    kitSection.append(notice('info', `Recommended instead: ${kitLabel(store, rec)}`));
+  if (!sheet) {
+    main.append(notice('info', `Visit sheet: ${sheetProblem}.`), cautionsBlock());
+  } else {
+    renderSheet(main, store, sheet);
   }
-  main.append(kitSection);
+  main.append(h('p', {}, h('a', { href: visitSheetUrl(store.planId, node.id), target: '_blank', rel: 'noopener', id: 'visit-sheet-link' }, 'Open the printable visit sheet')));
+  renderReadingForm(main, store, node, sheet);
+}
 
-  // expected readings
-  const exp = h('section', { class: 'card', 'aria-labelledby': 'exp-h' }, h('h2', { id: 'exp-h' }, 'What the gateway should hear'));
-  if (links && links.links.length > 0) {
-    const best = [...links.links].sort((a, b) => b.marginDb - a.marginDb)[0];
-    const gw = store.gateways.find((g) => g.id === best.gatewayId)?.name ?? best.gatewayId;
-    exp.append(
-      h('p', {}, `Best gateway: ${gw}. Predicted RSSI ${dbm(best.rssiDbm)}, SNR ${db(best.snrDb)}, margin ${db(best.marginDb)}${best.bestSf ? ` at SF${best.bestSf}` : ''}.`),
+function renderSheet(main: HTMLElement, store: PlanStore, sheet: VisitSheet): void {
+  const k = sheet.kit;
+  const kit = h(
+    'section',
+    { class: 'card', 'aria-labelledby': 'kit-h' },
+    h('h2', { id: 'kit-h' }, 'What to bring and how high'),
+    h(
+      'dl',
+      { class: 'facts' },
+      h('dt', {}, 'Antenna'),
+      h('dd', {}, `${k.antenna.name}${k.antenna.homemade ? ' (home-made: build sheet below)' : ''}`),
+      h('dt', {}, 'Mount at'),
+      h('dd', { id: 'install-height' }, `${metres(k.antennaHeightAglM)} above ground`),
+      h('dt', {}, 'Feedline'),
+      h('dd', {}, k.feedline ? `${k.feedline.name}, ${metres(k.feedline.lengthM)}` : 'none (radio at the antenna)'),
+    ),
+  );
+  if (k.recommended) {
+    kit.append(
+      notice(
+        'warn',
+        `This kit does not meet the target. Recommended instead: ${kitLabel(store, { antennaDesignId: k.recommended.antennaDesignId, mastHeightM: k.recommended.mastHeightM, feedlineId: k.recommended.feedlineId, feedlineLengthM: k.recommended.feedlineLengthM })} (${k.recommended.cost.toFixed(2)} USD). ${k.recommended.reason}`,
+      ),
     );
   }
-  if (check?.expected?.rssiDbm) {
-    exp.append(h('p', {}, `Likely range (10th–90th percentile): RSSI ${check.expected.rssiDbm.p10.toFixed(1)} to ${check.expected.rssiDbm.p90.toFixed(1)} dBm${check.expected.snrDb ? `, SNR ${check.expected.snrDb.p10.toFixed(1)} to ${check.expected.snrDb.p90.toFixed(1)} dB` : ''}.`));
+  main.append(kit);
+
+  const gw = h('section', { class: 'card', 'aria-labelledby': 'exp-h' }, h('h2', { id: 'exp-h' }, 'What the gateways should hear'));
+  if (sheet.gateways.length === 0) gw.append(notice('warn', 'No gateway is within range of this node.'));
+  for (const g of sheet.gateways) {
+    gw.append(
+      h('h3', {}, g.name),
+      h(
+        'dl',
+        { class: 'facts' },
+        h('dt', {}, 'Distance'),
+        h('dd', {}, distance(g.distanceM)),
+        h('dt', {}, 'Aim antenna'),
+        h('dd', {}, `${g.aimAzimuthDeg.toFixed(0)}° from true north, ${g.elevationDeg.toFixed(1)}° elevation`),
+        h('dt', {}, 'RSSI'),
+        h('dd', {}, `${g.expectedRssiDbm.p10.toFixed(1)} to ${g.expectedRssiDbm.p90.toFixed(1)} dBm (median ${g.expectedRssiDbm.p50.toFixed(1)})`),
+        h('dt', {}, 'SNR'),
+        h('dd', {}, `${g.expectedSnrDb.p10.toFixed(1)} to ${g.expectedSnrDb.p90.toFixed(1)} dB at SF${g.sf}`),
+        h('dt', {}, 'Margin'),
+        h('dd', {}, db(g.marginDb)),
+      ),
+    );
   }
-  if (!links) exp.append(notice('info', `Predictions: ${linksR.status === 'rejected' ? errorText(linksR.reason) : 'none'}.`));
-  main.append(exp);
+  gw.append(h('p', { class: 'muted small' }, 'Ranges are the 10th to 90th percentile of the prediction.'));
+  main.append(gw);
 
-  // visit sheet
-  const sheetBox = h(
-    'section',
-    { class: 'card', 'aria-labelledby': 'sheet-h' },
-    h('h2', { id: 'sheet-h' }, 'Visit sheet'),
-    h('p', {}, h('a', { href: visitSheetUrl(store.planId, node.id), target: '_blank', rel: 'noopener', id: 'visit-sheet-link' }, 'Open the printable visit sheet')),
-  );
-  if (sheet) sheetBox.append(renderSheet(sheet));
-  else sheetBox.append(notice('info', `Visit sheet: ${sheetR.status === 'rejected' ? errorText(sheetR.reason) : 'empty'}.`));
-  main.append(sheetBox);
+  if (sheet.buildSheet) {
+    const b = sheet.buildSheet;
+    main.append(
+      h(
+        'section',
+        { class: 'card', 'aria-labelledby': 'build-h' },
+        h('h2', { id: 'build-h' }, `Build sheet: ${b.designName} at ${b.frequencyMhz.toFixed(1)} MHz`),
+        h(
+          'table',
+          { class: 'data-table compact' },
+          h('thead', {}, h('tr', {}, h('th', { scope: 'col' }, 'Element'), h('th', { scope: 'col' }, 'Count'), h('th', { scope: 'col' }, 'Length'))),
+          h('tbody', {}, ...b.elements.map((e) => h('tr', {}, h('td', {}, e.name, e.note ? h('span', { class: 'muted small' }, ` (${e.note})`) : ''), h('td', { class: 'num' }, String(e.count)), h('td', { class: 'num' }, `${e.lengthMm.toFixed(1)} mm (${e.lengthIn.toFixed(2)} in)`)))),
+        ),
+        h('ul', {}, ...b.notes.map((n) => h('li', {}, n))),
+        b.cautions.length ? notice('warn', b.cautions.join(' ')) : '',
+      ),
+    );
+  }
+  if (sheet.warnings.length) main.append(notice('info', sheet.warnings.join(' ')));
+  main.append(cautionsBlock(sheet.cautions));
+}
 
-  main.append(cautionsBlock(check?.cautions ?? []));
-
-  // record a reading
+function renderReadingForm(main: HTMLElement, store: PlanStore, node: FleetNode, sheet: VisitSheet | null): void {
   const form = h('form', { class: 'card reading-form', id: 'reading-form', 'aria-labelledby': 'reading-h' });
   form.append(h('h2', { id: 'reading-h' }, 'Record what you measured'));
   if (!canRecordReadings()) {
@@ -136,14 +176,14 @@ async function renderNodeVisit(main: HTMLElement, store: PlanStore, node: FleetN
   }
   const gateway = select(
     store.gateways.map((g) => ({ value: g.id, label: g.name })),
-    links?.links.length ? [...links.links].sort((a, b) => b.marginDb - a.marginDb)[0].gatewayId : store.gateways[0]?.id,
+    sheet?.gateways[0]?.id ?? store.gateways[0]?.id,
     { id: 'reading-gateway', required: true },
   );
-  const rssi = h('input', { id: 'reading-rssi', type: 'number', step: '0.1', min: '-160', max: '10', required: true, inputmode: 'decimal' });
+  const rssi = h('input', { id: 'reading-rssi', type: 'number', step: '0.1', min: '-200', max: '30', required: true, inputmode: 'decimal' });
   const snr = h('input', { id: 'reading-snr', type: 'number', step: '0.1', min: '-40', max: '40', required: true, inputmode: 'decimal' });
   const sf = select(
     [7, 8, 9, 10, 11, 12].map((v) => ({ value: String(v), label: `SF${v}` })),
-    String(links?.links.find((l) => l.gatewayId === gateway.value)?.bestSf ?? 10),
+    String(sheet?.gateways.find((g) => g.id === gateway.value)?.sf ?? 10),
     { id: 'reading-sf' },
   );
   const when = h('input', { id: 'reading-time', type: 'datetime-local', required: true });
@@ -165,7 +205,7 @@ async function renderNodeVisit(main: HTMLElement, store: PlanStore, node: FleetN
     event.preventDefault();
     const rssiDbm = Number(rssi.value);
     const snrDb = Number(snr.value);
-    if (!Number.isFinite(rssiDbm) || !Number.isFinite(snrDb) || rssi.value === '' || snr.value === '') {
+    if (rssi.value === '' || snr.value === '' || !Number.isFinite(rssiDbm) || !Number.isFinite(snrDb)) {
       out.replaceChildren(notice('error', 'Enter RSSI in dBm and SNR in dB as numbers.'));
       return;
     }
@@ -179,20 +219,13 @@ async function renderNodeVisit(main: HTMLElement, store: PlanStore, node: FleetN
       measuredAt: new Date(when.value).toISOString(),
       note: note.value || undefined,
     })
-      .then((saved) => {
-        const predicted = typeof saved.predictedRssiDbm === 'number' ? saved.predictedRssiDbm : links?.links.find((l) => l.gatewayId === gateway.value)?.rssiDbm;
-        const diff = typeof saved.differenceDb === 'number' ? saved.differenceDb : typeof predicted === 'number' ? rssiDbm - predicted : null;
-        out.replaceChildren(
-          notice(
-            'ok',
-            h(
-              'span',
-              { id: 'reading-saved' },
-              `Reading saved: RSSI ${dbm(rssiDbm)}, SNR ${db(snrDb)}.`,
-              typeof predicted === 'number' ? ` Predicted ${dbm(predicted)}; measured minus predicted ${db(diff)}.` : '',
-            ),
-          ),
-        );
+      .then(({ items }) => {
+        const saved = items[0];
+        const compare =
+          saved && saved.predictedRssiDbm !== null
+            ? ` Predicted RSSI ${dbm(saved.predictedRssiDbm)}, SNR ${db(saved.predictedSnrDb)}; measured − predicted: ${db(saved.rssiDifferenceDb)} RSSI, ${db(saved.snrDifferenceDb)} SNR.`
+            : ' No prediction to compare with.';
+        out.replaceChildren(notice('ok', h('span', { id: 'reading-saved' }, `Reading saved: RSSI ${dbm(rssiDbm)}, SNR ${db(snrDb)} at SF${sf.value}.`, compare)));
         announce('Reading saved');
         rssi.value = '';
         snr.value = '';
@@ -200,29 +233,4 @@ async function renderNodeVisit(main: HTMLElement, store: PlanStore, node: FleetN
       .catch((err: unknown) => out.replaceChildren(notice('error', explainWriteError(err, store, 'the reading'))));
   });
   main.append(form);
-}
-
-function humanise(key: string): string {
-  return key
-    .replace(/([a-z])([A-Z])/g, '$1 $2')
-    .replace(/Dbm\b/, '(dBm)')
-    .replace(/Db\b/, '(dB)')
-    .replace(/\bM\b$/, '(m)')
-    .replace(/^./, (c) => c.toUpperCase());
-}
-
-/** Renders the visit sheet's JSON generically: sections for objects, lists for arrays. */
-function renderSheet(value: unknown, depth = 0): HTMLElement {
-  if (Array.isArray(value)) {
-    return h('ul', {}, ...value.map((v) => h('li', {}, typeof v === 'object' && v !== null ? renderSheet(v, depth + 1) : String(v))));
-  }
-  if (typeof value === 'object' && value !== null) {
-    const dl = h('dl', { class: 'facts sheet' });
-    for (const [k, v] of Object.entries(value as Record<string, unknown>)) {
-      if (v === null || v === undefined || k === 'id' || k.endsWith('Id')) continue;
-      dl.append(h('dt', {}, humanise(k)), h('dd', {}, typeof v === 'object' ? renderSheet(v, depth + 1) : typeof v === 'number' ? String(Number(v.toFixed(3))) : String(v)));
-    }
-    return dl;
-  }
-  return h('span', {}, String(value));
 }

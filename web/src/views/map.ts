@@ -192,7 +192,9 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
       title = `Candidate site ${entity.name}`;
     }
     const icon = L.divIcon({ html, className: `marker marker-${kind}`, iconSize: size, iconAnchor: [size[0] / 2, size[1] / 2] });
-    const marker = L.marker([entity.lat, entity.lon], { icon, title, alt: title, keyboard: true, draggable, riseOnHover: true, autoPan: true });
+    // Gateways above nodes above sites (a gateway usually stands on a site).
+    const zIndexOffset = kind === 'gateways' ? 2000 : kind === 'nodes' ? 1000 : 0;
+    const marker = L.marker([entity.lat, entity.lon], { icon, title, alt: title, keyboard: true, draggable, riseOnHover: true, autoPan: true, zIndexOffset });
     marker.on('click', () => select(kind, entity.id, false));
     marker.on('dragend', () => {
       const to = marker.getLatLng();

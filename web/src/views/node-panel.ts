@@ -9,11 +9,11 @@ import {
   recommend,
   visitSheetUrl,
   type FleetNode,
+  type KitPreview,
   type LinkCheck,
+  type MastOption,
   type NodeLinks,
-  type RecommendOption,
   type Recommendation,
-  type RecommendRequest,
 } from '../api.ts';
 import { explainWriteError, type PlanStore } from '../plan-store.ts';
 import { planHash } from '../router.ts';
@@ -75,7 +75,8 @@ export async function renderNodePanel(panel: HTMLElement, store: PlanStore, node
   const profileBox = h('section', { class: 'subpanel', 'aria-labelledby': 'profile-h' }, h('h3', { id: 'profile-h' }, 'Path profile (best link)'), h('p', { class: 'muted' }, 'Loading…'));
   const kitBox = h('section', { class: 'subpanel', 'aria-labelledby': 'kit-h' });
   const recBox = h('section', { class: 'subpanel', 'aria-labelledby': 'rec-h' }, h('h3', { id: 'rec-h' }, 'Recommended kit'), h('p', { class: 'muted' }, 'Searching the catalog…'));
-  panel.append(linksBox, profileBox, kitBox, recBox, cautionsBlock());
+  const cautionsBox = h('div', {}, cautionsBlock());
+  panel.append(linksBox, profileBox, kitBox, recBox, cautionsBox);
 
   renderKitChooser(kitBox, store, node);
   // The three requests run side by side; each fills its own box when it answers.
@@ -88,7 +89,10 @@ export async function renderNodePanel(panel: HTMLElement, store: PlanStore, node
       },
     ),
     getLinkCheck(store.planId, node.id).then(
-      (check) => renderProfile(profileBox, check),
+      (check) => {
+        renderProfile(profileBox, check);
+        cautionsBox.replaceChildren(cautionsBlock(check.cautions));
+      },
       (err: unknown) => {
         clear(profileBox);
         profileBox.append(h('h3', { id: 'profile-h' }, 'Path profile (best link)'), notAvailable(err, 'The link check'));
@@ -159,35 +163,47 @@ function renderLinks(box: HTMLElement, store: PlanStore, links: NodeLinks): void
 
 function renderProfile(box: HTMLElement, check: LinkCheck): void {
   clear(box);
-  box.append(h('h3', { id: 'profile-h' }, 'Path profile (best link)'));
-  const series = profileSeries(check);
-  if (!series) {
-    box.append(notice('info', 'No terrain profile for this link (no terrain under the path).'));
+  box.append(h('h3', { id: 'profile-h' }, `Path profile to ${check.gatewayName ?? 'the best gateway'}`));
+  const profile = check.profile;
+  const series = profileSeries(profile);
+  if (!profile || !series) {
+    box.append(notice('info', check.gatewayId ? 'No terrain profile for this link.' : 'No gateway is within range of this node, so there is no path to draw.'));
+    return;
+  }
+  const wrap = h('figure', { class: 'chart' });
+  wrap.append(profileChart(series, `Terrain profile from the node to ${check.gatewayName ?? 'its best gateway'}`), profileKey());
+  box.append(wrap);
+  const clearance =
+    profile.worstClearanceRatio === null
+      ? ''
+      : ` Worst clearance: ${(profile.worstClearanceRatio * 100).toFixed(0)} % of the first Fresnel zone radius${profile.worstClearanceAtM !== null ? ` at ${distance(profile.worstClearanceAtM)}` : ''} (k = ${profile.kFactor.toFixed(2)}).`;
+  if (series.obstructions.length > 0) {
+    box.append(notice('warn', `${series.obstructions.length} point(s) of terrain or clutter enter the first Fresnel zone${profile.lineOfSight ? '' : ' and block the line of sight'}: expect diffraction loss.${clearance}`));
   } else {
-    const wrap = h('figure', { class: 'chart' });
-    wrap.append(profileChart(series, 'Terrain profile from the node to its best gateway'), profileKey());
-    box.append(wrap);
-    if (series.obstructions.length > 0) box.append(notice('warn', `${series.obstructions.length} point(s) of terrain or clutter enter the first Fresnel zone: expect diffraction loss.`));
-    else box.append(h('p', { class: 'muted' }, 'The first Fresnel zone is clear of terrain and clutter.'));
+    box.append(h('p', { class: 'muted' }, `The first Fresnel zone is clear of terrain and clutter.${clearance}`));
   }
-  const ex = check.expected;
-  if (ex?.rssiDbm || ex?.snrDb) {
-    box.append(
-      h(
-        'p',
-        { id: 'expected-range' },
-        'Expected at the gateway (10th–90th percentile): RSSI ',
-        h('strong', {}, ex.rssiDbm ? `${ex.rssiDbm.p10.toFixed(1)} to ${ex.rssiDbm.p90.toFixed(1)} dBm` : '–'),
-        ', SNR ',
-        h('strong', {}, ex.snrDb ? `${ex.snrDb.p10.toFixed(1)} to ${ex.snrDb.p90.toFixed(1)} dB` : '–'),
-        '.',
-      ),
-    );
-  }
-  if (check.cautions && check.cautions.length > 0) box.append(h('ul', { class: 'server-cautions' }, ...check.cautions.map((c) => h('li', {}, c))));
+  const ex = profile.expected;
+  box.append(
+    h(
+      'p',
+      { id: 'expected-range' },
+      `Expected at the gateway at SF${ex.sf} (10th–90th percentile, σ ${ex.sigmaDb.toFixed(1)} dB): RSSI `,
+      h('strong', {}, `${ex.rssiDbm.p10.toFixed(1)} to ${ex.rssiDbm.p90.toFixed(1)} dBm`),
+      ', SNR ',
+      h('strong', {}, `${ex.snrDb.p10.toFixed(1)} to ${ex.snrDb.p90.toFixed(1)} dB`),
+      '.',
+    ),
+    ex.note ? h('p', { class: 'muted small' }, ex.note) : '',
+  );
+  if (check.warnings.length > 0) box.append(notice('info', check.warnings.join(' ')));
 }
 
 // ---------- kit chooser ----------
+
+/** Cheapest catalog mast reaching the height, for the cost line (null = none in the catalog). */
+function mastFor(store: PlanStore, heightM: number): MastOption | null {
+  return store.catalog.masts.filter((m) => m.heightM >= heightM - 1e-9).sort((a, b) => (a.costUsd ?? 0) - (b.costUsd ?? 0))[0] ?? null;
+}
 
 function renderKitChooser(box: HTMLElement, store: PlanStore, node: FleetNode): void {
   box.append(h('h3', { id: 'kit-h' }, 'Try another kit'));
@@ -196,94 +212,96 @@ function renderKitChooser(box: HTMLElement, store: PlanStore, node: FleetNode): 
     return;
   }
   const antenna = select(
-    store.catalog.antennas.map((a) => ({ value: a.id, label: `${a.name} (${a.gainDbi.toFixed(1)} dBi${a.homemade ? ', home-made' : ''})` })),
+    store.catalog.antennas.map((a) => ({ value: a.id, label: `${a.name}${/dBi/.test(a.name) ? '' : ` (${a.gainDbi.toFixed(1)} dBi)`}${a.homemade ? ', home-made' : ''} · ${(a.costUsd ?? 0).toFixed(0)} USD` })),
     node.antennaDesignId,
     { id: 'kit-antenna' },
   );
-  const height = h('input', { id: 'kit-height', type: 'number', min: '0.3', max: '30', step: '0.5', inputmode: 'decimal' });
+  const height = h('input', { id: 'kit-height', type: 'number', min: '0.3', max: '60', step: '0.5', inputmode: 'decimal' });
   height.value = String(node.antennaHeightAglM ?? 1.5);
-  const heightRange = h('input', { id: 'kit-height-range', type: 'range', min: '0.5', max: '15', step: '0.5', 'aria-label': 'Mast height slider (m)' });
+  const heightRange = h('input', { id: 'kit-height-range', type: 'range', min: '0.5', max: '20', step: '0.5', 'aria-label': 'Mast height slider (m)' });
   heightRange.value = height.value;
   const feedline = select(
-    [{ value: '', label: 'none (antenna on the device)' }, ...store.catalog.feedlines.map((f) => ({ value: f.id, label: `${f.name} (${f.lossDbPer100m.toFixed(1)} dB/100 m)` }))],
-    node.feedlineId ?? '',
+    [
+      { value: 'none', label: 'none (radio at the antenna)' },
+      ...store.catalog.feedlines.map((f) => ({ value: f.id, label: `${f.name} (${f.lossDbPer100m.toFixed(1)} dB/100 m) · ${(f.costUsdPerM ?? 0).toFixed(2)} USD/m` })),
+    ],
+    node.feedlineId ?? 'none',
     { id: 'kit-feedline' },
   );
+  const feedLength = h('input', { id: 'kit-feedline-length', type: 'number', min: '0', max: '500', step: '0.5', inputmode: 'decimal' });
+  feedLength.value = String(node.feedlineLengthM ?? 0);
   const out = h('div', { class: 'kit-result', id: 'kit-result', 'aria-live': 'polite' });
   const applyStatus = h('p', { 'aria-live': 'polite' });
   box.append(
-    h('p', { class: 'muted small' }, 'Change the antenna, the mast height or the feedline: earshot predicts this node with that kit (nothing is saved until you apply it).'),
-    h('div', { class: 'kit-grid' }, field('Antenna design', antenna), field('Mast height above ground (m)', height), heightRange, field('Feedline', feedline)),
+    h('p', { class: 'muted small' }, 'Change the antenna, the mast height or the feedline: earshot predicts this node with that kit at once (nothing is saved until you apply it).'),
+    h('div', { class: 'kit-grid' }, field('Antenna design', antenna), field('Mast height above ground (m)', height), heightRange, field('Feedline', feedline), field('Feedline length (m)', feedLength)),
     out,
   );
   let seq = 0;
-  let lastOption: RecommendOption | null = null;
   const evaluate = async (): Promise<void> => {
     const mine = ++seq;
     const heightM = Number(height.value);
-    if (!Number.isFinite(heightM) || heightM <= 0) {
-      out.replaceChildren(notice('error', 'Mast height must be a number of metres above 0.'));
+    const lengthM = Number(feedLength.value || 0);
+    if (!Number.isFinite(heightM) || heightM <= 0 || !Number.isFinite(lengthM) || lengthM < 0) {
+      out.replaceChildren(notice('error', 'Mast height must be a number of metres above 0, and the feedline length 0 m or more.'));
       return;
     }
     out.classList.add('busy');
-    const body: RecommendRequest = { antennaDesignIds: [antenna.value], mastHeightsM: [heightM] };
-    if (feedline.value) body.feedlineIds = [feedline.value];
+    const preview: KitPreview = { antennaDesignId: antenna.value, antennaHeightAglM: heightM, feedlineId: feedline.value, feedlineLengthM: feedline.value === 'none' ? 0 : lengthM };
     try {
-      const result = await recommend(store.planId, node.id, body);
+      const result = await getNodeLinks(store.planId, node.id, preview);
       if (mine !== seq) return;
-      // Without a feedline choice the server also ranks every feedline: keep the "none" option.
-      const option = feedline.value ? result.options[0] : (result.options.find((o) => o.feedlineId === null) ?? result.options[0]);
-      lastOption = option ?? null;
-      if (!option) {
-        out.replaceChildren(notice('warn', [...result.warnings, ...result.advice].join(' ') || 'No prediction for this kit.'));
-        return;
-      }
+      const best = result.links.find((l) => l.gatewayId === result.bestGatewayId) ?? result.links[0];
+      const ant = store.catalog.antennas.find((a) => a.id === antenna.value);
+      const fl = store.catalog.feedlines.find((f) => f.id === feedline.value);
+      const mast = heightM > 2 ? mastFor(store, heightM) : null;
+      const cost = (ant?.costUsd ?? 0) + (fl ? (fl.costUsdPerM ?? 0) * lengthM : 0) + (mast?.costUsd ?? 0);
       out.replaceChildren(
         ...present<HTMLElement>(
-        h(
-          'dl',
-          { class: 'facts big' },
-          h('dt', {}, 'Margin'),
-          h('dd', { id: 'kit-margin', class: option.marginDb !== null && option.marginDb < 0 ? 'neg' : '' }, option.marginDb === null ? 'no gateway in range' : db(option.marginDb)),
-          h('dt', {}, 'Delivery probability'),
-          h('dd', { id: 'kit-delivery' }, percent(option.deliveryProbability)),
-          h('dt', {}, 'Kit cost'),
-          h('dd', {}, money(option.cost)),
-          h('dt', {}, 'Target'),
-          h('dd', {}, option.meetsTarget ? 'met ✓' : 'not met ✗'),
-        ),
-        option.reason ? h('p', { class: 'muted small' }, option.reason) : null,
-        canEdit()
-          ? h(
-              'button',
-              {
-                type: 'button',
-                id: 'kit-apply',
-                onclick: () => {
-                  if (!lastOption) return;
-                  const changes: Record<string, unknown> = {
-                    antennaDesignId: lastOption.antennaDesignId,
-                    antennaHeightAglM: lastOption.mastHeightM,
-                    mastOptionId: lastOption.mastOptionId,
-                    feedlineId: lastOption.feedlineId,
-                    feedlineLengthM: lastOption.feedlineId ? lastOption.feedlineLengthM : 0,
-                  };
-                  void store
-                    .update('nodes', node.id, changes, true, `changed the kit of ${node.name}`)
-                    .then(() => {
-                      applyStatus.textContent = 'Kit saved to the node (undo is available).';
-                      announce(applyStatus.textContent);
-                    })
-                    .catch((err: unknown) => {
-                      applyStatus.textContent = explainWriteError(err, store, `node ${node.name}`);
-                    });
+          h(
+            'dl',
+            { class: 'facts big' },
+            h('dt', {}, 'Margin'),
+            h('dd', { id: 'kit-margin', class: best && best.marginDb < 0 ? 'neg' : '' }, best ? db(best.marginDb) : 'no gateway in range'),
+            h('dt', {}, 'Best gateway'),
+            h('dd', {}, best ? `${best.gatewayName ?? best.gatewayId} · RSSI ${dbm(best.rssiDbm)} · SNR ${db(best.snrDb)}${best.bestSf ? ` · SF${best.bestSf}` : ''}` : '–'),
+            h('dt', {}, 'Delivery probability'),
+            h('dd', { id: 'kit-delivery' }, percent(result.combinedDeliveryProbability)),
+            h('dt', {}, 'Status'),
+            h('dd', { id: 'kit-status' }, symbolElement(nodeSymbolSvg(result.status, 16), ''), ` ${result.status} (target ${db(result.target.targetMarginDb)})`),
+            h('dt', {}, 'Kit cost'),
+            h('dd', {}, `${money(cost)}${mast ? ` incl. ${mast.name}` : heightM > 2 ? ' (no catalog mast this tall)' : ''}`),
+          ),
+          canEdit()
+            ? h(
+                'button',
+                {
+                  type: 'button',
+                  id: 'kit-apply',
+                  onclick: () => {
+                    const changes: Record<string, unknown> = {
+                      antennaDesignId: preview.antennaDesignId,
+                      antennaHeightAglM: heightM,
+                      feedlineId: feedline.value === 'none' ? null : feedline.value,
+                      feedlineLengthM: feedline.value === 'none' ? 0 : lengthM,
+                      mastOptionId: mast?.id ?? null,
+                    };
+                    void store
+                      .update('nodes', node.id, changes, true, `changed the kit of ${node.name}`)
+                      .then(() => {
+                        applyStatus.textContent = 'Kit saved to the node (undo is available).';
+                        announce(applyStatus.textContent);
+                      })
+                      .catch((err: unknown) => {
+                        applyStatus.textContent = explainWriteError(err, store, `node ${node.name}`);
+                      });
+                  },
                 },
-              },
-              'Apply this kit to the node',
-            )
-          : null,
-        applyStatus,
-        heightM > 2 ? notice('warn', `A ${metres(heightM)} mast means work at height: see the safety cautions below.`) : null,
+                'Apply this kit to the node',
+              )
+            : null,
+          applyStatus,
+          heightM > 2 ? notice('warn', `A ${metres(heightM)} mast means work at height: see the safety cautions below.`) : null,
         ),
       );
     } catch (err) {
@@ -299,7 +317,11 @@ function renderKitChooser(box: HTMLElement, store: PlanStore, node: FleetNode): 
     timer = window.setTimeout(() => void evaluate(), 250);
   };
   antenna.addEventListener('change', schedule);
-  feedline.addEventListener('change', schedule);
+  feedline.addEventListener('change', () => {
+    if (feedline.value !== 'none' && Number(feedLength.value || 0) === 0) feedLength.value = String(Number(height.value) + 1);
+    schedule();
+  });
+  feedLength.addEventListener('input', schedule);
   height.addEventListener('input', () => {
     heightRange.value = height.value;
     schedule();

@@ -1,51 +1,31 @@
 // Path profile chart in SVG: terrain, clutter tops, the straight ray between
 // the antennas, the first Fresnel zone and the obstructions, with axes in km
 // and m. Drawn from the link check's numbers; nothing is recomputed here.
-import type { LinkCheck, ProfilePoint } from '../api.ts';
+import type { LinkProfile } from '../api.ts';
 import { s } from '../ui.ts';
 
 export interface ProfileSeries {
+  /** ground: terrain with the earth bulge; clutterTop: + clutter (the surface the ray must clear). */
   points: Array<{ distanceM: number; groundM: number | null; clutterTopM: number | null }>;
   ray: Array<{ distanceM: number; heightM: number }>;
   fresnel: Array<{ distanceM: number; lowerM: number; upperM: number }>;
   obstructions: Array<{ distanceM: number; heightM: number }>;
 }
 
-function num(v: unknown): number | null {
-  return typeof v === 'number' && Number.isFinite(v) ? v : null;
-}
-
-/** Normalises the /check answer into the series the chart draws. */
-export function profileSeries(check: LinkCheck): ProfileSeries | null {
-  const raw: ProfilePoint[] = check.profile ?? check.points ?? [];
-  if (raw.length < 2) return null;
-  const points = raw.map((p) => {
-    const ground = num(p.groundM);
-    const clutterTop = num(p.clutterTopM) ?? (ground !== null && num(p.clutterHeightM) !== null ? ground + (num(p.clutterHeightM) ?? 0) : null);
-    return { distanceM: p.distanceM, groundM: ground, clutterTopM: clutterTop };
+/**
+ * Chart series from the link check. The server draws the ray straight on a flat
+ * baseline, so the ground is lifted by the earth bulge (obstacleM − clutterTopM)
+ * to keep the clearance true to the picture.
+ */
+export function profileSeries(profile: LinkProfile | null): ProfileSeries | null {
+  if (!profile || profile.points.length < 2) return null;
+  const points = profile.points.map((p) => {
+    const bulge = Number.isFinite(p.obstacleM - p.clutterTopM) ? p.obstacleM - p.clutterTopM : 0;
+    return { distanceM: p.distanceM, groundM: Number.isFinite(p.groundM) ? p.groundM + bulge : null, clutterTopM: Number.isFinite(p.obstacleM) ? p.obstacleM : null };
   });
-  let ray: ProfileSeries['ray'] = [];
-  if (Array.isArray(check.ray)) ray = check.ray.map((r) => ({ distanceM: r.distanceM, heightM: r.heightM }));
-  else if (check.ray && typeof check.ray === 'object') {
-    const last = points[points.length - 1].distanceM;
-    ray = [
-      { distanceM: 0, heightM: check.ray.fromM },
-      { distanceM: last, heightM: check.ray.toM },
-    ];
-  } else {
-    // Per-point ray heights, when the server reports them beside each point.
-    ray = raw.filter((p) => num(p.rayM) !== null).map((p) => ({ distanceM: p.distanceM, heightM: num(p.rayM) ?? 0 }));
-  }
-  let fresnel: ProfileSeries['fresnel'] = [];
-  if (Array.isArray(check.fresnel)) fresnel = check.fresnel.map((f) => ({ distanceM: f.distanceM, lowerM: f.lowerM, upperM: f.upperM }));
-  else
-    fresnel = raw
-      .filter((p) => num(p.fresnelLowerM) !== null && num(p.fresnelUpperM) !== null)
-      .map((p) => ({ distanceM: p.distanceM, lowerM: num(p.fresnelLowerM) ?? 0, upperM: num(p.fresnelUpperM) ?? 0 }));
-  const obstructions = (check.obstructions ?? []).map((o) => {
-    const at = points.reduce((best, p) => (Math.abs(p.distanceM - o.distanceM) < Math.abs(best.distanceM - o.distanceM) ? p : best), points[0]);
-    return { distanceM: o.distanceM, heightM: num(o.heightM) ?? at.clutterTopM ?? at.groundM ?? 0 };
-  });
+  const ray = profile.points.map((p) => ({ distanceM: p.distanceM, heightM: p.rayM }));
+  const fresnel = profile.points.map((p) => ({ distanceM: p.distanceM, lowerM: p.fresnelLowerM, upperM: p.fresnelUpperM }));
+  const obstructions = profile.obstructions.map((o) => ({ distanceM: o.distanceM, heightM: o.obstacleM }));
   return { points, ray, fresnel, obstructions };
 }
 
@@ -103,7 +83,7 @@ export function profileChart(series: ProfileSeries, title: string): SVGElement {
     grid.append(s('text', { x: pad.left - 6, y: y(m) + 4, 'text-anchor': 'end' }, m.toFixed(0)));
   }
   grid.append(s('text', { x: (pad.left + W - pad.right) / 2, y: H - 6, 'text-anchor': 'middle', class: 'axis-label' }, 'distance from node (km)'));
-  grid.append(s('text', { x: 14, y: (pad.top + H - pad.bottom) / 2, 'text-anchor': 'middle', class: 'axis-label', transform: `rotate(-90 14 ${(pad.top + H - pad.bottom) / 2})` }, 'height above sea level (m)'));
+  grid.append(s('text', { x: 14, y: (pad.top + H - pad.bottom) / 2, 'text-anchor': 'middle', class: 'axis-label', transform: `rotate(-90 14 ${(pad.top + H - pad.bottom) / 2})` }, 'height (m, earth bulge included)'));
   svg.append(grid);
 
   // Fresnel zone band

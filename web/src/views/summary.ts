@@ -65,7 +65,7 @@ export async function renderSummary(main: HTMLElement, route: Route): Promise<vo
   const heard = new Map<string, number>();
   let known = 0;
   for (const n of store.nodes) {
-    const k = store.fleet.get(n.id)?.gatewaysWithMargin;
+    const k = store.fleet.get(n.id)?.gatewaysHeard;
     if (typeof k !== 'number') continue;
     known += 1;
     const label = k >= 3 ? '3 or more' : String(k);
@@ -75,7 +75,7 @@ export async function renderSummary(main: HTMLElement, route: Route): Promise<vo
   if (known === 0) redundancy.append(h('p', { class: 'muted' }, 'Not available: the fleet table does not report how many gateways hear each node.'));
   else
     redundancy.append(
-      h('p', {}, 'How many gateways hear each node with the target margin:'),
+      h('p', {}, 'How many gateways hear each node (margin ≥ 0 dB at the SF it uses):'),
       h(
         'table',
         { class: 'data-table compact' },
