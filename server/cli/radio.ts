@@ -15,6 +15,7 @@ import {
 import { mismatchFromVswr } from '../radio/mismatch.ts';
 import { BUILD_SHEET_IDS, BuildSheetError, buildSheet, type BuildSheet } from '../radio/build-sheets.ts';
 import { bandPlans, type BandPlan } from '../radio/band-plans.ts';
+import { BatteryInputError, estimateBattery } from '../radio/battery.ts';
 
 /** Options object that rejects unknown options by name instead of ignoring a typo. */
 function options<T extends z.ZodRawShape>(shape: T) {
@@ -238,4 +239,52 @@ const bands = defineCommand({
   },
 });
 
-export const radioCommands: CliCommand[] = [airtime, sensitivity, mismatch, buildSheetCommand, bands];
+const positiveOption = (rule = 'must be positive') => numberOption().refine((v) => v > 0, { message: rule });
+const nonNegativeOption = () => numberOption().refine((v) => v >= 0, { message: 'must be 0 or more' });
+
+const battery = defineCommand({
+  words: 'battery',
+  summary: 'Battery life estimate for a node, with its assumptions',
+  options: options({
+    'capacity-mah': required(positiveOption()),
+    'messages-per-day': required(nonNegativeOption()),
+    'time-on-air-ms': positiveOption().optional(),
+    sf: spreadingFactorOption().optional(),
+    'bw-khz': bandwidthOption().optional(),
+    cr: z.enum(CODING_RATES as [CodingRate, ...CodingRate[]], { error: `must be one of ${CODING_RATES.join(', ')}` }).default('4/5'),
+    'payload-bytes': integerOption().refine((n) => n >= 0 && n <= 255, { message: 'must be from 0 to 255 bytes' }).optional(),
+    'tx-power-dbm': numberOption().refine((p) => p >= -9 && p <= 30, { message: 'must be from −9 to 30 dBm' }).optional(),
+    'tx-current-ma': positiveOption().optional(),
+    'sleep-current-ua': nonNegativeOption().optional(),
+    'usable-fraction': numberOption().optional(),
+  }),
+  run: (o) => {
+    let toaMs = o['time-on-air-ms'];
+    if (toaMs === undefined) {
+      if (o.sf === undefined || o['bw-khz'] === undefined || o['payload-bytes'] === undefined)
+        throw new CliUsageError('--time-on-air-ms: is required unless --sf, --bw-khz and --payload-bytes are given');
+      toaMs = timeOnAirMs({ spreadingFactor: o.sf, bandwidthKhz: o['bw-khz'], codingRate: o.cr, payloadBytes: o['payload-bytes'] }).timeOnAirMs;
+    }
+    try {
+      const e = estimateBattery({
+        capacityMah: o['capacity-mah'],
+        messagesPerDay: o['messages-per-day'],
+        timeOnAirMs: toaMs,
+        txPowerDbm: o['tx-power-dbm'],
+        txCurrentMa: o['tx-current-ma'],
+        sleepCurrentUa: o['sleep-current-ua'],
+        usableFraction: o['usable-fraction'],
+      });
+      return { ...e, timeOnAirMs: clean(toaMs), lifeDays: clean(e.lifeDays), lifeYears: clean(e.lifeYears) };
+    } catch (error) {
+      if (error instanceof BatteryInputError) throw new CliUsageError(error.message);
+      throw error;
+    }
+  },
+  formatText: (r) => {
+    const x = r as { lifeYears: number; averageCurrentUa: number; assumptions: string[] };
+    return [`about ${x.lifeYears.toFixed(1)} years (average ${x.averageCurrentUa.toFixed(1)} µA)`, 'assumptions:', ...x.assumptions.map((a) => `- ${a}`)].join('\n');
+  },
+});
+
+export const radioCommands: CliCommand[] = [airtime, sensitivity, mismatch, buildSheetCommand, bands, battery];

@@ -423,3 +423,23 @@ export function limitForChannel(plan: BandPlan, frequencyMhz: number, bandwidthK
       (limit.maxBandwidthKhz === undefined || bandwidthKhz < limit.maxBandwidthKhz),
   );
 }
+
+/** LoRaWAN PHYPayload bytes for an application payload: MHDR 1 + FHDR 7 + FOpts + FPort 1 + FRMPayload + MIC 4 (LoRaWAN 1.0.x frame layout). */
+export function lorawanPhyPayloadBytes(appPayloadBytes: number, fOptsBytes = 0): number {
+  if (!Number.isInteger(appPayloadBytes) || appPayloadBytes < 0) throw new RangeError(`application payload must be a whole number of bytes ≥ 0 (got ${appPayloadBytes})`);
+  if (!Number.isInteger(fOptsBytes) || fOptsBytes < 0 || fOptsBytes > 15) throw new RangeError(`FOpts must be 0–15 bytes (got ${fOptsBytes})`);
+  return 1 + 7 + fOptsBytes + 1 + appPayloadBytes + 4;
+}
+
+/** The data-rate entry of a plan, or undefined when the plan has no such DR. */
+export function lorawanDataRate(plan: BandPlan, dr: number): LorawanDataRate | undefined {
+  return plan.lorawan?.dataRates.find((rate) => rate.dr === dr);
+}
+
+/** Largest application payload (bytes) at a DR; with `dwellLimited` the 400 ms table where the plan has one. Null = DR not allowed. */
+export function maxAppPayloadBytes(plan: BandPlan, dr: number, dwellLimited = false): number | null {
+  const rate = lorawanDataRate(plan, dr);
+  if (!rate) throw new UnknownBandPlanError(`${plan.id} has no data rate DR${dr}`);
+  if (dwellLimited && rate.dwellLimited) return rate.dwellLimited.maxAppPayloadBytes;
+  return rate.maxAppPayloadBytes;
+}

@@ -58,7 +58,11 @@ export interface BatteryEstimate {
   lifeYears: number;
   breakdownMahPerDay: { transmit: number; receive: number; sensor: number; sleep: number; selfDischarge: number };
   assumptions: string[];
+  warnings: string[];
 }
+
+/** Beyond this the cell's own ageing, not the load, usually ends its life (common practice for lithium primary cells). */
+export const CELL_SERVICE_LIMIT_YEARS = 10;
 
 export class BatteryInputError extends Error {}
 
@@ -92,6 +96,10 @@ export function estimateBattery(input: BatteryInput): BatteryEstimate {
   const selfDischarge = (capacity * selfPct) / 100 / 365.25;
   const chargePerDayMah = transmit + receive + sensor + sleep + selfDischarge;
   const lifeDays = (capacity * usable) / chargePerDayMah;
+  const warnings: string[] = [];
+  if (lifeDays / 365.25 > CELL_SERVICE_LIMIT_YEARS)
+    warnings.push(`estimate exceeds ${CELL_SERVICE_LIMIT_YEARS} years: cell ageing, passivation and seals usually end service first (common practice); plan a replacement by then`);
+  if (sleep > transmit + receive + sensor) warnings.push('sleep current dominates: measure the real sleep current of the assembled node, it decides the life');
   return {
     chargePerDayMah,
     averageCurrentUa: ((transmit + receive + sensor + sleep) / 24) * 1000,
@@ -109,5 +117,6 @@ export function estimateBattery(input: BatteryInput): BatteryEstimate {
       `self-discharge ${selfPct} % of capacity per year`,
       'no retransmissions, no downlinks beyond the receive windows, no join traffic; temperature effects only through the usable share',
     ],
+    warnings,
   };
 }

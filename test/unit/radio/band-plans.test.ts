@@ -1,5 +1,14 @@
 import { describe, expect, it } from 'vitest';
-import { bandPlans, eirpFromErpDbm, erpFromEirpDbm, findBandPlan, limitEirpDbm, limitForChannel } from '../../../server/radio/band-plans.ts';
+import {
+  bandPlans,
+  eirpFromErpDbm,
+  erpFromEirpDbm,
+  findBandPlan,
+  limitEirpDbm,
+  limitForChannel,
+  lorawanPhyPayloadBytes,
+  maxAppPayloadBytes,
+} from '../../../server/radio/band-plans.ts';
 import { timeOnAirMs } from '../../../server/radio/lora-phy.ts';
 
 const limit = (planId: string, limitId: string) => {
@@ -124,5 +133,24 @@ describe('LoRaWAN Regional Parameters channel plans (open specification, from me
   });
   it('no data rate allows more than a LoRa frame holds: MACPayload + 5 B (MHDR + MIC) ≤ 255 B', () => {
     for (const plan of bandPlans) for (const r of plan.lorawan?.dataRates ?? []) if (r.maxMacPayloadBytes !== null) expect(r.maxMacPayloadBytes + 5).toBeLessThanOrEqual(255);
+  });
+});
+
+describe('LoRaWAN frame overhead and payload limits (Regional Parameters, from memory)', () => {
+  it('PHYPayload = application payload + 13 bytes without FOpts (MHDR 1, FHDR 7, FPort 1, MIC 4)', () => {
+    expect(lorawanPhyPayloadBytes(11)).toBe(24);
+    expect(lorawanPhyPayloadBytes(11, 3)).toBe(27);
+    expect(() => lorawanPhyPayloadBytes(-1)).toThrow(/whole number/);
+  });
+  it('AS923 DR0 is not allowed under the 400 ms dwell limit; DR2 then carries 11 bytes', () => {
+    const as = findBandPlan('as-923');
+    expect(maxAppPayloadBytes(as, 0)).toBe(51);
+    expect(maxAppPayloadBytes(as, 0, true)).toBeNull();
+    expect(maxAppPayloadBytes(as, 2, true)).toBe(11);
+    expect(() => maxAppPayloadBytes(as, 14)).toThrow(/DR14/);
+  });
+  it('AS923 dwell-limited DR2 (SF10/125) payload 11 B + 13 B overhead fits 400 ms, one byte more does not', () => {
+    expect(timeOnAirMs({ spreadingFactor: 10, bandwidthKhz: 125, codingRate: '4/5', payloadBytes: 24 }).timeOnAirMs).toBeLessThanOrEqual(400);
+    expect(timeOnAirMs({ spreadingFactor: 10, bandwidthKhz: 125, codingRate: '4/5', payloadBytes: 25 }).timeOnAirMs).toBeGreaterThan(400);
   });
 });

@@ -12,6 +12,8 @@ describe('battery estimate (stated assumptions; TX currents SX1262-class typical
     expect(e.lifeDays).toBeCloseTo(2080 / 0.231172, 0);
     expect(e.lifeYears).toBeCloseTo(24.63, 1);
     expect(e.assumptions.length).toBeGreaterThanOrEqual(6);
+    expect(e.warnings.join(' ')).toMatch(/exceeds 10 years/);
+    expect(e.warnings.join(' ')).toMatch(/sleep current dominates/);
   });
   it('more messages or longer airtime shorten the life', () => {
     const a = estimateBattery({ capacityMah: 2600, messagesPerDay: 24, timeOnAirMs: 100 });

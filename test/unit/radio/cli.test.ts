@@ -41,6 +41,9 @@ const cases: Record<string, string[]> = {
   sheetOutside: ['build-sheet', '--design', 'quarter-wave-ground-plane', '--frequency-mhz', '2400', '--json'],
   sheetUnknown: ['build-sheet', '--design', 'rubber-duck', '--frequency-mhz', '915', '--json'],
   bands: ['bands', '--json'],
+  battery: ['battery', '--capacity-mah', '2600', '--messages-per-day', '24', '--time-on-air-ms', '100', '--tx-current-ma', '45', '--json'],
+  batteryFromFrame: ['battery', '--capacity-mah', '1000', '--messages-per-day', '96', '--sf', '12', '--bw-khz', '125', '--payload-bytes', '20', '--json'],
+  batteryMissing: ['battery', '--capacity-mah', '2600', '--messages-per-day', '24', '--json'],
   bandsText: ['bands'],
 };
 
@@ -145,6 +148,17 @@ describe('earshot build-sheet (trade rule 2832/f inches, common practice)', () =
     expect(s.droopDeg).toBe(45);
     expect(s.elements.find((e: { name: string }) => e.name === 'radial').count).toBe(6);
     expect(s.elements.find((e: { name: string }) => e.name === 'radiator').lengthMm).toBeCloseTo(82.87, 1);
+  });
+});
+
+describe('earshot battery', () => {
+  it('estimates life with its assumptions (hand-computed 0.2312 mAh/day → 24.6 years) and derives airtime from a frame', () => {
+    const b = json('battery');
+    expect(b.chargePerDayMah).toBeCloseTo(0.23117, 4);
+    expect(b.lifeYears).toBeCloseTo(24.63, 1);
+    expect(b.assumptions.length).toBeGreaterThan(5);
+    expect(json('batteryFromFrame').timeOnAirMs).toBeCloseTo(1318.912, 6);
+    failsWith('batteryMissing', /--time-on-air-ms: is required unless/);
   });
 });
 
