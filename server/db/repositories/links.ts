@@ -82,3 +82,8 @@ export async function updateKitJob(db: Database, id: string, patch: { progress?:
 export async function findKitJob(db: Database, planId: string, id: string) {
   return db.prisma.coverageRun.findFirst({ where: { id, planId, kind: KIT_JOB_KIND } });
 }
+
+/** A plan by id alone, for the command line (an operator on the machine; the API always scopes by team). */
+export async function findPlanById(db: Database, planId: string) {
+  return db.prisma.plan.findUnique({ where: { id: planId } });
+}
