@@ -137,6 +137,23 @@ export const bandPlans: BandPlan[] = [
         notes: ['LoRaWAN US915 125 kHz uplinks fall here.'],
       },
       {
+        id: 'fhss-wide',
+        name: 'Frequency hopping, 20 dB bandwidth 250 kHz or more, 25–49 channels',
+        fromMhz: 902,
+        toMhz: 928,
+        maxEirpDbm: 30,
+        maxConductedDbm: 24,
+        antennaGainAllowanceDbi: 6,
+        dutyCyclePercent: null,
+        dwellTimeMs: 400,
+        dwellWindowS: 10,
+        minBandwidthKhz: 250,
+        maxBandwidthKhz: 500,
+        source:
+          '47 CFR §15.247(b)(2) 0.25 W conducted for 25–49 hopping channels; §15.247(b)(4) antenna gain above 6 dBi reduces the power, hence 30 dBm EIRP; §15.247(a)(1)(i) occupancy ≤ 0.4 s per channel within 10 s when the 20 dB bandwidth is 250 kHz or more',
+        notes: ['LoRa at 250 kHz is too narrow for the digital-modulation rule (6 dB bandwidth ≥ 500 kHz) and hops under this one.'],
+      },
+      {
         id: 'dts',
         name: 'Digital modulation, 6 dB bandwidth at least 500 kHz',
         fromMhz: 902,

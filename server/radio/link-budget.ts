@@ -164,8 +164,12 @@ export function legalCheck(plan: BandPlan, input: LegalCheckInput): LegalCheck {
   const peakErpDbm = input.peakEirpDbm - DIPOLE_GAIN_DBI;
   const warnings: string[] = [];
   if (!limit) {
+    const halfMhz = input.bandwidthKhz / 2000;
+    const inRange = plan.limits.some((l) => input.frequencyMhz - halfMhz >= l.fromMhz && input.frequencyMhz + halfMhz <= l.toMhz);
     warnings.push(
-      `${input.frequencyMhz} MHz with ${input.bandwidthKhz} kHz bandwidth lies in no sub-band of ${plan.name} (${plan.limits.map((l) => `${l.fromMhz}–${l.toMhz} MHz`).join(', ')}): transmitting there is not allowed by this plan`,
+      inRange
+        ? `no limit of ${plan.name} covers a ${input.bandwidthKhz} kHz emission at ${input.frequencyMhz} MHz (${plan.limits.map((l) => l.name).join('; ')})`
+        : `${input.frequencyMhz} MHz with ${input.bandwidthKhz} kHz bandwidth lies in no sub-band of ${plan.name} (${[...new Set(plan.limits.map((l) => `${l.fromMhz}–${l.toMhz} MHz`))].join(', ')}): transmitting there is not allowed by this plan`,
     );
     return {
       bandPlanId: plan.id, limitId: null, source: null, maxEirpDbm: null, maxErpDbm: null, maxConductedDbm: null,

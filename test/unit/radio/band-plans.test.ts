@@ -44,6 +44,8 @@ describe('US 902–928 MHz, 47 CFR §15.247', () => {
       expect(l.antennaGainAllowanceDbi).toBe(6);
       expect(l.maxEirpDbm).toBe(36);
     }
+    const wide = limit('us-902-928', 'fhss-wide');
+    expect((wide.maxEirpDbm ?? 0) - (wide.maxConductedDbm ?? 0)).toBe(6);
     expect(limit('us-902-928', 'dts').source).toMatch(/§15\.247\(b\)\(3\)/);
     expect(limit('us-902-928', 'fhss').source).toMatch(/§15\.247\(b\)\(4\)/);
   });
@@ -59,6 +61,11 @@ describe('US 902–928 MHz, 47 CFR §15.247', () => {
     expect(limitForChannel(us, 902.3, 125)?.id).toBe('fhss');
     expect(limitForChannel(us, 903.0, 500)?.id).toBe('dts');
     expect(limitForChannel(us, 901.9, 125)).toBeUndefined();
+    // 250 kHz: hopping with 25–49 channels, 0.25 W (§15.247(b)(2)), 0.4 s in 10 s (§15.247(a)(1)(i)).
+    const wide = limitForChannel(us, 915, 250);
+    expect(wide?.id).toBe('fhss-wide');
+    expect(wide?.maxConductedDbm).toBe(24);
+    expect(wide?.dwellWindowS).toBe(10);
   });
   it('LoRaWAN US915 DR0 maximum MACPayload 19 B is exactly what fits the 400 ms dwell at SF10/125 (Regional Parameters vs §15.247(a)(1)(i))', () => {
     const dr0 = findBandPlan('us-902-928').lorawan?.dataRates.find((r) => r.dr === 0);
