@@ -123,13 +123,22 @@ function looksLikeTiff(head: Buffer): boolean {
   return ii || mm;
 }
 
-/** Decodes a handful of blocks (first, last, middle and a few spread between) to catch corrupt data early. */
+/**
+ * Decodes blocks to catch corrupt pixel data before anything is stored: every block when the raster decodes to
+ * at most 64 MB, otherwise the first, the last and 30 spread evenly between.
+ */
 async function sampleBlocks(raster: GeoRaster): Promise<void> {
-  const { blocksAcross, blocksDown } = raster.blockLayout;
+  const { blocksAcross, blocksDown, blockWidthPx, blockHeightPx } = raster.blockLayout;
   const total = blocksAcross * blocksDown;
-  const picks = new Set([0, total - 1, Math.floor(total / 2), Math.floor(total / 5), Math.floor((3 * total) / 7), Math.floor((5 * total) / 6)]);
+  const decodedBytes = total * blockWidthPx * blockHeightPx * 4;
+  const picks = new Set<number>();
+  if (decodedBytes <= 64 * 1024 * 1024) {
+    for (let i = 0; i < total; i++) picks.add(i);
+  } else {
+    picks.add(0).add(total - 1);
+    for (let k = 1; k <= 30; k++) picks.add(Math.floor((k * total) / 31));
+  }
   for (const index of picks) {
-    if (index < 0 || index >= total) continue;
     try {
       await raster.readBlock(index % blocksAcross, Math.floor(index / blocksAcross));
     } catch (error) {

@@ -1,6 +1,6 @@
 // Test helper: edits the first IFD of a little-endian classic TIFF in place (to make broken or exotic files).
 export function patchTag(bytes: Uint8Array, tag: number, change: { newTag?: number; shortValue?: number }): Uint8Array {
-  const copy = bytes.slice();
+  const copy = new Uint8Array(bytes); // a copy (Buffer.slice would share memory)
   const view = new DataView(copy.buffer);
   const ifd = view.getUint32(4, true);
   const count = view.getUint16(ifd, true);
