@@ -75,6 +75,7 @@ async function registerApiRoutes(api: FastifyInstance): Promise<void> {
   // Other rooms: one register line each below (e.g. `await api.register(terrainRoutes);`).
   await api.register(terrainRoutes);
   await api.register((await import('./routes/links.ts')).default);
+  await api.register((await import('./routes/coverage.ts')).default);
 }
 
 export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {

@@ -1,0 +1,302 @@
+// Coverage runs of a plan: start (202 + the run), list, read (status,
+// progress, summary), follow (SSE), cancel, map tiles, GeoTIFF export, and
+// the legend of the tile colours. The work happens in server/jobs (pool or
+// BullMQ workers) over server/coverage; these handlers only resolve inputs.
+import { createReadStream, existsSync } from 'node:fs';
+import { join } from 'node:path';
+import type { FastifyInstance } from 'fastify';
+import type { ZodTypeProvider } from 'fastify-type-provider-zod';
+import { z } from 'zod';
+import { recordAudit } from '../../db/repositories/audit.ts';
+import { cancelCoverageRun, createCoverageRun, findCoverageRun, listCoverageRuns, type CoverageRunRow } from '../../db/repositories/coverage-runs.ts';
+import { listGateways, type GatewayRow } from '../../db/repositories/gateways.ts';
+import { listNodes } from '../../db/repositories/nodes.ts';
+import { allTerrainLayers } from '../../db/repositories/terrain-layers.ts';
+import { findAntennaDesignForTeam, findFeedlineForTeam } from '../../db/repositories/kit.ts';
+import { resolveLinkSettings } from '../../planning/settings.ts';
+import { sensitivityDbm } from '../../radio/lora-phy.ts';
+import { feedlineLossDb } from '../../radio/feedlines.ts';
+import { openGeoRaster, type GeoRaster } from '../../terrain/raster.ts';
+import { CoverageInputError, windowFor } from '../../coverage/terrain-window.ts';
+import { legend, renderMarginTile } from '../../coverage/tiles.ts';
+import { createCoverageJobs, type CoverageJobs } from '../../jobs/runner.ts';
+import { resolveFilePath, resultDir, RESULT_FILES, type CoverageJobParams } from '../../jobs/coverage-job.ts';
+import { requireRole } from '../auth.ts';
+import { ApiError } from '../errors.ts';
+import { loadPlanForPrincipal } from '../scope.ts';
+import { finite, id, pageQuery, planParams } from '../schemas.ts';
+
+const runParams = z.strictObject({ planId: id(), runId: id() });
+const tileParams = z.strictObject({
+  planId: id(),
+  runId: id(),
+  z: z.coerce.number().int('must be a whole number').min(0).max(22, 'must be ≤ 22'),
+  x: z.coerce.number().int('must be a whole number').min(0, 'must be ≥ 0'),
+  y: z.string().regex(/^\d+\.png$/, 'must be <y>.png'),
+});
+
+export const coverageBody = z.strictObject({
+  gatewayIds: z.array(id()).min(1, 'must list at least one gateway').max(100, 'at most 100 gateways').optional(),
+  mode: z.enum(['fast', 'full'], { error: 'must be fast or full (los is a command-line mode: visibility has no margin)' }).optional(),
+  radiusKm: finite().positive('must be > 0 km').max(100, 'must be ≤ 100 km'),
+  targetHeightM: finite().min(0, 'must be ≥ 0 m').max(100, 'must be ≤ 100 m').optional(),
+  sf: z.number().int('must be a whole number').min(7, 'must be 7–12').max(12, 'must be 7–12').optional(),
+  requiredMarginDb: finite().min(-20, 'must be ≥ -20 dB').max(60, 'must be ≤ 60 dB').optional(),
+  kFactor: finite().min(0.3, 'must be ≥ 0.3').max(100, 'must be ≤ 100').optional(),
+  nodeTxPowerDbm: finite().min(-10, 'must be ≥ -10 dBm').max(30, 'must be ≤ 30 dBm').optional(),
+  nodeAntennaGainDbi: finite().min(-20, 'must be ≥ -20 dBi').max(20, 'must be ≤ 20 dBi').optional(),
+  nodeLossDb: finite().min(0, 'must be ≥ 0 dB').max(30, 'must be ≤ 30 dB').optional(),
+});
+
+/** Ceiling on the cells of one run's grid (EARSHOT_MAX_COVERAGE_CELLS, default 25 million). */
+export function maxCoverageCells(env: NodeJS.ProcessEnv = process.env): number {
+  const value = Number(env.EARSHOT_MAX_COVERAGE_CELLS ?? 25_000_000);
+  return Number.isFinite(value) && value > 0 ? value : 25_000_000;
+}
+
+function runView(run: CoverageRunRow) {
+  const params = (run.params ?? {}) as Partial<CoverageJobParams>;
+  return {
+    id: run.id,
+    planId: run.planId,
+    status: run.status,
+    progress: run.progress,
+    error: run.error,
+    attempts: run.attempts,
+    gatewayIds: run.gatewayIds as string[],
+    mode: params.mode ?? null,
+    radiusKm: params.radiusKm ?? null,
+    sf: params.sf ?? null,
+    requiredMarginDb: params.requiredMarginDb ?? null,
+    summary: run.summary ?? null,
+    createdAt: run.createdAt.toISOString(),
+    startedAt: run.startedAt?.toISOString() ?? null,
+    finishedAt: run.finishedAt?.toISOString() ?? null,
+  };
+}
+
+async function allPages<T>(fetch: (cursor: string | undefined) => Promise<{ items: T[]; next: string | null }>): Promise<T[]> {
+  const out: T[] = [];
+  let cursor: string | undefined;
+  for (;;) {
+    const page = await fetch(cursor);
+    out.push(...page.items);
+    if (!page.next) return out;
+    cursor = page.next;
+  }
+}
+
+export default async function coverageRoutes(app: FastifyInstance): Promise<void> {
+  const api = app.withTypeProvider<ZodTypeProvider>();
+  const { db, config } = app.deps;
+  const tags = ['coverage'];
+  // The job runner: the one the app was given, else our own (pool, or BullMQ with REDIS_URL), closed with the app.
+  let jobs: CoverageJobs;
+  const given = app.deps.jobs as Partial<CoverageJobs> | undefined;
+  if (given && typeof given.enqueue === 'function') jobs = given as CoverageJobs;
+  else {
+    jobs = await createCoverageJobs(db, config);
+    app.addHook('onClose', async () => jobs.close());
+  }
+  const rasterCache = new Map<string, Promise<GeoRaster>>();
+  app.addHook('onClose', async () => {
+    for (const raster of rasterCache.values()) await (await raster.catch(() => null))?.close();
+  });
+
+  async function loadRun(request: { principal: Parameters<typeof loadPlanForPrincipal>[1] }, planId: string, runId: string) {
+    const plan = await loadPlanForPrincipal(db, request.principal, planId);
+    const run = await findCoverageRun(db, plan.id, runId);
+    if (!run) throw new ApiError(404, 'not_found', 'coverage run not found');
+    return { plan, run };
+  }
+
+  function resultRaster(run: CoverageRunRow, file: string): Promise<GeoRaster> {
+    if (run.status !== 'done') throw new ApiError(409, 'not_ready', `the run is ${run.status}; results exist once it is done`);
+    const path = join(resultDir(config, run.id), file);
+    if (!existsSync(path)) throw new ApiError(410, 'result_missing', 'the result files of this run are gone');
+    let raster = rasterCache.get(path);
+    if (!raster) {
+      raster = openGeoRaster(path);
+      rasterCache.set(path, raster);
+      if (rasterCache.size > 32) {
+        const [oldest, value] = rasterCache.entries().next().value as [string, Promise<GeoRaster>];
+        rasterCache.delete(oldest);
+        void value.then((r) => r.close()).catch(() => undefined);
+      }
+    }
+    return raster;
+  }
+
+  api.get('/coverage/legend', { schema: { summary: 'Colours of the coverage tiles (margin classes)', tags } }, async () => legend());
+
+  api.post(
+    '/plans/:planId/coverage',
+    { schema: { summary: 'Start a coverage run over some or all gateways (202 with the queued run)', tags, params: planParams, body: coverageBody } },
+    async (request, reply) => {
+      const principal = requireRole(request, 'planner');
+      const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
+      const body = request.body;
+      const settings = resolveLinkSettings(plan);
+      const planGateways = await allPages<GatewayRow>((cursor) => listGateways(db, plan.id, { limit: 1000, cursor }));
+      let gateways = planGateways;
+      if (body.gatewayIds) {
+        const byId = new Map(planGateways.map((g) => [g.id, g]));
+        const missing = body.gatewayIds.filter((gid) => !byId.has(gid));
+        if (missing.length > 0) throw new ApiError(400, 'invalid_input', `gatewayIds: no gateway "${missing[0]}" in this plan`);
+        gateways = body.gatewayIds.map((gid) => byId.get(gid)!);
+      }
+      if (gateways.length === 0) throw new ApiError(422, 'no_gateways', 'the plan has no gateways to compute coverage for');
+      const layers = (await allTerrainLayers(db, plan.id)).filter((layer) => layer.kind === 'elevation');
+      if (layers.length === 0) throw new ApiError(422, 'no_terrain', 'the plan has no elevation terrain layer; upload a DEM first');
+      const radiusM = body.radiusKm * 1000;
+      const maxCells = maxCoverageCells();
+      // The finest elevation layer that holds every gateway's circle.
+      let chosen: { layer: (typeof layers)[number]; path: string } | null = null;
+      let firstProblem: CoverageInputError | null = null;
+      for (const layer of layers) {
+        const path = resolveFilePath(config, layer.filePath);
+        let raster: GeoRaster;
+        try {
+          raster = await openGeoRaster(path);
+        } catch {
+          continue;
+        }
+        try {
+          let cells = 0;
+          for (const g of gateways) {
+            const w = windowFor(raster, { lat: g.lat, lon: g.lon, radiusM, maxCells });
+            cells += w.widthPx * w.heightPx;
+          }
+          if (cells > maxCells * 4) throw new CoverageInputError('too_many_cells', `the run would compute ${cells} cells, above the ceiling of ${maxCells * 4}; use fewer gateways or a smaller radius`);
+          chosen = { layer, path };
+          break;
+        } catch (error) {
+          if (!(error instanceof CoverageInputError)) throw error;
+          // A gateway outside a layer is the most useful message to keep; else the first problem.
+          if (!firstProblem || error.code === 'site_outside_terrain') firstProblem = error;
+        } finally {
+          await raster.close();
+        }
+      }
+      if (!chosen) {
+        const problem = firstProblem ?? new CoverageInputError('site_outside_terrain', 'no elevation layer of the plan can be read');
+        const status = problem.code === 'too_many_cells' ? 413 : 422;
+        throw new ApiError(status, problem.code, problem.message);
+      }
+      const nodeTxPowerDbm = body.nodeTxPowerDbm ?? 14;
+      const nodeAntennaGainDbi = body.nodeAntennaGainDbi ?? 2.15;
+      const nodeLossDb = body.nodeLossDb ?? 0;
+      const sfs = [7, 8, 9, 10, 11, 12];
+      const jobGateways: CoverageJobParams['gateways'] = [];
+      for (const g of gateways) {
+        const antenna = await findAntennaDesignForTeam(db, principal.teamId, g.antennaDesignId);
+        const feedline = await findFeedlineForTeam(db, principal.teamId, g.feedlineId);
+        const gatewayLossDb = feedlineLossDb(feedline, settings.frequencyMhz, g.feedlineLengthM);
+        jobGateways.push({
+          id: g.id,
+          name: g.name,
+          lat: g.lat,
+          lon: g.lon,
+          heightAglM: g.antennaHeightAglM,
+          // Uplink budget: node EIRP + gateway antenna gain − gateway feedline (the path is reciprocal).
+          fixedDbm: nodeTxPowerDbm + nodeAntennaGainDbi - nodeLossDb + antenna.gainDbi - gatewayLossDb,
+          sensitivityDbmBySf: sfs.map((sf) => sensitivityDbm(sf, settings.bandwidthKhz, g.noiseFigureDb)),
+        });
+      }
+      const nodes = await allPages<{ id: string; lat: number; lon: number }>((cursor) => listNodes(db, plan.id, { limit: 1000, cursor }));
+      const params: CoverageJobParams = {
+        mode: body.mode ?? 'fast',
+        radiusKm: body.radiusKm,
+        targetHeightM: body.targetHeightM ?? 1.5,
+        sf: body.sf ?? 10,
+        requiredMarginDb: body.requiredMarginDb ?? settings.targetMarginDb,
+        frequencyMhz: settings.frequencyMhz,
+        kFactor: body.kFactor ?? 4 / 3,
+        locationSigmaDb: settings.locationSigmaDb,
+        terrainPath: chosen.path,
+        terrainLayerId: chosen.layer.id,
+        gateways: jobGateways,
+        nodes: nodes.map((n) => ({ id: n.id, lat: n.lat, lon: n.lon })),
+      };
+      const run = await createCoverageRun(db, plan.id, { gatewayIds: gateways.map((g) => g.id), params, createdById: principal.userId });
+      await recordAudit(db, { principal, action: 'create', entity: 'coverage_run', entityId: run.id, detail: { planId: plan.id, mode: params.mode, radiusKm: params.radiusKm, gateways: gateways.length } });
+      await jobs.enqueue(run.id);
+      reply.code(202);
+      return runView(run);
+    },
+  );
+
+  api.get('/plans/:planId/coverage', { schema: { summary: 'Coverage runs of a plan, newest first', tags, params: planParams, querystring: pageQuery } }, async (request) => {
+    const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
+    const page = await listCoverageRuns(db, plan.id, request.query);
+    return { ...page, items: page.items.map(runView) };
+  });
+
+  const layerQuery = z.strictObject({ layer: z.enum(['margin', 'loss', 'redundancy', 'best-sf'], { error: 'must be margin, loss, redundancy or best-sf' }).optional() });
+  api.get(
+    '/plans/:planId/coverage/:runId',
+    {
+      schema: {
+        summary: 'One coverage run (status, progress, summary); with ".tif" after the id, the GeoTIFF export: Float32 margin (or ?layer=loss | redundancy | best-sf), NoData outside',
+        tags,
+        params: runParams,
+        querystring: layerQuery,
+      },
+    },
+    async (request, reply) => {
+      const exporting = request.params.runId.endsWith('.tif');
+      const runId = exporting ? request.params.runId.slice(0, -4) : request.params.runId;
+      const { run } = await loadRun(request, request.params.planId, runId);
+      if (!exporting) return runView(run);
+      const layer = request.query.layer ?? 'margin';
+      const file = layer === 'margin' ? RESULT_FILES.margin : layer === 'loss' ? RESULT_FILES.loss : layer === 'redundancy' ? RESULT_FILES.redundancy : RESULT_FILES.bestSf;
+      await resultRaster(run, file);
+      reply.header('content-type', 'image/tiff').header('content-disposition', `attachment; filename="coverage-${run.id}-${layer}.tif"`);
+      return reply.send(createReadStream(join(resultDir(config, run.id), file)));
+    },
+  );
+
+  api.get('/plans/:planId/coverage/:runId/events', { schema: { summary: 'Progress of a run as server-sent events until it finishes', tags, params: runParams } }, async (request, reply) => {
+    const { plan, run } = await loadRun(request, request.params.planId, request.params.runId);
+    reply.hijack();
+    const res = reply.raw;
+    res.writeHead(200, { 'content-type': 'text/event-stream', 'cache-control': 'no-cache', connection: 'keep-alive' });
+    let last = '';
+    let current: CoverageRunRow | null = run;
+    let open = true;
+    request.raw.on('close', () => (open = false));
+    while (open && current) {
+      const view = runView(current);
+      const line = JSON.stringify({ status: view.status, progress: view.progress, error: view.error });
+      if (line !== last) {
+        res.write(`event: progress\ndata: ${line}\n\n`);
+        last = line;
+      }
+      if (['done', 'failed', 'cancelled'].includes(current.status)) break;
+      await new Promise((resolve) => setTimeout(resolve, 500));
+      current = await findCoverageRun(db, plan.id, run.id);
+    }
+    if (open) res.write(`event: end\ndata: {}\n\n`);
+    res.end();
+  });
+
+  api.post('/plans/:planId/coverage/:runId/cancel', { schema: { summary: 'Cancel a queued or running coverage run', tags, params: runParams } }, async (request) => {
+    const principal = requireRole(request, 'planner');
+    const { plan, run } = await loadRun(request, request.params.planId, request.params.runId);
+    const cancelled = await cancelCoverageRun(db, plan.id, run.id);
+    if (!cancelled) throw new ApiError(409, 'already_finished', `the run is already ${run.status}`);
+    await recordAudit(db, { principal, action: 'cancel', entity: 'coverage_run', entityId: run.id, detail: { planId: plan.id } });
+    return runView((await findCoverageRun(db, plan.id, run.id))!);
+  });
+
+  api.get('/plans/:planId/coverage/:runId/tiles/:z/:x/:y', { schema: { summary: 'Map tile (Web Mercator XYZ, 256 px PNG) of the margin; colours: GET /coverage/legend', tags, params: tileParams } }, async (request, reply) => {
+    const { run } = await loadRun(request, request.params.planId, request.params.runId);
+    const y = Number(request.params.y.replace(/\.png$/, ''));
+    const raster = await resultRaster(run, RESULT_FILES.margin);
+    const png = await renderMarginTile(raster, request.params.z, request.params.x, y);
+    if (!png) throw new ApiError(400, 'invalid_input', 'tile: x and y must be within 0 … 2^z − 1');
+    reply.header('content-type', 'image/png').header('cache-control', 'private, max-age=3600');
+    return reply.send(Buffer.from(png));
+  });
+
+}

@@ -1,0 +1,200 @@
+// Executes one coverage run from its row: every gateway's area prediction on
+// the plan's terrain layer, the composite on the union of their windows, the
+// result files and the summary. Used alike by the in-process runner and by
+// `npm run worker` (BullMQ). The result folder is written under a temporary
+// name and renamed; the row goes to done once, guarded by its status.
+import { existsSync, mkdirSync, renameSync, rmSync, writeFileSync } from 'node:fs';
+import { isAbsolute, join } from 'node:path';
+import type { Database } from '../db/client.ts';
+import type { Config } from '../config.ts';
+import { claimCoverageRun, completeCoverageRun, failCoverageRun, findCoverageRunById, reportCoverageProgress } from '../db/repositories/coverage-runs.ts';
+import { openGeoRaster, type GeoRaster } from '../terrain/raster.ts';
+import { writeGeoTiff } from '../terrain/geotiff-writer.ts';
+import { loadTerrainWindow, windowFor, windowGeoTransform, type WindowPlacement } from '../coverage/terrain-window.ts';
+import { cellProducts, LOSS_NODATA, type CellBudget } from '../coverage/outputs.ts';
+import { buildComposite, summarise, type PlacedProducts } from '../coverage/composite.ts';
+import { BYTE_NODATA } from '../coverage/rasterise.ts';
+import type { CoverageMode } from '../coverage/area.ts';
+import { runArea, RunCancelledError } from './area-runner.ts';
+import type { WorkerPool } from './pool.ts';
+
+/** Everything a run needs, resolved by the API when the run is created (so workers need no plan logic). */
+export interface CoverageJobParams {
+  /** fast or full (los gives visibility only, which has no margin: CLI only). */
+  mode: Exclude<CoverageMode, 'los'>;
+  radiusKm: number;
+  targetHeightM: number;
+  sf: number;
+  requiredMarginDb: number;
+  frequencyMhz: number;
+  kFactor: number;
+  locationSigmaDb: number;
+  /** Elevation layer file (absolute, or relative to the files folder) and its id. */
+  terrainPath: string;
+  terrainLayerId: string;
+  gateways: Array<{ id: string; name: string; lat: number; lon: number; heightAglM: number; fixedDbm: number; sensitivityDbmBySf: number[] }>;
+  nodes: Array<{ id: string; lat: number; lon: number }>;
+}
+
+/** The files of a finished run, inside `<filesDir>/coverage/<runId>/`. */
+export const RESULT_FILES = { margin: 'margin.tif', loss: 'loss.tif', redundancy: 'redundancy.tif', bestSf: 'best-sf.tif', meta: 'meta.json' } as const;
+
+export function resultDir(config: Pick<Config, 'filesDir'>, runId: string): string {
+  return join(config.filesDir, 'coverage', runId);
+}
+
+export function resolveFilePath(config: Pick<Config, 'filesDir' | 'dataDir'>, filePath: string): string {
+  if (isAbsolute(filePath)) return filePath;
+  for (const candidate of [join(config.filesDir, filePath), join(config.dataDir, filePath)]) if (existsSync(candidate)) return candidate;
+  return join(config.filesDir, filePath);
+}
+
+export interface ExecuteOptions {
+  pool?: WorkerPool;
+  workers?: number;
+  workerId: string;
+  /** Called before anything is written; a test hook to kill a worker mid-job. */
+  onProgress?: (fraction: number) => void;
+}
+
+/** Union window of several placements. */
+function unionOf(placements: WindowPlacement[]): WindowPlacement {
+  const x0 = Math.min(...placements.map((p) => p.x0));
+  const y0 = Math.min(...placements.map((p) => p.y0));
+  const x1 = Math.max(...placements.map((p) => p.x0 + p.widthPx));
+  const y1 = Math.max(...placements.map((p) => p.y0 + p.heightPx));
+  return { x0, y0, widthPx: x1 - x0, heightPx: y1 - y0 };
+}
+
+/**
+ * Runs the job for `runId`. Returns the final status it left the row in,
+ * or 'skipped' when the row was already finished (a duplicate delivery).
+ */
+export async function executeCoverageRun(db: Database, config: Config, runId: string, options: ExecuteOptions): Promise<'done' | 'failed' | 'cancelled' | 'skipped'> {
+  const row = await findCoverageRunById(db, runId);
+  if (!row) return 'skipped';
+  if (!(await claimCoverageRun(db, runId, options.workerId))) return 'skipped';
+  const params = row.params as unknown as CoverageJobParams;
+  const controller = new AbortController();
+  let lastReport = 0;
+  let reporting: Promise<void> = Promise.resolve();
+  const gatewayCount = params.gateways.length;
+  const report = (fraction: number) => {
+    options.onProgress?.(fraction);
+    const now = Date.now();
+    if (now - lastReport < 250 && fraction < 1) return;
+    lastReport = now;
+    reporting = reporting.then(async () => {
+      const stillRunning = await reportCoverageProgress(db, runId, fraction);
+      if (!stillRunning) controller.abort();
+    });
+  };
+  let raster: GeoRaster | null = null;
+  const dir = resultDir(config, runId);
+  const temp = `${dir}.partial-${process.pid}-${Date.now()}`;
+  try {
+    raster = await openGeoRaster(resolveFilePath(config, params.terrainPath));
+    const radiusM = params.radiusKm * 1000;
+    const placements = params.gateways.map((g) => windowFor(raster!, { lat: g.lat, lon: g.lon, radiusM, allowClip: false }));
+    const union = unionOf(placements);
+    const parts: PlacedProducts[] = [];
+    const inside = new Uint8Array(union.widthPx * union.heightPx);
+    for (let index = 0; index < gatewayCount; index++) {
+      const g = params.gateways[index];
+      const { terrain, placement } = await loadTerrainWindow(raster, { lat: g.lat, lon: g.lon, radiusM }, placements[index]);
+      const area = await runArea(
+        terrain,
+        {
+          mode: params.mode,
+          radiusM,
+          heightAglM: g.heightAglM,
+          targetHeightAglM: params.targetHeightM,
+          kFactor: params.kFactor,
+          frequencyMhz: params.frequencyMhz,
+        },
+        { pool: options.pool, workers: options.workers, signal: controller.signal, onProgress: (f) => report((index + f * 0.95) / gatewayCount) },
+      );
+      if (!area.lossDb) throw new Error('coverage runs need a loss mode (fast or full)');
+      const lossDb = area.lossDb;
+      const budget: CellBudget = {
+        fixedDbm: g.fixedDbm,
+        sensitivityDbmBySf: g.sensitivityDbmBySf,
+        spreadingFactor: params.sf,
+        requiredMarginDb: params.requiredMarginDb,
+        locationSigmaDb: params.locationSigmaDb,
+      };
+      const products = cellProducts(lossDb, budget);
+      parts.push({ gatewayIndex: index, x0: placement.x0 - union.x0, y0: placement.y0 - union.y0, widthPx: placement.widthPx, heightPx: placement.heightPx, products, lossDb });
+      for (let row = 0; row < placement.heightPx; row++) {
+        for (let col = 0; col < placement.widthPx; col++) {
+          if (lossDb[row * placement.widthPx + col] === lossDb[row * placement.widthPx + col]) {
+            inside[(row + placement.y0 - union.y0) * union.widthPx + col + placement.x0 - union.x0] = 1;
+          }
+        }
+      }
+      await reporting;
+      if (controller.signal.aborted) throw new RunCancelledError();
+    }
+    const composite = buildComposite(union.widthPx, union.heightPx, parts, params.requiredMarginDb);
+    const geoTransform = windowGeoTransform(raster, union);
+    const res = raster.resolutionM;
+    const nodes = params.nodes.map((node) => {
+      const p = raster!.lonLatToPixel(node.lon, node.lat);
+      const col = p.x - union.x0;
+      const row = p.y - union.y0;
+      const ok = col >= 0 && row >= 0 && col < union.widthPx && row < union.heightPx;
+      return { id: node.id, col: ok ? col : null, row: ok ? row : null };
+    });
+    const cellArea = (row: number): number => {
+      if (raster!.crs.kind === 'projected') return (Math.abs(geoTransform[1] * geoTransform[5]) / 1e6);
+      const lat = raster!.pixelToLonLat(union.x0 + 0.5, union.y0 + row + 0.5).lat;
+      return (res.x * res.y * Math.cos((lat * Math.PI) / 180)) / Math.cos((((raster!.boundsLonLat.south + raster!.boundsLonLat.north) / 2) * Math.PI) / 180) / 1e6;
+    };
+    const summary = summarise(composite, inside, gatewayCount, params.requiredMarginDb, cellArea, nodes);
+    const summaryJson = {
+      ...summary,
+      gateways: summary.gateways.map((entry) => ({ ...entry, gatewayId: params.gateways[entry.index].id, name: params.gateways[entry.index].name })),
+      mode: params.mode,
+      radiusKm: params.radiusKm,
+      sf: params.sf,
+      requiredMarginDb: params.requiredMarginDb,
+      grid: { widthPx: union.widthPx, heightPx: union.heightPx, geoTransform, epsg: raster.crs.epsg },
+    };
+    // Result files: temporary folder first, renamed into place in one step.
+    mkdirSync(temp, { recursive: true });
+    const base = { widthPx: union.widthPx, heightPx: union.heightPx, geoTransform, epsg: raster.crs.epsg, crsKind: raster.crs.kind, compression: 'deflate' as const, tiled: { tileSizePx: 256 } };
+    const clean = (values: Float32Array) => {
+      const out = new Float32Array(values.length);
+      for (let i = 0; i < values.length; i++) out[i] = values[i] === values[i] ? values[i] : LOSS_NODATA;
+      return out;
+    };
+    writeFileSync(join(temp, RESULT_FILES.margin), writeGeoTiff({ ...base, data: clean(composite.marginDb), noData: LOSS_NODATA }));
+    writeFileSync(join(temp, RESULT_FILES.loss), writeGeoTiff({ ...base, data: clean(composite.lossDb), noData: LOSS_NODATA }));
+    const redundancy = new Uint8Array(composite.redundancy.length);
+    for (let i = 0; i < redundancy.length; i++) redundancy[i] = inside[i] ? composite.redundancy[i] : BYTE_NODATA;
+    writeFileSync(join(temp, RESULT_FILES.redundancy), writeGeoTiff({ ...base, data: redundancy, noData: BYTE_NODATA }));
+    writeFileSync(join(temp, RESULT_FILES.bestSf), writeGeoTiff({ ...base, data: composite.bestSf, noData: BYTE_NODATA }));
+    writeFileSync(join(temp, RESULT_FILES.meta), JSON.stringify({ runId, union, geoTransform, epsg: raster.crs.epsg }));
+    await reporting;
+    if (controller.signal.aborted) throw new RunCancelledError();
+    // A folder left by an earlier attempt that died after its rename is replaced.
+    rmSync(dir, { recursive: true, force: true });
+    mkdirSync(join(config.filesDir, 'coverage'), { recursive: true });
+    renameSync(temp, dir);
+    const done = await completeCoverageRun(db, runId, { resultPath: join('coverage', runId), summary: summaryJson });
+    if (!done) {
+      rmSync(dir, { recursive: true, force: true });
+      return 'cancelled';
+    }
+    return 'done';
+  } catch (error) {
+    rmSync(temp, { recursive: true, force: true });
+    if (error instanceof RunCancelledError || controller.signal.aborted) return 'cancelled';
+    const message = error instanceof Error ? error.message : String(error);
+    await failCoverageRun(db, runId, message);
+    return 'failed';
+  } finally {
+    await reporting.catch(() => undefined);
+    await raster?.close();
+  }
+}

@@ -1,0 +1,104 @@
+// The coverage job runner the API hands runs to. Without configuration: an
+// in-process queue over the worker-thread pool (one run at a time, each
+// using every thread). With REDIS_URL: a BullMQ queue; `npm run worker`
+// processes (server/jobs/worker-main.ts) on any machine take the jobs.
+// Job state always lives in the CoverageRun row, so a restart loses nothing:
+// unfinished rows are queued again when the runner starts.
+import { hostname } from 'node:os';
+import { Queue } from 'bullmq';
+import type { Database } from '../db/client.ts';
+import type { Config } from '../config.ts';
+import { unfinishedCoverageRuns } from '../db/repositories/coverage-runs.ts';
+import { executeCoverageRun } from './coverage-job.ts';
+import { WorkerPool } from './pool.ts';
+
+export const COVERAGE_QUEUE = 'coverage';
+
+export interface CoverageJobs {
+  readonly kind: 'in-process' | 'bullmq';
+  enqueue(runId: string): Promise<void>;
+  close(): Promise<void>;
+}
+
+/** Redis key prefix of the queues (EARSHOT_QUEUE_PREFIX, default "earshot"), so several installs or test runs can share one Redis. */
+export function queuePrefix(env: NodeJS.ProcessEnv = process.env): string {
+  return env.EARSHOT_QUEUE_PREFIX?.trim() || 'earshot';
+}
+
+/** BullMQ connection options from a redis:// URL. */
+export function redisConnection(url: string): { host: string; port: number; password?: string; username?: string; db?: number; maxRetriesPerRequest: null } {
+  const parsed = new URL(url);
+  return {
+    host: parsed.hostname || '127.0.0.1',
+    port: parsed.port ? Number(parsed.port) : 6379,
+    password: parsed.password ? decodeURIComponent(parsed.password) : undefined,
+    username: parsed.username ? decodeURIComponent(parsed.username) : undefined,
+    db: parsed.pathname && parsed.pathname.length > 1 ? Number(parsed.pathname.slice(1)) : undefined,
+    maxRetriesPerRequest: null,
+  };
+}
+
+class InProcessJobs implements CoverageJobs {
+  readonly kind = 'in-process' as const;
+  private pool: WorkerPool | null = null;
+  private queue: string[] = [];
+  private running: Promise<void> | null = null;
+  private closed = false;
+
+  constructor(
+    private readonly db: Database,
+    private readonly config: Config,
+  ) {}
+
+  async enqueue(runId: string): Promise<void> {
+    if (this.closed) throw new Error('job runner is closed');
+    if (!this.queue.includes(runId)) this.queue.push(runId);
+    if (!this.running) this.running = this.drain();
+  }
+
+  private async drain(): Promise<void> {
+    try {
+      while (this.queue.length > 0 && !this.closed) {
+        const runId = this.queue.shift()!;
+        // Small windows run faster in the calling thread than the pool can start up.
+        this.pool ??= this.config.workerCount > 1 ? new WorkerPool(this.config.workerCount) : null;
+        await executeCoverageRun(this.db, this.config, runId, { pool: this.pool ?? undefined, workers: 1, workerId: `${hostname()}:${process.pid}` }).catch(() => undefined);
+      }
+    } finally {
+      this.running = null;
+    }
+  }
+
+  async close(): Promise<void> {
+    this.closed = true;
+    this.queue = [];
+    await this.running?.catch(() => undefined);
+    await this.pool?.close();
+    this.pool = null;
+  }
+}
+
+class BullJobs implements CoverageJobs {
+  readonly kind = 'bullmq' as const;
+  private readonly queue: Queue;
+
+  constructor(redisUrl: string, prefix: string) {
+    this.queue = new Queue(COVERAGE_QUEUE, { connection: redisConnection(redisUrl), prefix });
+  }
+
+  async enqueue(runId: string): Promise<void> {
+    // jobId = run id: a run is never queued twice; attempts cover a worker that dies.
+    await this.queue.add('run', { runId }, { jobId: runId, attempts: 3, backoff: { type: 'fixed', delay: 1000 }, removeOnComplete: 1000, removeOnFail: 1000 });
+  }
+
+  async close(): Promise<void> {
+    await this.queue.close();
+  }
+}
+
+/** The runner for this configuration; unfinished runs of a previous process are queued again. */
+export async function createCoverageJobs(db: Database, config: Config, env: NodeJS.ProcessEnv = process.env): Promise<CoverageJobs> {
+  const jobs: CoverageJobs = config.redisUrl ? new BullJobs(config.redisUrl, queuePrefix(env)) : new InProcessJobs(db, config);
+  for (const run of await unfinishedCoverageRuns(db)) await jobs.enqueue(run.id);
+  return jobs;
+}
