@@ -3,7 +3,7 @@
 // result files and the summary. Used alike by the in-process runner and by
 // `npm run worker` (BullMQ). The result folder is written under a temporary
 // name and renamed; the row goes to done once, guarded by its status.
-import { existsSync, mkdirSync, renameSync, rmSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdirSync, readdirSync, renameSync, rmSync, writeFileSync } from 'node:fs';
 import { isAbsolute, join } from 'node:path';
 import type { Database } from '../db/client.ts';
 import type { Config } from '../config.ts';
@@ -93,6 +93,9 @@ export async function executeCoverageRun(db: Database, config: Config, runId: st
   const dir = resultDir(config, runId);
   const temp = `${dir}.partial-${process.pid}-${Date.now()}`;
   try {
+    // Temporary folders of an earlier attempt of this run (a worker killed while writing) go first.
+    const parent = join(config.filesDir, 'coverage');
+    if (existsSync(parent)) for (const name of readdirSync(parent)) if (name.startsWith(`${runId}.partial-`)) rmSync(join(parent, name), { recursive: true, force: true });
     raster = await openGeoRaster(resolveFilePath(config, params.terrainPath));
     const radiusM = params.radiusKm * 1000;
     const placements = params.gateways.map((g) => windowFor(raster!, { lat: g.lat, lon: g.lon, radiusM, allowClip: false }));

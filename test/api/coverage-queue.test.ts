@@ -1,0 +1,125 @@
+// Coverage runs on BullMQ queue workers (`npm run worker` processes) with
+// Redis on 127.0.0.1:6379 and a shared PostgreSQL: a worker killed with
+// SIGKILL mid-job → the job is taken back after its lock lapses, a second
+// worker completes it exactly once, and no half-written result is left.
+// Mandatory in CI (CI=true); elsewhere a visible skip when Redis or
+// PostgreSQL is unreachable.
+import { spawn, type ChildProcess } from 'node:child_process';
+import { existsSync, readdirSync } from 'node:fs';
+import { join } from 'node:path';
+import { randomBytes } from 'node:crypto';
+import { Redis } from 'ioredis';
+import proj4 from 'proj4';
+import request from 'supertest';
+import { afterAll, describe, expect, it } from 'vitest';
+import { bearer, createTestApp, postgresAvailable, type TestApp } from '../helpers/test-app.ts';
+import { writeGeoTiff } from '../../server/terrain/geotiff-writer.ts';
+import { resultDir } from '../../server/jobs/coverage-job.ts';
+import { makeSyntheticDem } from '../unit/coverage/synthetic-dem.ts';
+
+const REDIS_URL = process.env.EARSHOT_TEST_REDIS_URL ?? 'redis://127.0.0.1:6379';
+const inCi = process.env.CI === 'true';
+
+async function redisReachable(): Promise<boolean> {
+  const client = new Redis(REDIS_URL, { lazyConnect: true, connectTimeout: 1500, maxRetriesPerRequest: 0, retryStrategy: () => null });
+  try {
+    await client.connect();
+    return (await client.ping()) === 'PONG';
+  } catch {
+    return false;
+  } finally {
+    client.disconnect();
+  }
+}
+
+const redisOk = await redisReachable();
+const ready = redisOk && postgresAvailable;
+if (!ready && !inCi) console.warn(`SKIPPED coverage-queue: needs Redis at ${REDIS_URL} (${redisOk ? 'ok' : 'unreachable'}) and PostgreSQL (${postgresAvailable ? 'ok' : 'unreachable'})`);
+const suite = ready || inCi ? describe : describe.skip;
+
+const UTM33 = '+proj=utm +zone=33 +datum=WGS84 +units=m +no_defs';
+const SIZE = 900;
+const CELL_M = 30;
+
+suite('coverage on BullMQ queue workers (Redis 127.0.0.1:6379, PostgreSQL)', () => {
+  let t: TestApp | undefined;
+  const workers: ChildProcess[] = [];
+  const prefix = `earshot-test-${randomBytes(5).toString('hex')}`;
+  afterAll(async () => {
+    for (const worker of workers) if (worker.exitCode === null) worker.kill('SIGKILL');
+    await t?.close();
+    // Remove this run's queue keys.
+    const redis = new Redis(REDIS_URL);
+    const keys = await redis.keys(`${prefix}:*`);
+    if (keys.length > 0) await redis.del(...keys);
+    redis.disconnect();
+  });
+
+  function startWorker(config: TestApp['config']): ChildProcess {
+    const child = spawn(process.execPath, ['--import', 'tsx', 'server/jobs/worker-main.ts'], {
+      env: {
+        ...process.env,
+        DATABASE_URL: config.databaseUrl,
+        REDIS_URL,
+        EARSHOT_DATA_DIR: config.dataDir,
+        EARSHOT_QUEUE_PREFIX: prefix,
+        EARSHOT_WORKERS: '1',
+        EARSHOT_JOB_LOCK_MS: '4000',
+        EARSHOT_JOB_STALLED_MS: '1500',
+      },
+      stdio: ['ignore', 'pipe', 'pipe'],
+    });
+    child.stderr?.on('data', (chunk: Buffer) => process.stderr.write(`[worker ${child.pid}] ${chunk}`));
+    workers.push(child);
+    return child;
+  }
+
+  it('a worker killed with SIGKILL mid-job: the job is retried and completes once, with no half-written result', async () => {
+    if (!ready) throw new Error(`CI=true needs Redis at ${REDIS_URL} and PostgreSQL`);
+    process.env.EARSHOT_QUEUE_PREFIX = prefix;
+    t = await createTestApp('postgres', { env: { REDIS_URL } });
+    const http = request(t.app.server);
+    const as = bearer(t.tokens.planner);
+    const plan = await http.post('/api/v1/plans').set(as).send({ name: 'Queue test plan (synthetic terrain)' });
+    const dem = makeSyntheticDem(SIZE, SIZE, CELL_M, 4, 1);
+    const bytes = Buffer.from(writeGeoTiff({ widthPx: SIZE, heightPx: SIZE, data: dem.elevationM, geoTransform: [500_000, CELL_M, 0, 4_100_000, 0, -CELL_M], epsg: 32633, noData: -9999 }));
+    expect((await http.post(`/api/v1/plans/${plan.body.id}/terrain`).set(as).set('Content-Type', 'image/tiff').send(bytes)).status).toBe(201);
+    const [lon, lat] = proj4(UTM33, 'WGS84', [500_000 + 450.5 * CELL_M, 4_100_000 - 450.5 * CELL_M]) as [number, number];
+    for (const [name, dLon] of [['North mast', 0], ['East mast', 0.02]] as const) {
+      expect((await http.post(`/api/v1/plans/${plan.body.id}/gateways`).set(as).send({ name, lat, lon: lon + dLon, antennaHeightAglM: 20 })).status).toBe(201);
+    }
+    const started = await http.post(`/api/v1/plans/${plan.body.id}/coverage`).set(as).send({ radiusKm: 11, mode: 'fast' });
+    expect(started.status, JSON.stringify(started.body)).toBe(202);
+    const runId = started.body.id as string;
+    const read = async () => (await http.get(`/api/v1/plans/${plan.body.id}/coverage/${runId}`).set(as)).body as { status: string; progress: number; attempts: number; error: string | null };
+
+    const first = startWorker(t.config);
+    // Wait until the first worker is inside the job, then kill it without warning.
+    const deadline = Date.now() + 120_000;
+    let row = await read();
+    while (!(row.status === 'running' && row.progress > 0) && row.status !== 'done' && Date.now() < deadline) {
+      await new Promise((resolve) => setTimeout(resolve, 100));
+      row = await read();
+    }
+    expect(row.status, 'the first worker should be mid-job').toBe('running');
+    first.kill('SIGKILL');
+    await new Promise((resolve) => first.once('exit', resolve));
+
+    startWorker(t.config);
+    while (!['done', 'failed', 'cancelled'].includes(row.status) && Date.now() < deadline + 60_000) {
+      await new Promise((resolve) => setTimeout(resolve, 250));
+      row = await read();
+    }
+    expect(row.status, row.error ?? '').toBe('done');
+    expect(row.attempts).toBe(2);
+    const dir = resultDir(t.config, runId);
+    expect(readdirSync(dir).sort()).toEqual(['best-sf.tif', 'loss.tif', 'margin.tif', 'meta.json', 'redundancy.tif']);
+    // No temporary folder of the killed attempt is left beside the result.
+    const siblings = readdirSync(join(t.config.filesDir, 'coverage'));
+    expect(siblings.filter((name) => name.includes('.partial-'))).toEqual([]);
+    // The export is readable.
+    const tif = await http.get(`/api/v1/plans/${plan.body.id}/coverage/${runId}.tif`).set(as);
+    expect(tif.status).toBe(200);
+    expect(existsSync(join(dir, 'margin.tif'))).toBe(true);
+  }, 240_000);
+});
