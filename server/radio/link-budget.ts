@@ -243,7 +243,19 @@ export function computeLinkBudget(input: LinkBudgetInput): LinkBudget {
   const warnings = legal ? [...legal.warnings] : [];
 
   const perSf: SfBudget[] = receptionPerSf(receivedPowerDbm, bandwidthKhz, noiseFigureDb, spreadingFactors).map((r) => {
-    const toa = input.frame ? timeOnAirMs({ ...input.frame, spreadingFactor: r.spreadingFactor, bandwidthKhz }).timeOnAirMs : null;
+    const frame = input.frame;
+    const toa = frame
+      ? timeOnAirMs({
+          spreadingFactor: r.spreadingFactor,
+          bandwidthKhz,
+          codingRate: frame.codingRate,
+          payloadBytes: frame.payloadBytes,
+          preambleSymbols: frame.preambleSymbols,
+          explicitHeader: frame.explicitHeader,
+          crcOn: frame.crcOn,
+          ldro: frame.ldro,
+        }).timeOnAirMs
+      : null;
     return {
       spreadingFactor: r.spreadingFactor,
       snrFloorDb: r.snrFloorDb,
@@ -256,8 +268,9 @@ export function computeLinkBudget(input: LinkBudgetInput): LinkBudget {
       dwellOk: toa !== null && legal ? dwellTimeOk(toa, legal.dwellTimeMs) : null,
     };
   });
-  const usable = perSf.filter((s) => s.meetsTarget && s.dwellOk !== false).sort((a, b) => a.spreadingFactor - b.spreadingFactor);
-  const bestSf = usable.length > 0 ? usable[0].spreadingFactor : null;
+  // Fastest usable SF = the lowest one (shortest time on air), whatever order the SFs were given in.
+  let bestSf: number | null = null;
+  for (const s of perSf) if (s.meetsTarget && s.dwellOk !== false && (bestSf === null || s.spreadingFactor < bestSf)) bestSf = s.spreadingFactor;
   if (bestSf === null) warnings.push(`no spreading factor reaches the ${targetMarginDb} dB target margin${perSf.some((s) => s.dwellOk === false) ? ' within the dwell-time limit' : ''}`);
   const dwellFails = perSf.filter((s) => s.dwellOk === false).map((s) => `SF${s.spreadingFactor}`);
   if (dwellFails.length > 0 && legal) warnings.push(`frame exceeds the ${legal.dwellTimeMs} ms dwell time at ${dwellFails.join(', ')}`);
@@ -266,8 +279,31 @@ export function computeLinkBudget(input: LinkBudgetInput): LinkBudget {
     frequencyMhz,
     bandwidthKhz,
     pathLossDb,
-    transmitter: { ...tx, powerDbm: input.transmitter.powerDbm, eirpDbm, erpDbm: eirpDbm - DIPOLE_GAIN_DBI, peakEirpDbm },
-    receiver: { ...rx, noiseFigureDb, noiseFloorDbm: floorDbm },
+    // Fields written out rather than spread: keeps this hot path (coverage, planning) lean.
+    transmitter: {
+      feedlineLossDb: tx.feedlineLossDb,
+      connectorLossDb: tx.connectorLossDb,
+      mismatchLossDb: tx.mismatchLossDb,
+      otherLossesDb: tx.otherLossesDb,
+      totalLossDb: tx.totalLossDb,
+      antennaGainDbi: tx.antennaGainDbi,
+      antennaPeakGainDbi: tx.antennaPeakGainDbi,
+      powerDbm: input.transmitter.powerDbm,
+      eirpDbm,
+      erpDbm: eirpDbm - DIPOLE_GAIN_DBI,
+      peakEirpDbm,
+    },
+    receiver: {
+      feedlineLossDb: rx.feedlineLossDb,
+      connectorLossDb: rx.connectorLossDb,
+      mismatchLossDb: rx.mismatchLossDb,
+      otherLossesDb: rx.otherLossesDb,
+      totalLossDb: rx.totalLossDb,
+      antennaGainDbi: rx.antennaGainDbi,
+      antennaPeakGainDbi: rx.antennaPeakGainDbi,
+      noiseFigureDb,
+      noiseFloorDbm: floorDbm,
+    },
     receivedPowerDbm,
     snrDb: receivedPowerDbm - floorDbm,
     targetMarginDb,

@@ -7,7 +7,7 @@ import { receptionPerSf, timeOnAirMs } from '../../server/radio/lora-phy.ts';
 
 function measure(label: string, iterations: number, body: (i: number) => number): number {
   let sink = 0;
-  for (let i = 0; i < Math.min(1000, iterations); i++) sink += body(i); // warm-up
+  for (let i = 0; i < Math.min(50_000, iterations); i++) sink += body(i); // warm-up: let the optimising compiler settle first
   const start = performance.now();
   for (let i = 0; i < iterations; i++) sink += body(i);
   const elapsedMs = performance.now() - start;
@@ -25,7 +25,7 @@ export async function run(): Promise<void> {
   );
   const reception = measure('receptionPerSf (6 SFs)', 500_000, (i) => receptionPerSf(-100 - (i % 40), 125, 6)[5].marginDb);
   const gain = measure('antennaGainDbi (Yagi, az/el interpolation)', 1_000_000, (i) => antennaGainDbi(yagi, i % 360, (i % 180) - 90, 45));
-  const budget = measure('computeLinkBudget (EU plan, frame, feedline)', 100_000, (i) =>
+  const budget = measure('computeLinkBudget (EU plan, frame, feedline)', 300_000, (i) =>
     computeLinkBudget({
       frequencyMhz: 868.1,
       bandwidthKhz: 125,
