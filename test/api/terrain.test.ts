@@ -1,13 +1,14 @@
 // Terrain upload API on both engines: raw and multipart uploads, list with extent/CRS/resolution/size,
 // delete, roles (403), team isolation (404), each bad upload refused with its status and nothing
 // half-stored (no row without a file, no file without a row), and hillshade tiles.
-import { existsSync, readdirSync } from 'node:fs';
+import { existsSync, mkdirSync, readdirSync, utimesSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterAll, beforeAll, beforeEach, expect, it } from 'vitest';
 import request from 'supertest';
 import { bearer, createTestApp, describeEngines, type TestApp } from '../helpers/test-app.ts';
 import { writeGeoTiff } from '../../server/terrain/geotiff-writer.ts';
 import { patchTag } from '../unit/terrain/tiff-patch.ts';
+import { sweepOrphanFiles } from '../../server/api/routes/terrain.ts';
 
 // A 120 × 100 UTM 32N DEM at 30 m around 49.79° N, 6.1° E (synthetic hills), tiled 32 px, deflate.
 const W = 120;
@@ -138,6 +139,28 @@ describeEngines('terrain layers API', (engine) => {
       expect(JSON.stringify(response.body), c.name).not.toMatch(/at .*\.ts:\d+/);
       await expectNothingStored(planId);
     }
+  });
+
+  it('the start-up sweep removes hour-old files no row references (deleted plans, crashed uploads) and keeps the rest', async () => {
+    const planId = await planWithSite();
+    const created = await upload(planId, dem());
+    const row = await t.db.prisma.terrainLayer.findFirstOrThrow({ where: { id: created.body.id } });
+    const dir = join(t.config.filesDir, 'terrain', planId);
+    const goneDir = join(t.config.filesDir, 'terrain', 'deleted-plan');
+    mkdirSync(goneDir, { recursive: true });
+    const old = new Date(Date.now() - 2 * 60 * 60 * 1000);
+    const stale = [join(dir, '.incoming-crashed.tif'), join(goneDir, 'abc.tif')];
+    for (const path of stale) {
+      writeFileSync(path, 'x');
+      utimesSync(path, old, old);
+    }
+    const fresh = join(dir, '.incoming-in-progress.tif');
+    writeFileSync(fresh, 'x');
+    utimesSync(join(t.config.filesDir, row.filePath), old, old);
+    const removed = await sweepOrphanFiles(t.db, join(t.config.filesDir, 'terrain'), 60 * 60 * 1000);
+    expect(removed.sort()).toEqual(stale.sort());
+    expect(existsSync(fresh)).toBe(true);
+    expect(existsSync(join(t.config.filesDir, row.filePath))).toBe(true);
   });
 
   it('a plan with no sites, gateways or nodes accepts any layer (nothing to overlap yet)', async () => {

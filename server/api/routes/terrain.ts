@@ -5,7 +5,7 @@
 // and the file renamed into place inside one transaction: nothing is ever half-stored.
 import { createHash, randomUUID } from 'node:crypto';
 import { createWriteStream } from 'node:fs';
-import { mkdir, rename, rm } from 'node:fs/promises';
+import { mkdir, readdir, rename, rm, stat } from 'node:fs/promises';
 import { isAbsolute, join } from 'node:path';
 import type { Readable } from 'node:stream';
 import multipart from '@fastify/multipart';
@@ -13,7 +13,8 @@ import type { FastifyInstance, FastifyRequest } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { recordAudit } from '../../db/repositories/audit.ts';
-import { allTerrainLayers, createTerrainLayerWith, deleteTerrainLayer, listTerrainLayers, planExtent, type TerrainLayerRow } from '../../db/repositories/terrain-layers.ts';
+import type { Database } from '../../db/client.ts';
+import { allTerrainLayers, createTerrainLayerWith, deleteTerrainLayer, listTerrainLayers, planExtent, terrainFilePaths, type TerrainLayerRow } from '../../db/repositories/terrain-layers.ts';
 import { crsForEpsg } from '../../terrain/crs.ts';
 import { openGeoRaster, RasterError, type GeoRaster } from '../../terrain/raster.ts';
 import { renderHillshadeTile, validTile } from '../../terrain/tiles.ts';
@@ -179,6 +180,15 @@ export default async function terrainRoutes(app: FastifyInstance): Promise<void>
     rasterSets.delete(planId);
     void entry.rasters.then((rasters) => Promise.all(rasters.map((r) => r.close()))).catch(() => undefined);
   };
+  // Files without a row (a plan deleted with its rows, a crash mid-upload) are removed once they are an hour old,
+  // so an upload in progress on another instance sharing the data folder is never touched.
+  app.addHook('onReady', async () => {
+    try {
+      await sweepOrphanFiles(db, join(filesDir, 'terrain'), 60 * 60 * 1000);
+    } catch (error) {
+      app.log.warn({ err: error }, 'terrain file sweep failed');
+    }
+  });
   app.addHook('onClose', async () => {
     for (const planId of [...rasterSets.keys()]) dropRasters(planId);
     tileCache.clear();
@@ -385,4 +395,29 @@ async function receiveUpload(request: FastifyRequest, tempPath: string, limit: n
     throw new ApiError(415, 'unsupported_media_type', `send the GeoTIFF as the body with Content-Type: image/tiff, or as multipart/form-data (got ${request.headers['content-type'] ?? 'no content type'})`);
   }
   return { received: await receive(body, tempPath, limit), fields };
+}
+
+/** Removes files under <filesDir>/terrain/<planId>/ that no terrain layer row references and that are older than `minAgeMs`. */
+export async function sweepOrphanFiles(db: Database, terrainDir: string, minAgeMs: number): Promise<string[]> {
+  let planDirs: string[];
+  try {
+    planDirs = (await readdir(terrainDir, { withFileTypes: true })).filter((entry) => entry.isDirectory()).map((entry) => entry.name);
+  } catch {
+    return [];
+  }
+  const removed: string[] = [];
+  const now = Date.now();
+  for (const planId of planDirs) {
+    const dir = join(terrainDir, planId);
+    const referenced = new Set((await terrainFilePaths(db, planId)).map((filePath) => filePath.split(/[\\/]/).pop()));
+    for (const file of await readdir(dir)) {
+      if (referenced.has(file)) continue;
+      const path = join(dir, file);
+      const info = await stat(path).catch(() => null);
+      if (!info || !info.isFile() || now - info.mtimeMs < minAgeMs) continue;
+      await rm(path, { force: true });
+      removed.push(path);
+    }
+  }
+  return removed;
 }

@@ -35,6 +35,11 @@ export async function allTerrainLayers(db: Database, planId: string): Promise<Te
   return db.prisma.terrainLayer.findMany({ where: { planId }, orderBy: [{ resolutionM: 'asc' }, { createdAt: 'asc' }] });
 }
 
+/** File paths (relative to filesDir) of a plan's layers. */
+export async function terrainFilePaths(db: Database, planId: string): Promise<string[]> {
+  return (await db.prisma.terrainLayer.findMany({ where: { planId }, select: { filePath: true } })).map((row) => row.filePath);
+}
+
 /** Deletes a row; returns it (null when there was none) so the caller can remove its file. */
 export async function deleteTerrainLayer(db: Database, planId: string, id: string): Promise<TerrainLayerRow | null> {
   const row = await findTerrainLayer(db, planId, id);
