@@ -56,6 +56,7 @@ export const coverageCommands: CliCommand[] = [
           targetHeightAglM: o['target-height-m'] ?? 1.5,
           kFactor: o['k-factor'] ?? 4 / 3,
           frequencyMhz: o['frequency-mhz'] ?? 915,
+          p1812: { siteLatDeg: o.site.lat },
         };
         const result = await runArea(loaded.terrain, request, { workers: o.workers, onProgress: (fraction) => context.progress(fraction, o.mode) });
         let cells = 0;

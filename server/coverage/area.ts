@@ -5,6 +5,7 @@ import { planRays, type RayPlan } from './geometry.ts';
 import { rasteriseLos, rasteriseLoss } from './rasterise.ts';
 import { makeScratch, sweepBullington, sweepLos, type TerrainWindow } from './sweep.ts';
 import { sweepFull, type FullModel } from './full.ts';
+import { p1812FullModel, type P1812Options } from './full-model.ts';
 
 export type CoverageMode = 'los' | 'fast' | 'full';
 
@@ -24,8 +25,9 @@ export interface AreaRequest {
   raySpacingCells?: number;
   /** Sample step along rays in cells. */
   sampleStepCells?: number;
-  /** `full` mode: the per-profile model (P.1812) and how often to evaluate it along a ray. */
+  /** `full` mode: a per-profile model; when absent, P.1812-8 built from `p1812` (plain data, so it can cross to worker threads). */
   full?: FullModel;
+  p1812?: P1812Options;
 }
 
 /** Buffer sizes and plan for a request on a terrain window. */
@@ -57,13 +59,14 @@ export function sweepSector(
 ): void {
   const scratch = makeScratch(plan);
   const chunk = 64;
+  let model: FullModel | undefined;
   for (let r = rayStart; r < rayEnd; r += chunk) {
     const end = Math.min(rayEnd, r + chunk);
     if (request.mode === 'los') sweepLos(terrain, plan, request, r, end, samples, scratch);
     else if (request.mode === 'fast') sweepBullington(terrain, plan, request, r, end, samples, scratch);
     else {
-      if (!request.full) throw new Error('full mode needs a propagation model');
-      sweepFull(terrain, plan, request, request.full, r, end, samples);
+      model ??= request.full ?? p1812FullModel(request, request.p1812 ?? { siteLatDeg: 0 });
+      sweepFull(terrain, plan, request, model, r, end, samples);
     }
     onRay?.(end - r);
   }

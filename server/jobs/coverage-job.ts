@@ -114,6 +114,7 @@ export async function executeCoverageRun(db: Database, config: Config, runId: st
           targetHeightAglM: params.targetHeightM,
           kFactor: params.kFactor,
           frequencyMhz: params.frequencyMhz,
+          p1812: { siteLatDeg: g.lat },
         },
         { pool: options.pool, workers: options.workers, signal: controller.signal, onProgress: (f) => report((index + f * 0.95) / gatewayCount) },
       );
