@@ -49,7 +49,7 @@ describe('map front end (chromium)', () => {
     await page.getByRole('heading', { name: 'Plans' }).waitFor();
     const planLinks = page.locator('a.plan-link');
     expect(await planLinks.count()).toBeGreaterThan(0);
-    await expect.poll(() => textOf('.role-badge')).toContain('planner');
+    await expect.poll(() => textOf('.role-badge'), { timeout: 10_000 }).toContain('planner');
     await screenshot(page, '02-plan-list');
     watch.assertClean();
   });
@@ -59,12 +59,12 @@ describe('map front end (chromium)', () => {
     await page.waitForSelector('#plan-map');
     planId = decodeURIComponent(/#\/plan\/([^/?]+)/.exec(page.url())?.[1] ?? '');
     expect(planId).not.toBe('');
-    await expect.poll(() => page.locator('.marker-nodes').count()).toBeGreaterThanOrEqual(40);
+    await expect.poll(() => page.locator('.marker-nodes').count(), { timeout: 30_000 }).toBeGreaterThanOrEqual(40);
     expect(await page.locator('.marker-gateways').count()).toBeGreaterThanOrEqual(1);
     expect(await page.locator('.marker-sites').count()).toBeGreaterThanOrEqual(3);
     // The base layer is the plan's own hillshade, served by the local server.
-    await expect.poll(() => page.locator('img.leaflet-tile-loaded[src*="/terrain/tiles/"]').count()).toBeGreaterThan(0);
-    await expect.poll(() => textOf('#fleet-counts')).toMatch(/\d+ served/);
+    await expect.poll(() => page.locator('img.leaflet-tile-loaded[src*="/terrain/tiles/"]').count(), { timeout: 30_000 }).toBeGreaterThan(0);
+    await expect.poll(() => textOf('#fleet-counts'), { timeout: 30_000 }).toMatch(/\d+ served/);
     await page.waitForTimeout(300);
     await screenshot(page, '03-plan-map');
     watch.assertClean();
@@ -127,11 +127,11 @@ describe('map front end (chromium)', () => {
     // fix the row, check again, import
     await page.locator('#import-text').fill([header, fill(csvGood1), fill(csvGood2)].join('\n'));
     await page.locator('#import-preview').click();
-    await expect.poll(() => textOf('#import-result')).toContain('valid');
+    await expect.poll(() => textOf('#import-result'), { timeout: 20_000 }).toContain('valid');
     await page.locator('#import-commit').click();
-    await expect.poll(() => textOf('#import-result')).toContain('Imported 2');
+    await expect.poll(() => textOf('#import-result'), { timeout: 20_000 }).toContain('Imported 2');
     await page.locator('dialog button[aria-label="Close dialog"]').click();
-    await expect.poll(() => page.locator('.marker-nodes').count()).toBe(nodesBefore + 2);
+    await expect.poll(() => page.locator('.marker-nodes').count(), { timeout: 30_000 }).toBe(nodesBefore + 2);
     watch.assertClean();
   });
 
@@ -201,6 +201,8 @@ describe('map front end (chromium)', () => {
       await p.goto(`${server.baseUrl}/#/plan/${encodeURIComponent(planId)}/install`);
       await p.locator('.node-choice a').first().click();
       await p.locator('#install-coords').waitFor();
+      await p.locator('#visit-sheet:not([aria-busy])').waitFor({ timeout: 60_000 });
+      expect(await p.locator('#install-height').textContent()).toMatch(/m above ground/);
       expect(await p.locator('#install-coords').textContent()).toMatch(/°/);
       await screenshot(p, '10-installer-node');
       await p.locator('#reading-rssi').fill('-108.5');

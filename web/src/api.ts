@@ -523,25 +523,47 @@ export async function getFleet(planId: string, status?: LinkStatus): Promise<Fle
 // ---------- coverage ----------
 
 export type RunState = 'queued' | 'running' | 'done' | 'failed' | 'cancelled';
+export interface AreaShare {
+  cells: number;
+  share: number;
+  areaKm2: number;
+}
+export interface CoverageSummary {
+  cells: number;
+  areaKm2: number;
+  served: AreaShare;
+  marginal: AreaShare;
+  unserved: AreaShare;
+  nodes: { total: number; served: number; marginal: number; unserved: number; outside: number };
+  /** Per gateway: cells and nodes for which it is the best server. */
+  gateways: Array<{ index: number; bestServerCells: number; nodes: number; gatewayId: string; name: string }>;
+}
 export interface CoverageRun {
   id: string;
-  state?: RunState;
-  status?: RunState;
-  progress?: number;
-  error?: string | null;
-  gatewayId?: string | null;
-  mode?: string;
-  summary?: Record<string, unknown> | null;
-  [key: string]: unknown;
+  planId: string;
+  status: RunState;
+  /** 0 … 1 */
+  progress: number;
+  error: string | null;
+  gatewayIds: string[];
+  mode: 'fast' | 'full' | null;
+  radiusKm: number | null;
+  sf: number | null;
+  requiredMarginDb: number | null;
+  summary: CoverageSummary | null;
+  createdAt: string;
+  startedAt: string | null;
+  finishedAt: string | null;
 }
 export interface CoverageRequest {
-  gatewayId?: string;
   gatewayIds?: string[];
-  mode?: 'los' | 'fast' | 'full';
-  radiusKm?: number;
+  mode?: 'fast' | 'full';
+  radiusKm: number;
   targetHeightM?: number;
+  sf?: number;
+  requiredMarginDb?: number;
 }
-export const runState = (run: CoverageRun): RunState => (run.state ?? run.status ?? 'queued');
+export const runState = (run: CoverageRun): RunState => run.status;
 export const startCoverage = (planId: string, body: CoverageRequest): Promise<CoverageRun> =>
   request<CoverageRun>('POST', `/plans/${planId}/coverage`, body);
 export const getCoverage = (planId: string, runId: string): Promise<CoverageRun> =>
@@ -553,24 +575,19 @@ export async function listCoverage(planId: string): Promise<CoverageRun[]> {
   return Array.isArray(body) ? body : body.items;
 }
 export const coverageEventsUrl = (planId: string, runId: string): string => `${base}/plans/${planId}/coverage/${runId}/events`;
-export const coverageTileUrl = (planId: string, runId: string, layer?: string): string =>
-  `${base}/plans/${planId}/coverage/${runId}/tiles/{z}/{x}/{y}.png${layer ? `?layer=${layer}` : ''}`;
+/** Margin tiles of a finished run. */
+export const coverageTileUrl = (planId: string, runId: string): string => `${base}/plans/${planId}/coverage/${runId}/tiles/{z}/{x}/{y}.png`;
+/** GeoTIFF export: margin, loss, redundancy (gateways heard with margin) or best-sf. */
+export const coverageGeoTiffUrl = (planId: string, runId: string, layer: 'margin' | 'loss' | 'redundancy' | 'best-sf'): string =>
+  `${base}/plans/${planId}/coverage/${runId}.tif${layer === 'margin' ? '' : `?layer=${layer}`}`;
 
-export interface LegendEntry {
-  label: string;
-  color: string;
-  minDb?: number | null;
-  maxDb?: number | null;
-  [key: string]: unknown;
+export interface CoverageLegend {
+  quantity: string;
+  classes: Array<{ minMarginDb: number; label: string; colour: string }>;
+  transparent: string;
+  note: string;
 }
-export async function getCoverageLegend(planId: string, runId: string, layer?: string): Promise<LegendEntry[]> {
-  const body = await request<{ entries?: LegendEntry[]; classes?: LegendEntry[]; items?: LegendEntry[] } | LegendEntry[]>(
-    'GET',
-    `/plans/${planId}/coverage/${runId}/legend${layer ? `?layer=${layer}` : ''}`,
-  );
-  if (Array.isArray(body)) return body;
-  return body.entries ?? body.classes ?? body.items ?? [];
-}
+export const getCoverageLegend = (): Promise<CoverageLegend> => request<CoverageLegend>('GET', '/coverage/legend');
 
 // ---------- session ----------
 

@@ -1,23 +1,24 @@
-// Coverage: start a run for one gateway or all of them, follow its progress,
-// cancel it, and show the finished raster as a map overlay (margin, or the
-// redundancy composite: how many gateways hear each cell) with opacity and
-// the legend the server publishes.
+// Coverage: start a run for one gateway or all of them (a composite: best
+// server per cell), follow its progress, cancel it, and show the finished
+// margin raster as a map overlay with opacity and the server's legend. The
+// redundancy composite (how many gateways hear each cell) is offered as a
+// GeoTIFF; on the map, redundancy per node is its own layer (see map.ts).
 import * as L from 'leaflet';
 import {
   ApiError,
   cancelCoverage,
+  coverageGeoTiffUrl,
   coverageTileUrl,
   getCoverage,
   getCoverageLegend,
   listCoverage,
-  runState,
   startCoverage,
   type CoverageRequest,
   type CoverageRun,
 } from '../api.ts';
 import type { PlanStore } from '../plan-store.ts';
 import { canEdit } from '../session.ts';
-import { announce, clear, errorText, field, h, notice, present, select } from '../ui.ts';
+import { announce, clear, errorText, field, h, notice, percent, present, select } from '../ui.ts';
 
 const pollMs = 700;
 
@@ -29,21 +30,26 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
 
   panel.append(h('h2', { id: 'coverage-h' }, 'Coverage'));
   const gw = select(
-    [{ value: '', label: `All gateways (composite, ${store.gateways.length})` }, ...store.gateways.map((g) => ({ value: g.id, label: g.name }))],
+    [{ value: '', label: `All gateways: composite (${store.gateways.length})` }, ...store.gateways.map((g) => ({ value: g.id, label: g.name }))],
     '',
     { id: 'coverage-gateway' },
   );
   const mode = select(
     [
-      { value: 'fast', label: 'fast: diffraction + free space + clutter' },
-      { value: 'los', label: 'los: line of sight only' },
-      { value: 'full', label: 'full: ITU-R P.1812 every cell (slow)' },
+      { value: 'fast', label: 'fast: Bullington diffraction + free space + clutter' },
+      { value: 'full', label: 'full: ITU-R P.1812 for every cell (slow)' },
     ],
     'fast',
     { id: 'coverage-mode' },
   );
   const radius = h('input', { id: 'coverage-radius', type: 'number', min: '0.5', max: '100', step: '0.5', value: '5' });
-  const rxHeight = h('input', { id: 'coverage-rx-height', type: 'number', min: '0.1', max: '30', step: '0.1', value: '1.5' });
+  const rxHeight = h('input', { id: 'coverage-rx-height', type: 'number', min: '0', max: '100', step: '0.1', value: '1.5' });
+  const sf = select(
+    [7, 8, 9, 10, 11, 12].map((v) => ({ value: String(v), label: `SF${v}` })),
+    '10',
+    { id: 'coverage-sf' },
+  );
+  const margin = h('input', { id: 'coverage-margin', type: 'number', min: '-20', max: '60', step: '0.5', value: String(store.plan.targetMarginDb ?? 10) });
   const startButton = h('button', { type: 'button', id: 'coverage-start', class: 'primary' }, 'Start coverage run');
   const runBox = h('div', { id: 'coverage-run', 'aria-live': 'polite' });
   const overlayBox = h('div', { id: 'coverage-overlay-controls' });
@@ -52,8 +58,10 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
     { class: 'coverage-form' },
     field('Gateways', gw),
     field('Method', mode),
-    field('Radius (km)', radius),
-    field('Node antenna height (m)', rxHeight, 'Height above ground of the receiving node in each cell'),
+    field('Radius around each gateway (km)', radius),
+    field('Node antenna height (m)', rxHeight, 'Height above ground of a node in each cell'),
+    field('Spreading factor', sf),
+    field('Required margin (dB)', margin, 'Cells at or above it count as served'),
     canEdit() ? startButton : h('p', { class: 'muted small' }, 'Only planners start coverage runs; finished runs can be shown.'),
   );
   panel.append(form, runBox, overlayBox);
@@ -61,38 +69,12 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
   const showOverlay = async (run: CoverageRun): Promise<void> => {
     clear(overlayBox);
     if (overlay) map.removeLayer(overlay);
-    const composite = !run.gatewayId && (!Array.isArray(run.gatewayIds) || (run.gatewayIds as unknown[]).length !== 1);
-    const layers = composite
-      ? [
-          { value: 'margin', label: 'Best margin (best server)' },
-          { value: 'redundancy', label: 'Redundancy: gateways heard with margin' },
-        ]
-      : [{ value: 'margin', label: 'Margin' }];
-    const layerSelect = select(layers, 'margin', { id: 'coverage-layer' });
+    overlay = L.tileLayer(coverageTileUrl(store.planId, run.id), { opacity, maxZoom: 18, zIndex: 10, className: 'coverage-tiles' });
+    overlay.addTo(map);
     const show = h('input', { type: 'checkbox', id: 'coverage-show' });
     show.checked = true;
     const range = h('input', { type: 'range', id: 'coverage-opacity', min: '0', max: '1', step: '0.05', value: String(opacity) });
     const legendBox = h('div', { class: 'legend', id: 'coverage-legend' });
-    const useLayer = async (layer: string): Promise<void> => {
-      if (overlay) map.removeLayer(overlay);
-      overlay = L.tileLayer(coverageTileUrl(store.planId, run.id, layer === 'margin' ? undefined : layer), { opacity, maxZoom: 18, zIndex: 10 });
-      if (show.checked) overlay.addTo(map);
-      clear(legendBox);
-      try {
-        const entries = await getCoverageLegend(store.planId, run.id, layer === 'margin' ? undefined : layer);
-        legendBox.append(
-          h('h3', {}, layer === 'redundancy' ? 'Gateways heard' : 'Margin at the target SF'),
-          h(
-            'ul',
-            {},
-            ...entries.map((e) => h('li', {}, h('span', { class: 'swatch', style: `background:${e.color}`, 'aria-hidden': 'true' }), e.label)),
-          ),
-        );
-      } catch (err) {
-        legendBox.append(notice('info', `Legend not available: ${errorText(err)}`));
-      }
-    };
-    layerSelect.addEventListener('change', () => void useLayer(layerSelect.value));
     show.addEventListener('change', () => {
       if (!overlay) return;
       if (show.checked) overlay.addTo(map);
@@ -102,22 +84,41 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
       opacity = Number(range.value);
       overlay?.setOpacity(opacity);
     });
+    const composite = run.gatewayIds.length > 1;
     overlayBox.append(
       ...present<HTMLElement>(
-      h('label', { class: 'toggle' }, show, 'Show coverage overlay'),
-      field('Overlay layer', layerSelect),
-      field('Overlay opacity', range),
-      legendBox,
-      summaryOf(run),
+        h('label', { class: 'toggle' }, show, composite ? 'Show coverage overlay (best server margin)' : 'Show coverage overlay (margin)'),
+        field('Overlay opacity', range),
+        legendBox,
+        summaryOf(run),
+        h(
+          'p',
+          { class: 'small' },
+          'GeoTIFF for GIS: ',
+          h('a', { href: coverageGeoTiffUrl(store.planId, run.id, 'margin'), download: '' }, 'margin (dB)'),
+          ' · ',
+          h('a', { href: coverageGeoTiffUrl(store.planId, run.id, 'redundancy'), download: '' }, 'redundancy (gateways heard)'),
+          ' · ',
+          h('a', { href: coverageGeoTiffUrl(store.planId, run.id, 'best-sf'), download: '' }, 'best SF'),
+        ),
       ),
     );
-    await useLayer('margin');
+    try {
+      const legend = await getCoverageLegend();
+      legendBox.append(
+        h('h3', {}, `Legend: ${legend.quantity}`),
+        h('ul', {}, ...legend.classes.map((c) => h('li', {}, h('span', { class: 'swatch', style: `background:${c.colour}`, 'aria-hidden': 'true' }), `${c.label}`))),
+        h('p', { class: 'muted small' }, `Transparent: ${legend.transparent}.`),
+      );
+    } catch (err) {
+      legendBox.append(notice('info', `Legend: ${errorText(err)}`));
+    }
   };
 
   const follow = (run: CoverageRun): void => {
     window.clearTimeout(timer);
-    const state = runState(run);
-    const pct = Math.round(Math.max(0, Math.min(1, run.progress ?? 0)) * (run.progress !== undefined && run.progress > 1 ? 1 : 100));
+    const state = run.status;
+    const pct = Math.round(Math.max(0, Math.min(1, run.progress)) * 100);
     clear(runBox);
     if (state === 'queued' || state === 'running') {
       const bar = h('progress', { id: 'coverage-progress', max: '100', value: String(pct), 'aria-label': 'Coverage run progress' });
@@ -128,7 +129,10 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
           .then((r) => follow(r))
           .catch((err: unknown) => runBox.append(notice('error', `Cancel failed: ${errorText(err)}`)));
       });
-      runBox.append(h('p', { id: 'coverage-state' }, state === 'queued' ? 'Queued: waiting for a worker…' : `Running: ${pct} %`), ...present<HTMLElement>(bar, canEdit() ? cancel : null));
+      runBox.append(
+        h('p', { id: 'coverage-state' }, state === 'queued' ? 'Queued: waiting for a worker…' : `Running: ${pct} %`),
+        ...present<HTMLElement>(bar, canEdit() ? cancel : null),
+      );
       startButton.disabled = true;
       timer = window.setTimeout(() => {
         if (stopped) return;
@@ -143,12 +147,13 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
       return;
     }
     startButton.disabled = false;
+    const what = `${run.mode ?? ''} run, ${run.radiusKm ?? '–'} km, SF${run.sf ?? '–'}, margin ≥ ${run.requiredMarginDb ?? '–'} dB`;
     if (state === 'done') {
-      runBox.append(notice('ok', h('span', { id: 'coverage-state' }, 'Coverage run finished. The overlay is on the map.')));
+      runBox.append(notice('ok', h('span', { id: 'coverage-state' }, `Coverage run finished (${what}). The overlay is on the map.`)));
       announce('Coverage run finished');
       void showOverlay(run);
     } else if (state === 'cancelled') {
-      runBox.append(notice('info', h('span', { id: 'coverage-state' }, 'Coverage run cancelled.')));
+      runBox.append(notice('info', h('span', { id: 'coverage-state' }, `Coverage run cancelled (${what}).`)));
     } else {
       runBox.append(notice('error', h('span', { id: 'coverage-state' }, `Coverage run failed: ${run.error ?? 'no reason given'}`)));
     }
@@ -157,12 +162,13 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
   startButton.addEventListener('click', () => {
     const radiusKm = Number(radius.value);
     const targetHeightM = Number(rxHeight.value);
-    if (!(radiusKm > 0) || !(targetHeightM > 0)) {
+    const requiredMarginDb = Number(margin.value);
+    if (!(radiusKm > 0) || !(targetHeightM >= 0) || !Number.isFinite(requiredMarginDb)) {
       clear(runBox);
-      runBox.append(notice('error', 'Radius (km) and node antenna height (m) must be numbers above 0.'));
+      runBox.append(notice('error', 'Radius (km) must be above 0, node antenna height (m) 0 or more, and the margin a number of dB.'));
       return;
     }
-    const body: CoverageRequest = { mode: mode.value as CoverageRequest['mode'], radiusKm, targetHeightM };
+    const body: CoverageRequest = { mode: mode.value as 'fast' | 'full', radiusKm, targetHeightM, sf: Number(sf.value), requiredMarginDb };
     if (gw.value) body.gatewayIds = [gw.value];
     startButton.disabled = true;
     clear(runBox);
@@ -185,8 +191,7 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
     .then((runs) => {
       if (stopped || runs.length === 0) return;
       const latest = runs[0];
-      const state = runState(latest);
-      if (state === 'queued' || state === 'running' || state === 'done') follow(latest);
+      if (latest.status === 'queued' || latest.status === 'running' || latest.status === 'done') follow(latest);
     })
     .catch(() => undefined);
 
@@ -197,19 +202,25 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
 }
 
 function summaryOf(run: CoverageRun): HTMLElement | null {
-  const summary = run.summary as Record<string, unknown> | null | undefined;
-  if (!summary) return null;
-  const rows: HTMLElement[] = [];
-  const add = (label: string, value: unknown, unit = ''): void => {
-    if (typeof value === 'number' && Number.isFinite(value)) rows.push(h('dt', {}, label), h('dd', {}, `${value.toFixed(unit === '%' ? 1 : 2)}${unit ? ` ${unit}` : ''}`));
-  };
-  const share = (v: unknown): number | undefined => (typeof v === 'number' ? v * 100 : undefined);
-  add('Area computed', summary.areaKm2, 'km²');
-  add('Area served', summary.servedAreaKm2, 'km²');
-  add('Nodes served', share(summary.servedShare), '%');
-  add('Nodes marginal', share(summary.marginalShare), '%');
-  add('Nodes unserved', share(summary.unservedShare), '%');
-  add('Cells', summary.cells);
-  add('Seconds', summary.seconds, 's');
-  return rows.length ? h('dl', { class: 'facts' }, ...rows) : null;
+  const s = run.summary;
+  if (!s) return null;
+  const area = (label: string, a: { share: number; areaKm2: number }): HTMLElement[] => [h('dt', {}, label), h('dd', {}, `${a.areaKm2.toFixed(2)} km² (${percent(a.share)})`)];
+  return h(
+    'div',
+    { id: 'coverage-summary' },
+    h(
+      'dl',
+      { class: 'facts' },
+      h('dt', {}, 'Area computed'),
+      h('dd', {}, `${s.areaKm2.toFixed(2)} km²`),
+      ...area('Served', s.served),
+      ...area('Marginal', s.marginal),
+      ...area('Unserved', s.unserved),
+      h('dt', {}, 'Nodes in area'),
+      h('dd', {}, `${s.nodes.served} served, ${s.nodes.marginal} marginal, ${s.nodes.unserved} unserved, ${s.nodes.outside} outside (of ${s.nodes.total})`),
+    ),
+    s.gateways.length > 1
+      ? h('p', { class: 'small' }, 'Best server load: ', s.gateways.map((g) => `${g.name} ${g.nodes} node(s)`).join(', '), '.')
+      : null,
+  );
 }

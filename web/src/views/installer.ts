@@ -55,18 +55,11 @@ function renderNodeChooser(main: HTMLElement, store: PlanStore): void {
 
 async function renderNodeVisit(main: HTMLElement, store: PlanStore, node: FleetNode): Promise<void> {
   const status = store.fleet.get(node.id)?.status ?? 'unknown';
-  let sheet: VisitSheet | null = null;
-  let sheetProblem = '';
-  try {
-    sheet = await getVisitSheet(store.planId, node.id);
-  } catch (err) {
-    sheetProblem = errorText(err);
-  }
-
+  const delivery = store.fleet.get(node.id)?.combinedDeliveryProbability;
   main.append(
     h('p', {}, h('a', { href: planHash(store.planId, '/install') }, '← all nodes')),
     h('h1', {}, symbolElement(nodeSymbolSvg(status, 20), ''), ` ${node.name}`),
-    h('p', { class: `status-line status-${status}` }, statusStyle[status].label, sheet ? ` · delivery ${percent(sheet.combinedDeliveryProbability)}` : ''),
+    h('p', { class: `status-line status-${status}` }, statusStyle[status].label, delivery !== undefined ? ` · delivery ${percent(delivery)}` : ''),
     h('p', { class: 'muted small' }, `${node.deviceType} · ${node.environment ?? 'outdoor'} · install status: ${node.installStatus ?? 'planned'}`),
   );
 
@@ -83,14 +76,20 @@ async function renderNodeVisit(main: HTMLElement, store: PlanStore, node: FleetN
       node.notes ? h('p', {}, h('strong', {}, 'Access notes: '), node.notes) : null,
     ),
   );
-
-  if (!sheet) {
-    main.append(notice('info', `Visit sheet: ${sheetProblem}.`), cautionsBlock());
-  } else {
-    renderSheet(main, store, sheet);
+  // The visit sheet can take a moment (it may search the kit catalog): the form is usable meanwhile.
+  const sheetBox = h('div', { id: 'visit-sheet', 'aria-busy': 'true' }, h('p', { class: 'muted' }, 'Loading the visit sheet…'));
+  main.append(sheetBox, h('p', {}, h('a', { href: visitSheetUrl(store.planId, node.id), target: '_blank', rel: 'noopener', id: 'visit-sheet-link' }, 'Open the printable visit sheet')));
+  const form = renderReadingForm(main, store, node);
+  try {
+    const sheet = await getVisitSheet(store.planId, node.id);
+    sheetBox.replaceChildren();
+    renderSheet(sheetBox, store, sheet);
+    form?.useSheet(sheet);
+  } catch (err) {
+    sheetBox.replaceChildren(notice('info', `Visit sheet: ${errorText(err)}.`), cautionsBlock());
+  } finally {
+    sheetBox.removeAttribute('aria-busy');
   }
-  main.append(h('p', {}, h('a', { href: visitSheetUrl(store.planId, node.id), target: '_blank', rel: 'noopener', id: 'visit-sheet-link' }, 'Open the printable visit sheet')));
-  renderReadingForm(main, store, node, sheet);
 }
 
 function renderSheet(main: HTMLElement, store: PlanStore, sheet: VisitSheet): void {
@@ -152,10 +151,14 @@ function renderSheet(main: HTMLElement, store: PlanStore, sheet: VisitSheet): vo
         { class: 'card', 'aria-labelledby': 'build-h' },
         h('h2', { id: 'build-h' }, `Build sheet: ${b.designName} at ${b.frequencyMhz.toFixed(1)} MHz`),
         h(
+          'div',
+          { class: 'table-scroll' },
+          h(
           'table',
           { class: 'data-table compact' },
           h('thead', {}, h('tr', {}, h('th', { scope: 'col' }, 'Element'), h('th', { scope: 'col' }, 'Count'), h('th', { scope: 'col' }, 'Length'))),
           h('tbody', {}, ...b.elements.map((e) => h('tr', {}, h('td', {}, e.name, e.note ? h('span', { class: 'muted small' }, ` (${e.note})`) : ''), h('td', { class: 'num' }, String(e.count)), h('td', { class: 'num' }, `${e.lengthMm.toFixed(1)} mm (${e.lengthIn.toFixed(2)} in)`)))),
+          ),
         ),
         h('ul', {}, ...b.notes.map((n) => h('li', {}, n))),
         b.cautions.length ? notice('warn', b.cautions.join(' ')) : '',
@@ -166,24 +169,24 @@ function renderSheet(main: HTMLElement, store: PlanStore, sheet: VisitSheet): vo
   main.append(cautionsBlock(sheet.cautions));
 }
 
-function renderReadingForm(main: HTMLElement, store: PlanStore, node: FleetNode, sheet: VisitSheet | null): void {
+function renderReadingForm(main: HTMLElement, store: PlanStore, node: FleetNode): { useSheet(sheet: VisitSheet): void } | null {
   const form = h('form', { class: 'card reading-form', id: 'reading-form', 'aria-labelledby': 'reading-h' });
   form.append(h('h2', { id: 'reading-h' }, 'Record what you measured'));
   if (!canRecordReadings()) {
     form.append(h('p', { class: 'muted' }, 'Your role (viewer) cannot record readings.'));
     main.append(form);
-    return;
+    return null;
   }
   const gateway = select(
     store.gateways.map((g) => ({ value: g.id, label: g.name })),
-    sheet?.gateways[0]?.id ?? store.gateways[0]?.id,
+    store.gateways[0]?.id,
     { id: 'reading-gateway', required: true },
   );
   const rssi = h('input', { id: 'reading-rssi', type: 'number', step: '0.1', min: '-200', max: '30', required: true, inputmode: 'decimal' });
   const snr = h('input', { id: 'reading-snr', type: 'number', step: '0.1', min: '-40', max: '40', required: true, inputmode: 'decimal' });
   const sf = select(
     [7, 8, 9, 10, 11, 12].map((v) => ({ value: String(v), label: `SF${v}` })),
-    String(sheet?.gateways.find((g) => g.id === gateway.value)?.sf ?? 10),
+    '10',
     { id: 'reading-sf' },
   );
   const when = h('input', { id: 'reading-time', type: 'datetime-local', required: true });
@@ -233,4 +236,16 @@ function renderReadingForm(main: HTMLElement, store: PlanStore, node: FleetNode,
       .catch((err: unknown) => out.replaceChildren(notice('error', explainWriteError(err, store, 'the reading'))));
   });
   main.append(form);
+  let touched = false;
+  gateway.addEventListener('change', () => (touched = true));
+  sf.addEventListener('change', () => (touched = true));
+  return {
+    // Preselect the gateway the sheet expects to hear the node best, and its SF.
+    useSheet(sheet: VisitSheet) {
+      const best = sheet.gateways[0];
+      if (!best || touched) return;
+      gateway.value = best.id;
+      sf.value = String(best.sf);
+    },
+  };
 }

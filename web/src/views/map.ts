@@ -54,6 +54,8 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
   const nodeLayer = L.layerGroup().addTo(map);
   const gatewayLayer = L.layerGroup().addTo(map);
   const siteLayer = L.layerGroup().addTo(map);
+  // Redundancy composite per node: how many gateways hear it (margin ≥ 0 dB), from the fleet table.
+  const redundancyLayer = L.layerGroup();
   const markers = new Map<string, L.Marker>();
   let selected: { kind: EntityKind; id: string } | null = null;
   /** id:version of the object the detail panel shows, to re-render it when it changes. */
@@ -83,6 +85,7 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
       toggle('Nodes', nodeLayer, true),
       toggle('Gateways', gatewayLayer, true, symbolElement(gatewaySymbolSvg(18), '')),
       toggle('Candidate sites', siteLayer, true, symbolElement(siteSymbolSvg(16), '')),
+      toggle('Redundancy: gateways hearing each node', redundancyLayer, false, h('span', { class: 'redundancy-badge', 'aria-hidden': 'true' }, '2')),
     ),
     h(
       'ul',
@@ -217,7 +220,20 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
     nodeLayer.clearLayers();
     gatewayLayer.clearLayers();
     siteLayer.clearLayers();
+    redundancyLayer.clearLayers();
     markers.clear();
+    for (const n of store.nodes) {
+      const heard = store.fleet.get(n.id)?.gatewaysHeard;
+      if (heard === undefined) continue;
+      const label = `${n.name}: heard by ${heard} gateway(s)`;
+      L.marker([n.lat, n.lon], {
+        icon: L.divIcon({ html: `<span class="redundancy-badge redundancy-${Math.min(heard, 3)}">${heard}</span>`, className: 'redundancy-marker', iconSize: [18, 18], iconAnchor: [-4, 20] }),
+        interactive: false,
+        keyboard: false,
+        title: label,
+        zIndexOffset: 3000,
+      }).addTo(redundancyLayer);
+    }
     const layerOf: Record<EntityKind, L.LayerGroup> = { nodes: nodeLayer, gateways: gatewayLayer, sites: siteLayer };
     for (const kind of ['sites', 'nodes', 'gateways'] as EntityKind[]) {
       for (const entity of store.list(kind)) {

@@ -133,14 +133,23 @@ export async function renderSummary(main: HTMLElement, route: Route): Promise<vo
   try {
     const runs = await listCoverage(planId);
     const done: CoverageRun | undefined = runs.find((r) => runState(r) === 'done');
-    if (!done) coverage.append(h('p', { class: 'muted' }, 'No finished coverage run yet. Start one from the map.'));
+    if (!done || !done.summary) coverage.append(h('p', { class: 'muted' }, 'No finished coverage run yet. Start one from the map.'));
     else {
-      const s = (done.summary ?? {}) as Record<string, unknown>;
-      const items = Object.entries(s).filter(([, v]) => typeof v === 'number' || typeof v === 'string');
+      const sm = done.summary;
       append(
         coverage,
-        h('p', {}, `Run ${done.id} (${String(done.mode ?? (done.params as Record<string, unknown> | undefined)?.mode ?? '')}) finished ${String(done.finishedAt ?? '')}.`),
-        items.length ? h('dl', { class: 'facts' }, ...items.flatMap(([k, v]) => [h('dt', {}, k), h('dd', {}, typeof v === 'number' ? v.toFixed(3) : String(v))])) : null,
+        h('p', {}, `${done.mode ?? ''} run over ${done.gatewayIds.length} gateway(s), ${done.radiusKm ?? '–'} km, SF${done.sf ?? '–'}, margin ≥ ${done.requiredMarginDb ?? '–'} dB; finished ${done.finishedAt ? new Date(done.finishedAt).toLocaleString() : ''}.`),
+        h(
+          'table',
+          { class: 'data-table compact' },
+          h('thead', {}, h('tr', {}, h('th', { scope: 'col' }, 'Area'), h('th', { scope: 'col' }, 'km²'), h('th', { scope: 'col' }, 'Share'))),
+          h(
+            'tbody',
+            {},
+            ...(['served', 'marginal', 'unserved'] as const).map((k) => h('tr', {}, h('th', { scope: 'row' }, k), h('td', { class: 'num' }, sm[k].areaKm2.toFixed(2)), h('td', { class: 'num' }, percent(sm[k].share)))),
+          ),
+        ),
+        sm.gateways.length > 1 ? h('p', {}, 'Nodes per best gateway: ', sm.gateways.map((g) => `${g.name} ${g.nodes}`).join(', '), '.') : null,
       );
     }
   } catch {
