@@ -10,6 +10,7 @@ import {
   sensitivityDbm,
   snrFloorDb,
   timeOnAirMs,
+  RadioParameterError,
   type CodingRate,
 } from '../radio/lora-phy.ts';
 import { mismatchFromVswr } from '../radio/mismatch.ts';
@@ -30,6 +31,16 @@ function required<T extends z.ZodType>(schema: T): z.ZodType<z.output<T>> {
     .unknown()
     .refine((value) => value !== undefined, { message: 'is required', abort: true })
     .pipe(schema as unknown as z.ZodType<z.output<T>, NonNullable<unknown> | null>);
+}
+
+/** Runs a radio computation, turning its parameter errors into one-line usage errors. */
+function parameters<T>(compute: () => T): T {
+  try {
+    return compute();
+  } catch (error) {
+    if (error instanceof RadioParameterError) throw new CliUsageError(error.message);
+    throw error;
+  }
 }
 
 const clean = (value: number) => Math.round(value * 1e6) / 1e6;
@@ -62,10 +73,11 @@ const airtime = defineCommand({
     header: z.enum(['explicit', 'implicit'], { error: 'must be explicit or implicit' }).default('explicit'),
     crc: onOffOption('on'),
     ldro: z.enum(['auto', 'on', 'off'], { error: 'must be auto, on or off' }).default('auto'),
+    chip: z.enum(['sx126x', 'sx127x'], { error: 'must be sx126x or sx127x' }).default('sx126x'),
   }),
   run: (o) => {
     const preambleSymbols = o['preamble-symbols'] ?? 8;
-    const result = timeOnAirMs({
+    const result = parameters(() => timeOnAirMs({
       spreadingFactor: o.sf,
       bandwidthKhz: o['bw-khz'],
       codingRate: o.cr,
@@ -74,7 +86,8 @@ const airtime = defineCommand({
       explicitHeader: o.header === 'explicit',
       crcOn: o.crc,
       ldro: o.ldro,
-    });
+      chip: o.chip,
+    }));
     return {
       timeOnAirMs: clean(result.timeOnAirMs),
       symbolMs: clean(result.symbolMs),
@@ -89,7 +102,8 @@ const airtime = defineCommand({
       preambleSymbols,
       header: o.header,
       crc: o.crc ? 'on' : 'off',
-      formula: o.sf >= 7 ? 'SX1276 datasheet §4.1.1.6' : 'SX1261/62 datasheet §6.1.4 (SF5/6)',
+      chip: o.chip,
+      formula: o.sf >= 7 || o.chip === 'sx127x' ? 'SX1276 datasheet §4.1.1.6' : 'SX1261/62 datasheet §6.1.4 (SF5/6)',
     };
   },
   formatText: (r) => {

@@ -65,7 +65,14 @@ export interface TimeOnAirParams {
   /** Payload CRC on (default) or off. */
   crcOn?: boolean;
   ldro?: LdroMode;
+  /**
+   * Chip family. Only matters at SF 5/6: `sx126x` (default) uses the SX1261/62 form;
+   * `sx127x` uses the SX1276 form, has no SF5 and needs implicit header at SF6.
+   */
+  chip?: LoraChip;
 }
+
+export type LoraChip = 'sx126x' | 'sx127x';
 
 export interface TimeOnAir {
   timeOnAirMs: number;
@@ -95,13 +102,19 @@ export function validateTimeOnAirParams(params: TimeOnAirParams): void {
   const preamble = params.preambleSymbols ?? 8;
   if (!Number.isInteger(preamble) || preamble < 1 || preamble > 65535)
     throw new RadioParameterError(`preamble must be a whole number of symbols from 1 to 65535 (got ${preamble})`);
+  if (params.chip === 'sx127x') {
+    if (spreadingFactor === 5) throw new RadioParameterError('spreading factor 5 is not available on the SX127x (SF 6–12)');
+    if (spreadingFactor === 6 && params.explicitHeader !== false)
+      throw new RadioParameterError('SF6 on the SX127x works only with implicit header (SX1276 datasheet)');
+    if (preamble < 6) throw new RadioParameterError(`preamble on the SX127x must be 6 symbols or more (got ${preamble})`);
+  }
 }
 
 /**
  * Time on air of one LoRa frame (SX1276 datasheet §4.1.1.6):
  *   Tpreamble = (npreamble + 4.25)·Ts
  *   payloadSymbNb = 8 + max(ceil((8PL − 4SF + 28 + 16CRC − 20IH) / (4(SF − 2DE)))·(CR + 4), 0)
- * and for SF 5/6 (SX1261/62 datasheet §6.1.4):
+ * and for SF 5/6 on the SX126x (SX1261/62 datasheet §6.1.4; SX127x at SF6 uses the form above):
  *   Tpreamble = (npreamble + 6.25)·Ts
  *   payloadSymbNb = 8 + ceil(max(8PL + 16CRC − 4SF + 20(1 − IH), 0) / (4(SF − 2DE)))·(CR + 4)
  */
@@ -119,7 +132,7 @@ export function timeOnAirMs(params: TimeOnAirParams): TimeOnAir {
 
   let preambleMs: number;
   let numerator: number;
-  if (sf >= 7) {
+  if (sf >= 7 || params.chip === 'sx127x') {
     preambleMs = (preamble + 4.25) * symbolMs;
     numerator = 8 * pl - 4 * sf + 28 + 16 * crc - 20 * ih;
   } else {

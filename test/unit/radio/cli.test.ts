@@ -31,6 +31,8 @@ const cases: Record<string, string[]> = {
   badBw: ['airtime', '--sf', '7', '--bw-khz', '100', '--cr', '4/5', '--payload-bytes', '3', '--json'],
   badCr: ['airtime', '--sf', '7', '--bw-khz', '125', '--cr', '4/9', '--payload-bytes', '3', '--json'],
   unknownOption: ['airtime', '--sf', '7', '--bw-khz', '125', '--payload-bytes', '3', '--spreading', '7', '--json'],
+  sx127xSf6: ['airtime', '--sf', '6', '--bw-khz', '125', '--payload-bytes', '20', '--chip', 'sx127x', '--header', 'implicit', '--json'],
+  sx127xSf6Explicit: ['airtime', '--sf', '6', '--bw-khz', '125', '--payload-bytes', '20', '--chip', 'sx127x', '--json'],
   missingSf: ['airtime', '--bw-khz', '125', '--payload-bytes', '3', '--json'],
   sheetDrooped: ['build-sheet', '--design', 'quarter-wave-ground-plane-drooped', '--frequency-mhz', '868', '--radials', '6', '--json'],
   sensitivity: ['sensitivity', '--sf', '12', '--bw-khz', '125', '--json'],
@@ -108,6 +110,10 @@ describe('earshot airtime (SX1276 datasheet §4.1.1.6 formula)', () => {
     failsWith('badCr', /--cr: .*4\/5/);
     failsWith('unknownOption', /unknown option --spreading/);
     failsWith('missingSf', /--sf: is required/);
+    failsWith('sx127xSf6Explicit', /SF6 on the SX127x works only with implicit header/);
+  });
+  it('--chip sx127x at SF6 implicit → 28.288 ms (SX1276 form, hand-computed)', () => {
+    expect(json('sx127xSf6').timeOnAirMs).toBeCloseTo(28.288, 6);
   });
 });
 

@@ -87,6 +87,17 @@ describe('time on air, SX1276 datasheet §4.1.1.6 (values computed by hand from 
     expect(t.timeOnAirMs).toBeCloseTo(12.096, 6);
   });
 
+  it('SX127x at SF6 uses the SX1276 form and needs implicit header: 20 B → 28.288 ms (ceil(160/24) = 7 → 43 symbols, Ts 0.512 ms)', () => {
+    const t = timeOnAirMs({ ...frame, spreadingFactor: 6, explicitHeader: false, chip: 'sx127x' });
+    expect(t.payloadSymbols).toBe(43);
+    expect(t.timeOnAirMs).toBeCloseTo(28.288, 6);
+    expect(() => timeOnAirMs({ ...frame, spreadingFactor: 6, chip: 'sx127x' })).toThrow(/implicit header/);
+    expect(() => timeOnAirMs({ ...frame, spreadingFactor: 5, chip: 'sx127x' })).toThrow(/not available on the SX127x/);
+    expect(() => timeOnAirMs({ ...frame, spreadingFactor: 7, preambleSymbols: 4, chip: 'sx127x' })).toThrow(/6 symbols or more/);
+    // For SF ≥ 7 the two chip families give the same figure.
+    expect(timeOnAirMs({ ...frame, spreadingFactor: 9, chip: 'sx127x' }).timeOnAirMs).toBe(timeOnAirMs({ ...frame, spreadingFactor: 9 }).timeOnAirMs);
+  });
+
   it('rejects what the chips cannot do, naming the field: SF 13, SF 4, negative or 256-byte payload, preamble 0', () => {
     expect(() => timeOnAirMs({ ...frame, spreadingFactor: 13 })).toThrow(/spreading factor/);
     expect(() => timeOnAirMs({ ...frame, spreadingFactor: 4 })).toThrow(RadioParameterError);
