@@ -13,6 +13,19 @@ export function hashOf(value: unknown): string {
   return createHash('sha256').update(stableJson(value)).digest('hex');
 }
 
+/**
+ * Hash of an object that does not change once built (catalog entries), memoised
+ * by reference so a fleet run hashes each antenna pattern once, not per link.
+ */
+export function hashOfShared(value: object, memo: WeakMap<object, string>): string {
+  let hash = memo.get(value);
+  if (hash === undefined) {
+    hash = hashOf(value);
+    memo.set(value, hash);
+  }
+  return hash;
+}
+
 /** JSON with object keys sorted, typed arrays as plain arrays: equal inputs give equal text. */
 export function stableJson(value: unknown): string {
   if (value === null || typeof value !== 'object') return JSON.stringify(value ?? null);

@@ -8,18 +8,18 @@ import { isAbsolute, join, resolve } from 'node:path';
 import type { Config } from '../../config.ts';
 import type { Database } from '../../db/client.ts';
 import { NotFoundError } from '../../db/errors.ts';
-import { listGateways, type GatewayRow } from '../../db/repositories/gateways.ts';
-import { findNode, listNodes, type NodeRow } from '../../db/repositories/nodes.ts';
+import type { GatewayRow } from '../../db/repositories/gateways.ts';
+import { findNode, type NodeRow } from '../../db/repositories/nodes.ts';
 import type { PlanRow } from '../../db/repositories/plans.ts';
 import { findAntennaDesignForTeam, findFeedlineForTeam } from '../../db/repositories/kit.ts';
-import { listNodeLinkRows, listPlanLinkRows, listTerrainForLinks, saveLinkRows, type LinkRow } from '../../db/repositories/links.ts';
+import { listGatewaysForLinks, listNodeLinkRows, listNodesForLinks, listPlanLinkRows, listTerrainForLinks, saveLinkRows, type LinkRow } from '../../db/repositories/links.ts';
 import type { AntennaDesign } from '../../radio/antennas.ts';
 import { connectorLossDb, findConnector, type ConnectorUse, type FeedlineType } from '../../radio/feedlines.ts';
 import type { BuildingType } from '../../radio/building-entry-loss.ts';
 import { openTerrainStore, type TerrainStore } from '../../terrain/store.ts';
 import { extractProfile } from '../../terrain/profile.ts';
 import type { EndKit, GatewayRadio, LinkRadioSettings, LinkResult, NodeRadio } from '../../planning/link.ts';
-import { hashOf, LINK_ENGINE_VERSION, nodeAimAzimuthDeg, nodeLinkResults, summariseNodeLinks, type NodeLinkSummary } from '../../planning/node-links.ts';
+import { hashOf, hashOfShared, LINK_ENGINE_VERSION, nodeAimAzimuthDeg, nodeLinkResults, summariseNodeLinks, type NodeLinkSummary } from '../../planning/node-links.ts';
 import { predictPath, type PathPrediction, type PathProfile } from '../../planning/path.ts';
 import { resolveLinkSettings, type ResolvedLinkSettings } from '../../planning/settings.ts';
 import { bearingsBetween } from '../../planning/geometry.ts';
@@ -78,6 +78,8 @@ export interface PlanContext {
   radioSettingsHash: string;
   antennaCache: Map<string, Promise<AntennaDesign>>;
   feedlineCache: Map<string, Promise<FeedlineType>>;
+  /** Hashes of catalog objects, by reference. */
+  objectHashes: WeakMap<object, string>;
   warnings: string[];
 }
 
@@ -206,12 +208,13 @@ export class LinkEngine {
       radioSettingsHash: '',
       antennaCache: new Map(),
       feedlineCache: new Map(),
+      objectHashes: new WeakMap(),
       warnings: [...settings.warnings],
     };
     const { bandPlan: _bandPlan, warnings: _w, path: _p, ...radioPart } = settings;
     ctx.radioSettingsHash = hashOf({ v: LINK_ENGINE_VERSION, bandPlanId: settings.bandPlan.id, radio: radioPart });
     if (!store) ctx.warnings.push('no elevation layer in this plan: paths are predicted over a smooth earth at 0 m (upload terrain for real predictions)');
-    const gatewayRows = await allRows((cursor) => listGateways(this.db, plan.id, { limit: 1000, cursor }));
+    const gatewayRows = await listGatewaysForLinks(this.db, plan.id);
     for (const row of gatewayRows) {
       let antenna: AntennaDesign;
       let feedline: FeedlineType;
@@ -227,7 +230,7 @@ export class LinkEngine {
       }
       const kit: EndKit = { antenna, boresightAzimuthDeg: null, feedline, feedlineLengthM: row.feedlineLengthM, connectors: row.feedlineLengthM > 0 ? connectorUses(GATEWAY_CONNECTORS) : [] };
       const radio: GatewayRadio = { noiseFigureDb: row.noiseFigureDb };
-      ctx.gateways.push({ row, kit, radio, antenna, feedline, kitHash: hashOf({ antenna, feedline, length: row.feedlineLengthM, c: kit.connectors, radio }) });
+      ctx.gateways.push({ row, kit, radio, antenna, feedline, kitHash: hashOf({ a: hashOfShared(antenna, ctx.objectHashes), f: hashOfShared(feedline, ctx.objectHashes), length: row.feedlineLengthM, c: kit.connectors.map((u) => [u.connector.id, u.connector.lossDb, u.count]), radio }) });
     }
     return ctx;
   }
@@ -298,7 +301,7 @@ export class LinkEngine {
       environment: { ...settings.environment, indoorBuildingType: buildingTypeOf(row.buildingType, settings.environment.indoorBuildingType) },
     };
     const { bandPlan: _plan, ...radioPart } = radioSettings;
-    const kitHash = hashOf({ antenna, feedline, length: kit.feedlineLengthM, c: kit.connectors, radio, radioPart });
+    const kitHash = hashOf({ a: hashOfShared(antenna, ctx.objectHashes), f: feedline ? hashOfShared(feedline, ctx.objectHashes) : null, length: kit.feedlineLengthM, c: kit.connectors.map((u) => [u.connector.id, u.connector.lossDb, u.count]), radio, radioPart });
     return { row, antennaHeightAglM, kit, radio, radioSettings, antenna, feedline, kitHash, warnings };
   }
 
@@ -409,7 +412,7 @@ export class LinkEngine {
 
   /** Every node of the plan (the fleet table), computing what the cache lacks. */
   async fleet(ctx: PlanContext, onProgress?: (done: number, total: number) => void): Promise<NodeLinksOutcome[]> {
-    const nodes = await allRows((cursor) => listNodes(this.db, ctx.plan.id, { limit: 1000, cursor }));
+    const nodes = await listNodesForLinks(this.db, ctx.plan.id);
     const rows = await listPlanLinkRows(this.db, ctx.plan.id);
     const byNode = new Map<string, LinkRow[]>();
     for (const row of rows) {
@@ -534,15 +537,4 @@ function fillGaps(values: Float64Array): number {
     filled++;
   }
   return filled;
-}
-
-async function allRows<T>(page: (cursor: string | undefined) => Promise<{ items: T[]; next: string | null }>): Promise<T[]> {
-  const rows: T[] = [];
-  let cursor: string | undefined;
-  for (;;) {
-    const result = await page(cursor);
-    rows.push(...result.items);
-    if (!result.next) return rows;
-    cursor = result.next;
-  }
 }

@@ -87,3 +87,13 @@ export async function findKitJob(db: Database, planId: string, id: string) {
 export async function findPlanById(db: Database, planId: string) {
   return db.prisma.plan.findUnique({ where: { id: planId } });
 }
+
+/** All gateways of a plan in one query (the link engine needs every one). */
+export async function listGatewaysForLinks(db: Database, planId: string) {
+  return db.prisma.gateway.findMany({ where: { planId }, orderBy: [{ createdAt: 'asc' }, { id: 'asc' }] });
+}
+
+/** All nodes of a plan in one query, in a stable order (the fleet table). */
+export async function listNodesForLinks(db: Database, planId: string) {
+  return db.prisma.node.findMany({ where: { planId }, orderBy: [{ createdAt: 'asc' }, { id: 'asc' }] });
+}
