@@ -35,6 +35,8 @@ function earshot(...args: string[]) {
 
 // PostgreSQL only (the embedded-folder paths are covered by server-restart.test.ts); skipped
 // with a visible reason when no PostgreSQL answers outside CI, mandatory in CI.
+// tsx child processes take tens of seconds on a loaded 2-core machine.
+const SLOW_MS = 300_000;
 const suite = postgresAvailable || process.env.CI === 'true' ? describe : describe.skip;
 suite(`earshot team add / token issue / token revoke on DATABASE_URL${postgresAvailable ? '' : ` (skipped: no PostgreSQL at ${postgresAdminUrl})`}`, () => {
   beforeAll(async () => admin(`CREATE DATABASE "${databaseName}"`));
@@ -51,7 +53,7 @@ suite(`earshot team add / token issue / token revoke on DATABASE_URL${postgresAv
     const revoke = earshot('token', 'revoke', '--id', issued.id, '--json');
     expect(revoke.code, revoke.stderr).toBe(0);
     expect(JSON.parse(revoke.stdout)).toMatchObject({ id: issued.id, revoked: true, alreadyRevoked: false });
-  });
+  }, SLOW_MS);
 
   it('bad input: one line on stderr naming the option, non-zero exit, nothing on stdout', () => {
     const badRole = earshot('token', 'issue', '--team', 'hill-farm', '--role', 'boss', '--json');
@@ -65,5 +67,5 @@ suite(`earshot team add / token issue / token revoke on DATABASE_URL${postgresAv
     const duplicate = earshot('team', 'add', '--slug', 'hill-farm', '--name', 'Again', '--json');
     expect(duplicate.code).not.toBe(0);
     expect(duplicate.stderr).toMatch(/already exists/);
-  });
+  }, SLOW_MS);
 });

@@ -23,6 +23,9 @@ afterAll(async () => {
   rmSync(dataDir, { recursive: true, force: true });
 });
 
+// PGlite folder start-up and tsx child processes take tens of seconds on a loaded 2-core machine.
+const SLOW_MS = 300_000;
+
 describe('server start, admin CLI and restart on one data folder', () => {
   let plannerToken = '';
   let planId = '';
@@ -55,7 +58,7 @@ describe('server start, admin CLI and restart on one data folder', () => {
     expect(layers[0]).toMatchObject({ kind: 'elevation', epsg: 32611, widthPx: 420, heightPx: 420 });
     expect(layers[0].name).toMatch(/SYNTHETIC/);
     expect(existsSync(join(config.filesDir, layers[0].filePath))).toBe(true);
-  });
+  }, SLOW_MS);
 
   it('the admin CLI goes through the running server (the folder is never opened twice)', async () => {
     await expect(openDatabase(config)).rejects.toBeInstanceOf(DatabaseBusyError);
@@ -67,7 +70,7 @@ describe('server start, admin CLI and restart on one data folder', () => {
     expect(created.status).toBe(201);
     planId = created.body.id;
     await expect(runAdminOperation('token-issue', { team: 'nobody', role: 'viewer' }, env)).rejects.toThrow(/team "nobody" not found/);
-  });
+  }, SLOW_MS);
 
   it('a restart on the same folder loses nothing and does not seed again', async () => {
     await server!.stop();
@@ -85,13 +88,13 @@ describe('server start, admin CLI and restart on one data folder', () => {
     expect(await server.db.prisma.node.count()).toBeGreaterThanOrEqual(40);
     await server.stop();
     server = null;
-  });
+  }, SLOW_MS);
 
   it('with the server stopped the CLI opens the folder itself, under the lock', async () => {
     const revoked = (await runAdminOperation('token-revoke', { token: plannerToken }, env)) as { revoked: boolean };
     expect(revoked.revoked).toBe(true);
     expect(existsSync(dataFolderLockPath(dataDir))).toBe(false);
-  });
+  }, SLOW_MS);
 
   it('a folder held by another live process is refused with a clear message', async () => {
     const holder = spawn('sleep', ['60'], { stdio: 'ignore' });
@@ -103,5 +106,5 @@ describe('server start, admin CLI and restart on one data folder', () => {
       holder.kill();
       rmSync(dataFolderLockPath(dataDir), { force: true });
     }
-  });
+  }, SLOW_MS);
 });
