@@ -1,4 +1,4 @@
-// Radio commands: airtime, sensitivity, mismatch, build-sheet, bands.
+// Radio commands: airtime, sensitivity, mismatch, build-sheet, bands, battery.
 // Thin: each parses its options, calls server/radio and returns one document.
 import { z } from 'zod';
 import { CliUsageError, defineCommand, integerOption, numberOption, stringOption, type CliCommand } from './framework.ts';

@@ -71,7 +71,7 @@ export class BuildSheetError extends Error {}
 const round = (value: number, digits: number) => Math.round(value * 10 ** digits) / 10 ** digits;
 
 function element(name: string, count: number, lengthMm: number, note?: string): BuildElement {
-  const result: BuildElement = { name, count, lengthMm: round(lengthMm, 2), lengthIn: round(lengthMm / MM_PER_INCH, 3) };
+  const result: BuildElement = { name, count, lengthMm: round(lengthMm, 2), lengthIn: round(lengthMm / MM_PER_INCH, 4) };
   if (note) result.note = note;
   return result;
 }
