@@ -12,7 +12,7 @@ import type { GatewayRow } from '../../db/repositories/gateways.ts';
 import { findNode, type NodeRow } from '../../db/repositories/nodes.ts';
 import type { PlanRow } from '../../db/repositories/plans.ts';
 import { findAntennaDesignForTeam, findFeedlineForTeam } from '../../db/repositories/kit.ts';
-import { listGatewaysForLinks, listNodeLinkRows, listNodesForLinks, listPlanLinkRows, listTerrainForLinks, saveLinkRows, type LinkRow } from '../../db/repositories/links.ts';
+import { nodeLinkFingerprint, listGatewaysForLinks, listNodeLinkRows, listNodesForLinks, listPlanLinkRows, listTerrainForLinks, saveLinkRows, type LinkRow } from '../../db/repositories/links.ts';
 import type { AntennaDesign } from '../../radio/antennas.ts';
 import { connectorLossDb, findConnector, type ConnectorUse, type FeedlineType } from '../../radio/feedlines.ts';
 import type { BuildingType } from '../../radio/building-entry-loss.ts';
@@ -120,11 +120,32 @@ function buildingTypeOf(value: string | null, fallback: BuildingType): BuildingT
 
 export class LinkEngine {
   private readonly stores = new Map<string, { signature: string; store: Promise<TerrainStore> }>();
+  /** Answers of recent node-links requests by plan:node, with the inputs' fingerprint (see frontKey). */
+  private readonly front = new Map<string, { key: string; value: unknown }>();
 
   constructor(
     private readonly db: Database,
     private readonly config: Config,
   ) {}
+
+  /** Fingerprint of a node's inputs: the plan row's version/time plus one query over the rest. */
+  async frontKey(plan: PlanRow, nodeId: string): Promise<string> {
+    const rest = await nodeLinkFingerprint(this.db, plan.id, nodeId, plan.teamId);
+    return `${LINK_ENGINE_VERSION}|${plan.version}|${plan.updatedAt.toISOString()}|${rest}`;
+  }
+
+  /** A remembered answer whose inputs are unchanged, or undefined. */
+  frontGet<T>(planId: string, nodeId: string, key: string): T | undefined {
+    const entry = this.front.get(`${planId}:${nodeId}`);
+    return entry && entry.key === key ? (entry.value as T) : undefined;
+  }
+
+  frontSet(planId: string, nodeId: string, key: string, value: unknown): void {
+    const id = `${planId}:${nodeId}`;
+    this.front.delete(id);
+    this.front.set(id, { key, value });
+    if (this.front.size > 5000) this.front.delete(this.front.keys().next().value as string);
+  }
 
   /** Closes the terrain stores this engine opened. */
   async close(): Promise<void> {

@@ -128,12 +128,21 @@ export default async function linkRoutes(app: FastifyInstance): Promise<void> {
     },
     async (request) => {
       const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
-      const ctx = await context(plan);
       const query = request.query;
+      const preview = Object.values(query).some((v) => v !== undefined);
+      // Unchanged inputs (one fingerprint query) → the remembered answer, no plan context needed.
+      const key = preview ? null : await engine.frontKey(plan, request.params.nodeId);
+      if (key !== null) {
+        const hit = engine.frontGet<ReturnType<typeof nodeLinksView>>(plan.id, request.params.nodeId, key);
+        if (hit) return { ...hit, cache: { computed: 0, cached: hit.links.length }, preview: false };
+      }
+      const ctx = await context(plan);
       const overrides = { ...query, feedlineId: query.feedlineId === undefined ? undefined : query.feedlineId === '' || query.feedlineId === 'none' ? null : query.feedlineId };
       try {
         const outcome = await engine.linksForNode(ctx, request.params.nodeId, overrides);
-        return { ...nodeLinksView(ctx, outcome), preview: Object.values(query).some((v) => v !== undefined) };
+        const view = nodeLinksView(ctx, outcome);
+        if (key !== null) engine.frontSet(plan.id, request.params.nodeId, key, view);
+        return { ...view, preview };
       } catch (error) {
         return asApiError(error);
       }

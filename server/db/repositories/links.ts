@@ -97,3 +97,24 @@ export async function listGatewaysForLinks(db: Database, planId: string) {
 export async function listNodesForLinks(db: Database, planId: string) {
   return db.prisma.node.findMany({ where: { planId }, orderBy: [{ createdAt: 'asc' }, { id: 'asc' }] });
 }
+
+/**
+ * One-query fingerprint of everything a node's links depend on besides the plan row:
+ * the node row, the plan's gateways and terrain layers, and the team's visible kit
+ * catalog (latest change and row counts, so deletions show too). Equal fingerprints
+ * mean equal inputs, so the engine may answer from memory.
+ */
+export async function nodeLinkFingerprint(db: Database, planId: string, nodeId: string, teamId: string): Promise<string> {
+  const rows = await db.prisma.$queryRaw<Array<Record<string, unknown>>>`SELECT
+    (SELECT "updatedAt" FROM "Node" WHERE "id" = ${nodeId} AND "planId" = ${planId}) AS node_at,
+    (SELECT "version" FROM "Node" WHERE "id" = ${nodeId} AND "planId" = ${planId}) AS node_version,
+    (SELECT max("updatedAt") FROM "Gateway" WHERE "planId" = ${planId}) AS gateway_at,
+    (SELECT count(*) FROM "Gateway" WHERE "planId" = ${planId}) AS gateways,
+    (SELECT max("createdAt") FROM "TerrainLayer" WHERE "planId" = ${planId}) AS terrain_at,
+    (SELECT count(*) FROM "TerrainLayer" WHERE "planId" = ${planId}) AS terrain_layers,
+    (SELECT max("updatedAt") FROM "AntennaDesign" WHERE "teamId" = ${teamId} OR "teamId" IS NULL) AS antenna_at,
+    (SELECT count(*) FROM "AntennaDesign" WHERE "teamId" = ${teamId} OR "teamId" IS NULL) AS antennas,
+    (SELECT max("updatedAt") FROM "FeedlineType" WHERE "teamId" = ${teamId} OR "teamId" IS NULL) AS feedline_at,
+    (SELECT count(*) FROM "FeedlineType" WHERE "teamId" = ${teamId} OR "teamId" IS NULL) AS feedlines`;
+  return JSON.stringify(rows[0] ?? {}, (_key, value: unknown) => (typeof value === 'bigint' ? value.toString() : value));
+}
