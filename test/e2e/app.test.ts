@@ -87,8 +87,10 @@ describe('map front end (chromium)', () => {
     await page.locator('#kit-height').fill(String(height < 6 ? 9 : 1));
     await expect.poll(() => textOf('#kit-margin'), { timeout: 20_000 }).not.toBe(before);
     expect(await textOf('#kit-margin')).toMatch(/-?\d+\.\d dB/);
-    await page.locator('#detail-panel').screenshot({ path: 'test-artefacts/screenshots/04-node-panel.png' });
-    await screenshot(page, '04-node-panel-map');
+    await page.locator('#links-h').scrollIntoViewIfNeeded();
+    await screenshot(page, '04-node-panel');
+    await page.locator('#kit-h').scrollIntoViewIfNeeded();
+    await screenshot(page, '04b-kit-chooser');
     watch.assertClean();
   });
 

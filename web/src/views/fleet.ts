@@ -32,7 +32,7 @@ const columns: Array<{ key: Key; label: string; numeric?: boolean }> = [
   { key: 'bestSf', label: 'Best SF', numeric: true },
   { key: 'toaMs', label: 'Time on air (ms)', numeric: true },
   { key: 'delivery', label: 'Delivery', numeric: true },
-  { key: 'heard', label: 'Gateways heard (margin ≥ 0 dB)', numeric: true },
+  { key: 'heard', label: 'Heard by (gateways, margin ≥ 0 dB)', numeric: true },
   { key: 'legal', label: 'Power legal' },
   { key: 'device', label: 'Device' },
   { key: 'heightM', label: 'Antenna height (m)', numeric: true },

@@ -10,6 +10,7 @@ import {
   visitSheetUrl,
   type FleetNode,
   type KitPreview,
+  type Link,
   type LinkCheck,
   type MastOption,
   type NodeLinks,
@@ -20,7 +21,7 @@ import { planHash } from '../router.ts';
 import { canEdit } from '../session.ts';
 import { announce, cautionsBlock, clear, coords, db, dbm, distance, errorText, field, fmt, h, metres, money, notice, percent, present, select } from '../ui.ts';
 import { nodeSymbolSvg, statusStyle, symbolElement, type NodeClass } from '../symbols.ts';
-import { profileChart, profileKey, profileSeries } from './profile-chart.ts';
+import { obstructionSpans, profileChart, profileKey, profileSeries } from './profile-chart.ts';
 
 interface Actions {
   onEdit: () => void;
@@ -119,41 +120,27 @@ function renderLinks(box: HTMLElement, store: PlanStore, links: NodeLinks): void
     box.append(notice('warn', 'No gateway of this plan is within range of this node.'));
     return;
   }
-  const rows = [...links.links].sort((a, b) => b.marginDb - a.marginDb);
+  // One column per gateway (a node hears a few at most), one row per quantity: fits the side panel.
+  const gws = links.links;
+  const legalText = (l: Link): string =>
+    !l.legal ? '–' : l.legal.withinLimit ? `yes (${l.legal.peakEirpDbm.toFixed(1)} dBm EIRP)` : `NO: ${l.legal.excessDb !== null ? `${l.legal.excessDb.toFixed(1)} dB over` : 'outside'} the limit`;
+  const rowsSpec: Array<[string, (l: Link) => string, ((l: Link) => string)?]> = [
+    ['Distance', (l) => distance(l.distanceM)],
+    ['Path loss', (l) => db(l.basicLossDb)],
+    ['RSSI', (l) => dbm(l.rssiDbm)],
+    ['SNR', (l) => db(l.snrDb)],
+    ['Margin', (l) => db(l.marginDb), (l) => (l.marginDb < 0 ? 'num neg' : 'num')],
+    ['Best SF', (l) => (l.bestSf ? `SF${l.bestSf}` : l.usedSf ? `none (SF${l.usedSf} used)` : 'none')],
+    ['Delivery', (l) => percent(l.deliveryProbability)],
+    ['Time on air', (l) => fmt(l.timeOnAirMs ?? null, 'ms', 0)],
+    ['Power legal', legalText],
+  ];
   const table = h(
     'table',
     { class: 'data-table compact', id: 'links-table' },
-    h('caption', { class: 'visually-hidden' }, 'Predicted link to each gateway'),
-    h(
-      'thead',
-      {},
-      h('tr', {}, ...['Gateway', 'Distance', 'Path loss', 'RSSI', 'SNR', 'Margin', 'Best SF', 'Delivery', 'Time on air', 'Legal'].map((t) => h('th', { scope: 'col' }, t))),
-    ),
-    h(
-      'tbody',
-      {},
-      ...rows.map((l) => {
-        const legalText = !l.legal
-          ? '–'
-          : l.legal.withinLimit
-            ? `yes (${l.legal.peakEirpDbm.toFixed(1)} dBm EIRP)`
-            : `NO: ${l.legal.excessDb !== null ? `${l.legal.excessDb.toFixed(1)} dB over` : 'outside'} the limit`;
-        return h(
-          'tr',
-          {},
-          h('th', { scope: 'row' }, l.gatewayName ?? gatewayName(store, l.gatewayId)),
-          h('td', {}, distance(l.distanceM)),
-          h('td', {}, db(l.basicLossDb)),
-          h('td', {}, dbm(l.rssiDbm)),
-          h('td', {}, db(l.snrDb)),
-          h('td', { class: l.marginDb >= 0 ? 'num' : 'num neg' }, db(l.marginDb)),
-          h('td', {}, l.bestSf ? `SF${l.bestSf}` : l.usedSf ? `none (uses SF${l.usedSf})` : 'none'),
-          h('td', {}, percent(l.deliveryProbability)),
-          h('td', {}, fmt(l.timeOnAirMs ?? null, 'ms', 0)),
-          h('td', {}, legalText),
-        );
-      }),
-    ),
+    h('caption', { class: 'visually-hidden' }, 'Predicted link to each gateway, best first'),
+    h('thead', {}, h('tr', {}, h('th', { scope: 'col' }, 'Gateway'), ...gws.map((l) => h('th', { scope: 'col' }, l.gatewayName ?? gatewayName(store, l.gatewayId))))),
+    h('tbody', {}, ...rowsSpec.map(([label, value, cls]) => h('tr', {}, h('th', { scope: 'row' }, label), ...gws.map((l) => h('td', { class: cls ? cls(l) : 'num' }, value(l)))))),
   );
   box.append(
     h('div', { class: 'table-scroll' }, table),
@@ -176,9 +163,10 @@ function renderProfile(box: HTMLElement, check: LinkCheck): void {
   const clearance =
     profile.worstClearanceRatio === null
       ? ''
-      : ` Worst clearance: ${(profile.worstClearanceRatio * 100).toFixed(0)} % of the first Fresnel zone radius${profile.worstClearanceAtM !== null ? ` at ${distance(profile.worstClearanceAtM)}` : ''} (k = ${profile.kFactor.toFixed(2)}).`;
+      : ` Worst clearance ${profile.worstClearanceAtM !== null ? `at ${distance(profile.worstClearanceAtM)} ` : ''}is ${profile.worstClearanceRatio.toFixed(2)} × the first Fresnel zone radius${profile.worstClearanceRatio < 0 ? ' (negative: the ray passes below the surface)' : ''}; effective earth radius factor k = ${profile.kFactor.toFixed(2)}.`;
   if (series.obstructions.length > 0) {
-    box.append(notice('warn', `${series.obstructions.length} point(s) of terrain or clutter enter the first Fresnel zone${profile.lineOfSight ? '' : ' and block the line of sight'}: expect diffraction loss.${clearance}`));
+    const spans = obstructionSpans(series).length;
+    box.append(notice('warn', `Terrain or clutter enters the first Fresnel zone in ${spans} place(s)${profile.lineOfSight ? '' : ' and block the line of sight'}: expect diffraction loss.${clearance}`));
   } else {
     box.append(h('p', { class: 'muted' }, `The first Fresnel zone is clear of terrain and clutter.${clearance}`));
   }

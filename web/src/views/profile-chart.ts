@@ -29,9 +29,9 @@ export function profileSeries(profile: LinkProfile | null): ProfileSeries | null
   return { points, ray, fresnel, obstructions };
 }
 
-const W = 640;
-const H = 260;
-const pad = { left: 56, right: 14, top: 14, bottom: 40 };
+const W = 480;
+const H = 250;
+const pad = { left: 52, right: 10, top: 12, bottom: 42 };
 
 function niceStep(span: number, count: number): number {
   const raw = span / count;
@@ -116,16 +116,33 @@ export function profileChart(series: ProfileSeries, title: string): SVGElement {
   if (series.ray.length > 1) {
     svg.append(s('polyline', { points: series.ray.map((r) => `${x(r.distanceM).toFixed(1)},${y(r.heightM).toFixed(1)}`).join(' '), class: 'ray' }));
   }
-  // obstructions: an X over a ring, so they read without colour
-  for (const o of series.obstructions) {
-    const cx = x(o.distanceM);
-    const cy = y(o.heightM);
+  // Obstructions: consecutive points form one span, drawn as a thick line on the
+  // surface, with a ring-and-cross (reads without colour) at its highest point.
+  for (const span of obstructionSpans(series)) {
+    if (span.length > 1) svg.append(s('polyline', { points: span.map((o) => `${x(o.distanceM).toFixed(1)},${y(o.heightM).toFixed(1)}`).join(' '), class: 'obstruction-span' }));
+    const top = span.reduce((a, b) => (b.heightM > a.heightM ? b : a), span[0]);
+    const cx = x(top.distanceM);
+    const cy = y(top.heightM);
     const g = s('g', { class: 'obstruction' });
     g.append(s('circle', { cx, cy, r: 6 }), s('path', { d: `M${cx - 4} ${cy - 4} L${cx + 4} ${cy + 4} M${cx + 4} ${cy - 4} L${cx - 4} ${cy + 4}` }));
-    g.append(s('title', {}, `Obstruction at ${(o.distanceM / 1000).toFixed(2)} km, ${o.heightM.toFixed(0)} m`));
+    g.append(s('title', {}, `Obstruction from ${(span[0].distanceM / 1000).toFixed(2)} to ${(span[span.length - 1].distanceM / 1000).toFixed(2)} km, top ${top.heightM.toFixed(0)} m`));
     svg.append(g);
   }
   return svg;
+}
+
+/** Groups obstruction points that follow each other along the profile (gap ≤ 3 profile steps). */
+export function obstructionSpans(series: ProfileSeries): Array<Array<{ distanceM: number; heightM: number }>> {
+  const pts = series.points;
+  const stepM = pts.length > 1 ? (pts[pts.length - 1].distanceM - pts[0].distanceM) / (pts.length - 1) : 1;
+  const sorted = [...series.obstructions].sort((a, b) => a.distanceM - b.distanceM);
+  const spans: Array<Array<{ distanceM: number; heightM: number }>> = [];
+  for (const o of sorted) {
+    const last = spans[spans.length - 1];
+    if (last && o.distanceM - last[last.length - 1].distanceM <= 3 * stepM) last.push(o);
+    else spans.push([o]);
+  }
+  return spans;
 }
 
 /** The chart's key, as HTML beside the SVG. */
