@@ -10,9 +10,58 @@ import { siteGroundM, type SweepSite, type TerrainWindow } from './sweep.ts';
 export const BYTE_NODATA = 255;
 
 /**
+ * Local east/north (m) of the centre of cell (col, row): affine in col and
+ * row for projected grids (so the hot loops step it), per cell for geographic ones.
+ */
+interface CellFrame {
+  projected: boolean;
+  e0: number;
+  n0: number;
+  eCol: number;
+  nCol: number;
+  eRow: number;
+  nRow: number;
+}
+
+function cellFrame(terrain: TerrainWindow): CellFrame {
+  const f = terrain.frame;
+  const g = f.geoTransform;
+  return {
+    projected: f.kind === 'projected',
+    e0: g[0] + 0.5 * g[1] + 0.5 * g[2] - f.siteX,
+    n0: g[3] + 0.5 * g[4] + 0.5 * g[5] - f.siteY,
+    eCol: g[1],
+    nCol: g[4],
+    eRow: g[2],
+    nRow: g[5],
+  };
+}
+
+/** Local east/north of a cell centre into out (geographic grids). */
+function geographicLocal(terrain: TerrainWindow, col: number, row: number, crs: number[], out: number[]): void {
+  pixelToCrs(terrain.frame, col + 0.5, row + 0.5, crs);
+  crsToLocal(terrain.frame, crs[0], crs[1], out);
+}
+
+/**
+ * Index of the nearest ray sample of a cell at local (e, n), distance d (m):
+ * nearest ray by azimuth, nearest sample by distance (clamped to 1..samples).
+ */
+function nearestSample(plan: RayPlan, e: number, n: number, d: number): number {
+  let az = Math.atan2(e, n);
+  if (az < 0) az += 2 * Math.PI;
+  let ray = Math.round(az / plan.azStepRad);
+  if (ray >= plan.rayCount) ray -= plan.rayCount;
+  let k = Math.round(d / plan.stepM);
+  if (k < 1) k = 1;
+  else if (k > plan.sampleCount) k = plan.sampleCount;
+  return ray * (plan.sampleCount + 1) + k;
+}
+
+/**
  * Visits the cells of rows [rowStart, rowEnd) inside the radius, giving the
  * cell index, its distance from the gateway (m) and the index of its nearest
- * ray sample in the rays × (samples + 1) buffer.
+ * ray sample in the rays × (samples + 1) buffer (for callers off the hot path).
  */
 export function forEachCell(
   terrain: TerrainWindow,
@@ -23,28 +72,25 @@ export function forEachCell(
   outside: (cell: number) => void,
 ): void {
   const f = terrain.frame;
-  const stride = plan.sampleCount + 1;
+  const c = cellFrame(terrain);
   const crs = [0, 0];
   const local = [0, 0];
-  const twoPi = 2 * Math.PI;
   for (let row = rowStart; row < rowEnd; row++) {
     for (let col = 0; col < f.widthPx; col++) {
       const cell = row * f.widthPx + col;
-      pixelToCrs(f, col + 0.5, row + 0.5, crs);
-      crsToLocal(f, crs[0], crs[1], local);
-      const d = Math.hypot(local[0], local[1]);
-      if (d > plan.radiusM) {
-        outside(cell);
-        continue;
+      let e: number;
+      let n: number;
+      if (c.projected) {
+        e = c.e0 + col * c.eCol + row * c.eRow;
+        n = c.n0 + col * c.nCol + row * c.nRow;
+      } else {
+        geographicLocal(terrain, col, row, crs, local);
+        e = local[0];
+        n = local[1];
       }
-      let az = Math.atan2(local[0], local[1]);
-      if (az < 0) az += twoPi;
-      let ray = Math.round(az / plan.azStepRad);
-      if (ray >= plan.rayCount) ray -= plan.rayCount;
-      let k = Math.round(d / plan.stepM);
-      if (k < 1) k = 1;
-      else if (k > plan.sampleCount) k = plan.sampleCount;
-      visit(cell, d, ray * stride + k);
+      const d = Math.sqrt(e * e + n * n);
+      if (d > plan.radiusM) outside(cell);
+      else visit(cell, d, nearestSample(plan, e, n, d));
     }
   }
 }
@@ -69,34 +115,54 @@ export function rasteriseLos(
   const dropPerM2 = 1 / (2 * site.kFactor * EARTH_RADIUS_M);
   const stride = plan.sampleCount + 1;
   const elevation = terrain.elevationM;
+  const width = terrain.frame.widthPx;
+  const c = cellFrame(terrain);
+  const crs = [0, 0];
+  const local = [0, 0];
+  const radiusM = plan.radiusM;
+  const stepM = plan.stepM;
+  const twoPi = 2 * Math.PI;
+  const raysPerRad = 1 / plan.azStepRad;
   let visible = 0;
-  forEachCell(
-    terrain,
-    plan,
-    rowStart,
-    rowEnd,
-    (cell, d, sample) => {
-      const ground = elevation[cell];
-      if (ground !== ground) {
-        out[cell] = BYTE_NODATA;
-        return;
+  for (let row = rowStart; row < rowEnd; row++) {
+    for (let col = 0; col < width; col++) {
+      const cell = row * width + col;
+      let e: number;
+      let n: number;
+      if (c.projected) {
+        e = c.e0 + col * c.eCol + row * c.eRow;
+        n = c.n0 + col * c.nCol + row * c.nRow;
+      } else {
+        geographicLocal(terrain, col, row, crs, local);
+        e = local[0];
+        n = local[1];
       }
-      const before = Math.floor(d / plan.stepM - 0.5);
+      const d = Math.sqrt(e * e + n * n);
+      const ground = elevation[cell];
+      if (d > radiusM || ground !== ground) {
+        out[cell] = BYTE_NODATA;
+        continue;
+      }
+      const before = Math.floor(d / stepM - 0.5);
       if (before < 1) {
         out[cell] = 1;
         visible++;
-        return;
+        continue;
       }
-      const rayBase = sample - (sample % stride);
+      let az = Math.atan2(e, n);
+      if (az < 0) az += twoPi;
+      let ray = Math.round(az * raysPerRad);
+      if (ray >= plan.rayCount) ray -= plan.rayCount;
+      const rayBase = ray * stride;
       const target = (ground + site.targetHeightAglM - d * d * dropPerM2 - eyeM) / d;
-      const seen = target >= horizon[rayBase + Math.min(before, plan.sampleCount)];
-      out[cell] = seen ? 1 : 0;
-      if (seen) visible++;
-    },
-    (cell) => {
-      out[cell] = BYTE_NODATA;
-    },
-  );
+      if (target >= horizon[rayBase + (before < plan.sampleCount ? before : plan.sampleCount)]) {
+        out[cell] = 1;
+        visible++;
+      } else {
+        out[cell] = 0;
+      }
+    }
+  }
   return visible;
 }
 
@@ -117,18 +183,33 @@ export function rasteriseLoss(
   out: Float32Array,
 ): void {
   const minDistanceKm = plan.stepM / 2000;
-  forEachCell(
-    terrain,
-    plan,
-    rowStart,
-    rowEnd,
-    (cell, d, sample) => {
-      const excess = excessLossDb[sample];
+  const width = terrain.frame.widthPx;
+  const c = cellFrame(terrain);
+  const crs = [0, 0];
+  const local = [0, 0];
+  // P.525: Lbf(d) = Lbf(1 km) + 20·log10(d km).
+  const atOneKmDb = freeSpaceLossDb(1, frequencyMhz);
+  for (let row = rowStart; row < rowEnd; row++) {
+    for (let col = 0; col < width; col++) {
+      const cell = row * width + col;
+      let e: number;
+      let n: number;
+      if (c.projected) {
+        e = c.e0 + col * c.eCol + row * c.eRow;
+        n = c.n0 + col * c.nCol + row * c.nRow;
+      } else {
+        geographicLocal(terrain, col, row, crs, local);
+        e = local[0];
+        n = local[1];
+      }
+      const d = Math.sqrt(e * e + n * n);
+      if (d > plan.radiusM) {
+        out[cell] = Number.NaN;
+        continue;
+      }
+      const excess = excessLossDb[nearestSample(plan, e, n, d)];
       const dKm = d / 1000;
-      out[cell] = excess === excess ? freeSpaceLossDb(dKm > minDistanceKm ? dKm : minDistanceKm, frequencyMhz) + excess + extraLossDb : Number.NaN;
-    },
-    (cell) => {
-      out[cell] = Number.NaN;
-    },
-  );
+      out[cell] = excess === excess ? atOneKmDb + 20 * Math.log10(dKm > minDistanceKm ? dKm : minDistanceKm) + excess + extraLossDb : Number.NaN;
+    }
+  }
 }

@@ -80,13 +80,37 @@ export function sweepLos(
   const eyeM = siteGroundM(terrain) + site.heightAglM;
   const dropPerM2 = 1 / (2 * site.kFactor * EARTH_RADIUS_M);
   const stride = plan.sampleCount + 1;
+  const f = terrain.frame;
+  const w = f.widthPx;
+  const hgt = f.heightPx;
+  const grid = terrain.elevationM;
   for (let ray = rayStart; ray < rayEnd; ray++) {
-    sampleRayGround(terrain, plan, ray, scratch);
+    rayPixels(f, plan, ray, scratch.px, scratch.py);
     const base = ray * stride;
     let horizon = -Infinity;
     horizonOut[base] = horizon;
+    const px = scratch.px;
+    const py = scratch.py;
     for (let k = 1; k <= plan.sampleCount; k++) {
-      const h = scratch.groundM[k];
+      // Bilinear height, inlined for the common case of four valid interior neighbours.
+      const u = px[k] - 0.5;
+      const v = py[k] - 0.5;
+      const i0 = Math.floor(u);
+      const j0 = Math.floor(v);
+      let h: number;
+      if (i0 >= 0 && j0 >= 0 && i0 < w - 1 && j0 < hgt - 1) {
+        const fu = u - i0;
+        const fv = v - j0;
+        const at = j0 * w + i0;
+        const a = grid[at];
+        const b = grid[at + 1];
+        const c = grid[at + w];
+        const d4 = grid[at + w + 1];
+        h = (a * (1 - fu) + b * fu) * (1 - fv) + (c * (1 - fu) + d4 * fu) * fv;
+        if (h !== h) h = sampleBilinear(grid, w, hgt, px[k], py[k]);
+      } else {
+        h = sampleBilinear(grid, w, hgt, px[k], py[k]);
+      }
       if (h === h) {
         const d = k * plan.stepM;
         const slope = (h - d * d * dropPerM2 - eyeM) / d;

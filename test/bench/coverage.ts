@@ -1,0 +1,164 @@
+// Coverage benchmarks (`npm run bench -- coverage`), all measured side by side in one run:
+// 1. los vs gdal_viewshed (GDAL) on the same synthetic 30 m DEM, observer and radius: time ratio, agreement;
+// 2. growth with radius (5, 10, 20 km) for los, fast (30 m DEM) and full (P.1812, 90 m DEM), one thread;
+// 3. fast and full cells/s/core, and the 1 → 2 worker speed-up on a warm pool;
+// 4. a fleet of 10 gateways over a 30 × 30 km 30 m synthetic DEM in fast mode on 2 workers.
+import { execFileSync, spawnSync } from 'node:child_process';
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { cpus, loadavg, tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { performance } from 'node:perf_hooks';
+import { writeGeoTiff } from '../../server/terrain/geotiff-writer.ts';
+import { openGeoRaster } from '../../server/terrain/raster.ts';
+import { loadTerrainWindow, writeOnRasterGrid } from '../../server/coverage/terrain-window.ts';
+import { predictArea, type AreaRequest } from '../../server/coverage/area.ts';
+import { BYTE_NODATA } from '../../server/coverage/rasterise.ts';
+import { runArea } from '../../server/jobs/area-runner.ts';
+import { WorkerPool } from '../../server/jobs/pool.ts';
+import { makeSyntheticDem } from '../unit/coverage/synthetic-dem.ts';
+
+const UTM33_X0 = 500_000;
+const UTM33_Y0 = 4_100_000;
+
+function demFile(dir: string, name: string, sizePx: number, cellM: number): string {
+  const dem = makeSyntheticDem(sizePx, sizePx, cellM, 21, 1.2);
+  const path = join(dir, name);
+  writeFileSync(path, writeGeoTiff({ widthPx: sizePx, heightPx: sizePx, data: dem.elevationM, geoTransform: [UTM33_X0, cellM, 0, UTM33_Y0, 0, -cellM], epsg: 32633, noData: -9999, tiled: { tileSizePx: 256 } }));
+  return path;
+}
+
+function best(times: number[]): number {
+  return Math.min(...times);
+}
+
+export async function run(): Promise<void> {
+  const dir = mkdtempSync(join(tmpdir(), 'earshot-bench-coverage-'));
+  const log = (line: string) => console.log(line);
+  log(`machine: ${cpus().length} cores (${cpus()[0]?.model ?? '?'}), load average ${loadavg().map((l) => l.toFixed(1)).join(' ')} (other work on the machine inflates every figure)`);
+  try {
+    // Terrain: 1400 × 1400 cells of 30 m (42 km) and 470 × 470 of 90 m, synthetic.
+    const dem30 = demFile(dir, 'dem30.tif', 1400, 30);
+    const dem90 = demFile(dir, 'dem90.tif', 470, 90);
+    const raster30 = await openGeoRaster(dem30);
+    const raster90 = await openGeoRaster(dem90);
+    const centre = (raster: typeof raster30) => raster.pixelToLonLat(raster.widthPx / 2 + 0.5, raster.heightPx / 2 + 0.5);
+    const site30 = centre(raster30);
+    const site90 = centre(raster90);
+    const base = { heightAglM: 20, targetHeightAglM: 1.5, kFactor: 4 / 3, frequencyMhz: 915 };
+
+    // 1. los vs gdal_viewshed, 20 km, observer 20 m: both read the DEM and write a GeoTIFF.
+    if (spawnSync('which', ['gdal_viewshed']).status === 0) {
+      const g = raster30.geoTransform;
+      const ox = g[0] + (700 + 0.5) * g[1];
+      const oy = g[3] + (700 + 0.5) * g[5];
+      const [lon, lat] = raster30.transform.inverse(ox, oy);
+      const gdalTimes: number[] = [];
+      const ourTimes: number[] = [];
+      let agree = 0;
+      let total = 0;
+      for (let repeat = 0; repeat < 3; repeat++) {
+        const t0 = performance.now();
+        execFileSync('gdal_viewshed', ['-q', '-oz', '20', '-tz', '1.5', '-md', '20000', '-cc', '0.75', '-vv', '1', '-iv', '0', '-ov', '100', '-ox', String(ox), '-oy', String(oy), dem30, join(dir, 'gdal.tif')]);
+        gdalTimes.push(performance.now() - t0);
+        const t1 = performance.now();
+        const loaded = await loadTerrainWindow(raster30, { lat, lon, radiusM: 20_000, allowClip: true });
+        const result = predictArea(loaded.terrain, { mode: 'los', radiusM: 20_000, ...base });
+        writeOnRasterGrid(join(dir, 'ours.tif'), raster30, loaded.placement, result.visible!, 'uint8', BYTE_NODATA);
+        ourTimes.push(performance.now() - t1);
+      }
+      const ours = await openGeoRaster(join(dir, 'ours.tif'));
+      const gdal = await openGeoRaster(join(dir, 'gdal.tif'));
+      const A = await ours.readWindow(0, 0, ours.widthPx, ours.heightPx);
+      const B = await gdal.readWindow(0, 0, gdal.widthPx, gdal.heightPx);
+      const dx = Math.round((gdal.geoTransform[0] - g[0]) / g[1]);
+      const dy = Math.round((gdal.geoTransform[3] - g[3]) / g[5]);
+      for (let y = 0; y < gdal.heightPx; y++) {
+        for (let x = 0; x < gdal.widthPx; x++) {
+          const gv = B[y * gdal.widthPx + x];
+          const ov = A[(y + dy) * ours.widthPx + x + dx];
+          if (gv === 100 || ov !== ov) continue;
+          total++;
+          if (gv === ov) agree++;
+        }
+      }
+      await Promise.all([ours.close(), gdal.close()]);
+      log(`los vs gdal_viewshed (30 m DEM, R = 20 km, ${total} cells, best of 3, each reading the DEM and writing a GeoTIFF): gdal ${best(gdalTimes).toFixed(0)} ms, earshot ${best(ourTimes).toFixed(0)} ms → earshot/gdal time ratio ${(best(ourTimes) / best(gdalTimes)).toFixed(2)}; cells agreeing ${((100 * agree) / total).toFixed(2)} %`);
+    } else {
+      log('los vs gdal_viewshed: SKIPPED (gdal_viewshed not installed)');
+    }
+
+    // 2. Growth with radius, one thread, engine only (window already in memory).
+    const growth = async (mode: AreaRequest['mode'], raster: typeof raster30, site: { lat: number; lon: number }, radiiKm: number[]) => {
+      const rows: string[] = [];
+      let previous: { r: number; ms: number } | null = null;
+      for (const rKm of radiiKm) {
+        const loaded = await loadTerrainWindow(raster, { ...site, radiusM: rKm * 1000, allowClip: true });
+        const request: AreaRequest = { mode, radiusM: rKm * 1000, ...base, p1812: { siteLatDeg: site.lat } };
+        const times: number[] = [];
+        let cells = 0;
+        for (let repeat = 0; repeat < (mode === 'full' ? 1 : 2); repeat++) {
+          const t0 = performance.now();
+          const result = predictArea(loaded.terrain, request);
+          times.push(performance.now() - t0);
+          cells = 0;
+          const values = result.visible ?? result.lossDb!;
+          for (let i = 0; i < values.length; i++) if (result.visible ? values[i] !== BYTE_NODATA : values[i] === values[i]) cells++;
+        }
+        const ms = best(times);
+        const exponent = previous ? Math.log(ms / previous.ms) / Math.log(rKm / previous.r) : null;
+        rows.push(`R ${rKm} km: ${cells} cells, ${ms.toFixed(0)} ms, ${((cells / ms) * 1000).toFixed(0)} cells/s/core${exponent !== null ? `, time ∝ R^${exponent.toFixed(2)} from the previous radius` : ''}`);
+        previous = { r: rKm, ms };
+      }
+      return rows;
+    };
+    for (const line of await growth('los', raster30, site30, [5, 10, 20])) log(`growth los (30 m): ${line}`);
+    for (const line of await growth('fast', raster30, site30, [5, 10, 20])) log(`growth fast (30 m): ${line}`);
+    for (const line of await growth('full', raster90, site90, [5, 10, 20])) log(`growth full P.1812 (90 m): ${line}`);
+
+    // 3. 1 → 2 workers on a warm pool, fast at 20 km (30 m) and full at 10 km (90 m).
+    const pool2 = new WorkerPool(2);
+    const pool1 = new WorkerPool(1);
+    try {
+      for (const [mode, raster, site, rKm] of [['fast', raster30, site30, 20], ['full', raster90, site90, 10]] as const) {
+        const loaded = await loadTerrainWindow(raster, { ...site, radiusM: rKm * 1000, allowClip: true });
+        const request: AreaRequest = { mode, radiusM: rKm * 1000, ...base, p1812: { siteLatDeg: site.lat } };
+        await runArea(loaded.terrain, { ...request, radiusM: 1000 }, { pool: pool1 }); // warm-up (thread start, module load)
+        await runArea(loaded.terrain, { ...request, radiusM: 1000 }, { pool: pool2 });
+        const one: number[] = [];
+        const two: number[] = [];
+        for (let repeat = 0; repeat < 2; repeat++) {
+          let t0 = performance.now();
+          await runArea(loaded.terrain, request, { pool: pool1 });
+          one.push(performance.now() - t0);
+          t0 = performance.now();
+          await runArea(loaded.terrain, request, { pool: pool2 });
+          two.push(performance.now() - t0);
+        }
+        log(`workers ${mode} R ${rKm} km: 1 worker ${best(one).toFixed(0)} ms, 2 workers ${best(two).toFixed(0)} ms → speed-up ${(best(one) / best(two)).toFixed(2)}×`);
+      }
+
+      // 4. Fleet: 10 gateways over a 30 × 30 km, 30 m DEM (1000 × 1000 cells), fast, R = 10 km each, 2 workers.
+      const fleetDem = demFile(dir, 'fleet.tif', 1000, 30);
+      const fleet = await openGeoRaster(fleetDem);
+      const t0 = performance.now();
+      let cells = 0;
+      for (let i = 0; i < 10; i++) {
+        const col = 150 + (i % 5) * 175;
+        const row = 250 + Math.floor(i / 5) * 500;
+        const site = fleet.pixelToLonLat(col + 0.5, row + 0.5);
+        const loaded = await loadTerrainWindow(fleet, { ...site, radiusM: 10_000, allowClip: true });
+        const result = await runArea(loaded.terrain, { mode: 'fast', radiusM: 10_000, ...base }, { pool: pool2 });
+        for (let k = 0; k < result.lossDb!.length; k++) if (result.lossDb![k] === result.lossDb![k]) cells++;
+      }
+      log(`fleet: 10 gateways, fast, R 10 km each, 30 × 30 km 30 m DEM, 2 workers: ${((performance.now() - t0) / 1000).toFixed(2)} s for ${cells} gateway-cells (window reads included)`);
+      await fleet.close();
+    } finally {
+      await pool1.close();
+      await pool2.close();
+    }
+    await raster30.close();
+    await raster90.close();
+  } finally {
+    rmSync(dir, { recursive: true, force: true });
+  }
+}
