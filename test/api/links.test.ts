@@ -108,6 +108,14 @@ describe('node links through the API agree with hand-computed budgets (ITU-R P.5
     expect(changed.body.links[0].rssiDbm).toBeCloseTo(-124.688, 2);
     const latest = await request(t.app.server).get(`/api/v1/plans/${planId}/nodes/${nodeId}`).set(bearer(t.tokens.planner));
     await request(t.app.server).patch(`/api/v1/plans/${planId}/nodes/${nodeId}`).set(bearer(t.tokens.planner)).send({ txPowerDbm: 14, version: latest.body.version }).expect(200);
+    // A gateway change misses the cache too (and a change back restores the hand value).
+    const gw = await request(t.app.server).get(`/api/v1/plans/${planId}/gateways/${gatewayId}`).set(bearer(t.tokens.planner));
+    await request(t.app.server).patch(`/api/v1/plans/${planId}/gateways/${gatewayId}`).set(bearer(t.tokens.planner)).send({ noiseFigureDb: 3, version: gw.body.version }).expect(200);
+    const gwChanged = await request(t.app.server).get(`/api/v1/plans/${planId}/nodes/${nodeId}/links`).set(bearer(t.tokens.viewer));
+    expect(gwChanged.body.cache.computed).toBe(1);
+    expect(gwChanged.body.links[0].snrDb).toBeCloseTo(-6.657 + 3, 2);
+    const gw2 = await request(t.app.server).get(`/api/v1/plans/${planId}/gateways/${gatewayId}`).set(bearer(t.tokens.planner));
+    await request(t.app.server).patch(`/api/v1/plans/${planId}/gateways/${gatewayId}`).set(bearer(t.tokens.planner)).send({ noiseFigureDb: 6, version: gw2.body.version }).expect(200);
   });
 
   it('kit preview through query parameters changes the margin without saving', async () => {
