@@ -325,14 +325,17 @@ function renderRecommendation(box: HTMLElement, store: PlanStore, rec: Recommend
   clear(box);
   box.append(h('h3', { id: 'rec-h' }, 'Recommended kit'));
   const options = rec.options;
-  const advice = [...rec.advice, ...rec.warnings].join(' ');
+  const notes = [...rec.advice, ...rec.warnings];
+  const adviceList = notes.length ? h('ul', { class: 'advice' }, ...notes.map((n) => h('li', {}, n))) : '';
   if (options.length === 0) {
-    box.append(notice('warn', advice || 'The catalog has no option for this node.'));
+    box.append(notice('warn', 'The catalog has no option for this node.', adviceList));
     return;
   }
   box.append(h('p', { class: 'muted small' }, `Target: margin ${db(rec.target.targetMarginDb)}, delivery ${percent(rec.target.targetDelivery)}. Cheapest option that meets it first.`));
   if (!rec.anyMeetsTarget) {
-    box.append(notice('warn', `No kit in the catalog meets the target; the best available is shown. ${advice}`));
+    box.append(notice('warn', 'No kit in the catalog meets the target; the best available is shown.', adviceList));
+  } else if (notes.length) {
+    box.append(notice('info', adviceList));
   }
   const list = h('ol', { class: 'rec-list', id: 'rec-list' });
   for (const option of options.slice(0, 3)) {
@@ -344,8 +347,26 @@ function renderRecommendation(box: HTMLElement, store: PlanStore, rec: Recommend
         h('br', {}),
         `margin ${db(option.marginDb)} · delivery ${percent(option.deliveryProbability)} · cost ${money(option.cost)} · ${option.meetsTarget ? 'meets the target' : 'below the target'}`,
         option.reason ? h('span', { class: 'muted small' }, ` — ${option.reason}`) : null,
+        h('br', {}),
+        h('button', { type: 'button', class: 'small-button', onclick: () => loadIntoChooser(option) }, 'Try it in the kit chooser'),
       ),
     );
   }
   box.append(list);
+}
+
+/** Puts a recommended option into the kit chooser's controls (which then predict it). */
+function loadIntoChooser(option: Recommendation['options'][number]): void {
+  const set = (id: string, value: string, event: string): void => {
+    const el = document.getElementById(id) as HTMLInputElement | HTMLSelectElement | null;
+    if (!el) return;
+    el.value = value;
+    el.dispatchEvent(new Event(event));
+  };
+  set('kit-antenna', option.antennaDesignId, 'change');
+  set('kit-feedline-length', String(option.feedlineId ? option.feedlineLengthM : 0), 'input');
+  set('kit-feedline', option.feedlineId ?? 'none', 'change');
+  set('kit-height', String(option.mastHeightM), 'input');
+  document.getElementById('kit-h')?.scrollIntoView({ block: 'start' });
+  document.getElementById('kit-height')?.focus();
 }
