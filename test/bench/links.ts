@@ -5,7 +5,7 @@
 //  2. the full fleet table, 500 nodes × 5 gateways, from a cold cache
 //     (target < 10 s on 2 cores), then warm.
 // Terrain: a synthetic DEM (ridges and valleys of our own making, 30 m cells).
-import { mkdtempSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { performance } from 'node:perf_hooks';
@@ -128,5 +128,6 @@ export async function run(): Promise<void> {
     console.log(`  cold cache ${(coldMs / 1000).toFixed(2)} s (${coldBody.cache.computed} links computed; target < 10 s)  warm ${(warmMs / 1000).toFixed(2)} s (${warmBody.cache.cached} cached)  counts ${JSON.stringify(coldBody.counts)}`);
   } finally {
     await t.close();
+    rmSync(dir, { recursive: true, force: true });
   }
 }
