@@ -1,6 +1,6 @@
 // Worker-thread side of the pool: runs one slice of an area prediction over
 // shared buffers and answers with the count of visible cells (los) or nothing.
-import { parentPort } from 'node:worker_threads';
+import { parentPort, threadId } from 'node:worker_threads';
 import { rasteriseBasicLoss, rasteriseVisibility, sweepSector, type AreaRequest } from '../coverage/area.ts';
 import type { GridFrame, RayPlan } from '../coverage/geometry.ts';
 import type { TerrainWindow } from '../coverage/sweep.ts';
@@ -22,6 +22,10 @@ export interface AreaTask {
 
 export interface AreaTaskResult {
   id: number;
+  /** Thread that ran the task (for load-balance checks). */
+  threadId?: number;
+  /** CPU time of the task in the worker, ms. */
+  cpuMs?: number;
   visibleCells?: number;
   error?: string;
 }
@@ -48,7 +52,9 @@ function runTask(task: AreaTask): AreaTaskResult {
 
 parentPort?.on('message', (task: AreaTask) => {
   try {
-    parentPort!.postMessage(runTask(task));
+    const t0 = performance.now();
+    const result = runTask(task);
+    parentPort!.postMessage({ ...result, threadId, cpuMs: performance.now() - t0 });
   } catch (error) {
     parentPort!.postMessage({ id: task.id, error: error instanceof Error ? error.message : String(error) });
   }

@@ -54,17 +54,31 @@ export async function run(): Promise<void> {
       const [lon, lat] = raster30.transform.inverse(ox, oy);
       const gdalTimes: number[] = [];
       const ourTimes: number[] = [];
+      const gdalCpu: number[] = [];
+      const ourCpu: number[] = [];
+      const phases = { readMs: 0, computeMs: 0, writeMs: 0 };
       let agree = 0;
       let total = 0;
       for (let repeat = 0; repeat < 3; repeat++) {
         const t0 = performance.now();
+        // CPU seconds of the GDAL process (user + sys) from /usr/bin/time, as the machine may be shared.
+        const timed = spawnSync('/usr/bin/time', ['-f', '%U %S', 'gdal_viewshed', '-q', '-oz', '20', '-tz', '1.5', '-md', '20000', '-cc', '0.75', '-vv', '1', '-iv', '0', '-ov', '100', '-ox', String(ox), '-oy', String(oy), dem30, join(dir, 'gdal-timed.tif')], { encoding: 'utf8' });
+        const [user, sys] = timed.stderr.trim().split(/\s+/).slice(-2).map(Number);
+        gdalCpu.push((user + sys) * 1000);
         execFileSync('gdal_viewshed', ['-q', '-oz', '20', '-tz', '1.5', '-md', '20000', '-cc', '0.75', '-vv', '1', '-iv', '0', '-ov', '100', '-ox', String(ox), '-oy', String(oy), dem30, join(dir, 'gdal.tif')]);
         gdalTimes.push(performance.now() - t0);
         const t1 = performance.now();
+        const cpu0 = process.cpuUsage();
         const loaded = await loadTerrainWindow(raster30, { lat, lon, radiusM: 20_000, allowClip: true });
+        const t2 = performance.now();
         const result = predictArea(loaded.terrain, { mode: 'los', radiusM: 20_000, ...base });
+        const t3 = performance.now();
         writeOnRasterGrid(join(dir, 'ours.tif'), raster30, loaded.placement, result.visible!, 'uint8', BYTE_NODATA);
-        ourTimes.push(performance.now() - t1);
+        const t4 = performance.now();
+        const cpu = process.cpuUsage(cpu0);
+        ourCpu.push((cpu.user + cpu.system) / 1000);
+        ourTimes.push(t4 - t1);
+        if (repeat === 2) Object.assign(phases, { readMs: t2 - t1, computeMs: t3 - t2, writeMs: t4 - t3 });
       }
       const ours = await openGeoRaster(join(dir, 'ours.tif'));
       const gdal = await openGeoRaster(join(dir, 'gdal.tif'));
@@ -82,7 +96,7 @@ export async function run(): Promise<void> {
         }
       }
       await Promise.all([ours.close(), gdal.close()]);
-      log(`los vs gdal_viewshed (30 m DEM, R = 20 km, ${total} cells, best of 3, each reading the DEM and writing a GeoTIFF): gdal ${best(gdalTimes).toFixed(0)} ms, earshot ${best(ourTimes).toFixed(0)} ms → earshot/gdal time ratio ${(best(ourTimes) / best(gdalTimes)).toFixed(2)}; cells agreeing ${((100 * agree) / total).toFixed(2)} %`);
+      log(`los vs gdal_viewshed (30 m DEM, R = 20 km, ${total} cells, best of 3, each reading the DEM and writing a GeoTIFF): gdal ${best(gdalTimes).toFixed(0)} ms, earshot ${best(ourTimes).toFixed(0)} ms → earshot/gdal wall-time ratio ${(best(ourTimes) / best(gdalTimes)).toFixed(2)}; CPU time gdal ${best(gdalCpu).toFixed(0)} ms, earshot ${best(ourCpu).toFixed(0)} ms → CPU ratio ${(best(ourCpu) / best(gdalCpu)).toFixed(2)} (earshot: read ${phases.readMs.toFixed(0)} ms, compute ${phases.computeMs.toFixed(0)} ms, write ${phases.writeMs.toFixed(0)} ms); cells agreeing ${((100 * agree) / total).toFixed(2)} %`);
     } else {
       log('los vs gdal_viewshed: SKIPPED (gdal_viewshed not installed)');
     }
