@@ -150,6 +150,16 @@ describeEngines('coverage API', (engine) => {
     expect(s.nodes.served).toBeGreaterThanOrEqual(1); // 300 m from a 15 m mast
     expect(s.gateways[0].nodes).toBe(s.nodes.served + s.nodes.marginal);
     expect(s.gateways[0].gatewayId).toBe(gatewayId);
+    // Server-sent events of a finished run: its last progress event, then the end event.
+    const events = await http.get(`/api/v1/plans/${planId}/coverage/${started.body.id}/events`).set(as('viewer')).buffer(true).parse((res, cb) => {
+      let text = '';
+      res.on('data', (c: Buffer) => (text += c.toString('utf8')));
+      res.on('end', () => cb(null, text));
+    });
+    expect(events.status).toBe(200);
+    expect(events.headers['content-type']).toMatch(/text\/event-stream/);
+    expect(events.body as string).toMatch(/event: progress\ndata: \{"status":"done","progress":1/);
+    expect(events.body as string).toMatch(/event: end/);
     const list = await http.get(`/api/v1/plans/${planId}/coverage`).set(as('viewer'));
     expect(list.status).toBe(200);
     expect(list.body.items.some((item: { id: string }) => item.id === started.body.id)).toBe(true);
