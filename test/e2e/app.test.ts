@@ -6,7 +6,7 @@
 // request that leaves the local server. Screenshots: test-artefacts/screenshots/.
 import { afterAll, beforeAll, beforeEach, describe, expect, it } from 'vitest';
 import type { Browser, BrowserContext, Page } from 'playwright-core';
-import { buildWeb, cli, guard, launchBrowser, newContext, screenshot, startServer, type Guard, type RunningServer } from './harness.ts';
+import { accessibilityProblems, buildWeb, cli, guard, launchBrowser, newContext, screenshot, startServer, type Guard, type RunningServer } from './harness.ts';
 
 let server: RunningServer;
 let browser: Browser;
@@ -67,6 +67,13 @@ describe('map front end (chromium)', () => {
     await expect.poll(() => textOf('#fleet-counts'), { timeout: 30_000 }).toMatch(/\d+ served/);
     await page.waitForTimeout(300);
     await screenshot(page, '03-plan-map');
+    // Controls labelled, text contrast at least WCAG AA (sidebar and top bar).
+    expect(await accessibilityProblems(page, '.sidebar')).toEqual([]);
+    expect(await accessibilityProblems(page, '.topbar')).toEqual([]);
+    // Keyboard: a node marker takes focus and Enter opens its panel.
+    await page.locator('.marker-nodes').first().focus();
+    await page.keyboard.press('Enter');
+    await page.locator('#node-panel-title').waitFor();
     watch.assertClean();
   });
 
@@ -126,6 +133,7 @@ describe('map front end (chromium)', () => {
     expect(await page.locator('#import-errors tbody tr').first().locator('td').first().textContent()).toBe('2');
     expect(await page.locator('#import-commit').isDisabled()).toBe(true);
     await page.locator('dialog').screenshot({ path: 'test-artefacts/screenshots/05-import-errors.png' });
+    expect(await accessibilityProblems(page, 'dialog')).toEqual([]);
     // fix the row, check again, import
     await page.locator('#import-text').fill([header, fill(csvGood1), fill(csvGood2)].join('\n'));
     await page.locator('#import-preview').click();
@@ -166,6 +174,7 @@ describe('map front end (chromium)', () => {
     expect(values.length).toBeGreaterThan(0);
     for (let i = 1; i < values.length; i++) expect(values[i]).toBeGreaterThanOrEqual(values[i - 1]);
     await screenshot(page, '08-fleet-table');
+    expect(await accessibilityProblems(page, 'main')).toEqual([]);
     await page.locator('#fleet-filter').selectOption('served');
     const served = await page.locator('#fleet-table tbody tr').count();
     expect(served).toBeLessThanOrEqual(all);
@@ -184,6 +193,7 @@ describe('map front end (chromium)', () => {
     expect(await textOf('#summary-cost-total')).toMatch(/USD/);
     await page.waitForTimeout(200);
     await screenshot(page, '09-summary');
+    expect(await accessibilityProblems(page, 'main')).toEqual([]);
     watch.assertClean();
   });
 
@@ -206,7 +216,8 @@ describe('map front end (chromium)', () => {
       await p.locator('#visit-sheet:not([aria-busy])').waitFor({ timeout: 60_000 });
       expect(await p.locator('#install-height').textContent()).toMatch(/m above ground/);
       expect(await p.locator('#install-coords').textContent()).toMatch(/°/);
-      await screenshot(p, '10-installer-node');
+      await screenshot(p, '10-installer-node', true);
+      expect(await accessibilityProblems(p, 'main')).toEqual([]);
       await p.locator('#reading-rssi').fill('-108.5');
       await p.locator('#reading-snr').fill('-4.2');
       await p.getByRole('button', { name: 'Save reading' }).click();

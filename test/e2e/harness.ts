@@ -167,10 +167,10 @@ export async function newContext(browser: Browser, viewport = { width: 1400, hei
   return browser.newContext({ viewport, deviceScaleFactor: 1, locale: 'en-US', timezoneId: 'UTC' });
 }
 
-export async function screenshot(page: Page, name: string): Promise<string> {
+export async function screenshot(page: Page, name: string, fullPage = false): Promise<string> {
   mkdirSync(screenshotDir, { recursive: true });
   const path = join(screenshotDir, `${name}.png`);
-  await page.screenshot({ path, fullPage: false });
+  await page.screenshot({ path, fullPage });
   return path;
 }
 
@@ -178,4 +178,72 @@ export async function screenshot(page: Page, name: string): Promise<string> {
 export function buildWeb(): void {
   const result = spawnSync(process.execPath, ['scripts/build-web.mjs'], { stdio: 'inherit' });
   if (result.status !== 0) throw new Error('web build failed');
+}
+
+/**
+ * Accessibility checks run in the page: every visible form control and button has an
+ * accessible name, and visible text meets the WCAG 2.x contrast minimum of 4.5:1
+ * (3:1 for large text: ≥ 24 px, or ≥ 18.66 px bold), computed with the WCAG 2.x
+ * relative-luminance formula over the nearest opaque background. Returns the failures.
+ */
+export async function accessibilityProblems(page: Page, root = 'body'): Promise<string[]> {
+  // The TypeScript transform may wrap named inner functions in a __name() helper; give the page one.
+  await page.evaluate('globalThis.__name = globalThis.__name || ((f) => f)');
+  return page.evaluate((rootSelector) => {
+    const problems: string[] = [];
+    const scope = document.querySelector(rootSelector) ?? document.body;
+    const visible = (el: Element): boolean => {
+      const r = el.getBoundingClientRect();
+      const st = getComputedStyle(el);
+      return r.width > 0 && r.height > 0 && st.visibility !== 'hidden' && st.display !== 'none';
+    };
+    for (const el of Array.from(scope.querySelectorAll('input, select, textarea, button'))) {
+      if (!visible(el) || (el as HTMLInputElement).type === 'hidden') continue;
+      const labelled =
+        (el as HTMLInputElement).labels?.length ||
+        el.getAttribute('aria-label') ||
+        el.getAttribute('aria-labelledby') ||
+        (el.tagName === 'BUTTON' && (el.textContent ?? '').trim() !== '');
+      if (!labelled) problems.push(`no accessible name: <${el.tagName.toLowerCase()} id="${el.id}" class="${el.className}">`);
+    }
+    const parse = (c: string): number[] | null => {
+      const m = /rgba?\(([\d.]+),\s*([\d.]+),\s*([\d.]+)(?:,\s*([\d.]+))?\)/.exec(c);
+      return m ? [Number(m[1]), Number(m[2]), Number(m[3]), m[4] === undefined ? 1 : Number(m[4])] : null;
+    };
+    // WCAG 2.x relative luminance: sRGB channel linearisation then 0.2126 R + 0.7152 G + 0.0722 B.
+    const lum = (rgb: number[]): number => {
+      const lin = rgb.slice(0, 3).map((v) => {
+        const s = v / 255;
+        return s <= 0.04045 ? s / 12.92 : ((s + 0.055) / 1.055) ** 2.4;
+      });
+      return 0.2126 * lin[0] + 0.7152 * lin[1] + 0.0722 * lin[2];
+    };
+    const background = (el: Element | null): number[] | null => {
+      for (let e = el; e; e = e.parentElement) {
+        const st = getComputedStyle(e);
+        if (st.backgroundImage !== 'none' && !e.classList.contains('share')) return null; // gradients/images: not judged
+        const bg = parse(st.backgroundColor);
+        if (bg && bg[3] >= 0.99) return bg;
+      }
+      return [255, 255, 255, 1];
+    };
+    const walker = document.createTreeWalker(scope, NodeFilter.SHOW_TEXT);
+    const seen = new Set<Element>();
+    for (let node = walker.nextNode(); node; node = walker.nextNode()) {
+      const el = node.parentElement;
+      if (!el || seen.has(el) || (node.textContent ?? '').trim() === '' || !visible(el)) continue;
+      if (el.closest('.leaflet-container, svg, option')) continue;
+      seen.add(el);
+      const st = getComputedStyle(el);
+      const fg = parse(st.color);
+      const bg = background(el);
+      if (!fg || !bg) continue;
+      const ratio = (Math.max(lum(fg), lum(bg)) + 0.05) / (Math.min(lum(fg), lum(bg)) + 0.05);
+      const size = Number.parseFloat(st.fontSize);
+      const large = size >= 24 || (size >= 18.66 && Number(st.fontWeight) >= 700);
+      const disabled = el.closest('button[disabled], [aria-disabled="true"]');
+      if (!disabled && ratio < (large ? 3 : 4.5)) problems.push(`contrast ${ratio.toFixed(2)}:1 for "${(node.textContent ?? '').trim().slice(0, 40)}" (${st.color} on rgb(${bg.slice(0, 3).join(',')}))`);
+    }
+    return problems;
+  }, root);
 }

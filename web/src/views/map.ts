@@ -28,7 +28,7 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
 
   const mapEl = h('div', { class: 'map', id: 'plan-map', role: 'region', 'aria-label': `Map of plan ${store.plan.name}` });
   const sidebar = h('aside', { class: 'sidebar', 'aria-label': 'Plan tools' });
-  const detail = h('section', { class: 'panel detail', id: 'detail-panel', 'aria-live': 'polite', 'aria-label': 'Selected object' });
+  const detail = h('section', { class: 'panel detail', id: 'detail-panel', tabindex: '-1', 'aria-label': 'Selected object' });
   main.append(h('div', { class: 'map-layout' }, h('div', { class: 'map-wrap' }, mapEl), sidebar));
 
   const map = L.map(mapEl, { zoomControl: true, keyboard: true, attributionControl: true, preferCanvas: false });
@@ -199,6 +199,17 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
     const zIndexOffset = kind === 'gateways' ? 2000 : kind === 'nodes' ? 1000 : 0;
     const marker = L.marker([entity.lat, entity.lon], { icon, title, alt: title, keyboard: true, draggable, riseOnHover: true, autoPan: true, zIndexOffset });
     marker.on('click', () => select(kind, entity.id, false));
+    // Keyboard: markers are focusable buttons (Tab); Enter or Space selects, like a click.
+    marker.on('add', () => {
+      const el = marker.getElement();
+      el?.setAttribute('aria-label', title);
+      el?.addEventListener('keydown', (event: KeyboardEvent) => {
+        if (event.key !== 'Enter' && event.key !== ' ') return;
+        event.preventDefault();
+        select(kind, entity.id, false);
+        document.getElementById('detail-panel')?.focus();
+      });
+    });
     marker.on('dragend', () => {
       const to = marker.getLatLng();
       const current = store.find(kind, entity.id);
