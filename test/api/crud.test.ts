@@ -204,6 +204,9 @@ describeEngines('plan-scoped CRUD', (engine) => {
     const imported = await http.post(url).set(as('planner')).set('Content-Type', 'text/csv').send(good);
     expect(imported.status).toBe(201);
     expect(imported.body.created).toBe(2);
+    const audit = await http.get('/api/v1/audit?entity=node').set(as('viewer'));
+    expect(audit.body.items).toHaveLength(1); // the rejected import left no audit entry either
+    expect(audit.body.items[0]).toMatchObject({ action: 'import', entityId: plan.id, detail: { count: 2 } });
     expect((await http.get(`/api/v1/plans/${plan.id}/nodes`).set(as('viewer'))).body.total).toBe(2);
     expect((await http.post(url).set(as('viewer')).set('Content-Type', 'text/csv').send(good)).status).toBe(403);
     expect((await http.post(url).set(as('otherTeamPlanner')).set('Content-Type', 'text/csv').send(good)).status).toBe(404);

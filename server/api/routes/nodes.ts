@@ -164,8 +164,7 @@ export default async function nodeRoutes(app: FastifyInstance): Promise<void> {
           rows: errors.slice(0, 500),
         });
       }
-      const created = await createNodesAtomically(db, plan.id, data);
-      await recordAudit(db, { principal, action: 'import', entity: 'node', entityId: plan.id, detail: { planId: plan.id, count: created.length } });
+      const created = await createNodesAtomically(db, plan.id, data, { principal, action: 'import', entity: 'node', entityId: plan.id, detail: { planId: plan.id, count: data.length } });
       return reply.status(201).send({ created: created.length, items: created.map(nodeView) });
     },
   );

@@ -5,6 +5,7 @@ import type { Prisma } from '../generated/client.ts';
 import { NotFoundError } from '../errors.ts';
 import { pageWindow, toPage, type PageQuery } from './pagination.ts';
 import { versionedUpdate } from './versioned.ts';
+import { recordAudit, type AuditInput } from './audit.ts';
 
 export type NodeRow = Awaited<ReturnType<Database['prisma']['node']['findFirstOrThrow']>>;
 export type NodeCreate = Omit<Prisma.NodeUncheckedCreateInput, 'id' | 'planId' | 'version' | 'createdAt' | 'updatedAt'>;
@@ -40,11 +41,12 @@ export async function deleteNode(db: Database, planId: string, id: string): Prom
   if (count === 0) throw new NotFoundError('node');
 }
 
-/** Creates many nodes in one transaction: all rows or none. */
-export async function createNodesAtomically(db: Database, planId: string, rows: NodeCreate[]): Promise<NodeRow[]> {
+/** Creates many nodes in one transaction: all rows or none (and the audit entry with them). */
+export async function createNodesAtomically(db: Database, planId: string, rows: NodeCreate[], audit?: AuditInput): Promise<NodeRow[]> {
   return db.prisma.$transaction(async (tx) => {
     const created: NodeRow[] = [];
     for (const row of rows) created.push(await tx.node.create({ data: { ...row, planId } }));
+    if (audit) await recordAudit({ prisma: tx }, audit);
     return created;
   });
 }
