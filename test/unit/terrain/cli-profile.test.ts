@@ -1,7 +1,8 @@
 // `earshot profile` as other tools call it: one JSON document, the contract's fields, NoData as null,
 // first point at --from and last at --to; errors as one line on stderr with a non-zero exit.
 import { spawnSync } from 'node:child_process';
-import { describe, expect, it } from 'vitest';
+import { describe, expect, it, vi } from 'vitest';
+import { runCli } from '../../../server/cli.ts';
 
 const ELEV = new URL('../../../terrain-samples/elev.tif', import.meta.url).pathname;
 const root = new URL('../../../', import.meta.url).pathname;
@@ -28,13 +29,24 @@ describe('earshot profile (CLI contract)', () => {
     expect(Math.max(...steps)).toBeLessThanOrEqual(250.001);
   });
 
-  it('bad input: one line on stderr naming the option, non-zero exit, nothing on stdout', () => {
+  it('bad input: one line on stderr naming the option, non-zero exit, nothing on stdout (in-process runCli)', async () => {
     for (const [args, pattern] of [
       [['profile', '--terrain', ELEV, '--from', '95,6', '--to', '49.8,5.6', '--json'], /--from: latitude must be within ±90°/],
       [['profile', '--terrain', 'missing.tif', '--from', '49.8,6', '--to', '49.8,5.6', '--json'], /--terrain: file not found: missing.tif/],
       [['profile', '--terrain', `${ELEV},package.json`, '--from', '49.8,6', '--to', '49.8,5.6', '--json'], /--terrain: not a TIFF/],
     ] as const) {
-      const run = earshot([...args]);
+      const out: string[] = [];
+      const err: string[] = [];
+      const stdout = vi.spyOn(process.stdout, 'write').mockImplementation((chunk) => (out.push(String(chunk)), true));
+      const stderr = vi.spyOn(process.stderr, 'write').mockImplementation((chunk) => (err.push(String(chunk)), true));
+      let status: number;
+      try {
+        status = await runCli([...args]);
+      } finally {
+        stdout.mockRestore();
+        stderr.mockRestore();
+      }
+      const run = { status, stdout: out.join(''), stderr: err.join('') };
       expect(run.status).not.toBe(0);
       expect(run.stdout).toBe('');
       expect(run.stderr.trim().split('\n')).toHaveLength(1);
