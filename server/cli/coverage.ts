@@ -9,6 +9,7 @@ import { CliUsageError, defineCommand, integerOption, latLonOption, numberOption
 import { openGeoRaster, RasterError } from '../terrain/raster.ts';
 import { CoverageInputError, loadTerrainWindow, writeOnRasterGrid } from '../coverage/terrain-window.ts';
 import { runArea } from '../jobs/area-runner.ts';
+import { defaultWorkerCount } from '../jobs/pool.ts';
 import { LOSS_NODATA } from '../coverage/outputs.ts';
 import { BYTE_NODATA } from '../coverage/rasterise.ts';
 
@@ -58,20 +59,24 @@ export const coverageCommands: CliCommand[] = [
           frequencyMhz: o['frequency-mhz'] ?? 915,
           p1812: { siteLatDeg: o.site.lat },
         };
-        const result = await runArea(loaded.terrain, request, { workers: o.workers, onProgress: (fraction) => context.progress(fraction, o.mode) });
-        let cells = 0;
+        // Default: every core for big windows; small ones finish before threads would have started.
+        const cells = loaded.terrain.frame.widthPx * loaded.terrain.frame.heightPx;
+        const workers = o.workers ?? (cells > 1_000_000 || o.mode === 'full' ? defaultWorkerCount() : 1);
+        const result = await runArea(loaded.terrain, request, { workers, onProgress: (fraction) => context.progress(fraction, o.mode) });
+        let inside = 0;
         if (result.visible) {
-          for (let i = 0; i < result.visible.length; i++) if (result.visible[i] !== BYTE_NODATA) cells++;
+          for (let i = 0; i < result.visible.length; i++) if (result.visible[i] !== BYTE_NODATA) inside++;
           writeOnRasterGrid(o.out, raster, loaded.placement, result.visible, 'uint8', BYTE_NODATA);
         } else if (result.lossDb) {
-          for (let i = 0; i < result.lossDb.length; i++) if (result.lossDb[i] === result.lossDb[i]) cells++;
+          for (let i = 0; i < result.lossDb.length; i++) if (result.lossDb[i] === result.lossDb[i]) inside++;
           writeOnRasterGrid(o.out, raster, loaded.placement, result.lossDb, 'float32', LOSS_NODATA);
         }
         const seconds = Number(((performance.now() - started) / 1000).toFixed(3));
         return {
           mode: o.mode,
-          cells,
+          cells: inside,
           seconds,
+          workers,
           visibleCells: result.visibleCells ?? null,
           rays: result.plan.rayCount,
           samplesPerRay: result.plan.sampleCount,
