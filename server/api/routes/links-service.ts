@@ -104,14 +104,20 @@ export interface NodeLinksOutcome extends NodeLinkSummary {
   outOfRange: Array<{ gatewayId: string; distanceM: number }>;
 }
 
+/** What a Link row keeps: the predicted path (reused while its inputs hold) and the contract figures. */
 interface StoredLink {
   pathHash: string;
   path: PathPrediction;
-  link: LinkResult;
+  summary: Pick<LinkResult, 'gatewayId' | 'distanceM' | 'basicLossDb' | 'rssiDbm' | 'snrDb' | 'marginDb' | 'bestSf' | 'usedSf' | 'deliveryProbability' | 'timeOnAirMs'> & { legalOk: boolean | null };
 }
 
 function isStoredLink(value: unknown): value is StoredLink {
-  return !!value && typeof value === 'object' && typeof (value as StoredLink).pathHash === 'string' && !!(value as StoredLink).path && !!(value as StoredLink).link;
+  return !!value && typeof value === 'object' && typeof (value as StoredLink).pathHash === 'string' && !!(value as StoredLink).path && !!(value as StoredLink).summary;
+}
+
+function linkSummary(link: LinkResult): StoredLink['summary'] {
+  const { gatewayId, distanceM, basicLossDb, rssiDbm, snrDb, marginDb, bestSf, usedSf, deliveryProbability, timeOnAirMs } = link;
+  return { gatewayId, distanceM, basicLossDb, rssiDbm, snrDb, marginDb, bestSf, usedSf, deliveryProbability, timeOnAirMs, legalOk: link.legal ? link.legal.withinLimit : null };
 }
 
 function buildingTypeOf(value: string | null, fallback: BuildingType): BuildingType {
@@ -400,20 +406,21 @@ export class LinkEngine {
       inRange.push({ gateway, path, pathHash, row });
     }
     const aim = nodeAimAzimuthDeg(node.kit, inRange);
+    const kit = aim === null ? node.kit : { ...node.kit, boresightAzimuthDeg: aim };
     const toSave: LinkRow[] = [];
     const links: LinkResult[] = [];
     for (const entry of inRange) {
       const inputHash = hashOf({ p: entry.pathHash, n: node.kitHash, g: entry.gateway.kitHash, r: ctx.radioSettingsHash, aim });
-      const stored = entry.row && isStoredLink(entry.row.result) ? entry.row.result : null;
-      if (entry.row && entry.row.inputHash === inputHash && stored) {
-        links.push(stored.link);
+      // The budget over a known path costs microseconds, so the row keeps the path (the
+      // expensive part) and a summary; the full result is rebuilt from them, identically.
+      const [link] = nodeLinkResults(kit, node.radio, [{ gatewayId: entry.gateway.row.id, path: entry.path, kit: entry.gateway.kit, radio: entry.gateway.radio }], node.radioSettings);
+      links.push(link);
+      if (entry.row && entry.row.inputHash === inputHash && isStoredLink(entry.row.result)) {
         cached++;
         continue;
       }
-      const [link] = nodeLinkResults(aim === null ? node.kit : { ...node.kit, boresightAzimuthDeg: aim }, node.radio, [{ gatewayId: entry.gateway.row.id, path: entry.path, kit: entry.gateway.kit, radio: entry.gateway.radio }], node.radioSettings);
-      links.push(link);
       computed++;
-      if (save) toSave.push({ nodeId: node.row.id, gatewayId: entry.gateway.row.id, inputHash, result: { pathHash: entry.pathHash, path: entry.path, link } satisfies StoredLink });
+      if (save) toSave.push({ nodeId: node.row.id, gatewayId: entry.gateway.row.id, inputHash, result: { pathHash: entry.pathHash, path: entry.path, summary: linkSummary(link) } satisfies StoredLink });
     }
     const summary = summariseNodeLinks(links, { targetMarginDb: ctx.settings.targetMarginDb, targetDelivery: ctx.settings.targetDelivery }, ctx.settings.gatewayCorrelation);
     const paths = new Map(inRange.map((entry) => [entry.gateway.row.id, entry.path]));
