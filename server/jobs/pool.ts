@@ -6,15 +6,15 @@ import { availableParallelism } from 'node:os';
 import { Worker } from 'node:worker_threads';
 import type { AreaTask, AreaTaskResult } from './pool-worker.ts';
 
-interface Pending {
-  task: AreaTask;
-  resolve: (result: AreaTaskResult) => void;
+interface Pending<Task, Result> {
+  task: Task;
+  resolve: (result: Result) => void;
   reject: (error: Error) => void;
 }
 
-interface Slot {
+interface Slot<Task, Result> {
   worker: Worker;
-  busy: Pending | null;
+  busy: Pending<Task, Result> | null;
 }
 
 /** Number of worker threads used when none is configured: every core. */
@@ -22,25 +22,32 @@ export function defaultWorkerCount(): number {
   return Math.max(1, availableParallelism());
 }
 
-export class WorkerPool {
+/**
+ * `entry` is the worker module (default: the coverage area worker); other rooms
+ * pass their own module that answers `{ id, error? }` per task.
+ */
+export class WorkerPool<Task = AreaTask, Result extends { error?: string } = AreaTaskResult> {
   readonly size: number;
-  private slots: Slot[] = [];
-  private queue: Pending[] = [];
+  private slots: Slot<Task, Result>[] = [];
+  private queue: Pending<Task, Result>[] = [];
   private closed = false;
 
-  constructor(size = defaultWorkerCount()) {
+  constructor(
+    size = defaultWorkerCount(),
+    private readonly entry: URL = new URL('./pool-worker.ts', import.meta.url),
+  ) {
     if (!Number.isInteger(size) || size < 1) throw new RangeError('worker pool size must be a whole number ≥ 1');
     this.size = size;
     for (let i = 0; i < size; i++) this.slots.push(this.spawn());
   }
 
-  private spawn(): Slot {
+  private spawn(): Slot<Task, Result> {
     const worker = new Worker(new URL('./worker-boot.mjs', import.meta.url), {
-      workerData: { entry: new URL('./pool-worker.ts', import.meta.url).href },
+      workerData: { entry: this.entry.href },
       execArgv: [],
     });
-    const slot: Slot = { worker, busy: null };
-    worker.on('message', (result: AreaTaskResult) => {
+    const slot: Slot<Task, Result> = { worker, busy: null };
+    worker.on('message', (result: Result) => {
       const pending = slot.busy;
       slot.busy = null;
       if (pending) {
@@ -69,7 +76,7 @@ export class WorkerPool {
   }
 
   /** Runs one task on the next free worker. */
-  exec(task: AreaTask): Promise<AreaTaskResult> {
+  exec(task: Task): Promise<Result> {
     if (this.closed) return Promise.reject(new Error('worker pool is closed'));
     return new Promise((resolve, reject) => {
       this.queue.push({ task, resolve, reject });
