@@ -285,4 +285,48 @@ describeEngines('plan-scoped CRUD', (engine) => {
     expect((await http.get(`/api/v1/audit?entity=plan&entityId=${plan.id}`).set(as('viewer'))).body.total).toBe(2);
     expect((await http.get('/api/v1/audit').set(as('otherTeamPlanner'))).body.total).toBe(0);
   });
+  it('a write and its audit entry are one transaction: a refused audit insert keeps neither; a good write leaves exactly one entry', async () => {
+    const plan = await newPlan('Atomic');
+    const site = await http.post(`/api/v1/plans/${plan.id}/sites`).set(as('planner')).send({ name: 'Hilltop', lat: 1, lon: 1 });
+    expect(site.status).toBe(201);
+    expect(await t.db.prisma.auditEntry.count({ where: { entityId: plan.id } })).toBe(1);
+    expect(await t.db.prisma.auditEntry.count({ where: { entityId: site.body.id } })).toBe(1);
+    // The database itself refuses these audit rows (a CHECK constraint), so the failure is a
+    // real insert error on both engines, raised after the row write in the same request.
+    await t.db.raw.exec(
+      `ALTER TABLE "AuditEntry" ADD CONSTRAINT "test_audit_refused" CHECK (COALESCE("detail"->>'name', '') <> 'audit-must-fail' AND "entityId" NOT IN ('${plan.id}', '${site.body.id}') AND "action" <> 'issue') NOT VALID`,
+    );
+    try {
+      const auditBefore = await t.db.prisma.auditEntry.count();
+      const refused = 'audit-must-fail';
+      expect((await http.post('/api/v1/plans').set(as('planner')).send({ name: refused })).status).toBe(500);
+      expect((await http.post(`/api/v1/plans/${plan.id}/sites`).set(as('planner')).send({ name: refused, lat: 2, lon: 2 })).status).toBe(500);
+      expect((await http.post(`/api/v1/plans/${plan.id}/gateways`).set(as('planner')).send({ name: refused, lat: 2, lon: 2 })).status).toBe(500);
+      expect((await http.post(`/api/v1/plans/${plan.id}/nodes`).set(as('planner')).send({ name: refused, lat: 2, lon: 2, deviceType: 'soil-probe' })).status).toBe(500);
+      expect(await t.db.prisma.plan.count({ where: { name: refused } })).toBe(0);
+      expect(await t.db.prisma.site.count({ where: { name: refused } })).toBe(0);
+      expect(await t.db.prisma.gateway.count({ where: { name: refused } })).toBe(0);
+      expect(await t.db.prisma.node.count({ where: { name: refused } })).toBe(0);
+      // Updates and deletes roll back too (a plan delete would have cascaded to its site).
+      expect((await http.patch(`/api/v1/plans/${plan.id}`).set(as('planner')).send({ name: 'Renamed', version: 1 })).status).toBe(500);
+      expect((await http.patch(`/api/v1/plans/${plan.id}/sites/${site.body.id}`).set(as('planner')).send({ name: 'Renamed', version: 1 })).status).toBe(500);
+      expect((await http.delete(`/api/v1/plans/${plan.id}/sites/${site.body.id}`).set(as('planner'))).status).toBe(500);
+      expect((await http.delete(`/api/v1/plans/${plan.id}`).set(as('planner'))).status).toBe(500);
+      expect(await t.db.prisma.plan.findUnique({ where: { id: plan.id } })).toMatchObject({ name: 'Atomic', version: 1 });
+      expect(await t.db.prisma.site.findUnique({ where: { id: site.body.id } })).toMatchObject({ name: 'Hilltop', version: 1 });
+      // A token issued for a new user: user, token and audit entry all go or none.
+      const usersBefore = await t.db.prisma.user.count();
+      const tokensBefore = await t.db.prisma.apiToken.count();
+      expect((await http.post('/api/v1/tokens').set(as('planner')).send({ role: 'installer', userName: 'Field crew 3' })).status).toBe(500);
+      expect(await t.db.prisma.user.count()).toBe(usersBefore);
+      expect(await t.db.prisma.apiToken.count()).toBe(tokensBefore);
+      expect(await t.db.prisma.auditEntry.count()).toBe(auditBefore);
+    } finally {
+      await t.db.raw.exec(`ALTER TABLE "AuditEntry" DROP CONSTRAINT IF EXISTS "test_audit_refused"`);
+    }
+    const patched = await http.patch(`/api/v1/plans/${plan.id}`).set(as('planner')).send({ name: 'Renamed', version: 1 });
+    expect(patched.status).toBe(200);
+    expect(await t.db.prisma.auditEntry.findMany({ where: { entityId: plan.id }, select: { action: true } })).toEqual(expect.arrayContaining([{ action: 'create' }, { action: 'update' }]));
+    expect(await t.db.prisma.auditEntry.count({ where: { entityId: plan.id } })).toBe(2);
+  });
 });

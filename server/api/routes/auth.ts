@@ -7,7 +7,7 @@ import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { createUser, issueToken, revokeToken, roles, verifyToken } from '../../db/repositories/accounts.ts';
-import { recordAudit } from '../../db/repositories/audit.ts';
+import { writeWithAudit } from '../../db/repositories/audit.ts';
 import { requireRole, sessionCookieName } from '../auth.ts';
 import { ApiError } from '../errors.ts';
 import { id, itemParams, name, pageQuery } from '../schemas.ts';
@@ -41,8 +41,7 @@ export async function signInRoutes(app: FastifyInstance): Promise<void> {
           .send(signInPage('Sign-in link not valid', 'This sign-in link is unknown, expired or already used. Ask a planner of your team for a new one (earshot token issue).'));
       }
       const expiresAt = new Date(Date.now() + sessionDays * 86_400_000);
-      const session = await issueToken(db, { userId: principal.userId, label: 'browser session', expiresAt });
-      await recordAudit(db, { principal, action: 'signin', entity: 'token', entityId: session.id, detail: { via: 'one-time link' } });
+      const session = await writeWithAudit(db, (tx) => issueToken(tx, { userId: principal.userId, label: 'browser session', expiresAt }), (issued) => ({ principal, action: 'signin', entity: 'token', entityId: issued.id, detail: { via: 'one-time link' } }));
       reply.setCookie(sessionCookieName, session.token, {
         httpOnly: true,
         sameSite: 'strict',
@@ -81,8 +80,7 @@ export default async function authRoutes(app: FastifyInstance): Promise<void> {
   });
 
   api.post('/auth/signout', { schema: { summary: 'Ends this session (revokes the token behind it)', tags: ['auth'] } }, async (request, reply) => {
-    await revokeToken(db, { id: request.principal.tokenId });
-    await recordAudit(db, { principal: request.principal, action: 'signout', entity: 'token', entityId: request.principal.tokenId });
+    await writeWithAudit(db, (tx) => revokeToken(tx, { id: request.principal.tokenId }), () => ({ principal: request.principal, action: 'signout', entity: 'token', entityId: request.principal.tokenId }));
     reply.clearCookie(sessionCookieName, { path: '/' });
     return reply.status(204).send();
   });
@@ -125,21 +123,23 @@ export default async function authRoutes(app: FastifyInstance): Promise<void> {
     async (request, reply) => {
       const principal = requireRole(request, 'planner');
       const body = request.body;
-      let userId = body.userId;
-      if (userId) {
-        const user = await db.prisma.user.findFirst({ where: { id: userId, teamId: principal.teamId } });
+      if (body.userId) {
+        const user = await db.prisma.user.findFirst({ where: { id: body.userId, teamId: principal.teamId } });
         if (!user) throw new ApiError(404, 'not_found', 'user not found');
         if (user.role !== body.role) throw new ApiError(400, 'invalid_input', `role: user ${user.name} has role ${user.role}`);
-      } else {
-        userId = (await createUser(db, { teamId: principal.teamId, name: body.userName ?? `${body.role}`, role: body.role })).id;
       }
-      const issued = await issueToken(db, {
-        userId,
-        label: body.label ?? '',
-        oneTime: body.oneTime ?? false,
-        expiresAt: body.expiresInDays ? new Date(Date.now() + body.expiresInDays * 86_400_000) : null,
-      });
-      await recordAudit(db, { principal, action: 'issue', entity: 'token', entityId: issued.id, detail: { role: issued.role, oneTime: body.oneTime ?? false } });
+      // A new user, its token and the audit entry: all three or none.
+      const issued = await writeWithAudit(
+        db,
+        async (tx) =>
+          issueToken(tx, {
+            userId: body.userId ?? (await createUser(tx, { teamId: principal.teamId, name: body.userName ?? `${body.role}`, role: body.role })).id,
+            label: body.label ?? '',
+            oneTime: body.oneTime ?? false,
+            expiresAt: body.expiresInDays ? new Date(Date.now() + body.expiresInDays * 86_400_000) : null,
+          }),
+        (row) => ({ principal, action: 'issue', entity: 'token', entityId: row.id, detail: { role: row.role, oneTime: body.oneTime ?? false } }),
+      );
       return reply.status(201).send({ token: issued.token, id: issued.id, userId: issued.userId, role: issued.role, expiresAt: issued.expiresAt });
     },
   );
@@ -151,8 +151,7 @@ export default async function authRoutes(app: FastifyInstance): Promise<void> {
       const principal = requireRole(request, 'planner');
       const row = await db.prisma.apiToken.findFirst({ where: { id: request.params.id, teamId: principal.teamId } });
       if (!row) throw new ApiError(404, 'not_found', 'token not found');
-      await revokeToken(db, { id: row.id });
-      await recordAudit(db, { principal, action: 'revoke', entity: 'token', entityId: row.id });
+      await writeWithAudit(db, (tx) => revokeToken(tx, { id: row.id }), () => ({ principal, action: 'revoke', entity: 'token', entityId: row.id }));
       return reply.status(204).send();
     },
   );

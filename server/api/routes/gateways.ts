@@ -2,7 +2,7 @@
 import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import { recordAudit } from '../../db/repositories/audit.ts';
+import { writeWithAudit } from '../../db/repositories/audit.ts';
 import { createGateway, deleteGateway, findGateway, listGateways, updateGateway } from '../../db/repositories/gateways.ts';
 import { findSite } from '../../db/repositories/sites.ts';
 import { requireRole } from '../auth.ts';
@@ -70,8 +70,7 @@ export default async function gatewayRoutes(app: FastifyInstance): Promise<void>
         feedlineLengthM: body.feedlineLengthM ?? 10,
       };
       await assertKitVisible(db, principal.teamId, data);
-      const gateway = await createGateway(db, plan.id, data);
-      await recordAudit(db, { principal, action: 'create', entity: 'gateway', entityId: gateway.id, detail: { planId: plan.id, name: gateway.name } });
+      const gateway = await writeWithAudit(db, (tx) => createGateway(tx, plan.id, data), (row) => ({ principal, action: 'create', entity: 'gateway', entityId: row.id, detail: { planId: plan.id, name: row.name } }));
       return reply.status(201).send(gateway);
     },
   );
@@ -89,16 +88,14 @@ export default async function gatewayRoutes(app: FastifyInstance): Promise<void>
     const { version: expected, ...patch } = request.body;
     await siteOf(plan.id, patch.siteId);
     await assertKitVisible(db, principal.teamId, patch);
-    const gateway = await updateGateway(db, plan.id, request.params.id, expected, patch);
-    await recordAudit(db, { principal, action: 'update', entity: 'gateway', entityId: gateway.id, detail: { planId: plan.id, fields: Object.keys(patch), version: gateway.version } });
+    const gateway = await writeWithAudit(db, (tx) => updateGateway(tx, plan.id, request.params.id, expected, patch), (row) => ({ principal, action: 'update', entity: 'gateway', entityId: row.id, detail: { planId: plan.id, fields: Object.keys(patch), version: row.version } }));
     return gateway;
   });
 
   api.delete('/plans/:planId/gateways/:id', { schema: { summary: 'Delete a gateway (and its cached links)', tags, params: planItemParams } }, async (request, reply) => {
     const principal = requireRole(request, 'planner');
     const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
-    await deleteGateway(db, plan.id, request.params.id);
-    await recordAudit(db, { principal, action: 'delete', entity: 'gateway', entityId: request.params.id, detail: { planId: plan.id } });
+    await writeWithAudit(db, (tx) => deleteGateway(tx, plan.id, request.params.id), () => ({ principal, action: 'delete', entity: 'gateway', entityId: request.params.id, detail: { planId: plan.id } }));
     return reply.status(204).send();
   });
 }

@@ -5,7 +5,7 @@ import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import type { Prisma } from '../../db/generated/client.ts';
-import { recordAudit } from '../../db/repositories/audit.ts';
+import { writeWithAudit } from '../../db/repositories/audit.ts';
 import {
   createAntennaDesign,
   createFeedline,
@@ -149,8 +149,7 @@ export default async function kitRoutes(app: FastifyInstance): Promise<void> {
 
     api.post(base, { schema: { summary: `Add a team ${catalog.entity}`, tags, body: catalog.create } }, async (request, reply) => {
       const principal = requireRole(request, 'planner');
-      const row = await catalog.insert(db, principal.teamId, request.body as Record<string, unknown>);
-      await recordAudit(db, { principal, action: 'create', entity: catalog.entity, entityId: row.id });
+      const row = await writeWithAudit(db, (tx) => catalog.insert(tx, principal.teamId, request.body as Record<string, unknown>), (created) => ({ principal, action: 'create', entity: catalog.entity, entityId: created.id }));
       return reply.status(201).send(withBuiltIn(row));
     });
 
@@ -158,16 +157,14 @@ export default async function kitRoutes(app: FastifyInstance): Promise<void> {
       const principal = requireRole(request, 'planner');
       await ownRow(principal.teamId, request.params.id);
       const { version: expected, ...patch } = request.body as { version: number } & Record<string, unknown>;
-      const row = await catalog.update(db, principal.teamId, request.params.id, expected, patch);
-      await recordAudit(db, { principal, action: 'update', entity: catalog.entity, entityId: row.id, detail: { fields: Object.keys(patch), version: row.version } });
+      const row = await writeWithAudit(db, (tx) => catalog.update(tx, principal.teamId, request.params.id, expected, patch), (updated) => ({ principal, action: 'update', entity: catalog.entity, entityId: updated.id, detail: { fields: Object.keys(patch), version: updated.version } }));
       return withBuiltIn(row);
     });
 
     api.delete(`${base}/:id`, { schema: { summary: `Delete a team ${catalog.entity}`, tags, params: itemParams } }, async (request, reply) => {
       const principal = requireRole(request, 'planner');
       await ownRow(principal.teamId, request.params.id);
-      await deleteKitRow(db, principal.teamId, catalog.kind, request.params.id);
-      await recordAudit(db, { principal, action: 'delete', entity: catalog.entity, entityId: request.params.id });
+      await writeWithAudit(db, (tx) => deleteKitRow(tx, principal.teamId, catalog.kind, request.params.id), () => ({ principal, action: 'delete', entity: catalog.entity, entityId: request.params.id }));
       return reply.status(204).send();
     });
   }

@@ -4,7 +4,7 @@
 import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import { recordAudit } from '../../db/repositories/audit.ts';
+import { writeWithAudit } from '../../db/repositories/audit.ts';
 import { createNode, createNodesAtomically, deleteNode, findNode, listNodes, updateNode, type NodeCreate } from '../../db/repositories/nodes.ts';
 import type { Database } from '../../db/client.ts';
 import type { InstallStatus } from '../../db/generated/client.ts';
@@ -123,8 +123,7 @@ export default async function nodeRoutes(app: FastifyInstance): Promise<void> {
     const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
     const data = toNodeData(request.body);
     await assertKitVisible(db, principal.teamId, data);
-    const node = await createNode(db, plan.id, data);
-    await recordAudit(db, { principal, action: 'create', entity: 'node', entityId: node.id, detail: { planId: plan.id, name: node.name } });
+    const node = await writeWithAudit(db, (tx) => createNode(tx, plan.id, data), (row) => ({ principal, action: 'create', entity: 'node', entityId: row.id, detail: { planId: plan.id, name: row.name } }));
     return reply.status(201).send(nodeView(node));
   });
 
@@ -193,8 +192,7 @@ export default async function nodeRoutes(app: FastifyInstance): Promise<void> {
       }
       await assertKitVisible(db, principal.teamId, patch);
       const data = { ...patch, installStatus: patch.installStatus ? toDbStatus(patch.installStatus) : undefined };
-      const node = await updateNode(db, plan.id, request.params.id, expected, data);
-      await recordAudit(db, { principal, action: 'update', entity: 'node', entityId: node.id, detail: { planId: plan.id, fields: Object.keys(patch), version: node.version } });
+      const node = await writeWithAudit(db, (tx) => updateNode(tx, plan.id, request.params.id, expected, data), (row) => ({ principal, action: 'update', entity: 'node', entityId: row.id, detail: { planId: plan.id, fields: Object.keys(patch), version: row.version } }));
       return nodeView(node);
     },
   );
@@ -202,8 +200,7 @@ export default async function nodeRoutes(app: FastifyInstance): Promise<void> {
   api.delete('/plans/:planId/nodes/:id', { schema: { summary: 'Delete a node (and its cached links and field readings)', tags, params: planItemParams } }, async (request, reply) => {
     const principal = requireRole(request, 'planner');
     const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
-    await deleteNode(db, plan.id, request.params.id);
-    await recordAudit(db, { principal, action: 'delete', entity: 'node', entityId: request.params.id, detail: { planId: plan.id } });
+    await writeWithAudit(db, (tx) => deleteNode(tx, plan.id, request.params.id), () => ({ principal, action: 'delete', entity: 'node', entityId: request.params.id, detail: { planId: plan.id } }));
     return reply.status(204).send();
   });
 }

@@ -4,7 +4,7 @@ import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { bandPlans } from '../../radio/band-plans.ts';
-import { recordAudit } from '../../db/repositories/audit.ts';
+import { writeWithAudit } from '../../db/repositories/audit.ts';
 import { createPlan, deletePlan, listPlans, planCounts, updatePlan } from '../../db/repositories/plans.ts';
 import type { Prisma } from '../../db/generated/client.ts';
 import { requireRole } from '../auth.ts';
@@ -42,8 +42,11 @@ export default async function planRoutes(app: FastifyInstance): Promise<void> {
 
   api.post('/plans', { schema: { summary: 'Create a plan (only name is required; defaults: US 902-928 MHz, 10 dB target margin, P.1812)', tags, body: planCreateBody } }, async (request, reply) => {
     const principal = requireRole(request, 'planner');
-    const plan = await createPlan(db, principal.teamId, toData(request.body));
-    await recordAudit(db, { principal, action: 'create', entity: 'plan', entityId: plan.id, detail: { name: plan.name } });
+    const plan = await writeWithAudit(
+      db,
+      (tx) => createPlan(tx, principal.teamId, toData(request.body)),
+      (created) => ({ principal, action: 'create', entity: 'plan', entityId: created.id, detail: { name: created.name } }),
+    );
     return reply.status(201).send(plan);
   });
 
@@ -56,16 +59,22 @@ export default async function planRoutes(app: FastifyInstance): Promise<void> {
     const principal = requireRole(request, 'planner');
     const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
     const { version: expected, ...patch } = request.body;
-    const updated = await updatePlan(db, principal.teamId, plan.id, expected, toData(patch));
-    await recordAudit(db, { principal, action: 'update', entity: 'plan', entityId: plan.id, detail: { fields: Object.keys(patch), version: updated.version } });
+    const updated = await writeWithAudit(
+      db,
+      (tx) => updatePlan(tx, principal.teamId, plan.id, expected, toData(patch)),
+      (row) => ({ principal, action: 'update', entity: 'plan', entityId: plan.id, detail: { fields: Object.keys(patch), version: row.version } }),
+    );
     return updated;
   });
 
   api.delete('/plans/:planId', { schema: { summary: 'Delete a plan and everything in it', tags, params: planParams } }, async (request, reply) => {
     const principal = requireRole(request, 'planner');
     const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
-    await deletePlan(db, principal.teamId, plan.id);
-    await recordAudit(db, { principal, action: 'delete', entity: 'plan', entityId: plan.id, detail: { name: plan.name } });
+    await writeWithAudit(
+      db,
+      (tx) => deletePlan(tx, principal.teamId, plan.id),
+      () => ({ principal, action: 'delete', entity: 'plan', entityId: plan.id, detail: { name: plan.name } }),
+    );
     return reply.status(204).send();
   });
 }

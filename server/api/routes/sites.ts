@@ -2,7 +2,7 @@
 import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import { recordAudit } from '../../db/repositories/audit.ts';
+import { writeWithAudit } from '../../db/repositories/audit.ts';
 import { createSite, deleteSite, findSite, listSites, updateSite } from '../../db/repositories/sites.ts';
 import { requireRole } from '../auth.ts';
 import { ApiError } from '../errors.ts';
@@ -36,8 +36,7 @@ export default async function siteRoutes(app: FastifyInstance): Promise<void> {
   api.post('/plans/:planId/sites', { schema: { summary: 'Add a site', tags, params: planParams, body: siteCreateBody } }, async (request, reply) => {
     const principal = requireRole(request, 'planner');
     const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
-    const site = await createSite(db, plan.id, request.body);
-    await recordAudit(db, { principal, action: 'create', entity: 'site', entityId: site.id, detail: { planId: plan.id, name: site.name } });
+    const site = await writeWithAudit(db, (tx) => createSite(tx, plan.id, request.body), (row) => ({ principal, action: 'create', entity: 'site', entityId: row.id, detail: { planId: plan.id, name: row.name } }));
     return reply.status(201).send(site);
   });
 
@@ -52,16 +51,14 @@ export default async function siteRoutes(app: FastifyInstance): Promise<void> {
     const principal = requireRole(request, 'planner');
     const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
     const { version: expected, ...patch } = request.body;
-    const site = await updateSite(db, plan.id, request.params.id, expected, patch);
-    await recordAudit(db, { principal, action: 'update', entity: 'site', entityId: site.id, detail: { planId: plan.id, fields: Object.keys(patch), version: site.version } });
+    const site = await writeWithAudit(db, (tx) => updateSite(tx, plan.id, request.params.id, expected, patch), (row) => ({ principal, action: 'update', entity: 'site', entityId: row.id, detail: { planId: plan.id, fields: Object.keys(patch), version: row.version } }));
     return site;
   });
 
   api.delete('/plans/:planId/sites/:id', { schema: { summary: 'Delete a site (its gateways stay, unlinked from it)', tags, params: planItemParams } }, async (request, reply) => {
     const principal = requireRole(request, 'planner');
     const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
-    await deleteSite(db, plan.id, request.params.id);
-    await recordAudit(db, { principal, action: 'delete', entity: 'site', entityId: request.params.id, detail: { planId: plan.id } });
+    await writeWithAudit(db, (tx) => deleteSite(tx, plan.id, request.params.id), () => ({ principal, action: 'delete', entity: 'site', entityId: request.params.id, detail: { planId: plan.id } }));
     return reply.status(204).send();
   });
 }

@@ -4,7 +4,7 @@
 import { z } from 'zod';
 import type { Database } from '../client.ts';
 import { createTeam, findTeamBySlug, issueTeamToken, revokeToken, roles, type Role } from './accounts.ts';
-import { recordAudit } from './audit.ts';
+import { writeWithAudit } from './audit.ts';
 import { NotFoundError } from '../errors.ts';
 
 export const teamAddInput = z.strictObject({
@@ -24,21 +24,30 @@ export const tokenRevokeInput = z
 const system = (teamId: string) => ({ teamId, userId: null, tokenId: null });
 
 export async function adminTeamAdd(db: Database, input: z.infer<typeof teamAddInput>) {
-  const team = await createTeam(db, input);
-  await recordAudit(db, { principal: system(team.id), action: 'create', entity: 'team', entityId: team.id, detail: { slug: team.slug, via: 'cli' } });
+  const team = await writeWithAudit(db, (tx) => createTeam(tx, input), (row) => ({ principal: system(row.id), action: 'create', entity: 'team', entityId: row.id, detail: { slug: row.slug, via: 'cli' } }));
   return { id: team.id, slug: team.slug, name: team.name };
 }
 
 export async function adminTokenIssue(db: Database, input: z.infer<typeof tokenIssueInput>) {
   if (!(await findTeamBySlug(db, input.team))) throw new NotFoundError(`team "${input.team}"`);
-  const issued = await issueTeamToken(db, { teamSlug: input.team, role: input.role, userName: input.name, oneTime: input.oneTime, label: 'issued by admin CLI' });
-  await recordAudit(db, { principal: system(issued.teamId), action: 'issue', entity: 'token', entityId: issued.id, detail: { role: issued.role, via: 'cli' } });
+  const issued = await writeWithAudit(
+    db,
+    (tx) => issueTeamToken(tx, { teamSlug: input.team, role: input.role, userName: input.name, oneTime: input.oneTime, label: 'issued by admin CLI' }),
+    (row) => ({ principal: system(row.teamId), action: 'issue', entity: 'token', entityId: row.id, detail: { role: row.role, via: 'cli' } }),
+  );
   return { token: issued.token, id: issued.id, team: input.team, role: issued.role, userId: issued.userId };
 }
 
 export async function adminTokenRevoke(db: Database, input: z.infer<typeof tokenRevokeInput>) {
-  const result = await revokeToken(db, input);
-  const row = await db.prisma.apiToken.findUniqueOrThrow({ where: { id: result.id } });
-  await recordAudit(db, { principal: system(row.teamId), action: 'revoke', entity: 'token', entityId: row.id, detail: { via: 'cli' } });
+  let teamId = '';
+  const result = await writeWithAudit(
+    db,
+    async (tx) => {
+      const revoked = await revokeToken(tx, input);
+      teamId = (await tx.prisma.apiToken.findUniqueOrThrow({ where: { id: revoked.id } })).teamId;
+      return revoked;
+    },
+    (revoked) => ({ principal: system(teamId), action: 'revoke', entity: 'token', entityId: revoked.id, detail: { via: 'cli' } }),
+  );
   return { id: result.id, revoked: true, alreadyRevoked: result.alreadyRevoked };
 }

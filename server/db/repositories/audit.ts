@@ -34,6 +34,30 @@ export async function recordAudit(db: Database | { prisma: Writer }, input: Audi
   });
 }
 
+/**
+ * Runs a write and its audit entry in one interactive transaction: if either fails, neither
+ * is kept. `write` gets a Database whose `prisma` is the transaction client, so the usual
+ * repository functions can be used unchanged (they only use model delegates; `raw` is the
+ * outer connection and must not be used inside). `audit` builds the entry from the result.
+ */
+/** Generous limits: a loaded machine (or scrypt hashing a token inside the write) can exceed Prisma's 5 s default. */
+const transactionLimits = { maxWait: 30_000, timeout: 60_000 };
+
+export async function writeWithAudit<T>(
+  db: Database,
+  write: (tx: Database) => Promise<T>,
+  audit: (result: T) => AuditInput,
+): Promise<T> {
+  return db.prisma.$transaction(async (tx) => {
+    // The transaction client lacks only the client-level methods ($transaction, $connect…),
+    // which repository functions never call.
+    const inTransaction: Database = { ...db, prisma: tx as unknown as Database['prisma'] };
+    const result = await write(inTransaction);
+    await recordAudit({ prisma: tx }, audit(result));
+    return result;
+  }, transactionLimits);
+}
+
 export interface AuditFilter {
   entity?: string;
   entityId?: string;
