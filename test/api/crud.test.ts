@@ -2,6 +2,8 @@
 // engines: defaults, pagination, roles (403), team isolation (404), stale versions (409),
 // bad input (400 naming the field) and oversized bodies (413).
 import { afterAll, beforeAll, beforeEach, expect, it } from 'vitest';
+import { existsSync, mkdirSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
 import request from 'supertest';
 import { bearer, createTestApp, describeEngines, type TestApp } from '../helpers/test-app.ts';
 
@@ -328,5 +330,47 @@ describeEngines('plan-scoped CRUD', (engine) => {
     expect(patched.status).toBe(200);
     expect(await t.db.prisma.auditEntry.findMany({ where: { entityId: plan.id }, select: { action: true } })).toEqual(expect.arrayContaining([{ action: 'create' }, { action: 'update' }]));
     expect(await t.db.prisma.auditEntry.count({ where: { entityId: plan.id } })).toBe(2);
+  });
+  it('deleting a plan removes its terrain files and coverage result folders, keeps files other plans use, and nothing on a failed delete', async () => {
+    const filesDir = t.config.filesDir;
+    const plan = await newPlan('Short-lived');
+    const keeper = await newPlan('Keeper');
+    const layer = (planId: string, filePath: string) => ({
+      planId, kind: 'elevation' as const, name: 'DEM', filePath, fileBytes: 4n, widthPx: 1, heightPx: 1, proj4: '+proj=longlat +datum=WGS84', geoTransform: [0, 1, 0, 0, 0, -1], west: 0, south: 0, east: 1, north: 1, resolutionM: 30,
+    });
+    const put = (relativePath: string) => {
+      mkdirSync(join(filesDir, relativePath, '..'), { recursive: true });
+      writeFileSync(join(filesDir, relativePath), 'tiff');
+      return relativePath;
+    };
+    const own = put(`terrain/${plan.id}/own.tif`);
+    const stray = put(`terrain/${plan.id}/.incoming-interrupted.tif`);
+    const shared = put('terrain/shared-dem.tif');
+    const keepersOwn = put(`terrain/${keeper.id}/kept.tif`);
+    await t.db.prisma.terrainLayer.createMany({ data: [layer(plan.id, own), layer(plan.id, shared), layer(keeper.id, shared), layer(keeper.id, keepersOwn)] });
+    const run = await t.db.prisma.coverageRun.create({ data: { planId: plan.id, status: 'done' } });
+    await t.db.prisma.coverageRun.update({ where: { id: run.id }, data: { resultPath: `coverage/${run.id}` } });
+    const result = put(`coverage/${run.id}/margin.tif`);
+    const partial = put(`coverage/${run.id}.partial-123-456/loss.tif`);
+    const keeperRun = await t.db.prisma.coverageRun.create({ data: { planId: keeper.id, status: 'done' } });
+    const keeperResult = put(`coverage/${keeperRun.id}/margin.tif`);
+
+    // A delete that fails (its audit entry refused) keeps the rows and the files.
+    await t.db.raw.exec(`ALTER TABLE "AuditEntry" ADD CONSTRAINT "test_audit_refused" CHECK ("entityId" <> '${plan.id}') NOT VALID`);
+    try {
+      expect((await http.delete(`/api/v1/plans/${plan.id}`).set(as('planner'))).status).toBe(500);
+    } finally {
+      await t.db.raw.exec(`ALTER TABLE "AuditEntry" DROP CONSTRAINT IF EXISTS "test_audit_refused"`);
+    }
+    for (const path of [own, stray, shared, result, partial]) expect(existsSync(join(filesDir, path)), path).toBe(true);
+
+    expect((await http.delete(`/api/v1/plans/${plan.id}`).set(as('planner'))).status).toBe(204);
+    expect(await t.db.prisma.terrainLayer.count({ where: { planId: plan.id } })).toBe(0);
+    expect(await t.db.prisma.coverageRun.count({ where: { planId: plan.id } })).toBe(0);
+    expect(existsSync(join(filesDir, 'terrain', plan.id))).toBe(false);
+    expect(existsSync(join(filesDir, 'coverage', run.id))).toBe(false);
+    expect(existsSync(join(filesDir, partial))).toBe(false);
+    // Still referenced by the other plan, or the other plan's own: kept.
+    for (const path of [shared, keepersOwn, keeperResult]) expect(existsSync(join(filesDir, path)), path).toBe(true);
   });
 });

@@ -1,11 +1,15 @@
 // Plans of the caller's team: list, create (only a name is needed), read, update (with
 // version), delete. Planners edit; everyone in the team reads.
+import { readdir, rm } from 'node:fs/promises';
+import { isAbsolute, join, relative, resolve } from 'node:path';
 import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { bandPlans } from '../../radio/band-plans.ts';
 import { writeWithAudit } from '../../db/repositories/audit.ts';
-import { createPlan, deletePlan, listPlans, planCounts, updatePlan } from '../../db/repositories/plans.ts';
+import { createPlan, deletePlanReturningFiles, listPlans, planCounts, updatePlan } from '../../db/repositories/plans.ts';
+import { resultDir } from '../../jobs/coverage-job.ts';
+import type { PlanFiles } from '../../db/repositories/plans.ts';
 import type { Prisma } from '../../db/generated/client.ts';
 import { requireRole } from '../auth.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
@@ -29,6 +33,35 @@ export const planPatchBody = z.strictObject({ ...planFields, name: name().option
 function toData<T extends { settings?: Record<string, unknown> }>(body: T) {
   const { settings, ...rest } = body;
   return settings === undefined ? rest : { ...rest, settings: settings as Prisma.InputJsonValue };
+}
+
+/**
+ * Removes a deleted plan's files: <filesDir>/terrain/<planId>/ (uploads, incl. unfinished
+ * ones), terrain files it referenced elsewhere under filesDir, and its coverage result
+ * folders (with any `.partial-*` folders of interrupted runs). Never touches anything outside
+ * filesDir. Returns the paths that could not be removed.
+ */
+export async function removePlanFiles(filesDir: string, planId: string, files: PlanFiles): Promise<string[]> {
+  const root = resolve(filesDir);
+  const inside = (path: string) => {
+    const rel = relative(root, resolve(root, path));
+    return rel !== '' && !rel.startsWith('..') && !isAbsolute(rel);
+  };
+  const targets = new Set<string>([join(root, 'terrain', planId)]);
+  for (const filePath of files.terrainFiles) targets.add(resolve(root, filePath));
+  for (const path of files.coverageResultPaths) targets.add(resolve(root, path));
+  const coverageDir = join(root, 'coverage');
+  const partials = await readdir(coverageDir).catch(() => [] as string[]);
+  for (const runId of files.coverageRunIds) {
+    targets.add(resultDir({ filesDir: root }, runId));
+    for (const name of partials) if (name.startsWith(`${runId}.partial-`)) targets.add(join(coverageDir, name));
+  }
+  const failed: string[] = [];
+  for (const target of targets) {
+    if (!inside(target)) continue;
+    await rm(target, { recursive: true, force: true }).catch(() => failed.push(target));
+  }
+  return failed;
 }
 
 export default async function planRoutes(app: FastifyInstance): Promise<void> {
@@ -70,11 +103,14 @@ export default async function planRoutes(app: FastifyInstance): Promise<void> {
   api.delete('/plans/:planId', { schema: { summary: 'Delete a plan and everything in it', tags, params: planParams } }, async (request, reply) => {
     const principal = requireRole(request, 'planner');
     const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
-    await writeWithAudit(
+    const files = await writeWithAudit(
       db,
-      (tx) => deletePlan(tx, principal.teamId, plan.id),
+      (tx) => deletePlanReturningFiles(tx, principal.teamId, plan.id),
       () => ({ principal, action: 'delete', entity: 'plan', entityId: plan.id, detail: { name: plan.name } }),
     );
+    // Only after the commit: a rolled-back delete keeps its files.
+    const failed = await removePlanFiles(app.deps.config.filesDir, plan.id, files);
+    if (failed.length > 0) request.log.warn({ planId: plan.id, failed }, 'plan deleted; some of its files could not be removed');
     return reply.status(204).send();
   });
 }

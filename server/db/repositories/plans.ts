@@ -4,6 +4,7 @@ import type { Prisma } from '../generated/client.ts';
 import { NotFoundError } from '../errors.ts';
 import { pageWindow, toPage, type PageQuery } from './pagination.ts';
 import { versionedUpdate } from './versioned.ts';
+import { terrainFilePaths } from './terrain-layers.ts';
 
 export type PlanRow = Awaited<ReturnType<Database['prisma']['plan']['findFirstOrThrow']>>;
 export type PlanCreate = Omit<Prisma.PlanUncheckedCreateInput, 'id' | 'teamId' | 'version' | 'createdAt' | 'updatedAt'>;
@@ -37,6 +38,34 @@ export async function updatePlan(db: Database, teamId: string, planId: string, v
 export async function deletePlan(db: Database, teamId: string, planId: string): Promise<void> {
   const { count } = await db.prisma.plan.deleteMany({ where: { id: planId, teamId } });
   if (count === 0) throw new NotFoundError('plan');
+}
+
+/** Files under <filesDir> that belonged to a deleted plan (paths relative to filesDir, as stored). */
+export interface PlanFiles {
+  /** Terrain layer files no other plan's layer references (the demo DEM may be shared). */
+  terrainFiles: string[];
+  /** Coverage runs of the plan: their result folders are <filesDir>/coverage/<runId>/. */
+  coverageRunIds: string[];
+  /** Result paths stored on the runs (normally coverage/<runId>). */
+  coverageResultPaths: string[];
+}
+
+/**
+ * Deletes a plan (rows cascade) and returns the files it leaves behind, read in the same
+ * transaction when `db` is a transaction (see writeWithAudit), so nothing added meanwhile is missed.
+ */
+export async function deletePlanReturningFiles(db: Database, teamId: string, planId: string): Promise<PlanFiles> {
+  const ownTerrain = await terrainFilePaths(db, planId);
+  const runs = await db.prisma.coverageRun.findMany({ where: { planId }, select: { id: true, resultPath: true } });
+  await deletePlan(db, teamId, planId);
+  const stillUsed = new Set(
+    (await db.prisma.terrainLayer.findMany({ where: { filePath: { in: ownTerrain } }, select: { filePath: true } })).map((row) => row.filePath),
+  );
+  return {
+    terrainFiles: ownTerrain.filter((filePath) => !stillUsed.has(filePath)),
+    coverageRunIds: runs.map((run) => run.id),
+    coverageResultPaths: runs.flatMap((run) => (run.resultPath ? [run.resultPath] : [])),
+  };
 }
 
 /** Counts of what a plan holds (for the plan summary). */
