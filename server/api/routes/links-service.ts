@@ -17,10 +17,11 @@ import type { AntennaDesign } from '../../radio/antennas.ts';
 import { connectorLossDb, findConnector, type ConnectorUse, type FeedlineType } from '../../radio/feedlines.ts';
 import type { BuildingType } from '../../radio/building-entry-loss.ts';
 import { openTerrainStore, type TerrainStore } from '../../terrain/store.ts';
-import { extractProfile } from '../../terrain/profile.ts';
+import { computeLinkPath, linkProfile, type LinkProfile } from '../../planning/link-path.ts';
+import { LinkPathPool, type LinkPathPair, type LinkTerrainSpec } from '../../jobs/link-pool.ts';
 import type { EndKit, GatewayRadio, LinkRadioSettings, LinkResult, NodeRadio } from '../../planning/link.ts';
 import { hashOf, hashOfShared, LINK_ENGINE_VERSION, nodeAimAzimuthDeg, nodeLinkResults, summariseNodeLinks, type NodeLinkSummary } from '../../planning/node-links.ts';
-import { predictPath, type PathPrediction, type PathProfile } from '../../planning/path.ts';
+import type { PathPrediction } from '../../planning/path.ts';
 import { resolveLinkSettings, type ResolvedLinkSettings } from '../../planning/settings.ts';
 import { bearingsBetween } from '../../planning/geometry.ts';
 
@@ -71,6 +72,8 @@ export interface PlanContext {
   settings: ResolvedLinkSettings;
   gateways: GatewayContext[];
   terrain: TerrainStore | null;
+  /** What a worker thread needs to open the same terrain (null without terrain). */
+  terrainSpec: LinkTerrainSpec | null;
   terrainSignature: string;
   /** Hash of everything path-related that is plan-wide (method, refractivity, terrain...). */
   pathSettingsHash: string;
@@ -124,15 +127,36 @@ function buildingTypeOf(value: string | null, fallback: BuildingType): BuildingT
   return value === 'traditional' || value === 'thermally-efficient' ? value : fallback;
 }
 
+/** Cold paths below this count are predicted in-thread (starting workers would cost more). */
+const MIN_POOL_PAIRS = 8;
+
+export interface LinkEngineOptions {
+  /**
+   * Worker threads for cold fleet paths (default config.workerCount, i.e.
+   * EARSHOT_WORKERS or every core); 0 or 1 = predict every path in-thread.
+   */
+  workers?: number;
+}
+
 export class LinkEngine {
-  private readonly stores = new Map<string, { signature: string; store: Promise<TerrainStore> }>();
+  private readonly stores = new Map<string, { signature: string; spec: LinkTerrainSpec; store: Promise<TerrainStore> }>();
+  private readonly pool: LinkPathPool | null;
   /** Answers of recent node-links requests by plan:node, with the inputs' fingerprint (see frontKey). */
   private readonly front = new Map<string, { key: string; value: unknown }>();
 
   constructor(
     private readonly db: Database,
     private readonly config: Config,
-  ) {}
+    options: LinkEngineOptions = {},
+  ) {
+    const workers = options.workers ?? config.workerCount;
+    this.pool = workers >= 2 ? new LinkPathPool(workers) : null;
+  }
+
+  /** Worker threads the engine spreads cold fleet paths over (0 = in-thread). */
+  get workerCount(): number {
+    return this.pool?.size ?? 0;
+  }
 
   /** Fingerprint of a node's inputs: the plan row's version/time plus one query over the rest. */
   async frontKey(plan: PlanRow, nodeId: string): Promise<string> {
@@ -157,6 +181,7 @@ export class LinkEngine {
   async close(): Promise<void> {
     const stores = [...this.stores.values()];
     this.stores.clear();
+    await this.pool?.close();
     await Promise.all(stores.map(async (entry) => (await entry.store.catch(() => null))?.close()));
   }
 
@@ -168,30 +193,32 @@ export class LinkEngine {
     return join(this.config.filesDir, filePath);
   }
 
-  private async terrainFor(plan: PlanRow, clutterHeightsM: Record<string, number> | undefined): Promise<{ store: TerrainStore | null; signature: string }> {
+  private async terrainFor(plan: PlanRow, clutterHeightsM: Record<string, number> | undefined): Promise<{ store: TerrainStore | null; spec: LinkTerrainSpec | null; signature: string }> {
     const layers = await listTerrainForLinks(this.db, plan.id);
     const signature = hashOf({ layers: layers.map((l) => [l.id, l.sha256, l.priority, l.createdAt.toISOString(), l.kind]), clutterHeightsM: clutterHeightsM ?? null });
-    if (layers.length === 0 || !layers.some((layer) => layer.kind === 'elevation')) return { store: null, signature };
+    if (layers.length === 0 || !layers.some((layer) => layer.kind === 'elevation')) return { store: null, spec: null, signature };
     const existing = this.stores.get(plan.id);
-    if (existing && existing.signature === signature) return { store: await existing.store, signature };
+    if (existing && existing.signature === signature) return { store: await existing.store, spec: existing.spec, signature };
     if (existing) {
       this.stores.delete(plan.id);
       void existing.store.then((store) => store.close()).catch(() => undefined);
     }
     // Finest layers first: the store lets a finer layer win where layers overlap.
     const ordered = [...layers].sort((a, b) => (a.kind === b.kind ? a.resolutionM - b.resolutionM : a.kind === 'elevation' ? -1 : 1));
-    const store = openTerrainStore(
-      ordered.map((layer) => ({ path: this.resolveFile(layer.filePath), kind: layer.kind, name: layer.name })),
-      { cacheBytes: 64 * 1024 * 1024, clutterHeightsM },
-    );
-    this.stores.set(plan.id, { signature, store });
+    const spec: LinkTerrainSpec = {
+      signature,
+      files: ordered.map((layer) => ({ path: this.resolveFile(layer.filePath), kind: layer.kind, name: layer.name })),
+      options: { cacheBytes: 64 * 1024 * 1024, clutterHeightsM },
+    };
+    const store = openTerrainStore(spec.files, spec.options);
+    this.stores.set(plan.id, { signature, spec, store });
     if (this.stores.size > 8) {
       const [oldestId, oldest] = this.stores.entries().next().value as [string, { store: Promise<TerrainStore> }];
       this.stores.delete(oldestId);
       void oldest.store.then((s) => s.close()).catch(() => undefined);
     }
     try {
-      return { store: await store, signature };
+      return { store: await store, spec, signature };
     } catch (error) {
       this.stores.delete(plan.id);
       throw new LinkInputError(422, 'terrain_unreadable', `the plan's terrain could not be opened: ${(error as Error).message}`);
@@ -223,13 +250,14 @@ export class LinkEngine {
     const settings = resolveLinkSettings(plan);
     const raw = plan.settings && typeof plan.settings === 'object' && !Array.isArray(plan.settings) ? (plan.settings as Record<string, unknown>) : {};
     const clutterHeightsM = raw.clutterHeightsM && typeof raw.clutterHeightsM === 'object' ? (raw.clutterHeightsM as Record<string, number>) : undefined;
-    const { store, signature } = await this.terrainFor(plan, clutterHeightsM);
+    const { store, spec, signature } = await this.terrainFor(plan, clutterHeightsM);
     const ctx: PlanContext = {
       plan,
       teamId: plan.teamId,
       settings,
       gateways: [],
       terrain: store,
+      terrainSpec: spec,
       terrainSignature: signature,
       pathSettingsHash: hashOf({ v: LINK_ENGINE_VERSION, path: settings.path, terrain: signature, step: settings.profileStepM, interpolation: settings.profileInterpolation }),
       radioSettingsHash: '',
@@ -333,38 +361,8 @@ export class LinkEngine {
   }
 
   /** The terrain profile node → gateway (smooth earth at 0 m without terrain). */
-  async profile(ctx: PlanContext, from: { lat: number; lon: number }, to: { lat: number; lon: number }): Promise<PathProfile & { lat: Float64Array | null; lon: Float64Array | null; filledPoints: number }> {
-    if (!ctx.terrain) {
-      const lengthM = bearingsBetween(from.lat, from.lon, to.lat, to.lon).distanceM;
-      const count = Math.max(3, Math.min(2001, Math.ceil(lengthM / 30) + 1));
-      const distanceM = new Float64Array(count);
-      for (let i = 0; i < count; i++) distanceM[i] = (lengthM * i) / (count - 1);
-      return { distanceM, groundM: new Float64Array(count), clutterHeightM: null, lat: null, lon: null, filledPoints: 0 };
-    }
-    const step = ctx.settings.profileStepM ?? undefined;
-    let profile;
-    try {
-      profile = await extractProfile(ctx.terrain, from, to, { stepM: step, interpolation: ctx.settings.profileInterpolation, maxPoints: 20_001 });
-    } catch (error) {
-      if (!(error instanceof RangeError)) throw error;
-      const lengthM = bearingsBetween(from.lat, from.lon, to.lat, to.lon).distanceM;
-      profile = await extractProfile(ctx.terrain, from, to, { stepM: Math.max(lengthM / 20_000, step ?? 0), interpolation: ctx.settings.profileInterpolation, maxPoints: 20_001 });
-    }
-    let distanceM = profile.distanceM;
-    let groundM = profile.groundM;
-    let clutter = profile.clutterHeightM ?? null;
-    if (distanceM.length < 3) {
-      // Very short paths: three points so every method has a mid-point.
-      const total = distanceM[distanceM.length - 1];
-      distanceM = Float64Array.from([0, total / 2, total]);
-      const g0 = groundM[0];
-      const g1 = groundM[groundM.length - 1];
-      groundM = Float64Array.from([g0, (g0 + g1) / 2, g1]);
-      clutter = clutter ? Float64Array.from([clutter[0], (clutter[0] + clutter[clutter.length - 1]) / 2, clutter[clutter.length - 1]]) : null;
-    }
-    const filledPoints = fillGaps(groundM);
-    if (clutter) for (let i = 0; i < clutter.length; i++) if (!Number.isFinite(clutter[i])) clutter[i] = 0;
-    return { distanceM, groundM, clutterHeightM: clutter, lat: profile.lat, lon: profile.lon, filledPoints };
+  async profile(ctx: PlanContext, from: { lat: number; lon: number }, to: { lat: number; lon: number }): Promise<LinkProfile> {
+    return linkProfile(ctx.terrain, ctx.settings, from, to);
   }
 
   private pathHash(ctx: PlanContext, node: ResolvedNode, gateway: GatewayContext): string {
@@ -375,18 +373,26 @@ export class LinkEngine {
     });
   }
 
-  private async computePath(ctx: PlanContext, node: ResolvedNode, gateway: GatewayContext): Promise<PathPrediction> {
-    const profile = await this.profile(ctx, node.row, gateway.row);
-    const path = predictPath(profile, ctx.settings.path, { lat: node.row.lat, lon: node.row.lon, antennaHeightAglM: node.antennaHeightAglM }, { lat: gateway.row.lat, lon: gateway.row.lon, antennaHeightAglM: gateway.row.antennaHeightAglM });
-    if (profile.filledPoints > 0) path.warnings.push(`${profile.filledPoints} profile points had no terrain data and were filled from their neighbours`);
-    return path;
+  private computePath(ctx: PlanContext, node: ResolvedNode, gateway: GatewayContext): Promise<PathPrediction> {
+    return computeLinkPath(ctx.terrain, ctx.settings, pathEnd(node.row, node.antennaHeightAglM), pathEnd(gateway.row, gateway.row.antennaHeightAglM));
+  }
+
+  /**
+   * Paths of many pairs: on the worker threads when the engine has them and
+   * there are enough, else in-thread; the same function either way.
+   */
+  async computePaths(ctx: PlanContext, pairs: readonly LinkPathPair[]): Promise<PathPrediction[]> {
+    if (this.pool && pairs.length >= MIN_POOL_PAIRS) return this.pool.computePaths(ctx.terrainSpec, ctx.settings, pairs);
+    const paths: PathPrediction[] = [];
+    for (const pair of pairs) paths.push(await computeLinkPath(ctx.terrain, ctx.settings, pair.node, pair.gateway));
+    return paths;
   }
 
   /**
    * A node's links to every gateway within range, from the cache where the
    * inputs are unchanged. `save` false (previews) leaves the cache untouched.
    */
-  async nodeLinks(ctx: PlanContext, node: ResolvedNode, cachedRows: readonly LinkRow[] | null, save: boolean): Promise<{ outcome: NodeLinksOutcome; toSave: LinkRow[] }> {
+  async nodeLinks(ctx: PlanContext, node: ResolvedNode, cachedRows: readonly LinkRow[] | null, save: boolean, precomputed?: ReadonlyMap<string, PathPrediction>): Promise<{ outcome: NodeLinksOutcome; toSave: LinkRow[] }> {
     const rows = cachedRows ?? (await listNodeLinkRows(this.db, ctx.plan.id, node.row.id));
     const byGateway = new Map(rows.map((row) => [row.gatewayId, row]));
     const inRange: Array<{ gateway: GatewayContext; path: PathPrediction; pathHash: string; row: LinkRow | undefined }> = [];
@@ -402,7 +408,7 @@ export class LinkEngine {
       const pathHash = this.pathHash(ctx, node, gateway);
       const row = byGateway.get(gateway.row.id);
       const stored = row && isStoredLink(row.result) ? row.result : null;
-      const path = stored && stored.pathHash === pathHash ? stored.path : await this.computePath(ctx, node, gateway);
+      const path = stored && stored.pathHash === pathHash ? stored.path : (precomputed?.get(pathHash) ?? (await this.computePath(ctx, node, gateway)));
       inRange.push({ gateway, path, pathHash, row });
     }
     const aim = nodeAimAzimuthDeg(node.kit, inRange);
@@ -448,25 +454,48 @@ export class LinkEngine {
       if (list) list.push(row);
       else byNode.set(row.nodeId, [row]);
     }
-    const outcomes: NodeLinksOutcome[] = [];
-    let pending: LinkRow[] = [];
-    for (let i = 0; i < nodes.length; i++) {
+    // 1. Resolve every node and collect the paths the cache lacks (one per path hash).
+    const resolved: Array<{ node: ResolvedNode } | { broken: NodeRow; message: string }> = [];
+    const missing = new Map<string, LinkPathPair>();
+    for (const row of nodes) {
       let node: ResolvedNode;
       try {
-        node = await this.resolveNode(ctx, nodes[i]);
+        node = await this.resolveNode(ctx, row);
       } catch (error) {
         if (!(error instanceof LinkInputError)) throw error;
-        outcomes.push(brokenNodeOutcome(nodes[i], error.message));
+        resolved.push({ broken: row, message: error.message });
         continue;
       }
-      const { outcome, toSave } = await this.nodeLinks(ctx, node, byNode.get(node.row.id) ?? [], true);
+      resolved.push({ node });
+      const stored = new Map((byNode.get(row.id) ?? []).map((link) => [link.gatewayId, isStoredLink(link.result) ? link.result.pathHash : null]));
+      for (const gateway of ctx.gateways) {
+        if (bearingsBetween(row.lat, row.lon, gateway.row.lat, gateway.row.lon).distanceM > ctx.settings.maxLinkRangeM) continue;
+        const pathHash = this.pathHash(ctx, node, gateway);
+        if (stored.get(gateway.row.id) === pathHash || missing.has(pathHash)) continue;
+        missing.set(pathHash, { node: pathEnd(row, node.antennaHeightAglM), gateway: pathEnd(gateway.row, gateway.row.antennaHeightAglM) });
+      }
+    }
+    // 2. The cold paths, spread over the worker threads.
+    const hashes = [...missing.keys()];
+    const paths = await this.computePaths(ctx, [...missing.values()]);
+    const precomputed = new Map(hashes.map((hash, i) => [hash, paths[i]]));
+    // 3. Budgets in-thread; cache rows written in batches.
+    const outcomes: NodeLinksOutcome[] = [];
+    let pending: LinkRow[] = [];
+    for (let i = 0; i < resolved.length; i++) {
+      const entry = resolved[i];
+      if ('broken' in entry) {
+        outcomes.push(brokenNodeOutcome(entry.broken, entry.message));
+        continue;
+      }
+      const { outcome, toSave } = await this.nodeLinks(ctx, entry.node, byNode.get(entry.node.row.id) ?? [], true, precomputed);
       outcomes.push(outcome);
       pending.push(...toSave);
       if (pending.length >= 500) {
         await saveLinkRows(this.db, ctx.plan.id, pending);
         pending = [];
       }
-      onProgress?.(i + 1, nodes.length);
+      onProgress?.(i + 1, resolved.length);
     }
     await saveLinkRows(this.db, ctx.plan.id, pending);
     return outcomes;
@@ -540,29 +569,7 @@ function brokenNodeOutcome(row: NodeRow, message: string): NodeLinksOutcome {
   };
 }
 
-/** Fills NaN ground heights from the nearest valid neighbours (linear between them); returns how many. */
-function fillGaps(values: Float64Array): number {
-  let filled = 0;
-  const n = values.length;
-  let last = -1;
-  for (let i = 0; i < n; i++) {
-    if (Number.isFinite(values[i])) {
-      if (last < i - 1) {
-        for (let j = last + 1; j < i; j++) {
-          values[j] = last < 0 ? values[i] : values[last] + ((values[i] - values[last]) * (j - last)) / (i - last);
-          filled++;
-        }
-      }
-      last = i;
-    }
-  }
-  if (last < 0) {
-    values.fill(0);
-    return n;
-  }
-  for (let j = last + 1; j < n; j++) {
-    values[j] = values[last];
-    filled++;
-  }
-  return filled;
+/** A path end of a node or gateway row at an antenna height. */
+function pathEnd(row: { lat: number; lon: number }, antennaHeightAglM: number) {
+  return { lat: row.lat, lon: row.lon, antennaHeightAglM };
 }
