@@ -47,6 +47,7 @@ describe('map front end (chromium)', () => {
     await screenshot(page, '01-sign-in');
     await page.goto(server.signInUrl);
     await page.getByRole('heading', { name: 'Plans' }).waitFor();
+    await page.locator('a.plan-link').first().waitFor();
     const planLinks = page.locator('a.plan-link');
     expect(await planLinks.count()).toBeGreaterThan(0);
     await expect.poll(() => textOf('.role-badge'), { timeout: 10_000 }).toContain('planner');
@@ -142,6 +143,65 @@ describe('map front end (chromium)', () => {
     await expect.poll(() => textOf('#import-result'), { timeout: 20_000 }).toContain('Imported 2');
     await page.locator('dialog button[aria-label="Close dialog"]').click();
     await expect.poll(() => page.locator('.marker-nodes').count(), { timeout: 30_000 }).toBe(nodesBefore + 2);
+    watch.assertClean();
+  });
+
+  it('editing: add at map centre, edit, undo, a concurrent change gives the 409 dialog, delete and undo, drag to move', async () => {
+    const count = (): Promise<number> => page.locator('.marker-nodes').count();
+    const start = await count();
+    await page.getByRole('button', { name: 'Add node' }).click();
+    await page.getByRole('button', { name: 'Place at map centre' }).click();
+    await expect.poll(() => textOf('#node-panel-title'), { timeout: 20_000 }).toMatch(/New node/);
+    await expect.poll(count, { timeout: 20_000 }).toBe(start + 1);
+    expect(await textOf('#undo-button')).toContain('added node');
+    // edit, then undo the edit
+    await page.getByRole('button', { name: 'Edit node' }).click();
+    await page.locator('dialog input[name=name]').fill('E2E renamed probe');
+    await page.locator('dialog button[type=submit]').click();
+    await expect.poll(() => textOf('#node-panel-title'), { timeout: 20_000 }).toContain('E2E renamed probe');
+    await page.locator('#undo-button').click();
+    await expect.poll(() => textOf('#node-panel-title'), { timeout: 20_000 }).toMatch(/New node/);
+    // someone else changes the node: our stale edit is refused with 409 and explained
+    const nodeId = new URLSearchParams(page.url().split('?')[1] ?? '').get('node') ?? '';
+    expect(nodeId).not.toBe('');
+    const status = await page.evaluate(
+      async ([p, n]) => {
+        const current = (await (await fetch(`/api/v1/plans/${p}/nodes/${n}`)).json()) as { version: number };
+        const r = await fetch(`/api/v1/plans/${p}/nodes/${n}`, {
+          method: 'PATCH',
+          headers: { 'content-type': 'application/json', 'x-earshot-request': '1' },
+          body: JSON.stringify({ notes: 'changed in another tab', version: current.version }),
+        });
+        return r.status;
+      },
+      [planId, nodeId],
+    );
+    expect(status).toBe(200);
+    watch.expectHttpError(new RegExp(`/nodes/${nodeId}$`), 409);
+    await page.getByRole('button', { name: 'Edit node' }).click();
+    await page.locator('dialog input[name=name]').fill('E2E stale edit');
+    await page.locator('dialog button[type=submit]').click();
+    await page.getByRole('heading', { name: 'Someone else changed this first' }).waitFor();
+    await page.locator('dialog').screenshot({ path: 'test-artefacts/screenshots/05b-conflict-409.png' });
+    await page.getByRole('button', { name: 'Reload the plan' }).click();
+    await expect.poll(() => textOf('#node-panel-title'), { timeout: 20_000 }).toMatch(/New node/);
+    // delete, then undo the delete
+    await page.getByRole('button', { name: 'Delete node' }).click();
+    await page.locator('dialog button.danger').click();
+    await expect.poll(count, { timeout: 20_000 }).toBe(start);
+    await page.locator('#undo-button').click();
+    await expect.poll(count, { timeout: 20_000 }).toBe(start + 1);
+    // drag a marker
+    const marker = page.locator('.marker-nodes').nth(3);
+    const box = await marker.boundingBox();
+    expect(box).not.toBeNull();
+    if (box) {
+      await page.mouse.move(box.x + box.width / 2, box.y + box.height / 2);
+      await page.mouse.down();
+      await page.mouse.move(box.x + 50, box.y + 35, { steps: 8 });
+      await page.mouse.up();
+    }
+    await expect.poll(() => textOf('.tool-status'), { timeout: 20_000 }).toMatch(/^Moved /);
     watch.assertClean();
   });
 
