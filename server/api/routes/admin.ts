@@ -8,6 +8,7 @@ import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { adminTeamAdd, adminTokenIssue, adminTokenRevoke, teamAddInput, tokenIssueInput, tokenRevokeInput } from '../../db/repositories/admin-ops.ts';
 import { ApiError } from '../errors.ts';
+import { linkAdminRoutes } from './links.ts';
 
 const loopback = new Set(['127.0.0.1', '::1', '::ffff:127.0.0.1']);
 
@@ -32,5 +33,7 @@ export default async function adminRoutes(app: FastifyInstance): Promise<void> {
   api.post('/team-add', { config, schema: { hide: true, body: teamAddInput } }, async (request) => adminTeamAdd(db, request.body));
   api.post('/token-issue', { config, schema: { hide: true, body: tokenIssueInput } }, async (request) => adminTokenIssue(db, request.body));
   api.post('/token-revoke', { config, schema: { hide: true, body: tokenRevokeInput } }, async (request) => adminTokenRevoke(db, request.body));
+  // `earshot link` / `earshot recommend` while this server holds the data folder (same engine function).
+  await app.register(linkAdminRoutes);
   api.get('/ping', { schema: { hide: true, response: { 200: z.object({ ok: z.literal(true), pid: z.number() }) } } }, async () => ({ ok: true as const, pid: process.pid }));
 }
