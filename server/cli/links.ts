@@ -1,42 +1,71 @@
 // `earshot link` and `earshot recommend`: the same numbers as the API, for scripts.
-// The database is opened the way the admin commands do it (server/cli/admin.ts):
-// DATABASE_URL directly; an embedded data folder only when no process holds it
-// (openDatabase takes the pid lock), so a PGlite folder is never opened twice.
-// While a server runs on the folder, these commands say so and point at the API.
+// The database is reached the way the admin commands do it (server/cli/admin.ts):
+// DATABASE_URL directly; an embedded data folder directly only when no process holds
+// it (openDatabase takes the pid lock), so a PGlite folder is never opened twice.
+// While a server runs on the folder (it wrote <dataDir>/admin.json with its port and
+// a local secret), the command asks that server's loopback admin route
+// (/_admin/link, /_admin/recommend), which runs the same function
+// (linkReport / recommendReport in server/api/routes/links.ts) and returns the same JSON.
 import { existsSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { z } from 'zod';
-import { loadConfig } from '../config.ts';
-import { dataFolderHolder, openDatabase, type Database } from '../db/client.ts';
-import { findPlanById } from '../db/repositories/links.ts';
+import { loadConfig, type Config } from '../config.ts';
+import { dataFolderHolder, openDatabase } from '../db/client.ts';
 import { LinkEngine, LinkInputError } from '../api/routes/links-service.ts';
-import { nodeLinksView } from '../api/routes/links.ts';
-import { recommendForNode } from '../api/routes/recommend.ts';
+import { linkReport, recommendReport, type nodeLinksView } from '../api/routes/links.ts';
 import { PlanSettingsError } from '../planning/settings.ts';
 import { CliUsageError, defineCommand, numberOption, stringOption, type CliCommand } from './framework.ts';
 
-async function withEngine<T>(run: (engine: LinkEngine, db: Database) => Promise<T>): Promise<T> {
-  const config = loadConfig(process.env);
+type LinkOperation = 'link' | 'recommend';
+
+/** Port and secret of the server holding the data folder, from <dataDir>/admin.json (null if none). */
+function runningServer(config: Config): { port: number; secret: string } | null {
+  const path = join(config.dataDir, 'admin.json');
+  if (!existsSync(path)) return null;
+  try {
+    const parsed = JSON.parse(readFileSync(path, 'utf8')) as { port?: unknown; secret?: unknown };
+    return typeof parsed.port === 'number' && typeof parsed.secret === 'string' ? { port: parsed.port, secret: parsed.secret } : null;
+  } catch {
+    return null;
+  }
+}
+
+/** Asks the running server; null when nothing answers on its port. */
+async function viaServer(server: { port: number; secret: string }, operation: LinkOperation, body: unknown): Promise<unknown | null> {
+  let response: Response;
+  try {
+    response = await fetch(`http://127.0.0.1:${server.port}/_admin/${operation}`, {
+      method: 'POST',
+      headers: { 'content-type': 'application/json', 'x-earshot-admin': server.secret },
+      body: JSON.stringify(body),
+      // A recommendation over a big catalog on cold terrain can take a while.
+      signal: AbortSignal.timeout(300_000),
+    });
+  } catch {
+    return null;
+  }
+  const payload = (await response.json().catch(() => ({}))) as { error?: { message?: string } };
+  if (!response.ok) throw new CliUsageError(payload.error?.message ?? `the running server answered ${response.status}`);
+  return payload;
+}
+
+/** Runs a link operation on the configured database, or through the server that holds it. */
+export async function runLinkOperation(operation: LinkOperation, body: Record<string, unknown>, env: NodeJS.ProcessEnv = process.env): Promise<unknown> {
+  const config = loadConfig(env);
   if (!config.databaseUrl) {
     const holder = dataFolderHolder(config.dataDir);
     if (holder !== null) {
-      const adminPath = join(config.dataDir, 'admin.json');
-      let where = '';
-      if (existsSync(adminPath)) {
-        try {
-          const admin = JSON.parse(readFileSync(adminPath, 'utf8')) as { host?: string; port?: number };
-          where = ` at http://${admin.host ?? '127.0.0.1'}:${admin.port ?? 8080}/api/v1`;
-        } catch {
-          where = '';
-        }
-      }
-      throw new CliUsageError(`the data folder ${config.dataDir} is in use by process ${holder}; ask the running server${where} (GET /plans/PLAN/nodes/NODE/links with a token from "earshot token issue") or stop it first`);
+      const server = runningServer(config);
+      const answer = server ? await viaServer(server, operation, body) : null;
+      if (answer !== null) return answer;
+      throw new CliUsageError(`the data folder ${config.dataDir} is in use by process ${holder} and no server answers for it; wait and retry, or stop that process`);
     }
   }
   const db = await openDatabase(config);
-  const engine = new LinkEngine(db, config);
+  // One node at a time: its few paths run in-thread (starting workers would cost more).
+  const engine = new LinkEngine(db, config, { workers: 0 });
   try {
-    return await run(engine, db);
+    return operation === 'link' ? await linkReport(engine, body as never) : await recommendReport(engine, body as never);
   } catch (error) {
     if (error instanceof LinkInputError || error instanceof PlanSettingsError) throw new CliUsageError(error.message);
     throw error;
@@ -46,31 +75,13 @@ async function withEngine<T>(run: (engine: LinkEngine, db: Database) => Promise<
   }
 }
 
-async function planContextFor(engine: LinkEngine, db: Database, planId: string) {
-  const plan = await findPlanById(db, planId);
-  if (!plan) throw new CliUsageError(`--plan: no plan "${planId}"`);
-  return engine.planContext(plan);
-}
-
 export const linkCommands: CliCommand[] = [
   defineCommand({
     words: 'link',
     summary: "A node's predicted links to the plan's gateways (--plan ID --node ID [--gateway ID])",
     options: z.strictObject({ plan: stringOption(), node: stringOption(), gateway: stringOption().optional() }),
     async run(options) {
-      return withEngine(async (engine, db) => {
-        const ctx = await planContextFor(engine, db, options.plan);
-        if (options.gateway && !ctx.gateways.some((g) => g.row.id === options.gateway)) throw new CliUsageError(`--gateway: no gateway "${options.gateway}" in plan ${options.plan}`);
-        const outcome = await engine.linksForNode(ctx, options.node).catch((error: unknown) => {
-          if (error instanceof LinkInputError && error.statusCode === 404) throw new CliUsageError(`--node: no node "${options.node}" in plan ${options.plan}`);
-          throw error;
-        });
-        const view = nodeLinksView(ctx, outcome);
-        if (!options.gateway) return view;
-        const links = view.links.filter((link) => link.gatewayId === options.gateway);
-        if (links.length === 0) throw new CliUsageError(`--gateway: gateway "${options.gateway}" is beyond ${(ctx.settings.maxLinkRangeM / 1000).toFixed(0)} km of the node`);
-        return { ...view, links };
-      });
+      return runLinkOperation('link', { plan: options.plan, node: options.node, ...(options.gateway ? { gateway: options.gateway } : {}) });
     },
     formatText: (result) => {
       const view = result as ReturnType<typeof nodeLinksView>;
@@ -93,13 +104,11 @@ export const linkCommands: CliCommand[] = [
         .optional(),
     }),
     async run(options) {
-      return withEngine(async (engine, db) => {
-        const ctx = await planContextFor(engine, db, options.plan);
-        const row = await engine.nodeRow(ctx, options.node).catch(() => {
-          throw new CliUsageError(`--node: no node "${options.node}" in plan ${options.plan}`);
-        });
-        return recommendForNode(engine, ctx, row, { targetMarginDb: options['target-margin-db'], targetDelivery: options['target-delivery'], maxCost: options['max-cost'] });
-      });
+      const body: Record<string, unknown> = { plan: options.plan, node: options.node };
+      if (options['target-margin-db'] !== undefined) body.targetMarginDb = options['target-margin-db'];
+      if (options['target-delivery'] !== undefined) body.targetDelivery = options['target-delivery'];
+      if (options['max-cost'] !== undefined) body.maxCost = options['max-cost'];
+      return runLinkOperation('recommend', body);
     },
   }),
 ];

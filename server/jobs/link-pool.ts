@@ -52,11 +52,19 @@ export class LinkPathPool {
     if (!Number.isInteger(size) || size < 1) throw new RangeError('link pool size must be a whole number ≥ 1');
   }
 
+  /**
+   * Starts the workers (loading their modules takes seconds on a busy machine), so
+   * they are ready when a cold fleet asks; idempotent.
+   */
+  warm(): void {
+    this.pool ??= new WorkerPool<LinkPathTask, LinkPathTaskResult>(this.size, new URL(import.meta.url));
+  }
+
   /** Paths of `pairs` in their order, spread over the workers (started on first use). */
   async computePaths(terrain: LinkTerrainSpec | null, settings: LinkPathSettings, pairs: readonly LinkPathPair[]): Promise<PathPrediction[]> {
     if (pairs.length === 0) return [];
-    this.pool ??= new WorkerPool<LinkPathTask, LinkPathTaskResult>(this.size, new URL(import.meta.url));
-    const pool = this.pool;
+    this.warm();
+    const pool = this.pool!;
     const plain: LinkPathSettings = { path: settings.path, profileStepM: settings.profileStepM, profileInterpolation: settings.profileInterpolation };
     const chunks: Promise<LinkPathTaskResult>[] = [];
     for (let start = 0; start < pairs.length; start += PAIRS_PER_TASK) {

@@ -247,6 +247,8 @@ export class LinkEngine {
 
   /** Loads a plan's settings, gateways and terrain. */
   async planContext(plan: PlanRow): Promise<PlanContext> {
+    // Workers start with the first plan a process touches and stay (unref'd) for the next fleet.
+    this.pool?.warm();
     const settings = resolveLinkSettings(plan);
     const raw = plan.settings && typeof plan.settings === 'object' && !Array.isArray(plan.settings) ? (plan.settings as Record<string, unknown>) : {};
     const clutterHeightsM = raw.clutterHeightsM && typeof raw.clutterHeightsM === 'object' ? (raw.clutterHeightsM as Record<string, number>) : undefined;

@@ -8,7 +8,7 @@ import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { recordAudit } from '../../db/repositories/audit.ts';
-import { createKitJob, findKitJob, updateKitJob } from '../../db/repositories/links.ts';
+import { createKitJob, findKitJob, findPlanById, updateKitJob } from '../../db/repositories/links.ts';
 import { linkCheck, installCautions } from '../../planning/check.ts';
 import { PlanSettingsError } from '../../planning/settings.ts';
 import type { LinkResult } from '../../planning/link.ts';
@@ -339,4 +339,62 @@ async function runFleetRecommendation(engine: LinkEngine, ctx: PlanContext, jobI
     const message = error instanceof LinkInputError || error instanceof PlanSettingsError ? error.message : 'the recommendation failed; see the server log';
     await updateKitJob(db, jobId, { status: 'failed', error: message }).catch(() => undefined);
   }
+}
+
+// ---- `earshot link` / `earshot recommend` (server/cli/links.ts) and their loopback admin route ----
+// The CLI runs these in its own process on DATABASE_URL or a free data folder, and
+// through the running server's /_admin/link and /_admin/recommend while a server
+// holds the embedded folder: one function, so the JSON is the same either way.
+
+export const linkReportInput = z.strictObject({ plan: z.string().min(1), node: z.string().min(1), gateway: z.string().min(1).optional() });
+export const recommendReportInput = z.strictObject({
+  plan: z.string().min(1),
+  node: z.string().min(1),
+  targetMarginDb: z.number().finite().optional(),
+  targetDelivery: z.number().min(0).max(1).optional(),
+  maxCost: z.number().min(0).optional(),
+});
+
+async function reportContext(engine: LinkEngine, planId: string): Promise<PlanContext> {
+  const plan = await findPlanById(engine.database, planId);
+  if (!plan) throw new LinkInputError(404, 'not_found', `--plan: no plan "${planId}"`);
+  return engine.planContext(plan);
+}
+
+/** A node's links as `earshot link` prints them (optionally one gateway's). */
+export async function linkReport(engine: LinkEngine, input: z.infer<typeof linkReportInput>): Promise<ReturnType<typeof nodeLinksView>> {
+  const ctx = await reportContext(engine, input.plan);
+  if (input.gateway && !ctx.gateways.some((g) => g.row.id === input.gateway)) throw new LinkInputError(404, 'not_found', `--gateway: no gateway "${input.gateway}" in plan ${input.plan}`);
+  const outcome = await engine.linksForNode(ctx, input.node).catch((error: unknown) => {
+    if (error instanceof LinkInputError && error.statusCode === 404) throw new LinkInputError(404, 'not_found', `--node: no node "${input.node}" in plan ${input.plan}`);
+    throw error;
+  });
+  const view = nodeLinksView(ctx, outcome);
+  if (!input.gateway) return view;
+  const links = view.links.filter((link) => link.gatewayId === input.gateway);
+  if (links.length === 0) throw new LinkInputError(422, 'out_of_range', `--gateway: gateway "${input.gateway}" is beyond ${(ctx.settings.maxLinkRangeM / 1000).toFixed(0)} km of the node`);
+  return { ...view, links };
+}
+
+/** A node's kit options as `earshot recommend` prints them. */
+export async function recommendReport(engine: LinkEngine, input: z.infer<typeof recommendReportInput>) {
+  const ctx = await reportContext(engine, input.plan);
+  const row = await engine.nodeRow(ctx, input.node).catch(() => {
+    throw new LinkInputError(404, 'not_found', `--node: no node "${input.node}" in plan ${input.plan}`);
+  });
+  return recommendForNode(engine, ctx, row, { targetMarginDb: input.targetMarginDb, targetDelivery: input.targetDelivery, maxCost: input.maxCost });
+}
+
+/**
+ * Loopback admin routes for those commands, registered inside server/api/routes/admin.ts
+ * (so its loopback + local-secret check guards them): POST /_admin/link, /_admin/recommend.
+ */
+export async function linkAdminRoutes(app: FastifyInstance): Promise<void> {
+  const api = app.withTypeProvider<ZodTypeProvider>();
+  const { db, config } = app.deps;
+  // One node per request: its few paths run in-thread, no worker threads.
+  const engine = new LinkEngine(db, config, { workers: 0 });
+  app.addHook('onClose', async () => engine.close());
+  api.post('/link', { schema: { hide: true, body: linkReportInput } }, async (request) => linkReport(engine, request.body).catch(asApiError));
+  api.post('/recommend', { schema: { hide: true, body: recommendReportInput } }, async (request) => recommendReport(engine, request.body).catch(asApiError));
 }
