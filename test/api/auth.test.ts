@@ -37,6 +37,14 @@ describeEngines('accounts and sign-in', (engine) => {
     expect(openapi.body.openapi).toMatch(/^3\./);
     expect(Object.keys(openapi.body.paths)).toEqual(expect.arrayContaining(['/api/v1/plans', '/api/v1/plans/{planId}/nodes', '/api/v1/kit/antenna-designs', '/api/v1/audit']));
     expect(openapi.body.paths['/api/v1/plans'].post.requestBody).toBeDefined();
+    // Response schemas of the plan-scoped CRUD routes: the fields a client can rely on.
+    const body = (path: string, method: string, status: string) => openapi.body.paths[path][method].responses[status].content['application/json'].schema;
+    expect(body('/api/v1/plans', 'post', '201').properties).toMatchObject({ id: { type: 'string' }, version: { type: 'integer' }, targetMarginDb: { type: 'number' } });
+    expect(body('/api/v1/plans/{planId}', 'get', '200').properties.counts.properties).toHaveProperty('nodes');
+    expect(body('/api/v1/plans/{planId}/sites', 'get', '200').properties.items.items.properties.kind.enum).toEqual(['candidate', 'used']);
+    expect(body('/api/v1/plans/{planId}/gateways/{id}', 'patch', '200').properties).toHaveProperty('antennaHeightAglM');
+    expect(body('/api/v1/plans/{planId}/nodes/{id}', 'get', '200').properties.installStatus.enum).toEqual(['planned', 'installed', 'needs-visit']);
+    expect(body('/api/v1/plans/{planId}/nodes', 'post', '201').properties.createdAt.anyOf).toContainEqual({ type: 'string', format: 'date-time' });
   });
 
   it('everything else needs a valid token (401), with the error shape', async () => {

@@ -9,7 +9,7 @@ import { requireRole } from '../auth.ts';
 import { ApiError } from '../errors.ts';
 import { assertKitVisible } from '../kit-check.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
-import { finite, id, latitude, longitude, name, nonNegative, notes, pageQuery, planItemParams, planParams, version } from '../schemas.ts';
+import { dateTime, finite, id, latitude, longitude, name, nonNegative, notes, pageOf, pageQuery, planItemParams, planParams, version } from '../schemas.ts';
 
 export const defaultGatewayAntennaId = 'collinear-fibreglass-6dbi';
 export const defaultGatewayFeedlineId = 'low-loss-10mm';
@@ -28,6 +28,28 @@ const gatewayFields = {
   txPowerDbm: finite().min(-10, 'must be ≥ -10 dBm').max(36, 'must be ≤ 36 dBm').optional(),
   notes: notes().optional(),
 };
+/** A gateway as the API answers it (loose: later columns pass through). */
+export const gatewayResponse = z
+  .object({
+    id: z.string(),
+    planId: z.string(),
+    siteId: z.string().nullable(),
+    name: z.string(),
+    lat: z.number().describe('degrees WGS84'),
+    lon: z.number().describe('degrees WGS84'),
+    antennaDesignId: z.string(),
+    antennaHeightAglM: z.number().describe('m above ground'),
+    feedlineId: z.string(),
+    feedlineLengthM: z.number().describe('m'),
+    mastOptionId: z.string().nullable(),
+    noiseFigureDb: z.number().describe('dB'),
+    txPowerDbm: z.number().describe('dBm at the radio port'),
+    notes: z.string(),
+    version: z.number().int(),
+    createdAt: dateTime,
+    updatedAt: dateTime,
+  })
+  .loose();
 export const gatewayCreateBody = z.strictObject(gatewayFields);
 export const gatewayPatchBody = z.strictObject({ ...gatewayFields, name: name().optional(), version: version() });
 
@@ -43,14 +65,14 @@ export default async function gatewayRoutes(app: FastifyInstance): Promise<void>
     return site;
   }
 
-  api.get('/plans/:planId/gateways', { schema: { summary: 'Gateways of a plan', tags, params: planParams, querystring: pageQuery } }, async (request) => {
+  api.get('/plans/:planId/gateways', { schema: { summary: 'Gateways of a plan', tags, params: planParams, querystring: pageQuery, response: { 200: pageOf(gatewayResponse) } } }, async (request) => {
     const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
     return listGateways(db, plan.id, request.query);
   });
 
   api.post(
     '/plans/:planId/gateways',
-    { schema: { summary: 'Add a gateway (at a site: lat/lon default to the site; kit defaults to a 6 dBi collinear on 10 m of low-loss coax at 10 m)', tags, params: planParams, body: gatewayCreateBody } },
+    { schema: { summary: 'Add a gateway (at a site: lat/lon default to the site; kit defaults to a 6 dBi collinear on 10 m of low-loss coax at 10 m)', tags, params: planParams, body: gatewayCreateBody, response: { 201: gatewayResponse } } },
     async (request, reply) => {
       const principal = requireRole(request, 'planner');
       const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
@@ -75,14 +97,14 @@ export default async function gatewayRoutes(app: FastifyInstance): Promise<void>
     },
   );
 
-  api.get('/plans/:planId/gateways/:id', { schema: { summary: 'One gateway', tags, params: planItemParams } }, async (request) => {
+  api.get('/plans/:planId/gateways/:id', { schema: { summary: 'One gateway', tags, params: planItemParams, response: { 200: gatewayResponse } } }, async (request) => {
     const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
     const gateway = await findGateway(db, plan.id, request.params.id);
     if (!gateway) throw new ApiError(404, 'not_found', 'gateway not found');
     return gateway;
   });
 
-  api.patch('/plans/:planId/gateways/:id', { schema: { summary: 'Update a gateway (send the version you read)', tags, params: planItemParams, body: gatewayPatchBody } }, async (request) => {
+  api.patch('/plans/:planId/gateways/:id', { schema: { summary: 'Update a gateway (send the version you read)', tags, params: planItemParams, body: gatewayPatchBody, response: { 200: gatewayResponse } } }, async (request) => {
     const principal = requireRole(request, 'planner');
     const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
     const { version: expected, ...patch } = request.body;

@@ -13,7 +13,7 @@ import { ApiError } from '../errors.ts';
 import { assertKitVisible } from '../kit-check.ts';
 import { ImportFormatError, importRecords, validateRecords, type RowError } from '../node-import.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
-import { finite, id, latitude, longitude, name, nonNegative, notes, pageQuery, planItemParams, planParams, version } from '../schemas.ts';
+import { dateTime, finite, id, latitude, longitude, name, nonNegative, notes, pageOf, pageQuery, planItemParams, planParams, version } from '../schemas.ts';
 import { findAntennaDesignRow, findFeedlineRow, findMastRow } from '../../db/repositories/kit.ts';
 
 export const defaultNodeAntennaId = 'helical-stub';
@@ -94,6 +94,35 @@ async function kitErrors(db: Database, teamId: string, rows: NodeCreate[]): Prom
   return errors;
 }
 
+/** A node as the API answers it (loose: later columns pass through). */
+export const nodeResponse = z
+  .object({
+    id: z.string(),
+    planId: z.string(),
+    name: z.string(),
+    lat: z.number().describe('degrees WGS84'),
+    lon: z.number().describe('degrees WGS84'),
+    deviceType: z.string(),
+    antennaDesignId: z.string(),
+    antennaHeightAglM: z.number().describe('m above ground (negative in a pit)'),
+    feedlineId: z.string().nullable(),
+    feedlineLengthM: z.number().describe('m'),
+    mastOptionId: z.string().nullable(),
+    txPowerDbm: z.number().describe('dBm at the radio port'),
+    sfPolicy: z.string().describe('adaptive or fixed'),
+    fixedSf: z.number().int().nullable(),
+    payloadBytes: z.number().int(),
+    messagesPerHour: z.number(),
+    environment: z.string(),
+    buildingType: z.string().nullable(),
+    installStatus: z.enum(installStatuses),
+    notes: z.string(),
+    version: z.number().int(),
+    createdAt: dateTime,
+    updatedAt: dateTime,
+  })
+  .loose();
+
 export default async function nodeRoutes(app: FastifyInstance): Promise<void> {
   const api = app.withTypeProvider<ZodTypeProvider>();
   const { db, config } = app.deps;
@@ -107,6 +136,7 @@ export default async function nodeRoutes(app: FastifyInstance): Promise<void> {
         tags,
         params: planParams,
         querystring: pageQuery.extend({ installStatus: z.enum(installStatuses).optional(), deviceType: z.string().max(200).optional() }),
+        response: { 200: pageOf(nodeResponse) },
       },
     },
     async (request) => {
@@ -118,7 +148,7 @@ export default async function nodeRoutes(app: FastifyInstance): Promise<void> {
     },
   );
 
-  api.post('/plans/:planId/nodes', { schema: { summary: 'Add a node (antenna defaults to a helical stub)', tags, params: planParams, body: nodeCreateBody } }, async (request, reply) => {
+  api.post('/plans/:planId/nodes', { schema: { summary: 'Add a node (antenna defaults to a helical stub)', tags, params: planParams, body: nodeCreateBody, response: { 201: nodeResponse } } }, async (request, reply) => {
     const principal = requireRole(request, 'planner');
     const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
     const data = toNodeData(request.body);
@@ -168,7 +198,7 @@ export default async function nodeRoutes(app: FastifyInstance): Promise<void> {
     },
   );
 
-  api.get('/plans/:planId/nodes/:id', { schema: { summary: 'One node', tags, params: planItemParams } }, async (request) => {
+  api.get('/plans/:planId/nodes/:id', { schema: { summary: 'One node', tags, params: planItemParams, response: { 200: nodeResponse } } }, async (request) => {
     const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
     const node = await findNode(db, plan.id, request.params.id);
     if (!node) throw new ApiError(404, 'not_found', 'node not found');
@@ -177,7 +207,7 @@ export default async function nodeRoutes(app: FastifyInstance): Promise<void> {
 
   api.patch(
     '/plans/:planId/nodes/:id',
-    { schema: { summary: 'Update a node (send the version you read); installers may change installStatus and notes', tags, params: planItemParams, body: nodePatchBody } },
+    { schema: { summary: 'Update a node (send the version you read); installers may change installStatus and notes', tags, params: planItemParams, body: nodePatchBody, response: { 200: nodeResponse } } },
     async (request) => {
       const principal = requireRole(request, 'planner', 'installer');
       const plan = await loadPlanForPrincipal(db, principal, request.params.planId);

@@ -13,7 +13,7 @@ import type { PlanFiles } from '../../db/repositories/plans.ts';
 import type { Prisma } from '../../db/generated/client.ts';
 import { requireRole } from '../auth.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
-import { finite, jsonObject, name, notes, pageQuery, planParams, version } from '../schemas.ts';
+import { dateTime, finite, jsonObject, name, notes, pageOf, pageQuery, planParams, version } from '../schemas.ts';
 
 const bandPlanIds = bandPlans.map((plan) => plan.id) as [string, ...string[]];
 
@@ -26,6 +26,25 @@ const planFields = {
   propagationMethod: z.string().regex(/^[a-z0-9-]{1,40}$/, 'must be a method id such as p1812').optional(),
   settings: jsonObject.optional(),
 };
+
+/** A plan as the API answers it (loose: columns added later are passed through, not dropped). */
+export const planResponse = z
+  .object({
+    id: z.string(),
+    teamId: z.string(),
+    name: z.string(),
+    description: z.string(),
+    bandPlanId: z.string().describe('band plan id (server/radio band plans)'),
+    targetMarginDb: z.number().describe('dB'),
+    locationSigmaDb: z.number().nullable().describe('dB; null = the propagation method default'),
+    propagationMethod: z.string(),
+    settings: z.unknown().describe('free-form JSON object'),
+    version: z.number().int(),
+    createdAt: dateTime,
+    updatedAt: dateTime,
+  })
+  .loose();
+const planWithCounts = planResponse.extend({ counts: z.object({ sites: z.number().int(), gateways: z.number().int(), nodes: z.number().int(), terrainLayers: z.number().int() }) });
 
 export const planCreateBody = z.strictObject(planFields);
 export const planPatchBody = z.strictObject({ ...planFields, name: name().optional(), version: version() });
@@ -69,11 +88,11 @@ export default async function planRoutes(app: FastifyInstance): Promise<void> {
   const { db } = app.deps;
   const tags = ['plans'];
 
-  api.get('/plans', { schema: { summary: "The team's plans", tags, querystring: pageQuery } }, async (request) =>
+  api.get('/plans', { schema: { summary: "The team's plans", tags, querystring: pageQuery, response: { 200: pageOf(planResponse) } } }, async (request) =>
     listPlans(db, request.principal.teamId, request.query),
   );
 
-  api.post('/plans', { schema: { summary: 'Create a plan (only name is required; defaults: US 902-928 MHz, 10 dB target margin, P.1812)', tags, body: planCreateBody } }, async (request, reply) => {
+  api.post('/plans', { schema: { summary: 'Create a plan (only name is required; defaults: US 902-928 MHz, 10 dB target margin, P.1812)', tags, body: planCreateBody, response: { 201: planResponse } } }, async (request, reply) => {
     const principal = requireRole(request, 'planner');
     const plan = await writeWithAudit(
       db,
@@ -83,12 +102,12 @@ export default async function planRoutes(app: FastifyInstance): Promise<void> {
     return reply.status(201).send(plan);
   });
 
-  api.get('/plans/:planId', { schema: { summary: 'One plan with counts of what it holds', tags, params: planParams } }, async (request) => {
+  api.get('/plans/:planId', { schema: { summary: 'One plan with counts of what it holds', tags, params: planParams, response: { 200: planWithCounts } } }, async (request) => {
     const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
     return { ...plan, counts: await planCounts(db, plan.id) };
   });
 
-  api.patch('/plans/:planId', { schema: { summary: 'Update a plan (send the version you read; stale -> 409)', tags, params: planParams, body: planPatchBody } }, async (request) => {
+  api.patch('/plans/:planId', { schema: { summary: 'Update a plan (send the version you read; stale -> 409)', tags, params: planParams, body: planPatchBody, response: { 200: planResponse } } }, async (request) => {
     const principal = requireRole(request, 'planner');
     const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
     const { version: expected, ...patch } = request.body;
