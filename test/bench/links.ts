@@ -134,6 +134,9 @@ export async function run(): Promise<void> {
       return { ms, body: res.json() as FleetBody };
     };
     try {
+      // Each app opens the plan once first, as a running server has (its link pool starts
+      // its workers with the first plan context; they are loaded by the pool's first turn).
+      for (const app of [inThreadApp, poolApp]) await app.inject({ method: 'GET', url: linkUrl, headers: auth });
       const rounds = Number(process.env.LINKS_BENCH_ROUNDS ?? 2);
       const single: number[] = [];
       const pooled: number[] = [];
