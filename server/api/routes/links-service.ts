@@ -129,6 +129,8 @@ function buildingTypeOf(value: string | null, fallback: BuildingType): BuildingT
 
 /** Cold paths below this count are predicted in-thread (starting workers would cost more). */
 const MIN_POOL_PAIRS = 8;
+/** Nodes per group of the fleet table's cold paths (see fleet()). */
+const FLEET_GROUP_NODES = 100;
 
 export interface LinkEngineOptions {
   /**
@@ -456,9 +458,12 @@ export class LinkEngine {
       if (list) list.push(row);
       else byNode.set(row.nodeId, [row]);
     }
-    // 1. Resolve every node and collect the paths the cache lacks (one per path hash).
+    // 1. Resolve every node and collect the paths the cache lacks (one per path hash),
+    //    in groups of nodes so budgets and cache writes of one group overlap the
+    //    workers' paths of the next.
     const resolved: Array<{ node: ResolvedNode } | { broken: NodeRow; message: string }> = [];
-    const missing = new Map<string, LinkPathPair>();
+    const groups: Array<Map<string, LinkPathPair>> = [];
+    const seen = new Set<string>();
     for (const row of nodes) {
       let node: ResolvedNode;
       try {
@@ -468,23 +473,43 @@ export class LinkEngine {
         resolved.push({ broken: row, message: error.message });
         continue;
       }
+      const group = Math.floor(resolved.length / FLEET_GROUP_NODES);
       resolved.push({ node });
       const stored = new Map((byNode.get(row.id) ?? []).map((link) => [link.gatewayId, isStoredLink(link.result) ? link.result.pathHash : null]));
       for (const gateway of ctx.gateways) {
         if (bearingsBetween(row.lat, row.lon, gateway.row.lat, gateway.row.lon).distanceM > ctx.settings.maxLinkRangeM) continue;
         const pathHash = this.pathHash(ctx, node, gateway);
-        if (stored.get(gateway.row.id) === pathHash || missing.has(pathHash)) continue;
-        missing.set(pathHash, { node: pathEnd(row, node.antennaHeightAglM), gateway: pathEnd(gateway.row, gateway.row.antennaHeightAglM) });
+        if (stored.get(gateway.row.id) === pathHash || seen.has(pathHash)) continue;
+        seen.add(pathHash);
+        (groups[group] ??= new Map()).set(pathHash, { node: pathEnd(row, node.antennaHeightAglM), gateway: pathEnd(gateway.row, gateway.row.antennaHeightAglM) });
       }
     }
-    // 2. The cold paths, spread over the worker threads.
-    const hashes = [...missing.keys()];
-    const paths = await this.computePaths(ctx, [...missing.values()]);
-    const precomputed = new Map(hashes.map((hash, i) => [hash, paths[i]]));
+    // 2. The cold paths: every group queued on the worker threads at once (in-thread: one group at a time).
+    const precomputed = new Map<string, PathPrediction>();
+    const runGroup = async (g: number): Promise<void> => {
+      const missing = groups[g];
+      if (!missing) return;
+      const paths = await this.computePaths(ctx, [...missing.values()]);
+      let k = 0;
+      for (const hash of missing.keys()) precomputed.set(hash, paths[k++]);
+    };
+    const groupCount = Math.ceil(resolved.length / FLEET_GROUP_NODES);
+    const queued: Array<Promise<void>> = [];
+    if (this.pool && seen.size >= MIN_POOL_PAIRS) {
+      for (let g = 0; g < groupCount; g++) {
+        const work = runGroup(g);
+        work.catch(() => undefined); // awaited in order below; this only keeps a later failure from being reported as unhandled first
+        queued.push(work);
+      }
+    }
     // 3. Budgets in-thread; cache rows written in batches.
     const outcomes: NodeLinksOutcome[] = [];
     let pending: LinkRow[] = [];
     for (let i = 0; i < resolved.length; i++) {
+      if (i % FLEET_GROUP_NODES === 0) {
+        const g = i / FLEET_GROUP_NODES;
+        await (queued[g] ?? runGroup(g));
+      }
       const entry = resolved[i];
       if ('broken' in entry) {
         outcomes.push(brokenNodeOutcome(entry.broken, entry.message));
