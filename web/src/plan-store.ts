@@ -150,9 +150,13 @@ export class PlanStore {
   }
 
   private async afterWrite(kind: EntityKind): Promise<void> {
-    // Link predictions depend on nodes, gateways and kit: refresh the statuses.
-    if (kind !== 'sites') await this.loadFleet();
+    // Show the change at once; then refresh the statuses (link predictions depend on
+    // nodes, gateways and kit, and recomputing them can take seconds).
     this.changed();
+    if (kind !== 'sites') {
+      await this.loadFleet();
+      this.changed();
+    }
   }
 
   /** Reloads one object after a conflict so the map shows the stored state. */
