@@ -142,3 +142,74 @@ export function writeOnRasterGrid(
     throw error;
   }
 }
+
+/**
+ * Representative clutter heights (m) on the cells of a DEM window: each DEM
+ * cell centre takes the class of the clutter pixel it falls in (nearest; the
+ * terrain room's code → class table and per-class heights), NaN where the
+ * clutter layer has no class (outside it, NoData, unmapped code). Same CRS:
+ * affine pixel → pixel; otherwise through WGS 84. The clutter window under
+ * the DEM window is read once.
+ */
+export async function loadClutterHeights(
+  dem: GeoRaster,
+  placement: WindowPlacement,
+  clutter: GeoRaster,
+  classByCode: Uint8Array,
+  heightByClassM: ArrayLike<number>,
+): Promise<Float32Array> {
+  const { widthPx, heightPx } = placement;
+  const out = new Float32Array(widthPx * heightPx).fill(Number.NaN);
+  const g = dem.geoTransform;
+  const c = clutter.geoTransform;
+  const sameGrid = dem.crs.proj4 === clutter.crs.proj4 && c[2] === 0 && c[4] === 0;
+  const cx = new Float64Array(widthPx * heightPx);
+  const cy = new Float64Array(widthPx * heightPx);
+  let minX = Infinity;
+  let minY = Infinity;
+  let maxX = -Infinity;
+  let maxY = -Infinity;
+  for (let row = 0; row < heightPx; row++) {
+    for (let col = 0; col < widthPx; col++) {
+      const px = placement.x0 + col + 0.5;
+      const py = placement.y0 + row + 0.5;
+      let x: number;
+      let y: number;
+      if (sameGrid) {
+        x = (g[0] + px * g[1] + py * g[2] - c[0]) / c[1];
+        y = (g[3] + px * g[4] + py * g[5] - c[3]) / c[5];
+      } else {
+        const ll = dem.pixelToLonLat(px, py);
+        const p = clutter.lonLatToPixel(ll.lon, ll.lat);
+        x = p.x;
+        y = p.y;
+      }
+      const i = row * widthPx + col;
+      cx[i] = x;
+      cy[i] = y;
+      if (x === x && y === y) {
+        if (x < minX) minX = x;
+        if (x > maxX) maxX = x;
+        if (y < minY) minY = y;
+        if (y > maxY) maxY = y;
+      }
+    }
+  }
+  const wx0 = Math.max(0, Math.floor(minX));
+  const wy0 = Math.max(0, Math.floor(minY));
+  const wx1 = Math.min(clutter.widthPx, Math.floor(maxX) + 1);
+  const wy1 = Math.min(clutter.heightPx, Math.floor(maxY) + 1);
+  if (!(wx1 > wx0 && wy1 > wy0)) return out;
+  const ww = wx1 - wx0;
+  const codes = await clutter.readWindow(wx0, wy0, ww, wy1 - wy0);
+  for (let i = 0; i < out.length; i++) {
+    const col = Math.floor(cx[i]) - wx0;
+    const row = Math.floor(cy[i]) - wy0;
+    if (!(col >= 0 && row >= 0 && col < ww && row < wy1 - wy0)) continue;
+    const code = codes[row * ww + col];
+    if (!(code >= 0 && code <= 65535)) continue;
+    const cls = classByCode[Math.round(code)];
+    if (cls < heightByClassM.length) out[i] = heightByClassM[cls];
+  }
+  return out;
+}

@@ -10,7 +10,8 @@ import type { Config } from '../config.ts';
 import { claimCoverageRun, completeCoverageRun, failCoverageRun, findCoverageRunById, reportCoverageProgress } from '../db/repositories/coverage-runs.ts';
 import { openGeoRaster, type GeoRaster } from '../terrain/raster.ts';
 import { writeGeoTiff } from '../terrain/geotiff-writer.ts';
-import { loadTerrainWindow, windowFor, windowGeoTransform, type WindowPlacement } from '../coverage/terrain-window.ts';
+import { CLUTTER_CLASSES, CLUTTER_CODE_PRESETS, clutterLookup, type ClutterPreset } from '../terrain/clutter.ts';
+import { loadClutterHeights, loadTerrainWindow, windowFor, windowGeoTransform, type WindowPlacement } from '../coverage/terrain-window.ts';
 import { cellProducts, LOSS_NODATA, type CellBudget } from '../coverage/outputs.ts';
 import { buildComposite, summarise, type PlacedProducts } from '../coverage/composite.ts';
 import { BYTE_NODATA } from '../coverage/rasterise.ts';
@@ -32,6 +33,12 @@ export interface CoverageJobParams {
   /** Elevation layer file (absolute, or relative to the files folder) and its id. */
   terrainPath: string;
   terrainLayerId: string;
+  /**
+   * The plan's clutter layer for this run (null or absent: none): file, class
+   * table (terrain room's code presets) and representative height per class index (m,
+   * the P.1812 defaults with the plan's overrides, `clutterHeightsByIndex`).
+   */
+  clutter?: { layerId: string; name: string; path: string; codes: ClutterPreset; heightByClassM: number[] } | null;
   gateways: Array<{ id: string; name: string; lat: number; lon: number; heightAglM: number; fixedDbm: number; sensitivityDbmBySf: number[] }>;
   nodes: Array<{ id: string; lat: number; lon: number }>;
 }
@@ -90,6 +97,7 @@ export async function executeCoverageRun(db: Database, config: Config, runId: st
     });
   };
   let raster: GeoRaster | null = null;
+  let clutterRaster: GeoRaster | null = null;
   const dir = resultDir(config, runId);
   const temp = `${dir}.partial-${process.pid}-${Date.now()}`;
   try {
@@ -97,6 +105,9 @@ export async function executeCoverageRun(db: Database, config: Config, runId: st
     const parent = join(config.filesDir, 'coverage');
     if (existsSync(parent)) for (const name of readdirSync(parent)) if (name.startsWith(`${runId}.partial-`)) rmSync(join(parent, name), { recursive: true, force: true });
     raster = await openGeoRaster(resolveFilePath(config, params.terrainPath));
+    const clutter = params.clutter ?? null;
+    if (clutter) clutterRaster = await openGeoRaster(resolveFilePath(config, clutter.path));
+    const classByCode = clutter ? clutterLookup(CLUTTER_CODE_PRESETS[clutter.codes]) : null;
     const radiusM = params.radiusKm * 1000;
     const placements = params.gateways.map((g) => windowFor(raster!, { lat: g.lat, lon: g.lon, radiusM, allowClip: false }));
     const union = unionOf(placements);
@@ -105,6 +116,10 @@ export async function executeCoverageRun(db: Database, config: Config, runId: st
     for (let index = 0; index < gatewayCount; index++) {
       const g = params.gateways[index];
       const { terrain, placement } = await loadTerrainWindow(raster, { lat: g.lat, lon: g.lon, radiusM }, placements[index]);
+      if (clutter && clutterRaster && classByCode) {
+        // Clutter heights on the DEM window's cells; the sweeps add them to intermediate profile points (P.1812-8 §3.2).
+        terrain.clutterHeightM = await loadClutterHeights(raster, placement, clutterRaster, classByCode, clutter.heightByClassM);
+      }
       const area = await runArea(
         terrain,
         {
@@ -162,6 +177,14 @@ export async function executeCoverageRun(db: Database, config: Config, runId: st
       radiusKm: params.radiusKm,
       sf: params.sf,
       requiredMarginDb: params.requiredMarginDb,
+      clutter: clutter
+        ? {
+            layerId: clutter.layerId,
+            name: clutter.name,
+            heightsM: Object.fromEntries(CLUTTER_CLASSES.map((name, i) => [name, clutter.heightByClassM[i]])),
+            note: `clutter layer "${clutter.name}" used: representative clutter heights added to the terrain between gateway and cell`,
+          }
+        : { layerId: null, name: null, heightsM: null, note: 'no clutter layer: terrain only (no clutter heights added)' },
       grid: { widthPx: union.widthPx, heightPx: union.heightPx, geoTransform, epsg: raster.crs.epsg },
     };
     // Result files: temporary folder first, renamed into place in one step.
@@ -200,5 +223,6 @@ export async function executeCoverageRun(db: Database, config: Config, runId: st
   } finally {
     await reporting.catch(() => undefined);
     await raster?.close();
+    await clutterRaster?.close();
   }
 }

@@ -265,4 +265,43 @@ describeEngines('coverage API', (engine) => {
     const again = await http.post(`/api/v1/plans/${planId}/coverage/${started.body.id}/cancel`).set(as('planner'));
     expect(again.status).toBe(409);
   });
+
+  it('uses the plan\'s clutter layer: a cell behind a dense-urban block loses margin (more than one over open land); the summary names the layer', async () => {
+    // Clutter on the DEM's own grid, earshot's class codes (2 open/rural, 6 dense urban):
+    // a dense-urban block 15–25 cells east of the mast, open land elsewhere.
+    const codes = new Uint8Array(SIZE * SIZE).fill(2);
+    for (let row = 140; row <= 160; row++) for (let col = 165; col <= 175; col++) codes[row * SIZE + col] = 6;
+    const clutterTif = Buffer.from(writeGeoTiff({ widthPx: SIZE, heightPx: SIZE, data: codes, geoTransform: [ORIGIN_X, CELL_M, 0, ORIGIN_Y, 0, -CELL_M], epsg: 32633, noData: 0 }));
+    const upload = await http.post(`/api/v1/plans/${planId}/terrain?kind=clutter&name=Synthetic%20town%20block`).set(as('planner')).set('Content-Type', 'image/tiff').send(clutterTif);
+    expect(upload.status, JSON.stringify(upload.body)).toBe(201);
+    const runWith = async (useClutter: boolean) => {
+      const started = await http.post(`/api/v1/plans/${planId}/coverage`).set(as('planner')).send({ radiusKm: 2, mode: 'fast', gatewayIds: [gatewayId], useClutter });
+      expect(started.status, JSON.stringify(started.body)).toBe(202);
+      const done = await waitFor(started.body.id, ['done', 'failed']);
+      expect(done.status, done.error).toBe('done');
+      const raster = await openGeoRaster(join(resultDir(t.config, started.body.id), 'margin.tif'));
+      const all = await raster.readWindow(0, 0, raster.widthPx, raster.heightPx);
+      const at = (col: number, row: number) => {
+        const { lat, lon } = lonLatOf(col, row);
+        const p = raster.lonLatToPixel(lon, lat);
+        return all[Math.floor(p.y) * raster.widthPx + Math.floor(p.x)];
+      };
+      const margins = { behind: at(200, 150), open: at(100, 150) };
+      await raster.close();
+      return { summary: done.summary, margins };
+    };
+    const bare = await runWith(false);
+    const cluttered = await runWith(true);
+    expect(bare.summary.clutter.layerId).toBeNull();
+    expect(bare.summary.clutter.note).toMatch(/no clutter layer/);
+    expect(cluttered.summary.clutter.layerId).toBe(upload.body.id);
+    expect(cluttered.summary.clutter.name).toBe('Synthetic town block');
+    // Representative heights: P.1812 defaults (dense urban 20 m, open/rural 10 m) without plan overrides.
+    expect(cluttered.summary.clutter.heightsM.dense_urban).toBe(20);
+    expect(Number.isFinite(bare.margins.behind)).toBe(true);
+    // 1.5 km east, behind the 20 m block at 450–750 m: the block adds diffraction loss (P.1812-8 §3.2 heights on intermediate points).
+    expect(cluttered.margins.behind).toBeLessThan(bare.margins.behind - 1);
+    // Open land (10 m) to the west also adds some height; the block side must lose more than the open side.
+    expect(bare.margins.behind - cluttered.margins.behind).toBeGreaterThan(bare.margins.open - cluttered.margins.open);
+  });
 });

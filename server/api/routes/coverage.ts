@@ -17,6 +17,7 @@ import { resolveLinkSettings } from '../../planning/settings.ts';
 import { sensitivityDbm } from '../../radio/lora-phy.ts';
 import { feedlineLossDb } from '../../radio/feedlines.ts';
 import { openGeoRaster, type GeoRaster } from '../../terrain/raster.ts';
+import { CLUTTER_CLASSES, clutterHeightsByIndex, type ClutterClass } from '../../terrain/clutter.ts';
 import { CoverageInputError, windowFor } from '../../coverage/terrain-window.ts';
 import { legend, renderMarginTile } from '../../coverage/tiles.ts';
 import { createCoverageJobs, type CoverageJobs } from '../../jobs/runner.ts';
@@ -46,6 +47,8 @@ export const coverageBody = z.strictObject({
   nodeTxPowerDbm: finite().min(-10, 'must be ≥ -10 dBm').max(30, 'must be ≤ 30 dBm').optional(),
   nodeAntennaGainDbi: finite().min(-20, 'must be ≥ -20 dBi').max(20, 'must be ≤ 20 dBi').optional(),
   nodeLossDb: finite().min(0, 'must be ≥ 0 dB').max(30, 'must be ≤ 30 dB').optional(),
+  /** Use the plan's clutter layer when it has one (default true). */
+  useClutter: z.boolean({ error: 'must be true or false' }).optional(),
 });
 
 /** Ceiling on the cells of one run's grid (EARSHOT_MAX_COVERAGE_CELLS, default 25 million). */
@@ -146,7 +149,8 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
         gateways = body.gatewayIds.map((gid) => byId.get(gid)!);
       }
       if (gateways.length === 0) throw new ApiError(422, 'no_gateways', 'the plan has no gateways to compute coverage for');
-      const layers = (await allTerrainLayers(db, plan.id)).filter((layer) => layer.kind === 'elevation');
+      const allLayers = await allTerrainLayers(db, plan.id);
+      const layers = allLayers.filter((layer) => layer.kind === 'elevation');
       if (layers.length === 0) throw new ApiError(422, 'no_terrain', 'the plan has no elevation terrain layer; upload a DEM first');
       const radiusM = body.radiusKm * 1000;
       const maxCells = maxCoverageCells();
@@ -183,6 +187,44 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
         const status = problem.code === 'too_many_cells' ? 413 : 422;
         throw new ApiError(status, problem.code, problem.message);
       }
+      // The finest clutter layer under every gateway (earshot's class codes, like link checks); heights: P.1812 defaults + plan overrides.
+      let clutter: CoverageJobParams['clutter'] = null;
+      if (body.useClutter !== false) {
+        const raw = plan.settings && typeof plan.settings === 'object' && !Array.isArray(plan.settings) ? (plan.settings as Record<string, unknown>) : {};
+        const overrides: Partial<Record<ClutterClass, number>> = {};
+        if (raw.clutterHeightsM && typeof raw.clutterHeightsM === 'object') {
+          for (const [name, value] of Object.entries(raw.clutterHeightsM as Record<string, unknown>)) {
+            if ((CLUTTER_CLASSES as readonly string[]).includes(name) && typeof value === 'number') overrides[name as ClutterClass] = value;
+          }
+        }
+        let heightByClassM: number[];
+        try {
+          heightByClassM = Array.from(clutterHeightsByIndex(overrides));
+        } catch (error) {
+          throw new ApiError(422, 'invalid_clutter_heights', `plan settings clutterHeightsM: ${(error as Error).message}`);
+        }
+        for (const layer of allLayers.filter((l) => l.kind === 'clutter')) {
+          const path = resolveFilePath(config, layer.filePath);
+          let raster: GeoRaster;
+          try {
+            raster = await openGeoRaster(path);
+          } catch {
+            continue;
+          }
+          try {
+            const covers = gateways.every((g) => {
+              const p = raster.lonLatToPixel(g.lon, g.lat);
+              return p.x >= 0 && p.y >= 0 && p.x < raster.widthPx && p.y < raster.heightPx;
+            });
+            if (covers) {
+              clutter = { layerId: layer.id, name: layer.name, path, codes: 'earshot', heightByClassM };
+              break;
+            }
+          } finally {
+            await raster.close();
+          }
+        }
+      }
       const nodeTxPowerDbm = body.nodeTxPowerDbm ?? 14;
       const nodeAntennaGainDbi = body.nodeAntennaGainDbi ?? 2.15;
       const nodeLossDb = body.nodeLossDb ?? 0;
@@ -215,6 +257,7 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
         locationSigmaDb: settings.locationSigmaDb,
         terrainPath: chosen.path,
         terrainLayerId: chosen.layer.id,
+        clutter,
         gateways: jobGateways,
         nodes: nodes.map((n) => ({ id: n.id, lat: n.lat, lon: n.lon })),
       };
