@@ -4,32 +4,13 @@
 // be opened by two processes: when a server runs on it (it wrote <dataDir>/admin.json),
 // the command goes through that server's loopback admin endpoint with the local secret;
 // otherwise the command opens the folder itself under the pid lock (server/db/client.ts).
-import { existsSync, readFileSync } from 'node:fs';
-import { join } from 'node:path';
 import { z } from 'zod';
-import { loadConfig, type Config } from '../config.ts';
+import { loadConfig } from '../config.ts';
 import { dataFolderHolder, openDatabase, type Database } from '../db/client.ts';
 import { adminTeamAdd, adminTokenIssue, adminTokenRevoke, teamAddInput, tokenIssueInput, tokenRevokeInput } from '../db/repositories/admin-ops.ts';
 import { ConflictError, NotFoundError } from '../db/errors.ts';
 import { CliUsageError, defineCommand, stringOption, type CliCommand } from './framework.ts';
-
-interface AdminFile {
-  port: number;
-  host: string;
-  pid: number;
-  secret: string;
-}
-
-function readAdminFile(config: Config): AdminFile | null {
-  const path = join(config.dataDir, 'admin.json');
-  if (!existsSync(path)) return null;
-  try {
-    const parsed = JSON.parse(readFileSync(path, 'utf8')) as AdminFile;
-    return typeof parsed.port === 'number' && typeof parsed.secret === 'string' ? parsed : null;
-  } catch {
-    return null;
-  }
-}
+import { callRunningServer, readRunningServer } from './running-server.ts';
 
 function pidAlive(pid: number): boolean {
   try {
@@ -38,24 +19,6 @@ function pidAlive(pid: number): boolean {
   } catch (error) {
     return (error as NodeJS.ErrnoException).code === 'EPERM';
   }
-}
-
-/** Calls the running server's admin endpoint; null when no server answers there. */
-async function viaServer(admin: AdminFile, operation: string, body: unknown): Promise<unknown | null> {
-  let response: Response;
-  try {
-    response = await fetch(`http://127.0.0.1:${admin.port}/_admin/${operation}`, {
-      method: 'POST',
-      headers: { 'content-type': 'application/json', 'x-earshot-admin': admin.secret },
-      body: JSON.stringify(body),
-      signal: AbortSignal.timeout(30_000),
-    });
-  } catch {
-    return null;
-  }
-  const payload = (await response.json().catch(() => ({}))) as { error?: { message?: string } };
-  if (!response.ok) throw new CliUsageError(payload.error?.message ?? `the running server answered ${response.status}`);
-  return payload;
 }
 
 export type AdminOperation = 'team-add' | 'token-issue' | 'token-revoke';
@@ -75,9 +38,9 @@ async function direct(db: Database, operation: AdminOperation, body: never): Pro
 export async function runAdminOperation(operation: AdminOperation, body: unknown, env: NodeJS.ProcessEnv = process.env): Promise<unknown> {
   const config = loadConfig(env);
   if (!config.databaseUrl) {
-    const admin = readAdminFile(config);
-    if (admin && pidAlive(admin.pid)) {
-      const answer = await viaServer(admin, operation, body);
+    const admin = readRunningServer(config);
+    if (admin && admin.pid !== undefined && pidAlive(admin.pid)) {
+      const answer = await callRunningServer(admin, operation, body, 30_000);
       if (answer !== null) return answer;
     }
     const holder = dataFolderHolder(config.dataDir);

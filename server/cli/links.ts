@@ -6,48 +6,16 @@
 // a local secret), the command asks that server's loopback admin route
 // (/_admin/link, /_admin/recommend), which runs the same function
 // (linkReport / recommendReport in server/api/routes/links.ts) and returns the same JSON.
-import { existsSync, readFileSync } from 'node:fs';
-import { join } from 'node:path';
 import { z } from 'zod';
-import { loadConfig, type Config } from '../config.ts';
+import { loadConfig } from '../config.ts';
 import { dataFolderHolder, openDatabase } from '../db/client.ts';
 import { LinkEngine, LinkInputError } from '../api/routes/links-service.ts';
 import { linkReport, recommendReport, type nodeLinksView } from '../api/routes/links.ts';
 import { PlanSettingsError } from '../planning/settings.ts';
 import { CliUsageError, defineCommand, numberOption, stringOption, type CliCommand } from './framework.ts';
+import { callRunningServer, readRunningServer } from './running-server.ts';
 
 type LinkOperation = 'link' | 'recommend';
-
-/** Port and secret of the server holding the data folder, from <dataDir>/admin.json (null if none). */
-function runningServer(config: Config): { port: number; secret: string } | null {
-  const path = join(config.dataDir, 'admin.json');
-  if (!existsSync(path)) return null;
-  try {
-    const parsed = JSON.parse(readFileSync(path, 'utf8')) as { port?: unknown; secret?: unknown };
-    return typeof parsed.port === 'number' && typeof parsed.secret === 'string' ? { port: parsed.port, secret: parsed.secret } : null;
-  } catch {
-    return null;
-  }
-}
-
-/** Asks the running server; null when nothing answers on its port. */
-async function viaServer(server: { port: number; secret: string }, operation: LinkOperation, body: unknown): Promise<unknown | null> {
-  let response: Response;
-  try {
-    response = await fetch(`http://127.0.0.1:${server.port}/_admin/${operation}`, {
-      method: 'POST',
-      headers: { 'content-type': 'application/json', 'x-earshot-admin': server.secret },
-      body: JSON.stringify(body),
-      // A recommendation over a big catalog on cold terrain can take a while.
-      signal: AbortSignal.timeout(300_000),
-    });
-  } catch {
-    return null;
-  }
-  const payload = (await response.json().catch(() => ({}))) as { error?: { message?: string } };
-  if (!response.ok) throw new CliUsageError(payload.error?.message ?? `the running server answered ${response.status}`);
-  return payload;
-}
 
 /** Runs a link operation on the configured database, or through the server that holds it. */
 export async function runLinkOperation(operation: LinkOperation, body: Record<string, unknown>, env: NodeJS.ProcessEnv = process.env): Promise<unknown> {
@@ -55,8 +23,9 @@ export async function runLinkOperation(operation: LinkOperation, body: Record<st
   if (!config.databaseUrl) {
     const holder = dataFolderHolder(config.dataDir);
     if (holder !== null) {
-      const server = runningServer(config);
-      const answer = server ? await viaServer(server, operation, body) : null;
+      const server = readRunningServer(config);
+      // A recommendation over a big catalog on cold terrain can take a while.
+      const answer = server ? await callRunningServer(server, operation, body, 300_000) : null;
       if (answer !== null) return answer;
       throw new CliUsageError(`the data folder ${config.dataDir} is in use by process ${holder} and no server answers for it; wait and retry, or stop that process`);
     }
