@@ -12,6 +12,7 @@ import { runArea } from '../jobs/area-runner.ts';
 import { defaultWorkerCount } from '../jobs/pool.ts';
 import { LOSS_NODATA } from '../coverage/outputs.ts';
 import { BYTE_NODATA } from '../coverage/rasterise.ts';
+import { viewshedWavefront } from '../coverage/wavefront.ts';
 
 const options = z.object({
   terrain: stringOption(),
@@ -62,12 +63,16 @@ export const coverageCommands: CliCommand[] = [
         // Default: every core for big windows; small ones finish before threads would have started.
         const cells = loaded.terrain.frame.widthPx * loaded.terrain.frame.heightPx;
         const workers = o.workers ?? (cells > 1_000_000 || o.mode === 'full' ? defaultWorkerCount() : 1);
-        const result = await runArea(loaded.terrain, request, { workers, onProgress: (fraction) => context.progress(fraction, o.mode) });
+        // los on a projected DEM: one pass over the cells (wavefront.ts), in this thread; otherwise the ray sweeps.
+        const wavefront = o.mode === 'los' ? viewshedWavefront(loaded.terrain, request, radiusM) : null;
+        const result = wavefront
+          ? { ...wavefront, plan: null }
+          : await runArea(loaded.terrain, request, { workers, onProgress: (fraction) => context.progress(fraction, o.mode) });
         let inside = 0;
         if (result.visible) {
           for (let i = 0; i < result.visible.length; i++) if (result.visible[i] !== BYTE_NODATA) inside++;
-          writeOnRasterGrid(o.out, raster, loaded.placement, result.visible, 'uint8', BYTE_NODATA);
-        } else if (result.lossDb) {
+          writeOnRasterGrid(o.out, raster, loaded.placement, result.visible, 'uint8', BYTE_NODATA, 'none');
+        } else if ('lossDb' in result && result.lossDb) {
           for (let i = 0; i < result.lossDb.length; i++) if (result.lossDb[i] === result.lossDb[i]) inside++;
           writeOnRasterGrid(o.out, raster, loaded.placement, result.lossDb, 'float32', LOSS_NODATA);
         }
@@ -76,10 +81,11 @@ export const coverageCommands: CliCommand[] = [
           mode: o.mode,
           cells: inside,
           seconds,
-          workers,
+          workers: wavefront ? 1 : workers,
+          method: wavefront ? 'wavefront' : 'rays',
           visibleCells: result.visibleCells ?? null,
-          rays: result.plan.rayCount,
-          samplesPerRay: result.plan.sampleCount,
+          rays: result.plan?.rayCount ?? null,
+          samplesPerRay: result.plan?.sampleCount ?? null,
           out: o.out,
         };
       } finally {

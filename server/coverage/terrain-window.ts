@@ -105,6 +105,8 @@ export function writeOnRasterGrid(
   data: RasterArray,
   sampleType: SampleType,
   noData: number,
+  // Deflate by default (loss/margin exports); the CLI's byte los raster is written plain: it is small and deflating it cost more than the viewshed.
+  compression: 'none' | 'deflate' = 'deflate',
 ): { bytes: number } {
   const temp = `${path}.${process.pid}.${Date.now()}.partial`;
   const make = (n: number): RasterArray => (sampleType === 'uint8' ? new Uint8Array(n) : new Float32Array(n));
@@ -117,7 +119,7 @@ export function writeOnRasterGrid(
       crsKind: raster.crs.kind,
       noData,
       sampleType,
-      compression: 'deflate',
+      compression,
       tiled: { tileSizePx: 256 },
       readBlock: (_level, bx0, by0, w, h) => {
         const block = make(w * h);

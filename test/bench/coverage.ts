@@ -13,6 +13,7 @@ import { openGeoRaster } from '../../server/terrain/raster.ts';
 import { loadTerrainWindow, writeOnRasterGrid } from '../../server/coverage/terrain-window.ts';
 import { predictArea, type AreaRequest } from '../../server/coverage/area.ts';
 import { BYTE_NODATA } from '../../server/coverage/rasterise.ts';
+import { viewshedWavefront } from '../../server/coverage/wavefront.ts';
 import { runArea } from '../../server/jobs/area-runner.ts';
 import { WorkerPool } from '../../server/jobs/pool.ts';
 import { makeSyntheticDem } from '../unit/coverage/synthetic-dem.ts';
@@ -52,13 +53,17 @@ export async function run(): Promise<void> {
       const ox = g[0] + (700 + 0.5) * g[1];
       const oy = g[3] + (700 + 0.5) * g[5];
       const [lon, lat] = raster30.transform.inverse(ox, oy);
+      // Variants measured in the same loop as GDAL: the earlier plan (half-cell rays and steps, deflated
+      // output) and the current defaults (plain output), so before/after are side by side.
+      // Variants measured in the same loop as GDAL: the earlier path (ray sweep with half-cell rays and
+      // steps, deflated output) and the CLI's current one (wavefront.ts, plain output), side by side.
+      const variants: { name: string; wavefront: boolean; compression: 'none' | 'deflate' }[] = [
+        { name: 'before (ray sweep, rays and steps 0.5 cell, deflate)', wavefront: false, compression: 'deflate' },
+        { name: 'now (wavefront, uncompressed)', wavefront: true, compression: 'none' },
+      ];
       const gdalTimes: number[] = [];
-      const ourTimes: number[] = [];
       const gdalCpu: number[] = [];
-      const ourCpu: number[] = [];
-      const phases = { readMs: 0, computeMs: 0, writeMs: 0 };
-      let agree = 0;
-      let total = 0;
+      const stats = variants.map(() => ({ times: [] as number[], cpu: [] as number[], phases: { readMs: 0, computeMs: 0, writeMs: 0 }, agree: 0, total: 0 }));
       for (let repeat = 0; repeat < 3; repeat++) {
         const t0 = performance.now();
         // CPU seconds of the GDAL process (user + sys) from /usr/bin/time, as the machine may be shared.
@@ -67,38 +72,53 @@ export async function run(): Promise<void> {
         gdalCpu.push((user + sys) * 1000);
         execFileSync('gdal_viewshed', ['-q', '-oz', '20', '-tz', '1.5', '-md', '20000', '-cc', '0.75', '-vv', '1', '-iv', '0', '-ov', '100', '-ox', String(ox), '-oy', String(oy), dem30, join(dir, 'gdal.tif')]);
         gdalTimes.push(performance.now() - t0);
-        const t1 = performance.now();
-        const cpu0 = process.cpuUsage();
-        const loaded = await loadTerrainWindow(raster30, { lat, lon, radiusM: 20_000, allowClip: true });
-        const t2 = performance.now();
-        const result = predictArea(loaded.terrain, { mode: 'los', radiusM: 20_000, ...base });
-        const t3 = performance.now();
-        writeOnRasterGrid(join(dir, 'ours.tif'), raster30, loaded.placement, result.visible!, 'uint8', BYTE_NODATA);
-        const t4 = performance.now();
-        const cpu = process.cpuUsage(cpu0);
-        ourCpu.push((cpu.user + cpu.system) / 1000);
-        ourTimes.push(t4 - t1);
-        if (repeat === 2) Object.assign(phases, { readMs: t2 - t1, computeMs: t3 - t2, writeMs: t4 - t3 });
+        for (let v = 0; v < variants.length; v++) {
+          const t1 = performance.now();
+          const cpu0 = process.cpuUsage();
+          const loaded = await loadTerrainWindow(raster30, { lat, lon, radiusM: 20_000, allowClip: true });
+          const t2 = performance.now();
+          const request: AreaRequest = { mode: 'los', radiusM: 20_000, ...base, raySpacingCells: 0.5, sampleStepCells: 0.5 };
+          const result = (variants[v].wavefront ? viewshedWavefront(loaded.terrain, request, 20_000) : null) ?? predictArea(loaded.terrain, request);
+          const t3 = performance.now();
+          writeOnRasterGrid(join(dir, `ours${v}.tif`), raster30, loaded.placement, result.visible!, 'uint8', BYTE_NODATA, variants[v].compression);
+          const t4 = performance.now();
+          const cpu = process.cpuUsage(cpu0);
+          stats[v].cpu.push((cpu.user + cpu.system) / 1000);
+          stats[v].times.push(t4 - t1);
+          if (repeat === 2) Object.assign(stats[v].phases, { readMs: t2 - t1, computeMs: t3 - t2, writeMs: t4 - t3 });
+        }
       }
-      const ours = await openGeoRaster(join(dir, 'ours.tif'));
       const gdal = await openGeoRaster(join(dir, 'gdal.tif'));
-      const A = await ours.readWindow(0, 0, ours.widthPx, ours.heightPx);
       const B = await gdal.readWindow(0, 0, gdal.widthPx, gdal.heightPx);
       const dx = Math.round((gdal.geoTransform[0] - g[0]) / g[1]);
       const dy = Math.round((gdal.geoTransform[3] - g[3]) / g[5]);
-      for (let y = 0; y < gdal.heightPx; y++) {
-        for (let x = 0; x < gdal.widthPx; x++) {
-          const gv = B[y * gdal.widthPx + x];
-          const ov = A[(y + dy) * ours.widthPx + x + dx];
-          if (gv === 100 || ov !== ov) continue;
-          total++;
-          if (gv === ov) agree++;
+      for (let v = 0; v < variants.length; v++) {
+        const ours = await openGeoRaster(join(dir, `ours${v}.tif`));
+        const A = await ours.readWindow(0, 0, ours.widthPx, ours.heightPx);
+        const st = stats[v];
+        for (let y = 0; y < gdal.heightPx; y++) {
+          for (let x = 0; x < gdal.widthPx; x++) {
+            const gv = B[y * gdal.widthPx + x];
+            const ov = A[(y + dy) * ours.widthPx + x + dx];
+            if (gv === 100 || ov !== ov) continue;
+            st.total++;
+            if (gv === ov) st.agree++;
+          }
         }
+        await ours.close();
+        const p = st.phases;
+        log(`los vs gdal_viewshed, earshot ${variants[v].name} (30 m DEM, R = 20 km, ${st.total} cells, best of 3, each reading the DEM and writing a GeoTIFF): gdal ${best(gdalTimes).toFixed(0)} ms, earshot ${best(st.times).toFixed(0)} ms → earshot/gdal wall-time ratio ${(best(st.times) / best(gdalTimes)).toFixed(2)}; CPU time gdal ${best(gdalCpu).toFixed(0)} ms, earshot ${best(st.cpu).toFixed(0)} ms → CPU ratio ${(best(st.cpu) / best(gdalCpu)).toFixed(2)} (earshot: read ${p.readMs.toFixed(0)} ms, compute ${p.computeMs.toFixed(0)} ms, write ${p.writeMs.toFixed(0)} ms); cells agreeing ${((100 * st.agree) / st.total).toFixed(2)} %`);
       }
-      await Promise.all([ours.close(), gdal.close()]);
-      log(`los vs gdal_viewshed (30 m DEM, R = 20 km, ${total} cells, best of 3, each reading the DEM and writing a GeoTIFF): gdal ${best(gdalTimes).toFixed(0)} ms, earshot ${best(ourTimes).toFixed(0)} ms → earshot/gdal wall-time ratio ${(best(ourTimes) / best(gdalTimes)).toFixed(2)}; CPU time gdal ${best(gdalCpu).toFixed(0)} ms, earshot ${best(ourCpu).toFixed(0)} ms → CPU ratio ${(best(ourCpu) / best(gdalCpu)).toFixed(2)} (earshot: read ${phases.readMs.toFixed(0)} ms, compute ${phases.computeMs.toFixed(0)} ms, write ${phases.writeMs.toFixed(0)} ms); cells agreeing ${((100 * agree) / total).toFixed(2)} %`);
+      await gdal.close();
     } else {
       log('los vs gdal_viewshed: SKIPPED (gdal_viewshed not installed)');
+    }
+
+    // COVERAGE_BENCH=los: only the GDAL comparison above.
+    if (process.env.COVERAGE_BENCH === 'los') {
+      await raster30.close();
+      await raster90.close();
+      return;
     }
 
     // 2. Growth with radius, one thread, engine only (window already in memory).

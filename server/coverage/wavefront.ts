@@ -1,0 +1,113 @@
+// los on projected grids: a wavefront over square rings of cells around the
+// observer, visiting every cell once (O(cells), no ray buffer). Each cell's
+// horizon (largest elevation slope, from the eye, of the ground between it and
+// the observer) is interpolated from the two cells of the previous ring that
+// the sight line crosses, then extended with the cell's own ground. This is
+// the classic approximate viewshed recursion on a grid (ring order: every
+// predecessor lies one ring nearer, so it is final when read).
+//
+// Curvature and refraction as in sweep.ts: ground lowered by d²/(2·k·R).
+import { EARTH_RADIUS_M } from './geometry.ts';
+import { BYTE_NODATA } from './rasterise.ts';
+import { siteGroundM, type SweepSite, type TerrainWindow } from './sweep.ts';
+
+/** Slope used for "no horizon yet" (finite so that 0-weighted interpolation stays a number). */
+const NO_HORIZON = -1e30;
+
+/**
+ * Visibility of every window cell (1 visible, 0 hidden, 255 outside the
+ * radius or NoData) for a projected window; returns null for geographic
+ * windows (their rays are not straight in pixel space; use the ray sweep).
+ */
+export function viewshedWavefront(terrain: TerrainWindow, site: SweepSite, radiusM: number): { visible: Uint8Array; visibleCells: number } | null {
+  const f = terrain.frame;
+  if (f.kind !== 'projected') return null;
+  const w = f.widthPx;
+  const h = f.heightPx;
+  const g = f.geoTransform;
+  // Observer's fractional pixel and its cell.
+  const dxS = f.siteX - g[0];
+  const dyS = f.siteY - g[3];
+  const spx = f.inv[0] * dxS + f.inv[1] * dyS;
+  const spy = f.inv[2] * dxS + f.inv[3] * dyS;
+  const oc = Math.floor(spx);
+  const or = Math.floor(spy);
+  if (oc < 0 || or < 0 || oc >= w || or >= h) return null;
+  const eyeM = siteGroundM(terrain) + site.heightAglM;
+  const targetM = site.targetHeightAglM;
+  const dropPerM2 = 1 / (2 * site.kFactor * EARTH_RADIUS_M);
+  const elevation = terrain.elevationM;
+  // Local metres of cell centre (col, row) relative to the site: affine in col and row.
+  const e0 = g[0] + 0.5 * g[1] + 0.5 * g[2] - f.siteX;
+  const n0 = g[3] + 0.5 * g[4] + 0.5 * g[5] - f.siteY;
+  const cellM = Math.min(Math.hypot(g[1], g[4]), Math.hypot(g[2], g[5]));
+  const rings = Math.min(Math.ceil(radiusM / cellM) + 1, Math.max(oc, w - 1 - oc, or, h - 1 - or));
+  const radius2 = radiusM * radiusM;
+  // withGround[cell]: horizon slope including the cell's own ground (what farther cells see).
+  const withGround = new Float32Array(w * h);
+  const visible = new Uint8Array(w * h).fill(BYTE_NODATA);
+  let visibleCells = 0;
+  const o = or * w + oc;
+  withGround[o] = NO_HORIZON;
+  if (elevation[o] === elevation[o] && (e0 + oc * g[1] + or * g[2]) ** 2 + (n0 + oc * g[4] + or * g[5]) ** 2 <= radius2) {
+    visible[o] = 1;
+    visibleCells++;
+  }
+  for (let n = 1; n <= rings; n++) {
+    const back = (n - 1) / n;
+    // Cells of ring n: |dc| = n (left/right sides, predecessors in column oc ± (n−1)) or |dr| = n (top/bottom).
+    for (let side = 0; side < 4; side++) {
+      const vertical = side < 2; // left/right side: the ring's column is fixed
+      const sign = side % 2 === 0 ? -1 : 1;
+      const fixed = vertical ? oc + sign * n : or + sign * n;
+      if (fixed < 0 || fixed >= (vertical ? w : h)) continue;
+      // Along the side: offsets −n..n (corners belong to the left/right sides only).
+      const lo = vertical ? -n : -n + 1;
+      const hi = vertical ? n : n - 1;
+      const centre = vertical ? or : oc;
+      const limit = vertical ? h : w;
+      const startT = Math.max(lo, -centre);
+      const endT = Math.min(hi, limit - 1 - centre);
+      const prevFixed = vertical ? oc + sign * (n - 1) : or + sign * (n - 1);
+      for (let t = startT; t <= endT; t++) {
+        const col = vertical ? fixed : centre + t;
+        const row = vertical ? centre + t : fixed;
+        const cell = row * w + col;
+        // Where the sight line to this cell crosses the previous ring, and its two neighbours there.
+        const along = t * back;
+        const a0 = Math.floor(along);
+        const frac = along - a0;
+        let p0: number;
+        let p1: number;
+        if (vertical) {
+          p0 = (centre + a0) * w + prevFixed;
+          p1 = frac > 0 ? p0 + w : p0;
+        } else {
+          p0 = prevFixed * w + centre + a0;
+          p1 = frac > 0 ? p0 + 1 : p0;
+        }
+        const horizon = withGround[p0] * (1 - frac) + withGround[p1] * frac;
+        const e = e0 + col * g[1] + row * g[2];
+        const nn = n0 + col * g[4] + row * g[5];
+        const d2 = e * e + nn * nn;
+        const ground = elevation[cell];
+        if (ground !== ground) {
+          withGround[cell] = horizon;
+          continue;
+        }
+        const d = Math.sqrt(d2);
+        const lowered = ground - d2 * dropPerM2 - eyeM;
+        const slope = lowered / d;
+        withGround[cell] = slope > horizon ? slope : horizon;
+        if (d2 > radius2) continue;
+        if ((lowered + targetM) / d >= horizon) {
+          visible[cell] = 1;
+          visibleCells++;
+        } else {
+          visible[cell] = 0;
+        }
+      }
+    }
+  }
+  return { visible, visibleCells };
+}
