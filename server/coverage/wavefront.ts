@@ -69,26 +69,26 @@ export function viewshedWavefront(terrain: TerrainWindow, site: SweepSite, radiu
       const startT = Math.max(lo, -centre);
       const endT = Math.min(hi, limit - 1 - centre);
       const prevFixed = vertical ? oc + sign * (n - 1) : or + sign * (n - 1);
+      // Cell index, and local metres, as affine functions of the position u = centre + t along the side
+      // (no per-cell branch on the side's orientation).
+      const stride = vertical ? w : 1;
+      const fixedBase = vertical ? fixed : fixed * w;
+      const prevBase = vertical ? prevFixed : prevFixed * w;
+      const eFixed = e0 + (vertical ? fixed * g[1] : fixed * g[2]);
+      const nFixed = n0 + (vertical ? fixed * g[4] : fixed * g[5]);
+      const eAlong = vertical ? g[2] : g[1];
+      const nAlong = vertical ? g[5] : g[4];
       for (let t = startT; t <= endT; t++) {
-        const col = vertical ? fixed : centre + t;
-        const row = vertical ? centre + t : fixed;
-        const cell = row * w + col;
+        const u = centre + t;
+        const cell = fixedBase + u * stride;
         // Where the sight line to this cell crosses the previous ring, and its two neighbours there.
         const along = t * back;
         const a0 = Math.floor(along);
         const frac = along - a0;
-        let p0: number;
-        let p1: number;
-        if (vertical) {
-          p0 = (centre + a0) * w + prevFixed;
-          p1 = frac > 0 ? p0 + w : p0;
-        } else {
-          p0 = prevFixed * w + centre + a0;
-          p1 = frac > 0 ? p0 + 1 : p0;
-        }
-        const horizon = withGround[p0] * (1 - frac) + withGround[p1] * frac;
-        const e = e0 + col * g[1] + row * g[2];
-        const nn = n0 + col * g[4] + row * g[5];
+        const p0 = prevBase + (centre + a0) * stride;
+        const horizon = frac > 0 ? withGround[p0] * (1 - frac) + withGround[p0 + stride] * frac : withGround[p0];
+        const e = eFixed + u * eAlong;
+        const nn = nFixed + u * nAlong;
         const d2 = e * e + nn * nn;
         const ground = elevation[cell];
         if (ground !== ground) {
