@@ -210,7 +210,13 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
         document.getElementById('detail-panel')?.focus();
       });
     });
+    marker.on('dragstart', () => {
+      dragInProgress = true;
+    });
     marker.on('dragend', () => {
+      dragInProgress = false;
+      // A refresh that arrived during the drag redraws now (after the move is sent).
+      if (redrawAfterDrag) queueMicrotask(drawMarkers);
       const to = marker.getLatLng();
       const current = store.find(kind, entity.id);
       if (!current) return;
@@ -227,7 +233,16 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
     });
     return marker;
   }
+  // Redrawing replaces every marker element: doing it while the user drags one would drop
+  // the drag (no dragend, the move is lost), so a redraw waits for the drag to end.
+  let dragInProgress = false;
+  let redrawAfterDrag = false;
   function drawMarkers(): void {
+    if (dragInProgress) {
+      redrawAfterDrag = true;
+      return;
+    }
+    redrawAfterDrag = false;
     nodeLayer.clearLayers();
     gatewayLayer.clearLayers();
     siteLayer.clearLayers();
