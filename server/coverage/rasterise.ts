@@ -43,6 +43,16 @@ function geographicLocal(terrain: TerrainWindow, col: number, row: number, crs: 
   crsToLocal(terrain.frame, crs[0], crs[1], out);
 }
 
+/** Local east/north (m from the site) of cell (col, row)'s centre into out; no allocation. */
+function cellLocal(terrain: TerrainWindow, c: CellFrame, col: number, row: number, crs: number[], out: number[]): void {
+  if (c.projected) {
+    out[0] = c.e0 + col * c.eCol + row * c.eRow;
+    out[1] = c.n0 + col * c.nCol + row * c.nRow;
+  } else {
+    geographicLocal(terrain, col, row, crs, out);
+  }
+}
+
 /**
  * Index of the nearest ray sample of a cell at local (e, n), distance d (m):
  * nearest ray by azimuth, nearest sample by distance (clamped to 1..samples).
@@ -78,16 +88,9 @@ export function forEachCell(
   for (let row = rowStart; row < rowEnd; row++) {
     for (let col = 0; col < f.widthPx; col++) {
       const cell = row * f.widthPx + col;
-      let e: number;
-      let n: number;
-      if (c.projected) {
-        e = c.e0 + col * c.eCol + row * c.eRow;
-        n = c.n0 + col * c.nCol + row * c.nRow;
-      } else {
-        geographicLocal(terrain, col, row, crs, local);
-        e = local[0];
-        n = local[1];
-      }
+      cellLocal(terrain, c, col, row, crs, local);
+      const e = local[0];
+      const n = local[1];
       const d = Math.sqrt(e * e + n * n);
       if (d > plan.radiusM) outside(cell);
       else visit(cell, d, nearestSample(plan, e, n, d));
@@ -127,16 +130,9 @@ export function rasteriseLos(
   for (let row = rowStart; row < rowEnd; row++) {
     for (let col = 0; col < width; col++) {
       const cell = row * width + col;
-      let e: number;
-      let n: number;
-      if (c.projected) {
-        e = c.e0 + col * c.eCol + row * c.eRow;
-        n = c.n0 + col * c.nCol + row * c.nRow;
-      } else {
-        geographicLocal(terrain, col, row, crs, local);
-        e = local[0];
-        n = local[1];
-      }
+      cellLocal(terrain, c, col, row, crs, local);
+      const e = local[0];
+      const n = local[1];
       const d = Math.sqrt(e * e + n * n);
       const ground = elevation[cell];
       if (d > radiusM || ground !== ground) {
@@ -192,16 +188,9 @@ export function rasteriseLoss(
   for (let row = rowStart; row < rowEnd; row++) {
     for (let col = 0; col < width; col++) {
       const cell = row * width + col;
-      let e: number;
-      let n: number;
-      if (c.projected) {
-        e = c.e0 + col * c.eCol + row * c.eRow;
-        n = c.n0 + col * c.nCol + row * c.nRow;
-      } else {
-        geographicLocal(terrain, col, row, crs, local);
-        e = local[0];
-        n = local[1];
-      }
+      cellLocal(terrain, c, col, row, crs, local);
+      const e = local[0];
+      const n = local[1];
       const d = Math.sqrt(e * e + n * n);
       if (d > plan.radiusM) {
         out[cell] = Number.NaN;
