@@ -22,11 +22,14 @@ import kitRoutes from './routes/kit.ts';
 import auditRoutes from './routes/audit.ts';
 import adminRoutes from './routes/admin.ts';
 import terrainRoutes from './routes/terrain.ts';
+import { LinkEngine } from './routes/links-service.ts';
 
 declare module 'fastify' {
   interface FastifyInstance {
     /** The database, config and job runner every route plugin uses. */
     deps: AppDeps;
+    /** The link engine of this app (one per process: its terrain stores, worker threads and recent answers). */
+    linkEngine: LinkEngine;
   }
 }
 
@@ -93,6 +96,10 @@ export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {
   }).withTypeProvider<ZodTypeProvider>();
 
   app.decorate('deps', deps);
+  const linkEngine = new LinkEngine(deps.db, config);
+  app.decorate('linkEngine', linkEngine);
+  // Root onClose runs after the route plugins' own (they wait for their fleet jobs first).
+  app.addHook('onClose', async () => linkEngine.close());
   app.setValidatorCompiler(validatorCompiler);
   app.setSerializerCompiler(serializerCompiler);
   app.addHook('onSend', async (request, reply) => {

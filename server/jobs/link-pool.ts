@@ -28,7 +28,8 @@ export interface LinkPathPair {
 interface LinkPathTask {
   id: number;
   terrain: LinkTerrainSpec | null;
-  settings: LinkPathSettings;
+  /** null only in the empty readiness task. */
+  settings: LinkPathSettings | null;
   pairs: LinkPathPair[];
 }
 
@@ -58,6 +59,17 @@ export class LinkPathPool {
    */
   warm(): void {
     this.pool ??= new WorkerPool<LinkPathTask, LinkPathTaskResult>(this.size, new URL(import.meta.url));
+  }
+
+  /**
+   * Resolves once every worker has loaded its modules and answered one empty task, so a
+   * caller (the benchmark, a health check) can tell start-up cost from steady state.
+   */
+  async ready(): Promise<void> {
+    this.warm();
+    const pool = this.pool!;
+    // All workers are idle here (no fleet runs yet), so each one takes one empty task.
+    await Promise.all(Array.from({ length: this.size }, () => pool.exec({ id: this.nextId++, terrain: null, settings: null, pairs: [] })));
   }
 
   /** Paths of `pairs` in their order, spread over the workers (started on first use). */
@@ -105,7 +117,8 @@ function storeFor(spec: LinkTerrainSpec): Promise<TerrainStore> {
 async function runTask(task: LinkPathTask): Promise<LinkPathTaskResult> {
   const terrain = task.terrain ? await storeFor(task.terrain) : null;
   const paths: PathPrediction[] = [];
-  for (const pair of task.pairs) paths.push(await computeLinkPath(terrain, task.settings, pair.node, pair.gateway));
+  if (task.pairs.length > 0 && !task.settings) throw new Error('link path task without settings');
+  for (const pair of task.pairs) paths.push(await computeLinkPath(terrain, task.settings!, pair.node, pair.gateway));
   return { id: task.id, paths };
 }
 

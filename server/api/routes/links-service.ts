@@ -179,6 +179,11 @@ export class LinkEngine {
     if (this.front.size > 5000) this.front.delete(this.front.keys().next().value as string);
   }
 
+  /** Resolves when the worker threads (if any) have loaded and answered once: start-up is over. */
+  async workersReady(): Promise<void> {
+    await this.pool?.ready();
+  }
+
   /** Closes the terrain stores this engine opened. */
   async close(): Promise<void> {
     const stores = [...this.stores.values()];

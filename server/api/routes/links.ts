@@ -98,13 +98,12 @@ export function asApiError(error: unknown): never {
 
 export default async function linkRoutes(app: FastifyInstance): Promise<void> {
   const api = app.withTypeProvider<ZodTypeProvider>();
-  const { db, config } = app.deps;
-  const engine = new LinkEngine(db, config);
+  const { db } = app.deps;
+  const engine = app.linkEngine;
   const running = new Set<Promise<void>>();
   const processId = `${hostname()}:${process.pid}:${Date.now()}`;
   app.addHook('onClose', async () => {
     await Promise.allSettled([...running]);
-    await engine.close();
   });
   const tags = ['links'];
 
