@@ -65,7 +65,13 @@ async function parseError(response: Response): Promise<ApiError> {
   return new ApiError(response.status, code, message, detail);
 }
 
-export async function request<T>(method: string, path: string, body?: unknown, rawContentType?: string): Promise<T> {
+/** True for the rejection of a request that was aborted on purpose (its view went away). */
+export function isAbort(err: unknown): boolean {
+  return err instanceof DOMException && err.name === 'AbortError';
+}
+
+/** One call to the API. `signal` aborts it (e.g. the node it asks about was deleted or closed). */
+export async function request<T>(method: string, path: string, body?: unknown, rawContentType?: string, signal?: AbortSignal): Promise<T> {
   const hdrs = headers(body !== undefined && !rawContentType);
   if (rawContentType) hdrs['content-type'] = rawContentType;
   const response = await fetch(`${base}${path}`, {
@@ -73,6 +79,7 @@ export async function request<T>(method: string, path: string, body?: unknown, r
     credentials: 'same-origin',
     headers: hdrs,
     body: body === undefined ? undefined : rawContentType ? String(body) : JSON.stringify(body),
+    signal,
   });
   if (!response.ok) throw await parseError(response);
   if (response.status === 204) return undefined as T;
@@ -319,11 +326,11 @@ export interface KitPreview {
   feedlineId?: string;
   feedlineLengthM?: number;
 }
-export function getNodeLinks(planId: string, nodeId: string, preview?: KitPreview): Promise<NodeLinks> {
+export function getNodeLinks(planId: string, nodeId: string, preview?: KitPreview, signal?: AbortSignal): Promise<NodeLinks> {
   const q = new URLSearchParams();
   for (const [key, value] of Object.entries(preview ?? {})) if (value !== undefined) q.set(key, String(value));
   const query = q.toString();
-  return request<NodeLinks>('GET', `/plans/${planId}/nodes/${nodeId}/links${query ? `?${query}` : ''}`);
+  return request<NodeLinks>('GET', `/plans/${planId}/nodes/${nodeId}/links${query ? `?${query}` : ''}`, undefined, undefined, signal);
 }
 
 export interface ProfilePoint {
@@ -378,8 +385,8 @@ export interface LinkCheck {
   cautions: string[];
   warnings: string[];
 }
-export const getLinkCheck = (planId: string, nodeId: string): Promise<LinkCheck> =>
-  request<LinkCheck>('GET', `/plans/${planId}/nodes/${nodeId}/check`);
+export const getLinkCheck = (planId: string, nodeId: string, signal?: AbortSignal): Promise<LinkCheck> =>
+  request<LinkCheck>('GET', `/plans/${planId}/nodes/${nodeId}/check`, undefined, undefined, signal);
 
 export interface RecommendRequest {
   targetMarginDb?: number;
@@ -415,8 +422,8 @@ export interface Recommendation {
   warnings: string[];
   target: { targetMarginDb: number; targetDelivery: number };
 }
-export const recommend = (planId: string, nodeId: string, body: RecommendRequest): Promise<Recommendation> =>
-  request<Recommendation>('POST', `/plans/${planId}/nodes/${nodeId}/recommend`, body);
+export const recommend = (planId: string, nodeId: string, body: RecommendRequest, signal?: AbortSignal): Promise<Recommendation> =>
+  request<Recommendation>('POST', `/plans/${planId}/nodes/${nodeId}/recommend`, body, undefined, signal);
 
 export const visitSheetUrl = (planId: string, nodeId: string): string => `${base}/plans/${planId}/nodes/${nodeId}/visit-sheet`;
 export interface BuildSheet {
@@ -597,3 +604,11 @@ export interface Me {
   role: 'planner' | 'installer' | 'viewer';
 }
 export const getMe = (): Promise<Me> => request<Me>('GET', '/me');
+
+// ---------- client settings ----------
+
+export interface ClientSettings {
+  /** Optional online tile layer (EARSHOT_BASE_LAYER_URL on the server); null = offline only. */
+  onlineBaseLayer: { urlTemplate: string; attribution?: string } | null;
+}
+export const getClientSettings = (): Promise<ClientSettings> => request<ClientSettings>('GET', '/client-settings');

@@ -41,7 +41,20 @@ export class PlanStore {
   /** Why the fleet status is missing, if it is (e.g. the links API is not deployed yet). */
   fleetProblem: string | null = null;
   undoStack: UndoEntry[] = [];
+  /** Resolves when the latest fleet-status refresh (started after a write) has been applied. */
+  fleetRefresh: Promise<void> = Promise.resolve();
   private listeners = new Set<() => void>();
+  /**
+   * Generation counters. Every local write bumps `writeGen`; a plan load that started before a
+   * write would bring back the objects as they were (e.g. a node just deleted), so its lists are
+   * thrown away and it reads again. `loadSeq` / `fleetSeq` number the loads: only the newest
+   * one's answer is applied (an older answer arriving late is stale).
+   */
+  private writeGen = 0;
+  private loadSeq = 0;
+  private fleetSeq = 0;
+  /** Old id → new id of objects an undo re-created (a re-created object gets a new id). */
+  private recreated = new Map<string, string>();
 
   constructor(planId: string) {
     this.planId = planId;
@@ -55,31 +68,55 @@ export class PlanStore {
     for (const l of this.listeners) l();
   }
 
-  async load(): Promise<void> {
-    const [plan, nodes, gateways, sites, catalog] = await Promise.all([
-      getPlan(this.planId),
-      listEntities<FleetNode>(this.planId, 'nodes'),
-      listEntities<Gateway>(this.planId, 'gateways'),
-      listEntities<Site>(this.planId, 'sites'),
-      getCatalog().catch(() => ({ antennas: [], feedlines: [], masts: [] }) as Catalog),
-    ]);
-    this.plan = plan;
-    this.nodes = nodes;
-    this.gateways = gateways;
-    this.sites = sites;
-    this.catalog = catalog;
+  /** Reads the plan and all its objects, then the fleet status. Returns false when a newer load superseded it. */
+  async load(): Promise<boolean> {
+    const mine = ++this.loadSeq;
+    for (let attempt = 0; ; attempt++) {
+      const gen = this.writeGen;
+      const [plan, nodes, gateways, sites, catalog] = await Promise.all([
+        getPlan(this.planId),
+        listEntities<FleetNode>(this.planId, 'nodes'),
+        listEntities<Gateway>(this.planId, 'gateways'),
+        listEntities<Site>(this.planId, 'sites'),
+        getCatalog().catch(() => ({ antennas: [], feedlines: [], masts: [] }) as Catalog),
+      ]);
+      if (mine !== this.loadSeq) return false;
+      // A local write landed while the lists were read: they may predate it. Read again
+      // (bounded: after a few tries the store keeps what it has and says nothing changed).
+      if (gen !== this.writeGen) {
+        if (attempt < 3) continue;
+        return false;
+      }
+      this.plan = plan;
+      this.nodes = nodes;
+      this.gateways = gateways;
+      this.sites = sites;
+      this.catalog = catalog;
+      break;
+    }
     await this.loadFleet();
+    return mine === this.loadSeq;
   }
 
   async loadFleet(): Promise<void> {
+    const mine = ++this.fleetSeq;
     try {
       const table = await getFleet(this.planId);
+      if (mine !== this.fleetSeq) return; // a newer refresh was started: this answer is stale
       this.fleet = new Map(table.items.map((row) => [row.nodeId, row]));
       this.fleetProblem = null;
     } catch (err) {
+      if (mine !== this.fleetSeq) return;
       this.fleet = new Map();
       this.fleetProblem = err instanceof ApiError && err.notAvailable ? 'link predictions are not available on this server yet' : `link predictions failed: ${err instanceof Error ? err.message : String(err)}`;
     }
+  }
+
+  /** The current id of an object, following re-creations by undo. */
+  currentId(id: string): string {
+    let current = id;
+    for (let hops = 0; hops < 50 && this.recreated.has(current); hops++) current = this.recreated.get(current) as string;
+    return current;
   }
 
   list(kind: EntityKind): Entity[] {
@@ -105,12 +142,14 @@ export class PlanStore {
   }
 
   async create(kind: EntityKind, body: Record<string, unknown>, recordUndo = true): Promise<Entity> {
+    this.writeGen++;
     const created = await createEntity<Entity>(this.planId, kind, body);
+    this.writeGen++;
     this.put(kind, created);
     if (recordUndo) {
-      this.pushUndo({ label: `added ${kindLabel[kind]} ${created.name}`, run: () => this.remove(kind, created.id, false) });
+      this.pushUndo({ label: `added ${kindLabel[kind]} ${created.name}`, run: () => this.remove(kind, this.currentId(created.id), false) });
     }
-    await this.afterWrite(kind);
+    this.afterWrite(kind);
     return created;
   }
 
@@ -120,26 +159,37 @@ export class PlanStore {
     const beforeRecord = before as unknown as Record<string, unknown>;
     const previous: Record<string, unknown> = {};
     for (const key of Object.keys(changes)) previous[key] = beforeRecord[key] ?? null;
+    this.writeGen++;
     const updated = await updateEntity<Entity>(this.planId, kind, id, { ...changes, version: before.version });
+    this.writeGen++;
     this.put(kind, updated);
     if (recordUndo) {
-      this.pushUndo({ label: label ?? `edited ${kindLabel[kind]} ${updated.name}`, run: () => this.update(kind, id, previous, false).then(() => undefined) });
+      this.pushUndo({ label: label ?? `edited ${kindLabel[kind]} ${updated.name}`, run: () => this.update(kind, this.currentId(id), previous, false).then(() => undefined) });
     }
-    await this.afterWrite(kind);
+    this.afterWrite(kind);
     return updated;
   }
 
   async remove(kind: EntityKind, id: string, recordUndo = true): Promise<void> {
     const before = this.find(kind, id);
     if (!before) return;
+    this.writeGen++;
     await deleteEntity(this.planId, kind, id);
+    this.writeGen++;
     this.drop(kind, id);
     if (recordUndo) {
       const copy: Record<string, unknown> = {};
       for (const [key, value] of Object.entries(before)) if (!serverFields.has(key) && value !== null) copy[key] = value;
-      this.pushUndo({ label: `deleted ${kindLabel[kind]} ${before.name}`, run: () => this.create(kind, copy, false).then(() => undefined) });
+      this.pushUndo({
+        label: `deleted ${kindLabel[kind]} ${before.name}`,
+        run: async () => {
+          // The server gives the re-created object a new id; older undo entries follow it.
+          const again = await this.create(kind, copy, false);
+          this.recreated.set(id, again.id);
+        },
+      });
     }
-    await this.afterWrite(kind);
+    this.afterWrite(kind);
   }
 
   async undo(): Promise<string | null> {
@@ -149,20 +199,20 @@ export class PlanStore {
     return entry.label;
   }
 
-  private async afterWrite(kind: EntityKind): Promise<void> {
-    // Show the change at once; then refresh the statuses (link predictions depend on
-    // nodes, gateways and kit, and recomputing them can take seconds).
+  private afterWrite(kind: EntityKind): void {
+    // Show the change at once; then refresh the statuses in the background (link predictions
+    // depend on nodes, gateways and kit, and recomputing them can take seconds). The write
+    // itself is done: the caller need not wait (the next edit or an undo may start now);
+    // an older refresh answering after a newer one is ignored (loadFleet's counter).
     this.changed();
     if (kind !== 'sites') {
-      await this.loadFleet();
-      this.changed();
+      this.fleetRefresh = this.loadFleet().then(() => this.changed());
     }
   }
 
-  /** Reloads one object after a conflict so the map shows the stored state. */
+  /** Reloads the whole plan after a conflict or an import so the map shows the stored state. */
   async reloadAll(): Promise<void> {
-    await this.load();
-    this.changed();
+    if (await this.load()) this.changed();
   }
 }
 

@@ -3,7 +3,7 @@
 // overlays; planner editing (add, drag, edit, delete, import, undo); the
 // side panel shows the selected object (the node panel has the link check).
 import * as L from 'leaflet';
-import { ApiError, hillshadeTileUrl, listTerrain, type Entity, type EntityKind, type FleetNode } from '../api.ts';
+import { ApiError, getClientSettings, hillshadeTileUrl, listTerrain, type ClientSettings, type Entity, type EntityKind, type FleetNode } from '../api.ts';
 import { explainWriteError, PlanStore } from '../plan-store.ts';
 import type { Route } from '../router.ts';
 import { canEdit } from '../session.ts';
@@ -48,16 +48,31 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
   } catch (err) {
     terrainNote = `Terrain layers: ${errorText(err)}.`;
   }
-  const onlineUrl = typeof store.plan.onlineBaseLayerUrl === 'string' ? store.plan.onlineBaseLayerUrl : null;
-  const online = onlineUrl ? L.tileLayer(onlineUrl, { maxZoom: 19, attribution: 'Configured online base layer' }) : null;
+  // An online base layer only when the server is configured with one (EARSHOT_BASE_LAYER_URL,
+  // handed over by GET /client-settings); offered as a toggle, off by default.
+  let settings: ClientSettings = { onlineBaseLayer: null };
+  try {
+    settings = await getClientSettings();
+  } catch {
+    // An older server without the route: offline only, as by default.
+  }
+  const onlineLayer = settings.onlineBaseLayer;
+  const online = onlineLayer ? L.tileLayer(onlineLayer.urlTemplate, { maxZoom: 19, attribution: onlineLayer.attribution ?? 'Online base layer (configured on the server)' }) : null;
 
   const nodeLayer = L.layerGroup().addTo(map);
   const gatewayLayer = L.layerGroup().addTo(map);
   const siteLayer = L.layerGroup().addTo(map);
   // Redundancy composite per node: how many gateways hear it (margin ≥ 0 dB), from the fleet table.
   const redundancyLayer = L.layerGroup();
-  const markers = new Map<string, L.Marker>();
+  /** One marker per object, keyed `kind:id`; `look` is what it was drawn from (redrawn only when it changes). */
+  const markers = new Map<string, { marker: L.Marker; look: string }>();
   let selected: { kind: EntityKind; id: string } | null = null;
+  /** Aborts the open node panel's requests (links, check, recommendation, kit preview). */
+  let panelRequests: AbortController | null = null;
+  const abortPanelRequests = (): void => {
+    panelRequests?.abort();
+    panelRequests = null;
+  };
   /** id:version of the object the detail panel shows, to re-render it when it changes. */
   let shownVersion = '';
 
@@ -157,7 +172,13 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
   } else {
     tools.append(h('p', { class: 'muted' }, 'Your role can read this plan; only planners edit it.'));
   }
+  // One undo at a time: a second click while the first runs would undo two changes (or
+  // re-create a deleted object twice).
+  let undoing = false;
   undoButton.addEventListener('click', () => {
+    if (undoing) return;
+    undoing = true;
+    undoButton.disabled = true;
     void store
       .undo()
       .then((label) => {
@@ -166,6 +187,10 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
       })
       .catch((err: unknown) => {
         toolStatus.textContent = explainWriteError(err, store, 'the undo');
+      })
+      .finally(() => {
+        undoing = false;
+        undoButton.disabled = store.undoStack.length === 0;
       });
   });
 
@@ -175,6 +200,11 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
 
   // ---------- markers ----------
   const draggable = canEdit();
+  /** What a marker shows: it is replaced only when this changes. */
+  function lookOf(kind: EntityKind, entity: Entity): string {
+    const isSel = selected?.kind === kind && selected.id === entity.id;
+    return [entity.lat, entity.lon, entity.name, kind === 'nodes' ? nodeClass(store, entity.id) : '', isSel].join('|');
+  }
   function markerFor(kind: EntityKind, entity: Entity): L.Marker {
     let html: string;
     let size: [number, number];
@@ -243,11 +273,7 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
       return;
     }
     redrawAfterDrag = false;
-    nodeLayer.clearLayers();
-    gatewayLayer.clearLayers();
-    siteLayer.clearLayers();
     redundancyLayer.clearLayers();
-    markers.clear();
     for (const n of store.nodes) {
       const heard = store.fleet.get(n.id)?.gatewaysHeard;
       if (heard === undefined) continue;
@@ -260,24 +286,43 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
         zIndexOffset: 3000,
       }).addTo(redundancyLayer);
     }
+    // Idempotent by id: one marker per object; an unchanged object keeps its marker (and its
+    // element, focus and hover state), a changed one is replaced, a vanished one removed.
+    // However often and in whatever order redraws run, the map shows exactly the store's objects.
     const layerOf: Record<EntityKind, L.LayerGroup> = { nodes: nodeLayer, gateways: gatewayLayer, sites: siteLayer };
+    const wanted = new Set<string>();
     for (const kind of ['sites', 'nodes', 'gateways'] as EntityKind[]) {
       for (const entity of store.list(kind)) {
+        const key = `${kind}:${entity.id}`;
+        if (wanted.has(key)) continue;
+        wanted.add(key);
+        const look = lookOf(kind, entity);
+        const existing = markers.get(key);
+        if (existing && existing.look === look) continue;
+        if (existing) layerOf[kind].removeLayer(existing.marker);
         const m = markerFor(kind, entity);
         m.addTo(layerOf[kind]);
-        markers.set(`${kind}:${entity.id}`, m);
+        markers.set(key, { marker: m, look });
       }
+    }
+    for (const [key, { marker }] of markers) {
+      if (wanted.has(key)) continue;
+      const kind = key.slice(0, key.indexOf(':')) as EntityKind;
+      layerOf[kind].removeLayer(marker);
+      markers.delete(key);
     }
     const c = { served: 0, marginal: 0, unserved: 0, unknown: 0 };
     for (const n of store.nodes) c[nodeClass(store, n.id)] += 1;
     counts.textContent = `${store.nodes.length} nodes: ${c.served} served, ${c.marginal} marginal, ${c.unserved} unserved${c.unknown ? `, ${c.unknown} not predicted` : ''} · ${store.gateways.length} gateways · ${store.sites.length} candidate sites`;
-    undoButton.disabled = store.undoStack.length === 0;
+    undoButton.disabled = undoing || store.undoStack.length === 0;
     undoButton.textContent = store.undoStack.length ? `Undo: ${store.undoStack[store.undoStack.length - 1].label}` : 'Undo last change';
     fillFinder();
   }
 
   // ---------- selection and detail panel ----------
   function select(kind: EntityKind, id: string, pan: boolean): void {
+    // The panel shown so far goes away: its requests are no longer wanted.
+    abortPanelRequests();
     selected = { kind, id };
     const entity = store.find(kind, id);
     shownVersion = entity ? `${entity.id}:${entity.version}` : '';
@@ -289,10 +334,17 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
     if (kind === 'nodes') {
       const url = new URL(location.href);
       history.replaceState(null, '', `${url.pathname}#/plan/${encodeURIComponent(planId)}?node=${encodeURIComponent(id)}`);
-      void renderNodePanel(detail, store, entity as FleetNode, {
-        onEdit: () => edit(kind, id),
-        onDelete: () => remove(kind, id),
-      });
+      panelRequests = new AbortController();
+      void renderNodePanel(
+        detail,
+        store,
+        entity as FleetNode,
+        {
+          onEdit: () => edit(kind, id),
+          onDelete: () => remove(kind, id),
+        },
+        panelRequests.signal,
+      );
     } else {
       append(
         detail,
@@ -344,17 +396,28 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
             {
               type: 'button',
               class: 'danger',
-              onclick: () => {
+              onclick: (event: Event) => {
+                const button = event.currentTarget as HTMLButtonElement;
+                button.disabled = true;
+                const wasOpen = selected?.kind === kind && selected.id === id;
+                // Stop the open panel's requests before the object goes: answered after the
+                // delete they would be 404s for an id that no longer exists.
+                if (wasOpen) abortPanelRequests();
                 void store
                   .remove(kind, id)
                   .then(() => {
                     close();
-                    selected = null;
-                    clear(detail);
+                    if (selected?.kind === kind && selected.id === id) {
+                      selected = null;
+                      clear(detail);
+                    }
                     announce(`Deleted ${entity.name}`);
                   })
                   .catch((err: unknown) => {
+                    button.disabled = false;
                     status.textContent = explainWriteError(err, store, `${kindLabel[kind]} ${entity.name}`);
+                    // Not deleted: show the panel again (its requests were stopped).
+                    if (wasOpen && store.find(kind, id)) select(kind, id, false);
                   });
               },
             },
@@ -380,6 +443,7 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
     if (!selected) return;
     const current = store.find(selected.kind, selected.id);
     if (!current) {
+      abortPanelRequests();
       selected = null;
       clear(detail);
     } else if (`${current.id}:${current.version}` !== shownVersion) {
@@ -396,6 +460,7 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
   if (route.nodeId && store.find('nodes', route.nodeId)) select('nodes', route.nodeId, true);
 
   return () => {
+    abortPanelRequests();
     stopCoverage();
     unsubscribe();
     document.removeEventListener('keydown', onKey);

@@ -4,6 +4,7 @@
 // feedline, the server's recommendation, and the visit sheet.
 import {
   ApiError,
+  isAbort,
   getLinkCheck,
   getNodeLinks,
   recommend,
@@ -44,7 +45,12 @@ export function kitLabel(store: PlanStore, kit: { antennaDesignId?: string | nul
   ].join(' · ');
 }
 
-export async function renderNodePanel(panel: HTMLElement, store: PlanStore, node: FleetNode, actions: Actions): Promise<void> {
+/**
+ * Fills the panel for one node. `signal` is aborted by the map when the panel goes away (the
+ * node is deleted, deselected or another object opens): the panel's requests stop then, and
+ * answers that still arrive are not drawn.
+ */
+export async function renderNodePanel(panel: HTMLElement, store: PlanStore, node: FleetNode, actions: Actions, signal: AbortSignal = new AbortController().signal): Promise<void> {
   const status: NodeClass = store.fleet.get(node.id)?.status ?? 'unknown';
   panel.append(
     h('h2', { id: 'node-panel-title' }, symbolElement(nodeSymbolSvg(status, 18), ''), ` Node ${node.name}`),
@@ -79,29 +85,42 @@ export async function renderNodePanel(panel: HTMLElement, store: PlanStore, node
   const cautionsBox = h('div', {}, cautionsBlock());
   panel.append(linksBox, profileBox, kitBox, recBox, cautionsBox);
 
-  renderKitChooser(kitBox, store, node);
-  // The three requests run side by side; each fills its own box when it answers.
-  await Promise.all([
-    getNodeLinks(store.planId, node.id).then(
-      (links) => renderLinks(linksBox, store, links),
+  renderKitChooser(kitBox, store, node, signal);
+  // The three requests run side by side; each fills its own box when it answers (unless
+  // the panel was closed meanwhile: then the answer, or the abort, is dropped quietly).
+  const settle = <T>(work: Promise<T>, done: (value: T) => void, failed: (err: unknown) => void): Promise<void> =>
+    work.then(
+      (value) => {
+        if (!signal.aborted) done(value);
+      },
       (err: unknown) => {
+        if (!signal.aborted && !isAbort(err)) failed(err);
+      },
+    );
+  await Promise.all([
+    settle(
+      getNodeLinks(store.planId, node.id, undefined, signal),
+      (links) => renderLinks(linksBox, store, links),
+      (err) => {
         clear(linksBox);
         linksBox.append(h('h3', { id: 'links-h' }, 'Links to gateways'), notAvailable(err, 'Link prediction'));
       },
     ),
-    getLinkCheck(store.planId, node.id).then(
+    settle(
+      getLinkCheck(store.planId, node.id, signal),
       (check) => {
         renderProfile(profileBox, check);
         cautionsBox.replaceChildren(cautionsBlock(check.cautions));
       },
-      (err: unknown) => {
+      (err) => {
         clear(profileBox);
         profileBox.append(h('h3', { id: 'profile-h' }, 'Path profile (best link)'), notAvailable(err, 'The link check'));
       },
     ),
-    recommend(store.planId, node.id, {}).then(
+    settle(
+      recommend(store.planId, node.id, {}, signal),
       (rec) => renderRecommendation(recBox, store, rec),
-      (err: unknown) => {
+      (err) => {
         clear(recBox);
         recBox.append(h('h3', { id: 'rec-h' }, 'Recommended kit'), notAvailable(err, 'The kit recommendation'));
       },
@@ -193,7 +212,7 @@ function mastFor(store: PlanStore, heightM: number): MastOption | null {
   return store.catalog.masts.filter((m) => m.heightM >= heightM - 1e-9).sort((a, b) => (a.costUsd ?? 0) - (b.costUsd ?? 0))[0] ?? null;
 }
 
-function renderKitChooser(box: HTMLElement, store: PlanStore, node: FleetNode): void {
+function renderKitChooser(box: HTMLElement, store: PlanStore, node: FleetNode, signal: AbortSignal): void {
   box.append(h('h3', { id: 'kit-h' }, 'Try another kit'));
   if (store.catalog.antennas.length === 0) {
     box.append(notice('info', 'The kit catalog is empty or not available on this server yet.'));
@@ -227,6 +246,7 @@ function renderKitChooser(box: HTMLElement, store: PlanStore, node: FleetNode): 
   );
   let seq = 0;
   const evaluate = async (): Promise<void> => {
+    if (signal.aborted) return;
     const mine = ++seq;
     const heightM = Number(height.value);
     const lengthM = Number(feedLength.value || 0);
@@ -237,8 +257,8 @@ function renderKitChooser(box: HTMLElement, store: PlanStore, node: FleetNode): 
     out.classList.add('busy');
     const preview: KitPreview = { antennaDesignId: antenna.value, antennaHeightAglM: heightM, feedlineId: feedline.value, feedlineLengthM: feedline.value === 'none' ? 0 : lengthM };
     try {
-      const result = await getNodeLinks(store.planId, node.id, preview);
-      if (mine !== seq) return;
+      const result = await getNodeLinks(store.planId, node.id, preview, signal);
+      if (mine !== seq || signal.aborted) return;
       const best = result.links.find((l) => l.gatewayId === result.bestGatewayId) ?? result.links[0];
       const ant = store.catalog.antennas.find((a) => a.id === antenna.value);
       const fl = store.catalog.feedlines.find((f) => f.id === feedline.value);
@@ -293,7 +313,7 @@ function renderKitChooser(box: HTMLElement, store: PlanStore, node: FleetNode): 
         ),
       );
     } catch (err) {
-      if (mine !== seq) return;
+      if (mine !== seq || signal.aborted || isAbort(err)) return;
       out.replaceChildren(notAvailable(err, 'Predicting this kit'));
     } finally {
       if (mine === seq) out.classList.remove('busy');
@@ -302,8 +322,9 @@ function renderKitChooser(box: HTMLElement, store: PlanStore, node: FleetNode): 
   let timer: number | undefined;
   const schedule = (): void => {
     window.clearTimeout(timer);
-    timer = window.setTimeout(() => void evaluate(), 250);
+    if (!signal.aborted) timer = window.setTimeout(() => void evaluate(), 250);
   };
+  signal.addEventListener('abort', () => window.clearTimeout(timer), { once: true });
   antenna.addEventListener('change', schedule);
   feedline.addEventListener('change', () => {
     if (feedline.value !== 'none' && Number(feedLength.value || 0) === 0) feedLength.value = String(Number(height.value) + 1);

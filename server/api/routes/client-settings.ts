@@ -1,0 +1,37 @@
+// GET /api/v1/client-settings: what the map front end needs from the server's
+// configuration. Today only the optional online base layer (EARSHOT_BASE_LAYER_URL,
+// config.onlineBaseLayerUrl): null unless configured, so the map stays offline by default.
+// Every signed-in role may read it (the auth hook refuses anonymous callers with 401).
+import type { FastifyInstance } from 'fastify';
+import type { ZodTypeProvider } from 'fastify-type-provider-zod';
+import { z } from 'zod';
+
+export const clientSettingsResponse = z.object({
+  onlineBaseLayer: z
+    .object({
+      /** XYZ tile URL template with {z}/{x}/{y} (and optionally {s}), as configured. */
+      urlTemplate: z.string(),
+      attribution: z.string().optional(),
+    })
+    .nullable(),
+});
+export type ClientSettings = z.infer<typeof clientSettingsResponse>;
+
+export default async function clientSettingsRoutes(app: FastifyInstance): Promise<void> {
+  const { config } = app.deps;
+  app.withTypeProvider<ZodTypeProvider>().get(
+    '/client-settings',
+    {
+      schema: {
+        summary: 'Settings the map front end reads at start (online base layer: null = offline only)',
+        tags: ['client'],
+        response: { 200: clientSettingsResponse },
+      },
+    },
+    async (): Promise<ClientSettings> => {
+      const urlTemplate = config.onlineBaseLayerUrl;
+      // The config has no attribution setting yet: none is sent (the map labels the layer itself).
+      return { onlineBaseLayer: urlTemplate ? { urlTemplate } : null };
+    },
+  );
+}
