@@ -63,7 +63,9 @@ describe('map front end (chromium)', () => {
     await expect.poll(() => page.locator('.marker-nodes').count(), { timeout: 30_000 }).toBeGreaterThanOrEqual(40);
     expect(await page.locator('.marker-gateways').count()).toBeGreaterThanOrEqual(1);
     expect(await page.locator('.marker-sites').count()).toBeGreaterThanOrEqual(3);
-    // The base layer is the plan's own hillshade, served by the local server.
+    // The base layer is the plan's own hillshade, served by the local server; with no
+    // EARSHOT_BASE_LAYER_URL (GET /client-settings says null) there is no online layer toggle.
+    expect(await page.getByLabel('Online base layer').count()).toBe(0);
     await expect.poll(() => page.locator('img.leaflet-tile-loaded[src*="/terrain/tiles/"]').count(), { timeout: 30_000 }).toBeGreaterThan(0);
     await expect.poll(() => textOf('#fleet-counts'), { timeout: 30_000 }).toMatch(/\d+ served/);
     await page.waitForTimeout(300);
@@ -317,22 +319,57 @@ describe('map front end (chromium)', () => {
     watch.assertClean();
   });
 
-  it('coverage: a run shows its progress, then the overlay and its legend', async () => {
-    const gateways = await page.locator('#coverage-gateway option').evaluateAll((els) => els.map((e) => (e as HTMLOptionElement).value));
-    await page.locator('#coverage-gateway').selectOption(gateways.find((v) => v !== '') ?? '');
-    await page.locator('#coverage-mode').selectOption('fast');
-    await page.locator('#coverage-radius').fill('3');
-    await page.locator('#coverage-start').click();
-    // Progress: the bar appears while the run is queued or running.
-    await page.locator('#coverage-progress').waitFor({ state: 'attached', timeout: 15_000 });
-    await page.locator('#coverage-run').screenshot({ path: 'test-artefacts/screenshots/06-coverage-progress.png' });
-    await expect.poll(() => textOf('#coverage-state'), { timeout: 120_000 }).toContain('finished');
-    await expect.poll(() => page.locator('img.leaflet-tile-loaded[src*="/coverage/"]').count(), { timeout: 20_000 }).toBeGreaterThan(0);
-    expect(await page.locator('#coverage-legend li').count()).toBeGreaterThan(1);
-    await page.locator('#coverage-opacity').fill('0.4');
-    await page.waitForTimeout(400);
-    await screenshot(page, '07-coverage-overlay');
-    watch.assertClean();
+  it('coverage: a run shows its progress (server-sent events, polling when the stream drops), then the overlay and its legend', async () => {
+    // Which requests follow the runs: the event stream or GET .../coverage/<id> polls.
+    const streams: string[] = [];
+    const polls: string[] = [];
+    const onRequest = (request: { url(): string }): void => {
+      const path = new URL(request.url()).pathname;
+      const events = /\/coverage\/([^/]+)\/events$/.exec(path);
+      if (events) streams.push(events[1]);
+      const poll = /\/coverage\/([^/.]+)$/.exec(path);
+      if (poll && poll[1] !== 'legend') polls.push(poll[1]);
+    };
+    page.on('request', onRequest);
+    const runIdOf = async (): Promise<string> => {
+      const response = await page.waitForResponse((r) => r.request().method() === 'POST' && /\/coverage$/.test(new URL(r.url()).pathname));
+      return ((await response.json()) as { id: string }).id;
+    };
+    try {
+      const gateways = await page.locator('#coverage-gateway option').evaluateAll((els) => els.map((e) => (e as HTMLOptionElement).value));
+      await page.locator('#coverage-gateway').selectOption(gateways.find((v) => v !== '') ?? '');
+      await page.locator('#coverage-mode').selectOption('fast');
+      await page.locator('#coverage-radius').fill('3');
+      const firstRun = runIdOf();
+      await page.locator('#coverage-start').click();
+      const first = await firstRun;
+      // Progress: the bar appears while the run is queued or running.
+      await page.locator('#coverage-progress').waitFor({ state: 'attached', timeout: 15_000 });
+      await page.locator('#coverage-run').screenshot({ path: 'test-artefacts/screenshots/06-coverage-progress.png' });
+      await expect.poll(() => textOf('#coverage-state'), { timeout: 120_000 }).toContain('finished');
+      await expect.poll(() => page.locator('img.leaflet-tile-loaded[src*="/coverage/"]').count(), { timeout: 20_000 }).toBeGreaterThan(0);
+      expect(await page.locator('#coverage-legend li').count()).toBeGreaterThan(1);
+      // Followed by its event stream: one stream, and one read of the finished run (no polling).
+      expect(streams.filter((id) => id === first).length).toBe(1);
+      expect(polls.filter((id) => id === first).length).toBeLessThanOrEqual(1);
+      await page.locator('#coverage-opacity').fill('0.4');
+      await page.waitForTimeout(400);
+      await screenshot(page, '07-coverage-overlay');
+      // The stream drops at once (an empty event stream that closes): the panel falls back to polling.
+      await page.route('**/api/v1/plans/*/coverage/*/events', (route) => route.fulfill({ status: 200, contentType: 'text/event-stream', body: ': closed by the test\n\n' }));
+      await page.locator('#coverage-radius').fill('2');
+      const secondRun = runIdOf();
+      await page.locator('#coverage-start').click();
+      const second = await secondRun;
+      await expect.poll(() => textOf('#coverage-state'), { timeout: 120_000 }).toContain('finished');
+      expect(streams.filter((id) => id === second).length).toBe(1);
+      expect(polls.filter((id) => id === second).length).toBeGreaterThanOrEqual(1);
+      await expect.poll(() => page.locator('img.leaflet-tile-loaded[src*="/coverage/"]').count(), { timeout: 20_000 }).toBeGreaterThan(0);
+      watch.assertClean();
+    } finally {
+      page.off('request', onRequest);
+      await page.unroute('**/api/v1/plans/*/coverage/*/events');
+    }
   });
 
   it('fleet table: sorts, filters by status and links back to the map', async () => {
@@ -397,6 +434,25 @@ describe('map front end (chromium)', () => {
       expect(await p.locator('#reading-saved').textContent()).toContain('-108.5 dBm');
       await p.locator('#reading-form').scrollIntoViewIfNeeded();
       await screenshot(p, '11-installer-reading-saved');
+      // The installer sets the node's install status (installers may change installStatus).
+      const installNodeId = decodeURIComponent(/\/install\/([^/?]+)/.exec(p.url())?.[1] ?? '');
+      expect(installNodeId).not.toBe('');
+      await p.getByLabel('Install status of this node').selectOption('installed');
+      await p.getByRole('button', { name: 'Save install status' }).click();
+      await expect.poll(() => p.locator('#install-status-result').textContent(), { timeout: 20_000 }).toContain('now installed');
+      expect(await p.locator('#install-status-line').textContent()).toContain('install status: installed');
+      const stored = await p.evaluate(
+        async ([plan, node]) => {
+          const token = sessionStorage.getItem('earshot.token') ?? '';
+          const r = await fetch(`/api/v1/plans/${plan}/nodes/${node}`, { headers: { authorization: `Bearer ${token}` } });
+          return ((await r.json()) as { installStatus: string }).installStatus;
+        },
+        [planId, installNodeId],
+      );
+      expect(stored).toBe('installed');
+      await p.locator('#install-status').scrollIntoViewIfNeeded();
+      await screenshot(p, '12-installer-status-saved');
+      expect(await accessibilityProblems(p, 'main')).toEqual([]);
       // The layout fits the phone: no horizontal scrolling.
       const overflow = await p.evaluate(() => document.documentElement.scrollWidth - document.documentElement.clientWidth);
       expect(overflow).toBeLessThanOrEqual(0);

@@ -52,7 +52,7 @@ export async function startServer(timeoutMs = 150_000): Promise<RunningServer> {
   const env: NodeJS.ProcessEnv = { ...process.env, EARSHOT_DATA_DIR: dataDir, PORT: String(port), HOST: '127.0.0.1', NODE_ENV: 'test' };
   delete env.DATABASE_URL;
   delete env.REDIS_URL;
-  delete env.EARSHOT_ONLINE_BASE_LAYER_URL;
+  delete env.EARSHOT_BASE_LAYER_URL;
   const child: ChildProcess = spawn(process.execPath, ['node_modules/tsx/dist/cli.mjs', 'server/main.ts'], { env, stdio: ['ignore', 'pipe', 'pipe'] });
   let log = '';
   child.stdout?.on('data', (chunk: Buffer) => (log += chunk.toString()));

@@ -1,32 +1,56 @@
 // Coverage: start a run for one gateway or all of them (a composite: best
 // server per cell), follow its progress, cancel it, and show the finished
-// margin raster as a map overlay with opacity and the server's legend. The
+// margin raster as a map overlay with opacity and the server's legend. Progress
+// comes from the run's server-sent events (GET .../coverage/:runId/events); if the
+// stream cannot be used (a pasted API token: EventSource sends no Authorization
+// header) or fails, the panel polls GET .../coverage/:runId instead. The
 // redundancy composite (how many gateways hear each cell) is offered as a
 // GeoTIFF; on the map, redundancy per node is its own layer (see map.ts).
 import * as L from 'leaflet';
 import {
   ApiError,
   cancelCoverage,
+  coverageEventsUrl,
   coverageGeoTiffUrl,
   coverageTileUrl,
   getCoverage,
   getCoverageLegend,
   listCoverage,
   startCoverage,
+  storedToken,
   type CoverageRequest,
   type CoverageRun,
+  type RunState,
 } from '../api.ts';
 import type { PlanStore } from '../plan-store.ts';
 import { canEdit } from '../session.ts';
 import { announce, clear, errorText, field, h, notice, percent, present, select } from '../ui.ts';
 
 const pollMs = 700;
+const finished: RunState[] = ['done', 'failed', 'cancelled'];
+
+/** One `progress` event of GET .../coverage/:runId/events. */
+interface ProgressEvent {
+  status: RunState;
+  progress: number;
+  error: string | null;
+}
 
 export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L.Map): () => void {
   let overlay: L.TileLayer | null = null;
   let timer: number | undefined;
   let stopped = false;
   let opacity = 0.65;
+  /** The open progress stream and the run it follows. */
+  let source: EventSource | null = null;
+  let sourceRunId = '';
+  /** Off after a stream failed once: this panel polls from then on. */
+  let streamUsable = typeof EventSource !== 'undefined' && storedToken() === null;
+  const closeSource = (): void => {
+    source?.close();
+    source = null;
+    sourceRunId = '';
+  };
 
   panel.append(h('h2', { id: 'coverage-h' }, 'Coverage'));
   const gw = select(
@@ -134,18 +158,10 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
         ...present<HTMLElement>(bar, canEdit() ? cancel : null),
       );
       startButton.disabled = true;
-      timer = window.setTimeout(() => {
-        if (stopped) return;
-        void getCoverage(store.planId, run.id)
-          .then((r) => follow(r))
-          .catch((err: unknown) => {
-            clear(runBox);
-            runBox.append(notice('error', `Lost track of the run: ${errorText(err)}`));
-            startButton.disabled = false;
-          });
-      }, pollMs);
+      watch(run);
       return;
     }
+    closeSource();
     startButton.disabled = false;
     const what = `${run.mode ?? ''} run, ${run.radiusKm ?? '–'} km, SF${run.sf ?? '–'}, margin ≥ ${run.requiredMarginDb ?? '–'} dB`;
     if (state === 'done') {
@@ -157,6 +173,63 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
     } else {
       runBox.append(notice('error', h('span', { id: 'coverage-state' }, `Coverage run failed: ${run.error ?? 'no reason given'}`)));
     }
+  };
+
+  /** Reads the whole run (summary, settings) and shows it. */
+  const refetch = (runId: string): void => {
+    if (stopped) return;
+    void getCoverage(store.planId, runId)
+      .then((r) => {
+        if (!stopped) follow(r);
+      })
+      .catch((err: unknown) => {
+        closeSource();
+        clear(runBox);
+        runBox.append(notice('error', `Lost track of the run: ${errorText(err)}`));
+        startButton.disabled = false;
+      });
+  };
+
+  /** Follows a queued or running run: its event stream when possible, else polling. */
+  const watch = (run: CoverageRun): void => {
+    if (stopped) return;
+    if (!streamUsable) {
+      timer = window.setTimeout(() => refetch(run.id), pollMs);
+      return;
+    }
+    if (source && sourceRunId === run.id) return; // already streaming this run
+    closeSource();
+    const stream = new EventSource(coverageEventsUrl(store.planId, run.id), { withCredentials: true });
+    source = stream;
+    sourceRunId = run.id;
+    stream.addEventListener('progress', (event: MessageEvent<string>) => {
+      if (source !== stream) return;
+      let update: ProgressEvent;
+      try {
+        update = JSON.parse(event.data) as ProgressEvent;
+      } catch {
+        return;
+      }
+      // A finished run: read it whole (summary, settings) and show the overlay.
+      if (finished.includes(update.status)) {
+        closeSource();
+        refetch(run.id);
+      } else {
+        follow({ ...run, status: update.status, progress: update.progress, error: update.error });
+      }
+    });
+    stream.addEventListener('end', () => {
+      if (source !== stream) return;
+      closeSource();
+      refetch(run.id);
+    });
+    // The stream failed (or the server closed it without an end): poll this panel's runs from now on.
+    stream.addEventListener('error', () => {
+      if (source !== stream) return;
+      closeSource();
+      streamUsable = false;
+      refetch(run.id);
+    });
   };
 
   startButton.addEventListener('click', () => {
@@ -197,6 +270,7 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
 
   return () => {
     stopped = true;
+    closeSource();
     window.clearTimeout(timer);
   };
 }

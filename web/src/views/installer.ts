@@ -1,7 +1,8 @@
 // Installer mode: a narrow, phone-sized layout for one node. Where it is
 // (coordinates), what to bring and how high to mount it (visit sheet), what
 // the gateway should hear, the safety cautions, and a form to record the
-// RSSI/SNR actually measured (shown beside the prediction).
+// RSSI/SNR actually measured (shown beside the prediction), and the node's
+// install status (planned / installed / needs a visit; installers may set it).
 import { getVisitSheet, postReading, visitSheetUrl, type FleetNode, type VisitSheet } from '../api.ts';
 import { explainWriteError, PlanStore } from '../plan-store.ts';
 import type { Route } from '../router.ts';
@@ -60,8 +61,9 @@ async function renderNodeVisit(main: HTMLElement, store: PlanStore, node: FleetN
     h('p', {}, h('a', { href: planHash(store.planId, '/install') }, '← all nodes')),
     h('h1', {}, symbolElement(nodeSymbolSvg(status, 20), ''), ` ${node.name}`),
     h('p', { class: `status-line status-${status}` }, statusStyle[status].label, delivery !== undefined ? ` · delivery ${percent(delivery)}` : ''),
-    h('p', { class: 'muted small' }, `${node.deviceType} · ${node.environment ?? 'outdoor'} · install status: ${node.installStatus ?? 'planned'}`),
+    h('p', { class: 'muted small', id: 'install-status-line' }, statusLine(node)),
   );
+  renderInstallStatus(main, store, node);
 
   // where
   const copy = h('button', { type: 'button', onclick: () => void navigator.clipboard?.writeText(`${node.lat.toFixed(6)}, ${node.lon.toFixed(6)}`).then(() => announce('Coordinates copied')) }, 'Copy coordinates');
@@ -90,6 +92,57 @@ async function renderNodeVisit(main: HTMLElement, store: PlanStore, node: FleetN
   } finally {
     sheetBox.removeAttribute('aria-busy');
   }
+}
+
+const installStatusLabels: Record<NonNullable<FleetNode['installStatus']>, string> = {
+  planned: 'planned (not installed yet)',
+  installed: 'installed',
+  'needs-visit': 'needs a visit',
+};
+
+function statusLine(node: FleetNode): string {
+  return `${node.deviceType} · ${node.environment ?? 'outdoor'} · install status: ${node.installStatus ?? 'planned'}`;
+}
+
+/** Install status: planners and installers set it here (PATCH installStatus with the version read). */
+function renderInstallStatus(main: HTMLElement, store: PlanStore, node: FleetNode): void {
+  if (!canRecordReadings()) return; // viewers read the status line above
+  const choice = select(
+    (Object.keys(installStatusLabels) as Array<keyof typeof installStatusLabels>).map((value) => ({ value, label: installStatusLabels[value] })),
+    node.installStatus ?? 'planned',
+    { id: 'install-status' },
+  );
+  const result = h('p', { id: 'install-status-result', 'aria-live': 'polite' });
+  const save = h('button', { type: 'button', id: 'install-status-save', class: 'primary' }, 'Save install status');
+  save.addEventListener('click', () => {
+    save.disabled = true;
+    result.textContent = 'Saving…';
+    void store
+      .update('nodes', node.id, { installStatus: choice.value }, false, `set the install status of ${node.name}`)
+      .then((updated) => {
+        const saved = updated as FleetNode;
+        result.textContent = `Saved: install status is now ${installStatusLabels[saved.installStatus ?? 'planned']}.`;
+        const line = document.getElementById('install-status-line');
+        if (line) line.textContent = statusLine(saved);
+        announce(result.textContent);
+      })
+      .catch((err: unknown) => {
+        result.textContent = explainWriteError(err, store, `node ${node.name}`);
+      })
+      .finally(() => {
+        save.disabled = false;
+      });
+  });
+  main.append(
+    h(
+      'section',
+      { class: 'card', 'aria-labelledby': 'install-status-h' },
+      h('h2', { id: 'install-status-h' }, 'Install status'),
+      field('Install status of this node', choice),
+      h('div', { class: 'button-row' }, save),
+      result,
+    ),
+  );
 }
 
 function renderSheet(main: HTMLElement, store: PlanStore, sheet: VisitSheet): void {
