@@ -1,5 +1,6 @@
 // GET /api/v1/client-settings: the online base layer is null unless EARSHOT_BASE_LAYER_URL is
-// set; when set, the configured template is handed to the map as is. Signed-in roles only;
+// set; when set, the configured template is handed to the map as is. The band plans and
+// propagation methods it lists are accepted by PATCH /plans/:id. Signed-in roles only;
 // the route is listed in the OpenAPI document with its response schema.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
@@ -20,16 +21,41 @@ describe('client settings API [pglite]', () => {
     for (const who of ['planner', 'installer', 'viewer'] as const) {
       const response = await request(plain.app.server).get('/api/v1/client-settings').set(bearer(plain.tokens[who]));
       expect(response.status, who).toBe(200);
-      expect(response.body).toEqual({ onlineBaseLayer: null });
+      expect(response.body.onlineBaseLayer).toBeNull();
     }
   });
 
   it('with EARSHOT_BASE_LAYER_URL: the configured URL template, unchanged', async () => {
     const response = await request(configured.app.server).get('/api/v1/client-settings').set(bearer(configured.tokens.viewer));
     expect(response.status).toBe(200);
-    expect(response.body).toEqual({ onlineBaseLayer: { urlTemplate: template } });
+    expect(response.body.onlineBaseLayer).toEqual({ urlTemplate: template });
     // The same origin is the one the CSP opens for images.
     expect(response.headers['content-security-policy']).toContain('https://tiles.example.invalid');
+  });
+
+  it('lists the band plans and propagation methods PATCH /plans/:id accepts', async () => {
+    const settings = await request(plain.app.server).get('/api/v1/client-settings').set(bearer(plain.tokens.planner));
+    expect(settings.status).toBe(200);
+    const ids = (settings.body.bandPlans as Array<{ id: string; name: string }>).map((b) => b.id);
+    expect(ids).toEqual(expect.arrayContaining(['us-902-928', 'eu-863-870']));
+    expect(settings.body.propagationMethods).toContain('p1812');
+    // Every listed value is accepted by the plan PATCH (and an unlisted band plan is refused).
+    const http = request(plain.app.server);
+    const created = await http.post('/api/v1/plans').set(bearer(plain.tokens.planner)).send({ name: 'Settings choices plan' });
+    expect(created.status).toBe(201);
+    let version = created.body.version as number;
+    for (const bandPlanId of ids) {
+      const r = await http.patch(`/api/v1/plans/${created.body.id}`).set(bearer(plain.tokens.planner)).send({ bandPlanId, version });
+      expect(r.status, bandPlanId).toBe(200);
+      version = r.body.version;
+    }
+    for (const propagationMethod of settings.body.propagationMethods as string[]) {
+      const r = await http.patch(`/api/v1/plans/${created.body.id}`).set(bearer(plain.tokens.planner)).send({ propagationMethod, version });
+      expect(r.status, propagationMethod).toBe(200);
+      version = r.body.version;
+    }
+    const bad = await http.patch(`/api/v1/plans/${created.body.id}`).set(bearer(plain.tokens.planner)).send({ bandPlanId: 'mars-433', version });
+    expect(bad.status).toBe(400);
   });
 
   it('refuses anonymous callers with 401', async () => {

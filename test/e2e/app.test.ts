@@ -319,6 +319,54 @@ describe('map front end (chromium)', () => {
     watch.assertClean();
   });
 
+  it('plan settings (planner): change target margin and σ, saved and shown; a concurrent change gives the 409 dialog', async () => {
+    const readPlan = (): Promise<{ targetMarginDb: number; locationSigmaDb: number | null; description: string; version: number }> =>
+      page.evaluate(async (p) => (await (await fetch(`/api/v1/plans/${p}`)).json()) as { targetMarginDb: number; locationSigmaDb: number | null; description: string; version: number }, planId);
+    const before = await readPlan();
+    const newMargin = before.targetMarginDb + 2;
+    await page.getByRole('button', { name: 'Plan settings' }).click();
+    await page.getByRole('heading', { name: 'Plan settings' }).waitFor();
+    expect(await accessibilityProblems(page, 'dialog')).toEqual([]);
+    // Choices come from GET /client-settings: more than one band plan and method to pick from.
+    expect(await page.locator('#plan-band option').count()).toBeGreaterThan(1);
+    expect(await page.locator('#plan-method option').count()).toBeGreaterThan(1);
+    await page.getByLabel('Target fade margin (dB)').fill(String(newMargin));
+    await page.getByLabel('Location variability σ (dB)').fill('7.5');
+    await page.locator('dialog').screenshot({ path: 'test-artefacts/screenshots/05c-plan-settings.png' });
+    await page.getByRole('button', { name: 'Save plan settings' }).click();
+    await page.getByRole('heading', { name: 'Plan settings' }).waitFor({ state: 'detached' });
+    await expect.poll(() => textOf('#plan-settings-line'), { timeout: 20_000 }).toContain(`Target margin ${newMargin} dB`);
+    expect(await textOf('#plan-settings-line')).toContain('σ 7.5 dB');
+    const after = await readPlan();
+    expect(after.targetMarginDb).toBe(newMargin);
+    expect(after.locationSigmaDb).toBe(7.5);
+    expect(after.version).toBeGreaterThan(before.version);
+    // Someone else changes the plan: our stale settings form is refused with 409 and explained.
+    const status = await page.evaluate(
+      async ([p, version]) => {
+        const r = await fetch(`/api/v1/plans/${p}`, {
+          method: 'PATCH',
+          headers: { 'content-type': 'application/json', 'x-earshot-request': '1' },
+          body: JSON.stringify({ description: 'changed in another tab (plan settings scenario)', targetMarginDb: 9, version }),
+        });
+        return r.status;
+      },
+      [planId, after.version] as const,
+    );
+    expect(status).toBe(200);
+    watch.expectHttpError(new RegExp(`/api/v1/plans/${planId}$`), 409);
+    await page.getByRole('button', { name: 'Plan settings' }).click();
+    await page.getByLabel('Target fade margin (dB)').fill(String(newMargin + 1.5));
+    await page.getByRole('button', { name: 'Save plan settings' }).click();
+    await page.getByRole('heading', { name: 'Someone else changed this first' }).waitFor();
+    expect(await textOf('dialog')).toContain('the plan settings');
+    await page.getByRole('button', { name: 'Reload the plan' }).click();
+    // The map now shows the stored values (the other tab's 9 dB), not our refused ones.
+    await expect.poll(() => textOf('#plan-settings-line'), { timeout: 20_000 }).toContain('Target margin 9 dB');
+    expect((await readPlan()).targetMarginDb).toBe(9);
+    watch.assertClean();
+  });
+
   it('coverage: a run shows its progress (server-sent events, polling when the stream drops), then the overlay and its legend', async () => {
     // Which requests follow the runs: the event stream or GET .../coverage/<id> polls.
     const streams: string[] = [];

@@ -186,6 +186,9 @@ export type Entity = FleetNode | Gateway | Site;
 export const listPlans = (): Promise<Plan[]> => listAll<Plan>('/plans');
 export const getPlan = (planId: string): Promise<Plan> => request<Plan>('GET', `/plans/${planId}`);
 export const createPlan = (name: string): Promise<Plan> => request<Plan>('POST', '/plans', { name });
+/** Changes plan settings; `version` is the one read (a stale one comes back as 409). */
+export const updatePlan = (planId: string, body: Record<string, unknown> & { version: number }): Promise<Plan> =>
+  request<Plan>('PATCH', `/plans/${planId}`, body);
 
 export function listEntities<T extends Entity>(planId: string, kind: EntityKind): Promise<T[]> {
   return listAll<T>(`/plans/${planId}/${kind}`);
@@ -610,5 +613,8 @@ export const getMe = (): Promise<Me> => request<Me>('GET', '/me');
 export interface ClientSettings {
   /** Optional online tile layer (EARSHOT_BASE_LAYER_URL on the server); null = offline only. */
   onlineBaseLayer: { urlTemplate: string; attribution?: string } | null;
+  /** Band plans and propagation methods a plan may use (what PATCH /plans/:id accepts). */
+  bandPlans: Array<{ id: string; name: string }>;
+  propagationMethods: string[];
 }
 export const getClientSettings = (): Promise<ClientSettings> => request<ClientSettings>('GET', '/client-settings');

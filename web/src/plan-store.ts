@@ -10,6 +10,7 @@ import {
   getPlan,
   listEntities,
   updateEntity,
+  updatePlan,
   type Catalog,
   type Entity,
   type EntityKind,
@@ -190,6 +191,16 @@ export class PlanStore {
       });
     }
     this.afterWrite(kind);
+  }
+
+  /** Saves plan settings (with the version the form was opened on), then refreshes the statuses. */
+  async updatePlan(changes: Record<string, unknown>, version: number): Promise<Plan> {
+    this.writeGen++;
+    const updated = await updatePlan(this.planId, { ...changes, version });
+    this.writeGen++;
+    this.plan = updated;
+    this.afterWrite('nodes');
+    return updated;
   }
 
   async undo(): Promise<string | null> {

@@ -1,10 +1,14 @@
 // GET /api/v1/client-settings: what the map front end needs from the server's
-// configuration. Today only the optional online base layer (EARSHOT_BASE_LAYER_URL,
-// config.onlineBaseLayerUrl): null unless configured, so the map stays offline by default.
+// configuration: the optional online base layer (EARSHOT_BASE_LAYER_URL,
+// config.onlineBaseLayerUrl; null unless configured, so the map stays offline by default),
+// and the choices the plan settings editor offers (band plans, propagation methods: the
+// same lists PATCH /plans/:id and the link engine accept).
 // Every signed-in role may read it (the auth hook refuses anonymous callers with 401).
 import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
+import { bandPlans } from '../../radio/band-plans.ts';
+import { PROPAGATION_METHODS } from '../../planning/path.ts';
 
 export const clientSettingsResponse = z.object({
   onlineBaseLayer: z
@@ -14,6 +18,8 @@ export const clientSettingsResponse = z.object({
       attribution: z.string().optional(),
     })
     .nullable(),
+  bandPlans: z.array(z.object({ id: z.string(), name: z.string() })).describe('band plans a plan may use (bandPlanId)'),
+  propagationMethods: z.array(z.string()).describe('propagation method ids a plan may use (propagationMethod)'),
 });
 export type ClientSettings = z.infer<typeof clientSettingsResponse>;
 
@@ -31,7 +37,11 @@ export default async function clientSettingsRoutes(app: FastifyInstance): Promis
     async (): Promise<ClientSettings> => {
       const urlTemplate = config.onlineBaseLayerUrl;
       // The config has no attribution setting yet: none is sent (the map labels the layer itself).
-      return { onlineBaseLayer: urlTemplate ? { urlTemplate } : null };
+      return {
+        onlineBaseLayer: urlTemplate ? { urlTemplate } : null,
+        bandPlans: bandPlans.map((plan) => ({ id: plan.id, name: plan.name })),
+        propagationMethods: [...PROPAGATION_METHODS],
+      };
     },
   );
 }

@@ -11,6 +11,7 @@ import { announce, append, clear, coords, errorText, h, metres, notice, openDial
 import { gatewaySymbolSvg, nodeSymbolSvg, siteSymbolSvg, statusStyle, symbolElement, type NodeClass } from '../symbols.ts';
 import { kindLabel, openEditDialog } from './edit-dialog.ts';
 import { openImportDialog } from './import-dialog.ts';
+import { openPlanSettingsDialog } from './plan-settings-dialog.ts';
 import { renderNodePanel } from './node-panel.ts';
 import { renderCoveragePanel } from './coverage-panel.ts';
 
@@ -50,7 +51,7 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
   }
   // An online base layer only when the server is configured with one (EARSHOT_BASE_LAYER_URL,
   // handed over by GET /client-settings); offered as a toggle, off by default.
-  let settings: ClientSettings = { onlineBaseLayer: null };
+  let settings: ClientSettings = { onlineBaseLayer: null, bandPlans: [], propagationMethods: [] };
   try {
     settings = await getClientSettings();
   } catch {
@@ -77,7 +78,17 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
   let shownVersion = '';
 
   // ---------- sidebar: layers ----------
-  const layersPanel = h('section', { class: 'panel', 'aria-labelledby': 'layers-h' }, h('h2', { id: 'layers-h' }, store.plan.name));
+  const planTitle = h('h2', { id: 'layers-h' }, store.plan.name);
+  const layersPanel = h('section', { class: 'panel', 'aria-labelledby': 'layers-h' }, planTitle);
+  const methodName = (id: unknown): string => String(id ?? '–');
+  const planLine = h('p', { class: 'muted', id: 'plan-settings-line' });
+  const showPlanLine = (): void => {
+    const p = store.plan;
+    const band = settings.bandPlans.find((b) => b.id === p.bandPlanId)?.name ?? p.bandPlanId ?? '–';
+    planTitle.textContent = p.name;
+    planLine.textContent = `Target margin ${p.targetMarginDb ?? '–'} dB · band plan ${band} · σ ${p.locationSigmaDb === null || p.locationSigmaDb === undefined ? 'method default' : `${p.locationSigmaDb} dB`} · method ${methodName(p.propagationMethod)}`;
+  };
+  showPlanLine();
   const toggle = (label: string, layer: L.Layer, on: boolean, symbol?: HTMLElement): HTMLElement => {
     const box = h('input', { type: 'checkbox' });
     box.checked = on;
@@ -90,7 +101,8 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
   const counts = h('p', { class: 'muted', id: 'fleet-counts' });
   append(
     layersPanel,
-    h('p', { class: 'muted' }, `Target margin ${store.plan.targetMarginDb ?? '–'} dB · band plan ${store.plan.bandPlanId ?? '–'}`),
+    planLine,
+    canEdit() ? h('div', { class: 'button-row' }, h('button', { type: 'button', id: 'plan-settings-button', onclick: () => openPlanSettingsDialog(store, settings, showPlanLine) }, 'Plan settings')) : null,
     h(
       'fieldset',
       { class: 'layer-list' },
@@ -268,6 +280,7 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
   let dragInProgress = false;
   let redrawAfterDrag = false;
   function drawMarkers(): void {
+    showPlanLine();
     if (dragInProgress) {
       redrawAfterDrag = true;
       return;
