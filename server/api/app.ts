@@ -22,7 +22,7 @@ import kitRoutes from './routes/kit.ts';
 import auditRoutes from './routes/audit.ts';
 import adminRoutes from './routes/admin.ts';
 import terrainRoutes from './routes/terrain.ts';
-import { LinkEngine } from './routes/links-service.ts';
+import { LinkEngine } from '../jobs/link-engine.ts';
 
 declare module 'fastify' {
   interface FastifyInstance {

@@ -9,7 +9,7 @@
 import { z } from 'zod';
 import { loadConfig } from '../config.ts';
 import { dataFolderHolder, openDatabase } from '../db/client.ts';
-import { LinkEngine, LinkInputError } from '../api/routes/links-service.ts';
+import { LinkEngine, LinkInputError } from '../jobs/link-engine.ts';
 import { linkReport, recommendReport, type nodeLinksView } from '../api/routes/links.ts';
 import { PlanSettingsError } from '../planning/settings.ts';
 import { CliUsageError, defineCommand, numberOption, stringOption, type CliCommand } from './framework.ts';

@@ -1,7 +1,7 @@
 // Links and kit: a node's predicted links, the fleet table, the installer's
 // link check and visit sheet, kit recommendations (one node, or the fleet as
 // a job with progress) and field readings beside the prediction.
-// Routes stay thin: the work is in ./links-service.ts, ./recommend.ts,
+// Routes stay thin: the work is in server/jobs/link-engine.ts, ./recommend.ts,
 // ./visit-sheet.ts and the pure rooms under server/planning/.
 import { hostname } from 'node:os';
 import type { FastifyInstance } from 'fastify';
@@ -18,7 +18,7 @@ import { ApiError } from '../errors.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
 import { finite, id, pageQuery } from '../schemas.ts';
 import { decodeCursor, encodeCursor } from '../../db/repositories/pagination.ts';
-import { LinkEngine, LinkInputError, type NodeLinksOutcome, type PlanContext } from './links-service.ts';
+import { LinkEngine, LinkInputError, type NodeLinksOutcome, type PlanContext } from '../../jobs/link-engine.ts';
 import { loadCatalog, recommendForNode, type RecommendRequest } from './recommend.ts';
 import { visitSheet, visitSheetHtml } from './visit-sheet.ts';
 import { registerReadingRoutes } from './readings.ts';

@@ -13,7 +13,7 @@ import { requireRole } from '../auth.ts';
 import { ApiError } from '../errors.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
 import { finite, id, latitude, longitude, pageQuery } from '../schemas.ts';
-import type { LinkEngine, PlanContext } from './links-service.ts';
+import type { LinkEngine, PlanContext } from '../../jobs/link-engine.ts';
 import type { LinkResult } from '../../planning/link.ts';
 
 const reading = {

@@ -11,7 +11,7 @@ import type { MastOption } from '../../radio/masts.ts';
 import { nodeLinkResults, summariseNodeLinks } from '../../planning/node-links.ts';
 import { predictPath, type PathPrediction } from '../../planning/path.ts';
 import { recommendKit, type KitCandidate, type KitEvaluation, type Recommendation } from '../../planning/recommend.ts';
-import { LinkInputError, nodeConnectors, type GatewayContext, type LinkEngine, type PlanContext } from './links-service.ts';
+import { LinkInputError, nodeConnectors, type GatewayContext, type LinkEngine, type PlanContext } from '../../jobs/link-engine.ts';
 
 export interface RecommendRequest {
   targetMarginDb?: number;

@@ -5,7 +5,7 @@
 import { buildSheet, BuildSheetError, type BuildSheet } from '../../radio/build-sheets.ts';
 import { installCautions, percentileRange, type ExpectedRange } from '../../planning/check.ts';
 import type { NodeRecommendation } from './recommend.ts';
-import type { NodeLinksOutcome, PlanContext } from './links-service.ts';
+import type { NodeLinksOutcome, PlanContext } from '../../jobs/link-engine.ts';
 
 export interface VisitSheet {
   title: string;

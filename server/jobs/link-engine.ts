@@ -1,29 +1,31 @@
 // The link engine the routes and the CLI share: loads a plan's nodes,
-// gateways, kit and terrain, asks the pure rooms (terrain → planning →
-// propagation/radio) for predictions, and keeps the Link cache.
-// Same numbers everywhere: the API routes (./links.ts) and `earshot link`
-// (server/cli/links.ts) both call this class.
+// gateways, kit and terrain through the server/db repositories (never Prisma
+// directly), asks the pure rooms (terrain → planning → propagation/radio) for
+// predictions, spreads cold fleet paths over the link worker pool
+// (./link-pool.ts), and keeps the Link cache.
+// Same numbers everywhere: the API routes (server/api/routes/links.ts) and
+// `earshot link` (server/cli/links.ts) both call this class.
 import { existsSync } from 'node:fs';
 import { isAbsolute, join, resolve } from 'node:path';
-import type { Config } from '../../config.ts';
-import type { Database } from '../../db/client.ts';
-import { NotFoundError } from '../../db/errors.ts';
-import type { GatewayRow } from '../../db/repositories/gateways.ts';
-import { findNode, type NodeRow } from '../../db/repositories/nodes.ts';
-import type { PlanRow } from '../../db/repositories/plans.ts';
-import { findAntennaDesignForTeam, findFeedlineForTeam } from '../../db/repositories/kit.ts';
-import { nodeLinkFingerprint, listGatewaysForLinks, listNodeLinkRows, listNodesForLinks, listPlanLinkRows, listTerrainForLinks, saveLinkRows, type LinkRow } from '../../db/repositories/links.ts';
-import type { AntennaDesign } from '../../radio/antennas.ts';
-import { connectorLossDb, findConnector, type ConnectorUse, type FeedlineType } from '../../radio/feedlines.ts';
-import type { BuildingType } from '../../radio/building-entry-loss.ts';
-import { openTerrainStore, type TerrainStore } from '../../terrain/store.ts';
-import { computeLinkPath, linkProfile, type LinkProfile } from '../../planning/link-path.ts';
-import { LinkPathPool, type LinkPathPair, type LinkTerrainSpec } from '../../jobs/link-pool.ts';
-import type { EndKit, GatewayRadio, LinkRadioSettings, LinkResult, NodeRadio } from '../../planning/link.ts';
-import { hashOf, hashOfShared, LINK_ENGINE_VERSION, nodeAimAzimuthDeg, nodeLinkResults, summariseNodeLinks, type NodeLinkSummary } from '../../planning/node-links.ts';
-import type { PathPrediction } from '../../planning/path.ts';
-import { resolveLinkSettings, type ResolvedLinkSettings } from '../../planning/settings.ts';
-import { bearingsBetween } from '../../planning/geometry.ts';
+import type { Config } from '../config.ts';
+import type { Database } from '../db/client.ts';
+import { NotFoundError } from '../db/errors.ts';
+import type { GatewayRow } from '../db/repositories/gateways.ts';
+import { findNode, type NodeRow } from '../db/repositories/nodes.ts';
+import type { PlanRow } from '../db/repositories/plans.ts';
+import { findAntennaDesignForTeam, findFeedlineForTeam } from '../db/repositories/kit.ts';
+import { nodeLinkFingerprint, listGatewaysForLinks, listNodeLinkRows, listNodesForLinks, listPlanLinkRows, listTerrainForLinks, saveLinkRows, type LinkRow } from '../db/repositories/links.ts';
+import type { AntennaDesign } from '../radio/antennas.ts';
+import { connectorLossDb, findConnector, type ConnectorUse, type FeedlineType } from '../radio/feedlines.ts';
+import type { BuildingType } from '../radio/building-entry-loss.ts';
+import { openTerrainStore, type TerrainStore } from '../terrain/store.ts';
+import { computeLinkPath, linkProfile, type LinkProfile } from '../planning/link-path.ts';
+import { LinkPathPool, type LinkPathPair, type LinkTerrainSpec } from './link-pool.ts';
+import type { EndKit, GatewayRadio, LinkRadioSettings, LinkResult, NodeRadio } from '../planning/link.ts';
+import { hashOf, hashOfShared, LINK_ENGINE_VERSION, nodeAimAzimuthDeg, nodeLinkResults, summariseNodeLinks, type NodeLinkSummary } from '../planning/node-links.ts';
+import type { PathPrediction } from '../planning/path.ts';
+import { resolveLinkSettings, type ResolvedLinkSettings } from '../planning/settings.ts';
+import { bearingsBetween } from '../planning/geometry.ts';
 
 /** Connectors assumed in a node's feedline run: two mated N/SMA pairs (common practice, 0.1 dB each). */
 const NODE_CONNECTORS = [{ id: 'n-type', count: 2 }];
