@@ -294,9 +294,13 @@ export class LinkEngine {
         }
         throw error;
       }
-      const kit: EndKit = { antenna, boresightAzimuthDeg: null, feedline, feedlineLengthM: row.feedlineLengthM, connectors: row.feedlineLengthM > 0 ? connectorUses(GATEWAY_CONNECTORS) : [] };
+      // A directional gateway antenna points where the row says (degrees from true north);
+      // null = omni, or aimed at each node (the link budget then takes the path's bearing).
+      // The aim enters the kit hash only when set, so cached omni rows stay valid.
+      const boresightAzimuthDeg = row.antennaAzimuthDeg ?? null;
+      const kit: EndKit = { antenna, boresightAzimuthDeg, feedline, feedlineLengthM: row.feedlineLengthM, connectors: row.feedlineLengthM > 0 ? connectorUses(GATEWAY_CONNECTORS) : [] };
       const radio: GatewayRadio = { noiseFigureDb: row.noiseFigureDb };
-      ctx.gateways.push({ row, kit, radio, antenna, feedline, kitHash: hashOf({ a: hashOfShared(antenna, ctx.objectHashes), f: hashOfShared(feedline, ctx.objectHashes), length: row.feedlineLengthM, c: kit.connectors.map((u) => [u.connector.id, u.connector.lossDb, u.count]), radio }) });
+      ctx.gateways.push({ row, kit, radio, antenna, feedline, kitHash: hashOf({ a: hashOfShared(antenna, ctx.objectHashes), f: hashOfShared(feedline, ctx.objectHashes), length: row.feedlineLengthM, c: kit.connectors.map((u) => [u.connector.id, u.connector.lossDb, u.count]), radio, az: boresightAzimuthDeg ?? undefined }) });
     }
     return ctx;
   }

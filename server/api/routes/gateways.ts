@@ -1,4 +1,4 @@
-// Gateways of a plan: position (or a site), antenna, mast height, feedline, noise figure.
+// Gateways of a plan: position (or a site), antenna and where it points, mast height, feedline, noise figure.
 import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
@@ -21,6 +21,12 @@ const gatewayFields = {
   lon: longitude().optional(),
   antennaDesignId: id().optional(),
   antennaHeightAglM: nonNegative().max(500, 'must be ≤ 500 m').optional(),
+  antennaAzimuthDeg: finite()
+    .min(0, 'must be ≥ 0° (degrees clockwise from true north)')
+    .lt(360, 'must be < 360° (degrees clockwise from true north)')
+    .nullable()
+    .optional()
+    .describe('where a directional gateway antenna points, degrees clockwise from true north; null or absent = omni, or a directional antenna aimed at each node'),
   feedlineId: id().optional(),
   feedlineLengthM: nonNegative().max(1000, 'must be ≤ 1000 m').optional(),
   mastOptionId: id().nullable().optional(),
@@ -39,6 +45,7 @@ export const gatewayResponse = z
     lon: z.number().describe('degrees WGS84'),
     antennaDesignId: z.string(),
     antennaHeightAglM: z.number().describe('m above ground'),
+    antennaAzimuthDeg: z.number().nullable().describe('degrees clockwise from true north where a directional antenna points; null = omni / aimed at each node'),
     feedlineId: z.string(),
     feedlineLengthM: z.number().describe('m'),
     mastOptionId: z.string().nullable(),
