@@ -3,8 +3,9 @@
 // (the path prediction with its own path hash, and the link budget result).
 // A lookup with a different hash is a miss, so any change to the node, the
 // gateway, the kit, the plan's settings or the terrain invalidates it.
+import { randomUUID } from 'node:crypto';
 import type { Database } from '../client.ts';
-import type { Prisma } from '../generated/client.ts';
+import { Prisma } from '../generated/client.ts';
 
 export interface LinkRow {
   nodeId: string;
@@ -23,21 +24,41 @@ export async function listPlanLinkRows(db: Database, planId: string): Promise<Li
   return db.prisma.link.findMany({ where: { planId }, select: { nodeId: true, gatewayId: true, inputHash: true, result: true } });
 }
 
-/** Stores (or replaces) the cached result of each pair, in one transaction. */
+/** Rows per INSERT: 500 rows × 6 parameters stays far below PostgreSQL's 65 535 bind parameters. */
+const SAVE_CHUNK_ROWS = 500;
+
+/**
+ * Stores (or replaces) the cached result of each pair: one multi-row
+ * `INSERT ... ON CONFLICT ("nodeId", "gatewayId") DO UPDATE` per 500 rows (the
+ * unique key of Link), several chunks in one transaction. A cold 2 500-link fleet
+ * is five statements instead of a delete and an insert per chunk. A pair listed
+ * twice keeps its last row (one statement may not update a row twice). The id of
+ * a new row is a random UUID (Prisma's cuid() default is client-side, so raw SQL
+ * has to bring its own); nothing reads Link ids.
+ */
 export async function saveLinkRows(db: Database, planId: string, rows: readonly LinkRow[]): Promise<void> {
   if (rows.length === 0) return;
-  const chunk = 500;
-  const operations: Prisma.PrismaPromise<unknown>[] = [];
-  for (let start = 0; start < rows.length; start += chunk) {
-    const part = rows.slice(start, start + chunk);
-    operations.push(
-      db.prisma.link.deleteMany({ where: { planId, OR: part.map((row) => ({ nodeId: row.nodeId, gatewayId: row.gatewayId })) } }),
-      db.prisma.link.createMany({
-        data: part.map((row) => ({ planId, nodeId: row.nodeId, gatewayId: row.gatewayId, inputHash: row.inputHash, result: row.result as Prisma.InputJsonValue })),
-      }),
+  const latest = new Map<string, LinkRow>();
+  for (const row of rows) {
+    const key = `${row.nodeId}\u0000${row.gatewayId}`;
+    latest.delete(key);
+    latest.set(key, row);
+  }
+  const unique = [...latest.values()];
+  const statements: Prisma.PrismaPromise<number>[] = [];
+  for (let start = 0; start < unique.length; start += SAVE_CHUNK_ROWS) {
+    const values = Prisma.join(
+      unique
+        .slice(start, start + SAVE_CHUNK_ROWS)
+        .map((row) => Prisma.sql`(${randomUUID()}, ${planId}, ${row.nodeId}, ${row.gatewayId}, ${row.inputHash}, ${JSON.stringify(row.result)}::jsonb, CURRENT_TIMESTAMP)`),
+    );
+    statements.push(
+      db.prisma.$executeRaw`INSERT INTO "Link" ("id", "planId", "nodeId", "gatewayId", "inputHash", "result", "computedAt") VALUES ${values}
+        ON CONFLICT ("nodeId", "gatewayId") DO UPDATE SET "planId" = EXCLUDED."planId", "inputHash" = EXCLUDED."inputHash", "result" = EXCLUDED."result", "computedAt" = EXCLUDED."computedAt"`,
     );
   }
-  await db.prisma.$transaction(operations);
+  if (statements.length === 1) await statements[0];
+  else await db.prisma.$transaction(statements);
 }
 
 /** Drops every cached link of a plan. */

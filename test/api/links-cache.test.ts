@@ -1,0 +1,77 @@
+// The Link cache writes (saveLinkRows: one multi-row INSERT ... ON CONFLICT DO UPDATE per
+// 500 rows) on both engines: new pairs inserted, known pairs replaced in place, a pair
+// listed twice keeps its last row, JSON results read back equal, other plans untouched.
+import { afterAll, beforeAll, expect, it } from 'vitest';
+import { createTestApp, describeEngines, type TestApp } from '../helpers/test-app.ts';
+import { listNodeLinkRows, listPlanLinkRows, saveLinkRows, type LinkRow } from '../../server/db/repositories/links.ts';
+
+describeEngines('link cache writes', (engine) => {
+  let t: TestApp;
+  let planId: string;
+  let otherPlanId: string;
+  const nodeIds: string[] = [];
+  const gatewayIds: string[] = [];
+  let otherNodeId: string;
+  let otherGatewayId: string;
+
+  beforeAll(async () => {
+    t = await createTestApp(engine);
+    const prisma = t.db.prisma;
+    const plan = await prisma.plan.create({ data: { teamId: t.teamId, name: 'Cache writes' } });
+    const other = await prisma.plan.create({ data: { teamId: t.teamId, name: 'Other plan' } });
+    planId = plan.id;
+    otherPlanId = other.id;
+    const gateway = (pid: string, i: number) => ({ planId: pid, name: `GW ${i}`, lat: 40 + i / 100, lon: -105, antennaDesignId: 'collinear-fibreglass-6dbi', antennaHeightAglM: 10, feedlineId: 'low-loss-10mm' });
+    const node = (pid: string, i: number) => ({ planId: pid, name: `N ${i}`, lat: 40 - i / 1000, lon: -105, deviceType: 'probe', antennaDesignId: 'half-wave-dipole', antennaHeightAglM: 2, txPowerDbm: 14, payloadBytes: 12 });
+    for (let i = 0; i < 3; i++) gatewayIds.push((await prisma.gateway.create({ data: gateway(planId, i) })).id);
+    // 400 nodes × 3 gateways = 1 200 pairs: three chunks of at most 500 rows.
+    await prisma.node.createMany({ data: Array.from({ length: 400 }, (_, i) => node(planId, i)) });
+    nodeIds.push(...(await prisma.node.findMany({ where: { planId }, select: { id: true }, orderBy: { name: 'asc' } })).map((row) => row.id));
+    otherGatewayId = (await prisma.gateway.create({ data: gateway(otherPlanId, 0) })).id;
+    otherNodeId = (await prisma.node.create({ data: node(otherPlanId, 0) })).id;
+  }, 120_000);
+
+  afterAll(async () => {
+    await t?.close();
+  });
+
+  const rowsOf = (hash: (nodeIndex: number, gatewayIndex: number) => string): LinkRow[] =>
+    nodeIds.flatMap((nodeId, n) => gatewayIds.map((gatewayId, g) => ({ nodeId, gatewayId, inputHash: hash(n, g), result: { pathHash: `p${n}.${g}`, path: { basicLossDb: 100 + n / 10 + g, terms: { a: 1.5, nested: [1, 2] } }, summary: { note: 'ünïcode ✓', n, g } } })));
+
+  it('a cold write stores every pair with its JSON result; a second write replaces the changed pairs in place', async () => {
+    const cold = rowsOf((n, g) => `h0-${n}-${g}`);
+    expect(cold).toHaveLength(1200);
+    await saveLinkRows(t.db, otherPlanId, [{ nodeId: otherNodeId, gatewayId: otherGatewayId, inputHash: 'other', result: { keep: true } }]);
+    await saveLinkRows(t.db, planId, cold);
+    const stored = await listPlanLinkRows(t.db, planId);
+    expect(stored).toHaveLength(1200);
+    const byKey = new Map(stored.map((row) => [`${row.nodeId}|${row.gatewayId}`, row]));
+    for (const row of cold) expect(byKey.get(`${row.nodeId}|${row.gatewayId}`)).toEqual(row);
+
+    // Every node's first gateway changes; a pair listed twice keeps its last row.
+    const changed = rowsOf((n, g) => (g === 0 ? `h1-${n}` : `h0-${n}-${g}`)).filter((row) => row.gatewayId === gatewayIds[0]);
+    const duplicate = { ...changed[0], inputHash: 'first-of-two' };
+    await saveLinkRows(t.db, planId, [duplicate, ...changed]);
+    const after = await listPlanLinkRows(t.db, planId);
+    expect(after).toHaveLength(1200);
+    const afterByKey = new Map(after.map((row) => [`${row.nodeId}|${row.gatewayId}`, row.inputHash]));
+    nodeIds.forEach((nodeId, n) => {
+      expect(afterByKey.get(`${nodeId}|${gatewayIds[0]}`)).toBe(`h1-${n}`);
+      expect(afterByKey.get(`${nodeId}|${gatewayIds[2]}`)).toBe(`h0-${n}-2`);
+    });
+    const one = await listNodeLinkRows(t.db, planId, nodeIds[7]);
+    expect(one.map((row) => row.inputHash).sort()).toEqual(['h0-7-1', 'h0-7-2', 'h1-7']);
+    const other = await listPlanLinkRows(t.db, otherPlanId);
+    expect(other).toEqual([{ nodeId: otherNodeId, gatewayId: otherGatewayId, inputHash: 'other', result: { keep: true } }]);
+  });
+
+  it('a failing chunk keeps none of the write (chunks share one transaction)', async () => {
+    const before = await listPlanLinkRows(t.db, planId);
+    const rows = rowsOf((n, g) => `h2-${n}-${g}`);
+    // The last chunk names a node that does not exist: the foreign key rejects it.
+    rows[rows.length - 1] = { ...rows[rows.length - 1], nodeId: 'no-such-node' };
+    await expect(saveLinkRows(t.db, planId, rows)).rejects.toThrow();
+    const after = await listPlanLinkRows(t.db, planId);
+    expect(new Map(after.map((row) => [`${row.nodeId}|${row.gatewayId}`, row.inputHash]))).toEqual(new Map(before.map((row) => [`${row.nodeId}|${row.gatewayId}`, row.inputHash])));
+  });
+});
