@@ -265,6 +265,10 @@ describe('field readings beside the prediction', () => {
     expect(res.status).toBe(201);
     expect(res.body.items[0].predictedRssiDbm).toBeCloseTo(-123.688, 2);
     expect(res.body.items[0].rssiDifferenceDb).toBeCloseTo(3.188, 2);
+    // The audit entry was written with the reading (same transaction) and names it.
+    const audit = await t.db.prisma.auditEntry.findMany({ where: { entity: 'field-reading', entityId: res.body.items[0].id } });
+    expect(audit).toHaveLength(1);
+    expect(audit[0].detail).toMatchObject({ planId, nodeId, count: 1 });
     const list = await request(t.app.server).get(`/api/v1/plans/${planId}/nodes/${nodeId}/readings`).set(bearer(t.tokens.viewer));
     expect(list.body.items).toHaveLength(1);
     expect(list.body.meanRssiDifferenceDb).toBeCloseTo(3.188, 2);

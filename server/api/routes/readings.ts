@@ -4,7 +4,6 @@
 import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import { recordAudit } from '../../db/repositories/audit.ts';
 import { createFieldReadings, listNodeReadings, listPlanReadings, type NewFieldReading } from '../../db/repositories/field-readings.ts';
 import type { FieldReading } from '../../db/generated/client.ts';
 import type { PlanRow } from '../../db/repositories/plans.ts';
@@ -91,8 +90,8 @@ export function registerReadingRoutes(
         }
         return { nodeId: node.id, gatewayId: input.gatewayId ?? null, rssiDbm: input.rssiDbm, snrDb: input.snrDb, sf: input.sf, measuredAt, lat: input.lat ?? null, lon: input.lon ?? null, note: input.note ?? '' };
       });
-      const created = await createFieldReadings(db, plan.id, principal.userId, rows);
-      await recordAudit(db, { principal, action: 'create', entity: 'field-reading', entityId: created.map((r) => r.id).join(','), detail: { planId: plan.id, nodeId: node.id, count: created.length } });
+      // The readings and their audit entry are one transaction: neither is kept without the other.
+      const created = await createFieldReadings(db, plan.id, principal.userId, rows, (stored) => ({ principal, action: 'create', entity: 'field-reading', entityId: stored.map((r) => r.id).join(','), detail: { planId: plan.id, nodeId: node.id, count: stored.length } }));
       let links = new Map<string, LinkResult>();
       try {
         links = await predictions(ctx, node.id);
