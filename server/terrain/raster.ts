@@ -3,7 +3,8 @@
 // NoData). A file is opened with geotiff's fromFile, so only the header and
 // the tiles/strips a window touches are ever read from disk.
 import { stat } from 'node:fs/promises';
-import { fromArrayBuffer, fromFile, type GeoTIFF, type GeoTIFFImage, type TypedArray } from 'geotiff';
+import { inflateSync } from 'node:zlib';
+import { BaseDecoder, fromArrayBuffer, fromFile, getDecoder, type GeoTIFF, type GeoTIFFImage, type TypedArray } from 'geotiff';
 import { crsForEpsg, transformForCrs, UnsupportedCrsError, type CrsInfo, type CrsTransform } from './crs.ts';
 import type { GeoTransform } from './geotiff-writer.ts';
 
@@ -252,6 +253,68 @@ async function describe(tiff: GeoTIFF, fileBytes: number): Promise<GeoRaster> {
     return out;
   };
 
+  // Fast path (every layout our writer and GDAL's defaults produce: one sample per pixel, whole bytes,
+  // little-endian or bytes): decode each tile/strip the window touches once (geotiff's own decoders, with
+  // node's zlib for deflate), then convert it row by row straight into the Float32 window. geotiff's
+  // readRasters reads every pixel through a DataView call and copies it into an intermediate typed array
+  // that toFloat converts again; this path does one typed-array pass and gives the same values.
+  const bytesPerSample = bits / 8;
+  const fastPath = image.getSamplesPerPixel() === 1 && (image.littleEndian || bytesPerSample === 1);
+  const decoders = new Map<GeoTIFFImage, Promise<Decoder>>();
+  const decoderFor = (img: GeoTIFFImage): Promise<Decoder> => {
+    let decoder = decoders.get(img);
+    if (!decoder) {
+      decoder = makeDecoder(img);
+      decoders.set(img, decoder);
+    }
+    return decoder;
+  };
+  const nd = noData === null || Number.isNaN(noData) ? null : sampleFormat === 'float32' ? Math.fround(noData) : noData;
+  const readFast = async (img: GeoTIFFImage, x0: number, y0: number, w: number, h: number): Promise<Float32Array> => {
+    const decoder = await decoderFor(img);
+    const tileW = img.getTileWidth();
+    const tileH = img.getTileHeight();
+    const tx0 = Math.floor(x0 / tileW);
+    const tx1 = Math.floor((x0 + w - 1) / tileW);
+    const ty0 = Math.floor(y0 / tileH);
+    const ty1 = Math.floor((y0 + h - 1) / tileH);
+    const out = new Float32Array(w * h);
+    const jobs: Promise<void>[] = [];
+    for (let ty = ty0; ty <= ty1; ty++) {
+      for (let tx = tx0; tx <= tx1; tx++) {
+        jobs.push(
+          img.getTileOrStrip(tx, ty, 0, decoder as never).then((tile) => {
+            const blockH = img.getBlockHeight(ty);
+            const values = typedView(sampleFormat, tile.data as ArrayBuffer, tileW * blockH);
+            // Part of this block inside the window, in block coordinates.
+            const bx0 = Math.max(0, x0 - tx * tileW);
+            const bx1 = Math.min(tileW, x0 + w - tx * tileW);
+            const by0 = Math.max(0, y0 - ty * tileH);
+            const by1 = Math.min(blockH, y0 + h - ty * tileH);
+            for (let by = by0; by < by1; by++) {
+              let src = by * tileW + bx0;
+              let dst = (ty * tileH + by - y0) * w + tx * tileW + bx0 - x0;
+              const end = src + (bx1 - bx0);
+              if (nd === null) {
+                // No NoData, or NoData NaN (NaN stays NaN through scale/offset).
+                if (scale === 1 && offset === 0) for (; src < end; src++, dst++) out[dst] = values[src];
+                else for (; src < end; src++, dst++) out[dst] = values[src] * scale + offset;
+              } else {
+                // Compared in the sample's own precision (a Float32 NoData such as -3.4028235e38 is not exactly the double).
+                for (; src < end; src++, dst++) {
+                  const v = values[src];
+                  out[dst] = v === nd ? Number.NaN : v * scale + offset;
+                }
+              }
+            }
+          }),
+        );
+      }
+    }
+    await Promise.all(jobs);
+    return out;
+  };
+
   const readWindow = async (x0: number, y0: number, w: number, h: number, level = 0): Promise<Float32Array> => {
     const img = level === 0 ? image : overviewImages[level - 1];
     if (!img) throw new RangeError(`readWindow: no overview level ${level} (raster has ${overviewImages.length})`);
@@ -259,6 +322,15 @@ async function describe(tiff: GeoTIFF, fileBytes: number): Promise<GeoRaster> {
     const levelH = img.getHeight();
     if (!(Number.isInteger(x0) && Number.isInteger(y0) && Number.isInteger(w) && Number.isInteger(h)) || w < 1 || h < 1 || x0 < 0 || y0 < 0 || x0 + w > levelW || y0 + h > levelH) {
       throw new RangeError(`readWindow: window ${x0},${y0} ${w}×${h} outside the ${levelW}×${levelH} image`);
+    }
+    if (fastPath) {
+      try {
+        return await readFast(img, x0, y0, w, h);
+      } catch (error) {
+        if (error instanceof RasterError) throw error;
+        const message = error instanceof Error ? error.message : String(error);
+        throw new RasterError('corrupt', `cannot decode pixels ${x0},${y0} ${w}×${h}: ${message.split('\n')[0]}`);
+      }
     }
     let raw: TypedArray;
     try {
@@ -343,6 +415,49 @@ async function describe(tiff: GeoTIFF, fileBytes: number): Promise<GeoRaster> {
     transform,
     close: () => closeQuietly(tiff),
   };
+}
+
+type Decoder = Awaited<ReturnType<typeof getDecoder>>;
+
+/** Deflate through node's zlib (native; geotiff's own decoder is pako in JavaScript). Same bytes out. */
+class ZlibInflateDecoder extends BaseDecoder {
+  override decodeBlock(buffer: ArrayBufferLike): ArrayBufferLike {
+    const bytes = inflateSync(new Uint8Array(buffer));
+    // A fresh, exactly sized ArrayBuffer (zlib may hand back a view into a larger pool).
+    return bytes.byteOffset === 0 && bytes.byteLength === bytes.buffer.byteLength ? bytes.buffer : bytes.slice().buffer;
+  }
+}
+
+/** The decoder of one image, with the parameters geotiff's registry would give it (predictor included). */
+async function makeDecoder(img: GeoTIFFImage): Promise<Decoder> {
+  const dir = img.getFileDirectory();
+  const tiled = img.isTiled;
+  const compression = Number(dir.getValue('Compression' as never) ?? 1);
+  const parameters = {
+    tileWidth: Number(await dir.loadValue((tiled ? 'TileWidth' : 'ImageWidth') as never)),
+    tileHeight: Number(tiled ? await dir.loadValue('TileLength' as never) : (await dir.loadValue('RowsPerStrip' as never)) || (await dir.loadValue('ImageLength' as never))),
+    planarConfiguration: Number((await dir.loadValue('PlanarConfiguration' as never)) ?? 1),
+    bitsPerSample: (await dir.loadValue('BitsPerSample' as never)) as number[],
+    predictor: Number((await dir.loadValue('Predictor' as never)) || 1),
+  };
+  if (compression === 8 || compression === 32946) return new ZlibInflateDecoder(parameters) as Decoder;
+  return getDecoder(compression, parameters);
+}
+
+/** A typed view of `count` decoded samples (little-endian, as the fast path requires). */
+function typedView(format: SampleFormat, buffer: ArrayBuffer, count: number): TypedArray {
+  const bytes = { uint8: 1, int8: 1, uint16: 2, int16: 2, uint32: 4, int32: 4, float32: 4, float64: 8 }[format];
+  if (buffer.byteLength < count * bytes) throw new RasterError('corrupt', `a tile/strip decoded to ${buffer.byteLength} bytes, ${count * bytes} expected`);
+  switch (format) {
+    case 'uint8': return new Uint8Array(buffer, 0, count);
+    case 'int8': return new Int8Array(buffer, 0, count);
+    case 'uint16': return new Uint16Array(buffer, 0, count);
+    case 'int16': return new Int16Array(buffer, 0, count);
+    case 'uint32': return new Uint32Array(buffer, 0, count);
+    case 'int32': return new Int32Array(buffer, 0, count);
+    case 'float32': return new Float32Array(buffer, 0, count);
+    case 'float64': return new Float64Array(buffer, 0, count);
+  }
 }
 
 function readGeoTransform(image: GeoTIFFImage, directory: Directory): { geoTransform: GeoTransform; rasterType: 'area' | 'point' } {
