@@ -23,6 +23,13 @@ export const planItemParams = z.strictObject({ planId: id(), id: id() });
 export const itemParams = z.strictObject({ id: id() });
 
 export const errorSchema = z.object({ error: z.object({ code: z.string(), message: z.string() }).loose() });
+/**
+ * The shared 4xx answer for a route's `response` (errors.ts sends every error through it); loose
+ * inside, so extras such as `currentVersion` on a 409 are kept.
+ */
+export const errorResponses = {
+  '4xx': errorSchema.describe('{ error: { code, message } }; 400 invalid_input names the field and rule, 409 version_conflict adds currentVersion'),
+};
 
 export function pageOf<T extends z.ZodType>(item: T) {
   return z.object({ items: z.array(item), total: z.number().int(), next: z.string().nullable() });

@@ -10,7 +10,7 @@ import { createUser, issueToken, revokeToken, roles, verifyToken } from '../../d
 import { writeWithAudit } from '../../db/repositories/audit.ts';
 import { requireRole, sessionCookieName } from '../auth.ts';
 import { ApiError } from '../errors.ts';
-import { id, itemParams, name, pageQuery } from '../schemas.ts';
+import { errorResponses, id, itemParams, name, pageOf, pageQuery } from '../schemas.ts';
 import { pageWindow, toPage } from '../../db/repositories/pagination.ts';
 
 const sessionDays = 30;
@@ -66,11 +66,25 @@ const tokenView = z.object({
   revokedAt: z.date().nullable(),
 });
 
+const role = z.enum(['planner', 'installer', 'viewer']);
+const meResponse = z.object({
+  user: z.object({ id: z.string(), name: z.string(), email: z.string().nullable() }),
+  team: z.object({ id: z.string(), slug: z.string(), name: z.string() }),
+  role,
+});
+const issuedResponse = z.object({
+  token: z.string().describe('the secret; shown only in this answer'),
+  id: z.string(),
+  userId: z.string(),
+  role,
+  expiresAt: z.date().nullable(),
+});
+
 export default async function authRoutes(app: FastifyInstance): Promise<void> {
   const api = app.withTypeProvider<ZodTypeProvider>();
   const { db } = app.deps;
 
-  api.get('/me', { schema: { summary: 'The signed-in user, team and role', tags: ['auth'] } }, async (request) => {
+  api.get('/me', { schema: { summary: 'The signed-in user, team and role', tags: ['auth'], response: { 200: meResponse, ...errorResponses } } }, async (request) => {
     const user = await db.prisma.user.findUniqueOrThrow({ where: { id: request.principal.userId }, include: { team: true } });
     return {
       user: { id: user.id, name: user.name, email: user.email },
@@ -87,7 +101,7 @@ export default async function authRoutes(app: FastifyInstance): Promise<void> {
 
   api.get(
     '/tokens',
-    { schema: { summary: "The team's tokens (planners only; secrets are never shown again)", tags: ['auth'], querystring: pageQuery } },
+    { schema: { summary: "The team's tokens (planners only; secrets are never shown again)", tags: ['auth'], querystring: pageQuery, response: { 200: pageOf(tokenView), ...errorResponses } } },
     async (request) => {
       const principal = requireRole(request, 'planner');
       const window = pageWindow(request.query);
@@ -118,6 +132,7 @@ export default async function authRoutes(app: FastifyInstance): Promise<void> {
           expiresInDays: z.number().int('must be a whole number').min(1, 'must be ≥ 1').max(3650, 'must be ≤ 3650').optional(),
           oneTime: z.boolean().optional(),
         }),
+        response: { 201: issuedResponse, ...errorResponses },
       },
     },
     async (request, reply) => {

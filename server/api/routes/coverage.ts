@@ -7,7 +7,7 @@ import { join } from 'node:path';
 import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import { recordAudit } from '../../db/repositories/audit.ts';
+import { writeWithAudit } from '../../db/repositories/audit.ts';
 import { cancelCoverageRun, createCoverageRun, findCoverageRun, listCoverageRuns, type CoverageRunRow } from '../../db/repositories/coverage-runs.ts';
 import { listGateways, type GatewayRow } from '../../db/repositories/gateways.ts';
 import { listNodes } from '../../db/repositories/nodes.ts';
@@ -25,7 +25,7 @@ import { resolveFilePath, resultDir, RESULT_FILES, type CoverageJobParams } from
 import { requireRole } from '../auth.ts';
 import { ApiError } from '../errors.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
-import { finite, id, pageQuery, planParams } from '../schemas.ts';
+import { dateTime, errorResponses, finite, id, pageOf, pageQuery, planParams } from '../schemas.ts';
 
 const runParams = z.strictObject({ planId: id(), runId: id() });
 const tileParams = z.strictObject({
@@ -56,6 +56,33 @@ export function maxCoverageCells(env: NodeJS.ProcessEnv = process.env): number {
   const value = Number(env.EARSHOT_MAX_COVERAGE_CELLS ?? 25_000_000);
   return Number.isFinite(value) && value > 0 ? value : 25_000_000;
 }
+
+/** A coverage run as the API answers it (runView). */
+export const coverageRunResponse = z
+  .object({
+    id: z.string(),
+    planId: z.string(),
+    status: z.enum(['queued', 'running', 'done', 'failed', 'cancelled']),
+    progress: z.number().describe('0 … 1'),
+    error: z.string().nullable(),
+    attempts: z.number().int(),
+    gatewayIds: z.array(z.string()),
+    mode: z.string().nullable().describe('fast | full (los from the command line)'),
+    radiusKm: z.number().nullable(),
+    sf: z.number().int().nullable(),
+    requiredMarginDb: z.number().nullable(),
+    summary: z.unknown().describe('null until done; shares of the area per margin class, node classes, per-gateway load'),
+    createdAt: dateTime,
+    startedAt: dateTime.nullable(),
+    finishedAt: dateTime.nullable(),
+  })
+  .loose();
+const legendResponse = z.object({
+  quantity: z.string(),
+  classes: z.array(z.object({ minMarginDb: z.number().describe('dB'), label: z.string(), colour: z.string().describe('#rrggbb') })),
+  transparent: z.string(),
+  note: z.string(),
+});
 
 function runView(run: CoverageRunRow) {
   const params = (run.params ?? {}) as Partial<CoverageJobParams>;
@@ -130,11 +157,11 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
     return raster;
   }
 
-  api.get('/coverage/legend', { schema: { summary: 'Colours of the coverage tiles (margin classes)', tags } }, async () => legend());
+  api.get('/coverage/legend', { schema: { summary: 'Colours of the coverage tiles (margin classes)', tags, response: { 200: legendResponse, ...errorResponses } } }, async () => legend());
 
   api.post(
     '/plans/:planId/coverage',
-    { schema: { summary: 'Start a coverage run over some or all gateways (202 with the queued run)', tags, params: planParams, body: coverageBody } },
+    { schema: { summary: 'Start a coverage run over some or all gateways (202 with the queued run)', tags, params: planParams, body: coverageBody, response: { 202: coverageRunResponse, ...errorResponses } } },
     async (request, reply) => {
       const principal = requireRole(request, 'planner');
       const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
@@ -261,15 +288,19 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
         gateways: jobGateways,
         nodes: nodes.map((n) => ({ id: n.id, lat: n.lat, lon: n.lon })),
       };
-      const run = await createCoverageRun(db, plan.id, { gatewayIds: gateways.map((g) => g.id), params, createdById: principal.userId });
-      await recordAudit(db, { principal, action: 'create', entity: 'coverage_run', entityId: run.id, detail: { planId: plan.id, mode: params.mode, radiusKm: params.radiusKm, gateways: gateways.length } });
+      const run = await writeWithAudit(
+        db,
+        (tx) => createCoverageRun(tx, plan.id, { gatewayIds: gateways.map((g) => g.id), params, createdById: principal.userId }),
+        (created) => ({ principal, action: 'create', entity: 'coverage_run', entityId: created.id, detail: { planId: plan.id, mode: params.mode, radiusKm: params.radiusKm, gateways: gateways.length } }),
+      );
+      // Queued only after the commit, so a worker never picks up a run that was rolled back.
       await jobs.enqueue(run.id);
       reply.code(202);
       return runView(run);
     },
   );
 
-  api.get('/plans/:planId/coverage', { schema: { summary: 'Coverage runs of a plan, newest first', tags, params: planParams, querystring: pageQuery } }, async (request) => {
+  api.get('/plans/:planId/coverage', { schema: { summary: 'Coverage runs of a plan, newest first', tags, params: planParams, querystring: pageQuery, response: { 200: pageOf(coverageRunResponse), ...errorResponses } } }, async (request) => {
     const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
     const page = await listCoverageRuns(db, plan.id, request.query);
     return { ...page, items: page.items.map(runView) };
@@ -284,6 +315,8 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
         tags,
         params: runParams,
         querystring: layerQuery,
+        // The .tif export is a stream: Fastify sends streams without the serializer.
+        response: { 200: coverageRunResponse, ...errorResponses },
       },
     },
     async (request, reply) => {
@@ -295,11 +328,12 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
       const file = layer === 'margin' ? RESULT_FILES.margin : layer === 'loss' ? RESULT_FILES.loss : layer === 'redundancy' ? RESULT_FILES.redundancy : RESULT_FILES.bestSf;
       await resultRaster(run, file);
       reply.header('content-type', 'image/tiff').header('content-disposition', `attachment; filename="coverage-${run.id}-${layer}.tif"`);
-      return reply.send(createReadStream(join(resultDir(config, run.id), file)));
+      // A stream is sent as it is (Fastify skips the serializer); the 200 schema describes the JSON form.
+      return reply.send(createReadStream(join(resultDir(config, run.id), file)) as unknown as ReturnType<typeof runView>);
     },
   );
 
-  api.get('/plans/:planId/coverage/:runId/events', { schema: { summary: 'Progress of a run as server-sent events until it finishes', tags, params: runParams } }, async (request, reply) => {
+  api.get('/plans/:planId/coverage/:runId/events', { schema: { summary: 'Progress of a run as server-sent events until it finishes (text/event-stream)', tags, params: runParams } }, async (request, reply) => {
     const { plan, run } = await loadRun(request, request.params.planId, request.params.runId);
     reply.hijack();
     const res = reply.raw;
@@ -323,12 +357,16 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
     res.end();
   });
 
-  api.post('/plans/:planId/coverage/:runId/cancel', { schema: { summary: 'Cancel a queued or running coverage run', tags, params: runParams } }, async (request) => {
+  api.post('/plans/:planId/coverage/:runId/cancel', { schema: { summary: 'Cancel a queued or running coverage run', tags, params: runParams, response: { 200: coverageRunResponse, ...errorResponses } } }, async (request) => {
     const principal = requireRole(request, 'planner');
     const { plan, run } = await loadRun(request, request.params.planId, request.params.runId);
-    const cancelled = await cancelCoverageRun(db, plan.id, run.id);
-    if (!cancelled) throw new ApiError(409, 'already_finished', `the run is already ${run.status}`);
-    await recordAudit(db, { principal, action: 'cancel', entity: 'coverage_run', entityId: run.id, detail: { planId: plan.id } });
+    await writeWithAudit(
+      db,
+      async (tx) => {
+        if (!(await cancelCoverageRun(tx, plan.id, run.id))) throw new ApiError(409, 'already_finished', `the run is already ${run.status}`);
+      },
+      () => ({ principal, action: 'cancel', entity: 'coverage_run', entityId: run.id, detail: { planId: plan.id } }),
+    );
     return runView((await findCoverageRun(db, plan.id, run.id))!);
   });
 

@@ -25,7 +25,7 @@ import {
 import type { Database } from '../../db/client.ts';
 import { requireRole } from '../auth.ts';
 import { ApiError } from '../errors.ts';
-import { finite, id, itemParams, jsonObject, name, nonNegative, notes, pageQuery, positive, version } from '../schemas.ts';
+import { dateTime, errorResponses, finite, id, itemParams, jsonObject, name, nonNegative, notes, pageOf, pageQuery, positive, version } from '../schemas.ts';
 
 const antennaFields = {
   name: name(),
@@ -74,6 +74,47 @@ const mastFields = {
 const mastCreate = z.strictObject(mastFields);
 const mastPatch = z.strictObject({ ...mastFields, name: name().optional(), heightM: mastFields.heightM.optional(), version: version() });
 
+/** Columns every catalog row has (loose: later columns pass through). */
+const kitRowFields = {
+  id: z.string(),
+  teamId: z.string().nullable().describe('null for built-in rows'),
+  builtIn: z.boolean().describe('true: from server/radio, read-only'),
+  name: z.string(),
+  notes: z.string(),
+  details: z.unknown().describe('the rest of the row as server/radio describes it (JSON object)'),
+  version: z.number().int(),
+  createdAt: dateTime,
+  updatedAt: dateTime,
+};
+const antennaResponse = z
+  .object({
+    ...kitRowFields,
+    kind: z.string(),
+    gainDbi: z.number().describe('dBi'),
+    pattern: z.unknown().describe('radiation pattern tables, dB relative to peak (JSON object)'),
+    polarization: z.string(),
+    fromMhz: z.number(),
+    toMhz: z.number(),
+    typicalVswr: z.number(),
+    costUsd: z.number(),
+    homemade: z.boolean(),
+    buildSheetId: z.string().nullable(),
+  })
+  .loose();
+const feedlineResponse = z
+  .object({
+    ...kitRowFields,
+    lossDbPer100m: z.number().describe('dB per 100 m at referenceMhz'),
+    referenceMhz: z.number(),
+    lossTable: z.unknown().describe('[{ frequencyMhz, lossDbPer100m }]'),
+    connectorLossDb: z.number(),
+    impedanceOhm: z.number(),
+    velocityFactor: z.number().nullable(),
+    costUsdPerM: z.number(),
+  })
+  .loose();
+const mastResponse = z.object({ ...kitRowFields, heightM: z.number().describe('m'), costUsd: z.number() }).loose();
+
 type Row = { id: string; teamId: string | null };
 const withBuiltIn = <T extends Row>(row: T) => ({ ...row, builtIn: row.teamId === null });
 const asJson = <T extends Record<string, unknown>>(body: T) => body as T & Record<string, Prisma.InputJsonValue | undefined>;
@@ -83,6 +124,7 @@ interface Catalog {
   entity: string;
   create: z.ZodType;
   patch: z.ZodType;
+  response: z.ZodType;
   list: (db: Database, teamId: string, query: { limit?: number; cursor?: string }) => Promise<{ items: Row[]; total: number; next: string | null }>;
   find: (db: Database, teamId: string, id: string) => Promise<Row | null>;
   insert: (db: Database, teamId: string, data: Record<string, unknown>) => Promise<Row>;
@@ -95,6 +137,7 @@ const catalogs: Catalog[] = [
     entity: 'antenna design',
     create: antennaCreate,
     patch: antennaPatch,
+    response: antennaResponse,
     list: listAntennaDesigns,
     find: findAntennaDesignRow,
     insert: (db, teamId, data) => createAntennaDesign(db, teamId, asJson(data) as Parameters<typeof createAntennaDesign>[2]),
@@ -105,6 +148,7 @@ const catalogs: Catalog[] = [
     entity: 'feedline',
     create: feedlineCreate,
     patch: feedlinePatch,
+    response: feedlineResponse,
     list: listFeedlines,
     find: findFeedlineRow,
     insert: (db, teamId, data) => createFeedline(db, teamId, asJson(data) as Parameters<typeof createFeedline>[2]),
@@ -115,6 +159,7 @@ const catalogs: Catalog[] = [
     entity: 'mast option',
     create: mastCreate,
     patch: mastPatch,
+    response: mastResponse,
     list: listMasts,
     find: findMastRow,
     insert: (db, teamId, data) => createMast(db, teamId, asJson(data) as Parameters<typeof createMast>[2]),
@@ -136,24 +181,24 @@ export default async function kitRoutes(app: FastifyInstance): Promise<void> {
       return row;
     };
 
-    api.get(base, { schema: { summary: `Built-in and team ${catalog.entity}s`, tags, querystring: pageQuery } }, async (request) => {
+    api.get(base, { schema: { summary: `Built-in and team ${catalog.entity}s`, tags, querystring: pageQuery, response: { 200: pageOf(catalog.response), ...errorResponses } } }, async (request) => {
       const page = await catalog.list(db, request.principal.teamId, request.query);
       return { ...page, items: page.items.map(withBuiltIn) };
     });
 
-    api.get(`${base}/:id`, { schema: { summary: `One ${catalog.entity}`, tags, params: itemParams } }, async (request) => {
+    api.get(`${base}/:id`, { schema: { summary: `One ${catalog.entity}`, tags, params: itemParams, response: { 200: catalog.response, ...errorResponses } } }, async (request) => {
       const row = await catalog.find(db, request.principal.teamId, request.params.id);
       if (!row) throw new ApiError(404, 'not_found', `${catalog.entity} not found`);
       return withBuiltIn(row);
     });
 
-    api.post(base, { schema: { summary: `Add a team ${catalog.entity}`, tags, body: catalog.create } }, async (request, reply) => {
+    api.post(base, { schema: { summary: `Add a team ${catalog.entity}`, tags, body: catalog.create, response: { 201: catalog.response, ...errorResponses } } }, async (request, reply) => {
       const principal = requireRole(request, 'planner');
       const row = await writeWithAudit(db, (tx) => catalog.insert(tx, principal.teamId, request.body as Record<string, unknown>), (created) => ({ principal, action: 'create', entity: catalog.entity, entityId: created.id }));
       return reply.status(201).send(withBuiltIn(row));
     });
 
-    api.patch(`${base}/:id`, { schema: { summary: `Update a team ${catalog.entity} (send the version you read)`, tags, params: itemParams, body: catalog.patch } }, async (request) => {
+    api.patch(`${base}/:id`, { schema: { summary: `Update a team ${catalog.entity} (send the version you read)`, tags, params: itemParams, body: catalog.patch, response: { 200: catalog.response, ...errorResponses } } }, async (request) => {
       const principal = requireRole(request, 'planner');
       await ownRow(principal.teamId, request.params.id);
       const { version: expected, ...patch } = request.body as { version: number } & Record<string, unknown>;

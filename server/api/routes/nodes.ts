@@ -13,7 +13,7 @@ import { ApiError } from '../errors.ts';
 import { assertKitVisible } from '../kit-check.ts';
 import { ImportFormatError, importRecords, validateRecords, type RowError } from '../node-import.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
-import { dateTime, finite, id, latitude, longitude, name, nonNegative, notes, pageOf, pageQuery, planItemParams, planParams, version } from '../schemas.ts';
+import { dateTime, errorResponses, finite, id, latitude, longitude, name, nonNegative, notes, pageOf, pageQuery, planItemParams, planParams, version } from '../schemas.ts';
 import { findAntennaDesignRow, findFeedlineRow, findMastRow } from '../../db/repositories/kit.ts';
 
 export const defaultNodeAntennaId = 'helical-stub';
@@ -136,7 +136,7 @@ export default async function nodeRoutes(app: FastifyInstance): Promise<void> {
         tags,
         params: planParams,
         querystring: pageQuery.extend({ installStatus: z.enum(installStatuses).optional(), deviceType: z.string().max(200).optional() }),
-        response: { 200: pageOf(nodeResponse) },
+        response: { 200: pageOf(nodeResponse), ...errorResponses },
       },
     },
     async (request) => {
@@ -148,7 +148,7 @@ export default async function nodeRoutes(app: FastifyInstance): Promise<void> {
     },
   );
 
-  api.post('/plans/:planId/nodes', { schema: { summary: 'Add a node (antenna defaults to a helical stub)', tags, params: planParams, body: nodeCreateBody, response: { 201: nodeResponse } } }, async (request, reply) => {
+  api.post('/plans/:planId/nodes', { schema: { summary: 'Add a node (antenna defaults to a helical stub)', tags, params: planParams, body: nodeCreateBody, response: { 201: nodeResponse, ...errorResponses } } }, async (request, reply) => {
     const principal = requireRole(request, 'planner');
     const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
     const data = toNodeData(request.body);
@@ -198,7 +198,7 @@ export default async function nodeRoutes(app: FastifyInstance): Promise<void> {
     },
   );
 
-  api.get('/plans/:planId/nodes/:id', { schema: { summary: 'One node', tags, params: planItemParams, response: { 200: nodeResponse } } }, async (request) => {
+  api.get('/plans/:planId/nodes/:id', { schema: { summary: 'One node', tags, params: planItemParams, response: { 200: nodeResponse, ...errorResponses } } }, async (request) => {
     const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
     const node = await findNode(db, plan.id, request.params.id);
     if (!node) throw new ApiError(404, 'not_found', 'node not found');
@@ -207,7 +207,7 @@ export default async function nodeRoutes(app: FastifyInstance): Promise<void> {
 
   api.patch(
     '/plans/:planId/nodes/:id',
-    { schema: { summary: 'Update a node (send the version you read); installers may change installStatus and notes', tags, params: planItemParams, body: nodePatchBody, response: { 200: nodeResponse } } },
+    { schema: { summary: 'Update a node (send the version you read); installers may change installStatus and notes', tags, params: planItemParams, body: nodePatchBody, response: { 200: nodeResponse, ...errorResponses } } },
     async (request) => {
       const principal = requireRole(request, 'planner', 'installer');
       const plan = await loadPlanForPrincipal(db, principal, request.params.planId);

@@ -13,7 +13,7 @@ import type { PlanFiles } from '../../db/repositories/plans.ts';
 import type { Prisma } from '../../db/generated/client.ts';
 import { requireRole } from '../auth.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
-import { dateTime, finite, jsonObject, name, notes, pageOf, pageQuery, planParams, version } from '../schemas.ts';
+import { dateTime, errorResponses, finite, jsonObject, name, notes, pageOf, pageQuery, planParams, version } from '../schemas.ts';
 
 const bandPlanIds = bandPlans.map((plan) => plan.id) as [string, ...string[]];
 
@@ -88,11 +88,11 @@ export default async function planRoutes(app: FastifyInstance): Promise<void> {
   const { db } = app.deps;
   const tags = ['plans'];
 
-  api.get('/plans', { schema: { summary: "The team's plans", tags, querystring: pageQuery, response: { 200: pageOf(planResponse) } } }, async (request) =>
+  api.get('/plans', { schema: { summary: "The team's plans", tags, querystring: pageQuery, response: { 200: pageOf(planResponse), ...errorResponses } } }, async (request) =>
     listPlans(db, request.principal.teamId, request.query),
   );
 
-  api.post('/plans', { schema: { summary: 'Create a plan (only name is required; defaults: US 902-928 MHz, 10 dB target margin, P.1812)', tags, body: planCreateBody, response: { 201: planResponse } } }, async (request, reply) => {
+  api.post('/plans', { schema: { summary: 'Create a plan (only name is required; defaults: US 902-928 MHz, 10 dB target margin, P.1812)', tags, body: planCreateBody, response: { 201: planResponse, ...errorResponses } } }, async (request, reply) => {
     const principal = requireRole(request, 'planner');
     const plan = await writeWithAudit(
       db,
@@ -102,12 +102,12 @@ export default async function planRoutes(app: FastifyInstance): Promise<void> {
     return reply.status(201).send(plan);
   });
 
-  api.get('/plans/:planId', { schema: { summary: 'One plan with counts of what it holds', tags, params: planParams, response: { 200: planWithCounts } } }, async (request) => {
+  api.get('/plans/:planId', { schema: { summary: 'One plan with counts of what it holds', tags, params: planParams, response: { 200: planWithCounts, ...errorResponses } } }, async (request) => {
     const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
     return { ...plan, counts: await planCounts(db, plan.id) };
   });
 
-  api.patch('/plans/:planId', { schema: { summary: 'Update a plan (send the version you read; stale -> 409)', tags, params: planParams, body: planPatchBody, response: { 200: planResponse } } }, async (request) => {
+  api.patch('/plans/:planId', { schema: { summary: 'Update a plan (send the version you read; stale -> 409)', tags, params: planParams, body: planPatchBody, response: { 200: planResponse, ...errorResponses } } }, async (request) => {
     const principal = requireRole(request, 'planner');
     const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
     const { version: expected, ...patch } = request.body;

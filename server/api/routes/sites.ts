@@ -7,7 +7,7 @@ import { createSite, deleteSite, findSite, listSites, updateSite } from '../../d
 import { requireRole } from '../auth.ts';
 import { ApiError } from '../errors.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
-import { dateTime, finite, latitude, longitude, name, nonNegative, notes, pageOf, pageQuery, planItemParams, planParams, version } from '../schemas.ts';
+import { dateTime, errorResponses, finite, latitude, longitude, name, nonNegative, notes, pageOf, pageQuery, planItemParams, planParams, version } from '../schemas.ts';
 
 const siteFields = {
   name: name(),
@@ -45,27 +45,27 @@ export default async function siteRoutes(app: FastifyInstance): Promise<void> {
   const { db } = app.deps;
   const tags = ['sites'];
 
-  api.get('/plans/:planId/sites', { schema: { summary: 'Sites of a plan', tags, params: planParams, querystring: pageQuery.extend({ kind: z.enum(['candidate', 'used']).optional() }), response: { 200: pageOf(siteResponse) } } }, async (request) => {
+  api.get('/plans/:planId/sites', { schema: { summary: 'Sites of a plan', tags, params: planParams, querystring: pageQuery.extend({ kind: z.enum(['candidate', 'used']).optional() }), response: { 200: pageOf(siteResponse), ...errorResponses } } }, async (request) => {
     const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
     const { kind, ...page } = request.query;
     return listSites(db, plan.id, page, kind ? { kind } : {});
   });
 
-  api.post('/plans/:planId/sites', { schema: { summary: 'Add a site', tags, params: planParams, body: siteCreateBody, response: { 201: siteResponse } } }, async (request, reply) => {
+  api.post('/plans/:planId/sites', { schema: { summary: 'Add a site', tags, params: planParams, body: siteCreateBody, response: { 201: siteResponse, ...errorResponses } } }, async (request, reply) => {
     const principal = requireRole(request, 'planner');
     const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
     const site = await writeWithAudit(db, (tx) => createSite(tx, plan.id, request.body), (row) => ({ principal, action: 'create', entity: 'site', entityId: row.id, detail: { planId: plan.id, name: row.name } }));
     return reply.status(201).send(site);
   });
 
-  api.get('/plans/:planId/sites/:id', { schema: { summary: 'One site', tags, params: planItemParams, response: { 200: siteResponse } } }, async (request) => {
+  api.get('/plans/:planId/sites/:id', { schema: { summary: 'One site', tags, params: planItemParams, response: { 200: siteResponse, ...errorResponses } } }, async (request) => {
     const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
     const site = await findSite(db, plan.id, request.params.id);
     if (!site) throw new ApiError(404, 'not_found', 'site not found');
     return site;
   });
 
-  api.patch('/plans/:planId/sites/:id', { schema: { summary: 'Update a site (send the version you read)', tags, params: planItemParams, body: sitePatchBody, response: { 200: siteResponse } } }, async (request) => {
+  api.patch('/plans/:planId/sites/:id', { schema: { summary: 'Update a site (send the version you read)', tags, params: planItemParams, body: sitePatchBody, response: { 200: siteResponse, ...errorResponses } } }, async (request) => {
     const principal = requireRole(request, 'planner');
     const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
     const { version: expected, ...patch } = request.body;

@@ -2,7 +2,8 @@
 // hillshade basemap tiles rendered from the plan's elevation layers (offline map).
 // Uploads are streamed to a temporary file, validated (TIFF, georeferencing, compression,
 // size, tile table, a few decoded tiles, overlap with the plan), then the row is inserted
-// and the file renamed into place inside one transaction: nothing is ever half-stored.
+// its audit entry written and the file renamed into place inside one transaction: nothing is
+// ever half-stored (a failed transaction removes the renamed file).
 import { createHash, randomUUID } from 'node:crypto';
 import { createWriteStream } from 'node:fs';
 import { mkdir, readdir, rename, rm, stat } from 'node:fs/promises';
@@ -12,7 +13,7 @@ import multipart from '@fastify/multipart';
 import type { FastifyInstance, FastifyRequest } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import { recordAudit } from '../../db/repositories/audit.ts';
+import { writeWithAudit } from '../../db/repositories/audit.ts';
 import type { Database } from '../../db/client.ts';
 import { allTerrainLayers, createTerrainLayerWith, deleteTerrainLayer, listTerrainLayers, planExtent, terrainFilePaths, type TerrainLayerRow } from '../../db/repositories/terrain-layers.ts';
 import { crsForEpsg } from '../../terrain/crs.ts';
@@ -21,7 +22,7 @@ import { renderHillshadeTile, validTile } from '../../terrain/tiles.ts';
 import { requireRole } from '../auth.ts';
 import { ApiError } from '../errors.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
-import { id, name, pageQuery, planParams } from '../schemas.ts';
+import { dateTime, errorResponses, id, name, pageOf, pageQuery, planParams } from '../schemas.ts';
 
 const uploadQuery = z.strictObject({
   kind: z.enum(['elevation', 'clutter'], { error: 'must be elevation or clutter' }).optional(),
@@ -45,6 +46,29 @@ const STATUS_FOR: Record<RasterError['code'], number> = {
   corrupt: 422,
 };
 
+const box = z.object({ west: z.number(), south: z.number(), east: z.number(), north: z.number() }).describe('degrees WGS84');
+/** A terrain layer as the API answers it (terrainLayerDto). */
+export const terrainLayerResponse = z
+  .object({
+    id: z.string(),
+    planId: z.string(),
+    kind: z.enum(['elevation', 'clutter']),
+    name: z.string(),
+    widthPx: z.number().int(),
+    heightPx: z.number().int(),
+    cells: z.number().int(),
+    fileBytes: z.number().int(),
+    sha256: z.string().nullable(),
+    crs: z.object({ epsg: z.number().int().nullable(), name: z.string().nullable(), proj4: z.string() }),
+    geoTransform: z.array(z.number()).describe('GDAL order: x0, pixel width, row rotation, y0, column rotation, pixel height (CRS units)'),
+    extent: box,
+    resolutionM: z.number().describe('m per pixel (the finer axis)'),
+    noData: z.number().nullable(),
+    priority: z.number().int(),
+    createdAt: dateTime,
+  })
+  .loose();
+
 /** The layer as the API shows it. */
 export function terrainLayerDto(row: TerrainLayerRow) {
   let crsName: string | null = null;
@@ -66,7 +90,8 @@ export function terrainLayerDto(row: TerrainLayerRow) {
     fileBytes: Number(row.fileBytes),
     sha256: row.sha256,
     crs: { epsg: row.epsg, name: crsName, proj4: row.proj4 },
-    geoTransform: row.geoTransform,
+    // Always the six numbers the upload stored.
+    geoTransform: row.geoTransform as number[],
     extent: { west: row.west, south: row.south, east: row.east, north: row.north },
     resolutionM: row.resolutionM,
     noData: row.noData,
@@ -219,7 +244,7 @@ export default async function terrainRoutes(app: FastifyInstance): Promise<void>
     }
   };
 
-  api.get('/plans/:planId/terrain', { schema: { summary: 'Terrain layers of a plan (extent, CRS, resolution, size)', tags, params: planParams, querystring: pageQuery } }, async (request) => {
+  api.get('/plans/:planId/terrain', { schema: { summary: 'Terrain layers of a plan (extent, CRS, resolution, size)', tags, params: planParams, querystring: pageQuery, response: { 200: pageOf(terrainLayerResponse), ...errorResponses } } }, async (request) => {
     const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
     const page = await listTerrainLayers(db, plan.id, request.query);
     return { ...page, items: page.items.map(terrainLayerDto) };
@@ -233,6 +258,7 @@ export default async function terrainRoutes(app: FastifyInstance): Promise<void>
         tags,
         params: planParams,
         querystring: uploadQuery,
+        response: { 201: terrainLayerResponse, ...errorResponses },
       },
     },
     async (request, reply) => {
@@ -308,6 +334,7 @@ export default async function terrainRoutes(app: FastifyInstance): Promise<void>
             noData: info.noData === null || Number.isNaN(info.noData) ? null : info.noData,
             createdById: principal.userId,
           },
+          (created) => ({ principal, action: 'create', entity: 'terrain_layer', entityId: created.id, detail: { planId: plan.id, kind, name: created.name, fileBytes: received.bytes, sha256: received.sha256 } }),
           async () => {
             await info.close();
             raster = null;
@@ -316,7 +343,6 @@ export default async function terrainRoutes(app: FastifyInstance): Promise<void>
           },
         );
         dropRasters(plan.id);
-        await recordAudit(db, { principal, action: 'create', entity: 'terrain_layer', entityId: row.id, detail: { planId: plan.id, kind, name: row.name, fileBytes: received.bytes, sha256: received.sha256 } });
         return reply.status(201).send(terrainLayerDto(row));
       } catch (error) {
         if (renamed) await rm(finalPath, { force: true });
@@ -328,14 +354,21 @@ export default async function terrainRoutes(app: FastifyInstance): Promise<void>
     },
   );
 
-  api.delete('/plans/:planId/terrain/:layerId', { schema: { summary: 'Delete a terrain layer and its file', tags, params: layerParams } }, async (request, reply) => {
+  api.delete('/plans/:planId/terrain/:layerId', { schema: { summary: 'Delete a terrain layer and its file (204)', tags, params: layerParams } }, async (request, reply) => {
     const principal = requireRole(request, 'planner');
     const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
-    const row = await deleteTerrainLayer(db, plan.id, request.params.layerId);
-    if (!row) throw new ApiError(404, 'not_found', 'terrain layer not found');
+    const row = await writeWithAudit(
+      db,
+      async (tx) => {
+        const deleted = await deleteTerrainLayer(tx, plan.id, request.params.layerId);
+        if (!deleted) throw new ApiError(404, 'not_found', 'terrain layer not found');
+        return deleted;
+      },
+      (deleted) => ({ principal, action: 'delete', entity: 'terrain_layer', entityId: deleted.id, detail: { planId: plan.id, name: deleted.name } }),
+    );
+    // Only after the commit: a rolled-back delete keeps its file.
     dropRasters(plan.id);
     await rm(resolveFile(row.filePath), { force: true });
-    await recordAudit(db, { principal, action: 'delete', entity: 'terrain_layer', entityId: row.id, detail: { planId: plan.id, name: row.name } });
     return reply.status(204).send();
   });
 

@@ -41,7 +41,7 @@ export async function recordAudit(db: Database | { prisma: Writer }, input: Audi
  * outer connection and must not be used inside). `audit` builds the entry from the result.
  */
 /** Generous limits: a loaded machine (or scrypt hashing a token inside the write) can exceed Prisma's 5 s default. */
-const transactionLimits = { maxWait: 30_000, timeout: 60_000 };
+export const transactionLimits = { maxWait: 30_000, timeout: 60_000 };
 
 export async function writeWithAudit<T>(
   db: Database,

@@ -2,18 +2,31 @@
 // <filesDir>/<filePath>. Callers resolve the plan through the team scope first.
 import type { Database } from '../client.ts';
 import type { Prisma } from '../generated/client.ts';
+import { recordAudit, transactionLimits, type AuditInput } from './audit.ts';
 import { pageWindow, toPage, type PageQuery } from './pagination.ts';
 
 export type TerrainLayerRow = Awaited<ReturnType<Database['prisma']['terrainLayer']['findFirstOrThrow']>>;
 export type TerrainLayerCreate = Omit<Prisma.TerrainLayerUncheckedCreateInput, 'planId' | 'createdAt'> & { id: string };
 
-/** Inserts a row inside a transaction callback, so the caller can move the file into place before the commit. */
-export async function createTerrainLayerWith<T>(db: Database, planId: string, data: TerrainLayerCreate, beforeCommit: (row: TerrainLayerRow) => Promise<T> | T): Promise<{ row: TerrainLayerRow; result: T }> {
+/**
+ * Inserts a row, runs `beforeCommit` (the caller moves the file into place there) and inserts
+ * the audit entry, in one transaction: if any step or the commit fails, no row and no entry are
+ * kept (the caller removes a file it already moved).
+ */
+export async function createTerrainLayerWith<T>(
+  db: Database,
+  planId: string,
+  data: TerrainLayerCreate,
+  audit: (row: TerrainLayerRow) => AuditInput,
+  beforeCommit: (row: TerrainLayerRow) => Promise<T> | T,
+): Promise<{ row: TerrainLayerRow; result: T }> {
   return db.prisma.$transaction(async (tx) => {
     const row = await tx.terrainLayer.create({ data: { ...data, planId } });
     const result = await beforeCommit(row);
+    // After the file move, so a refused audit entry also exercises the caller's file clean-up.
+    await recordAudit({ prisma: tx }, audit(row));
     return { row, result };
-  });
+  }, transactionLimits);
 }
 
 export async function findTerrainLayer(db: Database, planId: string, id: string): Promise<TerrainLayerRow | null> {
