@@ -1,9 +1,10 @@
 // Runs one area prediction either in the calling thread or split over the
-// worker pool (ray sectors, then bands of rows), with progress and cancel.
+// worker pool (chunks of rays, then bands of rows, taken by the workers from
+// shared counters), with progress and cancel.
 import { planArea, rasteriseBasicLoss, rasteriseVisibility, sampleBufferLength, sweepSector, type AreaRequest, type AreaResult } from '../coverage/area.ts';
 import type { TerrainWindow } from '../coverage/sweep.ts';
-import { WorkerPool } from './pool.ts';
-import type { AreaTask } from './pool-worker.ts';
+import { CONTROL, WorkerPool } from './pool.ts';
+import type { AreaTask, AreaTaskResult } from './pool-worker.ts';
 
 export class RunCancelledError extends Error {
   constructor() {
@@ -24,6 +25,9 @@ export interface RunOptions {
 
 /** Share of the work done by the sweep phase (the rest is rasterisation), for progress. */
 const SWEEP_SHARE = 0.85;
+
+/** Chunks of rays (and bands of rows) per run: small enough that the workers end within one chunk of each other. */
+const CHUNKS_PER_PHASE = 96;
 
 function shared(bytes: number): SharedArrayBuffer {
   return new SharedArrayBuffer(Math.max(4, bytes));
@@ -62,50 +66,66 @@ export async function runArea(terrain: TerrainWindow, request: AreaRequest, opti
     return result;
   }
 
+  checkCancel();
   const pool = options.pool ?? new WorkerPool(workers);
   try {
-    const elevation = shared(terrain.elevationM.byteLength);
-    new Float32Array(elevation).set(terrain.elevationM);
-    let clutter: SharedArrayBuffer | undefined;
-    if (terrain.clutterHeightM) {
-      clutter = shared(terrain.clutterHeightM.byteLength);
-      new Float32Array(clutter).set(terrain.clutterHeightM);
-    }
+    // The window goes to the workers as shared memory (no copy when it already is).
+    const toShared = (values: Float32Array): SharedArrayBuffer => {
+      if (values.buffer instanceof SharedArrayBuffer && values.byteOffset === 0 && values.byteLength === values.buffer.byteLength) return values.buffer;
+      const buffer = shared(values.byteLength);
+      new Float32Array(buffer).set(values);
+      return buffer;
+    };
+    const elevation = toShared(terrain.elevationM);
+    const clutter = terrain.clutterHeightM ? toShared(terrain.clutterHeightM) : undefined;
     const samples = shared(sampleBufferLength(plan) * 4);
     const out = shared(request.mode === 'los' ? cells : cells * 4);
+    const control = new SharedArrayBuffer(CONTROL.length * 4);
+    const counters = new Int32Array(control);
     const { full: _full, ...plainRequest } = request;
-    let id = 0;
-    const base = { frame: terrain.frame, elevation, clutter, plan, request: plainRequest, samples, out };
-
-    // Phase 1: sectors of rays; several per worker so a slow sector does not hold the others up.
-    const sectors = Math.min(plan.rayCount, pool.size * 8);
-    const raysPerSector = Math.ceil(plan.rayCount / sectors);
-    let raysDone = 0;
-    const sweeps: Promise<unknown>[] = [];
-    for (let r = 0; r < plan.rayCount; r += raysPerSector) {
-      const end = Math.min(plan.rayCount, r + raysPerSector);
-      const task: AreaTask = { ...base, id: id++, phase: 'sweep', start: r, end };
-      sweeps.push(
-        pool.exec(task).then(() => {
-          raysDone += end - r;
-          progress((SWEEP_SHARE * raysDone) / plan.rayCount);
-          checkCancel();
-        }),
-      );
+    // One task per worker; the workers take chunks of rays, then bands of rows, from the shared counters
+    // (pool-worker.ts runShare). The chunks do not depend on the pool size, and every ray and cell is
+    // computed by the same code whoever takes it, so 1, 2 or n workers give the same bytes.
+    const raysPerChunk = Math.max(4, Math.ceil(plan.rayCount / CHUNKS_PER_PHASE));
+    const rowsPerBand = Math.max(2, Math.ceil(heightPx / CHUNKS_PER_PHASE));
+    const stop = () => {
+      Atomics.store(counters, CONTROL.stop, 1);
+      Atomics.notify(counters, CONTROL.raysDone);
+    };
+    const onAbort = () => stop();
+    options.signal?.addEventListener('abort', onAbort);
+    let reported = 0;
+    const report = () => {
+      const rays = Math.min(plan.rayCount, Atomics.load(counters, CONTROL.raysDone));
+      const rows = Math.min(heightPx, Atomics.load(counters, CONTROL.rowsDone));
+      const fraction = (SWEEP_SHARE * rays) / plan.rayCount + ((1 - SWEEP_SHARE) * rows) / heightPx;
+      if (fraction > reported && fraction < 1) {
+        reported = fraction;
+        progress(fraction);
+      }
+    };
+    const timer = setInterval(report, 50);
+    let results: PromiseSettledResult<AreaTaskResult>[];
+    try {
+      const tasks: Promise<AreaTaskResult>[] = [];
+      for (let i = 0; i < pool.size; i++) {
+        const task: AreaTask = { id: i, phase: 'area', frame: terrain.frame, elevation, clutter, plan, request: plainRequest, samples, out, start: raysPerChunk, end: rowsPerBand, control };
+        // A failed worker (error, or a thread that died) stops the others, which may be waiting at the barrier for its chunk.
+        tasks.push(pool.exec(task).catch((error: unknown) => {
+          stop();
+          throw error;
+        }));
+      }
+      results = await Promise.allSettled(tasks);
+    } finally {
+      clearInterval(timer);
+      options.signal?.removeEventListener('abort', onAbort);
     }
-    await Promise.all(sweeps);
+    const failed = results.find((r): r is PromiseRejectedResult => r.status === 'rejected');
+    if (failed) throw failed.reason instanceof Error ? failed.reason : new Error(String(failed.reason));
     checkCancel();
-
-    // Phase 2: bands of rows.
-    const bands = Math.min(heightPx, pool.size * 4);
-    const rowsPerBand = Math.ceil(heightPx / bands);
-    let visibleCells = 0;
-    const rasters: Promise<unknown>[] = [];
-    for (let row = 0; row < heightPx; row += rowsPerBand) {
-      const task: AreaTask = { ...base, id: id++, phase: 'rasterise', start: row, end: Math.min(heightPx, row + rowsPerBand) };
-      rasters.push(pool.exec(task).then((result) => (visibleCells += result.visibleCells ?? 0)));
-    }
-    await Promise.all(rasters);
+    if (Atomics.load(counters, CONTROL.rowsDone) !== heightPx) throw new RunCancelledError();
+    const visibleCells = results.reduce((sum, r) => sum + (r.status === 'fulfilled' ? (r.value.visibleCells ?? 0) : 0), 0);
     progress(1);
     if (request.mode === 'los') return { mode: request.mode, plan, visible: new Uint8Array(out), visibleCells };
     return { mode: request.mode, plan, lossDb: new Float32Array(out) };

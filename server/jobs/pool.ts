@@ -6,6 +6,9 @@ import { availableParallelism } from 'node:os';
 import { Worker } from 'node:worker_threads';
 import type { AreaTask, AreaTaskResult } from './pool-worker.ts';
 
+/** Int32 slots of the shared control buffer of an 'area' task (area-runner.ts ↔ pool-worker.ts). */
+export const CONTROL = { nextRay: 0, raysDone: 1, nextRow: 2, rowsDone: 3, stop: 4, length: 8 } as const;
+
 interface Pending<Task, Result> {
   task: Task;
   resolve: (result: Result) => void;

@@ -161,7 +161,8 @@ export async function run(): Promise<void> {
         await runArea(loaded.terrain, { ...request, radiusM: 1000 }, { pool: pool2 });
         const one: number[] = [];
         const two: number[] = [];
-        for (let repeat = 0; repeat < 2; repeat++) {
+        // Alternated, best of 3 each, so both see the same machine load.
+        for (let repeat = 0; repeat < 3; repeat++) {
           let t0 = performance.now();
           await runArea(loaded.terrain, request, { pool: pool1 });
           one.push(performance.now() - t0);
@@ -169,7 +170,7 @@ export async function run(): Promise<void> {
           await runArea(loaded.terrain, request, { pool: pool2 });
           two.push(performance.now() - t0);
         }
-        log(`workers ${mode} R ${rKm} km: 1 worker ${best(one).toFixed(0)} ms, 2 workers ${best(two).toFixed(0)} ms → speed-up ${(best(one) / best(two)).toFixed(2)}×`);
+        log(`workers ${mode} R ${rKm} km: 1 worker ${best(one).toFixed(0)} ms, 2 workers ${best(two).toFixed(0)} ms → 1→2 worker speed-up ${(best(one) / best(two)).toFixed(2)}× (all runs: 1 worker ${one.map((t) => t.toFixed(0)).join('/')} ms, 2 workers ${two.map((t) => t.toFixed(0)).join('/')} ms; load average now ${loadavg()[0].toFixed(1)})`);
       }
 
       // 4. Fleet: 10 gateways over a 30 × 30 km, 30 m DEM (1000 × 1000 cells), fast, R = 10 km each, 2 workers.

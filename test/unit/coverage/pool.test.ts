@@ -43,4 +43,30 @@ describe('worker-thread pool (ray sectors, then row bands, over shared memory)',
     await expect(runArea(terrain, { mode: 'fast', ...base }, { pool, signal: controller.signal })).rejects.toBeInstanceOf(RunCancelledError);
     await expect(runArea(terrain, { mode: 'fast', ...base }, { workers: 1, signal: controller.signal })).rejects.toBeInstanceOf(RunCancelledError);
   });
+
+  it.each(['los', 'fast', 'full'] as const)('%s: 1, 2 and 3 workers give the same bytes (chunks are taken dynamically from shared counters)', async (mode) => {
+    const request: AreaRequest = { mode, ...base, radiusM: mode === 'full' ? 900 : 3_500 };
+    const pools = [new WorkerPool(1), new WorkerPool(3)];
+    try {
+      const runs = [await runArea(terrain, request, { pool: pools[0] }), await runArea(terrain, request, { pool }), await runArea(terrain, request, { pool: pools[1] })];
+      const bytes = runs.map((r) => Buffer.from(mode === 'los' ? r.visible! : new Uint8Array(r.lossDb!.buffer)));
+      expect(bytes[0].length).toBe(N * N * (mode === 'los' ? 1 : 4));
+      expect(bytes[1].equals(bytes[0])).toBe(true);
+      expect(bytes[2].equals(bytes[0])).toBe(true);
+      if (mode === 'los') expect(new Set(runs.map((r) => r.visibleCells)).size).toBe(1);
+      else expect(runs[0].lossDb!.some((v) => v === v)).toBe(true);
+    } finally {
+      await Promise.all(pools.map((p) => p.close()));
+    }
+  });
+
+  it('an abort during the run stops every worker (also one waiting at the barrier) and rejects; the pool stays usable', async () => {
+    const controller = new AbortController();
+    const run = runArea(terrain, { mode: 'full', ...base, radiusM: 3_000 }, { pool, signal: controller.signal, onProgress: () => controller.abort() });
+    setTimeout(() => controller.abort(), 30);
+    await expect(run).rejects.toBeInstanceOf(RunCancelledError);
+    const request: AreaRequest = { mode: 'fast', ...base };
+    const again = await runArea(terrain, request, { pool });
+    expect(Buffer.from(again.lossDb!.buffer).equals(Buffer.from(predictArea(terrain, request).lossDb!.buffer))).toBe(true);
+  });
 });
