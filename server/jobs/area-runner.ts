@@ -69,16 +69,24 @@ export async function runArea(terrain: TerrainWindow, request: AreaRequest, opti
   checkCancel();
   const pool = options.pool ?? new WorkerPool(workers);
   try {
-    // The window goes to the workers as shared memory (no copy when it already is).
+    // The window goes to the workers as shared memory (no copy when it already is). Window, clutter and
+    // ray-sample buffers are internal to the run and are reused by the pool's next run of the same size;
+    // the output is returned to the caller, so it is always fresh.
+    const reused: SharedArrayBuffer[] = [];
+    const take = (bytes: number): SharedArrayBuffer => {
+      const buffer = pool.takeShared(Math.max(4, bytes));
+      reused.push(buffer);
+      return buffer;
+    };
     const toShared = (values: Float32Array): SharedArrayBuffer => {
       if (values.buffer instanceof SharedArrayBuffer && values.byteOffset === 0 && values.byteLength === values.buffer.byteLength) return values.buffer;
-      const buffer = shared(values.byteLength);
+      const buffer = take(values.byteLength);
       new Float32Array(buffer).set(values);
       return buffer;
     };
     const elevation = toShared(terrain.elevationM);
     const clutter = terrain.clutterHeightM ? toShared(terrain.clutterHeightM) : undefined;
-    const samples = shared(sampleBufferLength(plan) * 4);
+    const samples = take(sampleBufferLength(plan) * 4);
     const out = shared(request.mode === 'los' ? cells : cells * 4);
     const control = new SharedArrayBuffer(CONTROL.length * 4);
     const counters = new Int32Array(control);
@@ -117,6 +125,8 @@ export async function runArea(terrain: TerrainWindow, request: AreaRequest, opti
         }));
       }
       results = await Promise.allSettled(tasks);
+      // Every task has answered (or its thread is gone), so no worker reads these buffers any more.
+      for (const buffer of reused) pool.giveBackShared(buffer);
     } finally {
       clearInterval(timer);
       options.signal?.removeEventListener('abort', onAbort);

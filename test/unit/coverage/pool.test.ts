@@ -69,4 +69,12 @@ describe('worker-thread pool (ray sectors, then row bands, over shared memory)',
     const again = await runArea(terrain, request, { pool });
     expect(Buffer.from(again.lossDb!.buffer).equals(Buffer.from(predictArea(terrain, request).lossDb!.buffer))).toBe(true);
   });
+
+  it('buffers reused between runs of the same size carry nothing over: back-to-back runs each match their single-thread result', async () => {
+    for (const heightAglM of [40, 3, 40]) {
+      const request: AreaRequest = { mode: 'fast', ...base, heightAglM };
+      const pooled = await runArea(terrain, request, { pool });
+      expect(Buffer.from(pooled.lossDb!.buffer).equals(Buffer.from(predictArea(terrain, request).lossDb!.buffer))).toBe(true);
+    }
+  });
 });
