@@ -146,6 +146,8 @@ export interface Gateway {
   lon: number;
   antennaDesignId: string;
   antennaHeightAglM: number;
+  /** Degrees clockwise from true north; null = omni, or a directional antenna aimed at each node. */
+  antennaAzimuthDeg?: number | null;
   feedlineId: string;
   feedlineLengthM?: number;
   mastOptionId?: string | null;
