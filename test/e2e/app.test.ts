@@ -38,6 +38,34 @@ async function textOf(selector: string): Promise<string> {
   return (await page.locator(selector).first().textContent()) ?? '';
 }
 
+/**
+ * Someone else changes the open node (a PATCH from "another tab"), then our edit form,
+ * opened on the older version, is refused with 409 and the conflict dialog explains it.
+ */
+async function staleEditRefused(otherTabNotes: string, ourName: string): Promise<string> {
+  const nodeId = new URLSearchParams(page.url().split('?')[1] ?? '').get('node') ?? '';
+  expect(nodeId).not.toBe('');
+  const status = await page.evaluate(
+    async ([p, n, notes]) => {
+      const current = (await (await fetch(`/api/v1/plans/${p}/nodes/${n}`)).json()) as { version: number };
+      const r = await fetch(`/api/v1/plans/${p}/nodes/${n}`, {
+        method: 'PATCH',
+        headers: { 'content-type': 'application/json', 'x-earshot-request': '1' },
+        body: JSON.stringify({ notes, version: current.version }),
+      });
+      return r.status;
+    },
+    [planId, nodeId, otherTabNotes],
+  );
+  expect(status).toBe(200);
+  watch.expectHttpError(new RegExp(`/nodes/${nodeId}$`), 409);
+  await page.getByRole('button', { name: 'Edit node' }).click();
+  await page.locator('dialog input[name=name]').fill(ourName);
+  await page.locator('dialog button[type=submit]').click();
+  await page.getByRole('heading', { name: 'Someone else changed this first' }).waitFor();
+  return nodeId;
+}
+
 describe('map front end (chromium)', () => {
   it('signs in with the one-time link printed by the server and lists the plans', async () => {
     // Before signing in the app probes /api/v1/me and gets 401: that one is expected.
@@ -164,26 +192,7 @@ describe('map front end (chromium)', () => {
     await page.locator('#undo-button').click();
     await expect.poll(() => textOf('#node-panel-title'), { timeout: 20_000 }).toMatch(/New node/);
     // someone else changes the node: our stale edit is refused with 409 and explained
-    const nodeId = new URLSearchParams(page.url().split('?')[1] ?? '').get('node') ?? '';
-    expect(nodeId).not.toBe('');
-    const status = await page.evaluate(
-      async ([p, n]) => {
-        const current = (await (await fetch(`/api/v1/plans/${p}/nodes/${n}`)).json()) as { version: number };
-        const r = await fetch(`/api/v1/plans/${p}/nodes/${n}`, {
-          method: 'PATCH',
-          headers: { 'content-type': 'application/json', 'x-earshot-request': '1' },
-          body: JSON.stringify({ notes: 'changed in another tab', version: current.version }),
-        });
-        return r.status;
-      },
-      [planId, nodeId],
-    );
-    expect(status).toBe(200);
-    watch.expectHttpError(new RegExp(`/nodes/${nodeId}$`), 409);
-    await page.getByRole('button', { name: 'Edit node' }).click();
-    await page.locator('dialog input[name=name]').fill('E2E stale edit');
-    await page.locator('dialog button[type=submit]').click();
-    await page.getByRole('heading', { name: 'Someone else changed this first' }).waitFor();
+    await staleEditRefused('changed in another tab', 'E2E stale edit');
     await page.locator('dialog').screenshot({ path: 'test-artefacts/screenshots/05b-conflict-409.png' });
     await page.getByRole('button', { name: 'Reload the plan' }).click();
     await expect.poll(() => textOf('#node-panel-title'), { timeout: 20_000 }).toMatch(/New node/);
@@ -263,26 +272,7 @@ describe('map front end (chromium)', () => {
       // 1. A plan reload in flight across the delete: change the open node in "another tab",
       //    make a stale edit (409), "Reload the plan" with the catalog answer held back 2.5 s.
       await openNode((await nodeValues())[1]);
-      const nodeId = new URLSearchParams(page.url().split('?')[1] ?? '').get('node') ?? '';
-      expect(nodeId).not.toBe('');
-      const status = await page.evaluate(
-        async ([p, n]) => {
-          const current = (await (await fetch(`/api/v1/plans/${p}/nodes/${n}`)).json()) as { version: number };
-          const r = await fetch(`/api/v1/plans/${p}/nodes/${n}`, {
-            method: 'PATCH',
-            headers: { 'content-type': 'application/json', 'x-earshot-request': '1' },
-            body: JSON.stringify({ notes: 'changed in another tab (delete/undo scenario)', version: current.version }),
-          });
-          return r.status;
-        },
-        [planId, nodeId],
-      );
-      expect(status).toBe(200);
-      watch.expectHttpError(new RegExp(`/nodes/${nodeId}$`), 409);
-      await page.getByRole('button', { name: 'Edit node' }).click();
-      await page.locator('dialog input[name=name]').fill('E2E stale edit before delete');
-      await page.locator('dialog button[type=submit]').click();
-      await page.getByRole('heading', { name: 'Someone else changed this first' }).waitFor();
+      await staleEditRefused('changed in another tab (delete/undo scenario)', 'E2E stale edit before delete');
       // The reload's answer lands after the delete and before the undo's re-create answers
       // (the POST is held 4 s): the case that used to show one marker too many.
       await page.route('**/api/v1/kit/**', holdBack(2_500));
