@@ -142,6 +142,17 @@ export interface LinkEngineOptions {
   workers?: number;
 }
 
+/** One catalog lookup per id and plan context; a failed lookup is forgotten so it can be retried. */
+function cachedLookup<T>(cache: Map<string, Promise<T>>, id: string, load: () => Promise<T>): Promise<T> {
+  let found = cache.get(id);
+  if (!found) {
+    found = load();
+    found.catch(() => cache.delete(id));
+    cache.set(id, found);
+  }
+  return found;
+}
+
 export class LinkEngine {
   private readonly stores = new Map<string, { signature: string; spec: LinkTerrainSpec; store: Promise<TerrainStore> }>();
   private readonly pool: LinkPathPool | null;
@@ -235,23 +246,11 @@ export class LinkEngine {
   }
 
   private antenna(ctx: Pick<PlanContext, 'antennaCache' | 'teamId'>, id: string): Promise<AntennaDesign> {
-    let found = ctx.antennaCache.get(id);
-    if (!found) {
-      found = findAntennaDesignForTeam(this.db, ctx.teamId, id);
-      found.catch(() => ctx.antennaCache.delete(id));
-      ctx.antennaCache.set(id, found);
-    }
-    return found;
+    return cachedLookup(ctx.antennaCache, id, () => findAntennaDesignForTeam(this.db, ctx.teamId, id));
   }
 
   private feedline(ctx: Pick<PlanContext, 'feedlineCache' | 'teamId'>, id: string): Promise<FeedlineType> {
-    let found = ctx.feedlineCache.get(id);
-    if (!found) {
-      found = findFeedlineForTeam(this.db, ctx.teamId, id);
-      found.catch(() => ctx.feedlineCache.delete(id));
-      ctx.feedlineCache.set(id, found);
-    }
-    return found;
+    return cachedLookup(ctx.feedlineCache, id, () => findFeedlineForTeam(this.db, ctx.teamId, id));
   }
 
   /** Loads a plan's settings, gateways and terrain. */
