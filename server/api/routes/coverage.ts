@@ -84,6 +84,15 @@ const legendResponse = z.object({
   note: z.string(),
 });
 
+/** A terrain layer's raster, or null when its file cannot be read (the layer is passed over). */
+async function openReadableRaster(path: string): Promise<GeoRaster | null> {
+  try {
+    return await openGeoRaster(path);
+  } catch {
+    return null;
+  }
+}
+
 function runView(run: CoverageRunRow) {
   const params = (run.params ?? {}) as Partial<CoverageJobParams>;
   return {
@@ -186,12 +195,8 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
       let firstProblem: CoverageInputError | null = null;
       for (const layer of layers) {
         const path = resolveFilePath(config, layer.filePath);
-        let raster: GeoRaster;
-        try {
-          raster = await openGeoRaster(path);
-        } catch {
-          continue;
-        }
+        const raster = await openReadableRaster(path);
+        if (!raster) continue;
         try {
           let cells = 0;
           for (const g of gateways) {
@@ -232,12 +237,8 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
         }
         for (const layer of allLayers.filter((l) => l.kind === 'clutter')) {
           const path = resolveFilePath(config, layer.filePath);
-          let raster: GeoRaster;
-          try {
-            raster = await openGeoRaster(path);
-          } catch {
-            continue;
-          }
+          const raster = await openReadableRaster(path);
+          if (!raster) continue;
           try {
             const covers = gateways.every((g) => {
               const p = raster.lonLatToPixel(g.lon, g.lat);
