@@ -20,10 +20,12 @@ function has(binary) {
   return spawnSync('sh', ['-c', `command -v ${binary}`], { stdio: 'ignore' }).status === 0;
 }
 
-// 1. System packages the suites use: Debian's chromium (browser tests) and gdal-bin (reference checks).
+// 1. System packages the suites use: Debian's chromium (browser tests), gdal-bin (reference checks)
+//    and poppler-utils (pdftotext/pdftoppm read back the PDF reports as an outside reader).
 const systemPackages = [
   { binary: 'chromium', pkg: 'chromium' },
   { binary: 'gdallocationinfo', pkg: 'gdal-bin' },
+  { binary: 'pdftotext', pkg: 'poppler-utils' },
 ];
 const missing = systemPackages.filter((entry) => !has(entry.binary)).map((entry) => entry.pkg);
 if (missing.length > 0) {
