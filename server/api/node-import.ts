@@ -84,12 +84,17 @@ export function normaliseHeader(header: string, known: readonly string[]): strin
   return aliases[camel.toLowerCase()] ?? camel;
 }
 
+const decimalNumber = /^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$/;
+
 function cellValue(field: string, raw: string): unknown {
   const value = raw.trim();
   if (value === '') return undefined;
   if (numericFields.has(field)) {
+    // Plain decimal only (optional sign, fraction and exponent): Number() would also read
+    // "0x10" as 16, "0b1" as 1, "Infinity" and "1_0"-free oddities, which no sheet means.
+    if (!decimalNumber.test(value)) return value; // the schema reports "must be a number"
     const number = Number(value);
-    return Number.isFinite(number) ? number : value; // the schema reports "must be a number"
+    return Number.isFinite(number) ? number : value;
   }
   return value;
 }
