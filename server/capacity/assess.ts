@@ -100,7 +100,8 @@ export interface NodeCapacity {
   maxMessagesPerHourAtDwell: number | null;
   dwellOk: boolean | null;
   overBudget: boolean;
-  gateways: Array<{ gateway: number; linkProbability: number; survival: number }>;
+  /** Per linked gateway: link probability, collision survival and (simulation) frames that reached it. */
+  gateways: Array<{ gateway: number; linkProbability: number; survival: number; frames: number | null }>;
   warnings: string[];
 }
 
@@ -227,7 +228,7 @@ function nodeResults(t: Traffic, inputs: readonly CapacityNodeInput[], rulesByBw
       const s = survival[l];
       products.push(p * s);
       linkOnly.push(p);
-      gateways.push({ gateway: t.linkGateway[l], linkProbability: p, survival: s });
+      gateways.push({ gateway: t.linkGateway[l], linkProbability: p, survival: s, frames: sim ? sim.linkSent[l] : null });
       if (p > bestP) {
         bestP = p;
         success = s;
