@@ -18,14 +18,17 @@ const models: Array<{ value: CapacityModel; label: string }> = [
   { value: 'simulate', label: 'Simulation (1 h of traffic, seeded)' },
 ];
 
+/** Light loads keep four decimals so a quiet gateway does not read as 0.000. */
+const erlangText = (erlang: number): string => erlang.toFixed(erlang < 0.01 ? 4 : 3);
+
 function loadBar(erlang: number, label: string): HTMLElement {
   const share = Math.min(1, erlang / FULL_SCALE_ERLANG);
   const level = erlang >= 0.18 ? 'high' : erlang >= 0.05 ? 'mid' : 'low';
   return h(
     'div',
-    { class: `load-bar load-${level}`, role: 'img', 'aria-label': `${label}: ${erlang.toFixed(3)} erlang` },
+    { class: `load-bar load-${level}`, role: 'img', 'aria-label': `${label}: ${erlangText(erlang)} erlang` },
     h('span', { class: 'load-fill', style: `width:${(share * 100).toFixed(1)}%` }),
-    h('span', { class: 'load-text' }, `${erlang.toFixed(3)} E`),
+    h('span', { class: 'load-text' }, `${erlangText(erlang)} E`),
   );
 }
 
@@ -73,7 +76,7 @@ function gatewayCard(gateway: CapacityGateway, result: PlanCapacity): HTMLElemen
     'section',
     { class: 'card capacity-gateway', 'aria-labelledby': id, 'data-gateway-id': gateway.gatewayId },
     h('h2', { id }, `${gateway.gatewayName}`),
-    h('p', {}, `Hears ${gateway.nodes} node(s); offered uplink load ${gateway.offeredLoadErlang.toFixed(3)} erlang over ${result.channels} channel(s).`),
+    h('p', {}, `Hears ${gateway.nodes} node(s); offered uplink load ${erlangText(gateway.offeredLoadErlang)} erlang over ${result.channels} channel(s).`),
     perSf,
     h('h3', {}, 'Per channel'),
     channels,
