@@ -253,3 +253,25 @@ describe('delivery ratio', () => {
     expect(() => assessCapacity({ ...base, nodes: [{ ...base.nodes[0], links: [{ gateway: 3, rssiDbm: -90, linkProbability: 1 }] }] }, { model: 'aloha' })).toThrow(/links\[0\]\.gateway/);
   });
 });
+
+describe('capacity caps for planners (pure ALOHA, Abramson 1970)', () => {
+  it('G_cap = −ln(s)/2; the node cap from it keeps the aloha survival at the target', async () => {
+    const { alohaLoadCapErlang, alohaNodeCap, nodeLoadErlang } = await import('../../../server/capacity/cap.ts');
+    expect(alohaLoadCapErlang(Math.exp(-1))).toBeCloseTo(0.5, 12);
+    const toa = datasheetToaMs(12, 12);
+    expect(nodeLoadErlang(1, toa)).toBeCloseTo(toa / 3.6e6, 15);
+    const cap = alohaNodeCap(0.9, 3, 1, toa);
+    expect(cap).toBe(Math.floor(((-Math.log(0.9) / 2) * 3 * 3600) / (toa / 1000)));
+    const fleet = (n: number): CapacityScenario => ({ bandPlan: eu868, channels: 3, gatewayCount: 1, nodes: Array.from({ length: n }, () => ({ sf: 12, bandwidthKhz: 125, timeOnAirMs: toa, messagesPerHour: 1, links: [{ gateway: 0, rssiDbm: -110, linkProbability: 1 }] })) });
+    expect(assessCapacity(fleet(cap), { model: 'aloha' }).nodes[0].successProbability).toBeGreaterThanOrEqual(0.9);
+    expect(assessCapacity(fleet(Math.ceil(cap * 1.1)), { model: 'aloha' }).nodes[0].successProbability).toBeLessThan(0.9);
+  });
+
+  it('an empty scenario answers zeros, not an error', () => {
+    const r = assessCapacity({ bandPlan: eu868, channels: 3, gatewayCount: 0, nodes: [] }, { model: 'simulate' });
+    expect(r.nodes).toEqual([]);
+    expect(r.gateways).toEqual([]);
+    expect(r.totals.meanDeliveryRatio).toBe(0);
+    expect(r.totals.transmissions).toBe(0);
+  });
+});
