@@ -96,6 +96,14 @@ describe('simulate: seeded discrete-event simulation', () => {
     });
   }
 
+  it('ALOHA rule with the default duty-cycle back-off (10,000 nodes well within their 1 % budget, SF7, 1 channel, G = 0.3): within 0.02 of aloha', () => {
+    const { scenario } = uniformScenario(7, 1, 10_000, 0.3);
+    const aloha = assessCapacity(scenario, { model: 'aloha' });
+    const sim = assessCapacity(scenario, { model: 'simulate', seed: 3, simulateRule: 'aloha' });
+    expect(Math.abs(aloha.gateways[0].perSf[0].collisionProbability - sim.gateways[0].perSf[0].collisionProbability)).toBeLessThan(0.02);
+    expect(sim.totals.overBudgetNodes).toBe(0);
+  });
+
   it('is reproducible for a seed and differs for another seed', () => {
     const { scenario } = uniformScenario(9, 3, 300, 0.3);
     const one = assessCapacity(scenario, { model: 'simulate', seed: 42 });
