@@ -6,7 +6,7 @@ describe('calibration statistics', () => {
     expect(lnGamma(5)).toBeCloseTo(Math.log(24), 12);
     expect(lnGamma(11)).toBeCloseTo(Math.log(3628800), 10);
     expect(lnGamma(0.5)).toBeCloseTo(0.5 * Math.log(Math.PI), 12);
-    expect(lnGamma(0.25)).toBeCloseTo(Math.log(3.6256099082219083), 12); // Γ(¼) = 3.625609908… (from memory)
+    expect(lnGamma(0.25)).toBeCloseTo(Math.log(3.625609908221908), 12); // Γ(¼) = 3.625609908… (from memory)
   });
 
   it('incomplete beta meets its closed forms: I_x(1, b) = 1 − (1−x)^b, I_x(a, 1) = x^a, I_½(a, a) = ½', () => {
