@@ -6,6 +6,8 @@ import type { FastifyInstance, FastifyReply } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { planExport, type ExportFormat } from '../../app/exports.ts';
 import { planReport } from '../../app/report.ts';
+import { reportFile, reportFileInput } from '../../app/report-files.ts';
+import { LinkEngine } from '../../jobs/link-engine.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
 import { planParams } from '../schemas.ts';
 import { asApiError } from './links.ts';
@@ -43,4 +45,20 @@ export default async function exportRoutes(app: FastifyInstance): Promise<void> 
       return attachment(reply, 'application/pdf', report.fileName).send(report.pdf);
     },
   );
+}
+
+/**
+ * Loopback admin route for `earshot report` / `earshot export` while this server holds
+ * the data folder (registered inside server/api/routes/admin.ts, behind its secret check):
+ * POST /_admin/report-file → { fileName, contentType, base64, counts }.
+ */
+export async function reportAdminRoutes(app: FastifyInstance): Promise<void> {
+  const api = app.withTypeProvider<ZodTypeProvider>();
+  const { db, config } = app.deps;
+  const engine = new LinkEngine(db, config);
+  app.addHook('onClose', async () => engine.close());
+  api.post('/report-file', { schema: { hide: true, body: reportFileInput } }, async (request) => {
+    const file = await reportFile(engine, config, request.body).catch(asApiError);
+    return { fileName: file.fileName, contentType: file.contentType, base64: file.bytes.toString('base64'), counts: file.counts ?? null };
+  });
 }
