@@ -10,6 +10,7 @@ import { propagationCommands } from './cli/propagation.ts';
 import { linkCommands } from './cli/links.ts';
 import { coverageCommands } from './cli/coverage.ts';
 import { capacityCommands } from './cli/capacity.ts';
+import { reportCommands } from './cli/reports.ts';
 
 export const allCommands: CliCommand[] = [
   ...adminCommands,
@@ -19,6 +20,7 @@ export const allCommands: CliCommand[] = [
   ...linkCommands,
   ...coverageCommands,
   ...capacityCommands,
+  ...reportCommands,
 ];
 
 function usage(): string {

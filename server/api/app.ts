@@ -117,6 +117,8 @@ async function registerApiRoutes(api: FastifyInstance): Promise<void> {
   await api.register((await import('./routes/client-settings.ts')).default);
   await api.register((await import('./routes/capacity.ts')).default);
   await api.register((await import('./routes/calibration.ts')).default);
+  await api.register((await import('./routes/exports.ts')).default);
+  await api.register((await import('./routes/scenarios.ts')).default);
 }
 
 export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {
