@@ -307,7 +307,8 @@ export function analyseSweep(request: TuneRequest): TuneResult {
     advice.push({ code: 'band-edge', message: `The VSWR < 2 band reaches the ${band.clippedLow ? 'low' : 'high'} end of the sweep: it is wider than shown; sweep wider to see its edge.` });
   }
   if (band && !noTrimFixes && (plan.fromMhz < band.band[0] || plan.toMhz > band.band[1]) && !(band.clippedLow || band.clippedHigh)) {
-    advice.push({ code: 'band-edge', message: `VSWR is below 2 from ${round(band.band[0], 1)} to ${round(band.band[1], 1)} MHz, which does not span the whole band ${plan.fromMhz}–${plan.toMhz} MHz${Math.abs(offFraction) > ON_CENTRE_FRACTION ? '; centring the resonance will help' : ''}.` });
+    const missesBand = band.band[1] < plan.fromMhz || band.band[0] > plan.toMhz;
+    advice.push({ code: 'band-edge', message: `VSWR is below 2 from ${round(band.band[0], 1)} to ${round(band.band[1], 1)} MHz, which ${missesBand ? 'misses' : 'does not span'} the band ${plan.fromMhz}–${plan.toMhz} MHz${missesBand ? ' entirely: the element must be re-tuned to this band' : Math.abs(offFraction) > ON_CENTRE_FRACTION ? '; centring the resonance will help' : ''}.` });
   }
   if (first.frequencyMhz > plan.fromMhz || last.frequencyMhz < plan.toMhz) {
     advice.push({ code: 'sweep-partial', message: `The sweep (${round(first.frequencyMhz, 2)}–${round(last.frequencyMhz, 2)} MHz) does not cover the whole band ${plan.fromMhz}–${plan.toMhz} MHz; sweep across it to see the band edges.` });
