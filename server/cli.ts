@@ -11,6 +11,7 @@ import { linkCommands } from './cli/links.ts';
 import { coverageCommands } from './cli/coverage.ts';
 import { capacityCommands } from './cli/capacity.ts';
 import { reportCommands } from './cli/reports.ts';
+import { tuningCommands } from './cli/tuning.ts';
 
 export const allCommands: CliCommand[] = [
   ...adminCommands,
@@ -21,6 +22,7 @@ export const allCommands: CliCommand[] = [
   ...coverageCommands,
   ...capacityCommands,
   ...reportCommands,
+  ...tuningCommands,
 ];
 
 function usage(): string {
