@@ -5,7 +5,7 @@ import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { createFieldReadings, listNodeReadings, listPlanReadings, type NewFieldReading } from '../../db/repositories/field-readings.ts';
-import type { FieldReading } from '../../db/generated/client.ts';
+import type { FieldReading } from '../../db/types.ts';
 import type { PlanRow } from '../../db/repositories/plans.ts';
 import { decodeCursor, encodeCursor } from '../../db/repositories/pagination.ts';
 import { requireRole } from '../auth.ts';
