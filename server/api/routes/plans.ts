@@ -10,7 +10,7 @@ import { writeWithAudit } from '../../db/repositories/audit.ts';
 import { createPlan, deletePlanReturningFiles, listPlans, planCounts, updatePlan } from '../../db/repositories/plans.ts';
 import { resultDir } from '../../jobs/coverage-job.ts';
 import type { PlanFiles } from '../../db/repositories/plans.ts';
-import type { Prisma } from '../../db/generated/client.ts';
+import type { JsonValue } from '../../db/types.ts';
 import { requireRole } from '../auth.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
 import { dateTime, errorResponses, finite, jsonObject, name, notes, pageOf, pageQuery, planParams, version } from '../schemas.ts';
@@ -51,7 +51,7 @@ export const planPatchBody = z.strictObject({ ...planFields, name: name().option
 
 function toData<T extends { settings?: Record<string, unknown> }>(body: T) {
   const { settings, ...rest } = body;
-  return settings === undefined ? rest : { ...rest, settings: settings as Prisma.InputJsonValue };
+  return settings === undefined ? rest : { ...rest, settings: settings as JsonValue };
 }
 
 /**
