@@ -10,7 +10,7 @@ import { z } from 'zod';
 import { recordAudit } from '../../db/repositories/audit.ts';
 import { createKitJob, findKitJob, findPlanById, updateKitJob } from '../../db/repositories/links.ts';
 import { linkCheck, installCautions } from '../../planning/check.ts';
-import { PlanSettingsError } from '../../planning/settings.ts';
+import { fleetReferenceSpread, PlanSettingsError } from '../../planning/settings.ts';
 import type { LinkResult } from '../../planning/link.ts';
 import { describeSpread, planningSpread, type PlanningSpread } from '../../planning/spread.ts';
 import type { PlanRow } from '../../db/repositories/plans.ts';
@@ -64,7 +64,7 @@ export function nodeSpread(ctx: PlanContext, outcome: NodeLinksOutcome): Plannin
 
 /** Plan-wide spread figures of the fleet table: σ of a node at 1.5 m in the open; each row carries its own sigmaDb. */
 export function fleetAssumptions(ctx: PlanContext) {
-  const spread = planningSpread({ ...ctx.settings.spread, frequencyMhz: ctx.settings.frequencyMhz, nodeAntennaHeightAglM: 1.5, nodeClutterHeightM: 0 });
+  const spread = fleetReferenceSpread(ctx.settings);
   return { sigmaDb: spread.sigmaDb, sigmaSource: spread.sigmaSource, sigmaModelDb: spread.sigmaModelDb, sigmaNote: describeSpread(spread, ctx.settings.spread) };
 }
 
