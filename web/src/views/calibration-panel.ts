@@ -192,7 +192,8 @@ export function renderCalibrationPanel(panel: HTMLElement, store: PlanStore): ()
     { id: 'calibration-grouping' },
   );
   const fitButton = h('button', { type: 'button', id: 'calibration-fit', class: 'primary' }, 'Fit the readings');
-  append(panel, 
+  append(
+    panel,
     h('p', { class: 'muted small' }, 'Compares every field reading with the prediction for the same node, gateway and kit. Applying a calibration adds its bias to every prediction and uses its spread as σ for links, coverage and reports.'),
     state,
     canRecordReadings() ? importBox : null,
@@ -256,7 +257,8 @@ export function renderCalibrationPanel(panel: HTMLElement, store: PlanStore): ()
   // ---------- one calibration ----------
   function showResult(result: CalibrationResult): void {
     clear(resultBox);
-    append(resultBox, 
+    append(
+      resultBox,
       h('h3', {}, `Fit of ${new Date(result.createdAt).toLocaleString()} (${groupingLabels[result.grouping] ?? result.grouping})`),
       result.residuals.length > 0 ? residualChart(result) : null,
       result.grouping !== 'none' ? groupChart(result) : null,
@@ -400,7 +402,8 @@ export function renderNodeReadings(box: HTMLElement, store: PlanStore, nodeId: s
           h('td', { class: 'num' }, signed(r.rssiDifferenceDb ?? undefined)),
         ),
       );
-      append(box, 
+      append(
+        box,
         h(
           'div',
           { class: 'table-scroll' },
