@@ -98,12 +98,17 @@ export function normaliseHeader(header: string, known: readonly string[], header
   return headerAliases[camel.toLowerCase()] ?? camel;
 }
 
+const decimalNumber = /^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$/;
+
 function cellValue(field: string, raw: string, format: ImportFormat): unknown {
   const value = raw.trim();
   if (value === '') return undefined;
   if (format.numericFields.has(field)) {
+    // Plain decimal only (optional sign, fraction and exponent): Number() would also read
+    // "0x10" as 16, "0b1" as 1, "Infinity" and "1_0"-free oddities, which no sheet means.
+    if (!decimalNumber.test(value)) return value; // the schema reports "must be a number"
     const number = Number(value);
-    return Number.isFinite(number) ? number : value; // the schema reports "must be a number"
+    return Number.isFinite(number) ? number : value;
   }
   return value;
 }

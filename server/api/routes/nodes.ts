@@ -7,7 +7,7 @@ import { z } from 'zod';
 import { writeWithAudit } from '../../db/repositories/audit.ts';
 import { createNode, createNodesAtomically, deleteNode, findNode, listNodes, updateNode, type NodeCreate } from '../../db/repositories/nodes.ts';
 import type { Database } from '../../db/client.ts';
-import type { InstallStatus } from '../../db/generated/client.ts';
+import type { DbInstallStatus as InstallStatus } from '../../db/types.ts';
 import { requireRole } from '../auth.ts';
 import { ApiError } from '../errors.ts';
 import { assertKitVisible } from '../kit-check.ts';
