@@ -27,6 +27,7 @@ import { hashOf, hashOfShared, LINK_ENGINE_VERSION, nodeAimAzimuthDeg, nodeLinkR
 import type { PathPrediction } from '../planning/path.ts';
 import { resolveLinkSettings, type ResolvedLinkSettings } from '../planning/settings.ts';
 import type { AppliedCalibration } from '../planning/spread.ts';
+import { findAppliedCalibration } from '../db/repositories/calibrations.ts';
 import { bearingsBetween } from '../planning/geometry.ts';
 
 /** Connectors assumed in a node's feedline run: two mated N/SMA pairs (common practice, 0.1 dB each). */
@@ -243,6 +244,12 @@ export class LinkEngine {
     return cachedLookup(ctx.antennaCache, id, () => findAntennaDesignForTeam(this.db, ctx.teamId, id));
   }
 
+  /** The calibration applied to a plan, as the spread resolver takes it (null = none). */
+  private async appliedCalibration(planId: string): Promise<AppliedCalibration | null> {
+    const row = await findAppliedCalibration(this.db, planId);
+    return row ? { id: row.id, biasDb: row.biasDb, sigmaDb: row.sigmaDb } : null;
+  }
+
   private feedline(ctx: Pick<PlanContext, 'feedlineCache' | 'teamId'>, id: string): Promise<FeedlineType> {
     return cachedLookup(ctx.feedlineCache, id, () => findFeedlineForTeam(this.db, ctx.teamId, id));
   }
@@ -250,11 +257,15 @@ export class LinkEngine {
   /**
    * Loads a plan's settings, gateways and terrain. `options.calibration`: the plan's applied
    * calibration (fitted spread and bias); it enters every link's budget and the cache hash.
+   * Left out, the calibration applied to the plan (server/db/repositories/calibrations.ts) is
+   * used, so every caller (links, coverage, siting, capacity, reports) gets the same figures;
+   * null asks for the model as is (the calibration fit compares readings with that).
    */
   async planContext(plan: PlanRow, options: { calibration?: AppliedCalibration | null } = {}): Promise<PlanContext> {
     // Workers start with the first plan a process touches and stay (unref'd) for the next fleet.
     this.pool?.warm();
-    const settings = resolveLinkSettings(plan, { calibration: options.calibration ?? null });
+    const calibration = options.calibration !== undefined ? options.calibration : await this.appliedCalibration(plan.id);
+    const settings = resolveLinkSettings(plan, { calibration });
     const raw = plan.settings && typeof plan.settings === 'object' && !Array.isArray(plan.settings) ? (plan.settings as Record<string, unknown>) : {};
     const clutterHeightsM = raw.clutterHeightsM && typeof raw.clutterHeightsM === 'object' ? (raw.clutterHeightsM as Record<string, number>) : undefined;
     const { store, spec, signature } = await this.terrainFor(plan, clutterHeightsM);

@@ -14,6 +14,7 @@ import { openImportDialog } from './import-dialog.ts';
 import { openPlanSettingsDialog } from './plan-settings-dialog.ts';
 import { renderNodePanel } from './node-panel.ts';
 import { renderCoveragePanel } from './coverage-panel.ts';
+import { renderCalibrationPanel } from './calibration-panel.ts';
 
 export function nodeClass(store: PlanStore, nodeId: string): NodeClass {
   return store.fleet.get(nodeId)?.status ?? 'unknown';
@@ -207,8 +208,10 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
   });
 
   const coveragePanel = h('section', { class: 'panel', 'aria-labelledby': 'coverage-h' });
-  sidebar.append(detail, layersPanel, tools, coveragePanel);
+  const calibrationPanel = h('section', { class: 'panel', 'aria-labelledby': 'calibration-h' });
+  sidebar.append(detail, layersPanel, tools, coveragePanel, calibrationPanel);
   const stopCoverage = renderCoveragePanel(coveragePanel, store, map);
+  const stopCalibration = renderCalibrationPanel(calibrationPanel, store);
 
   // ---------- markers ----------
   const draggable = canEdit();
@@ -475,6 +478,7 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
   return () => {
     abortPanelRequests();
     stopCoverage();
+    stopCalibration();
     unsubscribe();
     document.removeEventListener('keydown', onKey);
     map.remove();

@@ -17,6 +17,7 @@ import {
   type NodeLinks,
   type Recommendation,
 } from '../api.ts';
+import { renderNodeReadings } from './calibration-panel.ts';
 import { explainWriteError, type PlanStore } from '../plan-store.ts';
 import { planHash } from '../router.ts';
 import { canEdit } from '../session.ts';
@@ -83,7 +84,9 @@ export async function renderNodePanel(panel: HTMLElement, store: PlanStore, node
   const kitBox = h('section', { class: 'subpanel', 'aria-labelledby': 'kit-h' });
   const recBox = h('section', { class: 'subpanel', 'aria-labelledby': 'rec-h' }, h('h3', { id: 'rec-h' }, 'Recommended kit'), h('p', { class: 'muted' }, 'Searching the catalog…'));
   const cautionsBox = h('div', {}, cautionsBlock());
-  panel.append(linksBox, profileBox, kitBox, recBox, cautionsBox);
+  const readingsBox = h('section', { class: 'subpanel', 'aria-labelledby': 'node-readings-h' });
+  panel.append(linksBox, profileBox, kitBox, recBox, readingsBox, cautionsBox);
+  renderNodeReadings(readingsBox, store, node.id, signal);
 
   renderKitChooser(kitBox, store, node, signal);
   // The three requests run side by side; each fills its own box when it answers (unless
