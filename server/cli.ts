@@ -9,6 +9,8 @@ import { terrainCommands } from './cli/terrain.ts';
 import { propagationCommands } from './cli/propagation.ts';
 import { linkCommands } from './cli/links.ts';
 import { coverageCommands } from './cli/coverage.ts';
+import { capacityCommands } from './cli/capacity.ts';
+import { reportCommands } from './cli/reports.ts';
 import { tuningCommands } from './cli/tuning.ts';
 
 export const allCommands: CliCommand[] = [
@@ -18,6 +20,8 @@ export const allCommands: CliCommand[] = [
   ...propagationCommands,
   ...linkCommands,
   ...coverageCommands,
+  ...capacityCommands,
+  ...reportCommands,
   ...tuningCommands,
 ];
 
