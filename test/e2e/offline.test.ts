@@ -8,6 +8,7 @@
 // service worker runs.
 import { afterAll, beforeAll, expect, it } from 'vitest';
 import type { Browser, BrowserContext, Page } from 'playwright-core';
+import { touchstone } from '../unit/tuning/series-rlc.ts';
 import { buildWeb, cli, guard, launchBrowser, newContext, screenshot, startServer, type Guard, type RunningServer } from './harness.ts';
 
 let server: RunningServer;
@@ -73,6 +74,16 @@ it('an installer keeps two nodes, goes offline, reloads: kit, visit sheet and ma
     await expect.poll(() => page.locator('#offline-state').textContent(), { timeout: 120_000 }).toMatch(/^Kept on this device/);
     expect(await keptTiles()).toBeGreaterThan(0);
   }
+  // Antenna tuning in the installer view: a sweep file picked, the chart and the advice shown.
+  await page.locator('#tune-file').setInputFiles({ name: 'roof.s1p', mimeType: 'text/plain', buffer: Buffer.from(touchstone({ resonanceMhz: 903.37, resistanceOhm: 42, inductanceNh: 100 }, 'DB', { fromMhz: 850, toMhz: 980, stepMhz: 1 })) });
+  await page.locator('#tune-keep').uncheck();
+  await page.getByRole('button', { name: 'Analyse the sweep' }).click();
+  await page.locator('#tune-result svg.sweep-chart').waitFor();
+  expect(await page.locator('#tune-resonance').textContent()).toMatch(/^903\.\d\d MHz \(VSWR 1\.19\)/);
+  expect(await page.locator('#tune-result .sweep-band').count()).toBe(1);
+  expect(await page.locator('#tune-result .sweep-resonance-mark').count()).toBe(1);
+  await page.locator('#tune-form').scrollIntoViewIfNeeded();
+  await screenshot(page, 'offline-00-tuning');
   expect(await page.locator('#offline-storage').textContent()).toMatch(/Storage used by earshot on this device: \d+\.\d\d MB \(map tiles \d+\.\d\d MB\)/);
   await screenshot(page, 'offline-01-kept', true);
 

@@ -126,7 +126,7 @@ function renderInstallStatus(main: HTMLElement, store: PlanStore, node: FleetNod
     // No connection: the change waits on this device; the server's version check decides when it is sent.
     const queue = () =>
       queueInstallStatus(store.planId, node, choice.value).then(() => {
-        result.textContent = `Not yet sent: install status ${installStatusLabels[choice.value as keyof typeof installStatusLabels]} is saved on this device and is sent when the connection returns.`;
+        result.textContent = `Not yet sent: install status ${installStatusLabels[choice.value as keyof typeof installStatusLabels]} is saved on this device and is sent when the connection returns (its state is in the list at the top).`;
         save.disabled = false;
       });
     if (!navigator.onLine) {
@@ -295,7 +295,7 @@ function renderReadingForm(main: HTMLElement, store: PlanStore, node: FleetNode)
     // No connection: the reading waits on this device ("not yet sent") and goes when the connection returns.
     const queue = () =>
       queueReading(store.planId, node, reading, `reading RSSI ${dbm(rssiDbm)}, SNR ${db(snrDb)} at SF${sf.value}`).then(() => {
-        out.replaceChildren(notice('info', h('span', { id: 'reading-queued' }, `Not yet sent: the reading (RSSI ${dbm(rssiDbm)}, SNR ${db(snrDb)}) is saved on this device and is sent when the connection returns.`)));
+        out.replaceChildren(notice('info', h('span', { id: 'reading-queued' }, `Not yet sent: the reading (RSSI ${dbm(rssiDbm)}, SNR ${db(snrDb)}) is saved on this device and is sent when the connection returns (its state is in the list at the top).`)));
         rssi.value = '';
         snr.value = '';
       });
