@@ -92,7 +92,7 @@ async function renderNodeVisit(main: HTMLElement, store: PlanStore, node: FleetN
     sheetBox.replaceChildren();
     renderSheet(sheetBox, store, sheet);
     form?.useSheet(sheet);
-    main.append(tuningPanel(store.planId, node.id, sheet.buildSheet?.design ?? null));
+    main.append(tuningPanel(store.planId, node.id, sheet.buildSheet?.design ?? null, store.plan.bandPlanId));
   } catch (err) {
     sheetBox.replaceChildren(notice('info', `Visit sheet: ${errorText(err)}.`), cautionsBlock());
   } finally {
