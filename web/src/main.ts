@@ -13,6 +13,7 @@ import { renderFleet } from './views/fleet.ts';
 import { renderSummary } from './views/summary.ts';
 import { renderInstaller } from './views/installer.ts';
 import { renderCapacity } from './views/capacity-panel.ts';
+import { clearDevice, startOffline } from './offline/device.ts';
 
 /** Each view returns an optional clean-up (stop polling, remove the map). */
 type Cleanup = (() => void) | void;
@@ -51,6 +52,8 @@ function shell(route: Route): HTMLElement {
           onclick: () => {
             storeToken(null);
             session.signedIn = false;
+            // What this device kept for offline visits belongs to the one signed in: it goes too.
+            void clearDevice();
             go('#/signin');
           },
         },
@@ -105,6 +108,7 @@ async function render(): Promise<void> {
 }
 
 async function start(): Promise<void> {
+  startOffline();
   try {
     await refreshSession();
   } catch (err) {
