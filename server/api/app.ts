@@ -80,6 +80,7 @@ async function registerApiRoutes(api: FastifyInstance): Promise<void> {
   await api.register((await import('./routes/links.ts')).default);
   await api.register((await import('./routes/coverage.ts')).default);
   await api.register((await import('./routes/client-settings.ts')).default);
+  await api.register((await import('./routes/siting.ts')).default);
 }
 
 export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {

@@ -90,6 +90,11 @@ export function meetsKitTarget(evaluation: KitEvaluation, target: KitTarget): bo
   return true;
 }
 
+/** Price of a kit: antenna + mast + feedline per metre × length, USD (cents rounded); the siting candidates' kit uses it too. */
+export function kitCostUsd(antennaCostUsd: number, mastCostUsd: number, feedlineCostUsdPerM: number, feedlineLengthM: number): number {
+  return round2(antennaCostUsd + mastCostUsd + feedlineCostUsdPerM * feedlineLengthM);
+}
+
 /** All candidates of the catalog, cheapest first (ties: lower mast, then input order). */
 export function enumerateKitCandidates(input: Pick<RecommendationInput, 'antennas' | 'masts' | 'feedlines' | 'feedlineLengthForMastM' | 'maxCost'>): KitCandidate[] {
   const candidates: KitCandidate[] = [];
@@ -97,7 +102,7 @@ export function enumerateKitCandidates(input: Pick<RecommendationInput, 'antenna
     for (const mast of input.masts) {
       for (const feedline of input.feedlines) {
         const feedlineLengthM = feedline.feedlineId === null ? 0 : input.feedlineLengthForMastM(mast.mastHeightM);
-        const cost = round2(antenna.costUsd + mast.costUsd + feedline.costUsdPerM * feedlineLengthM);
+        const cost = kitCostUsd(antenna.costUsd, mast.costUsd, feedline.costUsdPerM, feedlineLengthM);
         if (input.maxCost !== undefined && cost > input.maxCost) continue;
         candidates.push({
           antennaDesignId: antenna.antennaDesignId,

@@ -135,8 +135,14 @@ export function capacityFlow(instance: CoverInstance, selected: Uint8Array, requ
   const capacity: number[] = [];
   const next: number[] = [];
   const addEdge = (a: number, b: number, c: number): void => {
-    to.push(b), capacity.push(c), next.push(head[a]), (head[a] = to.length - 1);
-    to.push(a), capacity.push(0), next.push(head[b]), (head[b] = to.length - 1);
+    to.push(b);
+    capacity.push(c);
+    next.push(head[a]);
+    head[a] = to.length - 1;
+    to.push(a);
+    capacity.push(0);
+    next.push(head[b]);
+    head[b] = to.length - 1;
   };
   for (let i = 0; i < n; i++) {
     if (required[i] <= 0 || (only && !only[i])) continue;

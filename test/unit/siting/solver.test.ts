@@ -6,7 +6,7 @@ import { radioHorizonM } from '../../../server/siting/horizon.ts';
 
 let highs: Highs;
 beforeAll(async () => {
-  highs = await (await import('highs')).default();
+  highs = await ((await import('highs')) as unknown as { default: () => Promise<Highs> }).default();
 });
 
 /** Deterministic PRNG (mulberry32) so every run draws the same instances. */
