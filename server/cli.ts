@@ -9,6 +9,7 @@ import { terrainCommands } from './cli/terrain.ts';
 import { propagationCommands } from './cli/propagation.ts';
 import { linkCommands } from './cli/links.ts';
 import { coverageCommands } from './cli/coverage.ts';
+import { sitingCommands } from './cli/siting.ts';
 
 export const allCommands: CliCommand[] = [
   ...adminCommands,
@@ -17,6 +18,7 @@ export const allCommands: CliCommand[] = [
   ...propagationCommands,
   ...linkCommands,
   ...coverageCommands,
+  ...sitingCommands,
 ];
 
 function usage(): string {

@@ -570,3 +570,24 @@ export class SitingJobs {
     await this.running?.catch(() => undefined);
   }
 }
+
+/** What `earshot siting` sends: the plan id and the same request as the API. */
+export interface SitingReportInput extends SitingRequest {
+  plan: string;
+}
+
+/**
+ * Runs a siting request to the end in this process (the CLI, directly or via
+ * the running server's loopback route) and answers the run as the API does.
+ * Recorded and audited like an API run; the principal is the operator on the
+ * machine (no user).
+ */
+export async function sitingReport(deps: SitingDeps, input: SitingReportInput): Promise<SitingRunSummaryRow> {
+  const { plan: planId, ...request } = input;
+  const plan = await findPlanById(deps.db, planId);
+  if (!plan) throw new SitingError(404, 'not_found', `--plan: no plan "${planId}"`);
+  const principal: AuditPrincipal = { userId: null, teamId: plan.teamId, tokenId: null };
+  const run = await createSitingRequest(deps, principal, plan, request);
+  await executeSitingRun(deps, run.id);
+  return findRun(deps, plan.id, run.id);
+}

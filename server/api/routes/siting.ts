@@ -4,7 +4,7 @@
 import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import { applyRun, cancelRun, createSitingRequest, findRun, runMatrix, SitingError, SitingJobs, type SitingDeps } from '../../app/siting.ts';
+import { applyRun, cancelRun, createSitingRequest, findRun, runMatrix, SitingError, SitingJobs, sitingReport, type SitingDeps } from '../../app/siting.ts';
 import type { SitingRunSummaryRow } from '../../db/repositories/siting-runs.ts';
 import { listSitingRuns } from '../../db/repositories/siting-runs.ts';
 import { LinkInputError } from '../../jobs/link-engine.ts';
@@ -204,4 +204,13 @@ export default async function sitingRoutes(app: FastifyInstance): Promise<void> 
     reply.code(201);
     return applied;
   });
+}
+
+/** `earshot siting` while this server holds the data folder: the same use case, on the loopback admin route. */
+export const sitingReportInput = sitingBody.extend({ plan: id() });
+
+export async function sitingAdminRoutes(app: FastifyInstance): Promise<void> {
+  const api = app.withTypeProvider<ZodTypeProvider>();
+  const deps: SitingDeps = { db: app.deps.db, engine: app.linkEngine };
+  api.post('/siting', { schema: { hide: true, body: sitingReportInput } }, async (request) => runView(await mapped(() => sitingReport(deps, request.body))));
 }
