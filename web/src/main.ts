@@ -12,6 +12,7 @@ import { renderMap } from './views/map.ts';
 import { renderFleet } from './views/fleet.ts';
 import { renderSummary } from './views/summary.ts';
 import { renderInstaller } from './views/installer.ts';
+import { renderCapacity } from './views/capacity-panel.ts';
 
 /** Each view returns an optional clean-up (stop polling, remove the map). */
 type Cleanup = (() => void) | void;
@@ -28,6 +29,7 @@ function shell(route: Route): HTMLElement {
       link(`#/plan/${p}`, 'Map', route.name === 'map'),
       link(`#/plan/${p}/fleet`, 'Fleet table', route.name === 'fleet'),
       link(`#/plan/${p}/summary`, 'Summary', route.name === 'summary'),
+      link(`#/plan/${p}/capacity`, 'Network load', route.name === 'capacity'),
       link(`#/plan/${p}/install`, 'Installer', route.name === 'install'),
     );
   }
@@ -92,6 +94,9 @@ async function render(): Promise<void> {
         break;
       case 'install':
         cleanup = await renderInstaller(main, route);
+        break;
+      case 'capacity':
+        cleanup = await renderCapacity(main, route);
         break;
     }
   } catch (err) {
