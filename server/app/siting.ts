@@ -452,7 +452,8 @@ export async function solveMatrix(matrix: SitingMatrix, params: Omit<SitingReque
     greedy: { gateways: selectionCount(solution.greedy.selected), costUsd: round2(selectionCostUsd(instance, solution.greedy.selected)), nodesCovered: selectionCount(greedyCovered), feasible: solution.greedy.feasible, seconds: Math.round(solution.greedy.seconds * 1e4) / 1e4 },
     matrix: { nodes: matrix.nodeIds.length, candidates: matrix.candidates.length, pairsPredicted: matrix.pairsPredicted, pairsSkipped: matrix.pairsSkipped, cached: matrixInfo.cached, seconds: Math.round(matrixInfo.seconds * 100) / 100 },
     before: { gateways: gatewaysBefore },
-    after: { gateways: (params.keepExistingGateways ? gatewaysBefore : gatewaysBefore) + selected.filter((s) => !s.kept).length },
+    // Existing gateways stay in the plan either way; keepExistingGateways only decides whether the model counts them.
+    after: { gateways: gatewaysBefore + selected.filter((s) => !s.kept).length },
     warnings,
   };
 }

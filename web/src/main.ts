@@ -13,6 +13,7 @@ import { renderFleet } from './views/fleet.ts';
 import { renderSummary } from './views/summary.ts';
 import { renderInstaller } from './views/installer.ts';
 import { renderCapacity } from './views/capacity-panel.ts';
+import { renderSiting } from './views/siting-panel.ts';
 
 /** Each view returns an optional clean-up (stop polling, remove the map). */
 type Cleanup = (() => void) | void;
@@ -30,6 +31,7 @@ function shell(route: Route): HTMLElement {
       link(`#/plan/${p}/fleet`, 'Fleet table', route.name === 'fleet'),
       link(`#/plan/${p}/summary`, 'Summary', route.name === 'summary'),
       link(`#/plan/${p}/capacity`, 'Network load', route.name === 'capacity'),
+      link(`#/plan/${p}/siting`, 'Gateway siting', route.name === 'siting'),
       link(`#/plan/${p}/install`, 'Installer', route.name === 'install'),
     );
   }
@@ -97,6 +99,9 @@ async function render(): Promise<void> {
         break;
       case 'capacity':
         cleanup = await renderCapacity(main, route);
+        break;
+      case 'siting':
+        cleanup = await renderSiting(main, route);
         break;
     }
   } catch (err) {
