@@ -9,7 +9,11 @@
 import { loadavg } from 'node:os';
 import { performance } from 'node:perf_hooks';
 import type { Highs } from 'highs';
-import { createTestApp } from '../helpers/test-app.ts';
+import { mkdtempSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { loadConfig } from '../../server/config.ts';
+import { openDatabase } from '../../server/db/client.ts';
 import { seedDemo } from '../../server/demo.ts';
 import { LinkEngine } from '../../server/jobs/link-engine.ts';
 import { computeSitingMatrix, matrixInputs, type SitingCandidate } from '../../server/jobs/siting-matrix.ts';
@@ -33,7 +37,11 @@ export async function run(): Promise<void> {
   const nodeCount = Number(process.env.SITING_BENCH_NODES ?? 2000);
   const candidateCount = Number(process.env.SITING_BENCH_CANDIDATES ?? 200);
   const methods = (process.env.SITING_BENCH_METHODS ?? 'p1812,bullington').split(',');
-  const t = await createTestApp('pglite');
+  // The database and engine only (no HTTP app: its start-up is not what is measured).
+  const dataDir = mkdtempSync(join(tmpdir(), 'earshot-bench-siting-'));
+  const config = loadConfig({ EARSHOT_DATA_DIR: dataDir, EARSHOT_DEMO: 'off' });
+  const db = await openDatabase({ ...config, databaseUrl: undefined }, { memory: true });
+  const t = { db, config };
   try {
     const demo = await seedDemo(t.db, t.config);
     const planId = demo.planId as string;
@@ -104,6 +112,7 @@ export async function run(): Promise<void> {
     console.log(`budget variant k=1, at most 3 gateways: HiGHS ${budget.objective} nodes covered (${budget.status}, ${budget.seconds.toFixed(2)} s) | greedy ${greedyCovered} nodes covered (${(budget.greedy.seconds * 1000).toFixed(1)} ms)`);
     console.log(`load average after: ${loadavg().map((l) => l.toFixed(2)).join(' ')}`);
   } finally {
-    await t.close();
+    await db.close();
+    rmSync(dataDir, { recursive: true, force: true });
   }
 }

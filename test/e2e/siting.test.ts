@@ -16,12 +16,13 @@ let planId = '';
 
 beforeAll(async () => {
   buildWeb();
-  [server, browser] = await Promise.all([startServer(), launchBrowser()]);
+  // A loaded shared machine can take minutes to start the server (PGlite + demo seeding).
+  [server, browser] = await Promise.all([startServer(420_000), launchBrowser()]);
   context = await newContext(browser);
   page = await context.newPage();
   page.setDefaultTimeout(180_000);
   watch = guard(page, server.baseUrl);
-}, 300_000);
+}, 600_000);
 
 afterAll(async () => {
   await context?.close();
