@@ -12,6 +12,7 @@ import { coverageCommands } from './cli/coverage.ts';
 import { capacityCommands } from './cli/capacity.ts';
 import { reportCommands } from './cli/reports.ts';
 import { tuningCommands } from './cli/tuning.ts';
+import { sitingCommands } from './cli/siting.ts';
 
 export const allCommands: CliCommand[] = [
   ...adminCommands,
@@ -23,6 +24,7 @@ export const allCommands: CliCommand[] = [
   ...capacityCommands,
   ...reportCommands,
   ...tuningCommands,
+  ...sitingCommands,
 ];
 
 function usage(): string {

@@ -14,6 +14,7 @@ import { renderSummary } from './views/summary.ts';
 import { renderInstaller } from './views/installer.ts';
 import { renderCapacity } from './views/capacity-panel.ts';
 import { clearDevice, startOffline } from './offline/device.ts';
+import { renderSiting } from './views/siting-panel.ts';
 
 /** Each view returns an optional clean-up (stop polling, remove the map). */
 type Cleanup = (() => void) | void;
@@ -31,6 +32,7 @@ function shell(route: Route): HTMLElement {
       link(`#/plan/${p}/fleet`, 'Fleet table', route.name === 'fleet'),
       link(`#/plan/${p}/summary`, 'Summary', route.name === 'summary'),
       link(`#/plan/${p}/capacity`, 'Network load', route.name === 'capacity'),
+      link(`#/plan/${p}/siting`, 'Gateway siting', route.name === 'siting'),
       link(`#/plan/${p}/install`, 'Installer', route.name === 'install'),
     );
   }
@@ -100,6 +102,9 @@ async function render(): Promise<void> {
         break;
       case 'capacity':
         cleanup = await renderCapacity(main, route);
+        break;
+      case 'siting':
+        cleanup = await renderSiting(main, route);
         break;
     }
   } catch (err) {

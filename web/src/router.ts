@@ -1,8 +1,8 @@
 // Hash routes: #/plans, #/plan/<id>[?node=<id>], #/plan/<id>/fleet,
-// #/plan/<id>/summary, #/plan/<id>/install[/<nodeId>], #/plan/<id>/capacity, #/signin.
+// #/plan/<id>/summary, #/plan/<id>/install[/<nodeId>], #/plan/<id>/capacity, #/plan/<id>/siting, #/signin.
 
 export interface Route {
-  name: 'signin' | 'plans' | 'map' | 'fleet' | 'summary' | 'install' | 'capacity';
+  name: 'signin' | 'plans' | 'map' | 'fleet' | 'summary' | 'install' | 'capacity' | 'siting';
   planId?: string;
   nodeId?: string;
   params: URLSearchParams;
@@ -18,6 +18,7 @@ export function parseRoute(hash: string): Route {
     if (parts[2] === 'fleet') return { name: 'fleet', planId, params };
     if (parts[2] === 'summary') return { name: 'summary', planId, params };
     if (parts[2] === 'capacity') return { name: 'capacity', planId, params };
+    if (parts[2] === 'siting') return { name: 'siting', planId, params };
     if (parts[2] === 'install') return { name: 'install', planId, nodeId: parts[3] ? decodeURIComponent(parts[3]) : undefined, params };
     return { name: 'map', planId, nodeId: params.get('node') ?? undefined, params };
   }

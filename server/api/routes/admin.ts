@@ -10,6 +10,7 @@ import { adminTeamAdd, adminTokenIssue, adminTokenRevoke, teamAddInput, tokenIss
 import { ApiError } from '../errors.ts';
 import { linkAdminRoutes } from './links.ts';
 import { reportAdminRoutes } from './exports.ts';
+import { sitingAdminRoutes } from './siting.ts';
 
 const loopback = new Set(['127.0.0.1', '::1', '::ffff:127.0.0.1']);
 
@@ -38,5 +39,7 @@ export default async function adminRoutes(app: FastifyInstance): Promise<void> {
   await app.register(linkAdminRoutes);
   // `earshot report` / `earshot export` (same reportFile function as the command in-process).
   await app.register(reportAdminRoutes);
+  // `earshot siting` (the same sitingReport use case as in-process).
+  await app.register(sitingAdminRoutes);
   api.get('/ping', { schema: { hide: true, response: { 200: z.object({ ok: z.literal(true), pid: z.number() }) } } }, async () => ({ ok: true as const, pid: process.pid }));
 }
