@@ -33,6 +33,8 @@ export interface CapacityRunOptions {
   confirmedShare?: number;
   /** What-if: every node's reporting rate × this factor (default 1). */
   rateScale?: number;
+  /** What-if: uplink channels (default: plan setting `uplinkChannels`, else the band plan's default channels). */
+  channels?: number;
 }
 
 function planSetting(plan: PlanRow, key: string): unknown {
@@ -108,7 +110,7 @@ export async function planCapacity(engine: LinkEngine, ctx: PlanContext, options
   const rateScale = options.rateScale ?? 1;
   const settingShare = planSetting(ctx.plan, 'confirmedUplinkShare');
   const confirmedShare = options.confirmedShare ?? (typeof settingShare === 'number' && settingShare >= 0 && settingShare <= 1 ? settingShare : 0);
-  const channels = planUplinkChannels(ctx, warnings);
+  const channels = options.channels ?? planUplinkChannels(ctx, warnings);
   const outcomes = await engine.fleet(ctx);
   const { inputs, used, skipped } = capacityNodesFromFleet(ctx, outcomes, rateScale);
   const result = assessCapacity(

@@ -19,6 +19,7 @@ export const capacityQuery = z.strictObject({
   durationS: coerce(finite().positive('must be > 0 s').max(86_400, 'must be ≤ 86400 s')).optional(),
   seed: coerce(finite().int('must be a whole number')).optional(),
   rateScale: coerce(finite().min(0, 'must be ≥ 0').max(100, 'must be ≤ 100')).optional(),
+  channels: coerce(finite().int('must be a whole number').min(1, 'must be ≥ 1').max(64, 'must be ≤ 64')).optional(),
   confirmedShare: coerce(finite().min(0, 'must be within 0–1').max(1, 'must be within 0–1')).optional(),
   captureThresholdDb: coerce(finite().min(-10, 'must be ≥ -10 dB').max(30, 'must be ≤ 30 dB')).optional(),
 });
@@ -93,7 +94,7 @@ export default async function capacityRoutes(app: FastifyInstance): Promise<void
     '/plans/:planId/capacity',
     {
       schema: {
-        summary: 'Network capacity: per gateway the offered load per SF and channel, collision probability and downlink airtime; per node time on air, collision survival, delivery ratio and duty-cycle budget (?model=aloha|capture|simulate, ?rateScale= for a what-if of the reporting rate)',
+        summary: 'Network capacity: per gateway the offered load per SF and channel, collision probability and downlink airtime; per node time on air, collision survival, delivery ratio and duty-cycle budget (?model=aloha|capture|simulate, ?rateScale= and ?channels= for what-ifs of the reporting rate and the channel count)',
         tags: ['capacity'],
         params: z.strictObject({ planId: id() }),
         querystring: capacityQuery,
