@@ -10,6 +10,8 @@ import { propagationCommands } from './cli/propagation.ts';
 import { linkCommands } from './cli/links.ts';
 import { coverageCommands } from './cli/coverage.ts';
 import { capacityCommands } from './cli/capacity.ts';
+import { reportCommands } from './cli/reports.ts';
+import { tuningCommands } from './cli/tuning.ts';
 
 export const allCommands: CliCommand[] = [
   ...adminCommands,
@@ -19,6 +21,8 @@ export const allCommands: CliCommand[] = [
   ...linkCommands,
   ...coverageCommands,
   ...capacityCommands,
+  ...reportCommands,
+  ...tuningCommands,
 ];
 
 function usage(): string {
