@@ -6,8 +6,7 @@
 import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import { CAPACITY_MODELS, CapacityInputError, planCapacity } from '../../app/capacity.ts';
-import { ApiError } from '../errors.ts';
+import { CAPACITY_MODELS, planCapacity } from '../../app/capacity.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
 import { errorResponses, finite, id } from '../schemas.ts';
 import { asApiError } from './links.ts';
@@ -108,7 +107,6 @@ export default async function capacityRoutes(app: FastifyInstance): Promise<void
         const ctx = await engine.planContext(plan);
         return await planCapacity(engine, ctx, { ...query, model: query.model ?? 'capture' });
       } catch (error) {
-        if (error instanceof CapacityInputError) throw new ApiError(400, 'invalid_input', error.message);
         return asApiError(error);
       }
     },
