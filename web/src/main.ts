@@ -12,6 +12,7 @@ import { renderMap } from './views/map.ts';
 import { renderFleet } from './views/fleet.ts';
 import { renderSummary } from './views/summary.ts';
 import { renderInstaller } from './views/installer.ts';
+import { renderCompare } from './views/compare-view.ts';
 
 /** Each view returns an optional clean-up (stop polling, remove the map). */
 type Cleanup = (() => void) | void;
@@ -29,6 +30,7 @@ function shell(route: Route): HTMLElement {
       link(`#/plan/${p}/fleet`, 'Fleet table', route.name === 'fleet'),
       link(`#/plan/${p}/summary`, 'Summary', route.name === 'summary'),
       link(`#/plan/${p}/install`, 'Installer', route.name === 'install'),
+      link(`#/plan/${p}/compare`, 'Compare', route.name === 'compare'),
     );
   }
   const who = session.me ? `${session.me.user.name} · ${session.me.team.name} · ${role()}` : 'signed in';
@@ -92,6 +94,9 @@ async function render(): Promise<void> {
         break;
       case 'install':
         cleanup = await renderInstaller(main, route);
+        break;
+      case 'compare':
+        cleanup = await renderCompare(main, route);
         break;
     }
   } catch (err) {
