@@ -11,7 +11,7 @@ import { allTerrainLayers } from '../db/repositories/terrain-layers.ts';
 import { RESULT_FILES, resolveFilePath, resultDir, type CoverageJobParams } from '../jobs/coverage-job.ts';
 import type { LinkEngine } from '../jobs/link-engine.ts';
 import { openGeoRaster, type GeoRaster } from '../terrain/raster.ts';
-import { fitView, paddedBox, renderMapTiles } from '../report/map.ts';
+import { composeMapImage, fitView, paddedBox, renderMapTiles } from '../report/map.ts';
 import { renderReportPdf, type ReportModel } from '../report/pdf.ts';
 import { exportFileName } from './exports.ts';
 import { planFigures, type PlanFigures } from './plan-figures.ts';
@@ -95,7 +95,7 @@ export async function planReport(engine: LinkEngine, config: Config, plan: PlanR
     if (box) {
       const view = fitView(box, MAP_WIDTH_PX, MAP_HEIGHT_PX);
       const tiles = await renderMapTiles(view, elevation, margin?.raster ?? null);
-      map = { view, tiles, coverage: margin?.description ?? null, terrain: figures.assumptions.terrain };
+      map = { view, image: composeMapImage(view, tiles), coverage: margin?.description ?? null, terrain: figures.assumptions.terrain };
     }
     options.onProgress?.(0.9);
     const model: ReportModel = {

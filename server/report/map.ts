@@ -7,6 +7,7 @@ import { renderMarginTile } from '../coverage/tiles.ts';
 import { mercatorPixelSizeM } from '../terrain/hillshade.ts';
 import type { GeoRaster } from '../terrain/raster.ts';
 import { renderHillshadeTile, TILE_SIZE_PX } from '../terrain/tiles.ts';
+import { decodePng, encodePng } from '../terrain/png.ts';
 
 export interface LonLatBox {
   west: number;
@@ -103,4 +104,48 @@ export async function renderMapTiles(view: MapView, elevation: GeoRaster[], marg
     }
   }
   return tiles;
+}
+
+/** Paper colour where there is no terrain (a light grey, so the frame reads in grey print). */
+const BACKGROUND = 0xf4;
+
+/**
+ * The tiles composited into one RGB image of the view: hillshade grey where there is
+ * terrain, the margin colours over it at their own opacity, light grey elsewhere.
+ * One opaque RGB PNG embeds in a PDF as it is (no alpha channel to split), which keeps
+ * the report fast and small.
+ */
+export function composeMapImage(view: MapView, tiles: readonly MapTile[]): Uint8Array {
+  const w = view.widthPx;
+  const hPx = view.heightPx;
+  const rgb = new Uint8Array(w * hPx * 3).fill(BACKGROUND);
+  const place = (png: Uint8Array, tileX: number, tileY: number, layer: 'shade' | 'margin') => {
+    const { pixels, colour, widthPx, heightPx } = decodePng(png);
+    const channels = colour === 'grey-alpha' ? 2 : colour === 'rgba' ? 4 : colour === 'rgb' ? 3 : 1;
+    for (let ty = 0; ty < heightPx; ty++) {
+      const y = tileY + ty;
+      if (y < 0 || y >= hPx) continue;
+      for (let tx = 0; tx < widthPx; tx++) {
+        const x = tileX + tx;
+        if (x < 0 || x >= w) continue;
+        const k = (ty * widthPx + tx) * channels;
+        const o = (y * w + x) * 3;
+        if (layer === 'shade') {
+          if (channels === 2 && pixels[k + 1] === 0) continue;
+          // Lift the shade toward white a little so symbols and margin colours stay readable on it.
+          const grey = 70 + Math.round(pixels[k] * 0.72);
+          rgb[o] = grey;
+          rgb[o + 1] = grey;
+          rgb[o + 2] = grey;
+        } else {
+          const alpha = channels === 4 ? pixels[k + 3] / 255 : 1;
+          if (alpha === 0) continue;
+          for (let c = 0; c < 3; c++) rgb[o + c] = Math.round(pixels[k + c] * alpha + rgb[o + c] * (1 - alpha));
+        }
+      }
+    }
+  };
+  for (const tile of tiles) if (tile.hillshadePng) place(tile.hillshadePng, tile.x, tile.y, 'shade');
+  for (const tile of tiles) if (tile.marginPng) place(tile.marginPng, tile.x, tile.y, 'margin');
+  return encodePng(w, hPx, rgb, 'rgb');
 }
