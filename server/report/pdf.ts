@@ -339,16 +339,17 @@ function mapPage(w: ReportWriter, m: ReportModel): void {
   doc.x = MARGIN;
   if (m.map.coverage) {
     const cy = doc.y;
-    doc.font('bold').fontSize(8.5).fillColor('#000').text(w.t('Predicted margin (coverage run):'), MARGIN, cy, { lineBreak: false });
-    let x = MARGIN + 150;
+    doc.font('bold').fontSize(8.5).fillColor('#000').text(w.t('Predicted margin at the coverage run’s SF (received power − sensitivity):'), MARGIN, cy, { lineBreak: false });
+    const by = cy + 13;
+    let x = MARGIN;
     for (const cls of MARGIN_CLASSES) {
       const label = w.t(cls.label.split(':')[0]);
-      doc.rect(x, cy, 12, 9).lineWidth(0.4).fillAndStroke(cls.colour, '#333');
-      doc.fillColor('#000').font('body').fontSize(7.5).text(`${label} dB`.replace('dB dB', 'dB'), x + 15, cy + 1, { lineBreak: false });
+      doc.rect(x, by, 12, 9).lineWidth(0.4).fillAndStroke(cls.colour, '#333');
+      doc.fillColor('#000').font('body').fontSize(7.5).text(`${label} dB`.replace('dB dB', 'dB'), x + 15, by + 1, { lineBreak: false });
       x += 15 + doc.widthOfString(`${label} dB`) + 10;
     }
     doc.x = MARGIN;
-    doc.y = cy + 14;
+    doc.y = by + 14;
     w.para(`${m.map.coverage} Darker = more margin; uncoloured = below −5 dB, outside the run's radius, or no terrain.`, { size: 8.5, colour: '#222' });
   } else {
     w.para('No finished coverage run yet: the map shows the terrain and the nodes’ predicted status only. Start a coverage run from the map to add predicted margin.', { size: 8.5, colour: '#222' });

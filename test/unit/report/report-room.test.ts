@@ -77,20 +77,21 @@ describe('map placement (Web Mercator, EPSG:3857 spherical)', () => {
       expect(back.lat).toBeCloseTo(lat, 9);
     }
   });
-  it('fits a box inside the frame at the deepest zoom that holds it', () => {
+  it('fits the box in the view at the deepest zoom where it spans at most 1.5 × the frame, at the frame’s aspect', () => {
     const box = paddedBox([{ lat: 44.25, lon: -118.2 }, { lat: 44.35, lon: -118.05 }])!;
     const view = fitView(box, 990, 1000);
+    expect(view.widthPx / view.heightPx).toBeCloseTo(0.99, 2);
     for (const corner of [{ lat: box.north, lon: box.west }, { lat: box.south, lon: box.east }]) {
       const p = viewPx(view, corner.lat, corner.lon);
       expect(p.x).toBeGreaterThanOrEqual(0);
-      expect(p.x).toBeLessThanOrEqual(990);
+      expect(p.x).toBeLessThanOrEqual(view.widthPx);
       expect(p.y).toBeGreaterThanOrEqual(0);
-      expect(p.y).toBeLessThanOrEqual(1000);
+      expect(p.y).toBeLessThanOrEqual(view.heightPx);
     }
-    const deeper = { ...view, zoom: view.zoom + 1 };
-    const nw = lonLatToGlobalPx(box.west, box.north, deeper.zoom);
-    const se = lonLatToGlobalPx(box.east, box.south, deeper.zoom);
-    expect(se.x - nw.x > 990 || se.y - nw.y > 1000).toBe(true);
+    expect(view.widthPx).toBeLessThanOrEqual(990 * 1.5 + 1);
+    const nw = lonLatToGlobalPx(box.west, box.north, view.zoom + 1);
+    const se = lonLatToGlobalPx(box.east, box.south, view.zoom + 1);
+    expect(se.x - nw.x > 990 * 1.5 || se.y - nw.y > 1000 * 1.5).toBe(true);
   });
 });
 
