@@ -9,7 +9,9 @@ import { terrainCommands } from './cli/terrain.ts';
 import { propagationCommands } from './cli/propagation.ts';
 import { linkCommands } from './cli/links.ts';
 import { coverageCommands } from './cli/coverage.ts';
+import { capacityCommands } from './cli/capacity.ts';
 import { reportCommands } from './cli/reports.ts';
+import { tuningCommands } from './cli/tuning.ts';
 
 export const allCommands: CliCommand[] = [
   ...adminCommands,
@@ -18,7 +20,9 @@ export const allCommands: CliCommand[] = [
   ...propagationCommands,
   ...linkCommands,
   ...coverageCommands,
+  ...capacityCommands,
   ...reportCommands,
+  ...tuningCommands,
 ];
 
 function usage(): string {

@@ -13,6 +13,7 @@ import { renderFleet } from './views/fleet.ts';
 import { renderSummary } from './views/summary.ts';
 import { renderInstaller } from './views/installer.ts';
 import { renderCompare } from './views/compare-view.ts';
+import { renderCapacity } from './views/capacity-panel.ts';
 
 /** Each view returns an optional clean-up (stop polling, remove the map). */
 type Cleanup = (() => void) | void;
@@ -29,6 +30,7 @@ function shell(route: Route): HTMLElement {
       link(`#/plan/${p}`, 'Map', route.name === 'map'),
       link(`#/plan/${p}/fleet`, 'Fleet table', route.name === 'fleet'),
       link(`#/plan/${p}/summary`, 'Summary', route.name === 'summary'),
+      link(`#/plan/${p}/capacity`, 'Network load', route.name === 'capacity'),
       link(`#/plan/${p}/install`, 'Installer', route.name === 'install'),
       link(`#/plan/${p}/compare`, 'Compare', route.name === 'compare'),
     );
@@ -97,6 +99,9 @@ async function render(): Promise<void> {
         break;
       case 'compare':
         cleanup = await renderCompare(main, route);
+        break;
+      case 'capacity':
+        cleanup = await renderCapacity(main, route);
         break;
     }
   } catch (err) {

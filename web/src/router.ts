@@ -1,8 +1,9 @@
 // Hash routes: #/plans, #/plan/<id>[?node=<id>], #/plan/<id>/fleet,
-// #/plan/<id>/summary, #/plan/<id>/install[/<nodeId>], #/plan/<id>/compare[?with=<id>], #/signin.
+// #/plan/<id>/summary, #/plan/<id>/install[/<nodeId>], #/plan/<id>/capacity,
+// #/plan/<id>/compare[?with=<id>], #/signin.
 
 export interface Route {
-  name: 'signin' | 'plans' | 'map' | 'fleet' | 'summary' | 'install' | 'compare';
+  name: 'signin' | 'plans' | 'map' | 'fleet' | 'summary' | 'install' | 'capacity' | 'compare';
   planId?: string;
   nodeId?: string;
   params: URLSearchParams;
@@ -18,6 +19,7 @@ export function parseRoute(hash: string): Route {
     if (parts[2] === 'fleet') return { name: 'fleet', planId, params };
     if (parts[2] === 'summary') return { name: 'summary', planId, params };
     if (parts[2] === 'compare') return { name: 'compare', planId, params };
+    if (parts[2] === 'capacity') return { name: 'capacity', planId, params };
     if (parts[2] === 'install') return { name: 'install', planId, nodeId: parts[3] ? decodeURIComponent(parts[3]) : undefined, params };
     return { name: 'map', planId, nodeId: params.get('node') ?? undefined, params };
   }

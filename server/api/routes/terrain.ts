@@ -23,6 +23,7 @@ import { renderHillshadeTile, validTile } from '../../terrain/tiles.ts';
 import { requireRole } from '../auth.ts';
 import { ApiError } from '../errors.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
+import { assertCleanText } from '../input-guard.ts';
 import { dateTime, errorResponses, id, name, pageOf, pageQuery, planParams } from '../schemas.ts';
 
 const uploadQuery = z.strictObject({
@@ -418,6 +419,8 @@ async function receiveUpload(request: FastifyRequest, tempPath: string, limit: n
         received = await receive(part.file, tempPath, limit);
         if (part.file.truncated) throw new ApiError(413, 'payload_too_large', `file: larger than the upload limit of ${formatBytes(limit)} (EARSHOT_MAX_UPLOAD_MB)`);
       } else if (typeof part.value === 'string') {
+        assertCleanText(`${part.fieldname} (form field name)`, part.fieldname, { singleLine: true });
+        assertCleanText(part.fieldname, part.value);
         fields[part.fieldname] = part.value;
       }
     }
