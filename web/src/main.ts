@@ -12,6 +12,7 @@ import { renderMap } from './views/map.ts';
 import { renderFleet } from './views/fleet.ts';
 import { renderSummary } from './views/summary.ts';
 import { renderInstaller } from './views/installer.ts';
+import { renderCompare } from './views/compare-view.ts';
 import { renderCapacity } from './views/capacity-panel.ts';
 import { clearDevice, startOffline } from './offline/device.ts';
 import { renderSiting } from './views/siting-panel.ts';
@@ -34,6 +35,7 @@ function shell(route: Route): HTMLElement {
       link(`#/plan/${p}/capacity`, 'Network load', route.name === 'capacity'),
       link(`#/plan/${p}/siting`, 'Gateway siting', route.name === 'siting'),
       link(`#/plan/${p}/install`, 'Installer', route.name === 'install'),
+      link(`#/plan/${p}/compare`, 'Compare', route.name === 'compare'),
     );
   }
   const who = session.me ? `${session.me.user.name} · ${session.me.team.name} · ${role()}` : 'signed in';
@@ -99,6 +101,9 @@ async function render(): Promise<void> {
         break;
       case 'install':
         cleanup = await renderInstaller(main, route);
+        break;
+      case 'compare':
+        cleanup = await renderCompare(main, route);
         break;
       case 'capacity':
         cleanup = await renderCapacity(main, route);

@@ -1,8 +1,9 @@
 // Hash routes: #/plans, #/plan/<id>[?node=<id>], #/plan/<id>/fleet,
-// #/plan/<id>/summary, #/plan/<id>/install[/<nodeId>], #/plan/<id>/capacity, #/plan/<id>/siting, #/signin.
+// #/plan/<id>/summary, #/plan/<id>/install[/<nodeId>], #/plan/<id>/capacity, #/plan/<id>/siting,
+// #/plan/<id>/compare[?with=<id>], #/signin.
 
 export interface Route {
-  name: 'signin' | 'plans' | 'map' | 'fleet' | 'summary' | 'install' | 'capacity' | 'siting';
+  name: 'signin' | 'plans' | 'map' | 'fleet' | 'summary' | 'install' | 'capacity' | 'siting' | 'compare';
   planId?: string;
   nodeId?: string;
   params: URLSearchParams;
@@ -17,6 +18,7 @@ export function parseRoute(hash: string): Route {
     const planId = decodeURIComponent(parts[1]);
     if (parts[2] === 'fleet') return { name: 'fleet', planId, params };
     if (parts[2] === 'summary') return { name: 'summary', planId, params };
+    if (parts[2] === 'compare') return { name: 'compare', planId, params };
     if (parts[2] === 'capacity') return { name: 'capacity', planId, params };
     if (parts[2] === 'siting') return { name: 'siting', planId, params };
     if (parts[2] === 'install') return { name: 'install', planId, nodeId: parts[3] ? decodeURIComponent(parts[3]) : undefined, params };
