@@ -11,6 +11,7 @@ import { jsonSchemaTransform, serializerCompiler, validatorCompiler, type ZodTyp
 import type { Config } from '../config.ts';
 import type { Database } from '../db/client.ts';
 import { installAuth } from './auth.ts';
+import type { AuthThrottle } from './auth-throttle.ts';
 import { errorBody, installErrorHandlers, sendError } from './errors.ts';
 import { installInputGuard } from './input-guard.ts';
 import healthRoutes from './routes/health.ts';
@@ -39,6 +40,8 @@ export interface AppDeps {
   config: Config;
   logger?: boolean | object;
   jobs?: unknown;
+  /** Failed-authentication throttle (default: in memory, or in Redis when REDIS_URL is set). */
+  authThrottle?: AuthThrottle;
   /** When set, the loopback-only admin endpoints (/_admin/*) accept this secret (see server/cli/admin.ts). */
   adminSecret?: string;
 }
@@ -230,7 +233,7 @@ export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {
   });
 
   installErrorHandlers(app);
-  installAuth(app, deps.db);
+  installAuth(app, deps.db, { redisUrl: config.redisUrl, throttle: deps.authThrottle });
   installInputGuard(app);
 
   await app.register(signInRoutes);
