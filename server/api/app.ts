@@ -80,6 +80,7 @@ async function registerApiRoutes(api: FastifyInstance): Promise<void> {
   await api.register((await import('./routes/links.ts')).default);
   await api.register((await import('./routes/coverage.ts')).default);
   await api.register((await import('./routes/client-settings.ts')).default);
+  await api.register((await import('./routes/team-access.ts')).default);
 }
 
 export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {
@@ -160,6 +161,7 @@ export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {
   installAuth(app, deps.db);
 
   await app.register(signInRoutes);
+  await app.register((await import('./routes/team-access.ts')).sessionExchangeRoutes);
   if (deps.adminSecret) await app.register(adminRoutes, { prefix: '/_admin' });
   await app.register(registerApiRoutes, { prefix: '/api/v1' });
   app.get('/api/v1/openapi.json', { schema: { hide: true } }, async () => app.swagger());

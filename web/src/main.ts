@@ -2,7 +2,8 @@
 // server side trivial (web/dist served as static files at /).
 import 'leaflet/dist/leaflet.css';
 import './styles.css';
-import { storeToken } from './api.ts';
+import './styles-field.css';
+import { signOut } from './api-team.ts';
 import { refreshSession, role, session } from './session.ts';
 import { clear, errorText, h, notice } from './ui.ts';
 import { go, parseRoute, rerenderEvent, type Route } from './router.ts';
@@ -12,6 +13,7 @@ import { renderMap } from './views/map.ts';
 import { renderFleet } from './views/fleet.ts';
 import { renderSummary } from './views/summary.ts';
 import { renderInstaller } from './views/installer.ts';
+import { renderTeam } from './views/team.ts';
 
 /** Each view returns an optional clean-up (stop polling, remove the map). */
 type Cleanup = (() => void) | void;
@@ -22,6 +24,7 @@ function shell(route: Route): HTMLElement {
   const link = (href: string, label: string, active: boolean): HTMLElement =>
     h('a', { href, class: active ? 'nav-link active' : 'nav-link', 'aria-current': active ? 'page' : null }, label);
   const nav = h('nav', { 'aria-label': 'Main' }, link('#/plans', 'Plans', route.name === 'plans'));
+  if (role() === 'planner') nav.append(link('#/team', 'Team', route.name === 'team'));
   if (planId) {
     const p = encodeURIComponent(planId);
     nav.append(
@@ -35,24 +38,31 @@ function shell(route: Route): HTMLElement {
   return h(
     'header',
     { class: 'topbar' },
-    h('a', { href: '#/plans', class: 'brand', 'aria-label': 'earshot, plan list' }, h('span', { class: 'brand-mark', 'aria-hidden': 'true' }, '◠'), 'earshot'),
+    h('a', { href: '#/plans', class: 'brand', 'aria-label': 'earshot, plan list' }, h('span', { class: 'brand-mark', 'aria-hidden': 'true' }, '◠'), h('span', { class: 'brand-text' }, 'earshot')),
     nav,
     h(
       'div',
       { class: 'who' },
-      h('span', { class: 'role-badge' }, who),
+      h('span', { class: 'role-badge', title: who }, who),
       h(
         'button',
         {
           type: 'button',
           class: 'link-button',
-          onclick: () => {
-            storeToken(null);
-            session.signedIn = false;
-            go('#/signin');
+          onclick: (event: Event) => {
+            const button = event.currentTarget as HTMLButtonElement;
+            button.disabled = true;
+            // Ends the session on the server: a reload afterwards shows the sign-in page.
+            void signOut()
+              .catch(() => undefined)
+              .finally(() => {
+                session.signedIn = false;
+                session.me = null;
+                go('#/signin');
+              });
           },
         },
-        'Sign out of this tab',
+        'Sign out',
       ),
     ),
   );
@@ -92,6 +102,9 @@ async function render(): Promise<void> {
         break;
       case 'install':
         cleanup = await renderInstaller(main, route);
+        break;
+      case 'team':
+        cleanup = await renderTeam(main);
         break;
     }
   } catch (err) {

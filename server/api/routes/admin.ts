@@ -9,6 +9,7 @@ import { z } from 'zod';
 import { adminTeamAdd, adminTokenIssue, adminTokenRevoke, teamAddInput, tokenIssueInput, tokenRevokeInput } from '../../db/repositories/admin-ops.ts';
 import { ApiError } from '../errors.ts';
 import { linkAdminRoutes } from './links.ts';
+import { listNodesForAdmin, listPlansForAdmin, nodesListInput, plansListInput } from '../../app/fleet-lists.ts';
 
 const loopback = new Set(['127.0.0.1', '::1', '::ffff:127.0.0.1']);
 
@@ -35,5 +36,8 @@ export default async function adminRoutes(app: FastifyInstance): Promise<void> {
   api.post('/token-revoke', { config, schema: { hide: true, body: tokenRevokeInput } }, async (request) => adminTokenRevoke(db, request.body));
   // `earshot link` / `earshot recommend` while this server holds the data folder (same engine function).
   await app.register(linkAdminRoutes);
+  // `earshot plans` / `earshot nodes` while this server holds the data folder.
+  api.post('/plans-list', { config, schema: { hide: true, body: plansListInput } }, async (request) => listPlansForAdmin(db, request.body));
+  api.post('/nodes-list', { config, schema: { hide: true, body: nodesListInput } }, async (request) => listNodesForAdmin(db, request.body));
   api.get('/ping', { schema: { hide: true, response: { 200: z.object({ ok: z.literal(true), pid: z.number() }) } } }, async () => ({ ok: true as const, pid: process.pid }));
 }

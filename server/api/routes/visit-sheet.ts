@@ -99,7 +99,7 @@ export function visitSheetHtml(sheet: VisitSheet): string {
     ? `<p class="warn">The current kit does not meet the plan's target. Recommended: ${esc(k.recommended.antennaDesignId)} at ${dec(k.recommended.mastHeightM)} m, feedline ${esc(k.recommended.feedlineId ?? 'none')} ${k.recommended.feedlineId ? `${dec(k.recommended.feedlineLengthM)} m` : ''} (cost ${dec(k.recommended.cost, 2)}): ${esc(k.recommended.reason)}</p>`
     : '';
   return `<!doctype html>
-<html lang="en"><head><meta charset="utf-8"><title>${esc(sheet.title)}</title>
+<html lang="en"><head><meta charset="utf-8"><meta name="viewport" content="width=device-width, initial-scale=1"><link rel="icon" href="data:,"><title>${esc(sheet.title)}</title>
 <style>
 body{font-family:system-ui,sans-serif;margin:1.5cm;color:#111}h1{font-size:1.4em}h2{font-size:1.1em;margin-top:1.2em}
 table{border-collapse:collapse;width:100%;margin:.4em 0}td,th{border:1px solid #888;padding:.25em .4em;text-align:left;font-size:.9em}
