@@ -11,6 +11,9 @@ import { linkCommands } from './cli/links.ts';
 import { coverageCommands } from './cli/coverage.ts';
 import { fleetListCommands } from './cli/fleet-lists.ts';
 import { helpTexts } from './cli/help-texts.ts';
+import { capacityCommands } from './cli/capacity.ts';
+import { reportCommands } from './cli/reports.ts';
+import { tuningCommands } from './cli/tuning.ts';
 
 export const allCommands: CliCommand[] = [
   ...adminCommands,
@@ -20,6 +23,9 @@ export const allCommands: CliCommand[] = [
   ...linkCommands,
   ...coverageCommands,
   ...fleetListCommands,
+  ...capacityCommands,
+  ...reportCommands,
+  ...tuningCommands,
 ];
 
 function usage(): string {

@@ -26,6 +26,26 @@ export interface Config {
   seedDemo: boolean;
   /** Folder holding files: `<dataDir>/files`. */
   filesDir: string;
+  /**
+   * Which proxies in front may set X-Forwarded-For/-Proto (Fastify `trustProxy`): false (the
+   * default: the socket is the client), true (any), a hop count, or a comma list of addresses
+   * and CIDR ranges. Decides the client address (rate limits, logs) and whether the sign-in
+   * cookie is `Secure` (X-Forwarded-Proto: https).
+   */
+  trustProxy: boolean | number | string;
+}
+
+function trustProxyOf(raw: string | undefined): boolean | number | string {
+  if (raw === undefined) return false;
+  const value = raw.trim().toLowerCase();
+  if (['', 'off', 'false', 'no', '0'].includes(value)) return false;
+  if (['on', 'true', 'yes'].includes(value)) return true;
+  if (/^[1-9]\d?$/.test(value)) return Number(value);
+  const entries = value.split(',').map((entry) => entry.trim()).filter(Boolean);
+  const address = /^(\d{1,3}(\.\d{1,3}){3}(\/\d{1,2})?|[0-9a-f:]+(\/\d{1,3})?|loopback|linklocal|uniquelocal)$/;
+  const bad = entries.find((entry) => !address.test(entry));
+  if (bad !== undefined) throw new ConfigError(`EARSHOT_TRUST_PROXY: "${bad}" is not an address, a CIDR range, loopback, linklocal or uniquelocal (or use on/off or a hop count)`);
+  return entries.join(',');
 }
 
 export class ConfigError extends Error {}
@@ -69,5 +89,6 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
     logLevel: optional(env, 'EARSHOT_LOG_LEVEL') ?? 'info',
     seedDemo: (optional(env, 'EARSHOT_DEMO') ?? 'on') !== 'off',
     filesDir: join(dataDir, 'files'),
+    trustProxy: trustProxyOf(optional(env, 'EARSHOT_TRUST_PROXY')),
   };
 }

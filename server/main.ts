@@ -4,7 +4,7 @@
 // `earshot` CLI can reach this process instead of opening the embedded data folder twice.
 import { randomBytes } from 'node:crypto';
 import { existsSync, mkdirSync, rmSync, writeFileSync } from 'node:fs';
-import { dirname, join } from 'node:path';
+import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import fastifyStatic from '@fastify/static';
 import type { FastifyInstance } from 'fastify';
@@ -13,9 +13,9 @@ import { ConfigError, loadConfig, type Config } from './config.ts';
 import { DatabaseBusyError, openDatabase, type Database } from './db/client.ts';
 import { issueToken } from './db/repositories/accounts.ts';
 import { seedDemoIfEmpty } from './demo.ts';
+import { projectRoot } from './paths.ts';
 
-const root = join(dirname(fileURLToPath(import.meta.url)), '..');
-export const webDistDir = join(root, 'web', 'dist');
+export const webDistDir = join(projectRoot, 'web', 'dist');
 
 export function adminFilePath(config: Config): string {
   return join(config.dataDir, 'admin.json');

@@ -60,11 +60,48 @@ export function isPublicPath(path: string): boolean {
   return publicApiPaths.has(path) || !path.startsWith('/api/v1/');
 }
 
+/**
+ * The path as a router could understand it: percent-decoded (repeatedly, so `%2561` cannot
+ * hide an `a`), backslashes as slashes, runs of slashes collapsed, `.` and `..` segments
+ * resolved (RFC 3986 §5.2.4) and lower-cased. Used only to decide whether a request that
+ * matched no route still belongs under /api/v1 (it then needs a token like any other).
+ */
+export function normalisedPath(url: string): string {
+  let path = url.split(/[?#]/)[0];
+  for (let i = 0; i < 4 && /%[0-9a-f]{2}/i.test(path); i++) {
+    try {
+      path = decodeURIComponent(path);
+    } catch {
+      break;
+    }
+  }
+  const out: string[] = [];
+  for (const segment of path.replace(/\\/g, '/').split('/')) {
+    if (segment === '' || segment === '.') continue;
+    if (segment === '..') out.pop();
+    else out.push(segment);
+  }
+  return `/${out.join('/')}`.toLowerCase();
+}
+
+/**
+ * Whether a request may pass without a token. Decided on the route the router matched (its
+ * pattern, e.g. `/api/v1/plans/:planId`), never on the raw URL: the router decodes the path,
+ * so `/%61pi/v1/plans` reaches `/api/v1/plans` and must be judged as that route. A request
+ * that matched nothing is judged on its normalised path (it is a 404 either way, but under
+ * /api/v1 it answers 401 first, as it always has).
+ */
+export function isPublicRequest(request: FastifyRequest): boolean {
+  const pattern = request.routeOptions?.url;
+  if (pattern) return isPublicPath(pattern);
+  const path = normalisedPath(request.url);
+  return !(path === '/api/v1' || path.startsWith('/api/v1/'));
+}
+
 export function installAuth(app: FastifyInstance, db: Database): void {
   app.decorateRequest('principal', undefined as unknown as Principal);
   app.addHook('onRequest', async (request: FastifyRequest, reply: FastifyReply) => {
-    const path = request.url.split('?')[0];
-    if (isPublicPath(path)) return;
+    if (isPublicRequest(request)) return;
     const bearer = bearerToken(request);
     if (bearer === '') return sendError(reply, 401, 'unauthorized', 'Authorization header must be "Bearer <token>"');
     let token: string;

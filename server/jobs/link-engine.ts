@@ -586,6 +586,11 @@ export function nodeConnectors(hasFeedline: boolean): ConnectorUse[] {
   return hasFeedline ? connectorUses(NODE_CONNECTORS) : [];
 }
 
+/** Gateway connectors for a feedline run (as planContext assumes). */
+export function gatewayConnectors(hasFeedline: boolean): ConnectorUse[] {
+  return hasFeedline ? connectorUses(GATEWAY_CONNECTORS) : [];
+}
+
 /** Loss of those connectors, dB. */
 export function nodeConnectorLossDb(hasFeedline: boolean): number {
   return connectorLossDb(nodeConnectors(hasFeedline));

@@ -99,7 +99,7 @@ function defaultFrequencyMhz(plan: BandPlan): number {
 }
 
 /** Uplink SFs at a bandwidth: the LoRa data rates of the default channels' DR span; else SF7–12. */
-function uplinkSfsFor(plan: BandPlan, bandwidthKhz: number): Array<{ sf: number; maxAppPayloadBytes: number | null }> {
+export function uplinkSfsFor(plan: BandPlan, bandwidthKhz: number): Array<{ sf: number; maxAppPayloadBytes: number | null }> {
   const lorawan = plan.lorawan;
   if (lorawan) {
     const channels = lorawan.defaultChannels;

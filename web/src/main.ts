@@ -14,6 +14,7 @@ import { renderFleet } from './views/fleet.ts';
 import { renderSummary } from './views/summary.ts';
 import { renderInstaller } from './views/installer.ts';
 import { renderTeam } from './views/team.ts';
+import { renderCapacity } from './views/capacity-panel.ts';
 
 /** Each view returns an optional clean-up (stop polling, remove the map). */
 type Cleanup = (() => void) | void;
@@ -31,6 +32,7 @@ function shell(route: Route): HTMLElement {
       link(`#/plan/${p}`, 'Map', route.name === 'map'),
       link(`#/plan/${p}/fleet`, 'Fleet table', route.name === 'fleet'),
       link(`#/plan/${p}/summary`, 'Summary', route.name === 'summary'),
+      link(`#/plan/${p}/capacity`, 'Network load', route.name === 'capacity'),
       link(`#/plan/${p}/install`, 'Installer', route.name === 'install'),
     );
   }
@@ -105,6 +107,9 @@ async function render(): Promise<void> {
         break;
       case 'team':
         cleanup = await renderTeam(main);
+        break;
+      case 'capacity':
+        cleanup = await renderCapacity(main, route);
         break;
     }
   } catch (err) {

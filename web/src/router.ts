@@ -1,8 +1,9 @@
 // Hash routes: #/plans, #/plan/<id>[?node=<id>], #/plan/<id>/fleet,
-// #/plan/<id>/summary, #/plan/<id>/install[/<nodeId>], #/signin, #/team (planners: people, invitations, audit log).
+// #/plan/<id>/summary, #/plan/<id>/install[/<nodeId>], #/plan/<id>/capacity, #/signin,
+// #/team (planners: people, invitations, audit log).
 
 export interface Route {
-  name: 'signin' | 'plans' | 'map' | 'fleet' | 'summary' | 'install' | 'team';
+  name: 'signin' | 'plans' | 'map' | 'fleet' | 'summary' | 'install' | 'capacity' | 'team';
   planId?: string;
   nodeId?: string;
   params: URLSearchParams;
@@ -18,6 +19,7 @@ export function parseRoute(hash: string): Route {
     const planId = decodeURIComponent(parts[1]);
     if (parts[2] === 'fleet') return { name: 'fleet', planId, params };
     if (parts[2] === 'summary') return { name: 'summary', planId, params };
+    if (parts[2] === 'capacity') return { name: 'capacity', planId, params };
     if (parts[2] === 'install') return { name: 'install', planId, nodeId: parts[3] ? decodeURIComponent(parts[3]) : undefined, params };
     return { name: 'map', planId, nodeId: params.get('node') ?? undefined, params };
   }

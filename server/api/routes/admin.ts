@@ -10,6 +10,7 @@ import { adminTeamAdd, adminTokenIssue, adminTokenRevoke, teamAddInput, tokenIss
 import { ApiError } from '../errors.ts';
 import { linkAdminRoutes } from './links.ts';
 import { listNodesForAdmin, listPlansForAdmin, nodesListInput, plansListInput } from '../../app/fleet-lists.ts';
+import { reportAdminRoutes } from './exports.ts';
 
 const loopback = new Set(['127.0.0.1', '::1', '::ffff:127.0.0.1']);
 
@@ -39,5 +40,7 @@ export default async function adminRoutes(app: FastifyInstance): Promise<void> {
   // `earshot plans` / `earshot nodes` while this server holds the data folder.
   api.post('/plans-list', { config, schema: { hide: true, body: plansListInput } }, async (request) => listPlansForAdmin(db, request.body));
   api.post('/nodes-list', { config, schema: { hide: true, body: nodesListInput } }, async (request) => listNodesForAdmin(db, request.body));
+  // `earshot report` / `earshot export` (same reportFile function as the command in-process).
+  await app.register(reportAdminRoutes);
   api.get('/ping', { schema: { hide: true, response: { 200: z.object({ ok: z.literal(true), pid: z.number() }) } } }, async () => ({ ok: true as const, pid: process.pid }));
 }

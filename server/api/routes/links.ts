@@ -22,6 +22,7 @@ import { LinkEngine, LinkInputError, type NodeLinksOutcome, type PlanContext } f
 import { loadCatalog, recommendForNode, type RecommendRequest } from './recommend.ts';
 import { visitSheet, visitSheetHtml } from './visit-sheet.ts';
 import { registerReadingRoutes } from './readings.ts';
+import { gatewaysHeard, linksLegal } from '../../app/plan-figures.ts';
 
 const nodeParams = z.strictObject({ planId: id(), nodeId: id() });
 const jobParams = z.strictObject({ planId: id(), jobId: id() });
@@ -188,8 +189,8 @@ export default async function linkRoutes(app: FastifyInstance): Promise<void> {
             bestMarginDb: o.bestMarginDb,
             bestSf: best ? best.bestSf : null,
             timeOnAirMs: best ? best.timeOnAirMs : null,
-            gatewaysHeard: o.links.filter((link) => link.marginDb >= 0).length,
-            legal: o.links.every((link) => link.legal === null || link.legal.withinLimit),
+            gatewaysHeard: gatewaysHeard(o.links),
+            legal: linksLegal(o.links),
             warnings: o.node.warnings,
           };
         }),

@@ -15,13 +15,15 @@ import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { writeWithAudit } from '../../db/repositories/audit.ts';
 import type { Database } from '../../db/client.ts';
-import { allTerrainLayers, createTerrainLayerWith, deleteTerrainLayer, listTerrainLayers, planExtent, terrainFilePaths, type TerrainLayerRow } from '../../db/repositories/terrain-layers.ts';
+import { terrainFileNamesReferencedIn, terrainFilesStillReferenced } from '../../db/repositories/scenarios.ts';
+import { allTerrainLayers, createTerrainLayerWith, deleteTerrainLayer, listTerrainLayers, planExtent, type TerrainLayerRow } from '../../db/repositories/terrain-layers.ts';
 import { crsForEpsg } from '../../terrain/crs.ts';
 import { openGeoRaster, RasterError, type GeoRaster } from '../../terrain/raster.ts';
 import { renderHillshadeTile, validTile } from '../../terrain/tiles.ts';
 import { requireRole } from '../auth.ts';
 import { ApiError } from '../errors.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
+import { assertCleanText } from '../input-guard.ts';
 import { dateTime, errorResponses, id, name, pageOf, pageQuery, planParams } from '../schemas.ts';
 
 const uploadQuery = z.strictObject({
@@ -366,9 +368,9 @@ export default async function terrainRoutes(app: FastifyInstance): Promise<void>
       },
       (deleted) => ({ principal, action: 'delete', entity: 'terrain_layer', entityId: deleted.id, detail: { planId: plan.id, name: deleted.name } }),
     );
-    // Only after the commit: a rolled-back delete keeps its file.
+    // Only after the commit: a rolled-back delete keeps its file, and a file a copied plan's layer still uses stays.
     dropRasters(plan.id);
-    await rm(resolveFile(row.filePath), { force: true });
+    if ((await terrainFilesStillReferenced(db, [row.filePath])).size === 0) await rm(resolveFile(row.filePath), { force: true });
     return reply.status(204).send();
   });
 
@@ -417,6 +419,8 @@ async function receiveUpload(request: FastifyRequest, tempPath: string, limit: n
         received = await receive(part.file, tempPath, limit);
         if (part.file.truncated) throw new ApiError(413, 'payload_too_large', `file: larger than the upload limit of ${formatBytes(limit)} (EARSHOT_MAX_UPLOAD_MB)`);
       } else if (typeof part.value === 'string') {
+        assertCleanText(`${part.fieldname} (form field name)`, part.fieldname, { singleLine: true });
+        assertCleanText(part.fieldname, part.value);
         fields[part.fieldname] = part.value;
       }
     }
@@ -442,7 +446,8 @@ export async function sweepOrphanFiles(db: Database, terrainDir: string, minAgeM
   const now = Date.now();
   for (const planId of planDirs) {
     const dir = join(terrainDir, planId);
-    const referenced = new Set((await terrainFilePaths(db, planId)).map((filePath) => filePath.split(/[\\/]/).pop()));
+    // Layers of this plan and of its copies (which share the files) keep a file.
+    const referenced = await terrainFileNamesReferencedIn(db, planId);
     for (const file of await readdir(dir)) {
       if (referenced.has(file)) continue;
       const path = join(dir, file);

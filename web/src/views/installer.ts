@@ -11,6 +11,7 @@ import { canRecordReadings } from '../session.ts';
 import { announce, cautionsBlock, coords, db, dbm, distance, errorText, field, h, metres, notice, percent, select } from '../ui.ts';
 import { nodeSymbolSvg, statusStyle, symbolElement } from '../symbols.ts';
 import { kitLabel } from './node-panel.ts';
+import { tuningPanel } from './tuning-panel.ts';
 
 export async function renderInstaller(main: HTMLElement, route: Route): Promise<void> {
   main.classList.add('narrow');
@@ -87,6 +88,7 @@ async function renderNodeVisit(main: HTMLElement, store: PlanStore, node: FleetN
     sheetBox.replaceChildren();
     renderSheet(sheetBox, store, sheet);
     form?.useSheet(sheet);
+    main.append(tuningPanel(store.planId, node.id, sheet.buildSheet?.design ?? null));
   } catch (err) {
     sheetBox.replaceChildren(notice('info', `Visit sheet: ${errorText(err)}.`), cautionsBlock());
   } finally {

@@ -7,6 +7,7 @@ import type { Route } from '../router.ts';
 import { planHash } from '../router.ts';
 import { append, h, notice, percent } from '../ui.ts';
 import { nodeSymbolSvg, statusStyle, symbolElement, type NodeClass } from '../symbols.ts';
+import { getCapacity } from '../api-capacity.ts';
 
 const usd = (v: number): string => `${v.toLocaleString('en-US', { minimumFractionDigits: 2, maximumFractionDigits: 2 })} USD`;
 
@@ -90,6 +91,31 @@ export async function renderSummary(main: HTMLElement, route: Route): Promise<vo
       ),
     );
   main.append(redundancy);
+
+  // delivery with network load (collisions, duty-cycle budgets) beside the link-only figure
+  const load = h('section', { class: 'card', 'aria-labelledby': 'load-h', id: 'summary-load' }, h('h2', { id: 'load-h' }, 'Delivery with network load'), h('p', { class: 'muted' }, 'Computing…'));
+  main.append(load);
+  void getCapacity(planId, { model: 'capture' })
+    .then((capacity) => {
+      load.replaceChildren(
+        h('h2', { id: 'load-h' }, 'Delivery with network load'),
+        h(
+          'table',
+          { class: 'data-table compact' },
+          h(
+            'tbody',
+            {},
+            h('tr', {}, h('th', { scope: 'row' }, 'Mean delivery, link only'), h('td', { class: 'num' }, percent(capacity.totals.meanLinkDeliveryProbability))),
+            h('tr', {}, h('th', { scope: 'row' }, 'Mean delivery with collisions and budgets'), h('td', { class: 'num', id: 'summary-delivery-load' }, percent(capacity.totals.meanDeliveryRatio))),
+            h('tr', {}, h('th', { scope: 'row' }, 'Nodes over their airtime budget'), h('td', { class: 'num' }, String(capacity.totals.overBudgetNodes))),
+          ),
+        ),
+        h('p', { class: 'muted small' }, 'Capture model at the planned reporting rates. ', h('a', { href: planHash(planId, '/capacity') }, 'Network load per gateway'), '.'),
+      );
+    })
+    .catch((err: unknown) => {
+      load.replaceChildren(h('h2', { id: 'load-h' }, 'Delivery with network load'), h('p', { class: 'muted' }, `Not available: ${err instanceof Error ? err.message : String(err)}.`));
+    });
 
   // kit cost from the catalog
   const antennaCost = new Map(store.catalog.antennas.map((a) => [a.id, a.costUsd ?? 0]));
