@@ -116,6 +116,8 @@ async function registerApiRoutes(api: FastifyInstance): Promise<void> {
   await api.register((await import('./routes/coverage.ts')).default);
   await api.register((await import('./routes/client-settings.ts')).default);
   await api.register((await import('./routes/team-access.ts')).default);
+  await api.register((await import('./routes/gateway-checks.ts')).default);
+  await api.register((await import('./routes/kit-price.ts')).default);
   await api.register((await import('./routes/capacity.ts')).default);
   await api.register((await import('./routes/calibration.ts')).default);
   await api.register((await import('./routes/exports.ts')).default);

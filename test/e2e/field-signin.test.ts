@@ -5,9 +5,12 @@
 // the session on the server so a reload shows the sign-in page. Screenshots at laptop size
 // and 390 px go to test-artefacts/screenshots/field-*.png.
 import { readFileSync } from 'node:fs';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { vi, afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Browser, BrowserContext, Page } from 'playwright-core';
 import { accessibilityProblems, buildWeb, cli, guard, launchBrowser, newContext, screenshot, startServer, type Guard, type RunningServer } from './harness.ts';
+
+// Browser steps on a loaded 2-core machine take tens of seconds each.
+vi.setConfig({ testTimeout: 240_000 });
 
 let server: RunningServer;
 let browser: Browser;
