@@ -29,7 +29,7 @@ export function linkStatus(bestMarginDb: number | null, combinedDelivery: number
 export const STATUS_WORDS: Record<LinkStatus, { label: string; meaning: string }> = {
   served: { label: 'Served', meaning: 'meets the target margin and delivery' },
   marginal: { label: 'Marginal', meaning: 'heard, but short of the target margin or delivery' },
-  unserved: { label: 'Unserved', meaning: 'best link below sensitivity at the median: messages get through less than half the time' },
+  unserved: { label: 'Unserved', meaning: 'every link below sensitivity at the median (margin under 0 dB)' },
 };
 
 /** "Marginal (heard, but short of the target margin or delivery) · delivery 68.0 %". */

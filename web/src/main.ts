@@ -4,6 +4,7 @@ import 'leaflet/dist/leaflet.css';
 import './styles.css';
 import './styles-field.css';
 import { signOut } from './api-team.ts';
+import { adoptStatusWords } from './status-words.ts';
 import { refreshSession, role, session } from './session.ts';
 import { clear, errorText, h, notice } from './ui.ts';
 import { go, parseRoute, rerenderEvent, type Route } from './router.ts';
@@ -82,6 +83,7 @@ async function render(): Promise<void> {
     app.append(main);
     renderSignIn(main, async () => {
       await refreshSession();
+      await adoptStatusWords();
       go('#/plans');
     });
     return;
@@ -125,6 +127,9 @@ async function start(): Promise<void> {
     app?.append(notice('error', `The earshot server did not answer: ${errorText(err)}`));
     return;
   }
+  // The status words are defined once on the server (server/planning/status.ts); the map
+  // legend, panels and tables take them from there.
+  if (session.signedIn) await adoptStatusWords();
   window.addEventListener('hashchange', () => void render());
   window.addEventListener(rerenderEvent, () => void render());
   await render();

@@ -133,7 +133,7 @@ export function visitSheetHtml(sheet: VisitSheet, timeZone?: string): string {
 <style>
 body{font-family:system-ui,sans-serif;margin:1.5cm;color:#111}h1{font-size:1.4em}h2{font-size:1.1em;margin-top:1.2em}
 table{border-collapse:collapse;width:100%;margin:.4em 0}.scroll{overflow-x:auto}td.num{text-align:right;white-space:nowrap}tr.total th,tr.total td{font-weight:700}
-@media (max-width:600px){body{margin:.6rem;font-size:15px}td,th{font-size:.85em;padding:.2em .25em}h1{font-size:1.2em}body{overflow-wrap:anywhere}}td,th{border:1px solid #888;padding:.25em .4em;text-align:left;font-size:.9em}
+@media (max-width:600px){body{margin:.6rem;font-size:15px;overflow-wrap:break-word}td,th{font-size:.85em;padding:.2em .25em}h1{font-size:1.2em}.scroll td,.scroll th{white-space:nowrap}}td,th{border:1px solid #888;padding:.25em .4em;text-align:left;font-size:.9em}
 td.blank{height:1.6em;min-width:5em}.warn{border-left:4px solid #b00;padding-left:.5em}.cautions li{margin:.2em 0}
 @media print{body{margin:1cm}}
 </style></head><body>
@@ -153,7 +153,7 @@ ${build}
 <p>Predicted: <strong>${esc(STATUS_WORDS[sheet.status as LinkStatus]?.label ?? sheet.status)}</strong> (${esc(STATUS_WORDS[sheet.status as LinkStatus]?.meaning ?? '')}); at least one gateway hears a message ${dec(sheet.combinedDeliveryProbability * 100)} % of the time.</p>
 <div class="scroll"><table><tr><th>Gateway</th><th>Distance</th><th>Aim (from north)</th><th>SF</th><th>RSSI</th><th>SNR</th><th>Margin</th></tr>${rows}</table></div>
 <h2>Measured on site</h2>
-<table><tr><th>Gateway</th><th>SF</th><th>RSSI (dBm)</th><th>SNR (dB)</th><th>Time</th></tr>${blanks}</table>
+<div class="scroll"><table><tr><th>Gateway</th><th>SF</th><th>RSSI (dBm)</th><th>SNR (dB)</th><th>Time</th></tr>${blanks}</table></div>
 <h2>Cautions</h2>
 ${sheet.fittedCautions.length ? `<ul class="cautions">${sheet.fittedCautions.map((g) => `<li><strong>${esc(g.topic)}:</strong> ${esc(g.items.join(' '))}</li>`).join('')}</ul>` : ''}
 <p>${esc(CAUTIONS_FOOTER)}</p>
