@@ -14,6 +14,7 @@ import type { LinkResult } from '../planning/link.ts';
 import type { LinkStatus } from '../planning/status.ts';
 import { builtInConnectors } from '../radio/feedlines.ts';
 import { billOfMaterials, DEFAULT_GATEWAY_UNIT_COST_USD, endKitCostUsd, type BillOfMaterials, type PriceCatalog, type PricedEnd } from '../report/bom.ts';
+import { fleetReferenceSpread } from '../planning/settings.ts';
 
 /** Gateways that hear a node: links with margin ≥ 0 dB at the SF the node uses (the fleet table's `gatewaysHeard`). */
 export function gatewaysHeard(links: readonly LinkResult[]): number {
@@ -276,8 +277,9 @@ export async function planFigures(engine: LinkEngine, plan: PlanRow, onProgress?
       method: s.path.method,
       targetMarginDb: s.targetMarginDb,
       targetDelivery: s.targetDelivery,
-      sigmaDb: s.locationSigmaDb,
-      sigmaSource: s.locationSigmaSource,
+      // The plan-wide σ the fleet table quotes (server/planning/settings.ts fleetReferenceSpread).
+      sigmaDb: fleetReferenceSpread(s).sigmaDb,
+      sigmaSource: fleetReferenceSpread(s).sigmaSource,
       gatewayCorrelation: s.gatewayCorrelation,
       maxLinkRangeKm: s.maxLinkRangeM / 1000,
       maxEirpDbm: s.maxEirpDbm,

@@ -321,7 +321,7 @@ describe('map front end (chromium)', () => {
     expect(await page.locator('#plan-band option').count()).toBeGreaterThan(1);
     expect(await page.locator('#plan-method option').count()).toBeGreaterThan(1);
     await page.getByLabel('Target fade margin (dB)').fill(String(newMargin));
-    await page.getByLabel('Location variability σ (dB)').fill('7.5');
+    await page.getByLabel('Location variability σL (dB)').fill('7.5');
     await page.locator('dialog').screenshot({ path: 'test-artefacts/screenshots/05c-plan-settings.png' });
     await page.getByRole('button', { name: 'Save plan settings' }).click();
     await page.getByRole('heading', { name: 'Plan settings' }).waitFor({ state: 'detached' });

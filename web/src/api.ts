@@ -117,6 +117,7 @@ export interface Plan {
   bandPlanId?: string;
   targetMarginDb?: number;
   locationSigmaDb?: number | null;
+  modelSigmaDb?: number | null;
   propagationMethod?: string;
   version: number;
   [key: string]: unknown;
@@ -302,6 +303,9 @@ export interface Link {
   marginDb: number;
   bestSf: number | null;
   deliveryProbability: number;
+  /** The planning spread σ (dB): deliveryProbability = Φ(marginDb / sigmaDb). */
+  sigmaDb?: number;
+  sigmaSource?: 'default' | 'plan' | 'calibration';
   timeOnAirMs?: number | null;
   usedSf?: number;
   lineOfSight?: boolean;
@@ -317,7 +321,7 @@ export interface NodeLinks {
   status: LinkStatus;
   bestGatewayId: string | null;
   target: { targetMarginDb: number; targetDelivery: number };
-  assumptions?: { method?: string; frequencyMhz?: number; locationSigmaDb?: number; combination?: string; [key: string]: unknown };
+  assumptions?: { method?: string; frequencyMhz?: number; sigmaDb?: number; sigmaSource?: 'default' | 'plan' | 'calibration'; locationSigmaDb?: number; combination?: string; [key: string]: unknown };
   kit?: { antennaDesignId: string; antennaHeightAglM: number; feedlineId: string | null; feedlineLengthM: number };
   outOfRange?: Array<{ gatewayId: string; distanceM: number }>;
   preview?: boolean;

@@ -14,6 +14,7 @@ import { listNodes } from '../../db/repositories/nodes.ts';
 import { allTerrainLayers } from '../../db/repositories/terrain-layers.ts';
 import { findAntennaDesignForTeam, findFeedlineForTeam } from '../../db/repositories/kit.ts';
 import { resolveLinkSettings } from '../../planning/settings.ts';
+import { planningSpread } from '../../planning/spread.ts';
 import { sensitivityDbm } from '../../radio/lora-phy.ts';
 import { feedlineLossDb } from '../../radio/feedlines.ts';
 import { openGeoRaster, type GeoRaster } from '../../terrain/raster.ts';
@@ -282,7 +283,8 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
         requiredMarginDb: body.requiredMarginDb ?? settings.targetMarginDb,
         frequencyMhz: settings.frequencyMhz,
         kFactor: body.kFactor ?? 4 / 3,
-        locationSigmaDb: settings.locationSigmaDb,
+        // The one planning spread (server/planning/spread.ts) for a node at the target height in the open.
+        locationSigmaDb: planningSpread({ ...settings.spread, frequencyMhz: settings.frequencyMhz, nodeAntennaHeightAglM: body.targetHeightM ?? 1.5, nodeClutterHeightM: 0 }).sigmaDb,
         terrainPath: chosen.path,
         terrainLayerId: chosen.layer.id,
         clutter,

@@ -72,7 +72,7 @@ export async function recommendForNode(engine: LinkEngine, ctx: PlanContext, row
     antennas = [];
     for (const id of request.antennaDesignIds) {
       const found = kit.antennas.find((a) => a.id === id);
-      if (!found) throw new LinkInputError(400, 'invalid_input', `antennaDesignIds: no antenna design "${id}" in the catalog`);
+      if (!found) throw new LinkInputError('invalid_input', 'invalid_input', `antennaDesignIds: no antenna design "${id}" in the catalog`);
       antennas.push(found);
     }
   } else {
@@ -83,7 +83,7 @@ export async function recommendForNode(engine: LinkEngine, ctx: PlanContext, row
     feedlines = [];
     for (const id of request.feedlineIds) {
       const found = kit.feedlines.find((fl) => fl.id === id);
-      if (!found) throw new LinkInputError(400, 'invalid_input', `feedlineIds: no feedline "${id}" in the catalog`);
+      if (!found) throw new LinkInputError('invalid_input', 'invalid_input', `feedlineIds: no feedline "${id}" in the catalog`);
       feedlines.push(found);
     }
   } else {

@@ -113,7 +113,7 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
     const p = store.plan;
     const band = settings.bandPlans.find((b) => b.id === p.bandPlanId)?.name ?? p.bandPlanId ?? '–';
     planTitle.textContent = p.name;
-    planLine.textContent = `Target margin ${p.targetMarginDb ?? '–'} dB · band plan ${band} · σ ${p.locationSigmaDb === null || p.locationSigmaDb === undefined ? 'method default' : `${p.locationSigmaDb} dB`} · method ${methodName(p.propagationMethod)}`;
+    planLine.textContent = `Target margin ${p.targetMarginDb ?? '–'} dB · band plan ${band} · σL ${p.locationSigmaDb === null || p.locationSigmaDb === undefined ? 'P.1812 §4.8' : `${p.locationSigmaDb} dB`}, σM ${p.modelSigmaDb === null || p.modelSigmaDb === undefined ? 'default 6 dB' : `${String(p.modelSigmaDb)} dB`} · method ${methodName(p.propagationMethod)}`;
   };
   showPlanLine();
   const toggle = (label: string, layer: L.Layer, on: boolean, symbol?: HTMLElement): HTMLElement => {

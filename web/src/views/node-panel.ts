@@ -151,6 +151,7 @@ function renderLinks(box: HTMLElement, store: PlanStore, links: NodeLinks): void
     ['Margin', (l) => db(l.marginDb), (l) => (l.marginDb < 0 ? 'num neg' : 'num')],
     ['Best SF', (l) => (l.bestSf ? `SF${l.bestSf}` : l.usedSf ? `none (SF${l.usedSf} used)` : 'none')],
     ['Delivery', (l) => percent(l.deliveryProbability)],
+    ['Spread σ', (l) => (typeof l.sigmaDb === 'number' ? `${db(l.sigmaDb)}${l.sigmaSource === 'calibration' ? ' (calibrated)' : ''}` : '–')],
     ['Time on air', (l) => fmt(l.timeOnAirMs ?? null, 'ms', 0)],
     ['Power legal', legalText],
   ];
