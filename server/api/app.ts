@@ -118,6 +118,9 @@ async function registerApiRoutes(api: FastifyInstance): Promise<void> {
   await api.register((await import('./routes/links.ts')).default);
   await api.register((await import('./routes/coverage.ts')).default);
   await api.register((await import('./routes/client-settings.ts')).default);
+  await api.register((await import('./routes/team-access.ts')).default);
+  await api.register((await import('./routes/gateway-checks.ts')).default);
+  await api.register((await import('./routes/kit-price.ts')).default);
   await api.register((await import('./routes/capacity.ts')).default);
   await api.register((await import('./routes/calibration.ts')).default);
   await api.register((await import('./routes/exports.ts')).default);
@@ -237,6 +240,7 @@ export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {
   installInputGuard(app);
 
   await app.register(signInRoutes);
+  await app.register((await import('./routes/team-access.ts')).sessionExchangeRoutes);
   if (deps.adminSecret) await app.register(adminRoutes, { prefix: '/_admin' });
   await app.register(registerApiRoutes, { prefix: '/api/v1' });
   app.get('/api/v1/openapi.json', { schema: { hide: true } }, async () => app.swagger());

@@ -1,9 +1,9 @@
 // Hash routes: #/plans, #/plan/<id>[?node=<id>], #/plan/<id>/fleet,
 // #/plan/<id>/summary, #/plan/<id>/install[/<nodeId>], #/plan/<id>/capacity, #/plan/<id>/siting,
-// #/plan/<id>/compare[?with=<id>], #/signin.
+// #/plan/<id>/compare[?with=<id>], #/signin, #/team (planners: people, invitations, audit log).
 
 export interface Route {
-  name: 'signin' | 'plans' | 'map' | 'fleet' | 'summary' | 'install' | 'capacity' | 'siting' | 'compare';
+  name: 'signin' | 'plans' | 'map' | 'fleet' | 'summary' | 'install' | 'capacity' | 'siting' | 'compare' | 'team';
   planId?: string;
   nodeId?: string;
   params: URLSearchParams;
@@ -14,6 +14,7 @@ export function parseRoute(hash: string): Route {
   const params = new URLSearchParams(query);
   const parts = path.split('/').filter(Boolean);
   if (parts[0] === 'signin') return { name: 'signin', params };
+  if (parts[0] === 'team') return { name: 'team', params };
   if (parts[0] === 'plan' && parts[1]) {
     const planId = decodeURIComponent(parts[1]);
     if (parts[2] === 'fleet') return { name: 'fleet', planId, params };
