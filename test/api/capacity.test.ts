@@ -2,6 +2,7 @@
 // link-only delivery as GET /links — one budget), the aloha formula of Abramson 1970 on
 // them, the EU868 duty-cycle budget floor(36 s / time on air), the what-if rate factor, a
 // reproducible simulation, and the errors (bad model → 400 naming the field, other team → 404).
+import { execFileSync, spawnSync } from 'node:child_process';
 import request from 'supertest';
 import { afterAll, beforeAll, expect, it } from 'vitest';
 import { bearer, createTestApp, describeEngines, type Engine, type TestApp } from '../helpers/test-app.ts';
@@ -99,6 +100,26 @@ describeEngines('capacity API', (engine: Engine) => {
     expect(one.body.totals.transmissions).toBeGreaterThan(500);
     expect(one.body.gateways[0].downlink.messagesPerHour).toBeGreaterThan(0);
     expect(two.body).toEqual(one.body);
+  });
+
+  const hasPdftotext = spawnSync('pdftotext', ['-v']).status === 0;
+  it.skipIf(!hasPdftotext)('the report PDF carries the capacity figures (read back with pdftotext, poppler-utils)', async () => {
+    const viewer = bearer(t.tokens.viewer);
+    const capacity = await request(t.app.server).get(`/api/v1/plans/${planId}/capacity?model=capture`).set(viewer);
+    const pdf = await request(t.app.server)
+      .get(`/api/v1/plans/${planId}/report.pdf`)
+      .set(viewer)
+      .buffer(true)
+      .parse((res, done) => {
+        const chunks: Buffer[] = [];
+        res.on('data', (c: Buffer) => chunks.push(c));
+        res.on('end', () => done(null, Buffer.concat(chunks)));
+      });
+    expect(pdf.status).toBe(200);
+    const text = execFileSync('pdftotext', ['-', '-'], { input: pdf.body as Buffer, encoding: 'utf8' }).replace(/\s+/g, ' ');
+    expect(text).toMatch(/Mean delivery ratio \(links and collisions\)/);
+    expect(text).toContain(`${(capacity.body.totals.meanDeliveryRatio * 100).toFixed(1)} %`);
+    expect(text).toMatch(/Gateway Barn mast.{0,40}6 nodes heard, offered load/);
   });
 
   it('bad input answers 400 naming the field; another team gets 404', async () => {
