@@ -9,7 +9,7 @@ import type { SitingRunSummaryRow } from '../../db/repositories/siting-runs.ts';
 import { listSitingRuns } from '../../db/repositories/siting-runs.ts';
 import { LinkInputError } from '../../jobs/link-engine.ts';
 import { requireRole } from '../auth.ts';
-import { ApiError } from '../errors.ts';
+import { ApiError, apiErrorOf } from '../errors.ts';
 import { streamRunProgress } from '../run-events.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
 import { dateTime, errorResponses, finite, id, nonNegative, pageOf, pageQuery, planParams } from '../schemas.ts';
@@ -143,7 +143,7 @@ async function mapped<T>(work: () => Promise<T>): Promise<T> {
   try {
     return await work();
   } catch (error) {
-    if (error instanceof SitingError || error instanceof LinkInputError) throw new ApiError(error.statusCode, error.code, error.message);
+    if (error instanceof SitingError || error instanceof LinkInputError) throw apiErrorOf(error) ?? error;
     throw error;
   }
 }
