@@ -9,7 +9,7 @@ import type { SitingRunSummaryRow } from '../../db/repositories/siting-runs.ts';
 import { listSitingRuns } from '../../db/repositories/siting-runs.ts';
 import { LinkInputError } from '../../jobs/link-engine.ts';
 import { requireRole } from '../auth.ts';
-import { ApiError, apiErrorOf } from '../errors.ts';
+import { apiErrorOf } from '../errors.ts';
 import { streamRunProgress } from '../run-events.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
 import { dateTime, errorResponses, finite, id, nonNegative, pageOf, pageQuery, planParams } from '../schemas.ts';
