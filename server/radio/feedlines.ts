@@ -120,11 +120,13 @@ export const builtInFeedlines: FeedlineType[] = [
     minBendRadiusMm: 30,
     table: [
       { frequencyMhz: 100, lossDbPer100m: 12 },
-      { frequencyMhz: 400, lossDbPer100m: 26 },
-      { frequencyMhz: 900, lossDbPer100m: 40 },
+      { frequencyMhz: 400, lossDbPer100m: 24 },
+      { frequencyMhz: 900, lossDbPer100m: 34.5 },
     ],
     costUsdPerM: 1.2,
-    notes: [],
+    source:
+      'foam-PE RG-8X class, from memory: about 3.7 / 7.3 / 10.5 dB per 100 ft at 100 / 400 / 900 MHz, the figures commonly quoted for the class (12 / 24 / 34.5 dB per 100 m); a given cable\'s datasheet wins',
+    notes: ['Solid-PE "mini-8" cables sold under the same name lose more; check the datasheet.'],
   }),
   cable({
     id: 'rg-213',

@@ -14,6 +14,8 @@ import { listNodes } from '../../db/repositories/nodes.ts';
 import { allTerrainLayers } from '../../db/repositories/terrain-layers.ts';
 import { findAntennaDesignForTeam, findFeedlineForTeam } from '../../db/repositories/kit.ts';
 import { resolveLinkSettings } from '../../planning/settings.ts';
+import { planningSpread } from '../../planning/spread.ts';
+import { appliedCalibrationFigures } from '../../app/calibration.ts';
 import { sensitivityDbm } from '../../radio/lora-phy.ts';
 import { feedlineLossDb } from '../../radio/feedlines.ts';
 import { openGeoRaster, type GeoRaster } from '../../terrain/raster.ts';
@@ -176,7 +178,9 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
       const principal = requireRole(request, 'planner');
       const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
       const body = request.body;
-      const settings = resolveLinkSettings(plan);
+      // An applied calibration (server/app/calibration.ts) shifts every cell by its bias and gives the spread.
+      const calibration = await appliedCalibrationFigures(db, plan.id);
+      const settings = resolveLinkSettings(plan, { calibration });
       const planGateways = await allPages<GatewayRow>((cursor) => listGateways(db, plan.id, { limit: 1000, cursor }));
       let gateways = planGateways;
       if (body.gatewayIds) {
@@ -270,7 +274,7 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
           lon: g.lon,
           heightAglM: g.antennaHeightAglM,
           // Uplink budget: node EIRP + gateway antenna gain − gateway feedline (the path is reciprocal).
-          fixedDbm: nodeTxPowerDbm + nodeAntennaGainDbi - nodeLossDb + antenna.gainDbi - gatewayLossDb,
+          fixedDbm: nodeTxPowerDbm + nodeAntennaGainDbi - nodeLossDb + antenna.gainDbi - gatewayLossDb + (calibration?.biasDb ?? 0),
           sensitivityDbmBySf: sfs.map((sf) => sensitivityDbm(sf, settings.bandwidthKhz, g.noiseFigureDb)),
         });
       }
@@ -283,7 +287,8 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
         requiredMarginDb: body.requiredMarginDb ?? settings.targetMarginDb,
         frequencyMhz: settings.frequencyMhz,
         kFactor: body.kFactor ?? 4 / 3,
-        locationSigmaDb: settings.locationSigmaDb,
+        // The one planning spread (server/planning/spread.ts) for a node at the target height in the open.
+        locationSigmaDb: planningSpread({ ...settings.spread, frequencyMhz: settings.frequencyMhz, nodeAntennaHeightAglM: body.targetHeightM ?? 1.5, nodeClutterHeightM: 0 }).sigmaDb,
         terrainPath: chosen.path,
         terrainLayerId: chosen.layer.id,
         clutter,

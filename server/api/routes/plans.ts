@@ -23,6 +23,7 @@ const planFields = {
   bandPlanId: z.enum(bandPlanIds, { error: `must be one of ${bandPlanIds.join(', ')}` }).optional(),
   targetMarginDb: finite().min(-20, 'must be ≥ -20 dB').max(60, 'must be ≤ 60 dB').optional(),
   locationSigmaDb: finite().min(0, 'must be ≥ 0 dB').max(30, 'must be ≤ 30 dB').nullable().optional(),
+  modelSigmaDb: finite().min(0, 'must be ≥ 0 dB').max(30, 'must be ≤ 30 dB').nullable().optional(),
   propagationMethod: z.string().regex(/^[a-z0-9-]{1,40}$/, 'must be a method id such as p1812').optional(),
   settings: jsonObject.optional(),
 };
@@ -36,7 +37,8 @@ export const planResponse = z
     description: z.string(),
     bandPlanId: z.string().describe('band plan id (server/radio band plans)'),
     targetMarginDb: z.number().describe('dB'),
-    locationSigmaDb: z.number().nullable().describe('dB; null = the propagation method default'),
+    locationSigmaDb: z.number().nullable().describe('σL, dB; null = ITU-R P.1812-8 §4.8 with its height factor'),
+    modelSigmaDb: z.number().nullable().describe('σM (model prediction error), dB; null = the default 6 dB'),
     propagationMethod: z.string(),
     settings: z.unknown().describe('free-form JSON object'),
     version: z.number().int(),
