@@ -30,7 +30,7 @@ import {
   unfinishedSitingRuns,
   type SitingRunSummaryRow,
 } from '../db/repositories/siting-runs.ts';
-import { LinkInputError, type LinkEngine, type PlanContext } from '../jobs/link-engine.ts';
+import { type LinkEngine, type PlanContext } from '../jobs/link-engine.ts';
 import { computeSitingMatrix, matrixInputs, SitingCancelled, type SitingCandidate, type SitingMatrix } from '../jobs/siting-matrix.ts';
 import { kitCostUsd } from '../planning/recommend.ts';
 import { DEFAULT_GATEWAY_ANTENNA_ID, DEFAULT_GATEWAY_FEEDLINE_ID, DEFAULT_GATEWAY_NOISE_FIGURE_DB } from '../planning/gateway-kit.ts';
