@@ -3,6 +3,7 @@
 // and apply it (create the chosen gateways). The API routes and the CLI (via
 // the running server) call these functions; the pure work is in server/siting.
 import type { Highs } from 'highs';
+import { AppError } from './errors.ts';
 import type { Database } from '../db/client.ts';
 import { writeWithAudit, type AuditPrincipal } from '../db/repositories/audit.ts';
 import { createGateway } from '../db/repositories/gateways.ts';
@@ -29,7 +30,7 @@ import {
   unfinishedSitingRuns,
   type SitingRunSummaryRow,
 } from '../db/repositories/siting-runs.ts';
-import { LinkInputError, type LinkEngine, type PlanContext } from '../jobs/link-engine.ts';
+import { type LinkEngine, type PlanContext } from '../jobs/link-engine.ts';
 import { computeSitingMatrix, matrixInputs, SitingCancelled, type SitingCandidate, type SitingMatrix } from '../jobs/siting-matrix.ts';
 import { kitCostUsd } from '../planning/recommend.ts';
 import { DEFAULT_GATEWAY_ANTENNA_ID, DEFAULT_GATEWAY_FEEDLINE_ID, DEFAULT_GATEWAY_NOISE_FIGURE_DB } from '../planning/gateway-kit.ts';
@@ -38,10 +39,8 @@ import { coverInstance, hearingCounts, marginalNodes, requirements, selectionCos
 import { solveSiting } from '../siting/milp.ts';
 import { openGeoRaster } from '../terrain/raster.ts';
 import { clutterClassIndex } from '../terrain/clutter.ts';
-import { AppError } from './errors.ts';
 
-/** A failure the caller must fix (status 400/404/409/422), mapped to an API error by the routes. */
-/** A siting use-case error: its kind becomes a status in server/api/errors.ts. */
+/** A failure the caller must fix; its kind becomes the HTTP status in server/api/errors.ts. */
 export class SitingError extends AppError {}
 
 export interface GatewayKitChoice {
@@ -366,7 +365,7 @@ export async function executeSitingRun(deps: SitingDeps, runId: string): Promise
     await completeSitingRun(deps.db, runId, result);
   } catch (error) {
     if (error instanceof SitingCancelled) return;
-    const message = error instanceof SitingError || error instanceof LinkInputError || error instanceof RangeError ? error.message : `the siting run failed: ${(error as Error).message}`;
+    const message = error instanceof AppError || error instanceof RangeError ? error.message : `the siting run failed: ${(error as Error).message}`;
     await failSitingRun(deps.db, runId, message);
   }
 }

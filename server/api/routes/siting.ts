@@ -4,10 +4,9 @@
 import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import { applyRun, cancelRun, createSitingRequest, findRun, runMatrix, SitingError, SitingJobs, sitingReport, type SitingDeps } from '../../app/siting.ts';
+import { applyRun, cancelRun, createSitingRequest, findRun, runMatrix, SitingJobs, sitingReport, type SitingDeps } from '../../app/siting.ts';
 import type { SitingRunSummaryRow } from '../../db/repositories/siting-runs.ts';
 import { listSitingRuns } from '../../db/repositories/siting-runs.ts';
-import { LinkInputError } from '../../jobs/link-engine.ts';
 import { requireRole } from '../auth.ts';
 import { apiErrorOf } from '../errors.ts';
 import { streamRunProgress } from '../run-events.ts';
@@ -143,8 +142,7 @@ async function mapped<T>(work: () => Promise<T>): Promise<T> {
   try {
     return await work();
   } catch (error) {
-    if (error instanceof SitingError || error instanceof LinkInputError) throw apiErrorOf(error) ?? error;
-    throw error;
+    throw apiErrorOf(error) ?? error;
   }
 }
 
