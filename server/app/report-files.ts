@@ -24,7 +24,7 @@ export interface ReportFile {
 
 export async function reportFile(engine: LinkEngine, config: Config, input: ReportFileInput): Promise<ReportFile> {
   const plan = await findPlanById(engine.database, input.plan);
-  if (!plan) throw new LinkInputError(404, 'not_found', `--plan: no plan "${input.plan}"`);
+  if (!plan) throw new LinkInputError('not_found', 'not_found', `--plan: no plan "${input.plan}"`);
   if (input.kind === 'report') {
     const report = await planReport(engine, config, plan);
     return { fileName: report.fileName, contentType: 'application/pdf', bytes: report.pdf, counts: report.figures.counts };

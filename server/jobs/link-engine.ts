@@ -289,11 +289,9 @@ export class LinkEngine {
     if (!store) ctx.warnings.push('no elevation layer in this plan: paths are predicted over a smooth earth at 0 m (upload terrain for real predictions)');
     const gatewayRows = await listGatewaysForLinks(this.db, plan.id);
     for (const row of gatewayRows) {
-      let antenna: AntennaDesign;
-      let feedline: FeedlineType;
+      let gateway: GatewayContext;
       try {
-        antenna = await this.antenna(ctx, row.antennaDesignId);
-        feedline = await this.feedline(ctx, row.feedlineId);
+        gateway = await this.gatewayContext(ctx, row);
       } catch (error) {
         if (error instanceof NotFoundError) {
           ctx.warnings.push(`gateway ${row.name}: ${error.message}; left out of the predictions`);
@@ -301,15 +299,25 @@ export class LinkEngine {
         }
         throw error;
       }
-      // A directional gateway antenna points where the row says (degrees from true north);
-      // null = omni, or aimed at each node (the link budget then takes the path's bearing).
-      // The aim enters the kit hash only when set, so cached omni rows stay valid.
-      const boresightAzimuthDeg = row.antennaAzimuthDeg ?? null;
-      const kit: EndKit = { antenna, boresightAzimuthDeg, feedline, feedlineLengthM: row.feedlineLengthM, connectors: row.feedlineLengthM > 0 ? connectorUses(GATEWAY_CONNECTORS) : [] };
-      const radio: GatewayRadio = { noiseFigureDb: row.noiseFigureDb };
-      ctx.gateways.push({ row, kit, radio, antenna, feedline, kitHash: hashOf({ a: hashOfShared(antenna, ctx.objectHashes), f: hashOfShared(feedline, ctx.objectHashes), length: row.feedlineLengthM, c: kit.connectors.map((u) => [u.connector.id, u.connector.lossDb, u.count]), radio, az: boresightAzimuthDeg ?? undefined }) });
+      ctx.gateways.push(gateway);
     }
     return ctx;
+  }
+
+  /**
+   * A gateway row (saved, or one that exists only as a siting candidate) with
+   * its kit resolved from the catalog; throws NotFoundError for an unknown kit id.
+   */
+  async gatewayContext(ctx: PlanContext, row: GatewayRow): Promise<GatewayContext> {
+    const antenna = await this.antenna(ctx, row.antennaDesignId);
+    const feedline = await this.feedline(ctx, row.feedlineId);
+    // A directional gateway antenna points where the row says (degrees from true north);
+    // null = omni, or aimed at each node (the link budget then takes the path's bearing).
+    // The aim enters the kit hash only when set, so cached omni rows stay valid.
+    const boresightAzimuthDeg = row.antennaAzimuthDeg ?? null;
+    const kit: EndKit = { antenna, boresightAzimuthDeg, feedline, feedlineLengthM: row.feedlineLengthM, connectors: row.feedlineLengthM > 0 ? connectorUses(GATEWAY_CONNECTORS) : [] };
+    const radio: GatewayRadio = { noiseFigureDb: row.noiseFigureDb };
+    return { row, kit, radio, antenna, feedline, kitHash: hashOf({ a: hashOfShared(antenna, ctx.objectHashes), f: hashOfShared(feedline, ctx.objectHashes), length: row.feedlineLengthM, c: kit.connectors.map((u) => [u.connector.id, u.connector.lossDb, u.count]), radio, az: boresightAzimuthDeg ?? undefined }) };
   }
 
   /** The node with its kit (saved, or overridden for a preview) resolved from the catalog. */
@@ -387,7 +395,8 @@ export class LinkEngine {
     return linkProfile(ctx.terrain, ctx.settings, from, to);
   }
 
-  private pathHash(ctx: PlanContext, node: ResolvedNode, gateway: GatewayContext): string {
+  /** Key of a node → gateway path in the cache and in `precomputed` maps. */
+  pathHash(ctx: PlanContext, node: ResolvedNode, gateway: GatewayContext): string {
     return hashOf({
       s: ctx.pathSettingsHash,
       n: [node.row.lat, node.row.lon, node.antennaHeightAglM],
@@ -620,6 +629,6 @@ function brokenNodeOutcome(row: NodeRow, message: string): NodeLinksOutcome {
 }
 
 /** A path end of a node or gateway row at an antenna height. */
-function pathEnd(row: { lat: number; lon: number }, antennaHeightAglM: number) {
+export function pathEnd(row: { lat: number; lon: number }, antennaHeightAglM: number) {
   return { lat: row.lat, lon: row.lon, antennaHeightAglM };
 }

@@ -10,7 +10,7 @@ import { z } from 'zod';
 import { recordAudit } from '../../db/repositories/audit.ts';
 import { createKitJob, findKitJob, findPlanById, updateKitJob } from '../../db/repositories/links.ts';
 import { linkCheck, installCautions } from '../../planning/check.ts';
-import { PlanSettingsError } from '../../planning/settings.ts';
+import { fleetReferenceSpread, PlanSettingsError } from '../../planning/settings.ts';
 import type { LinkResult } from '../../planning/link.ts';
 import { describeSpread, planningSpread, type PlanningSpread } from '../../planning/spread.ts';
 import type { PlanRow } from '../../db/repositories/plans.ts';
@@ -53,7 +53,10 @@ const fleetQuery = pageQuery.extend({
 });
 
 const checkQuery = z.strictObject({ gatewayId: id().optional() });
-const sheetQuery = z.strictObject({ format: z.enum(['html', 'json'], { error: 'must be html or json' }).optional() });
+const sheetQuery = z.strictObject({
+  format: z.enum(['html', 'json'], { error: 'must be html or json' }).optional(),
+  tz: z.string().max(64).regex(/^[A-Za-z0-9_+\-/]+$/, 'must be an IANA time zone such as Europe/Berlin').optional().describe('time zone for the printed times (the app sends the viewer\'s)'),
+});
 
 /** The spread of a node's links (all links of a node share its end: one σ), or the node's in the open without links. */
 export function nodeSpread(ctx: PlanContext, outcome: NodeLinksOutcome): PlanningSpread {
@@ -64,7 +67,7 @@ export function nodeSpread(ctx: PlanContext, outcome: NodeLinksOutcome): Plannin
 
 /** Plan-wide spread figures of the fleet table: σ of a node at 1.5 m in the open; each row carries its own sigmaDb. */
 export function fleetAssumptions(ctx: PlanContext) {
-  const spread = planningSpread({ ...ctx.settings.spread, frequencyMhz: ctx.settings.frequencyMhz, nodeAntennaHeightAglM: 1.5, nodeClutterHeightM: 0 });
+  const spread = fleetReferenceSpread(ctx.settings);
   return { sigmaDb: spread.sigmaDb, sigmaSource: spread.sigmaSource, sigmaModelDb: spread.sigmaModelDb, sigmaNote: describeSpread(spread, ctx.settings.spread) };
 }
 
@@ -323,9 +326,9 @@ export default async function linkRoutes(app: FastifyInstance): Promise<void> {
       try {
         const outcome = await engine.linksForNode(ctx, request.params.nodeId);
         const recommendation = outcome.status === 'served' ? null : await recommendForNode(engine, ctx, outcome.node.row, {});
-        const sheet = visitSheet(ctx, outcome, recommendation);
+        const sheet = visitSheet(ctx, outcome, recommendation, (await loadCatalog(db, ctx.teamId)).masts);
         if (request.query.format === 'json') return sheet;
-        return reply.type('text/html; charset=utf-8').send(visitSheetHtml(sheet));
+        return reply.type('text/html; charset=utf-8').send(visitSheetHtml(sheet, request.query.tz));
       } catch (error) {
         return asApiError(error);
       }
