@@ -5,6 +5,7 @@ import type { FastifyError, FastifyInstance, FastifyReply, FastifyRequest } from
 import { hasZodFastifySchemaValidationErrors, isResponseSerializationError } from 'fastify-type-provider-zod';
 import { ConflictError, NotFoundError, VersionConflictError } from '../db/errors.ts';
 import { InvalidCursorError } from '../db/repositories/pagination.ts';
+import { InvalidPatternError } from '../radio/pattern-schema.ts';
 
 export class ApiError extends Error {
   constructor(
@@ -81,6 +82,7 @@ export function installErrorHandlers(app: FastifyInstance): void {
       return sendError(reply, 409, 'version_conflict', error.message, { currentVersion: error.currentVersion });
     }
     if (error instanceof ConflictError) return sendError(reply, 409, 'conflict', error.message);
+    if (error instanceof InvalidPatternError) return sendError(reply, 422, 'invalid_kit', error.message);
     if (error instanceof InvalidCursorError) return sendError(reply, 400, 'invalid_input', error.message);
     if (hasZodFastifySchemaValidationErrors(error)) {
       const context = (error as { validationContext?: string }).validationContext;
