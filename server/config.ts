@@ -22,6 +22,10 @@ export interface Config {
   maxJsonBodyBytes: number;
   /** Log level for the request log (pino). */
   logLevel: string;
+  /** Request lines (method, url, status, time) are logged at this level; `debug` keeps them out of a terminal by default. */
+  requestLogLevel: 'trace' | 'debug' | 'info';
+  /** `auto`: one human line per entry on a terminal, JSON otherwise; `pretty` or `json` to force one (EARSHOT_LOG_FORMAT). */
+  logFormat: 'auto' | 'pretty' | 'json';
   /** Seed the demo team and plan on an empty database. */
   seedDemo: boolean;
   /** Folder holding files: `<dataDir>/files`. */
@@ -63,6 +67,13 @@ function optional(env: NodeJS.ProcessEnv, name: string): string | undefined {
   return raw === undefined || raw.trim() === '' ? undefined : raw.trim();
 }
 
+function choiceOf<T extends string>(env: NodeJS.ProcessEnv, name: string, choices: readonly T[], fallback: T): T {
+  const raw = optional(env, name);
+  if (raw === undefined) return fallback;
+  if (!(choices as readonly string[]).includes(raw)) throw new ConfigError(`${name}: must be one of ${choices.join(', ')} (got "${raw}")`);
+  return raw as T;
+}
+
 export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
   const port = positiveNumber(env, 'PORT', 8080);
   if (!Number.isInteger(port) || port > 65535) throw new ConfigError(`PORT: must be a whole number 1-65535 (got "${env.PORT}")`);
@@ -87,6 +98,8 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
     onlineBaseLayerUrl: optional(env, 'EARSHOT_BASE_LAYER_URL'),
     maxJsonBodyBytes: Math.round(positiveNumber(env, 'EARSHOT_MAX_JSON_KB', 1024) * 1024),
     logLevel: optional(env, 'EARSHOT_LOG_LEVEL') ?? 'info',
+    requestLogLevel: choiceOf(env, 'EARSHOT_REQUEST_LOG_LEVEL', ['trace', 'debug', 'info'] as const, 'debug'),
+    logFormat: choiceOf(env, 'EARSHOT_LOG_FORMAT', ['auto', 'pretty', 'json'] as const, 'auto'),
     seedDemo: (optional(env, 'EARSHOT_DEMO') ?? 'on') !== 'off',
     filesDir: join(dataDir, 'files'),
     trustProxy: trustProxyOf(optional(env, 'EARSHOT_TRUST_PROXY')),

@@ -118,6 +118,15 @@ async function registerApiRoutes(api: FastifyInstance): Promise<void> {
   await api.register((await import('./routes/links.ts')).default);
   await api.register((await import('./routes/coverage.ts')).default);
   await api.register((await import('./routes/client-settings.ts')).default);
+  await api.register((await import('./routes/team-access.ts')).default);
+  await api.register((await import('./routes/gateway-checks.ts')).default);
+  await api.register((await import('./routes/kit-price.ts')).default);
+  await api.register((await import('./routes/capacity.ts')).default);
+  await api.register((await import('./routes/calibration.ts')).default);
+  await api.register((await import('./routes/exports.ts')).default);
+  await api.register((await import('./routes/scenarios.ts')).default);
+  await api.register((await import('./routes/tuning.ts')).default);
+  await api.register((await import('./routes/siting.ts')).default);
 }
 
 export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {
@@ -157,6 +166,9 @@ export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {
       socket.destroy(error);
     },
     forceCloseConnections: true,
+    // One line per request, written on completion at config.requestLogLevel (below), instead
+    // of Fastify's two info lines that flood a terminal.
+    disableRequestLogging: true,
   }).withTypeProvider<ZodTypeProvider>();
 
   app.decorate('deps', deps);
@@ -168,6 +180,10 @@ export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {
   app.setSerializerCompiler(serializerCompiler);
   app.addHook('onSend', async (request, reply) => {
     reply.header('x-request-id', request.id);
+  });
+  const requestLogLevel = config.requestLogLevel ?? 'debug';
+  app.addHook('onResponse', async (request, reply) => {
+    request.log[requestLogLevel]({ req: request, res: { statusCode: reply.statusCode }, responseTimeMs: Math.round(reply.elapsedTime) }, 'request');
   });
 
   // CSV and GeoJSON bodies for imports.
@@ -224,6 +240,7 @@ export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {
   installInputGuard(app);
 
   await app.register(signInRoutes);
+  await app.register((await import('./routes/team-access.ts')).sessionExchangeRoutes);
   if (deps.adminSecret) await app.register(adminRoutes, { prefix: '/_admin' });
   await app.register(registerApiRoutes, { prefix: '/api/v1' });
   app.get('/api/v1/openapi.json', { schema: { hide: true } }, async () => app.swagger());

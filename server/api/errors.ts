@@ -6,6 +6,29 @@ import { hasZodFastifySchemaValidationErrors, isResponseSerializationError } fro
 import { ConflictError, NotFoundError, VersionConflictError } from '../db/errors.ts';
 import { InvalidCursorError } from '../db/repositories/pagination.ts';
 import { InvalidPatternError } from '../radio/pattern-schema.ts';
+import { AppError, type AppErrorKind } from '../app/errors.ts';
+import { PlanSettingsError } from '../planning/settings.ts';
+import { CoverageInputError } from '../coverage/terrain-window.ts';
+
+/** HTTP status of each engine / use-case error kind (the only place kinds become statuses). */
+export const STATUS_OF_KIND: Record<AppErrorKind, number> = {
+  invalid_input: 400,
+  not_found: 404,
+  conflict: 409,
+  gone: 410,
+  too_large: 413,
+  unprocessable: 422,
+};
+
+/** The answer for an error of the rooms below the API, or null for anything else. */
+export function apiErrorOf(error: unknown): ApiError | null {
+  if (error instanceof ApiError) return error;
+  if (error instanceof AppError) return new ApiError(STATUS_OF_KIND[error.kind], error.code, error.message);
+  if (error instanceof PlanSettingsError) return new ApiError(422, 'invalid_plan_settings', error.message);
+  if (error instanceof InvalidPatternError) return new ApiError(422, 'invalid_kit', error.message);
+  if (error instanceof CoverageInputError) return new ApiError(error.code === 'too_many_cells' ? 413 : 422, error.code, error.message);
+  return null;
+}
 
 export class ApiError extends Error {
   constructor(
@@ -77,6 +100,8 @@ export function installErrorHandlers(app: FastifyInstance): void {
 
   app.setErrorHandler((error: FastifyError | Error, request: FastifyRequest, reply: FastifyReply) => {
     if (error instanceof ApiError) return sendError(reply, error.statusCode, error.code, error.message, error.extra);
+    const mapped = apiErrorOf(error);
+    if (mapped) return sendError(reply, mapped.statusCode, mapped.code, mapped.message, mapped.extra);
     if (error instanceof NotFoundError) return sendError(reply, 404, 'not_found', error.message);
     if (error instanceof VersionConflictError) {
       return sendError(reply, 409, 'version_conflict', error.message, { currentVersion: error.currentVersion });

@@ -8,6 +8,7 @@
 import { existsSync } from 'node:fs';
 import { isAbsolute, join, resolve } from 'node:path';
 import type { Config } from '../config.ts';
+import { AppError } from '../app/errors.ts';
 import type { Database } from '../db/client.ts';
 import { NotFoundError } from '../db/errors.ts';
 import type { GatewayRow } from '../db/repositories/gateways.ts';
@@ -25,6 +26,8 @@ import type { EndKit, GatewayRadio, LinkRadioSettings, LinkResult, NodeRadio } f
 import { hashOf, hashOfShared, LINK_ENGINE_VERSION, nodeAimAzimuthDeg, nodeLinkResults, summariseNodeLinks, type NodeLinkSummary } from '../planning/node-links.ts';
 import type { PathPrediction } from '../planning/path.ts';
 import { resolveLinkSettings, type ResolvedLinkSettings } from '../planning/settings.ts';
+import type { AppliedCalibration } from '../planning/spread.ts';
+import { findAppliedCalibration } from '../db/repositories/calibrations.ts';
 import { bearingsBetween } from '../planning/geometry.ts';
 
 /** Connectors assumed in a node's feedline run: two mated N/SMA pairs (common practice, 0.1 dB each). */
@@ -39,16 +42,8 @@ function connectorUses(list: ReadonlyArray<{ id: string; count: number }>): Conn
   return list.map((entry) => ({ connector: findConnector(entry.id), count: entry.count }));
 }
 
-/** Raised for input the caller must fix (unknown kit id, bad override); routes map it to 400/404. */
-export class LinkInputError extends Error {
-  constructor(
-    readonly statusCode: 400 | 404 | 422,
-    readonly code: string,
-    message: string,
-  ) {
-    super(message);
-  }
-}
+/** Raised for input the caller must fix (unknown kit id, bad override); the API maps its kind to a status. */
+export class LinkInputError extends AppError {}
 
 /** Kit overrides a preview may pass instead of the node's saved kit. */
 export interface KitOverrides {
@@ -174,9 +169,9 @@ export class LinkEngine {
   }
 
   /** Fingerprint of a node's inputs: the plan row's version/time plus one query over the rest. */
-  async frontKey(plan: PlanRow, nodeId: string): Promise<string> {
+  async frontKey(plan: PlanRow, nodeId: string, calibration: AppliedCalibration | null = null): Promise<string> {
     const rest = await nodeLinkFingerprint(this.db, plan.id, nodeId, plan.teamId);
-    return `${LINK_ENGINE_VERSION}|${plan.version}|${plan.updatedAt.toISOString()}|${rest}`;
+    return `${LINK_ENGINE_VERSION}|${plan.version}|${plan.updatedAt.toISOString()}|${calibration ? hashOf(calibration) : '-'}|${rest}`;
   }
 
   /** A remembered answer whose inputs are unchanged, or undefined. */
@@ -241,7 +236,7 @@ export class LinkEngine {
       return { store: await store, spec, signature };
     } catch (error) {
       this.stores.delete(plan.id);
-      throw new LinkInputError(422, 'terrain_unreadable', `the plan's terrain could not be opened: ${(error as Error).message}`);
+      throw new LinkInputError('unprocessable', 'terrain_unreadable', `the plan's terrain could not be opened: ${(error as Error).message}`);
     }
   }
 
@@ -249,15 +244,28 @@ export class LinkEngine {
     return cachedLookup(ctx.antennaCache, id, () => findAntennaDesignForTeam(this.db, ctx.teamId, id));
   }
 
+  /** The calibration applied to a plan, as the spread resolver takes it (null = none). */
+  private async appliedCalibration(planId: string): Promise<AppliedCalibration | null> {
+    const row = await findAppliedCalibration(this.db, planId);
+    return row ? { id: row.id, biasDb: row.biasDb, sigmaDb: row.sigmaDb } : null;
+  }
+
   private feedline(ctx: Pick<PlanContext, 'feedlineCache' | 'teamId'>, id: string): Promise<FeedlineType> {
     return cachedLookup(ctx.feedlineCache, id, () => findFeedlineForTeam(this.db, ctx.teamId, id));
   }
 
-  /** Loads a plan's settings, gateways and terrain. */
-  async planContext(plan: PlanRow): Promise<PlanContext> {
+  /**
+   * Loads a plan's settings, gateways and terrain. `options.calibration`: the plan's applied
+   * calibration (fitted spread and bias); it enters every link's budget and the cache hash.
+   * Left out, the calibration applied to the plan (server/db/repositories/calibrations.ts) is
+   * used, so every caller (links, coverage, siting, capacity, reports) gets the same figures;
+   * null asks for the model as is (the calibration fit compares readings with that).
+   */
+  async planContext(plan: PlanRow, options: { calibration?: AppliedCalibration | null } = {}): Promise<PlanContext> {
     // Workers start with the first plan a process touches and stay (unref'd) for the next fleet.
     this.pool?.warm();
-    const settings = resolveLinkSettings(plan);
+    const calibration = options.calibration !== undefined ? options.calibration : await this.appliedCalibration(plan.id);
+    const settings = resolveLinkSettings(plan, { calibration });
     const raw = plan.settings && typeof plan.settings === 'object' && !Array.isArray(plan.settings) ? (plan.settings as Record<string, unknown>) : {};
     const clutterHeightsM = raw.clutterHeightsM && typeof raw.clutterHeightsM === 'object' ? (raw.clutterHeightsM as Record<string, number>) : undefined;
     const { store, spec, signature } = await this.terrainFor(plan, clutterHeightsM);
@@ -281,11 +289,9 @@ export class LinkEngine {
     if (!store) ctx.warnings.push('no elevation layer in this plan: paths are predicted over a smooth earth at 0 m (upload terrain for real predictions)');
     const gatewayRows = await listGatewaysForLinks(this.db, plan.id);
     for (const row of gatewayRows) {
-      let antenna: AntennaDesign;
-      let feedline: FeedlineType;
+      let gateway: GatewayContext;
       try {
-        antenna = await this.antenna(ctx, row.antennaDesignId);
-        feedline = await this.feedline(ctx, row.feedlineId);
+        gateway = await this.gatewayContext(ctx, row);
       } catch (error) {
         if (error instanceof NotFoundError) {
           ctx.warnings.push(`gateway ${row.name}: ${error.message}; left out of the predictions`);
@@ -293,15 +299,25 @@ export class LinkEngine {
         }
         throw error;
       }
-      // A directional gateway antenna points where the row says (degrees from true north);
-      // null = omni, or aimed at each node (the link budget then takes the path's bearing).
-      // The aim enters the kit hash only when set, so cached omni rows stay valid.
-      const boresightAzimuthDeg = row.antennaAzimuthDeg ?? null;
-      const kit: EndKit = { antenna, boresightAzimuthDeg, feedline, feedlineLengthM: row.feedlineLengthM, connectors: row.feedlineLengthM > 0 ? connectorUses(GATEWAY_CONNECTORS) : [] };
-      const radio: GatewayRadio = { noiseFigureDb: row.noiseFigureDb };
-      ctx.gateways.push({ row, kit, radio, antenna, feedline, kitHash: hashOf({ a: hashOfShared(antenna, ctx.objectHashes), f: hashOfShared(feedline, ctx.objectHashes), length: row.feedlineLengthM, c: kit.connectors.map((u) => [u.connector.id, u.connector.lossDb, u.count]), radio, az: boresightAzimuthDeg ?? undefined }) });
+      ctx.gateways.push(gateway);
     }
     return ctx;
+  }
+
+  /**
+   * A gateway row (saved, or one that exists only as a siting candidate) with
+   * its kit resolved from the catalog; throws NotFoundError for an unknown kit id.
+   */
+  async gatewayContext(ctx: PlanContext, row: GatewayRow): Promise<GatewayContext> {
+    const antenna = await this.antenna(ctx, row.antennaDesignId);
+    const feedline = await this.feedline(ctx, row.feedlineId);
+    // A directional gateway antenna points where the row says (degrees from true north);
+    // null = omni, or aimed at each node (the link budget then takes the path's bearing).
+    // The aim enters the kit hash only when set, so cached omni rows stay valid.
+    const boresightAzimuthDeg = row.antennaAzimuthDeg ?? null;
+    const kit: EndKit = { antenna, boresightAzimuthDeg, feedline, feedlineLengthM: row.feedlineLengthM, connectors: row.feedlineLengthM > 0 ? connectorUses(GATEWAY_CONNECTORS) : [] };
+    const radio: GatewayRadio = { noiseFigureDb: row.noiseFigureDb };
+    return { row, kit, radio, antenna, feedline, kitHash: hashOf({ a: hashOfShared(antenna, ctx.objectHashes), f: hashOfShared(feedline, ctx.objectHashes), length: row.feedlineLengthM, c: kit.connectors.map((u) => [u.connector.id, u.connector.lossDb, u.count]), radio, az: boresightAzimuthDeg ?? undefined }) };
   }
 
   /** The node with its kit (saved, or overridden for a preview) resolved from the catalog. */
@@ -315,7 +331,7 @@ export class LinkEngine {
     try {
       antenna = await this.antenna(ctx, antennaId);
     } catch (error) {
-      if (error instanceof NotFoundError) throw new LinkInputError(overrides.antennaDesignId ? 400 : 422, 'invalid_input', `antennaDesignId: no antenna design "${antennaId}" in the catalog`);
+      if (error instanceof NotFoundError) throw new LinkInputError(overrides.antennaDesignId ? 'invalid_input' : 'unprocessable', 'invalid_input', `antennaDesignId: no antenna design "${antennaId}" in the catalog`);
       throw error;
     }
     let feedline: FeedlineType | null = null;
@@ -323,7 +339,7 @@ export class LinkEngine {
       try {
         feedline = await this.feedline(ctx, feedlineId);
       } catch (error) {
-        if (error instanceof NotFoundError) throw new LinkInputError(overrides.feedlineId ? 400 : 422, 'invalid_input', `feedlineId: no feedline "${feedlineId}" in the catalog`);
+        if (error instanceof NotFoundError) throw new LinkInputError(overrides.feedlineId ? 'invalid_input' : 'unprocessable', 'invalid_input', `feedlineId: no feedline "${feedlineId}" in the catalog`);
         throw error;
       }
     }
@@ -366,7 +382,7 @@ export class LinkEngine {
       allowedSfs: allowed,
       bandPlan: settings.bandPlan,
       targetMarginDb: settings.targetMarginDb,
-      locationSigmaDb: settings.locationSigmaDb,
+      spread: settings.spread,
       environment: { ...settings.environment, indoorBuildingType: buildingTypeOf(row.buildingType, settings.environment.indoorBuildingType) },
     };
     const { bandPlan: _plan, ...radioPart } = radioSettings;
@@ -379,7 +395,8 @@ export class LinkEngine {
     return linkProfile(ctx.terrain, ctx.settings, from, to);
   }
 
-  private pathHash(ctx: PlanContext, node: ResolvedNode, gateway: GatewayContext): string {
+  /** Key of a node → gateway path in the cache and in `precomputed` maps. */
+  pathHash(ctx: PlanContext, node: ResolvedNode, gateway: GatewayContext): string {
     return hashOf({
       s: ctx.pathSettingsHash,
       n: [node.row.lat, node.row.lon, node.antennaHeightAglM],
@@ -450,7 +467,7 @@ export class LinkEngine {
   /** One node's links (saved to the cache unless it is a preview with overrides). */
   async linksForNode(ctx: PlanContext, nodeId: string, overrides: KitOverrides = {}): Promise<NodeLinksOutcome> {
     const row = await findNode(this.db, ctx.plan.id, nodeId);
-    if (!row) throw new LinkInputError(404, 'not_found', 'node not found');
+    if (!row) throw new LinkInputError('not_found', 'not_found', 'node not found');
     const preview = Object.values(overrides).some((value) => value !== undefined);
     const node = await this.resolveNode(ctx, row, overrides);
     const { outcome, toSave } = await this.nodeLinks(ctx, node, null, !preview);
@@ -541,7 +558,7 @@ export class LinkEngine {
   /** Finds a node row of the plan or throws a 404 input error. */
   async nodeRow(ctx: PlanContext, nodeId: string): Promise<NodeRow> {
     const row = await findNode(this.db, ctx.plan.id, nodeId);
-    if (!row) throw new LinkInputError(404, 'not_found', 'node not found');
+    if (!row) throw new LinkInputError('not_found', 'not_found', 'node not found');
     return row;
   }
 
@@ -560,7 +577,7 @@ export class LinkEngine {
     try {
       return await this.antenna(ctx, id);
     } catch (error) {
-      if (error instanceof NotFoundError) throw new LinkInputError(400, 'invalid_input', `antennaDesignIds: no antenna design "${id}" in the catalog`);
+      if (error instanceof NotFoundError) throw new LinkInputError('invalid_input', 'invalid_input', `antennaDesignIds: no antenna design "${id}" in the catalog`);
       throw error;
     }
   }
@@ -569,7 +586,7 @@ export class LinkEngine {
     try {
       return await this.feedline(ctx, id);
     } catch (error) {
-      if (error instanceof NotFoundError) throw new LinkInputError(400, 'invalid_input', `feedlineIds: no feedline "${id}" in the catalog`);
+      if (error instanceof NotFoundError) throw new LinkInputError('invalid_input', 'invalid_input', `feedlineIds: no feedline "${id}" in the catalog`);
       throw error;
     }
   }
@@ -584,6 +601,11 @@ export type { GatewayContext };
 /** Node connectors for a feedline run (as resolveNode assumes). */
 export function nodeConnectors(hasFeedline: boolean): ConnectorUse[] {
   return hasFeedline ? connectorUses(NODE_CONNECTORS) : [];
+}
+
+/** Gateway connectors for a feedline run (as planContext assumes). */
+export function gatewayConnectors(hasFeedline: boolean): ConnectorUse[] {
+  return hasFeedline ? connectorUses(GATEWAY_CONNECTORS) : [];
 }
 
 /** Loss of those connectors, dB. */
@@ -607,6 +629,6 @@ function brokenNodeOutcome(row: NodeRow, message: string): NodeLinksOutcome {
 }
 
 /** A path end of a node or gateway row at an antenna height. */
-function pathEnd(row: { lat: number; lon: number }, antennaHeightAglM: number) {
+export function pathEnd(row: { lat: number; lon: number }, antennaHeightAglM: number) {
   return { lat: row.lat, lon: row.lon, antennaHeightAglM };
 }

@@ -8,7 +8,8 @@ import type { ConnectorUse, FeedlineType } from '../radio/feedlines.ts';
 import type { CodingRate } from '../radio/lora-phy.ts';
 import { computeLinkBudget, type LegalCheck } from '../radio/link-budget.ts';
 import { environmentLoss, type EnvironmentSettings, type NodeEnvironment } from './environment.ts';
-import { combinedDeliveryProbability, combineSigmasDb, deliveryProbability } from './probability.ts';
+import { combinedDeliveryProbability, deliveryProbability } from './probability.ts';
+import { planningSpread, type SigmaSource, type SpreadSettings } from './spread.ts';
 import { linkStatus, type LinkStatus, type ServiceTarget } from './status.ts';
 import type { PathPrediction } from './path.ts';
 
@@ -48,8 +49,8 @@ export interface LinkRadioSettings {
   /** Band plan for the legal, duty-cycle and dwell-time checks. */
   bandPlan: BandPlan;
   targetMarginDb: number;
-  /** Location variability σ (dB) of the path. */
-  locationSigmaDb: number;
+  /** Inputs of the planning spread σ (./spread.ts). */
+  spread: SpreadSettings;
   environment: EnvironmentSettings;
 }
 
@@ -85,8 +86,13 @@ export interface LinkBudget {
   /** Margin at usedSf, dB. */
   marginDb: number;
   timeOnAirMs: number;
-  /** σ of the received level (location variability ⊕ environment spread), dB. */
+  /** The planning spread σ of the received level (./spread.ts), dB, and its parts. */
   sigmaDb: number;
+  sigmaSource: SigmaSource;
+  sigmaLocationDb: number;
+  sigmaModelDb: number;
+  /** Calibration bias added to the predicted level, dB (0 without a calibration). */
+  calibrationBiasDb: number;
   deliveryProbability: number;
   legal: LegalCheck | null;
   warnings: string[];
@@ -99,11 +105,19 @@ export interface LinkBudget {
  */
 export function linkBudget(path: PathPrediction, nodeKit: EndKit, gatewayKit: EndKit, node: NodeRadio, gateway: GatewayRadio, settings: LinkRadioSettings): LinkBudget {
   const env = environmentLoss(node.environment, settings.frequencyMhz, path.nodeElevationDeg, settings.environment);
+  const spread = planningSpread({
+    ...settings.spread,
+    frequencyMhz: settings.frequencyMhz,
+    nodeAntennaHeightAglM: path.nodeAntennaHeightAglM,
+    nodeClutterHeightM: path.nodeClutterHeightM,
+    environmentSigmaDb: env.sigmaDb,
+  });
   const sfs = node.sfPolicy === 'fixed' && node.fixedSf !== null ? [node.fixedSf] : [...settings.allowedSfs];
   const budget = computeLinkBudget({
     frequencyMhz: settings.frequencyMhz,
     bandwidthKhz: settings.bandwidthKhz,
-    pathLossDb: path.basicLossDb + env.lossDb,
+    // A calibration's bias is added to the predicted level, i.e. taken off the loss.
+    pathLossDb: path.basicLossDb + env.lossDb - spread.biasDb,
     transmitter: {
       powerDbm: node.txPowerDbm,
       antenna: nodeKit.antenna,
@@ -141,7 +155,7 @@ export function linkBudget(path: PathPrediction, nodeKit: EndKit, gatewayKit: En
   const usable = perSf.filter((entry) => entry.dwellOk !== false);
   const fallback = (usable.length > 0 ? usable : perSf).reduce((best, entry) => (entry.marginDb > best.marginDb ? entry : best));
   const used = budget.bestSf !== null ? (perSf.find((entry) => entry.sf === budget.bestSf) as SfBudget) : fallback;
-  const sigmaDb = combineSigmasDb(settings.locationSigmaDb, env.sigmaDb);
+  const sigmaDb = spread.sigmaDb;
   return {
     eirpDbm: budget.transmitter.eirpDbm,
     nodeGainDbi: budget.transmitter.antennaGainDbi,
@@ -160,6 +174,10 @@ export function linkBudget(path: PathPrediction, nodeKit: EndKit, gatewayKit: En
     marginDb: used.marginDb,
     timeOnAirMs: used.timeOnAirMs,
     sigmaDb,
+    sigmaSource: spread.sigmaSource,
+    sigmaLocationDb: spread.sigmaLocationDb,
+    sigmaModelDb: spread.sigmaModelDb,
+    calibrationBiasDb: spread.biasDb,
     deliveryProbability: deliveryProbability(used.marginDb, sigmaDb),
     legal: budget.legal,
     warnings: budget.warnings,
@@ -186,7 +204,12 @@ export interface LinkResult {
   timeOnAirMs: number;
   legal: LegalCheck | null;
   eirpDbm: number;
+  /** The planning spread σ (dB): deliveryProbability = Φ(marginDb / sigmaDb). */
   sigmaDb: number;
+  sigmaSource: SigmaSource;
+  sigmaLocationDb: number;
+  sigmaModelDb: number;
+  calibrationBiasDb: number;
   nodeAzimuthDeg: number;
   nodeElevationDeg: number;
   gatewayAzimuthDeg: number;
@@ -223,6 +246,10 @@ export function linkResult(gatewayId: string, path: PathPrediction, budget: Link
     legal: budget.legal,
     eirpDbm: budget.eirpDbm,
     sigmaDb: budget.sigmaDb,
+    sigmaSource: budget.sigmaSource,
+    sigmaLocationDb: budget.sigmaLocationDb,
+    sigmaModelDb: budget.sigmaModelDb,
+    calibrationBiasDb: budget.calibrationBiasDb,
     nodeAzimuthDeg: path.nodeAzimuthDeg,
     nodeElevationDeg: path.nodeElevationDeg,
     gatewayAzimuthDeg: path.gatewayAzimuthDeg,

@@ -6,7 +6,7 @@ import { linkBudget, linkResult, summariseNodeLinks, type EndKit, type GatewayRa
 import type { PathPrediction } from './path.ts';
 
 /** Bumped whenever a formula here or in the rooms below changes results, so old cache rows miss. */
-export const LINK_ENGINE_VERSION = 'links-2';
+export const LINK_ENGINE_VERSION = 'links-3';
 
 /** SHA-256 (hex) of a JSON-serialisable value, with object keys in sorted order. */
 export function hashOf(value: unknown): string {

@@ -62,6 +62,10 @@ export interface PathPrediction {
   fresnelClearanceRatio: number;
   nodeGroundM: number;
   gatewayGroundM: number;
+  /** The node's antenna height above ground as given, m (the spread's §4.8 height factor reads it). */
+  nodeAntennaHeightAglM: number;
+  /** Representative clutter height at the node, m (0 without a land-cover layer). */
+  nodeClutterHeightM: number;
   /** Bearing at the node toward the gateway, degrees from north. */
   nodeAzimuthDeg: number;
   /** Bearing at the gateway toward the node. */
@@ -125,6 +129,8 @@ export function predictPath(profile: PathProfile, settings: PathSettings, node: 
     fresnelClearanceRatio: result.fresnelClearanceRatio,
     nodeGroundM,
     gatewayGroundM,
+    nodeAntennaHeightAglM: node.antennaHeightAglM,
+    nodeClutterHeightM: profile.clutterHeightM ? profile.clutterHeightM[0] : 0,
     nodeAzimuthDeg: bearings.forwardAzimuthDeg,
     gatewayAzimuthDeg: bearings.backAzimuthDeg,
     nodeElevationDeg: pathElevationDeg(nodeGroundM + nodeHeightM, gatewayGroundM + gatewayHeightM, distanceM, earthFactor),

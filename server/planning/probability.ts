@@ -1,18 +1,8 @@
 // Probability of delivery from a median margin and a log-normal spread, and
 // the probability that at least one of several gateways hears a message.
 
-/** Default location-variability resolution width w_a of ITU-R P.1812 §4.8, m. */
-export const DEFAULT_LOCATION_WIDTH_M = 100;
-
-/**
- * Location variability σ_L (dB) of ITU-R P.1812 §4.8 for a terminal in
- * clutter: σ_L = (0.024·f + 0.52)·w_a^0.28, f in GHz, w_a in m (from memory of
- * the Recommendation). Zero for a terminal above the clutter, as P.1812 says.
- */
-export function p1812LocationSigmaDb(frequencyMhz: number, widthM = DEFAULT_LOCATION_WIDTH_M, aboveClutter = false): number {
-  if (aboveClutter) return 0;
-  return (0.024 * (frequencyMhz / 1000) + 0.52) * widthM ** 0.28;
-}
+// σL of P.1812 §4.8 and the planning spread itself live in ./spread.ts (one σ for every view).
+export { DEFAULT_LOCATION_WIDTH_M, p1812LocationSigmaDb } from './spread.ts';
 
 /**
  * Standard normal cumulative distribution Φ(x), through erf with the

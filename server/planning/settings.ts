@@ -7,13 +7,15 @@ import { CODING_RATES, type CodingRate } from '../radio/lora-phy.ts';
 import type { BuildingType } from '../radio/building-entry-loss.ts';
 import { DEFAULT_ENVIRONMENT_SETTINGS, type EnvironmentSettings } from './environment.ts';
 import { DEFAULT_PATH_SETTINGS, PROPAGATION_METHODS, type PathSettings, type PropagationMethodId } from './path.ts';
-import { DEFAULT_LOCATION_WIDTH_M, p1812LocationSigmaDb } from './probability.ts';
+import { DEFAULT_LOCATION_WIDTH_M, planningSpread, type AppliedCalibration, type PlanningSpread, type SpreadSettings } from './spread.ts';
 
 /** The plan columns this room reads. */
 export interface PlanLinkColumns {
   bandPlanId: string;
   targetMarginDb: number;
   locationSigmaDb: number | null;
+  /** σM of the plan, dB (null = the default; older rows may lack the column). */
+  modelSigmaDb?: number | null;
   propagationMethod: string;
   settings: unknown;
 }
@@ -32,9 +34,8 @@ export interface ResolvedLinkSettings {
   limitSource: string;
   targetMarginDb: number;
   targetDelivery: number;
-  /** σ of the location variability, dB, and where the figure comes from. */
-  locationSigmaDb: number;
-  locationSigmaSource: string;
+  /** Inputs of the one planning spread σ (./spread.ts planningSpread). */
+  spread: SpreadSettings;
   gatewayCorrelation: number;
   environment: EnvironmentSettings;
   path: PathSettings;
@@ -99,7 +100,7 @@ function defaultFrequencyMhz(plan: BandPlan): number {
 }
 
 /** Uplink SFs at a bandwidth: the LoRa data rates of the default channels' DR span; else SF7–12. */
-function uplinkSfsFor(plan: BandPlan, bandwidthKhz: number): Array<{ sf: number; maxAppPayloadBytes: number | null }> {
+export function uplinkSfsFor(plan: BandPlan, bandwidthKhz: number): Array<{ sf: number; maxAppPayloadBytes: number | null }> {
   const lorawan = plan.lorawan;
   if (lorawan) {
     const channels = lorawan.defaultChannels;
@@ -127,8 +128,9 @@ function uplinkSfsFor(plan: BandPlan, bandwidthKhz: number): Array<{ sf: number;
  * coastDistanceKm (500), locationWidthM (100), maxLinkRangeKm (50),
  * profileStepM (terrain resolution), profileInterpolation ('bilinear'),
  * feedlineDropM (1).
+ * `options.calibration`: the plan's applied calibration (its fitted spread and bias), if any.
  */
-export function resolveLinkSettings(plan: PlanLinkColumns): ResolvedLinkSettings {
+export function resolveLinkSettings(plan: PlanLinkColumns, options: { calibration?: AppliedCalibration | null } = {}): ResolvedLinkSettings {
   const warnings: string[] = [];
   const raw = plan.settings;
   const s: Settings = raw && typeof raw === 'object' && !Array.isArray(raw) ? (raw as Settings) : {};
@@ -144,8 +146,12 @@ export function resolveLinkSettings(plan: PlanLinkColumns): ResolvedLinkSettings
   const limit = limitForChannel(bandPlan, frequencyMhz, bandwidthKhz);
   const method = pick<PropagationMethodId>({ method: plan.propagationMethod }, 'method', PROPAGATION_METHODS, 'p1812', warnings);
   const locationWidthM = num(s, 'locationWidthM', DEFAULT_LOCATION_WIDTH_M, 1, 10_000, warnings);
-  const defaultSigma = p1812LocationSigmaDb(frequencyMhz, locationWidthM);
-  const locationSigmaDb = plan.locationSigmaDb ?? defaultSigma;
+  const spread: SpreadSettings = {
+    locationWidthM,
+    planLocationSigmaDb: plan.locationSigmaDb,
+    planModelSigmaDb: plan.modelSigmaDb ?? null,
+    calibration: options.calibration ?? null,
+  };
   const path: PathSettings = {
     frequencyMhz,
     method,
@@ -175,8 +181,7 @@ export function resolveLinkSettings(plan: PlanLinkColumns): ResolvedLinkSettings
     limitSource: limit ? limit.source : `no limit of ${bandPlan.name} covers ${frequencyMhz} MHz at ${bandwidthKhz} kHz`,
     targetMarginDb: plan.targetMarginDb,
     targetDelivery: num(s, 'targetDelivery', 0.9, 0, 1, warnings),
-    locationSigmaDb,
-    locationSigmaSource: plan.locationSigmaDb !== null ? 'plan setting' : `ITU-R P.1812 §4.8 σL for w_a = ${locationWidthM} m (from memory)`,
+    spread,
     gatewayCorrelation: num(s, 'gatewayCorrelation', 0, 0, 1, warnings),
     environment,
     path,
@@ -186,4 +191,12 @@ export function resolveLinkSettings(plan: PlanLinkColumns): ResolvedLinkSettings
     feedlineDropM: num(s, 'feedlineDropM', 1, 0, 100, warnings),
     warnings,
   };
+}
+
+/**
+ * The plan-wide σ quoted beside fleet figures (fleet table, reports): the planning spread of a
+ * reference node at 1.5 m in the open. Each link carries its own sigmaDb for its own heights.
+ */
+export function fleetReferenceSpread(settings: ResolvedLinkSettings): PlanningSpread {
+  return planningSpread({ ...settings.spread, frequencyMhz: settings.frequencyMhz, nodeAntennaHeightAglM: 1.5, nodeClutterHeightM: 0 });
 }

@@ -88,6 +88,13 @@ export interface BandPlan {
 
 const RP_SOURCE = 'LoRa Alliance LoRaWAN Regional Parameters RP002-1.0.x (open specification), from memory';
 
+/**
+ * EU868 / EU433 maximum MAC payload M per DR0..DR7: the repeater-compatible table of the
+ * LoRaWAN Regional Parameters (from memory): 59/59/59/123/230/230/230/230 bytes; the
+ * application payload N = M − 8 (FHDR 7 + FPort 1 with no FOpts) gives 51/51/51/115/222/222.
+ */
+const EU_REPEATER_COMPATIBLE_MAC_PAYLOADS = [59, 59, 59, 123, 230, 230, 230, 230];
+
 const COMMON_CAUTIONS = [
   'Planning figures only, not legal advice: the regulator of the country of use has the last word; rules change and national variants exist.',
   'The power limit counts what leaves the antenna (EIRP/ERP): antenna gain and feedline loss both matter.',
@@ -220,7 +227,7 @@ export const bandPlans: BandPlan[] = [
       id: 'EU868',
       name: 'LoRaWAN EU863-870',
       defaultChannels: channels([868.1, 868.3, 868.5]),
-      dataRates: euStyleRates([59, 59, 59, 123, 250, 250, 250, 250], true, true),
+      dataRates: euStyleRates(EU_REPEATER_COMPATIBLE_MAC_PAYLOADS, true, true),
       defaultMaxEirpDbm: 16,
       rx2: { frequencyMhz: 869.525, dr: 0 },
       uplinkDwellTimeMs: null,
@@ -241,7 +248,7 @@ export const bandPlans: BandPlan[] = [
       id: 'EU433',
       name: 'LoRaWAN EU433',
       defaultChannels: channels([433.175, 433.375, 433.575]),
-      dataRates: euStyleRates([59, 59, 59, 123, 250, 250, 250, 250], true, true),
+      dataRates: euStyleRates(EU_REPEATER_COMPATIBLE_MAC_PAYLOADS, true, true),
       defaultMaxEirpDbm: 12.15,
       rx2: { frequencyMhz: 434.665, dr: 0 },
       uplinkDwellTimeMs: null,

@@ -21,13 +21,15 @@ export const CLUTTER_LABELS: Record<ClutterClass, string> = {
 };
 
 /**
- * Representative clutter heights R (m), from memory of ITU-R P.1812 Table 2 ("representative
- * clutter heights": water/sea 10, open/rural 10, suburban 10, urban/trees/forest 15, dense urban 20).
- * From memory, not checked against the Recommendation's text; plans override them.
+ * Representative clutter heights R (m) of ITU-R P.1812-8 Table 2 ("Default values of
+ * representative clutter height"): water/sea 0, open/rural 0, suburban 10, urban 15,
+ * trees/forest 15, dense urban 20. The ITU-R SG3 validation profiles carry the same R per
+ * coverage code (1 → 0, 2 → 0, 3 → 10, 4 → 15 m; test/reference/clutter-heights.test.ts).
+ * Plans override them (`settings.clutterHeightsM`).
  */
 export const P1812_REPRESENTATIVE_CLUTTER_HEIGHTS_M: Readonly<Record<ClutterClass, number>> = Object.freeze({
-  water: 10,
-  open: 10,
+  water: 0,
+  open: 0,
   suburban: 10,
   urban: 15,
   trees: 15,

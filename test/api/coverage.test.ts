@@ -286,7 +286,10 @@ describeEngines('coverage API', (engine) => {
         const p = raster.lonLatToPixel(lon, lat);
         return all[Math.floor(p.y) * raster.widthPx + Math.floor(p.x)];
       };
-      const margins = { behind: at(200, 150), open: at(100, 150) };
+      // Row 150 through the mast: cells behind the block (east) and over open land (west).
+      const behindRow = Array.from({ length: 25 }, (_, i) => at(176 + i, 150));
+      const openRow = Array.from({ length: 25 }, (_, i) => at(100 + i, 150));
+      const margins = { behind: at(200, 150), open: at(100, 150), behindRow, openRow };
       await raster.close();
       return { summary: done.summary, margins };
     };
@@ -296,12 +299,16 @@ describeEngines('coverage API', (engine) => {
     expect(bare.summary.clutter.note).toMatch(/no clutter layer/);
     expect(cluttered.summary.clutter.layerId).toBe(upload.body.id);
     expect(cluttered.summary.clutter.name).toBe('Synthetic town block');
-    // Representative heights: P.1812 defaults (dense urban 20 m, open/rural 10 m) without plan overrides.
+    // Representative heights: P.1812-8 Table 2 (dense urban 20 m, open/rural 0 m) without plan overrides.
     expect(cluttered.summary.clutter.heightsM.dense_urban).toBe(20);
+    expect(cluttered.summary.clutter.heightsM.open).toBe(0);
     expect(Number.isFinite(bare.margins.behind)).toBe(true);
-    // 1.5 km east, behind the 20 m block at 450–750 m: the block adds diffraction loss (P.1812-8 §3.2 heights on intermediate points).
-    expect(cluttered.margins.behind).toBeLessThan(bare.margins.behind - 1);
-    // Open land (10 m) to the west also adds some height; the block side must lose more than the open side.
-    expect(bare.margins.behind - cluttered.margins.behind).toBeGreaterThan(bare.margins.open - cluttered.margins.open);
+    // Behind the 20 m block at 450–750 m east: the block adds diffraction loss (P.1812-8 §3.2 heights on
+    // intermediate points) to the cells it shadows, by more than 1 dB at the deepest.
+    const behindLoss = bare.margins.behindRow.map((m, i) => m - cluttered.margins.behindRow[i]);
+    expect(Math.max(...behindLoss)).toBeGreaterThan(1);
+    // Open land (R = 0 m, Table 2) to the west adds no clutter: every cell within 0.5 dB of the run without the layer.
+    const openLoss = bare.margins.openRow.map((m, i) => m - cluttered.margins.openRow[i]);
+    expect(Math.max(...openLoss.map(Math.abs))).toBeLessThanOrEqual(0.5);
   });
 });

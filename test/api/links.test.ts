@@ -10,6 +10,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { bearer, createTestApp, type TestApp } from '../helpers/test-app.ts';
 import { writeGeoTiff } from '../../server/terrain/geotiff-writer.ts';
 import { writeFileSync } from 'node:fs';
+import { standardNormalCdf } from '../../server/planning/probability.ts';
 
 const WGS84 = geodesic.Geodesic.WGS84;
 const NODE = { lat: 40, lon: -105 };
@@ -96,6 +97,25 @@ describe('node links through the API agree with hand-computed budgets (ITU-R P.5
     expect(link.lineOfSight).toBe(false);
     expect(res.body.status).toMatch(/served|marginal/);
     expect(res.body.combinedDeliveryProbability).toBeCloseTo(link.deliveryProbability, 12);
+  });
+
+  it('delivery probability = Φ(marginDb / sigmaDb) within 0.01; uncalibrated σ ≥ 5 dB; assumptions name σ and its source (server/planning/spread.ts)', async () => {
+    const res = await request(t.app.server).get(`/api/v1/plans/${planId}/nodes/${nodeId}/links`).set(bearer(t.tokens.viewer));
+    expect(res.status).toBe(200);
+    for (const link of res.body.links) {
+      expect(link.sigmaDb).toBeGreaterThanOrEqual(5);
+      expect(Math.abs(link.deliveryProbability - standardNormalCdf(link.marginDb / link.sigmaDb))).toBeLessThan(0.01);
+      expect(link.sigmaSource).toBe('default');
+    }
+    expect(res.body.assumptions.sigmaDb).toBeCloseTo(res.body.links[0].sigmaDb, 9);
+    expect(res.body.assumptions.sigmaSource).toBe('default');
+    // The node sits 10 m above open ground (no land-cover layer: R = 0): the §4.8 height factor is 0, σ = σM = 6 dB.
+    expect(res.body.assumptions.sigmaLocationDb).toBe(0);
+    expect(res.body.links[0].sigmaDb).toBeCloseTo(6, 9);
+    const fleet = await request(t.app.server).get(`/api/v1/plans/${planId}/links`).set(bearer(t.tokens.viewer));
+    expect(fleet.status).toBe(200);
+    expect(fleet.body.assumptions.sigmaSource).toBe('default');
+    expect(fleet.body.items[0].sigmaDb).toBeCloseTo(res.body.links[0].sigmaDb, 9);
   });
 
   it('the second request is served from the cache; a changed node misses it', async () => {

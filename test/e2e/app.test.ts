@@ -321,7 +321,7 @@ describe('map front end (chromium)', () => {
     expect(await page.locator('#plan-band option').count()).toBeGreaterThan(1);
     expect(await page.locator('#plan-method option').count()).toBeGreaterThan(1);
     await page.getByLabel('Target fade margin (dB)').fill(String(newMargin));
-    await page.getByLabel('Location variability σ (dB)').fill('7.5');
+    await page.getByLabel('Location variability σL (dB)').fill('7.5');
     await page.locator('dialog').screenshot({ path: 'test-artefacts/screenshots/05c-plan-settings.png' });
     await page.getByRole('button', { name: 'Save plan settings' }).click();
     await page.getByRole('heading', { name: 'Plan settings' }).waitFor({ state: 'detached' });
@@ -481,8 +481,8 @@ describe('map front end (chromium)', () => {
       expect(await p.locator('#install-status-line').textContent()).toContain('install status: installed');
       const stored = await p.evaluate(
         async ([plan, node]) => {
-          const token = sessionStorage.getItem('earshot.token') ?? '';
-          const r = await fetch(`/api/v1/plans/${plan}/nodes/${node}`, { headers: { authorization: `Bearer ${token}` } });
+          // The pasted token was exchanged for the session cookie (POST /signin).
+          const r = await fetch(`/api/v1/plans/${plan}/nodes/${node}`);
           return ((await r.json()) as { installStatus: string }).installStatus;
         },
         [planId, installNodeId],

@@ -4,7 +4,7 @@
 import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import type { Prisma } from '../../db/generated/client.ts';
+import type { JsonValue } from '../../db/types.ts';
 import { writeWithAudit } from '../../db/repositories/audit.ts';
 import {
   createAntennaDesign,
@@ -119,7 +119,7 @@ const mastResponse = z.object({ ...kitRowFields, heightM: z.number().describe('m
 
 type Row = { id: string; teamId: string | null };
 const withBuiltIn = <T extends Row>(row: T) => ({ ...row, builtIn: row.teamId === null });
-const asJson = <T extends Record<string, unknown>>(body: T) => body as T & Record<string, Prisma.InputJsonValue | undefined>;
+const asJson = <T extends Record<string, unknown>>(body: T) => body as T & Record<string, JsonValue | undefined>;
 
 interface Catalog {
   kind: KitKind;

@@ -11,11 +11,12 @@ import { z } from 'zod';
 import { recordAudit } from '../../db/repositories/audit.ts';
 import { createKitJob, findKitJob, findPlanById, updateKitJob } from '../../db/repositories/links.ts';
 import { linkCheck, installCautions } from '../../planning/check.ts';
-import { PlanSettingsError } from '../../planning/settings.ts';
+import { fleetReferenceSpread, PlanSettingsError } from '../../planning/settings.ts';
 import type { LinkResult } from '../../planning/link.ts';
+import { describeSpread, planningSpread, type PlanningSpread } from '../../planning/spread.ts';
 import type { PlanRow } from '../../db/repositories/plans.ts';
 import { requireRole } from '../auth.ts';
-import { ApiError } from '../errors.ts';
+import { ApiError, apiErrorOf } from '../errors.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
 import { finite, id, pageQuery } from '../schemas.ts';
 import { decodeCursor, encodeCursor } from '../../db/repositories/pagination.ts';
@@ -23,6 +24,7 @@ import { LinkEngine, LinkInputError, type NodeLinksOutcome, type PlanContext } f
 import { loadCatalog, recommendForNode, type RecommendRequest } from './recommend.ts';
 import { visitSheet, visitSheetHtml } from './visit-sheet.ts';
 import { registerReadingRoutes } from './readings.ts';
+import { gatewaysHeard, linksLegal } from '../../app/plan-figures.ts';
 
 const nodeParams = z.strictObject({ planId: id(), nodeId: id() });
 const jobParams = z.strictObject({ planId: id(), jobId: id() });
@@ -52,7 +54,23 @@ const fleetQuery = pageQuery.extend({
 });
 
 const checkQuery = z.strictObject({ gatewayId: id().optional() });
-const sheetQuery = z.strictObject({ format: z.enum(['html', 'json'], { error: 'must be html or json' }).optional() });
+const sheetQuery = z.strictObject({
+  format: z.enum(['html', 'json'], { error: 'must be html or json' }).optional(),
+  tz: z.string().max(64).regex(/^[A-Za-z0-9_+\-/]+$/, 'must be an IANA time zone such as Europe/Berlin').optional().describe('time zone for the printed times (the app sends the viewer\'s)'),
+});
+
+/** The spread of a node's links (all links of a node share its end: one σ), or the node's in the open without links. */
+export function nodeSpread(ctx: PlanContext, outcome: NodeLinksOutcome): PlanningSpread {
+  const link = outcome.links[0];
+  if (link) return { sigmaDb: link.sigmaDb, sigmaSource: link.sigmaSource, sigmaLocationDb: link.sigmaLocationDb, sigmaModelDb: link.sigmaModelDb, sigmaEnvironmentDb: 0, biasDb: link.calibrationBiasDb };
+  return planningSpread({ ...ctx.settings.spread, frequencyMhz: ctx.settings.frequencyMhz, nodeAntennaHeightAglM: outcome.node.antennaHeightAglM, nodeClutterHeightM: 0 });
+}
+
+/** Plan-wide spread figures of the fleet table: σ of a node at 1.5 m in the open; each row carries its own sigmaDb. */
+export function fleetAssumptions(ctx: PlanContext) {
+  const spread = fleetReferenceSpread(ctx.settings);
+  return { sigmaDb: spread.sigmaDb, sigmaSource: spread.sigmaSource, sigmaModelDb: spread.sigmaModelDb, sigmaNote: describeSpread(spread, ctx.settings.spread) };
+}
 
 /** The link as the API shows it: the contract fields first, then the details. */
 export function linkView(link: LinkResult, gatewayName: string | undefined) {
@@ -62,6 +80,7 @@ export function linkView(link: LinkResult, gatewayName: string | undefined) {
 
 export function nodeLinksView(ctx: PlanContext, outcome: NodeLinksOutcome) {
   const names = new Map(ctx.gateways.map((g) => [g.row.id, g.row.name]));
+  const spread = nodeSpread(ctx, outcome);
   return {
     nodeId: outcome.node.row.id,
     links: outcome.links.map((link) => linkView(link, names.get(link.gatewayId))),
@@ -73,8 +92,15 @@ export function nodeLinksView(ctx: PlanContext, outcome: NodeLinksOutcome) {
       method: ctx.settings.path.method,
       frequencyMhz: ctx.settings.frequencyMhz,
       bandwidthKhz: ctx.settings.bandwidthKhz,
-      locationSigmaDb: ctx.settings.locationSigmaDb,
-      locationSigmaSource: ctx.settings.locationSigmaSource,
+      // The one planning spread of this node's links (server/planning/spread.ts).
+      sigmaDb: spread.sigmaDb,
+      sigmaSource: spread.sigmaSource,
+      sigmaLocationDb: spread.sigmaLocationDb,
+      sigmaModelDb: spread.sigmaModelDb,
+      sigmaNote: describeSpread(spread, ctx.settings.spread),
+      // Older names of the σL part, kept for existing clients.
+      locationSigmaDb: spread.sigmaLocationDb,
+      locationSigmaSource: ctx.settings.spread.planLocationSigmaDb !== null ? 'plan setting' : `ITU-R P.1812-8 §4.8 σL for w_a = ${ctx.settings.spread.locationWidthM} m with its height factor`,
       gatewayCorrelation: ctx.settings.gatewayCorrelation,
       combination: 'probability that at least one gateway receives: 1 − Π(1 − p_i), gateways assumed independent; a correlation factor ρ blends toward the best gateway alone',
     },
@@ -92,9 +118,7 @@ export function nodeLinksView(ctx: PlanContext, outcome: NodeLinksOutcome) {
 
 /** Maps the engine's input errors onto the API's error shape. */
 export function asApiError(error: unknown): never {
-  if (error instanceof LinkInputError) throw new ApiError(error.statusCode, error.code, error.message);
-  if (error instanceof PlanSettingsError) throw new ApiError(422, 'invalid_plan_settings', error.message);
-  throw error;
+  throw apiErrorOf(error) ?? error;
 }
 
 export default async function linkRoutes(app: FastifyInstance): Promise<void> {
@@ -187,16 +211,18 @@ export default async function linkRoutes(app: FastifyInstance): Promise<void> {
             bestGatewayId: o.bestGatewayId,
             bestGatewayName: o.bestGatewayId ? (names.get(o.bestGatewayId) ?? null) : null,
             bestMarginDb: o.bestMarginDb,
+            sigmaDb: best ? best.sigmaDb : null,
             bestSf: best ? best.bestSf : null,
             timeOnAirMs: best ? best.timeOnAirMs : null,
-            gatewaysHeard: o.links.filter((link) => link.marginDb >= 0).length,
-            legal: o.links.every((link) => link.legal === null || link.legal.withinLimit),
+            gatewaysHeard: gatewaysHeard(o.links),
+            legal: linksLegal(o.links),
             warnings: o.node.warnings,
           };
         }),
         total: filtered.length,
         next: offset + page.length < filtered.length ? encodeCursor(offset + page.length) : null,
         counts,
+        assumptions: fleetAssumptions(ctx),
         cache: { computed, cached },
         warnings: ctx.warnings,
       };
@@ -301,9 +327,9 @@ export default async function linkRoutes(app: FastifyInstance): Promise<void> {
       try {
         const outcome = await engine.linksForNode(ctx, request.params.nodeId);
         const recommendation = outcome.status === 'served' ? null : await recommendForNode(engine, ctx, outcome.node.row, {});
-        const sheet = visitSheet(ctx, outcome, recommendation);
+        const sheet = visitSheet(ctx, outcome, recommendation, (await loadCatalog(db, ctx.teamId)).masts);
         if (request.query.format === 'json') return sheet;
-        return reply.type('text/html; charset=utf-8').send(visitSheetHtml(sheet));
+        return reply.type('text/html; charset=utf-8').send(visitSheetHtml(sheet, request.query.tz));
       } catch (error) {
         return asApiError(error);
       }
@@ -360,22 +386,22 @@ export const recommendReportInput = z.strictObject({
 
 async function reportContext(engine: LinkEngine, planId: string): Promise<PlanContext> {
   const plan = await findPlanById(engine.database, planId);
-  if (!plan) throw new LinkInputError(404, 'not_found', `--plan: no plan "${planId}"`);
+  if (!plan) throw new LinkInputError('not_found', 'not_found', `--plan: no plan "${planId}"`);
   return engine.planContext(plan);
 }
 
 /** A node's links as `earshot link` prints them (optionally one gateway's). */
 export async function linkReport(engine: LinkEngine, input: z.infer<typeof linkReportInput>): Promise<ReturnType<typeof nodeLinksView>> {
   const ctx = await reportContext(engine, input.plan);
-  if (input.gateway && !ctx.gateways.some((g) => g.row.id === input.gateway)) throw new LinkInputError(404, 'not_found', `--gateway: no gateway "${input.gateway}" in plan ${input.plan}`);
+  if (input.gateway && !ctx.gateways.some((g) => g.row.id === input.gateway)) throw new LinkInputError('not_found', 'not_found', `--gateway: no gateway "${input.gateway}" in plan ${input.plan}`);
   const outcome = await engine.linksForNode(ctx, input.node).catch((error: unknown) => {
-    if (error instanceof LinkInputError && error.statusCode === 404) throw new LinkInputError(404, 'not_found', `--node: no node "${input.node}" in plan ${input.plan}`);
+    if (error instanceof LinkInputError && error.kind === 'not_found') throw new LinkInputError('not_found', 'not_found', `--node: no node "${input.node}" in plan ${input.plan}`);
     throw error;
   });
   const view = nodeLinksView(ctx, outcome);
   if (!input.gateway) return view;
   const links = view.links.filter((link) => link.gatewayId === input.gateway);
-  if (links.length === 0) throw new LinkInputError(422, 'out_of_range', `--gateway: gateway "${input.gateway}" is beyond ${(ctx.settings.maxLinkRangeM / 1000).toFixed(0)} km of the node`);
+  if (links.length === 0) throw new LinkInputError('unprocessable', 'out_of_range', `--gateway: gateway "${input.gateway}" is beyond ${(ctx.settings.maxLinkRangeM / 1000).toFixed(0)} km of the node`);
   return { ...view, links };
 }
 
@@ -383,7 +409,7 @@ export async function linkReport(engine: LinkEngine, input: z.infer<typeof linkR
 export async function recommendReport(engine: LinkEngine, input: z.infer<typeof recommendReportInput>) {
   const ctx = await reportContext(engine, input.plan);
   const row = await engine.nodeRow(ctx, input.node).catch(() => {
-    throw new LinkInputError(404, 'not_found', `--node: no node "${input.node}" in plan ${input.plan}`);
+    throw new LinkInputError('not_found', 'not_found', `--node: no node "${input.node}" in plan ${input.plan}`);
   });
   return recommendForNode(engine, ctx, row, { targetMarginDb: input.targetMarginDb, targetDelivery: input.targetDelivery, maxCost: input.maxCost });
 }

@@ -15,7 +15,8 @@ import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { writeWithAudit } from '../../db/repositories/audit.ts';
 import type { Database } from '../../db/client.ts';
-import { allTerrainLayers, createTerrainLayerWith, deleteTerrainLayer, listTerrainLayers, planExtent, terrainFilePaths, type TerrainLayerRow } from '../../db/repositories/terrain-layers.ts';
+import { terrainFileNamesReferencedIn, terrainFilesStillReferenced } from '../../db/repositories/scenarios.ts';
+import { allTerrainLayers, createTerrainLayerWith, deleteTerrainLayer, listTerrainLayers, planExtent, type TerrainLayerRow } from '../../db/repositories/terrain-layers.ts';
 import { crsForEpsg } from '../../terrain/crs.ts';
 import { openGeoRaster, RasterError, type GeoRaster } from '../../terrain/raster.ts';
 import { renderHillshadeTile, validTile } from '../../terrain/tiles.ts';
@@ -369,9 +370,9 @@ export default async function terrainRoutes(app: FastifyInstance): Promise<void>
       },
       (deleted) => ({ principal, action: 'delete', entity: 'terrain_layer', entityId: deleted.id, detail: { planId: plan.id, name: deleted.name } }),
     );
-    // Only after the commit: a rolled-back delete keeps its file.
+    // Only after the commit: a rolled-back delete keeps its file, and a file a copied plan's layer still uses stays.
     dropRasters(plan.id);
-    await rm(resolveFile(row.filePath), { force: true });
+    if ((await terrainFilesStillReferenced(db, [row.filePath])).size === 0) await rm(resolveFile(row.filePath), { force: true });
     return reply.status(204).send();
   });
 
@@ -471,7 +472,8 @@ export async function sweepOrphanFiles(db: Database, terrainDir: string, minAgeM
   const now = Date.now();
   for (const planId of planDirs) {
     const dir = join(terrainDir, planId);
-    const referenced = new Set((await terrainFilePaths(db, planId)).map((filePath) => filePath.split(/[\\/]/).pop()));
+    // Layers of this plan and of its copies (which share the files) keep a file.
+    const referenced = await terrainFileNamesReferencedIn(db, planId);
     for (const file of await readdir(dir)) {
       if (referenced.has(file)) continue;
       const path = join(dir, file);

@@ -22,7 +22,7 @@ const radio: LinkRadioSettings = {
   allowedSfs: [7, 8, 9, 10, 11, 12],
   bandPlan: findBandPlan('us-902-928'),
   targetMarginDb: 5,
-  locationSigmaDb: 6,
+  spread: { locationWidthM: 100, planLocationSigmaDb: 0, planModelSigmaDb: 6, calibration: null },
   environment: DEFAULT_ENVIRONMENT_SETTINGS,
 };
 const settings = (method: PathSettings['method']): PathSettings => ({ ...DEFAULT_PATH_SETTINGS, frequencyMhz: 915, method });

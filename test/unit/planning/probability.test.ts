@@ -25,9 +25,9 @@ describe('delivery probability (log-normal location variability)', () => {
   it('spreads add in quadrature: 3 and 4 dB → 5 dB', () => {
     expect(combineSigmasDb(3, 4)).toBeCloseTo(5, 9);
   });
-  it('P.1812 §4.8 σL (from memory): (0.024·0.915 + 0.52)·100^0.28 = 0.54196·3.6308 = 1.968 dB; 0 above clutter', () => {
+  it('P.1812-8 §4.8 σL: (0.024·0.915 + 0.52)·100^0.28 = 0.54196·3.6308 = 1.968 dB in clutter; 0 at 10 m above the clutter', () => {
     expect(p1812LocationSigmaDb(915)).toBeCloseTo(1.968, 3);
-    expect(p1812LocationSigmaDb(915, 100, true)).toBe(0);
+    expect(p1812LocationSigmaDb(915, 100, 25, 15)).toBe(0);
   });
 });
 

@@ -20,7 +20,7 @@ describe('plan link settings', () => {
     expect(s.maxEirpDbm).toBe(36);
     expect(s.path.method).toBe('p1812');
     expect(s.targetDelivery).toBe(0.9);
-    expect(s.locationSigmaSource).toMatch(/P\.1812/);
+    expect(s.spread).toEqual({ locationWidthM: 100, planLocationSigmaDb: null, planModelSigmaDb: null, calibration: null });
     expect(s.warnings).toEqual([]);
   });
   it('EU 863–870: SF7–SF12 on the default channels; an ERP limit is turned into EIRP (+2.15 dB)', () => {
@@ -30,7 +30,8 @@ describe('plan link settings', () => {
   });
   it('plan σ wins over the default; wrong types fall back with a warning naming the key; an unknown band plan is an error', () => {
     const s = resolveLinkSettings(plan({ targetDelivery: 'high', pitExtraLossDb: 20, zone: 'moon' }, { locationSigmaDb: 6 }));
-    expect(s.locationSigmaDb).toBe(6);
+    expect(s.spread.planLocationSigmaDb).toBe(6);
+    expect(resolveLinkSettings(plan({}), { calibration: { biasDb: -2, sigmaDb: 7 } }).spread.calibration).toEqual({ biasDb: -2, sigmaDb: 7 });
     expect(s.environment.pitExtraLossDb).toBe(20);
     expect(s.warnings.join(' ')).toMatch(/targetDelivery/);
     expect(s.warnings.join(' ')).toMatch(/zone/);

@@ -1,5 +1,7 @@
 // The `predict-path` command: input validation (one line naming the field) and the output contract.
 import { spawnSync } from 'node:child_process';
+import { mkdtempSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { describe, expect, it } from 'vitest';
@@ -8,6 +10,7 @@ import type { CliContext } from '../../../server/cli/framework.ts';
 import type { PathPrediction } from '../../../server/propagation/path-prediction.ts';
 import { extractProfile } from '../../../server/terrain/profile.ts';
 import { openTerrainStore } from '../../../server/terrain/store.ts';
+import { writeGeoTiff } from '../../../server/terrain/geotiff-writer.ts';
 
 const repoRoot = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '../../..');
 const command = propagationCommands.find((c) => c.words === 'predict-path');
@@ -165,5 +168,40 @@ describe('predict-path with "terrain" (profile extracted by the terrain engine)'
       /^terrain: \d+ of \d+ profile points have no elevation data/,
     );
     expect(await failure({ ...request(), ...ends, profile: undefined, terrain: ['/nonexistent.tif'] })).toMatch(/^terrain:/);
+  });
+});
+
+describe('predict-path over flat ground with a land-cover layer (ITU-R P.1812-8 Table 2 clutter heights)', () => {
+  // 3 km due north over flat 100 m ground at 915 MHz, gateway 15 m (tx), node 1.5 m (rx).
+  // With P.1812-8 Table 2 open/rural and water/sea carry R = 0 m, so a layer of either must
+  // not add a clutter wall; suburban carries R = 10 m, well above a 1.5 m node.
+  const dir = mkdtempSync(path.join(tmpdir(), 'earshot-landcover-'));
+  const west = 6.99;
+  const north = 45.04;
+  const cell = 0.0005;
+  const widthPx = 40;
+  const heightPx = 100;
+  const write = (name: string, value: number) => {
+    const file = path.join(dir, name);
+    writeFileSync(file, writeGeoTiff({ widthPx, heightPx, data: new Float32Array(widthPx * heightPx).fill(value), geoTransform: [west, cell, 0, north, 0, -cell], epsg: 4326 }));
+    return file;
+  };
+  const dem = write('flat.tif', 100);
+  // earshot's class codes: 1 water, 2 open/rural, 3 suburban.
+  const water = write('water.tif', 1);
+  const open = write('open.tif', 2);
+  const suburban = write('suburban.tif', 3);
+  const ends = { tx: { lat: 45.027, lon: 7.0, heightAglM: 15 }, rx: { lat: 45.027 - 3 / 111.13, lon: 7.0, heightAglM: 1.5 } };
+  const body = (layers: unknown[]) => ({ ...request({ frequencyMhz: 915 }), ...ends, profile: undefined, terrain: layers });
+
+  it('open land and water within 0.5 dB of no layer; suburban at least 3 dB more', async () => {
+    const bare = await run(body([dem]));
+    const withOpen = await run(body([dem, { path: open, kind: 'clutter' }]));
+    const withWater = await run(body([dem, { path: water, kind: 'clutter' }]));
+    const withSuburban = await run(body([dem, { path: suburban, kind: 'clutter' }]));
+    expect(bare.distanceKm).toBeCloseTo(3, 1);
+    expect(Math.abs(withOpen.basicLossDb - bare.basicLossDb)).toBeLessThanOrEqual(0.5);
+    expect(Math.abs(withWater.basicLossDb - bare.basicLossDb)).toBeLessThanOrEqual(0.5);
+    expect(withSuburban.basicLossDb - bare.basicLossDb).toBeGreaterThanOrEqual(3);
   });
 });

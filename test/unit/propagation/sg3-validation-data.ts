@@ -8,7 +8,8 @@ import { pathCentreLatitudeDeg, type P1812Input } from '../../../server/propagat
 
 const repoRoot = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '../../..');
 /** Where the validation examples live: beside the checkout, never inside it. */
-export const SG3_P1812_DIR = path.resolve(repoRoot, '../shared/reference/p1812');
+/** (EARSHOT_SG3_P1812_DIR points elsewhere, e.g. from a worktree one level deeper.) */
+export const SG3_P1812_DIR = process.env.EARSHOT_SG3_P1812_DIR ?? path.resolve(repoRoot, '../shared/reference/p1812');
 
 export interface Sg3Profile {
   distanceKm: number[];

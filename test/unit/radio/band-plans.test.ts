@@ -120,7 +120,11 @@ describe('LoRaWAN Regional Parameters channel plans (open specification, from me
     expect(p?.defaultChannels.map((c) => c.frequencyMhz)).toEqual([868.1, 868.3, 868.5]);
     expect(p?.rx2).toEqual({ frequencyMhz: 869.525, dr: 0 });
     expect(p?.defaultMaxEirpDbm).toBe(16);
-    expect(p?.dataRates.map((r) => r.maxAppPayloadBytes)).toEqual([51, 51, 51, 115, 242, 242, 242, 242]);
+    // Repeater-compatible payload table of the LoRaWAN Regional Parameters (from memory): M and N = M − 8.
+    expect(p?.dataRates.map((r) => r.maxMacPayloadBytes)).toEqual([59, 59, 59, 123, 230, 230, 230, 230]);
+    expect(p?.dataRates.map((r) => r.maxAppPayloadBytes)).toEqual([51, 51, 51, 115, 222, 222, 222, 222]);
+    const eu433 = findBandPlan('eu-433').lorawan;
+    expect(eu433?.dataRates.slice(0, 6).map((r) => [r.maxMacPayloadBytes, r.maxAppPayloadBytes])).toEqual([[59, 51], [59, 51], [59, 51], [123, 115], [230, 222], [230, 222]]);
   });
   it('US915: DR0–DR3 = SF10…SF7/125, DR4 = SF8/500, DR8–DR13 = SF12…SF7/500', () => {
     const p = findBandPlan('us-902-928').lorawan;

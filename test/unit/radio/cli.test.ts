@@ -182,4 +182,11 @@ describe('earshot bands', () => {
     expect(results.bandsText.code).toBe(0);
     expect(results.bandsText.stdout).toMatch(/not legal advice/);
   });
+
+  it('EU868 DR0–5 payload tables: maxMacPayloadBytes 59/59/59/123/230/230, maxAppPayloadBytes 51/51/51/115/222/222 (LoRaWAN Regional Parameters, repeater-compatible table, from memory)', () => {
+    const eu = json('bands').find((b: { id: string }) => b.id === 'eu-863-870');
+    const rates = eu.lorawan.dataRates.filter((r: { dr: number }) => r.dr <= 5);
+    expect(rates.map((r: { maxMacPayloadBytes: number }) => r.maxMacPayloadBytes)).toEqual([59, 59, 59, 123, 230, 230]);
+    expect(rates.map((r: { maxAppPayloadBytes: number }) => r.maxAppPayloadBytes)).toEqual([51, 51, 51, 115, 222, 222]);
+  });
 });

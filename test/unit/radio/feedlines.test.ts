@@ -47,6 +47,13 @@ describe('feedlines: attenuation tables (published cable tables, from memory) an
     expect(feedlineLossDb(findFeedline('low-loss-10mm'), 900, 20)).toBeCloseTo(2.56, 1);
   });
 
+  it('RG-8X class at 900 MHz ≈ 10.5 dB per 100 ft (34.5 dB/100 m; the commonly quoted figure, from memory), not 12.3', () => {
+    const perHundredFeet = feedlineAttenuationDbPer100m(findFeedline('rg-8x'), 900) * 0.3048;
+    expect(perHundredFeet).toBeGreaterThan(10.2);
+    expect(perHundredFeet).toBeLessThan(10.8);
+    expect(findFeedline('rg-8x').source).toMatch(/from memory/);
+  });
+
   it('ordering at 868 MHz matches the cable classes: RG-174 > RG-58 > RG-8X > RG-213 > 10 mm foam > 1/2-inch foam', () => {
     const losses = builtInFeedlines.map((f) => feedlineAttenuationDbPer100m(f, 868));
     for (let i = 1; i < losses.length; i++) expect(losses[i]).toBeLessThan(losses[i - 1]);

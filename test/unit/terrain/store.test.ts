@@ -112,9 +112,9 @@ describe('the block cache', () => {
 });
 
 describe('clutter', () => {
-  it('representative clutter heights by class, from memory of ITU-R P.1812 Table 2, with per-plan overrides', () => {
-    expect(P1812_REPRESENTATIVE_CLUTTER_HEIGHTS_M).toEqual({ water: 10, open: 10, suburban: 10, urban: 15, trees: 15, dense_urban: 20 });
-    expect(Array.from(clutterHeightsByIndex({ trees: 22, open: 0 }))).toEqual([10, 0, 10, 15, 22, 20]);
+  it('representative clutter heights by class, ITU-R P.1812-8 Table 2 (water 0, open 0, suburban 10, urban 15, trees 15, dense urban 20 m), with per-plan overrides', () => {
+    expect(P1812_REPRESENTATIVE_CLUTTER_HEIGHTS_M).toEqual({ water: 0, open: 0, suburban: 10, urban: 15, trees: 15, dense_urban: 20 });
+    expect(Array.from(clutterHeightsByIndex({ trees: 22, open: 4 }))).toEqual([0, 4, 10, 15, 22, 20]);
     expect(() => clutterHeightsByIndex({ urban: -3 })).toThrow(/urban must be between 0 and 100 m/);
   });
 
@@ -125,7 +125,7 @@ describe('clutter', () => {
     const at = (c: number) => store.sampleClutter(49.9955, GT[0] + (c + 0.5) * GT[1]);
     expect(await at(0)).toEqual({ clutterClass: 'trees', heightM: 18 });
     expect(await at(1)).toEqual({ clutterClass: 'urban', heightM: 15 });
-    expect(await at(2)).toEqual({ clutterClass: 'water', heightM: 10 });
+    expect(await at(2)).toEqual({ clutterClass: 'water', heightM: 0 });
     expect(await at(3)).toBeNull();
     const custom = new TerrainStore();
     custom.addLayer(await layer(16, 16, GT, () => 7, { int: true }), { kind: 'clutter', clutterCodes: { 7: 'dense_urban' } });

@@ -31,8 +31,11 @@ export function openPlanSettingsDialog(store: PlanStore, settings: ClientSetting
     );
     const margin = h('input', { name: 'targetMarginDb', type: 'number', min: '-20', max: '60', step: '0.5', required: true, id: 'plan-margin', inputmode: 'decimal' });
     margin.value = String(plan.targetMarginDb ?? 10);
-    const sigma = h('input', { name: 'locationSigmaDb', type: 'number', min: '0', max: '30', step: '0.1', id: 'plan-sigma', inputmode: 'decimal', placeholder: 'method default' });
+    const sigma = h('input', { name: 'locationSigmaDb', type: 'number', min: '0', max: '30', step: '0.1', id: 'plan-sigma', inputmode: 'decimal', placeholder: 'P.1812 §4.8' });
     sigma.value = plan.locationSigmaDb === null || plan.locationSigmaDb === undefined ? '' : String(plan.locationSigmaDb);
+    const modelSigma = h('input', { name: 'modelSigmaDb', type: 'number', min: '0', max: '30', step: '0.1', id: 'plan-model-sigma', inputmode: 'decimal', placeholder: 'default 6' });
+    const planModelSigma = plan.modelSigmaDb === null || plan.modelSigmaDb === undefined ? null : Number(plan.modelSigmaDb);
+    modelSigma.value = planModelSigma === null ? '' : String(planModelSigma);
     const methods = settings.propagationMethods.length > 0 ? settings.propagationMethods : [String(plan.propagationMethod ?? 'p1812')];
     const method = select(
       methods.map((m) => ({ value: m, label: methodLabels[m] ? `${methodLabels[m]} (${m})` : m })),
@@ -48,7 +51,8 @@ export function openPlanSettingsDialog(store: PlanStore, settings: ClientSetting
       field('Description', description),
       field('Band plan', band, 'Sets the frequency, channel rules and transmit power limits'),
       field('Target fade margin (dB)', margin, 'A node counts as served at or above this margin (−20 to 60 dB)'),
-      field('Location variability σ (dB)', sigma, 'Standard deviation of the location variability; empty = the propagation method’s default (0 to 30 dB)'),
+      field('Location variability σL (dB)', sigma, 'Spread of the level over a small area; empty = ITU-R P.1812 §4.8 with its antenna-height factor (0 to 30 dB)'),
+      field('Model error σM (dB)', modelSigma, 'How far the path model may miss in practice; empty = 6 dB. Probabilities use σ = √(σL² + σM²) until a calibration is applied (0 to 30 dB)'),
       field('Propagation method', method),
       h('div', { style: 'grid-column: 1 / -1' }, status, h('div', { class: 'dialog-actions' }, save, h('button', { type: 'button', onclick: close }, 'Cancel'))),
     );
@@ -69,6 +73,13 @@ export function openPlanSettingsDialog(store: PlanStore, settings: ClientSetting
         const sigmaDb = Number(sigma.value);
         if (!Number.isFinite(sigmaDb) || sigmaDb < 0 || sigmaDb > 30) problems.push('Location variability σ: a number of dB from 0 to 30, or empty for the default.');
         else if (sigmaDb !== plan.locationSigmaDb) changes.locationSigmaDb = sigmaDb;
+      }
+      if (modelSigma.value.trim() === '') {
+        if (planModelSigma !== null) changes.modelSigmaDb = null;
+      } else {
+        const modelSigmaDb = Number(modelSigma.value);
+        if (!Number.isFinite(modelSigmaDb) || modelSigmaDb < 0 || modelSigmaDb > 30) problems.push('Model error σM: a number of dB from 0 to 30, or empty for the default.');
+        else if (modelSigmaDb !== planModelSigma) changes.modelSigmaDb = modelSigmaDb;
       }
       if (method.value !== plan.propagationMethod) changes.propagationMethod = method.value;
       if (problems.length > 0) {
