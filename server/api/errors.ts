@@ -5,10 +5,10 @@ import type { FastifyError, FastifyInstance, FastifyReply, FastifyRequest } from
 import { hasZodFastifySchemaValidationErrors, isResponseSerializationError } from 'fastify-type-provider-zod';
 import { ConflictError, NotFoundError, VersionConflictError } from '../db/errors.ts';
 import { InvalidCursorError } from '../db/repositories/pagination.ts';
-import { InvalidPatternError } from '../radio/pattern-schema.ts';
 import { AppError, type AppErrorKind } from '../app/errors.ts';
 import { PlanSettingsError } from '../planning/settings.ts';
 import { CoverageInputError } from '../coverage/terrain-window.ts';
+import { InvalidPatternError } from '../radio/pattern-schema.ts';
 
 /** HTTP status of each engine / use-case error kind (the only place kinds become statuses). */
 export const STATUS_OF_KIND: Record<AppErrorKind, number> = {

@@ -3,6 +3,7 @@
 // and apply it (create the chosen gateways). The API routes and the CLI (via
 // the running server) call these functions; the pure work is in server/siting.
 import type { Highs } from 'highs';
+import { AppError } from './errors.ts';
 import type { Database } from '../db/client.ts';
 import { writeWithAudit, type AuditPrincipal } from '../db/repositories/audit.ts';
 import { createGateway } from '../db/repositories/gateways.ts';
@@ -29,7 +30,7 @@ import {
   unfinishedSitingRuns,
   type SitingRunSummaryRow,
 } from '../db/repositories/siting-runs.ts';
-import { LinkInputError, type LinkEngine, type PlanContext } from '../jobs/link-engine.ts';
+import { type LinkEngine, type PlanContext } from '../jobs/link-engine.ts';
 import { computeSitingMatrix, matrixInputs, SitingCancelled, type SitingCandidate, type SitingMatrix } from '../jobs/siting-matrix.ts';
 import { kitCostUsd } from '../planning/recommend.ts';
 import { DEFAULT_GATEWAY_ANTENNA_ID, DEFAULT_GATEWAY_FEEDLINE_ID, DEFAULT_GATEWAY_NOISE_FIGURE_DB } from '../planning/gateway-kit.ts';
@@ -39,16 +40,8 @@ import { solveSiting } from '../siting/milp.ts';
 import { openGeoRaster } from '../terrain/raster.ts';
 import { clutterClassIndex } from '../terrain/clutter.ts';
 
-/** A failure the caller must fix (status 400/404/409/422), mapped to an API error by the routes. */
-export class SitingError extends Error {
-  constructor(
-    readonly statusCode: 400 | 404 | 409 | 422,
-    readonly code: string,
-    message: string,
-  ) {
-    super(message);
-  }
-}
+/** A failure the caller must fix; its kind becomes the HTTP status in server/api/errors.ts. */
+export class SitingError extends AppError {}
 
 export interface GatewayKitChoice {
   antennaDesignId?: string;
@@ -158,44 +151,44 @@ async function defaultKit(deps: SitingDeps, plan: PlanRow, given: GatewayKitChoi
 
 /** Validates a request against the plan and records the queued run (audited). */
 export async function createSitingRequest(deps: SitingDeps, principal: AuditPrincipal, plan: PlanRow, request: SitingRequest): Promise<SitingRunSummaryRow> {
-  if (!Number.isInteger(request.requiredGateways) || request.requiredGateways < 1) throw new SitingError(400, 'invalid_input', 'requiredGateways: must be a whole number ≥ 1');
-  if (request.budgetUsd !== undefined && !(request.budgetUsd >= 0)) throw new SitingError(400, 'invalid_input', 'budgetUsd: must be ≥ 0');
+  if (!Number.isInteger(request.requiredGateways) || request.requiredGateways < 1) throw new SitingError('invalid_input', 'invalid_input', 'requiredGateways: must be a whole number ≥ 1');
+  if (request.budgetUsd !== undefined && !(request.budgetUsd >= 0)) throw new SitingError('invalid_input', 'invalid_input', 'budgetUsd: must be ≥ 0');
   if (request.excludeAreas) {
     try {
       parseExclusionAreas(request.excludeAreas);
     } catch (error) {
-      throw new SitingError(400, 'invalid_input', (error as Error).message);
+      throw new SitingError('invalid_input', 'invalid_input', (error as Error).message);
     }
   }
   if (request.candidates.siteIds) {
     const sites = await listSitesForSiting(deps.db, plan.id);
     const known = new Set(sites.map((s) => s.id));
     const index = request.candidates.siteIds.findIndex((id) => !known.has(id));
-    if (index >= 0) throw new SitingError(400, 'invalid_input', `candidates.siteIds[${index}]: no site "${request.candidates.siteIds[index]}" in this plan`);
+    if (index >= 0) throw new SitingError('invalid_input', 'invalid_input', `candidates.siteIds[${index}]: no site "${request.candidates.siteIds[index]}" in this plan`);
   }
   const gatewayKit = await defaultKit(deps, plan, request.gatewayKit);
   try {
     await findAntennaDesignForTeam(deps.db, plan.teamId, gatewayKit.antennaDesignId);
   } catch (error) {
-    if (error instanceof NotFoundError) throw new SitingError(400, 'invalid_input', `gatewayKit.antennaDesignId: no antenna design "${gatewayKit.antennaDesignId}" in the catalog`);
+    if (error instanceof NotFoundError) throw new SitingError('invalid_input', 'invalid_input', `gatewayKit.antennaDesignId: no antenna design "${gatewayKit.antennaDesignId}" in the catalog`);
     throw error;
   }
   try {
     await findFeedlineForTeam(deps.db, plan.teamId, gatewayKit.feedlineId);
   } catch (error) {
-    if (error instanceof NotFoundError) throw new SitingError(400, 'invalid_input', `gatewayKit.feedlineId: no feedline "${gatewayKit.feedlineId}" in the catalog`);
+    if (error instanceof NotFoundError) throw new SitingError('invalid_input', 'invalid_input', `gatewayKit.feedlineId: no feedline "${gatewayKit.feedlineId}" in the catalog`);
     throw error;
   }
   if (gatewayKit.mastOptionId) {
     try {
       await findMastOptionForTeam(deps.db, plan.teamId, gatewayKit.mastOptionId);
     } catch (error) {
-      if (error instanceof NotFoundError) throw new SitingError(400, 'invalid_input', `gatewayKit.mastOptionId: no mast option "${gatewayKit.mastOptionId}" in the catalog`);
+      if (error instanceof NotFoundError) throw new SitingError('invalid_input', 'invalid_input', `gatewayKit.mastOptionId: no mast option "${gatewayKit.mastOptionId}" in the catalog`);
       throw error;
     }
   }
   if (!request.candidates.sites && request.candidates.terrainPoints === 0 && !request.keepExistingGateways) {
-    throw new SitingError(400, 'invalid_input', 'candidates: choose sites, terrain points (terrainPoints ≥ 1) or keepExistingGateways; there is nothing to choose from');
+    throw new SitingError('invalid_input', 'invalid_input', 'candidates: choose sites, terrain points (terrainPoints ≥ 1) or keepExistingGateways; there is nothing to choose from');
   }
   const params: SitingParams = { ...request, gatewayKit };
   const planFingerprint = await sitingPlanFingerprint(deps.db, plan.id);
@@ -345,7 +338,7 @@ export async function executeSitingRun(deps: SitingDeps, runId: string): Promise
   if (!run || !(await claimSitingRun(deps.db, runId))) return;
   try {
     const plan = await findPlanById(deps.db, run.planId);
-    if (!plan) throw new SitingError(404, 'not_found', 'the plan is gone');
+    if (!plan) throw new SitingError('not_found', 'not_found', 'the plan is gone');
     const params = run.params as unknown as SitingParams;
     const areas = params.excludeAreas ? parseExclusionAreas(params.excludeAreas) : [];
     const ctx = await deps.engine.planContext(plan);
@@ -372,7 +365,7 @@ export async function executeSitingRun(deps: SitingDeps, runId: string): Promise
     await completeSitingRun(deps.db, runId, result);
   } catch (error) {
     if (error instanceof SitingCancelled) return;
-    const message = error instanceof SitingError || error instanceof LinkInputError || error instanceof RangeError ? error.message : `the siting run failed: ${(error as Error).message}`;
+    const message = error instanceof AppError || error instanceof RangeError ? error.message : `the siting run failed: ${(error as Error).message}`;
     await failSitingRun(deps.db, runId, message);
   }
 }
@@ -460,14 +453,14 @@ export async function solveMatrix(matrix: SitingMatrix, params: Omit<SitingReque
 
 export async function findRun(deps: SitingDeps, planId: string, runId: string): Promise<SitingRunSummaryRow> {
   const run = await findSitingRun(deps.db, planId, runId);
-  if (!run) throw new SitingError(404, 'not_found', 'siting run not found');
+  if (!run) throw new SitingError('not_found', 'not_found', 'siting run not found');
   return run;
 }
 
 export async function runMatrix(deps: SitingDeps, planId: string, runId: string): Promise<SitingMatrix> {
   const run = await findRun(deps, planId, runId);
   const matrix = await findSitingMatrix(deps.db, planId, run.id);
-  if (!isMatrix(matrix)) throw new SitingError(409, 'not_ready', `the run is ${run.status}; its matrix exists once the predictions are done`);
+  if (!isMatrix(matrix)) throw new SitingError('conflict', 'not_ready', `the run is ${run.status}; its matrix exists once the predictions are done`);
   return matrix;
 }
 
@@ -476,7 +469,7 @@ export async function cancelRun(deps: SitingDeps, principal: AuditPrincipal, pla
   await writeWithAudit(
     deps.db,
     async (tx) => {
-      if (!(await cancelSitingRun(tx, planId, run.id))) throw new SitingError(409, 'already_finished', `the run is already ${run.status}`);
+      if (!(await cancelSitingRun(tx, planId, run.id))) throw new SitingError('conflict', 'already_finished', `the run is already ${run.status}`);
     },
     () => ({ principal, action: 'cancel', entity: 'siting_run', entityId: run.id, detail: { planId } }),
   );
@@ -486,12 +479,12 @@ export async function cancelRun(deps: SitingDeps, principal: AuditPrincipal, pla
 /** Creates the run's new gateways (kept ones exist already), audited, once; 409 when the plan changed since. */
 export async function applyRun(deps: SitingDeps, principal: AuditPrincipal, planId: string, runId: string): Promise<{ gatewayIds: string[]; gateways: Array<{ id: string; name: string; candidateId: string }> }> {
   const run = await findRun(deps, planId, runId);
-  if (run.status !== 'done') throw new SitingError(409, 'not_ready', `the run is ${run.status}; only a finished run can be applied`);
-  if (run.appliedAt) throw new SitingError(409, 'already_applied', `this run was applied at ${run.appliedAt.toISOString()}`);
+  if (run.status !== 'done') throw new SitingError('conflict', 'not_ready', `the run is ${run.status}; only a finished run can be applied`);
+  if (run.appliedAt) throw new SitingError('conflict', 'already_applied', `this run was applied at ${run.appliedAt.toISOString()}`);
   const result = run.result as unknown as SitingResult;
-  if (result.status === 'infeasible') throw new SitingError(409, 'nothing_to_apply', 'the run found no selection that meets its rules');
+  if (result.status === 'infeasible') throw new SitingError('conflict', 'nothing_to_apply', 'the run found no selection that meets its rules');
   const now = await sitingPlanFingerprint(deps.db, planId);
-  if (now !== run.planFingerprint) throw new SitingError(409, 'plan_changed', 'the plan changed since this run (nodes, gateways, sites, terrain or settings); start a new run');
+  if (now !== run.planFingerprint) throw new SitingError('conflict', 'plan_changed', 'the plan changed since this run (nodes, gateways, sites, terrain or settings); start a new run');
   const matrix = await runMatrix(deps, planId, runId);
   const byId = new Map(matrix.candidates.map((c) => [c.id, c]));
   const created = await writeWithAudit(
@@ -517,7 +510,7 @@ export async function applyRun(deps: SitingDeps, principal: AuditPrincipal, plan
         });
         out.push({ id: row.id, name: row.name, candidateId: c.id });
       }
-      if (!(await markSitingApplied(tx, run.id, out.map((g) => g.id)))) throw new SitingError(409, 'already_applied', 'this run was applied meanwhile');
+      if (!(await markSitingApplied(tx, run.id, out.map((g) => g.id)))) throw new SitingError('conflict', 'already_applied', 'this run was applied meanwhile');
       return out;
     },
     (out) => ({ principal, action: 'apply', entity: 'siting_run', entityId: run.id, detail: { planId, gatewayIds: out.map((g) => g.id) } }),
@@ -586,7 +579,7 @@ export interface SitingReportInput extends SitingRequest {
 export async function sitingReport(deps: SitingDeps, input: SitingReportInput): Promise<SitingRunSummaryRow> {
   const { plan: planId, ...request } = input;
   const plan = await findPlanById(deps.db, planId);
-  if (!plan) throw new SitingError(404, 'not_found', `--plan: no plan "${planId}"`);
+  if (!plan) throw new SitingError('not_found', 'not_found', `--plan: no plan "${planId}"`);
   const principal: AuditPrincipal = { userId: null, teamId: plan.teamId, tokenId: null };
   const run = await createSitingRequest(deps, principal, plan, request);
   await executeSitingRun(deps, run.id);

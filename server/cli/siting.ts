@@ -6,8 +6,9 @@
 import { z } from 'zod';
 import { loadConfig } from '../config.ts';
 import { dataFolderHolder, openDatabase } from '../db/client.ts';
-import { LinkEngine, LinkInputError } from '../jobs/link-engine.ts';
-import { SitingError, sitingReport, type SitingReportInput, type SitingResult } from '../app/siting.ts';
+import { LinkEngine } from '../jobs/link-engine.ts';
+import { AppError } from '../app/errors.ts';
+import { sitingReport, type SitingReportInput, type SitingResult } from '../app/siting.ts';
 import { CliUsageError, defineCommand, flagOption, integerOption, numberOption, stringOption, type CliCommand } from './framework.ts';
 import { callRunningServer, readRunningServer } from './running-server.ts';
 
@@ -30,7 +31,7 @@ export async function runSiting(input: SitingReportInput, env: NodeJS.ProcessEnv
     const run = await sitingReport({ db, engine }, input);
     return { ...run, createdAt: run.createdAt.toISOString(), startedAt: run.startedAt?.toISOString() ?? null, finishedAt: run.finishedAt?.toISOString() ?? null, appliedAt: run.appliedAt?.toISOString() ?? null };
   } catch (error) {
-    if (error instanceof SitingError || error instanceof LinkInputError) throw new CliUsageError(error.message);
+    if (error instanceof AppError) throw new CliUsageError(error.message);
     throw error;
   } finally {
     await engine.close();

@@ -129,7 +129,7 @@ export async function matrixInputs(engine: LinkEngine, ctx: PlanContext, candida
     try {
       gateways.push(await engine.gatewayContext(ctx, candidateRow(ctx, candidate)));
     } catch (error) {
-      if (error instanceof NotFoundError) throw new LinkInputError(400, 'invalid_input', `gatewayKit: ${error.message}`);
+      if (error instanceof NotFoundError) throw new LinkInputError('invalid_input', 'invalid_input', `gatewayKit: ${error.message}`);
       throw error;
     }
   }

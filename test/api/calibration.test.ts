@@ -72,6 +72,7 @@ describeEngines('calibration from field readings (demo plan)', (engine) => {
     expect(fit.body.biasCi95Db[0]).toBeLessThan(calibration.biasDb);
     expect(fit.body.biasCi95Db[1]).toBeGreaterThan(calibration.biasDb);
     const cv = calibration.crossValidation;
+    console.info(`[${engine}] n ${calibration.n}, bias ${calibration.biasDb.toFixed(2)} dB, σ ${calibration.sigmaDb.toFixed(2)} dB, CV RMSE ${cv.rmseBeforeDb.toFixed(2)} → ${cv.rmseAfterDb.toFixed(2)} dB, mean error ${cv.meanErrorBeforeDb.toFixed(2)} → ${cv.meanErrorAfterDb.toFixed(2)} dB`);
     expect(cv.folds).toBe(5);
     expect(cv.rmseAfterDb).toBeLessThan(cv.rmseBeforeDb);
     expect(Math.abs(cv.meanErrorAfterDb)).toBeLessThan(Math.abs(cv.meanErrorBeforeDb));

@@ -145,6 +145,12 @@ describeEngines('gateway siting API', (engine) => {
     const events = await request(t.app.server).get(`/api/v1/plans/${planId}/siting/${start.body.id}/events`).set(auth);
     expect(events.text).toContain('"status":"done"');
     expect(events.text).toContain('event: end');
+    // A finished run cannot be cancelled; the list shows the runs newest first.
+    const cancel = await request(t.app.server).post(`/api/v1/plans/${planId}/siting/${start.body.id}/cancel`).set(auth);
+    expect(cancel.status).toBe(409);
+    expect(cancel.body.error.code).toBe('already_finished');
+    const listed = await request(t.app.server).get(`/api/v1/plans/${planId}/siting`).set(auth);
+    expect(listed.body.items[0].id).toBe(start.body.id);
   }, 120_000);
 
   it('apply creates the chosen gateways (audited), after which the link table serves the covered nodes; a second apply is refused', async () => {

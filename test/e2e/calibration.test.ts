@@ -90,6 +90,7 @@ describe('calibration view (chromium)', () => {
     expect(markers).toBeGreaterThanOrEqual(rows);
     await page.locator('#calibration-groups tbody tr').first().waitFor();
     expect(await accessibilityProblems(page, '#calibration-h + *')).toEqual([]);
+    await page.locator('svg.calibration-chart').first().scrollIntoViewIfNeeded();
     await screenshot(page, 'calibration-01-fit', true);
     watch.assertClean();
   }, 600_000);

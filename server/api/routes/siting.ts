@@ -4,12 +4,11 @@
 import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import { applyRun, cancelRun, createSitingRequest, findRun, runMatrix, SitingError, SitingJobs, sitingReport, type SitingDeps } from '../../app/siting.ts';
+import { applyRun, cancelRun, createSitingRequest, findRun, runMatrix, SitingJobs, sitingReport, type SitingDeps } from '../../app/siting.ts';
 import type { SitingRunSummaryRow } from '../../db/repositories/siting-runs.ts';
 import { listSitingRuns } from '../../db/repositories/siting-runs.ts';
-import { LinkInputError } from '../../jobs/link-engine.ts';
 import { requireRole } from '../auth.ts';
-import { ApiError } from '../errors.ts';
+import { apiErrorOf } from '../errors.ts';
 import { streamRunProgress } from '../run-events.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
 import { dateTime, errorResponses, finite, id, nonNegative, pageOf, pageQuery, planParams } from '../schemas.ts';
@@ -143,8 +142,7 @@ async function mapped<T>(work: () => Promise<T>): Promise<T> {
   try {
     return await work();
   } catch (error) {
-    if (error instanceof SitingError || error instanceof LinkInputError) throw new ApiError(error.statusCode, error.code, error.message);
-    throw error;
+    throw apiErrorOf(error) ?? error;
   }
 }
 

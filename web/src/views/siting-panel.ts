@@ -21,6 +21,13 @@ const objectiveChoices = [
   { value: 'cost', label: 'Least cost (sites + kit)' },
 ];
 
+/** The first few names, then how many more (the full list is in the API answer). */
+function onlyText(names: string[]): string {
+  if (names.length === 0) return 'none';
+  const shown = names.slice(0, 6).join(', ');
+  return names.length > 6 ? `${names.length}: ${shown} and ${names.length - 6} more` : `${names.length}: ${shown}`;
+}
+
 function numberInput(id: string, attrs: Record<string, string>): HTMLInputElement {
   return h('input', { type: 'number', id, inputmode: 'decimal', ...attrs });
 }
@@ -173,7 +180,7 @@ export async function renderSiting(main: HTMLElement, route: Route): Promise<() 
         ...result.warnings.slice(0, 5).map((w) => h('p', { class: 'warn-text' }, w)),
       ),
     );
-    const mapEl = h('div', { class: 'map siting-map', id: 'siting-map', role: 'region', 'aria-label': 'Chosen sites and nodes', style: 'height:360px' });
+    const mapEl = h('div', { class: 'siting-map', id: 'siting-map', role: 'region', 'aria-label': 'Chosen sites and nodes' });
     out.append(mapEl);
     const rows = result.selected.map((s) =>
       h(
@@ -183,7 +190,7 @@ export async function renderSiting(main: HTMLElement, route: Route): Promise<() 
         h('td', {}, s.name, s.kept ? ' (kept as built)' : ''),
         h('td', { class: 'num' }, money(s.costUsd)),
         h('td', { class: 'num' }, String(s.nodesHeard)),
-        h('td', {}, s.nodesOnlyHere === 0 ? 'none' : s.nodeIdsOnlyHere.map((id) => nodeName.get(id) ?? id).join(', ')),
+        h('td', { class: 'siting-only' }, onlyText(s.nodeIdsOnlyHere.map((id) => nodeName.get(id) ?? id))),
       ),
     );
     out.append(
