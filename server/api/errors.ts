@@ -25,6 +25,7 @@ export function apiErrorOf(error: unknown): ApiError | null {
   if (error instanceof ApiError) return error;
   if (error instanceof AppError) return new ApiError(STATUS_OF_KIND[error.kind], error.code, error.message);
   if (error instanceof PlanSettingsError) return new ApiError(422, 'invalid_plan_settings', error.message);
+  if (error instanceof InvalidPatternError) return new ApiError(422, 'invalid_kit', error.message);
   if (error instanceof CoverageInputError) return new ApiError(error.code === 'too_many_cells' ? 413 : 422, error.code, error.message);
   return null;
 }
