@@ -101,8 +101,8 @@ function resultBlock(result: TuneResult): HTMLElement {
   );
 }
 
-/** The tuning card for one node. `designId` is the node antenna's build sheet, when it has one. */
-export function tuningPanel(planId: string, nodeId: string, designId: string | null): HTMLElement {
+/** The tuning card for one node. `designId` is the node antenna's build sheet, when it has one; `bandId` the plan's band plan. */
+export function tuningPanel(planId: string, nodeId: string, designId: string | null, bandId: string | undefined): HTMLElement {
   const file = h('input', { id: 'tune-file', type: 'file', accept: '.s1p,.csv,text/csv,text/plain' });
   const length = h('input', { id: 'tune-length-mm', type: 'number', step: '0.1', min: '1', max: '2000', inputmode: 'decimal' });
   const keep = h('input', { id: 'tune-keep', type: 'checkbox' });
@@ -115,7 +115,10 @@ export function tuningPanel(planId: string, nodeId: string, designId: string | n
     h('h2', { id: 'tune-h' }, 'Antenna tuning from a sweep'),
     h('p', { class: 'muted small' }, 'Export the sweep from the analyser as Touchstone (.s1p) or CSV (frequency and VSWR or return loss), sweep across the whole band, antenna in its final place.'),
     field('Sweep file (.s1p or .csv)', file),
-    field(`Present length of the ${designId === 'half-wave-dipole' ? 'legs (each)' : designId === 'pcb-inverted-f' ? 'arm' : 'radiator'} (mm)`, length, designId ? 'Measure from the connector (or feed point) to the tip.' : "This node's antenna has no build sheet: the figures are shown without a trim."),
+    // A bought antenna is not trimmed: no length to ask for, the figures alone are shown.
+    designId
+      ? field(`Present length of the ${designId === 'half-wave-dipole' ? 'legs (each)' : designId === 'pcb-inverted-f' ? 'arm' : 'radiator'} (mm)`, length, 'Measure from the connector (or feed point) to the tip.')
+      : h('p', { class: 'muted small' }, "This node's antenna is bought ready-made (no build sheet): the sweep's figures are shown, without a trim."),
     canRecordReadings() ? h('label', { class: 'check' }, keep, ' Keep the result on this node (antenna reading)') : '',
     h('div', { class: 'button-row' }, run),
     out,
@@ -141,6 +144,8 @@ export function tuningPanel(planId: string, nodeId: string, designId: string | n
         return postTune({
           ...(isCsv ? { csv: text } : { s1p: text }),
           fileName: chosen.name,
+          // The plan's band (the server also takes it from the plan when the result is kept on the node).
+          ...(bandId ? { band: bandId } : {}),
           ...(keep.checked ? { planId, nodeId } : {}),
           ...(designId && lengthMm !== undefined ? { design: designId, lengthMm } : {}),
         });
