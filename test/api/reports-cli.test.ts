@@ -39,7 +39,7 @@ beforeAll(async () => {
   writeFileSync(join(dataDir, 'pglite.lock'), `${process.ppid}\n`);
   writeFileSync(join(dataDir, 'admin.json'), `${JSON.stringify({ port, secret, host: '127.0.0.1', pid: process.ppid })}\n`, { mode: 0o600 });
   engine = new LinkEngine(t.db, t.config, { workers: 0 });
-}, 120_000);
+}, 300_000);
 
 afterAll(async () => {
   await engine?.close();

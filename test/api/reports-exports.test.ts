@@ -24,7 +24,7 @@ const dir = mkdtempSync(join(tmpdir(), 'earshot-reports-'));
 let t: TestApp;
 let planId: string;
 let demo: Record<string, string>;
-let fleet: { counts: { served: number; marginal: number; unserved: number }; items: Array<{ nodeId: string; lat: number; lon: number; status: string }> };
+let fleet: { assumptions: { sigmaDb: number; sigmaSource: string }; counts: { served: number; marginal: number; unserved: number }; items: Array<{ nodeId: string; lat: number; lon: number; status: string }> };
 
 /** Feature id → [lon, lat] as ogrinfo prints them ("id (String) = …", "POINT (lon lat)"). */
 function ogrPoints(path: string): Map<string, [number, number]> {
@@ -155,7 +155,8 @@ suite('the report PDF (rendered by pdftoppm, read back by pdftotext)', () => {
     expect(kit).toBeGreaterThan(0);
     expect(text).toContain(`Kit cost (antennas, feedlines, masts) ${kit.toLocaleString('en-US', { minimumFractionDigits: 2 })} USD`);
     for (const caution of installCautions(findBandPlan('us-902-928').cautions)) expect(text).toContain(caution.slice(0, 40));
-    expect(text).toMatch(/Location variability σ 2\.0 dB/);
+    // σ and its source as the fleet table states them (the one planning spread).
+    expect(text).toContain(`Location variability σ ${fleet.assumptions.sigmaDb.toFixed(1)} dB (${fleet.assumptions.sigmaSource}`);
   });
 });
 

@@ -7,7 +7,9 @@
 //     wall time, PDF size and pages, and the process's peak RSS during the report
 //     (sampled every 10 ms) next to the RSS before it;
 //  3. GET /export.geojson and /export.csv beside it.
+//  2b. (PostgreSQL) the same report in a fresh process: its own peak RSS.
 // REPORT_BENCH_OUT=<file> keeps the last PDF for a look.
+import { spawnSync } from 'node:child_process';
 import { mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir, loadavg } from 'node:os';
 import { join } from 'node:path';
@@ -104,6 +106,21 @@ export async function run(): Promise<void> {
       const pages = (pdf.toString('latin1').match(/\/Type \/Page\b/g) ?? []).length;
       console.log(`2. report.pdf round ${r + 1}: ${(ms / 1000).toFixed(2)} s (target ≤ 20 s), ${(pdf.length / 1024 / 1024).toFixed(2)} MB, ${pages} pages; process RSS ${mb(before)} before, peak ${mb(peak)} during (+${mb(peak - before)}; target ≤ 300 MB peak)`);
       writeFileSync(process.env.REPORT_BENCH_OUT ?? join(dir, 'report.pdf'), pdf);
+    }
+    if (engine === 'postgres') {
+      // The same report in a fresh process on the same database: its peak RSS is the report's
+      // whole footprint (Node, Prisma, the fleet answer, the map, the PDF), not the bench harness's.
+      const child = spawnSync(process.execPath, ['node_modules/tsx/dist/cli.mjs', 'test/bench/_report-child.ts'], {
+        env: { ...process.env, DATABASE_URL: t.config.databaseUrl, EARSHOT_DATA_DIR: t.config.dataDir, BENCH_FILES_DIR: t.config.filesDir, BENCH_PLAN_ID: planId },
+        encoding: 'utf8',
+        timeout: 300_000,
+      });
+      const line = child.stdout.trim().split('\n').pop() ?? '';
+      if (child.status !== 0 || !line.startsWith('{')) console.log(`2b. fresh-process report failed: ${child.stderr.slice(-400)}`);
+      else {
+        const r = JSON.parse(line) as { ms: number; bytes: number; maxRssMb: number };
+        console.log(`2b. report.pdf in a fresh process (warm link cache, in-thread paths): ${(r.ms / 1000).toFixed(2)} s, peak RSS of that process ${r.maxRssMb.toFixed(0)} MB (target ≤ 20 s, ≤ 300 MB)`);
+      }
     }
     for (const file of ['export.geojson', 'export.csv']) {
       start = performance.now();
