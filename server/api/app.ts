@@ -11,6 +11,7 @@ import { jsonSchemaTransform, serializerCompiler, validatorCompiler, type ZodTyp
 import type { Config } from '../config.ts';
 import type { Database } from '../db/client.ts';
 import { installAuth } from './auth.ts';
+import type { AuthThrottle } from './auth-throttle.ts';
 import { errorBody, installErrorHandlers, sendError } from './errors.ts';
 import { installInputGuard } from './input-guard.ts';
 import healthRoutes from './routes/health.ts';
@@ -39,6 +40,8 @@ export interface AppDeps {
   config: Config;
   logger?: boolean | object;
   jobs?: unknown;
+  /** Failed-authentication throttle (default: in memory, or in Redis when REDIS_URL is set). */
+  authThrottle?: AuthThrottle;
   /** When set, the loopback-only admin endpoints (/_admin/*) accept this secret (see server/cli/admin.ts). */
   adminSecret?: string;
 }
@@ -115,11 +118,15 @@ async function registerApiRoutes(api: FastifyInstance): Promise<void> {
   await api.register((await import('./routes/links.ts')).default);
   await api.register((await import('./routes/coverage.ts')).default);
   await api.register((await import('./routes/client-settings.ts')).default);
+  await api.register((await import('./routes/team-access.ts')).default);
+  await api.register((await import('./routes/gateway-checks.ts')).default);
+  await api.register((await import('./routes/kit-price.ts')).default);
   await api.register((await import('./routes/capacity.ts')).default);
   await api.register((await import('./routes/calibration.ts')).default);
   await api.register((await import('./routes/exports.ts')).default);
   await api.register((await import('./routes/scenarios.ts')).default);
   await api.register((await import('./routes/tuning.ts')).default);
+  await api.register((await import('./routes/siting.ts')).default);
 }
 
 export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {
@@ -229,10 +236,11 @@ export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {
   });
 
   installErrorHandlers(app);
-  installAuth(app, deps.db);
+  installAuth(app, deps.db, { redisUrl: config.redisUrl, throttle: deps.authThrottle });
   installInputGuard(app);
 
   await app.register(signInRoutes);
+  await app.register((await import('./routes/team-access.ts')).sessionExchangeRoutes);
   if (deps.adminSecret) await app.register(adminRoutes, { prefix: '/_admin' });
   await app.register(registerApiRoutes, { prefix: '/api/v1' });
   app.get('/api/v1/openapi.json', { schema: { hide: true } }, async () => app.swagger());

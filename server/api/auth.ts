@@ -10,7 +10,8 @@
 import '@fastify/cookie';
 import type { FastifyInstance, FastifyReply, FastifyRequest } from 'fastify';
 import type { Database } from '../db/client.ts';
-import { verifyToken, type Principal, type Role } from '../db/repositories/accounts.ts';
+import { isTokenCached, verifyToken, type Principal, type Role } from '../db/repositories/accounts.ts';
+import { memoryThrottle, redisThrottle, type AuthThrottle } from './auth-throttle.ts';
 import { ApiError, sendError } from './errors.ts';
 
 export type { Principal, Role };
@@ -98,8 +99,34 @@ export function isPublicRequest(request: FastifyRequest): boolean {
   return !(path === '/api/v1' || path.startsWith('/api/v1/'));
 }
 
-export function installAuth(app: FastifyInstance, db: Database): void {
+class Throttled extends Error {
+  constructor(readonly retryAfterS: number) {
+    super('throttled');
+  }
+}
+
+export function installAuth(app: FastifyInstance, db: Database, options: { throttle?: AuthThrottle; redisUrl?: string; redisPrefix?: string } = {}): void {
   app.decorateRequest('principal', undefined as unknown as Principal);
+  const throttle = options.throttle ?? (options.redisUrl ? redisThrottle(options.redisUrl, options.redisPrefix ?? 'earshot:') : memoryThrottle());
+  app.addHook('onClose', async () => throttle.close());
+  // Concurrent requests with the same not-yet-cached token share one verification (one scrypt,
+  // one throttle attempt) instead of each paying for it.
+  const inFlight = new Map<string, Promise<Principal | null>>();
+  const check = (address: string, token: string): Promise<Principal | null> => {
+    if (isTokenCached(db, token)) return verifyToken(db, token);
+    let pending = inFlight.get(token);
+    if (!pending) {
+      pending = (async () => {
+        const gate = await throttle.begin(address);
+        if (!gate.allowed) throw new Throttled(gate.retryAfterS);
+        const principal = await verifyToken(db, token);
+        if (principal) await throttle.succeeded(address);
+        return principal;
+      })().finally(() => inFlight.delete(token));
+      inFlight.set(token, pending);
+    }
+    return pending;
+  };
   app.addHook('onRequest', async (request: FastifyRequest, reply: FastifyReply) => {
     if (isPublicRequest(request)) return;
     const bearer = bearerToken(request);
@@ -115,7 +142,14 @@ export function installAuth(app: FastifyInstance, db: Database): void {
       }
       token = cookie;
     }
-    const principal = await verifyToken(db, token);
+    let principal: Principal | null;
+    try {
+      principal = await check(request.ip, token);
+    } catch (error) {
+      if (!(error instanceof Throttled)) throw error;
+      reply.header('retry-after', String(error.retryAfterS));
+      return sendError(reply, 429, 'rate_limited', `too many failed sign-ins from this address; retry in ${error.retryAfterS} s`);
+    }
     if (!principal) return sendError(reply, 401, 'unauthorized', 'token is unknown, revoked or expired');
     request.principal = { userId: principal.userId, teamId: principal.teamId, role: principal.role, tokenId: principal.tokenId };
   });

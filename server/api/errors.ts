@@ -8,6 +8,7 @@ import { InvalidCursorError } from '../db/repositories/pagination.ts';
 import { AppError, type AppErrorKind } from '../app/errors.ts';
 import { PlanSettingsError } from '../planning/settings.ts';
 import { CoverageInputError } from '../coverage/terrain-window.ts';
+import { InvalidPatternError } from '../radio/pattern-schema.ts';
 
 /** HTTP status of each engine / use-case error kind (the only place kinds become statuses). */
 export const STATUS_OF_KIND: Record<AppErrorKind, number> = {
@@ -105,6 +106,7 @@ export function installErrorHandlers(app: FastifyInstance): void {
       return sendError(reply, 409, 'version_conflict', error.message, { currentVersion: error.currentVersion });
     }
     if (error instanceof ConflictError) return sendError(reply, 409, 'conflict', error.message);
+    if (error instanceof InvalidPatternError) return sendError(reply, 422, 'invalid_kit', error.message);
     if (error instanceof InvalidCursorError) return sendError(reply, 400, 'invalid_input', error.message);
     if (hasZodFastifySchemaValidationErrors(error)) {
       const context = (error as { validationContext?: string }).validationContext;

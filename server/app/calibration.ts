@@ -251,8 +251,8 @@ export async function pairReadings(engine: LinkEngine, ctx: PlanContext, reading
   for (const { node, variant, current, readings: group } of variants.values()) {
     let outcome: NodeLinksOutcome;
     try {
-      if (current) outcome = await engine.linksForNode(ctx, node.id);
-      else outcome = (await engine.nodeLinks(ctx, await engine.resolveNode(ctx, variant), null, false)).outcome;
+      // Never saved: these predictions are the model without the applied calibration.
+      outcome = (await engine.nodeLinks(ctx, await engine.resolveNode(ctx, current ? node : variant), null, false)).outcome;
     } catch (error) {
       for (const reading of group) excluded.push({ readingId: reading.id, nodeId: reading.nodeId, gatewayId: reading.gatewayId, reason: `no prediction: ${(error as Error).message}` });
       continue;
@@ -281,10 +281,9 @@ export async function pairReadings(engine: LinkEngine, ctx: PlanContext, reading
   return { residuals, excluded };
 }
 
-/** The link's RSSI without an applied calibration's bias (links carry it in their assumptions once applied). */
+/** The link's RSSI without a calibration's bias (0 in the uncalibrated context the fit uses). */
 export function uncalibratedRssiDbm(link: LinkResult): number {
-  const assumptions = (link as { assumptions?: { calibrationBiasDb?: number } }).assumptions;
-  return link.rssiDbm - (assumptions?.calibrationBiasDb ?? 0);
+  return link.rssiDbm - link.calibrationBiasDb;
 }
 
 // ---------------------------------------------------------------------------------------
@@ -333,9 +332,13 @@ export interface FitRequest {
   seed?: number;
 }
 
-/** Fits the plan's readings and stores the calibration (audited); it is not applied. */
-export async function createPlanCalibration(db: Database, engine: LinkEngine, actor: Actor, plan: PlanRow, ctx: PlanContext, request: FitRequest): Promise<CalibrationView> {
+/**
+ * Fits the plan's readings against the model as is (no applied calibration: a new fit never
+ * folds an old bias in twice) and stores the calibration (audited); it is not applied.
+ */
+export async function createPlanCalibration(db: Database, engine: LinkEngine, actor: Actor, plan: PlanRow, request: FitRequest): Promise<CalibrationView> {
   const grouping = request.grouping ?? 'none';
+  const ctx = await engine.planContext(plan, { calibration: null });
   const readings = await listReadingsForCalibration(db, plan.id);
   if (readings.length === 0) throw new CalibrationError(422, 'no_readings', 'readings: the plan has no field readings heard at a gateway; record or import some first');
   const nodes = new Map((await listNodesForLinks(db, plan.id)).map((n) => [n.id, n]));

@@ -11,8 +11,26 @@ import { UnknownBandPlanError, type BandPlan } from '../radio/band-plans.ts';
 import { frameTimeOnAirMs, uplinkChannelCount } from '../capacity/airtime.ts';
 import { assessCapacity, CAPACITY_MODELS, CapacityInputError, DEFAULT_DURATION_S, DEFAULT_SEED, type CapacityAssessment, type CapacityModel, type CapacityNodeInput } from '../capacity/assess.ts';
 import { DEFAULT_CAPTURE_THRESHOLD_DB } from '../capacity/interference.ts';
+import { AppError } from './errors.ts';
 
-export { CAPACITY_MODELS, CapacityInputError, type CapacityModel };
+export { CAPACITY_MODELS, type CapacityModel };
+
+/** Input the caller must fix (names the field); kind invalid_input → 400 in the API, exit 2 in the CLI. */
+export class CapacityRequestError extends AppError {
+  constructor(message: string) {
+    super('invalid_input', 'invalid_input', message);
+  }
+}
+
+/** The engine's own input errors, as this layer's error kind. */
+function assess(...args: Parameters<typeof assessCapacity>): CapacityAssessment {
+  try {
+    return assessCapacity(...args);
+  } catch (error) {
+    if (error instanceof CapacityInputError) throw new CapacityRequestError(error.message);
+    throw error;
+  }
+}
 
 /** Most nodes a stand-alone scenario may describe (keeps one CLI run within seconds). */
 export const MAX_SCENARIO_NODES = 200_000;
@@ -33,6 +51,8 @@ export interface CapacityRunOptions {
   confirmedShare?: number;
   /** What-if: every node's reporting rate × this factor (default 1). */
   rateScale?: number;
+  /** What-if: uplink channels (default: plan setting `uplinkChannels`, else the band plan's default channels). */
+  channels?: number;
 }
 
 function planSetting(plan: PlanRow, key: string): unknown {
@@ -108,10 +128,10 @@ export async function planCapacity(engine: LinkEngine, ctx: PlanContext, options
   const rateScale = options.rateScale ?? 1;
   const settingShare = planSetting(ctx.plan, 'confirmedUplinkShare');
   const confirmedShare = options.confirmedShare ?? (typeof settingShare === 'number' && settingShare >= 0 && settingShare <= 1 ? settingShare : 0);
-  const channels = planUplinkChannels(ctx, warnings);
+  const channels = options.channels ?? planUplinkChannels(ctx, warnings);
   const outcomes = await engine.fleet(ctx);
   const { inputs, used, skipped } = capacityNodesFromFleet(ctx, outcomes, rateScale);
-  const result = assessCapacity(
+  const result = assess(
     { bandPlan: ctx.settings.bandPlan, channels, gatewayCount: ctx.gateways.length, nodes: inputs, confirmedShare, gatewayCorrelation: ctx.settings.gatewayCorrelation },
     { model: options.model, durationS: options.durationS, seed: options.seed, captureThresholdDb: options.captureThresholdDb },
   );
@@ -237,7 +257,7 @@ function scenarioBandPlan(id: string): BandPlan {
   try {
     return resolveBandPlan(id);
   } catch (error) {
-    if (error instanceof UnknownBandPlanError) throw new CapacityInputError(`bandPlan: ${error.message}`);
+    if (error instanceof UnknownBandPlanError) throw new CapacityRequestError(`bandPlan: ${error.message}`);
     throw error;
   }
 }
@@ -245,19 +265,19 @@ function scenarioBandPlan(id: string): BandPlan {
 /** The stand-alone scenario: every group heard by one gateway at full link probability. */
 export function capacityScenario(raw: unknown): ScenarioAnswer {
   const parsed = capacityScenarioSchema.safeParse(raw);
-  if (!parsed.success) throw new CapacityInputError(describeScenarioError(parsed.error));
+  if (!parsed.success) throw new CapacityRequestError(describeScenarioError(parsed.error));
   const input = parsed.data;
   const plan = scenarioBandPlan(input.bandPlan);
   let total = 0;
   input.groups.forEach((group, k) => {
     const allowed = uplinkSfsFor(plan, group.bandwidthKhz);
     const entry = allowed.find((a) => a.sf === group.sf);
-    if (!entry) throw new CapacityInputError(`groups[${k}].sf: SF${group.sf} is not an uplink SF of ${plan.id} at ${group.bandwidthKhz} kHz (allowed: ${allowed.map((a) => a.sf).join(', ')})`);
+    if (!entry) throw new CapacityRequestError(`groups[${k}].sf: SF${group.sf} is not an uplink SF of ${plan.id} at ${group.bandwidthKhz} kHz (allowed: ${allowed.map((a) => a.sf).join(', ')})`);
     if (entry.maxAppPayloadBytes !== null && group.payloadBytes > entry.maxAppPayloadBytes)
-      throw new CapacityInputError(`groups[${k}].payloadBytes: ${group.payloadBytes} bytes exceed the ${entry.maxAppPayloadBytes}-byte LoRaWAN maximum at SF${group.sf} in ${plan.id}`);
+      throw new CapacityRequestError(`groups[${k}].payloadBytes: ${group.payloadBytes} bytes exceed the ${entry.maxAppPayloadBytes}-byte LoRaWAN maximum at SF${group.sf} in ${plan.id}`);
     total += group.nodes;
   });
-  if (total > MAX_SCENARIO_NODES) throw new CapacityInputError(`groups: ${total} nodes in all, at most ${MAX_SCENARIO_NODES}`);
+  if (total > MAX_SCENARIO_NODES) throw new CapacityRequestError(`groups: ${total} nodes in all, at most ${MAX_SCENARIO_NODES}`);
   const channels = input.channels ?? Math.max(1, ...input.groups.map((g) => uplinkChannelCount(plan, g.sf, g.bandwidthKhz)));
   const nodes: CapacityNodeInput[] = [];
   const groupOf: number[] = [];
@@ -269,7 +289,7 @@ export function capacityScenario(raw: unknown): ScenarioAnswer {
       groupOf.push(k);
     }
   });
-  const result = assessCapacity(
+  const result = assess(
     { bandPlan: plan, channels, gatewayCount: 1, nodes, confirmedShare: input.confirmedShare },
     { model: input.model, durationS: input.durationS ?? DEFAULT_DURATION_S, seed: input.seed ?? DEFAULT_SEED, captureThresholdDb: input.captureThresholdDb ?? DEFAULT_CAPTURE_THRESHOLD_DB },
   );

@@ -10,11 +10,12 @@ import type { PlanRow } from '../db/repositories/plans.ts';
 import { listSitesForPlan, priceCatalogRows, teamName, type SiteListRow } from '../db/repositories/scenarios.ts';
 import { gatewayConnectors, nodeConnectors, type LinkEngine, type NodeLinksOutcome, type PlanContext } from '../jobs/link-engine.ts';
 import { installCautions } from '../planning/check.ts';
+import { planCapacity, type PlanCapacity } from './capacity.ts';
+import { describeSpread, planningSpread } from '../planning/spread.ts';
 import type { LinkResult } from '../planning/link.ts';
 import type { LinkStatus } from '../planning/status.ts';
 import { builtInConnectors } from '../radio/feedlines.ts';
 import { billOfMaterials, DEFAULT_GATEWAY_UNIT_COST_USD, endKitCostUsd, type BillOfMaterials, type PriceCatalog, type PricedEnd } from '../report/bom.ts';
-import { fleetReferenceSpread } from '../planning/settings.ts';
 
 /** Gateways that hear a node: links with margin ≥ 0 dB at the SF the node uses (the fleet table's `gatewaysHeard`). */
 export function gatewaysHeard(links: readonly LinkResult[]): number {
@@ -123,6 +124,19 @@ export interface PlanAssumptions {
   statusRule: string;
 }
 
+/** The capacity engine's plan-wide answer (server/app/capacity.ts, model "capture"), as the report shows it. */
+export interface CapacityFigures {
+  model: string;
+  method: string;
+  channels: number;
+  meanDeliveryRatio: number;
+  meanLinkDeliveryProbability: number;
+  overBudgetNodes: number;
+  gateways: Array<{ name: string; nodes: number; offeredLoadErlang: number; downlinkAirtimeShare: number }>;
+  sources: string[];
+  cautions: string[];
+}
+
 export interface PlanFigures {
   plan: { id: string; name: string; description: string; teamId: string; teamName: string };
   generatedAt: Date;
@@ -134,6 +148,8 @@ export interface PlanFigures {
   redundancy: Redundancy;
   bom: BillOfMaterials;
   risks: PlanRisks;
+  /** Network load from the capacity engine; null when the plan has no gateway to load. */
+  capacity: CapacityFigures | null;
   cautions: string[];
   warnings: string[];
 }
@@ -220,6 +236,13 @@ export async function planFigures(engine: LinkEngine, plan: PlanRow, onProgress?
   const db = engine.database;
   const ctx = await engine.planContext(plan);
   const outcomes = await engine.fleet(ctx, onProgress ? (done, total) => onProgress(total ? done / total : 1) : undefined);
+  // The capacity engine over the same fleet answer: planCapacity only asks the engine for
+  // engine.fleet(ctx), so it is handed the outcomes already in hand instead of a second pass.
+  let capacity: PlanCapacity | null = null;
+  if (ctx.gateways.length > 0 && outcomes.length > 0) {
+    const sameFleet = Object.create(engine, { fleet: { value: async () => outcomes } }) as LinkEngine;
+    capacity = await planCapacity(sameFleet, ctx, { model: 'capture' });
+  }
   const [catalog, sites, team] = await Promise.all([priceCatalog(db, plan.teamId), listSitesForPlan(db, plan.id), teamName(db, plan.teamId)]);
   const names = new Map(ctx.gateways.map((g) => [g.row.id, g.row.name]));
   const nodes = outcomes.map((outcome) => nodeFigure(ctx, outcome, names, catalog));
@@ -237,7 +260,15 @@ export async function planFigures(engine: LinkEngine, plan: PlanRow, onProgress?
     if (node.status === 'unserved') risks.unserved.push({ nodeId: node.id, nodeName: node.name, detail: node.bestMarginDb === null ? 'no gateway within range' : `best margin ${dec(node.bestMarginDb)} dB` });
     if (node.gatewaysHeard === 1) risks.singleGateway.push({ nodeId: node.id, nodeName: node.name, detail: `only ${node.bestGatewayName ?? 'one gateway'} hears it (margin ${dec(node.bestMarginDb)} dB)` });
     if (!node.legal) risks.illegal.push({ nodeId: node.id, nodeName: node.name, detail: `radiated power over the ${ctx.settings.bandPlan.name} limit on at least one link` });
-    if (node.overDutyCycle) risks.overDutyCycle.push({ nodeId: node.id, nodeName: node.name, detail: `${node.messagesPerHour} messages/h, the duty cycle allows ${dec(node.dutyCycleMessagesPerHour)} at SF${node.sf}` });
+    if (!capacity && node.overDutyCycle) risks.overDutyCycle.push({ nodeId: node.id, nodeName: node.name, detail: `${node.messagesPerHour} messages/h, the duty cycle allows ${dec(node.dutyCycleMessagesPerHour)} at SF${node.sf}` });
+  }
+  if (capacity) {
+    // With a capacity answer, its duty-cycle and dwell budget per node is the one the risk list uses.
+    for (const c of capacity.nodes) {
+      if (!c.overBudget) continue;
+      const allowed = c.maxMessagesPerHourAtDutyCycle ?? c.maxMessagesPerHourAtDwell;
+      risks.overDutyCycle.push({ nodeId: c.nodeId, nodeName: c.nodeName, detail: `${dec(c.messagesPerHour)} messages/h at SF${c.sf ?? '–'}; the band plan allows ${dec(allowed)} per hour` });
+    }
   }
   const ends: PricedEnd[] = [
     ...outcomes.map((o) => ({
@@ -265,6 +296,8 @@ export async function planFigures(engine: LinkEngine, plan: PlanRow, onProgress?
   const gatewayIds = new Set(ctx.gateways.map((g) => g.row.siteId).filter((id): id is string => !!id));
   const bom = billOfMaterials(ends, catalog, { gatewayUnitCostUsd: gatewayUnitCost(plan), sites: sites.map((s: SiteListRow) => ({ id: s.id, name: s.name, costUsd: s.costUsd })) });
   const s = ctx.settings;
+  // The fleet table's plan-wide σ (a node at 1.5 m in the open); each link carries its own.
+  const spread = planningSpread({ ...s.spread, frequencyMhz: s.frequencyMhz, nodeAntennaHeightAglM: 1.5, nodeClutterHeightM: 0 });
   return {
     plan: { id: plan.id, name: plan.name, description: plan.description, teamId: plan.teamId, teamName: team },
     generatedAt: new Date(),
@@ -277,9 +310,8 @@ export async function planFigures(engine: LinkEngine, plan: PlanRow, onProgress?
       method: s.path.method,
       targetMarginDb: s.targetMarginDb,
       targetDelivery: s.targetDelivery,
-      // The plan-wide σ the fleet table quotes (server/planning/settings.ts fleetReferenceSpread).
-      sigmaDb: fleetReferenceSpread(s).sigmaDb,
-      sigmaSource: fleetReferenceSpread(s).sigmaSource,
+      sigmaDb: spread.sigmaDb,
+      sigmaSource: `${spread.sigmaSource}: ${describeSpread(spread, s.spread)}`,
       gatewayCorrelation: s.gatewayCorrelation,
       maxLinkRangeKm: s.maxLinkRangeM / 1000,
       maxEirpDbm: s.maxEirpDbm,
@@ -307,6 +339,19 @@ export async function planFigures(engine: LinkEngine, plan: PlanRow, onProgress?
     redundancy,
     bom,
     risks,
+    capacity: capacity
+      ? {
+          model: capacity.model,
+          method: capacity.method,
+          channels: capacity.channels,
+          meanDeliveryRatio: capacity.totals.meanDeliveryRatio,
+          meanLinkDeliveryProbability: capacity.totals.meanLinkDeliveryProbability,
+          overBudgetNodes: capacity.totals.overBudgetNodes,
+          gateways: capacity.gateways.map((g) => ({ name: g.gatewayName, nodes: g.nodes, offeredLoadErlang: g.offeredLoadErlang, downlinkAirtimeShare: g.downlink.airtimeShare })),
+          sources: capacity.sources,
+          cautions: capacity.cautions,
+        }
+      : null,
     cautions: installCautions(s.bandPlan.cautions),
     warnings: [...ctx.warnings],
   };

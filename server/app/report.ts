@@ -11,7 +11,7 @@ import { allTerrainLayers } from '../db/repositories/terrain-layers.ts';
 import { RESULT_FILES, resolveFilePath, resultDir, type CoverageJobParams } from '../jobs/coverage-job.ts';
 import type { LinkEngine } from '../jobs/link-engine.ts';
 import { openGeoRaster, type GeoRaster } from '../terrain/raster.ts';
-import { fitView, paddedBox, renderMapTiles } from '../report/map.ts';
+import { composeMapImage, fitView, paddedBox, renderMapTiles } from '../report/map.ts';
 import { renderReportPdf, type ReportModel } from '../report/pdf.ts';
 import { exportFileName } from './exports.ts';
 import { planFigures, type PlanFigures } from './plan-figures.ts';
@@ -80,6 +80,18 @@ async function latestMargin(engine: LinkEngine, config: Config, planId: string):
   return { raster, description: `Coverage run ${run.id} (${params.mode ?? '?'} mode, ${gateways} gateway(s), radius ${params.radiusKm ?? '?'} km, SF${params.sf ?? '?'}, node antenna ${params.targetHeightM ?? '?'} m AGL), finished ${when} UTC.` };
 }
 
+function capacityRows(f: PlanFigures): Array<[string, string]> | null {
+  const c = f.capacity;
+  if (!c) return null;
+  return [
+    ['Uplink channels', String(c.channels)],
+    ['Mean delivery ratio (links and collisions)', `${(c.meanDeliveryRatio * 100).toFixed(1)} %`],
+    ['Mean link delivery (collisions aside)', `${(c.meanLinkDeliveryProbability * 100).toFixed(1)} %`],
+    ['Nodes over the duty-cycle or dwell budget', String(c.overBudgetNodes)],
+    ...c.gateways.map((g): [string, string] => [`Gateway ${g.name}`, `${g.nodes} nodes heard, offered load ${g.offeredLoadErlang.toFixed(3)} erlang, downlink airtime ${(g.downlinkAirtimeShare * 100).toFixed(2)} %`]),
+  ];
+}
+
 export interface PlanReportOptions {
   onProgress?: (fraction: number) => void;
 }
@@ -95,7 +107,7 @@ export async function planReport(engine: LinkEngine, config: Config, plan: PlanR
     if (box) {
       const view = fitView(box, MAP_WIDTH_PX, MAP_HEIGHT_PX);
       const tiles = await renderMapTiles(view, elevation, margin?.raster ?? null);
-      map = { view, tiles, coverage: margin?.description ?? null, terrain: figures.assumptions.terrain };
+      map = { view, image: composeMapImage(view, tiles), coverage: margin?.description ?? null, terrain: figures.assumptions.terrain };
     }
     options.onProgress?.(0.9);
     const model: ReportModel = {
@@ -109,14 +121,15 @@ export async function planReport(engine: LinkEngine, config: Config, plan: PlanR
       gateways: figures.gateways,
       sites: figures.sites,
       map,
-      // Seam for the capacity engine (issue 14): its per-plan figures go here when a result exists.
-      capacity: null,
-      capacityNote: 'No capacity result for this plan: network load, collisions and gateway airtime are not assessed in this report. The duty-cycle check per node (band plan rule, at the SF used) is in the risk list below.',
+      capacity: capacityRows(figures),
+      capacityNote: figures.capacity
+        ? `Model: ${figures.capacity.method}. ${figures.capacity.cautions.join(' ')} Sources: ${figures.capacity.sources.join('; ')}.`
+        : 'No capacity figures: the plan has no gateway (or no node) to load. The duty-cycle check per node (band plan rule, at the SF used) is in the risk list.',
       risks: [
         { title: 'Unserved nodes', explanation: 'Best margin below 0 dB: messages get through less than half the time.', entries: figures.risks.unserved },
         { title: 'Heard by a single gateway', explanation: 'One gateway hears these nodes with margin ≥ 0 dB: a fault or outage at that gateway loses them.', entries: figures.risks.singleGateway },
         { title: 'Illegal configurations', explanation: `Radiated power above the ${figures.assumptions.bandPlanName} limit on at least one link: reduce transmit power or antenna gain.`, entries: figures.risks.illegal },
-        { title: 'Over the duty cycle', explanation: 'More messages per hour than the band plan’s duty-cycle rule allows at the SF the node uses.', entries: figures.risks.overDutyCycle },
+        { title: 'Over the duty cycle', explanation: figures.capacity ? 'More messages per hour than the band plan’s duty-cycle (or dwell-time) budget allows at the SF the node uses (capacity engine).' : 'More messages per hour than the band plan’s duty-cycle rule allows at the SF the node uses.', entries: figures.risks.overDutyCycle },
       ],
       bom: figures.bom,
       assumptions: assumptionsOf(figures),

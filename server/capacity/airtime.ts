@@ -45,6 +45,19 @@ export function ackTimeOnAirMs(sf: number, bandwidthKhz: number, codingRate: Cod
   return timeOnAirMs({ spreadingFactor: sf, bandwidthKhz, codingRate, payloadBytes: ACK_PHY_PAYLOAD_BYTES, preambleSymbols, explicitHeader: true, crcOn: false }).timeOnAirMs;
 }
 
+/**
+ * Bandwidth of the RX1 reply to an uplink of `uplinkBandwidthKhz`: plans whose downlinks use
+ * 500 kHz channels (US915, AU915: RX1 data rate = the uplink's SF at 500 kHz with the default
+ * RX1 offset, from memory of the Regional Parameters) reply at 500 kHz; EU-style plans reply on
+ * the uplink channel at the uplink's bandwidth.
+ */
+export function rx1BandwidthKhz(plan: BandPlan, uplinkBandwidthKhz: number): number {
+  const lorawan = plan.lorawan;
+  if (!lorawan) return uplinkBandwidthKhz;
+  const rx2 = lorawan.dataRates.find((rate) => rate.dr === lorawan.rx2.dr);
+  return rx2 && rx2.modulation === 'lora' && rx2.bandwidthKhz === 500 ? 500 : uplinkBandwidthKhz;
+}
+
 /** Uplink channels of the band plan's LoRaWAN default list that carry a LoRa data rate of this SF and bandwidth. */
 export function uplinkChannelCount(plan: BandPlan, sf: number, bandwidthKhz: number): number {
   const lorawan = plan.lorawan;

@@ -10,7 +10,7 @@
 // Plain inputs in, plain outputs out: the API, the CLI and siting call this.
 import type { BandPlan } from '../radio/band-plans.ts';
 import { combinedDeliveryProbability } from '../planning/probability.ts';
-import { ackTimeOnAirMs, airtimeBudget, uplinkRules, type UplinkRules } from './airtime.ts';
+import { ackTimeOnAirMs, airtimeBudget, rx1BandwidthKhz, uplinkRules, type UplinkRules } from './airtime.ts';
 import { analyticSurvival, downlinkTerms, heardLoad } from './analytic.ts';
 import { DEFAULT_CAPTURE_THRESHOLD_DB, INTER_SF_SOURCE, sirThresholdTable } from './interference.ts';
 import { simulate, type SimulationResult } from './simulate.ts';
@@ -146,7 +146,7 @@ export function assessCapacity(scenario: CapacityScenario, options: CapacityOpti
   if (!Number.isInteger(seed)) throw new CapacityInputError(`seed: must be a whole number (got ${seed})`);
 
   const plan = scenario.bandPlan;
-  const traffic = buildTraffic(scenario.nodes, scenario.gatewayCount, scenario.channels, (sf, bw) => ackTimeOnAirMs(sf, bw));
+  const traffic = buildTraffic(scenario.nodes, scenario.gatewayCount, scenario.channels, (sf, bw) => ackTimeOnAirMs(sf, rx1BandwidthKhz(plan, bw)));
   const rulesByBw = traffic.bandwidthsKhz.map((bw) => uplinkRules(plan, bw));
   const rules = rulesByBw[0] ?? uplinkRules(plan, 125);
   const sirTable = sirThresholdTable(captureThresholdDb);

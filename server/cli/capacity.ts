@@ -3,7 +3,8 @@
 // at one gateway. The work is in server/app/capacity.ts (capacityScenario) and
 // the pure engine server/capacity/; this file reads the input and prints.
 import { z } from 'zod';
-import { capacityScenario, CapacityInputError, type ScenarioAnswer } from '../app/capacity.ts';
+import { capacityScenario, type ScenarioAnswer } from '../app/capacity.ts';
+import { isAppError } from '../app/errors.ts';
 import { CliUsageError, defineCommand, stringOption, type CliCommand } from './framework.ts';
 import { readInput } from './propagation.ts';
 
@@ -17,7 +18,7 @@ export const capacityCommands: CliCommand[] = [
       try {
         return capacityScenario(raw);
       } catch (error) {
-        if (error instanceof CapacityInputError) throw new CliUsageError(error.message);
+        if (isAppError(error)) throw new CliUsageError(error.message);
         throw error;
       }
     },

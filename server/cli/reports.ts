@@ -9,7 +9,8 @@ import { resolve } from 'node:path';
 import { z } from 'zod';
 import { loadConfig } from '../config.ts';
 import { dataFolderHolder, openDatabase } from '../db/client.ts';
-import { LinkEngine, LinkInputError } from '../jobs/link-engine.ts';
+import { LinkEngine } from '../jobs/link-engine.ts';
+import { isAppError } from '../app/errors.ts';
 import { PlanSettingsError } from '../planning/settings.ts';
 import { reportFile, type ReportFile, type ReportFileInput } from '../app/report-files.ts';
 import { CliUsageError, defineCommand, stringOption, type CliCommand } from './framework.ts';
@@ -31,7 +32,7 @@ export async function fetchReportFile(input: ReportFileInput, env: NodeJS.Proces
   try {
     return await reportFile(engine, config, input);
   } catch (error) {
-    if (error instanceof LinkInputError || error instanceof PlanSettingsError) throw new CliUsageError(error.message);
+    if (isAppError(error) || error instanceof PlanSettingsError) throw new CliUsageError(error.message);
     throw error;
   } finally {
     await engine.close();

@@ -93,7 +93,7 @@ export function meetsKitTarget(evaluation: KitEvaluation, target: KitTarget): bo
 /**
  * Price of one kit: antenna + mast + feedline per metre × length, USD, to the cent.
  * The one kit price: the recommendation ranks by it and the bill of materials
- * (server/report/bom.ts) sums it.
+ * (server/report/bom.ts) sums it, and siting prices its candidates' kit with it.
  */
 export function kitCostUsd(antennaCostUsd: number, mastCostUsd: number, feedlineCostUsdPerM: number, feedlineLengthM: number): number {
   return round2(antennaCostUsd + mastCostUsd + feedlineCostUsdPerM * feedlineLengthM);

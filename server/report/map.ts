@@ -7,6 +7,7 @@ import { renderMarginTile } from '../coverage/tiles.ts';
 import { mercatorPixelSizeM } from '../terrain/hillshade.ts';
 import type { GeoRaster } from '../terrain/raster.ts';
 import { renderHillshadeTile, TILE_SIZE_PX } from '../terrain/tiles.ts';
+import { decodePng, encodePng } from '../terrain/png.ts';
 
 export interface LonLatBox {
   west: number;
@@ -47,21 +48,31 @@ export function paddedBox(points: Iterable<{ lat: number; lon: number }>, padSha
 }
 
 /**
- * The deepest zoom (≤ 16) at which the box fits in maxWidthPx × maxHeightPx, centred,
- * with the view grown to the frame's aspect ratio.
+ * A view of the box for a frame of maxWidthPx × maxHeightPx: the deepest zoom (≤ 16) at which
+ * the box fits in 1.5 × the frame (so the box fills the frame at 1–1.5 × the nominal pixel
+ * density instead of leaving it half empty), the view grown to the frame's aspect ratio around
+ * the box's centre.
  */
 export function fitView(box: LonLatBox, maxWidthPx: number, maxHeightPx: number): MapView {
+  const grow = 1.5;
   let zoom = 16;
   for (; zoom > 0; zoom--) {
     const nw = lonLatToGlobalPx(box.west, box.north, zoom);
     const se = lonLatToGlobalPx(box.east, box.south, zoom);
-    if (se.x - nw.x <= maxWidthPx && se.y - nw.y <= maxHeightPx) break;
+    if (se.x - nw.x <= maxWidthPx * grow && se.y - nw.y <= maxHeightPx * grow) break;
   }
   const nw = lonLatToGlobalPx(box.west, box.north, zoom);
   const se = lonLatToGlobalPx(box.east, box.south, zoom);
+  const aspect = maxWidthPx / maxHeightPx;
+  let widthPx = Math.max(se.x - nw.x, maxWidthPx / grow);
+  let heightPx = Math.max(se.y - nw.y, maxHeightPx / grow);
+  if (widthPx / heightPx > aspect) heightPx = widthPx / aspect;
+  else widthPx = heightPx * aspect;
+  widthPx = Math.ceil(widthPx);
+  heightPx = Math.round(widthPx / aspect);
   const cx = (nw.x + se.x) / 2;
   const cy = (nw.y + se.y) / 2;
-  return { zoom, x0: Math.round(cx - maxWidthPx / 2), y0: Math.round(cy - maxHeightPx / 2), widthPx: maxWidthPx, heightPx: maxHeightPx };
+  return { zoom, x0: Math.round(cx - widthPx / 2), y0: Math.round(cy - heightPx / 2), widthPx, heightPx };
 }
 
 /** Position of a point inside the view, pixels from its top-left corner. */
@@ -103,4 +114,48 @@ export async function renderMapTiles(view: MapView, elevation: GeoRaster[], marg
     }
   }
   return tiles;
+}
+
+/** Paper colour where there is no terrain (a light grey, so the frame reads in grey print). */
+const BACKGROUND = 0xf4;
+
+/**
+ * The tiles composited into one RGB image of the view: hillshade grey where there is
+ * terrain, the margin colours over it at their own opacity, light grey elsewhere.
+ * One opaque RGB PNG embeds in a PDF as it is (no alpha channel to split), which keeps
+ * the report fast and small.
+ */
+export function composeMapImage(view: MapView, tiles: readonly MapTile[]): Uint8Array {
+  const w = view.widthPx;
+  const hPx = view.heightPx;
+  const rgb = new Uint8Array(w * hPx * 3).fill(BACKGROUND);
+  const place = (png: Uint8Array, tileX: number, tileY: number, layer: 'shade' | 'margin') => {
+    const { pixels, colour, widthPx, heightPx } = decodePng(png);
+    const channels = colour === 'grey-alpha' ? 2 : colour === 'rgba' ? 4 : colour === 'rgb' ? 3 : 1;
+    for (let ty = 0; ty < heightPx; ty++) {
+      const y = tileY + ty;
+      if (y < 0 || y >= hPx) continue;
+      for (let tx = 0; tx < widthPx; tx++) {
+        const x = tileX + tx;
+        if (x < 0 || x >= w) continue;
+        const k = (ty * widthPx + tx) * channels;
+        const o = (y * w + x) * 3;
+        if (layer === 'shade') {
+          if (channels === 2 && pixels[k + 1] === 0) continue;
+          // Lift the shade toward white a little so symbols and margin colours stay readable on it.
+          const grey = 70 + Math.round(pixels[k] * 0.72);
+          rgb[o] = grey;
+          rgb[o + 1] = grey;
+          rgb[o + 2] = grey;
+        } else {
+          const alpha = channels === 4 ? pixels[k + 3] / 255 : 1;
+          if (alpha === 0) continue;
+          for (let c = 0; c < 3; c++) rgb[o + c] = Math.round(pixels[k + c] * alpha + rgb[o + c] * (1 - alpha));
+        }
+      }
+    }
+  };
+  for (const tile of tiles) if (tile.hillshadePng) place(tile.hillshadePng, tile.x, tile.y, 'shade');
+  for (const tile of tiles) if (tile.marginPng) place(tile.marginPng, tile.x, tile.y, 'margin');
+  return encodePng(w, hPx, rgb, 'rgb');
 }

@@ -8,7 +8,7 @@ import PDFDocument from 'pdfkit';
 import { MARGIN_CLASSES } from '../coverage/tiles.ts';
 import type { LinkStatus } from '../planning/status.ts';
 import type { BillOfMaterials } from './bom.ts';
-import { metresPerPx, type MapTile, type MapView, viewPx } from './map.ts';
+import { metresPerPx, type MapView, viewPx } from './map.ts';
 import { GATEWAY_COLOUR, SITE_COLOUR, STATUS_STYLE } from './style.ts';
 
 export interface ReportNode {
@@ -34,7 +34,8 @@ export interface ReportModel {
   nodes: ReportNode[];
   gateways: Array<{ name: string; lat: number; lon: number; bestServerOf: number; antennaHeightAglM: number }>;
   sites: Array<{ name: string; lat: number; lon: number; hasGateway: boolean }>;
-  map: { view: MapView; tiles: MapTile[]; coverage: string | null; terrain: string } | null;
+  /** The composited map image (RGB PNG of view.widthPx × view.heightPx, see composeMapImage). */
+  map: { view: MapView; image: Uint8Array; coverage: string | null; terrain: string } | null;
   /** Capacity figures as label/value pairs, or null when no capacity result exists (the text says so). */
   capacity: Array<[string, string]> | null;
   capacityNote: string;
@@ -177,17 +178,27 @@ class ReportWriter {
 
   /** Status symbol centred at (x, y), radius r pt, white halo (the map's shapes). */
   statusSymbol(status: LinkStatus, x: number, y: number, r: number): void {
+    this.statusSymbols(status, [{ x, y }], r);
+  }
+
+  /**
+   * Many symbols of one status: every halo in one path and one stroke, then every shape in
+   * one path and one fill (two drawing operations per status, not two per node).
+   */
+  statusSymbols(status: LinkStatus, points: ReadonlyArray<{ x: number; y: number }>, r: number): void {
+    if (points.length === 0) return;
     const doc = this.doc;
-    const colour = STATUS_STYLE[status].colour;
     const path = () => {
-      if (status === 'served') doc.circle(x, y, r);
-      else if (status === 'marginal') doc.polygon([x, y - r * 1.15], [x + r * 1.15, y], [x, y + r * 1.15], [x - r * 1.15, y]);
-      else doc.polygon([x - r * 1.1, y - r * 0.8], [x + r * 1.1, y - r * 0.8], [x, y + r * 1.1]);
+      for (const { x, y } of points) {
+        if (status === 'served') doc.circle(x, y, r);
+        else if (status === 'marginal') doc.polygon([x, y - r * 1.15], [x + r * 1.15, y], [x, y + r * 1.15], [x - r * 1.15, y]);
+        else doc.polygon([x - r * 1.1, y - r * 0.8], [x + r * 1.1, y - r * 0.8], [x, y + r * 1.1]);
+      }
     };
     path();
     doc.lineWidth(Math.max(0.6, r * 0.45)).strokeColor('#ffffff').stroke();
     path();
-    doc.fillColor(colour).fill();
+    doc.fillColor(STATUS_STYLE[status].colour).fill();
   }
 
   gatewaySymbol(x: number, y: number, s: number): void {
@@ -256,24 +267,14 @@ function mapPage(w: ReportWriter, m: ReportModel): void {
     w.para('No map: the plan has no nodes, gateways or sites to place.');
     return;
   }
-  const { view, tiles } = m.map;
+  const { view } = m.map;
   const frameW = CONTENT_W;
   const scale = frameW / view.widthPx;
   const frameH = view.heightPx * scale;
   const top = doc.y;
   doc.save();
   doc.rect(MARGIN, top, frameW, frameH).clip();
-  doc.rect(MARGIN, top, frameW, frameH).fill('#f4f4f4');
-  for (const tile of tiles) {
-    const x = MARGIN + tile.x * scale;
-    const y = top + tile.y * scale;
-    if (tile.hillshadePng) doc.image(Buffer.from(tile.hillshadePng), x, y, { width: 256 * scale, height: 256 * scale });
-  }
-  for (const tile of tiles) {
-    const x = MARGIN + tile.x * scale;
-    const y = top + tile.y * scale;
-    if (tile.marginPng) doc.image(Buffer.from(tile.marginPng), x, y, { width: 256 * scale, height: 256 * scale });
-  }
+  doc.image(Buffer.from(m.map.image), MARGIN, top, { width: frameW, height: frameH });
   const at = (lat: number, lon: number) => {
     const p = viewPx(view, lat, lon);
     return { x: MARGIN + p.x * scale, y: top + p.y * scale };
@@ -286,11 +287,7 @@ function mapPage(w: ReportWriter, m: ReportModel): void {
   // Unserved drawn last so the nodes at risk stay on top; size falls a little for big fleets.
   const r = m.nodes.length > 2000 ? 1.6 : m.nodes.length > 300 ? 2.3 : 3.2;
   for (const status of ['served', 'marginal', 'unserved'] as const) {
-    for (const node of m.nodes) {
-      if (node.status !== status) continue;
-      const p = at(node.lat, node.lon);
-      w.statusSymbol(status, p.x, p.y, r);
-    }
+    w.statusSymbols(status, m.nodes.filter((node) => node.status === status).map((node) => at(node.lat, node.lon)), r);
   }
   for (const g of m.gateways) {
     const p = at(g.lat, g.lon);
@@ -342,16 +339,17 @@ function mapPage(w: ReportWriter, m: ReportModel): void {
   doc.x = MARGIN;
   if (m.map.coverage) {
     const cy = doc.y;
-    doc.font('bold').fontSize(8.5).fillColor('#000').text(w.t('Predicted margin (coverage run):'), MARGIN, cy, { lineBreak: false });
-    let x = MARGIN + 150;
+    doc.font('bold').fontSize(8.5).fillColor('#000').text(w.t('Predicted margin at the coverage run’s SF (received power − sensitivity):'), MARGIN, cy, { lineBreak: false });
+    const by = cy + 13;
+    let x = MARGIN;
     for (const cls of MARGIN_CLASSES) {
       const label = w.t(cls.label.split(':')[0]);
-      doc.rect(x, cy, 12, 9).lineWidth(0.4).fillAndStroke(cls.colour, '#333');
-      doc.fillColor('#000').font('body').fontSize(7.5).text(`${label} dB`.replace('dB dB', 'dB'), x + 15, cy + 1, { lineBreak: false });
+      doc.rect(x, by, 12, 9).lineWidth(0.4).fillAndStroke(cls.colour, '#333');
+      doc.fillColor('#000').font('body').fontSize(7.5).text(`${label} dB`.replace('dB dB', 'dB'), x + 15, by + 1, { lineBreak: false });
       x += 15 + doc.widthOfString(`${label} dB`) + 10;
     }
     doc.x = MARGIN;
-    doc.y = cy + 14;
+    doc.y = by + 14;
     w.para(`${m.map.coverage} Darker = more margin; uncoloured = below −5 dB, outside the run's radius, or no terrain.`, { size: 8.5, colour: '#222' });
   } else {
     w.para('No finished coverage run yet: the map shows the terrain and the nodes’ predicted status only. Start a coverage run from the map to add predicted margin.', { size: 8.5, colour: '#222' });

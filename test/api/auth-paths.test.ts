@@ -82,7 +82,7 @@ describe('every operation of the OpenAPI document needs a token under every spel
         operations.push({ method: method.toUpperCase(), path: template.replace(/\{[^}]+\}/g, 'a1b2c3') });
       }
     }
-  }, 60_000);
+  }, 180_000);
   afterAll(async () => t?.close());
 
   it('walks at least the core operations', () => {

@@ -85,6 +85,12 @@ describeEngines('capacity API', (engine: Engine) => {
     expect(doubled.body.rateScale).toBe(2);
     expect(doubled.body.gateways[0].offeredLoadErlang).toBeCloseTo(2 * base.body.gateways[0].offeredLoadErlang, 9);
     expect(doubled.body.totals.meanDeliveryRatio).toBeLessThan(base.body.totals.meanDeliveryRatio);
+    // What-if of the channel count: the same traffic over 8 channels instead of 3 loads each channel 3/8 as much.
+    const eight = await request(t.app.server).get(`/api/v1/plans/${planId}/capacity?model=aloha&channels=8`).set(viewer);
+    expect(eight.status).toBe(200);
+    expect(eight.body.channels).toBe(8);
+    expect(eight.body.gateways[0].offeredLoadErlangPerChannel).toHaveLength(8);
+    expect(eight.body.gateways[0].offeredLoadErlangPerChannel[0]).toBeCloseTo((base.body.gateways[0].offeredLoadErlangPerChannel[0] * 3) / 8, 9);
     const one = await request(t.app.server).get(`/api/v1/plans/${planId}/capacity?model=simulate&seed=5&durationS=1800&confirmedShare=0.5`).set(viewer);
     const two = await request(t.app.server).get(`/api/v1/plans/${planId}/capacity?model=simulate&seed=5&durationS=1800&confirmedShare=0.5`).set(viewer);
     expect(one.status).toBe(200);

@@ -22,7 +22,7 @@ describeEngines('a failed COMMIT is an error', (engine) => {
       END $$;
       CREATE CONSTRAINT TRIGGER plan_refuse_at_commit AFTER INSERT ON "Plan" DEFERRABLE INITIALLY DEFERRED FOR EACH ROW EXECUTE FUNCTION refuse_at_commit();
     `);
-  }, 60_000);
+  }, 180_000);
   afterAll(async () => t?.close());
   beforeEach(async () => {
     await t.reset();

@@ -56,7 +56,7 @@ describeEngines('hostile input answers 400 naming the field', (engine) => {
   beforeAll(async () => {
     t = await createTestApp(engine);
     http = request(t.app.server);
-  }, 60_000);
+  }, 180_000);
   afterAll(async () => t?.close());
   beforeEach(async () => t.reset());
   const planner = () => bearer(t.tokens.planner);
@@ -146,7 +146,7 @@ describe('414 and 431 in our error shape', () => {
     t = await createTestApp('pglite');
     await t.app.listen({ port: 0, host: '127.0.0.1' });
     port = (t.app.server.address() as AddressInfo).port;
-  }, 60_000);
+  }, 180_000);
   afterAll(async () => t?.close());
 
   function raw(text: string): Promise<{ status: number; body: string }> {

@@ -481,8 +481,8 @@ describe('map front end (chromium)', () => {
       expect(await p.locator('#install-status-line').textContent()).toContain('install status: installed');
       const stored = await p.evaluate(
         async ([plan, node]) => {
-          const token = sessionStorage.getItem('earshot.token') ?? '';
-          const r = await fetch(`/api/v1/plans/${plan}/nodes/${node}`, { headers: { authorization: `Bearer ${token}` } });
+          // The pasted token was exchanged for the session cookie (POST /signin).
+          const r = await fetch(`/api/v1/plans/${plan}/nodes/${node}`);
           return ((await r.json()) as { installStatus: string }).installStatus;
         },
         [planId, installNodeId],

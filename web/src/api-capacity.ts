@@ -61,6 +61,7 @@ export interface PlanCapacity {
 export interface CapacityQuery {
   model?: CapacityModel;
   rateScale?: number;
+  channels?: number;
   confirmedShare?: number;
   seed?: number;
 }

@@ -6,9 +6,7 @@ import { z } from 'zod';
 import { applyPlanCalibration, calibrationHistory, calibrationView, CalibrationError, createPlanCalibration, importReadings, revertPlanCalibration, type ReadingImportRow, type RowProblem } from '../../app/calibration.ts';
 import { findAppliedCalibration, findCalibration } from '../../db/repositories/calibrations.ts';
 import { decodeCursor, encodeCursor } from '../../db/repositories/pagination.ts';
-import type { PlanRow } from '../../db/repositories/plans.ts';
 import { CALIBRATION_GROUPINGS } from '../../calibration/fit.ts';
-import type { PlanContext } from '../../jobs/link-engine.ts';
 import { requireRole } from '../auth.ts';
 import { ApiError } from '../errors.ts';
 import { ImportFormatError, importRecords, validateRecords, type ImportFormat } from '../node-import.ts';
@@ -147,14 +145,6 @@ export default async function calibrationRoutes(app: FastifyInstance): Promise<v
   const engine = app.linkEngine;
   const tags = ['calibration'];
 
-  async function context(plan: PlanRow): Promise<PlanContext> {
-    try {
-      return await engine.planContext(plan);
-    } catch (error) {
-      return asApiError(error);
-    }
-  }
-
   api.post(
     '/plans/:planId/readings/import',
     {
@@ -212,9 +202,8 @@ export default async function calibrationRoutes(app: FastifyInstance): Promise<v
     async (request, reply) => {
       const principal = requireRole(request, 'planner');
       const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
-      const ctx = await context(plan);
       try {
-        return reply.status(201).send(await createPlanCalibration(db, engine, principal, plan, ctx, request.body ?? {}));
+        return reply.status(201).send(await createPlanCalibration(db, engine, principal, plan, request.body ?? {}));
       } catch (error) {
         return mapError(error);
       }

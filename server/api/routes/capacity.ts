@@ -6,8 +6,7 @@
 import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import { CAPACITY_MODELS, CapacityInputError, planCapacity } from '../../app/capacity.ts';
-import { ApiError } from '../errors.ts';
+import { CAPACITY_MODELS, planCapacity } from '../../app/capacity.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
 import { errorResponses, finite, id } from '../schemas.ts';
 import { asApiError } from './links.ts';
@@ -19,6 +18,7 @@ export const capacityQuery = z.strictObject({
   durationS: coerce(finite().positive('must be > 0 s').max(86_400, 'must be ≤ 86400 s')).optional(),
   seed: coerce(finite().int('must be a whole number')).optional(),
   rateScale: coerce(finite().min(0, 'must be ≥ 0').max(100, 'must be ≤ 100')).optional(),
+  channels: coerce(finite().int('must be a whole number').min(1, 'must be ≥ 1').max(64, 'must be ≤ 64')).optional(),
   confirmedShare: coerce(finite().min(0, 'must be within 0–1').max(1, 'must be within 0–1')).optional(),
   captureThresholdDb: coerce(finite().min(-10, 'must be ≥ -10 dB').max(30, 'must be ≤ 30 dB')).optional(),
 });
@@ -93,7 +93,7 @@ export default async function capacityRoutes(app: FastifyInstance): Promise<void
     '/plans/:planId/capacity',
     {
       schema: {
-        summary: 'Network capacity: per gateway the offered load per SF and channel, collision probability and downlink airtime; per node time on air, collision survival, delivery ratio and duty-cycle budget (?model=aloha|capture|simulate, ?rateScale= for a what-if of the reporting rate)',
+        summary: 'Network capacity: per gateway the offered load per SF and channel, collision probability and downlink airtime; per node time on air, collision survival, delivery ratio and duty-cycle budget (?model=aloha|capture|simulate, ?rateScale= and ?channels= for what-ifs of the reporting rate and the channel count)',
         tags: ['capacity'],
         params: z.strictObject({ planId: id() }),
         querystring: capacityQuery,
@@ -107,7 +107,6 @@ export default async function capacityRoutes(app: FastifyInstance): Promise<void
         const ctx = await engine.planContext(plan);
         return await planCapacity(engine, ctx, { ...query, model: query.model ?? 'capture' });
       } catch (error) {
-        if (error instanceof CapacityInputError) throw new ApiError(400, 'invalid_input', error.message);
         return asApiError(error);
       }
     },

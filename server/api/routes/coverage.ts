@@ -15,6 +15,7 @@ import { allTerrainLayers } from '../../db/repositories/terrain-layers.ts';
 import { findAntennaDesignForTeam, findFeedlineForTeam } from '../../db/repositories/kit.ts';
 import { resolveLinkSettings } from '../../planning/settings.ts';
 import { planningSpread } from '../../planning/spread.ts';
+import { appliedCalibrationFigures } from '../../app/calibration.ts';
 import { sensitivityDbm } from '../../radio/lora-phy.ts';
 import { feedlineLossDb } from '../../radio/feedlines.ts';
 import { openGeoRaster, type GeoRaster } from '../../terrain/raster.ts';
@@ -26,6 +27,7 @@ import { resolveFilePath, resultDir, RESULT_FILES, type CoverageJobParams } from
 import { requireRole } from '../auth.ts';
 import { ApiError } from '../errors.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
+import { streamRunProgress } from '../run-events.ts';
 import { dateTime, errorResponses, finite, id, pageOf, pageQuery, planParams } from '../schemas.ts';
 
 const runParams = z.strictObject({ planId: id(), runId: id() });
@@ -176,7 +178,9 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
       const principal = requireRole(request, 'planner');
       const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
       const body = request.body;
-      const settings = resolveLinkSettings(plan);
+      // An applied calibration (server/app/calibration.ts) shifts every cell by its bias and gives the spread.
+      const calibration = await appliedCalibrationFigures(db, plan.id);
+      const settings = resolveLinkSettings(plan, { calibration });
       const planGateways = await allPages<GatewayRow>((cursor) => listGateways(db, plan.id, { limit: 1000, cursor }));
       let gateways = planGateways;
       if (body.gatewayIds) {
@@ -270,7 +274,7 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
           lon: g.lon,
           heightAglM: g.antennaHeightAglM,
           // Uplink budget: node EIRP + gateway antenna gain − gateway feedline (the path is reciprocal).
-          fixedDbm: nodeTxPowerDbm + nodeAntennaGainDbi - nodeLossDb + antenna.gainDbi - gatewayLossDb,
+          fixedDbm: nodeTxPowerDbm + nodeAntennaGainDbi - nodeLossDb + antenna.gainDbi - gatewayLossDb + (calibration?.biasDb ?? 0),
           sensitivityDbmBySf: sfs.map((sf) => sensitivityDbm(sf, settings.bandwidthKhz, g.noiseFigureDb)),
         });
       }
@@ -338,26 +342,10 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
 
   api.get('/plans/:planId/coverage/:runId/events', { schema: { summary: 'Progress of a run as server-sent events until it finishes (text/event-stream)', tags, params: runParams } }, async (request, reply) => {
     const { plan, run } = await loadRun(request, request.params.planId, request.params.runId);
-    reply.hijack();
-    const res = reply.raw;
-    res.writeHead(200, { 'content-type': 'text/event-stream', 'cache-control': 'no-cache', connection: 'keep-alive' });
-    let last = '';
-    let current: CoverageRunRow | null = run;
-    let open = true;
-    request.raw.on('close', () => (open = false));
-    while (open && current) {
-      const view = runView(current);
-      const line = JSON.stringify({ status: view.status, progress: view.progress, error: view.error });
-      if (line !== last) {
-        res.write(`event: progress\ndata: ${line}\n\n`);
-        last = line;
-      }
-      if (['done', 'failed', 'cancelled'].includes(current.status)) break;
-      await new Promise((resolve) => setTimeout(resolve, 500));
-      current = await findCoverageRun(db, plan.id, run.id);
-    }
-    if (open) res.write(`event: end\ndata: {}\n\n`);
-    res.end();
+    await streamRunProgress(request, reply, runView(run), async () => {
+      const current = await findCoverageRun(db, plan.id, run.id);
+      return current ? runView(current) : null;
+    });
   });
 
   api.post('/plans/:planId/coverage/:runId/cancel', { schema: { summary: 'Cancel a queued or running coverage run', tags, params: runParams, response: { 200: coverageRunResponse, ...errorResponses } } }, async (request) => {

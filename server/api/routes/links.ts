@@ -4,7 +4,8 @@
 // Routes stay thin: the work is in server/jobs/link-engine.ts, ./recommend.ts,
 // ./visit-sheet.ts and the pure rooms under server/planning/.
 import { hostname } from 'node:os';
-import type { FastifyInstance } from 'fastify';
+import { InvalidPatternError } from '../../radio/pattern-schema.ts';
+import type { FastifyBaseLogger, FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { recordAudit } from '../../db/repositories/audit.ts';
@@ -53,7 +54,10 @@ const fleetQuery = pageQuery.extend({
 });
 
 const checkQuery = z.strictObject({ gatewayId: id().optional() });
-const sheetQuery = z.strictObject({ format: z.enum(['html', 'json'], { error: 'must be html or json' }).optional() });
+const sheetQuery = z.strictObject({
+  format: z.enum(['html', 'json'], { error: 'must be html or json' }).optional(),
+  tz: z.string().max(64).regex(/^[A-Za-z0-9_+\-/]+$/, 'must be an IANA time zone such as Europe/Berlin').optional().describe('time zone for the printed times (the app sends the viewer\'s)'),
+});
 
 /** The spread of a node's links (all links of a node share its end: one σ), or the node's in the open without links. */
 export function nodeSpread(ctx: PlanContext, outcome: NodeLinksOutcome): PlanningSpread {
@@ -297,7 +301,7 @@ export default async function linkRoutes(app: FastifyInstance): Promise<void> {
       const body = (request.body ?? {}) as RecommendRequest;
       const job = await createKitJob(db, plan.id, body, principal.userId, processId);
       await recordAudit(db, { principal, action: 'create', entity: 'kit-recommendation', entityId: job.id, detail: { planId: plan.id } });
-      const work = runFleetRecommendation(engine, ctx, job.id, body).finally(() => running.delete(work));
+      const work = runFleetRecommendation(engine, ctx, job.id, body, request.log).finally(() => running.delete(work));
       running.add(work);
       return reply.status(202).send({ id: job.id, status: 'running', progress: 0, poll: `/api/v1/plans/${plan.id}/recommend/${job.id}` });
     },
@@ -323,9 +327,9 @@ export default async function linkRoutes(app: FastifyInstance): Promise<void> {
       try {
         const outcome = await engine.linksForNode(ctx, request.params.nodeId);
         const recommendation = outcome.status === 'served' ? null : await recommendForNode(engine, ctx, outcome.node.row, {});
-        const sheet = visitSheet(ctx, outcome, recommendation);
+        const sheet = visitSheet(ctx, outcome, recommendation, (await loadCatalog(db, ctx.teamId)).masts);
         if (request.query.format === 'json') return sheet;
-        return reply.type('text/html; charset=utf-8').send(visitSheetHtml(sheet));
+        return reply.type('text/html; charset=utf-8').send(visitSheetHtml(sheet, request.query.tz));
       } catch (error) {
         return asApiError(error);
       }
@@ -335,7 +339,7 @@ export default async function linkRoutes(app: FastifyInstance): Promise<void> {
   registerReadingRoutes(api, engine, context);
 }
 
-async function runFleetRecommendation(engine: LinkEngine, ctx: PlanContext, jobId: string, body: RecommendRequest): Promise<void> {
+async function runFleetRecommendation(engine: LinkEngine, ctx: PlanContext, jobId: string, body: RecommendRequest, log: FastifyBaseLogger): Promise<void> {
   const db = engine.database;
   try {
     const catalog = await loadCatalog(db, ctx.teamId);
@@ -358,8 +362,11 @@ async function runFleetRecommendation(engine: LinkEngine, ctx: PlanContext, jobI
     }
     await updateKitJob(db, jobId, { status: 'done', progress: 1, summary: { counts, nodes } });
   } catch (error) {
-    const message = error instanceof LinkInputError || error instanceof PlanSettingsError ? error.message : 'the recommendation failed; see the server log';
-    await updateKitJob(db, jobId, { status: 'failed', error: message }).catch(() => undefined);
+    const known = error instanceof LinkInputError || error instanceof PlanSettingsError || error instanceof InvalidPatternError;
+    // The cause goes to the log with the job id, so "see the server log" leads somewhere.
+    log.error({ err: error, jobId, planId: ctx.plan.id }, 'fleet recommendation job failed');
+    const message = known ? (error as Error).message : `the recommendation failed (job ${jobId}); the server log has the cause under this job id`;
+    await updateKitJob(db, jobId, { status: 'failed', error: message }).catch((writeError: unknown) => log.error({ err: writeError, jobId }, 'could not record the failed job'));
   }
 }
 

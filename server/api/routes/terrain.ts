@@ -212,6 +212,8 @@ export default async function terrainRoutes(app: FastifyInstance): Promise<void>
   app.addHook('onReady', async () => {
     try {
       await sweepOrphanFiles(db, join(filesDir, 'terrain'), 60 * 60 * 1000);
+      // Uploads interrupted by a crash: gone at once (one still being written elsewhere keeps a fresh mtime).
+      await sweepIncomingFiles(join(filesDir, 'terrain'), 2 * 60 * 1000);
     } catch (error) {
       app.log.warn({ err: error }, 'terrain file sweep failed');
     }
@@ -432,6 +434,30 @@ async function receiveUpload(request: FastifyRequest, tempPath: string, limit: n
     throw new ApiError(415, 'unsupported_media_type', `send the GeoTIFF as the body with Content-Type: image/tiff, or as multipart/form-data (got ${request.headers['content-type'] ?? 'no content type'})`);
   }
   return { received: await receive(body, tempPath, limit), fields };
+}
+
+/** Removes `.incoming-*.tif` upload files under <filesDir>/terrain/<planId>/ not written to for `minAgeMs`. */
+export async function sweepIncomingFiles(terrainDir: string, minAgeMs: number): Promise<string[]> {
+  const removed: string[] = [];
+  let planDirs: string[];
+  try {
+    planDirs = (await readdir(terrainDir, { withFileTypes: true })).filter((entry) => entry.isDirectory()).map((entry) => entry.name);
+  } catch {
+    return removed;
+  }
+  const now = Date.now();
+  for (const planId of planDirs) {
+    const dir = join(terrainDir, planId);
+    for (const file of await readdir(dir).catch(() => [] as string[])) {
+      if (!/^\.incoming-[0-9a-f-]+\.tif$/.test(file)) continue;
+      const path = join(dir, file);
+      const info = await stat(path).catch(() => null);
+      if (!info || !info.isFile() || now - info.mtimeMs < minAgeMs) continue;
+      await rm(path, { force: true });
+      removed.push(path);
+    }
+  }
+  return removed;
 }
 
 /** Removes files under <filesDir>/terrain/<planId>/ that no terrain layer row references and that are older than `minAgeMs`. */

@@ -51,18 +51,9 @@ export async function copyPlanWithAudit(db: Database, teamId: string, sourceId: 
   return db.prisma.$transaction(async (tx) => {
     const source = await tx.plan.findFirst({ where: { id: sourceId, teamId } });
     if (!source) return null;
-    const plan = await tx.plan.create({
-      data: {
-        teamId,
-        name,
-        description: source.description,
-        bandPlanId: source.bandPlanId,
-        targetMarginDb: source.targetMarginDb,
-        locationSigmaDb: source.locationSigmaDb,
-        propagationMethod: source.propagationMethod,
-        settings: source.settings as Prisma.InputJsonValue,
-      },
-    });
+    // Every plan column but identity, name and bookkeeping, so columns added later are copied too.
+    const { id: _id, teamId: _team, name: _name, version: _version, createdAt: _created, updatedAt: _updated, settings, ...columns } = source;
+    const plan = await tx.plan.create({ data: { ...columns, settings: settings as Prisma.InputJsonValue, teamId, name } });
     const siteMap = new Map<string, string>();
     const sites = await tx.site.findMany({ where: { planId: source.id }, orderBy: [{ createdAt: 'asc' }, { id: 'asc' }] });
     for (const { id, planId: _p, version: _v, createdAt: _c, updatedAt: _u, ...rest } of sites) {

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { findBandPlan } from '../../../server/radio/band-plans.ts';
-import { airtimeBudget, ackTimeOnAirMs, frameTimeOnAirMs, uplinkChannelCount, uplinkRules } from '../../../server/capacity/airtime.ts';
+import { airtimeBudget, ackTimeOnAirMs, frameTimeOnAirMs, rx1BandwidthKhz, uplinkChannelCount, uplinkRules } from '../../../server/capacity/airtime.ts';
 import { assessCapacity, type CapacityNodeInput, type CapacityScenario } from '../../../server/capacity/assess.ts';
 import { sirThresholdDb } from '../../../server/capacity/interference.ts';
 import { SeededRandom } from '../../../server/capacity/random.ts';
@@ -46,6 +46,12 @@ describe('frame time on air reuses the radio room (SX1276 datasheet §4.1.1.6)',
 
   it('an empty acknowledgement (12 bytes, no payload CRC) is shorter than an uplink with an empty payload', () => {
     expect(ackTimeOnAirMs(9, 125)).toBeLessThan(frameTimeOnAirMs({ sf: 9, bandwidthKhz: 125, payloadBytes: 0 }));
+  });
+
+  it('RX1 replies: EU868 on the uplink bandwidth, US915 at 500 kHz (a quarter of the symbol time)', () => {
+    expect(rx1BandwidthKhz(eu868, 125)).toBe(125);
+    expect(rx1BandwidthKhz(us915, 125)).toBe(500);
+    expect(ackTimeOnAirMs(10, 500)).toBeCloseTo(ackTimeOnAirMs(10, 125) / 4, 9);
   });
 });
 

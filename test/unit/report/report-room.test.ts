@@ -3,10 +3,12 @@
 // Mercator placement (EPSG:3857 spherical formulas), the status palette shared
 // with the map, XML escaping (XML 1.0 §2.4) and scenario node pairing.
 import { readFileSync } from 'node:fs';
+import { deflateSync } from 'node:zlib';
+import { crc32, decodePng, encodePng } from '../../../server/terrain/png.ts';
 import { describe, expect, it } from 'vitest';
 import { csvField, csvLines, csvRecord } from '../../../server/report/csv.ts';
 import { billOfMaterials, endKitCostUsd, type PriceCatalog, type PricedEnd } from '../../../server/report/bom.ts';
-import { fitView, lonLatToGlobalPx, paddedBox, viewPx } from '../../../server/report/map.ts';
+import { composeMapImage, fitView, lonLatToGlobalPx, paddedBox, viewPx } from '../../../server/report/map.ts';
 import { geoJsonChunks, kmlChunks, xmlText } from '../../../server/report/features.ts';
 import { kmlColour, STATUS_STYLE } from '../../../server/report/style.ts';
 import { mercatorPixelToLonLat } from '../../../server/terrain/hillshade.ts';
@@ -75,20 +77,21 @@ describe('map placement (Web Mercator, EPSG:3857 spherical)', () => {
       expect(back.lat).toBeCloseTo(lat, 9);
     }
   });
-  it('fits a box inside the frame at the deepest zoom that holds it', () => {
+  it('fits the box in the view at the deepest zoom where it spans at most 1.5 × the frame, at the frame’s aspect', () => {
     const box = paddedBox([{ lat: 44.25, lon: -118.2 }, { lat: 44.35, lon: -118.05 }])!;
     const view = fitView(box, 990, 1000);
+    expect(view.widthPx / view.heightPx).toBeCloseTo(0.99, 2);
     for (const corner of [{ lat: box.north, lon: box.west }, { lat: box.south, lon: box.east }]) {
       const p = viewPx(view, corner.lat, corner.lon);
       expect(p.x).toBeGreaterThanOrEqual(0);
-      expect(p.x).toBeLessThanOrEqual(990);
+      expect(p.x).toBeLessThanOrEqual(view.widthPx);
       expect(p.y).toBeGreaterThanOrEqual(0);
-      expect(p.y).toBeLessThanOrEqual(1000);
+      expect(p.y).toBeLessThanOrEqual(view.heightPx);
     }
-    const deeper = { ...view, zoom: view.zoom + 1 };
-    const nw = lonLatToGlobalPx(box.west, box.north, deeper.zoom);
-    const se = lonLatToGlobalPx(box.east, box.south, deeper.zoom);
-    expect(se.x - nw.x > 990 || se.y - nw.y > 1000).toBe(true);
+    expect(view.widthPx).toBeLessThanOrEqual(990 * 1.5 + 1);
+    const nw = lonLatToGlobalPx(box.west, box.north, view.zoom + 1);
+    const se = lonLatToGlobalPx(box.east, box.south, view.zoom + 1);
+    expect(se.x - nw.x > 990 * 1.5 || se.y - nw.y > 1000 * 1.5).toBe(true);
   });
 });
 
@@ -127,5 +130,70 @@ describe('scenario node pairing', () => {
     expect(byA.get('a2')).toBeNull();
     expect(byA.get('a3')).toBeNull();
     expect(pairs.filter((p) => p.idA === null).map((p) => p.idB).sort()).toEqual(['b5', 'b9']);
+  });
+});
+
+describe('PNG decoding (PNG spec §9.2 filters) and the composited map image', () => {
+  // A PNG built here with a chosen filter per row, by the spec's forward definitions.
+  function pngWithFilters(w: number, hPx: number, channels: number, colourType: number, pixels: Uint8Array, filters: number[]): Uint8Array {
+    const stride = w * channels;
+    const raw = new Uint8Array((stride + 1) * hPx);
+    for (let y = 0; y < hPx; y++) {
+      const f = filters[y % filters.length];
+      raw[y * (stride + 1)] = f;
+      for (let i = 0; i < stride; i++) {
+        const x = pixels[y * stride + i];
+        const a = i >= channels ? pixels[y * stride + i - channels] : 0;
+        const b = y > 0 ? pixels[(y - 1) * stride + i] : 0;
+        const c = y > 0 && i >= channels ? pixels[(y - 1) * stride + i - channels] : 0;
+        const p = a + b - c;
+        const paeth = Math.abs(p - a) <= Math.abs(p - b) && Math.abs(p - a) <= Math.abs(p - c) ? a : Math.abs(p - b) <= Math.abs(p - c) ? b : c;
+        const pred = [0, a, b, Math.floor((a + b) / 2), paeth][f];
+        raw[y * (stride + 1) + 1 + i] = (x - pred) & 0xff;
+      }
+    }
+    const chunk = (type: string, data: Uint8Array) => {
+      const out = Buffer.alloc(12 + data.length);
+      out.writeUInt32BE(data.length, 0);
+      out.write(type, 4, 'latin1');
+      Buffer.from(data).copy(out, 8);
+      out.writeUInt32BE(crc32(out, 4, 8 + data.length), 8 + data.length);
+      return out;
+    };
+    const ihdr = Buffer.alloc(13);
+    ihdr.writeUInt32BE(w, 0);
+    ihdr.writeUInt32BE(hPx, 4);
+    ihdr[8] = 8;
+    ihdr[9] = colourType;
+    return Buffer.concat([Buffer.from([0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a]), chunk('IHDR', ihdr), chunk('IDAT', deflateSync(raw)), chunk('IEND', new Uint8Array(0))]);
+  }
+  it('undoes None, Sub, Up, Average and Paeth rows, and round-trips encodePng in every colour type', () => {
+    const w = 7;
+    const hPx = 10;
+    const pixels = Uint8Array.from({ length: w * hPx * 3 }, (_, i) => (i * 37 + (i >> 3) * 11) & 0xff);
+    const decoded = decodePng(pngWithFilters(w, hPx, 3, 2, pixels, [0, 1, 2, 3, 4]));
+    expect(decoded).toMatchObject({ widthPx: w, heightPx: hPx, colour: 'rgb' });
+    expect(Buffer.from(decoded.pixels).equals(Buffer.from(pixels))).toBe(true);
+    for (const [colour, channels] of [['grey', 1], ['grey-alpha', 2], ['rgb', 3], ['rgba', 4]] as const) {
+      const px = Uint8Array.from({ length: w * hPx * channels }, (_, i) => (i * 53) & 0xff);
+      expect(Buffer.from(decodePng(encodePng(w, hPx, px, colour)).pixels).equals(Buffer.from(px)), colour).toBe(true);
+    }
+  });
+  it('composes hillshade under margin colours into one opaque RGB image of the view', () => {
+    const view = { zoom: 1, x0: 0, y0: 0, widthPx: 300, heightPx: 260 };
+    const shade = new Uint8Array(256 * 256 * 2);
+    for (let k = 0; k < 256 * 256; k++) {
+      shade[2 * k] = 200;
+      shade[2 * k + 1] = 255;
+    }
+    const margin = new Uint8Array(256 * 256 * 4);
+    margin.set([16, 48, 122, 255], 0); // pixel (0, 0) opaque dark blue
+    const image = decodePng(composeMapImage(view, [{ x: 0, y: 0, hillshadePng: encodePng(256, 256, shade, 'grey-alpha'), marginPng: encodePng(256, 256, margin, 'rgba') }]));
+    expect(image.colour).toBe('rgb');
+    expect([...image.pixels.subarray(0, 3)]).toEqual([16, 48, 122]);
+    const grey = 70 + Math.round(200 * 0.72);
+    expect([...image.pixels.subarray(3, 6)]).toEqual([grey, grey, grey]);
+    const outside = (10 * 300 + 280) * 3; // x = 280 lies beyond the one tile: paper grey
+    expect([...image.pixels.subarray(outside, outside + 3)]).toEqual([0xf4, 0xf4, 0xf4]);
   });
 });

@@ -90,6 +90,7 @@ export async function renderCapacity(main: HTMLElement, route: Route): Promise<(
   const model = select(models, route.params.get('model') ?? 'capture', { id: 'capacity-model' });
   const rate = h('input', { type: 'number', id: 'capacity-rate', min: '0.1', max: '20', step: '0.1', value: route.params.get('rateScale') ?? '1', inputmode: 'decimal' });
   const confirmed = h('input', { type: 'number', id: 'capacity-confirmed', min: '0', max: '100', step: '1', value: '0', inputmode: 'numeric' });
+  const channelCount = h('input', { type: 'number', id: 'capacity-channels', min: '1', max: '64', step: '1', placeholder: 'plan default', inputmode: 'numeric' });
   const run = h('button', { type: 'submit', id: 'capacity-run' }, 'Compute');
   const status = h('p', { id: 'capacity-status', 'aria-live': 'polite', class: 'muted' });
   const out = h('div', { id: 'capacity-result' });
@@ -99,6 +100,7 @@ export async function renderCapacity(main: HTMLElement, route: Route): Promise<(
     field('Collision model', model),
     field('What-if: reporting rate × (1 = as planned)', rate, 'Every node’s messages per hour times this factor.'),
     field('Confirmed uplinks (%)', confirmed, 'Share of uplinks that ask the gateway for an acknowledgement.'),
+    field('What-if: uplink channels', channelCount, 'Empty = the plan’s channels.'),
     run,
   );
   main.append(
@@ -121,11 +123,16 @@ export async function renderCapacity(main: HTMLElement, route: Route): Promise<(
       status.textContent = 'Confirmed uplinks must be from 0 to 100 %.';
       return;
     }
+    const channels = channelCount.value.trim() === '' ? undefined : Number(channelCount.value);
+    if (channels !== undefined && !(Number.isInteger(channels) && channels >= 1 && channels <= 64)) {
+      status.textContent = 'Uplink channels must be a whole number from 1 to 64 (or empty for the plan’s own).';
+      return;
+    }
     run.setAttribute('disabled', '');
     status.textContent = model.value === 'simulate' ? 'Simulating one hour of traffic… (a large fleet takes a few seconds)' : 'Computing…';
     const started = performance.now();
     try {
-      const result = await getCapacity(planId, { model: model.value as CapacityModel, rateScale, confirmedShare: share }, controller.signal);
+      const result = await getCapacity(planId, { model: model.value as CapacityModel, rateScale, confirmedShare: share, channels }, controller.signal);
       status.textContent = `Done in ${((performance.now() - started) / 1000).toFixed(1)} s.`;
       show(result);
     } catch (err) {

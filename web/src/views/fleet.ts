@@ -1,6 +1,7 @@
 // Fleet table: every node with its predicted status and best link; sortable
 // by any column, filterable by status, each row linked to the map.
 import type { Route } from '../router.ts';
+import { getGatewayChecks } from '../api-gateways.ts';
 import { planHash } from '../router.ts';
 import { PlanStore } from '../plan-store.ts';
 import { clear, db, fmt, h, metres, notice, percent } from '../ui.ts';
@@ -191,4 +192,36 @@ export async function renderFleet(main: HTMLElement, route: Route): Promise<void
   main.append(
     h('ul', { class: 'status-key inline' }, ...(Object.keys(statusStyle) as NodeClass[]).map((c) => h('li', {}, symbolElement(nodeSymbolSvg(c, 14), ''), statusStyle[c].label))),
   );
+  // Gateways are checked by the same legal rule as nodes.
+  const gatewayBox = h('section', { class: 'card', id: 'fleet-gateways', 'aria-labelledby': 'fleet-gateways-h' }, h('h2', { id: 'fleet-gateways-h' }, 'Gateways: radiated power'));
+  main.append(gatewayBox);
+  void getGatewayChecks(planId)
+    .then(({ items }) => {
+      const rows = items.map((g) =>
+        h(
+          'tr',
+          { class: g.legal.withinLimit ? '' : 'row-warn' },
+          h('th', { scope: 'row' }, g.name),
+          h('td', { class: 'num' }, fmt(g.txPowerDbm, 'dBm')),
+          h('td', {}, `${g.antennaName} (${fmt(g.antennaGainDbi, 'dBi')})`),
+          h('td', { class: 'num' }, fmt(g.antennaHeightAglM, 'm')),
+          h('td', { class: 'num' }, fmt(g.peakEirpDbm, 'dBm')),
+          h('td', { class: 'num' }, g.legal.maxEirpDbm === null ? '–' : fmt(g.legal.maxEirpDbm, 'dBm')),
+          h('td', {}, g.legal.withinLimit ? 'yes' : `NO, ${fmt(g.legal.excessDb, 'dB')} over`),
+        ),
+      );
+      gatewayBox.append(
+        h(
+          'div',
+          { class: 'table-scroll' },
+          h(
+            'table',
+            { class: 'data-table' },
+            h('thead', {}, h('tr', {}, ...['Gateway', 'Power', 'Antenna', 'Height', 'Peak EIRP', 'Limit', 'Power legal'].map((t) => h('th', { scope: 'col' }, t)))),
+            h('tbody', {}, ...rows),
+          ),
+        ),
+      );
+    })
+    .catch((err: unknown) => gatewayBox.append(notice('error', `Gateway check: ${err instanceof Error ? err.message : String(err)}`)));
 }

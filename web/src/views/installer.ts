@@ -8,7 +8,7 @@ import { explainWriteError, PlanStore } from '../plan-store.ts';
 import type { Route } from '../router.ts';
 import { planHash } from '../router.ts';
 import { canRecordReadings } from '../session.ts';
-import { announce, cautionsBlock, coords, db, dbm, distance, errorText, field, h, metres, notice, percent, select } from '../ui.ts';
+import { announce, cautionsBlock, coords, db, dbm, distance, errorText, field, h, metres, money, notice, percent, select } from '../ui.ts';
 import { nodeSymbolSvg, statusStyle, symbolElement } from '../symbols.ts';
 import { kitLabel } from './node-panel.ts';
 import { tuningPanel } from './tuning-panel.ts';
@@ -177,13 +177,20 @@ function renderSheet(main: HTMLElement, store: PlanStore, sheet: VisitSheet): vo
       h('dd', { id: 'install-height' }, `${metres(k.antennaHeightAglM)} above ground`),
       h('dt', {}, 'Feedline'),
       h('dd', {}, k.feedline ? `${k.feedline.name}, ${metres(k.feedline.lengthM)}` : 'none (radio at the antenna)'),
+      k.mastName ? h('dt', {}, 'Mast or mount') : null,
+      k.mastName ? h('dd', {}, k.mastName) : null,
+      k.price ? h('dt', {}, 'Kit cost') : null,
+      k.price ? h('dd', { id: 'install-kit-cost' }, money(k.price.totalUsd)) : null,
     ),
+    k.price ? h('ul', { class: 'price-lines small' }, ...k.price.lines.map((l) => h('li', {}, `${l.name}${l.unit === 'm' ? `, ${metres(l.quantity)}` : l.quantity > 1 ? ` × ${l.quantity}` : ''}: ${money(l.costUsd)}`))) : null,
   );
   if (k.recommended) {
     kit.append(
       notice(
         'warn',
-        `This kit does not meet the target. Recommended instead: ${kitLabel(store, { antennaDesignId: k.recommended.antennaDesignId, mastHeightM: k.recommended.mastHeightM, feedlineId: k.recommended.feedlineId, feedlineLengthM: k.recommended.feedlineLengthM })} (${k.recommended.cost.toFixed(2)} USD). ${k.recommended.reason}`,
+        `This kit does not meet the target. Recommended instead: ${kitLabel(store, { antennaDesignId: k.recommended.antennaDesignId, mastHeightM: k.recommended.mastHeightM, feedlineId: k.recommended.feedlineId, feedlineLengthM: k.recommended.feedlineLengthM })}${k.recommended.mastName ? ` on ${k.recommended.mastName}` : ''} (`,
+        h('span', { id: 'install-rec-cost' }, money(k.recommended.price?.totalUsd ?? k.recommended.cost)),
+        `). ${k.recommended.reason}`,
       ),
     );
   }

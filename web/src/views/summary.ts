@@ -5,9 +5,40 @@ import { listCoverage, runState, type CoverageRun } from '../api.ts';
 import { PlanStore } from '../plan-store.ts';
 import type { Route } from '../router.ts';
 import { planHash } from '../router.ts';
-import { append, h, notice, percent } from '../ui.ts';
+import { append, errorText, h, notice, percent } from '../ui.ts';
+import { downloadPlanFile, type PlanFile } from '../api-reports.ts';
 import { nodeSymbolSvg, statusStyle, symbolElement, type NodeClass } from '../symbols.ts';
 import { getCapacity } from '../api-capacity.ts';
+
+/** The server-made PDF report and the exports (web/src/api-reports.ts). */
+function reportButtons(planId: string): HTMLElement {
+  const status = h('span', { class: 'muted small', 'aria-live': 'polite', id: 'report-status' });
+  const button = (file: PlanFile, label: string, id: string) => {
+    const b = h('button', { type: 'button', id }, label);
+    b.addEventListener('click', async () => {
+      b.setAttribute('disabled', '');
+      status.textContent = file === 'report.pdf' ? 'Making the report… (a large plan takes a while)' : 'Preparing the file…';
+      try {
+        status.textContent = `Downloaded ${await downloadPlanFile(planId, file)}.`;
+      } catch (err) {
+        status.textContent = `Failed: ${errorText(err)}`;
+      } finally {
+        b.removeAttribute('disabled');
+      }
+    });
+    return b;
+  };
+  return h(
+    'span',
+    { class: 'report-buttons' },
+    button('report.pdf', 'Report (PDF)', 'summary-report'),
+    button('export.geojson', 'GeoJSON', 'summary-geojson'),
+    button('export.kml', 'KML', 'summary-kml'),
+    button('export.csv', 'Fleet CSV', 'summary-csv'),
+    button('bom.csv', 'Bill of materials CSV', 'summary-bom'),
+    status,
+  );
+}
 
 const usd = (v: number): string => `${v.toLocaleString('en-US', { minimumFractionDigits: 2, maximumFractionDigits: 2 })} USD`;
 
@@ -21,6 +52,7 @@ export async function renderSummary(main: HTMLElement, route: Route): Promise<vo
       { class: 'summary-head' },
       h('h1', {}, `Plan summary · ${store.plan.name}`),
       h('button', { type: 'button', onclick: () => window.print() }, 'Print'),
+      reportButtons(planId),
     ),
     h('p', { class: 'muted' }, `Target margin ${store.plan.targetMarginDb ?? '–'} dB · band plan ${store.plan.bandPlanId ?? '–'} · ${store.nodes.length} nodes · ${store.gateways.length} gateways · ${store.sites.length} candidate sites`),
   );
