@@ -2,6 +2,7 @@
 // antenna reading of a node (audited). The API route (server/api/routes/tuning.ts) and
 // the CLI (`earshot tune`, server/cli/tuning.ts) both call these functions.
 import type { Database } from '../db/client.ts';
+import { AppError, type AppErrorKind } from './errors.ts';
 import { NotFoundError } from '../db/errors.ts';
 import { createAntennaReading, listAntennaReadings } from '../db/repositories/antenna-readings.ts';
 import type { AuditPrincipal } from '../db/repositories/audit.ts';
@@ -11,13 +12,14 @@ import type { AntennaReading, Prisma } from '../db/generated/client.ts';
 import { analyseSweep, TuningInputError, type TuneResult } from '../tuning/analyse.ts';
 import { parseSweep, SweepFileError } from '../tuning/sweep-file.ts';
 
-/** Something the caller must fix: `field` is the input it concerns ("file", "band", "design", "lengthMm"). */
-export class TuneError extends Error {
+/** Something the caller must fix: `field` is the input it concerns ("file", "band", "design", "lengthMm"); an AppError, so the API maps its kind. */
+export class TuneError extends AppError {
   constructor(
     readonly field: string,
     message: string,
+    kind: AppErrorKind = 'invalid_input',
   ) {
-    super(`${field}: ${message}`);
+    super(kind, kind === 'too_large' ? 'payload_too_large' : 'invalid_input', `${field}: ${message}`);
   }
 }
 
@@ -36,7 +38,7 @@ export interface TuneInput {
 
 /** Pure use case: sweep text → tuning result; every problem becomes a TuneError naming the field (and the line for file problems). */
 export function tuneSweep(input: TuneInput): TuneResult {
-  if (Buffer.byteLength(input.text, 'utf8') > MAX_SWEEP_FILE_BYTES) throw new TuneError('file', `larger than ${MAX_SWEEP_FILE_BYTES / 1024 / 1024} MB`);
+  if (Buffer.byteLength(input.text, 'utf8') > MAX_SWEEP_FILE_BYTES) throw new TuneError('file', `larger than ${MAX_SWEEP_FILE_BYTES / 1024 / 1024} MB`, 'too_large');
   if (input.text.includes('\u0000')) throw new TuneError('file', 'binary data: send the Touchstone (.s1p) or CSV text the analyser exported');
   try {
     const sweep = parseSweep(input.text, input.fileName ?? '');

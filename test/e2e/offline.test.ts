@@ -131,7 +131,7 @@ it('an installer keeps two nodes, goes offline, reloads: kit, visit sheet and ma
   await expect.poll(() => page.locator('#outbox li').count()).toBe(0);
 
   // Signing out empties the device.
-  await page.getByRole('button', { name: 'Sign out of this tab' }).click();
+  await page.getByRole('button', { name: 'Sign out' }).click();
   await expect
     .poll(() =>
       page.evaluate(

@@ -4,7 +4,7 @@ import multipart from '@fastify/multipart';
 import type { FastifyInstance, FastifyRequest } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import { MAX_SWEEP_FILE_BYTES, nodeAntennaReadings, tuneAndAttach, TuneError, tuneSweep, type TuneInput } from '../../app/tuning.ts';
+import { MAX_SWEEP_FILE_BYTES, nodeAntennaReadings, tuneAndAttach, tuneSweep, type TuneInput } from '../../app/tuning.ts';
 import { requireRole } from '../auth.ts';
 import { ApiError } from '../errors.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
@@ -96,11 +96,6 @@ async function multipartBody(request: FastifyRequest): Promise<Record<string, un
   return body;
 }
 
-function asApiError(error: unknown): never {
-  if (error instanceof TuneError) throw new ApiError(400, 'invalid_input', error.message);
-  throw error;
-}
-
 export default async function tuningRoutes(app: FastifyInstance): Promise<void> {
   const typed = app.withTypeProvider<ZodTypeProvider>();
   const { db } = app.deps;
@@ -141,14 +136,11 @@ export default async function tuningRoutes(app: FastifyInstance): Promise<void> 
           bandId: body.band,
           note: body.note,
           measuredAt: body.measuredAt ? new Date(body.measuredAt) : undefined,
-        }).catch(asApiError);
+        });
         return { ...outcome.result, reading: outcome.reading };
       }
-      try {
-        return { ...tuneSweep({ ...input, bandId: body.band ?? '' }), reading: null };
-      } catch (error) {
-        return asApiError(error);
-      }
+      // TuneError is an AppError: the error handler answers it (400 naming the field and the line).
+      return { ...tuneSweep({ ...input, bandId: body.band ?? '' }), reading: null };
     },
   );
 
