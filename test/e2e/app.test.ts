@@ -326,7 +326,7 @@ describe('map front end (chromium)', () => {
     await page.getByRole('button', { name: 'Save plan settings' }).click();
     await page.getByRole('heading', { name: 'Plan settings' }).waitFor({ state: 'detached' });
     await expect.poll(() => textOf('#plan-settings-line'), { timeout: 20_000 }).toContain(`Target margin ${newMargin} dB`);
-    expect(await textOf('#plan-settings-line')).toContain('σ 7.5 dB');
+    expect(await textOf('#plan-settings-line')).toContain('σL 7.5 dB');
     const after = await readPlan();
     expect(after.targetMarginDb).toBe(newMargin);
     expect(after.locationSigmaDb).toBe(7.5);
