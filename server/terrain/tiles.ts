@@ -90,7 +90,9 @@ export async function renderHillshadeTile(rasters: GeoRaster[], z: number, x: nu
     let maxX = -Infinity;
     let maxY = -Infinity;
     for (let k = 0; k < n * n; k++) {
-      if (Number.isNaN(heights[k])) {
+      // Only points that fall on the raster count: far outside a projected CRS's zone (zoom 0/1
+      // tiles span the globe) the transform gives NaN or huge values, which must not reach the window.
+      if (Number.isNaN(heights[k]) && px[k] >= 0 && px[k] < w && pyArr[k] >= 0 && pyArr[k] < h) {
         minX = Math.min(minX, px[k]);
         maxX = Math.max(maxX, px[k]);
         minY = Math.min(minY, pyArr[k]);
