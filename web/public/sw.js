@@ -16,8 +16,11 @@ const DB_NAME = 'earshot-offline';
 const DB_VERSION = 1;
 /** Larger answers are not kept (a GeoTIFF export is not a visit's business). */
 const MAX_KEPT_BYTES = 5 * 1024 * 1024;
-/** Global answers every kept visit needs (who is signed in, the kit catalog, the coverage legend). */
-const GLOBAL_PATHS = [/^\/api\/v1\/me$/, /^\/api\/v1\/client-settings$/, /^\/api\/v1\/kit\//, /^\/api\/v1\/coverage\/legend$/];
+/**
+ * Answers outside a plan (who is signed in, settings, the kit catalog, status words, the legend…) are kept once
+ * anything is kept: the views read them on start, and new ones must not break a visit with no signal.
+ */
+const NOT_KEPT_GLOBALS = [/^\/api\/v1\/openapi\.json$/, /^\/api\/v1\/audit/];
 // A 1×1 transparent PNG for a map tile that was not kept (offline only).
 const EMPTY_PNG = Uint8Array.from(atob('iVBORw0KGgoAAAANSUhEUgAAAAEAAAABCAYAAAAfFcSJAAAADUlEQVR42mNkYPhfDwAChwGA60e6kgAAAABJRU5ErkJggg=='), (c) => c.charCodeAt(0));
 
@@ -64,7 +67,7 @@ async function keepable(path) {
     const count = await idb('kept', 'readonly', (store) => store.index('planId').count(decodeURIComponent(planId)));
     return count > 0;
   }
-  if (!GLOBAL_PATHS.some((re) => re.test(path))) return false;
+  if (NOT_KEPT_GLOBALS.some((re) => re.test(path))) return false;
   const total = await idb('kept', 'readonly', (store) => store.count());
   return total > 0;
 }

@@ -9,6 +9,7 @@
 // Signing out empties all of it.
 import { ApiError, getMe, getNodeReadings, getVisitSheet, hillshadeTileUrl, listCoverage, coverageTileUrl, postReading, request, storedToken, type FleetNode, type ReadingInput } from '../api.ts';
 import { PlanStore } from '../plan-store.ts';
+import { adoptStatusWords } from '../status-words.ts';
 
 const DB_NAME = 'earshot-offline';
 const DB_VERSION = 1;
@@ -138,7 +139,9 @@ export async function keepNode(planId: string, node: FleetNode, progress: (text:
   const entry: KeptNode = { key: keyOf(planId, node.id), planId, nodeId: node.id, nodeName: node.name, keptAt: new Date().toISOString(), tiles: 0 };
   await idb('kept', 'readwrite', (s) => s.put(entry));
   progress('Keeping the node panel, kit and visit sheet…');
+  // The answers the app reads on start (read again here, so the service worker records them now that something is kept).
   await getMe();
+  await adoptStatusWords();
   await new PlanStore(planId).load();
   await getVisitSheet(planId, node.id);
   await getNodeReadings(planId, node.id).catch(() => undefined);
