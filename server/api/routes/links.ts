@@ -11,7 +11,7 @@ import type { PlanRow } from '../../db/repositories/plans.ts';
 import { requireRole } from '../auth.ts';
 import { ApiError, apiErrorOf } from '../errors.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
-import { finite, id, pageQuery } from '../schemas.ts';
+import { finite, id, nodeAntennaHeightAglM, nodeFeedlineLengthM, pageQuery, ranged, targetMarginDb } from '../schemas.ts';
 import { LinkEngine, type PlanContext } from '../../jobs/link-engine.ts';
 import {
   fleetTable,
@@ -39,16 +39,16 @@ const coerceNumber = (rule: z.ZodNumber) =>
 
 export const kitOverrideQuery = z.strictObject({
   antennaDesignId: id().optional(),
-  antennaHeightAglM: coerceNumber(finite().min(-10, 'must be ≥ -10 m').max(200, 'must be ≤ 200 m')).optional(),
+  antennaHeightAglM: coerceNumber(nodeAntennaHeightAglM()).optional(),
   feedlineId: z.string().max(100).optional(),
-  feedlineLengthM: coerceNumber(finite().min(0, 'must be ≥ 0 m').max(500, 'must be ≤ 500 m')).optional(),
+  feedlineLengthM: coerceNumber(nodeFeedlineLengthM()).optional(),
 });
 
 export const recommendBody = z.strictObject({
-  targetMarginDb: finite().min(-20, 'must be ≥ -20 dB').max(60, 'must be ≤ 60 dB').optional(),
+  targetMarginDb: targetMarginDb().optional(),
   targetDelivery: finite().min(0, 'must be within 0–1').max(1, 'must be within 0–1').optional(),
   antennaDesignIds: z.array(id()).min(1, 'must list at least one id').max(100).optional(),
-  mastHeightsM: z.array(finite().min(0, 'must be ≥ 0 m').max(200, 'must be ≤ 200 m')).min(1, 'must list at least one height').max(50).optional(),
+  mastHeightsM: z.array(ranged('nodeAntennaHeightAglM').min(0, 'must be ≥ 0 m')).min(1, 'must list at least one height').max(50).optional(),
   feedlineIds: z.array(id()).min(1, 'must list at least one id').max(50).optional(),
   maxCost: finite().min(0, 'must be ≥ 0').optional(),
 });
