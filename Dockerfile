@@ -4,7 +4,7 @@ WORKDIR /app
 COPY package.json package-lock.json ./
 RUN npm ci --no-audit --no-fund
 COPY . .
-RUN node scripts/prisma-generate.mjs && if [ -f web/index.html ]; then (cd web && npx vite build --logLevel warn); fi
+RUN node scripts/prisma-generate.mjs && node scripts/build-server.mjs && if [ -f web/index.html ]; then (cd web && npx vite build --logLevel warn); fi
 ENV NODE_ENV=production HOST=0.0.0.0 PORT=8080 EARSHOT_DATA_DIR=/data
 EXPOSE 8080
 CMD ["npm", "start"]

@@ -2,13 +2,19 @@
 // Every command takes --json and then prints exactly one JSON document on
 // stdout; an error exits non-zero with a one-line message on stderr.
 import { z } from 'zod';
-import { CliUsageError, describeOptionError, parseArgv, type CliCommand, type CliContext } from './cli/framework.ts';
+import { CliUsageError, commandHelp, plainText, describeOptionError, parseArgv, type CliCommand, type CliContext } from './cli/framework.ts';
 import { adminCommands } from './cli/admin.ts';
 import { radioCommands } from './cli/radio.ts';
 import { terrainCommands } from './cli/terrain.ts';
 import { propagationCommands } from './cli/propagation.ts';
 import { linkCommands } from './cli/links.ts';
 import { coverageCommands } from './cli/coverage.ts';
+import { fleetListCommands } from './cli/fleet-lists.ts';
+import { helpTexts } from './cli/help-texts.ts';
+import { capacityCommands } from './cli/capacity.ts';
+import { reportCommands } from './cli/reports.ts';
+import { tuningCommands } from './cli/tuning.ts';
+import { sitingCommands } from './cli/siting.ts';
 
 export const allCommands: CliCommand[] = [
   ...adminCommands,
@@ -17,11 +23,16 @@ export const allCommands: CliCommand[] = [
   ...propagationCommands,
   ...linkCommands,
   ...coverageCommands,
+  ...fleetListCommands,
+  ...capacityCommands,
+  ...reportCommands,
+  ...tuningCommands,
+  ...sitingCommands,
 ];
 
 function usage(): string {
   const lines = allCommands.map((command) => `  ${command.words.padEnd(18)} ${command.summary}`);
-  return ['usage: earshot <command> [options] [--json]', '', 'commands:', ...lines].join('\n');
+  return ['usage: earshot <command> [options] [--json]', '', 'commands:', ...lines, '', 'earshot <command> --help lists a command\'s options with an example.'].join('\n');
 }
 
 async function readStdin(): Promise<string> {
@@ -42,6 +53,11 @@ export async function runCli(argv: string[]): Promise<number> {
   const context: CliContext = { readStdin, progress };
   try {
     const { words, options } = parseArgv(argv);
+    const helpFor = allCommands.find((candidate) => candidate.words === (words[0] === 'help' ? words.slice(1) : words).join(' '));
+    if (helpFor && (options.help === true || words[0] === 'help')) {
+      process.stdout.write(`${commandHelp(helpFor, helpTexts[helpFor.words])}\n`);
+      return 0;
+    }
     if (words.length === 0 || words[0] === 'help' || options.help === true) {
       process.stdout.write(`${usage()}\n`);
       return words.length === 0 && options.help !== true ? 2 : 0;
@@ -55,7 +71,7 @@ export async function runCli(argv: string[]): Promise<number> {
     if (!parsed.success) throw new CliUsageError(describeOptionError(parsed.error));
     const result = await command.run(parsed.data, context);
     if (json) process.stdout.write(`${JSON.stringify(result)}\n`);
-    else process.stdout.write(`${command.formatText ? command.formatText(result) : JSON.stringify(result, null, 2)}\n`);
+    else process.stdout.write(`${command.formatText ? command.formatText(result) : plainText(result)}\n`);
     return 0;
   } catch (error) {
     const message = error instanceof z.ZodError ? describeOptionError(error) : error instanceof Error ? error.message : String(error);

@@ -4,7 +4,7 @@
 // `earshot` CLI can reach this process instead of opening the embedded data folder twice.
 import { randomBytes } from 'node:crypto';
 import { existsSync, mkdirSync, rmSync, writeFileSync } from 'node:fs';
-import { dirname, join } from 'node:path';
+import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import fastifyStatic from '@fastify/static';
 import type { FastifyInstance } from 'fastify';
@@ -13,9 +13,10 @@ import { ConfigError, loadConfig, type Config } from './config.ts';
 import { DatabaseBusyError, openDatabase, type Database } from './db/client.ts';
 import { issueToken } from './db/repositories/accounts.ts';
 import { seedDemoIfEmpty } from './demo.ts';
+import { projectRoot } from './paths.ts';
+import { humanLogStream, wantsHumanLogs } from './api/log-format.ts';
 
-const root = join(dirname(fileURLToPath(import.meta.url)), '..');
-export const webDistDir = join(root, 'web', 'dist');
+export const webDistDir = join(projectRoot, 'web', 'dist');
 
 export function adminFilePath(config: Config): string {
   return join(config.dataDir, 'admin.json');
@@ -36,6 +37,12 @@ function baseUrl(config: Config, port: number): string {
   if (config.publicBaseUrl) return config.publicBaseUrl.replace(/\/$/, '');
   const host = config.host === '0.0.0.0' || config.host === '::' ? 'localhost' : config.host.includes(':') ? `[${config.host}]` : config.host;
   return `http://${host}:${port}`;
+}
+
+/** Lines inside a plain frame (one blank line before and after). */
+function framed(lines: string[]): string {
+  const rule = '─'.repeat(Math.min(100, Math.max(...lines.map((line) => line.length)) + 2));
+  return ['', `┌${rule}`, ...lines.map((line) => `│ ${line}`), `└${rule}`, ''].join('\n') + '\n';
 }
 
 export async function startServer(config: Config, options: { logger?: boolean | object } = {}): Promise<RunningServer> {
@@ -99,20 +106,24 @@ async function main(): Promise<void> {
   }
   let server: RunningServer;
   try {
-    server = await startServer(config);
+    // A terminal gets one human line per log entry; files and collectors get pino's JSON.
+    const logger = wantsHumanLogs(config.logFormat, process.stdout) ? { stream: humanLogStream(process.stdout) } : true;
+    server = await startServer(config, { logger });
   } catch (error) {
     const message = error instanceof DatabaseBusyError ? error.message : error instanceof Error ? error.message : String(error);
     process.stderr.write(`earshot: could not start: ${message.split('\n')[0]}\n`);
     process.exit(1);
   }
   const engine = server.db.engine === 'pglite' ? `embedded PGlite in ${join(config.dataDir, 'pglite')}` : 'PostgreSQL (DATABASE_URL)';
+  // Printed last and framed, so the sign-in link is the last thing on the screen.
   process.stdout.write(
-    [
-      '',
+    framed([
       `earshot is listening on ${server.url} (database: ${engine}; ready in ${server.startupMs} ms${server.demoSeeded ? '; demo plan created' : ''})`,
-      server.signInUrl ? `Sign in (one-time link, valid 7 days): ${server.signInUrl}` : 'No demo team: issue a token with `npm run --silent earshot -- token issue --team <slug> --role planner`.',
-      '',
-    ].join('\n'),
+      ...(server.signInUrl
+        ? ['Sign in (one-time link, valid 7 days):', server.signInUrl]
+        : ['No demo team: issue a token with `npm run --silent earshot -- token issue --team <slug> --role planner`.']),
+      ...(config.requestLogLevel !== 'info' && config.logLevel === 'info' ? [`(request lines are logged at ${config.requestLogLevel}: EARSHOT_LOG_LEVEL=${config.requestLogLevel} shows them)`] : []),
+    ]),
   );
   let stopping = false;
   const stop = async (signal: string) => {

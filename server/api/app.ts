@@ -11,7 +11,9 @@ import { jsonSchemaTransform, serializerCompiler, validatorCompiler, type ZodTyp
 import type { Config } from '../config.ts';
 import type { Database } from '../db/client.ts';
 import { installAuth } from './auth.ts';
-import { installErrorHandlers } from './errors.ts';
+import type { AuthThrottle } from './auth-throttle.ts';
+import { errorBody, installErrorHandlers, sendError } from './errors.ts';
+import { installInputGuard } from './input-guard.ts';
 import healthRoutes from './routes/health.ts';
 import authRoutes, { signInRoutes } from './routes/auth.ts';
 import planRoutes from './routes/plans.ts';
@@ -38,15 +40,46 @@ export interface AppDeps {
   config: Config;
   logger?: boolean | object;
   jobs?: unknown;
+  /** Failed-authentication throttle (default: in memory, or in Redis when REDIS_URL is set). */
+  authThrottle?: AuthThrottle;
   /** When set, the loopback-only admin endpoints (/_admin/*) accept this secret (see server/cli/admin.ts). */
   adminSecret?: string;
 }
 
-/** Query parameters whose values never reach the logs. */
-const secretQueryParams = /([?&](?:token|access_token)=)[^&]*/gi;
+/** Query parameters whose values never reach the logs (compared after percent-decoding, case-insensitively). */
+const secretQueryParams = new Set(['token', 'access_token', 'secret', 'password']);
 
+function decodedName(raw: string): string {
+  try {
+    return decodeURIComponent(raw.replace(/\+/g, ' ')).trim().toLowerCase();
+  } catch {
+    return raw.toLowerCase();
+  }
+}
+
+/**
+ * The URL with the value of every secret query parameter replaced. Parameters are split and
+ * their names decoded the way the query parser does, so `?%74oken=` and `?TOKEN=` are caught
+ * too (a substring match on "token=" is not enough). A name that does not decode is redacted.
+ */
 export function redactUrl(url: string): string {
-  return url.replace(secretQueryParams, '$1[redacted]');
+  const mark = url.indexOf('?');
+  if (mark < 0) return url;
+  const parts = url
+    .slice(mark + 1)
+    .split('&')
+    .map((pair) => {
+      const eq = pair.indexOf('=');
+      const name = eq < 0 ? pair : pair.slice(0, eq);
+      let secret = secretQueryParams.has(decodedName(name));
+      try {
+        decodeURIComponent(name);
+      } catch {
+        secret = true;
+      }
+      return secret && eq >= 0 ? `${name}=[redacted]` : pair;
+    });
+  return `${url.slice(0, mark)}?${parts.join('&')}`;
 }
 
 function loggerOptions(logger: AppDeps['logger'], level: string): FastifyServerOptions['logger'] {
@@ -66,6 +99,11 @@ function loggerOptions(logger: AppDeps['logger'], level: string): FastifyServerO
   };
 }
 
+/** Trust the nearest `hops` proxies (as Fastify's numeric trustProxy does; its types want a function). */
+function trustHops(hops: number): (address: string, hop: number) => boolean {
+  return (_address, hop) => hop < hops;
+}
+
 async function registerApiRoutes(api: FastifyInstance): Promise<void> {
   await api.register(healthRoutes);
   await api.register(authRoutes);
@@ -80,6 +118,15 @@ async function registerApiRoutes(api: FastifyInstance): Promise<void> {
   await api.register((await import('./routes/links.ts')).default);
   await api.register((await import('./routes/coverage.ts')).default);
   await api.register((await import('./routes/client-settings.ts')).default);
+  await api.register((await import('./routes/team-access.ts')).default);
+  await api.register((await import('./routes/gateway-checks.ts')).default);
+  await api.register((await import('./routes/kit-price.ts')).default);
+  await api.register((await import('./routes/capacity.ts')).default);
+  await api.register((await import('./routes/calibration.ts')).default);
+  await api.register((await import('./routes/exports.ts')).default);
+  await api.register((await import('./routes/scenarios.ts')).default);
+  await api.register((await import('./routes/tuning.ts')).default);
+  await api.register((await import('./routes/siting.ts')).default);
 }
 
 export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {
@@ -92,8 +139,36 @@ export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {
       return typeof given === 'string' && /^[A-Za-z0-9._-]{1,64}$/.test(given) ? given : randomUUID();
     },
     requestIdHeader: false,
+    trustProxy: typeof config.trustProxy === 'number' ? trustHops(config.trustProxy) : config.trustProxy,
     routerOptions: { ignoreTrailingSlash: true },
+    // Errors the router raises before any route runs (a path id longer than the router's limit
+    // → 414, a malformed percent-escape → 400) answer in our error shape too.
+    frameworkErrors: (error, _request, reply) => {
+      const code = (error as { code?: string }).code;
+      if (code === 'FST_ERR_MAX_PARAM_LENGTH') return sendError(reply, 414, 'uri_too_long', 'path: a path segment is longer than this server accepts');
+      if (code === 'FST_ERR_BAD_URL') return sendError(reply, 400, 'invalid_input', 'path: not a valid percent-encoded URL');
+      return sendError(reply, 400, 'bad_request', 'the request could not be read');
+    },
+    // Errors of the HTTP parser itself (no request object exists yet): headers or URL too large
+    // → 431, anything else malformed → 400; written straight to the socket in our shape.
+    clientErrorHandler: (error: NodeJS.ErrnoException, socket) => {
+      if (error.code === 'ECONNRESET' || socket.destroyed) return;
+      const [status, text, code, message] =
+        error.code === 'HPE_HEADER_OVERFLOW'
+          ? [431, 'Request Header Fields Too Large', 'headers_too_large', 'the request line or headers are larger than this server accepts']
+          : error.code === 'HPE_URI_TOO_LONG'
+            ? [414, 'URI Too Long', 'uri_too_long', 'the URL is longer than this server accepts']
+            : error.code === 'ERR_HTTP_REQUEST_TIMEOUT'
+              ? [408, 'Request Timeout', 'request_timeout', 'the request was not received in time']
+              : [400, 'Bad Request', 'bad_request', 'malformed HTTP request'];
+      const body = JSON.stringify(errorBody(code, message));
+      if (socket.writable) socket.write(`HTTP/1.1 ${status} ${text}\r\nContent-Length: ${Buffer.byteLength(body)}\r\nContent-Type: application/json; charset=utf-8\r\nConnection: close\r\n\r\n${body}`);
+      socket.destroy(error);
+    },
     forceCloseConnections: true,
+    // One line per request, written on completion at config.requestLogLevel (below), instead
+    // of Fastify's two info lines that flood a terminal.
+    disableRequestLogging: true,
   }).withTypeProvider<ZodTypeProvider>();
 
   app.decorate('deps', deps);
@@ -105,6 +180,10 @@ export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {
   app.setSerializerCompiler(serializerCompiler);
   app.addHook('onSend', async (request, reply) => {
     reply.header('x-request-id', request.id);
+  });
+  const requestLogLevel = config.requestLogLevel ?? 'debug';
+  app.addHook('onResponse', async (request, reply) => {
+    request.log[requestLogLevel]({ req: request, res: { statusCode: reply.statusCode }, responseTimeMs: Math.round(reply.elapsedTime) }, 'request');
   });
 
   // CSV and GeoJSON bodies for imports.
@@ -157,9 +236,11 @@ export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {
   });
 
   installErrorHandlers(app);
-  installAuth(app, deps.db);
+  installAuth(app, deps.db, { redisUrl: config.redisUrl, throttle: deps.authThrottle });
+  installInputGuard(app);
 
   await app.register(signInRoutes);
+  await app.register((await import('./routes/team-access.ts')).sessionExchangeRoutes);
   if (deps.adminSecret) await app.register(adminRoutes, { prefix: '/_admin' });
   await app.register(registerApiRoutes, { prefix: '/api/v1' });
   app.get('/api/v1/openapi.json', { schema: { hide: true } }, async () => app.swagger());

@@ -10,7 +10,8 @@
 import '@fastify/cookie';
 import type { FastifyInstance, FastifyReply, FastifyRequest } from 'fastify';
 import type { Database } from '../db/client.ts';
-import { verifyToken, type Principal, type Role } from '../db/repositories/accounts.ts';
+import { isTokenCached, verifyToken, type Principal, type Role } from '../db/repositories/accounts.ts';
+import { memoryThrottle, redisThrottle, type AuthThrottle } from './auth-throttle.ts';
 import { ApiError, sendError } from './errors.ts';
 
 export type { Principal, Role };
@@ -60,11 +61,74 @@ export function isPublicPath(path: string): boolean {
   return publicApiPaths.has(path) || !path.startsWith('/api/v1/');
 }
 
-export function installAuth(app: FastifyInstance, db: Database): void {
+/**
+ * The path as a router could understand it: percent-decoded (repeatedly, so `%2561` cannot
+ * hide an `a`), backslashes as slashes, runs of slashes collapsed, `.` and `..` segments
+ * resolved (RFC 3986 §5.2.4) and lower-cased. Used only to decide whether a request that
+ * matched no route still belongs under /api/v1 (it then needs a token like any other).
+ */
+export function normalisedPath(url: string): string {
+  let path = url.split(/[?#]/)[0];
+  for (let i = 0; i < 4 && /%[0-9a-f]{2}/i.test(path); i++) {
+    try {
+      path = decodeURIComponent(path);
+    } catch {
+      break;
+    }
+  }
+  const out: string[] = [];
+  for (const segment of path.replace(/\\/g, '/').split('/')) {
+    if (segment === '' || segment === '.') continue;
+    if (segment === '..') out.pop();
+    else out.push(segment);
+  }
+  return `/${out.join('/')}`.toLowerCase();
+}
+
+/**
+ * Whether a request may pass without a token. Decided on the route the router matched (its
+ * pattern, e.g. `/api/v1/plans/:planId`), never on the raw URL: the router decodes the path,
+ * so `/%61pi/v1/plans` reaches `/api/v1/plans` and must be judged as that route. A request
+ * that matched nothing is judged on its normalised path (it is a 404 either way, but under
+ * /api/v1 it answers 401 first, as it always has).
+ */
+export function isPublicRequest(request: FastifyRequest): boolean {
+  const pattern = request.routeOptions?.url;
+  if (pattern) return isPublicPath(pattern);
+  const path = normalisedPath(request.url);
+  return !(path === '/api/v1' || path.startsWith('/api/v1/'));
+}
+
+class Throttled extends Error {
+  constructor(readonly retryAfterS: number) {
+    super('throttled');
+  }
+}
+
+export function installAuth(app: FastifyInstance, db: Database, options: { throttle?: AuthThrottle; redisUrl?: string; redisPrefix?: string } = {}): void {
   app.decorateRequest('principal', undefined as unknown as Principal);
+  const throttle = options.throttle ?? (options.redisUrl ? redisThrottle(options.redisUrl, options.redisPrefix ?? 'earshot:') : memoryThrottle());
+  app.addHook('onClose', async () => throttle.close());
+  // Concurrent requests with the same not-yet-cached token share one verification (one scrypt,
+  // one throttle attempt) instead of each paying for it.
+  const inFlight = new Map<string, Promise<Principal | null>>();
+  const check = (address: string, token: string): Promise<Principal | null> => {
+    if (isTokenCached(db, token)) return verifyToken(db, token);
+    let pending = inFlight.get(token);
+    if (!pending) {
+      pending = (async () => {
+        const gate = await throttle.begin(address);
+        if (!gate.allowed) throw new Throttled(gate.retryAfterS);
+        const principal = await verifyToken(db, token);
+        if (principal) await throttle.succeeded(address);
+        return principal;
+      })().finally(() => inFlight.delete(token));
+      inFlight.set(token, pending);
+    }
+    return pending;
+  };
   app.addHook('onRequest', async (request: FastifyRequest, reply: FastifyReply) => {
-    const path = request.url.split('?')[0];
-    if (isPublicPath(path)) return;
+    if (isPublicRequest(request)) return;
     const bearer = bearerToken(request);
     if (bearer === '') return sendError(reply, 401, 'unauthorized', 'Authorization header must be "Bearer <token>"');
     let token: string;
@@ -78,7 +142,14 @@ export function installAuth(app: FastifyInstance, db: Database): void {
       }
       token = cookie;
     }
-    const principal = await verifyToken(db, token);
+    let principal: Principal | null;
+    try {
+      principal = await check(request.ip, token);
+    } catch (error) {
+      if (!(error instanceof Throttled)) throw error;
+      reply.header('retry-after', String(error.retryAfterS));
+      return sendError(reply, 429, 'rate_limited', `too many failed sign-ins from this address; retry in ${error.retryAfterS} s`);
+    }
     if (!principal) return sendError(reply, 401, 'unauthorized', 'token is unknown, revoked or expired');
     request.principal = { userId: principal.userId, teamId: principal.teamId, role: principal.role, tokenId: principal.tokenId };
   });

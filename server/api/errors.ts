@@ -4,9 +4,11 @@
 import type { FastifyError, FastifyInstance, FastifyReply, FastifyRequest } from 'fastify';
 import { hasZodFastifySchemaValidationErrors, isResponseSerializationError } from 'fastify-type-provider-zod';
 import { ConflictError, NotFoundError, VersionConflictError } from '../db/errors.ts';
+import { InvalidCursorError } from '../db/repositories/pagination.ts';
 import { AppError, type AppErrorKind } from '../app/errors.ts';
 import { PlanSettingsError } from '../planning/settings.ts';
 import { CoverageInputError } from '../coverage/terrain-window.ts';
+import { InvalidPatternError } from '../radio/pattern-schema.ts';
 
 /** HTTP status of each engine / use-case error kind (the only place kinds become statuses). */
 export const STATUS_OF_KIND: Record<AppErrorKind, number> = {
@@ -23,6 +25,7 @@ export function apiErrorOf(error: unknown): ApiError | null {
   if (error instanceof ApiError) return error;
   if (error instanceof AppError) return new ApiError(STATUS_OF_KIND[error.kind], error.code, error.message);
   if (error instanceof PlanSettingsError) return new ApiError(422, 'invalid_plan_settings', error.message);
+  if (error instanceof InvalidPatternError) return new ApiError(422, 'invalid_kit', error.message);
   if (error instanceof CoverageInputError) return new ApiError(error.code === 'too_many_cells' ? 413 : 422, error.code, error.message);
   return null;
 }
@@ -71,6 +74,25 @@ export function sendError(reply: FastifyReply, statusCode: number, code: string,
   return reply.status(statusCode).type('application/json; charset=utf-8').send(errorBody(code, message, extra));
 }
 
+// Database refusals that can only come from a value in the request (a safety net behind the
+// input guard and the schemas): PostgreSQL SQLSTATE 22xxx "data exception" codes (PostgreSQL
+// manual, Appendix A) and the Prisma codes for a value that does not fit its column.
+const inputSqlStates = new Set(['22001', '22003', '22021', '22P02', '22P05', '22008', '22007', '54001']);
+const inputPrismaCodes = new Set(['P2000', 'P2006', 'P2007', 'P2019', 'P2020', 'P2023', 'P2033']);
+
+function databaseInputError(error: unknown): string | null {
+  if (!error || typeof error !== 'object') return null;
+  const candidate = error as { code?: unknown; name?: unknown; meta?: { driverAdapterError?: { cause?: { originalCode?: unknown; kind?: unknown } } } };
+  const cause = candidate.meta?.driverAdapterError?.cause;
+  if (typeof cause?.originalCode === 'string' && inputSqlStates.has(cause.originalCode)) return cause.originalCode;
+  if (typeof candidate.code === 'string' && inputPrismaCodes.has(candidate.code) && /^PrismaClient/.test(String(candidate.name ?? (error as Error).constructor?.name))) return candidate.code;
+  if (typeof candidate.code === 'string' && inputSqlStates.has(candidate.code) && typeof (error as { severity?: unknown }).severity === 'string') return candidate.code; // node-postgres error
+  return null;
+}
+
+// Malformed multipart bodies (busboy and @fastify/multipart): the client's fault, never a 500.
+const multipartProblem = /^(Unexpected end of (form|multipart data)|Malformed part header|Multipart: Boundary not found|Malformed urlencoded form)/i;
+
 export function installErrorHandlers(app: FastifyInstance): void {
   app.setNotFoundHandler((request: FastifyRequest, reply: FastifyReply) =>
     sendError(reply, 404, 'not_found', `no route ${request.method} ${request.url.split('?')[0]}`),
@@ -85,6 +107,8 @@ export function installErrorHandlers(app: FastifyInstance): void {
       return sendError(reply, 409, 'version_conflict', error.message, { currentVersion: error.currentVersion });
     }
     if (error instanceof ConflictError) return sendError(reply, 409, 'conflict', error.message);
+    if (error instanceof InvalidPatternError) return sendError(reply, 422, 'invalid_kit', error.message);
+    if (error instanceof InvalidCursorError) return sendError(reply, 400, 'invalid_input', error.message);
     if (hasZodFastifySchemaValidationErrors(error)) {
       const context = (error as { validationContext?: string }).validationContext;
       return sendError(reply, 400, 'invalid_input', describeValidation(error.validation, context));
@@ -108,6 +132,17 @@ export function installErrorHandlers(app: FastifyInstance): void {
     }
     if (error instanceof SyntaxError && fastifyError.statusCode === 400) {
       return sendError(reply, 400, 'invalid_json', `body: not valid JSON (${error.message})`);
+    }
+    const dbInput = databaseInputError(error);
+    if (dbInput) {
+      request.log.warn({ err: error, code: dbInput }, 'database refused a value from the request');
+      return sendError(reply, 400, 'invalid_input', 'body: a value is out of range for its field or holds characters that cannot be stored');
+    }
+    if (multipartProblem.test(error.message) || /^FST_(INVALID_MULTIPART|PARTS_LIMIT|FILES_LIMIT|FIELDS_LIMIT|PROTO_VIOLATION)/.test(String(fastifyError.code ?? ''))) {
+      return sendError(reply, 400, 'invalid_multipart', `body: malformed multipart/form-data (${error.message.split('\n')[0]})`);
+    }
+    if (error instanceof RangeError && /call stack/i.test(error.message)) {
+      return sendError(reply, 400, 'invalid_input', 'body: nested too deeply');
     }
     if (fastifyError.statusCode === 429) return sendError(reply, 429, 'rate_limited', 'too many requests; wait and retry');
     if (fastifyError.validation) {

@@ -75,32 +75,51 @@ const aliases: Record<string, string> = {
   height: 'antennaHeightAglM',
 };
 
+/**
+ * How another importer (e.g. field readings, server/app/readings-import.ts) reads the same
+ * formats: its numeric columns, its header aliases (lower case, camel-cased words), whether a
+ * GeoJSON feature must have a Point, and whether a plain JSON array of records is accepted.
+ */
+export interface ImportFormat {
+  numericFields: ReadonlySet<string>;
+  aliases: Readonly<Record<string, string>>;
+  geometry: 'required' | 'optional';
+  jsonArrays: boolean;
+}
+
+const nodeFormat: ImportFormat = { numericFields, aliases, geometry: 'required', jsonArrays: false };
+
 /** "Device Type", "device_type", "device-type" -> "deviceType"; then aliases. */
-export function normaliseHeader(header: string, known: readonly string[]): string {
+export function normaliseHeader(header: string, known: readonly string[], headerAliases: Readonly<Record<string, string>> = aliases): string {
   const words = header.trim().split(/[\s_-]+/).filter(Boolean);
   const camel = words.map((word, index) => (index === 0 ? word.toLowerCase() : word[0].toUpperCase() + word.slice(1).toLowerCase())).join('');
   const exact = known.find((field) => field.toLowerCase() === camel.toLowerCase());
   if (exact) return exact;
-  return aliases[camel.toLowerCase()] ?? camel;
+  return headerAliases[camel.toLowerCase()] ?? camel;
 }
 
-function cellValue(field: string, raw: string): unknown {
+const decimalNumber = /^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$/;
+
+function cellValue(field: string, raw: string, format: ImportFormat): unknown {
   const value = raw.trim();
   if (value === '') return undefined;
-  if (numericFields.has(field)) {
+  if (format.numericFields.has(field)) {
+    // Plain decimal only (optional sign, fraction and exponent): Number() would also read
+    // "0x10" as 16, "0b1" as 1, "Infinity" and "1_0"-free oddities, which no sheet means.
+    if (!decimalNumber.test(value)) return value; // the schema reports "must be a number"
     const number = Number(value);
-    return Number.isFinite(number) ? number : value; // the schema reports "must be a number"
+    return Number.isFinite(number) ? number : value;
   }
   return value;
 }
 
-/** Raw records from a CSV text or a GeoJSON object. */
-export function importRecords(body: unknown, known: readonly string[]): Record<string, unknown>[] {
+/** Raw records from a CSV text or a GeoJSON object (or, where the format allows, a JSON array of records). */
+export function importRecords(body: unknown, known: readonly string[], format: ImportFormat = nodeFormat): Record<string, unknown>[] {
   if (typeof body === 'string') {
     const trimmed = body.trim();
-    if (trimmed.startsWith('{')) {
+    if (trimmed.startsWith('{') || (format.jsonArrays && trimmed.startsWith('['))) {
       try {
-        return importRecords(JSON.parse(trimmed), known);
+        return importRecords(JSON.parse(trimmed), known, format);
       } catch (error) {
         if (error instanceof ImportFormatError) throw error;
         throw new ImportFormatError('body: looks like JSON but does not parse');
@@ -108,27 +127,36 @@ export function importRecords(body: unknown, known: readonly string[]): Record<s
     }
     const rows = parseCsv(body);
     if (rows.length < 2) throw new ImportFormatError('CSV: needs a header row and at least one data row');
-    const headers = rows[0].map((header) => normaliseHeader(header, known));
+    const headers = rows[0].map((header) => normaliseHeader(header, known, format.aliases));
     return rows.slice(1).map((cells) => {
       const record: Record<string, unknown> = {};
       headers.forEach((header, index) => {
-        const value = cellValue(header, cells[index] ?? '');
+        const value = cellValue(header, cells[index] ?? '', format);
         if (value !== undefined) record[header] = value;
       });
       return record;
     });
   }
+  if (format.jsonArrays && Array.isArray(body)) {
+    return body.map((item: unknown) => {
+      const record: Record<string, unknown> = {};
+      if (item && typeof item === 'object' && !Array.isArray(item)) for (const [key, value] of Object.entries(item)) record[normaliseHeader(key, known, format.aliases)] = value;
+      return record;
+    });
+  }
   const collection = body as { type?: unknown; features?: unknown };
   if (!collection || typeof collection !== 'object' || collection.type !== 'FeatureCollection' || !Array.isArray(collection.features)) {
-    throw new ImportFormatError('body: send CSV (text/csv) or a GeoJSON FeatureCollection of Point features');
+    throw new ImportFormatError(format.jsonArrays ? 'body: send CSV (text/csv), a JSON array of records or a GeoJSON FeatureCollection' : 'body: send CSV (text/csv) or a GeoJSON FeatureCollection of Point features');
   }
-  return collection.features.map((feature: { geometry?: { type?: string; coordinates?: unknown }; properties?: Record<string, unknown> | null }, index) => {
+  return collection.features.map((feature: { geometry?: { type?: string; coordinates?: unknown } | null; properties?: Record<string, unknown> | null }, index) => {
     const record: Record<string, unknown> = {};
-    for (const [key, value] of Object.entries(feature?.properties ?? {})) record[normaliseHeader(key, known)] = value;
+    for (const [key, value] of Object.entries(feature?.properties ?? {})) record[normaliseHeader(key, known, format.aliases)] = value;
     const geometry = feature?.geometry;
     if (geometry?.type === 'Point' && Array.isArray(geometry.coordinates) && geometry.coordinates.length >= 2) {
       record.lon = geometry.coordinates[0];
       record.lat = geometry.coordinates[1];
+    } else if (format.geometry === 'optional' && (geometry === null || geometry === undefined)) {
+      // a feature without a place: the record carries no position
     } else {
       record.__geometryError = `feature ${index + 1}: geometry must be a Point [lon, lat]`;
     }

@@ -1,6 +1,13 @@
 // Shared zod pieces for request and response schemas. Messages name the rule; the error
 // handler (errors.ts) puts the field path in front.
 import { z } from 'zod';
+import { decodeCursor, InvalidCursorError } from '../db/repositories/pagination.ts';
+
+/** Largest value of a PostgreSQL INTEGER column (the `version` columns and other Int fields). */
+export const int32Max = 2_147_483_647;
+/** A whole number that fits an INTEGER column. */
+export const int32 = () =>
+  z.number({ error: 'must be a number' }).int('must be a whole number').min(-int32Max - 1, `must be ≥ ${-int32Max - 1}`).max(int32Max, `must be ≤ ${int32Max}`);
 
 export const latitude = () => z.number({ error: 'must be a number' }).min(-90, 'latitude must be within ±90°').max(90, 'latitude must be within ±90°');
 export const longitude = () =>
@@ -10,12 +17,24 @@ export const notes = () => z.string().max(10_000, 'must be at most 10000 charact
 export const finite = () => z.number({ error: 'must be a finite number' });
 export const nonNegative = () => finite().min(0, 'must be ≥ 0');
 export const positive = () => finite().positive('must be > 0');
-export const version = () => z.number({ error: 'must be the version you read' }).int('must be a whole number').min(1, 'must be ≥ 1');
+export const version = () => z.number({ error: 'must be the version you read' }).int('must be a whole number').min(1, 'must be ≥ 1').max(int32Max, `must be ≤ ${int32Max}`);
 export const id = () => z.string().min(1, 'must not be empty').max(100, 'too long');
 
 export const pageQuery = z.strictObject({
   limit: z.coerce.number().int('must be a whole number').min(1, 'must be ≥ 1').max(1000, 'must be ≤ 1000').optional(),
-  cursor: z.string().max(100).optional(),
+  cursor: z
+    .string()
+    .max(100)
+    .refine((cursor) => {
+      try {
+        decodeCursor(cursor);
+        return true;
+      } catch (error) {
+        if (error instanceof InvalidCursorError) return false;
+        throw error;
+      }
+    }, 'not a cursor this server handed out (use the `next` of the previous page)')
+    .optional(),
 });
 
 export const planParams = z.strictObject({ planId: id() });
@@ -35,8 +54,30 @@ export function pageOf<T extends z.ZodType>(item: T) {
   return z.object({ items: z.array(item), total: z.number().int(), next: z.string().nullable() });
 }
 
-/** JSON values as stored in Json columns. */
-export const jsonObject = z.record(z.string(), z.unknown());
+/** Deepest nesting and largest size of a free-form JSON object (plan settings, antenna pattern, kit details). */
+export const maxJsonFieldDepth = 12;
+export const maxJsonFieldBytes = 256 * 1024;
+
+function jsonDepth(value: unknown, limit: number): number {
+  // Iterative, so a hostile value cannot overflow the stack; stops counting past the limit.
+  let deepest = 0;
+  const stack: [unknown, number][] = [[value, 0]];
+  while (stack.length > 0) {
+    const [current, depth] = stack.pop()!;
+    if (current === null || typeof current !== 'object') continue;
+    const level = depth + 1;
+    if (level > deepest) deepest = level;
+    if (deepest > limit) return deepest;
+    for (const child of Object.values(current as Record<string, unknown>)) stack.push([child, level]);
+  }
+  return deepest;
+}
+
+/** JSON values as stored in Json columns: an object, at most 12 levels deep and 256 KB as JSON. */
+export const jsonObject = z
+  .record(z.string(), z.unknown())
+  .refine((value) => jsonDepth(value, maxJsonFieldDepth) <= maxJsonFieldDepth, `must be nested at most ${maxJsonFieldDepth} levels deep`)
+  .refine((value) => Buffer.byteLength(JSON.stringify(value) ?? '') <= maxJsonFieldBytes, `must be at most ${maxJsonFieldBytes / 1024} KB as JSON`);
 
 export const dateTime = z.date().or(z.string());
 

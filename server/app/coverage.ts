@@ -66,7 +66,7 @@ export async function resolveCoverageRequest(
   config: Config,
   plan: PlanRow,
   request: CoverageRequest,
-  calibration: AppliedCalibration | null = null,
+  calibration?: AppliedCalibration | null,
 ): Promise<CoverageJobParams> {
   const db: Database = engine.database;
   const ctx = await planContextFor(engine, plan, calibration);
@@ -167,6 +167,8 @@ export async function resolveCoverageRequest(
     messagesPerHour: 1,
     environment: kit.environment ?? 'outdoor',
     buildingType: null,
+    devEui: null,
+    originId: null,
     installStatus: 'planned',
     notes: '',
     version: 1,

@@ -10,7 +10,9 @@ import { decodeCursor, encodeCursor } from '../db/repositories/pagination.ts';
 import type { PlanRow } from '../db/repositories/plans.ts';
 import { installCautions, linkCheck } from '../planning/check.ts';
 import type { LinkResult } from '../planning/link.ts';
-import { PlanSettingsError } from '../planning/settings.ts';
+import { fleetReferenceSpread, PlanSettingsError } from '../planning/settings.ts';
+import { InvalidPatternError } from '../radio/pattern-schema.ts';
+import { gatewaysHeard, linksLegal } from './plan-figures.ts';
 import { describeSpread, planningSpread, type AppliedCalibration, type PlanningSpread } from '../planning/spread.ts';
 import type { LinkStatus } from '../planning/status.ts';
 import { LinkEngine, LinkInputError, type KitOverrides, type NodeLinksOutcome, type PlanContext } from '../jobs/link-engine.ts';
@@ -24,8 +26,9 @@ export type { RecommendRequest };
  * The plan context every link use case starts from. `calibration`: the plan's applied
  * calibration (its fitted spread replaces σL and σM; see server/planning/spread.ts).
  */
-export async function planContextFor(engine: LinkEngine, plan: PlanRow, calibration: AppliedCalibration | null = null): Promise<PlanContext> {
-  return engine.planContext(plan, { calibration });
+export async function planContextFor(engine: LinkEngine, plan: PlanRow, calibration?: AppliedCalibration | null): Promise<PlanContext> {
+  // Left out: the calibration applied to the plan (the engine looks it up); null: the model as is.
+  return engine.planContext(plan, calibration === undefined ? {} : { calibration });
 }
 
 /** The spread of a node's links (all links of a node share its end: one σ), or the node's in the open without links. */
@@ -37,7 +40,7 @@ export function nodeSpread(ctx: PlanContext, outcome: NodeLinksOutcome): Plannin
 
 /** Plan-wide spread figures of the fleet table: σ of a node at 1.5 m in the open; each row carries its own sigmaDb. */
 export function fleetAssumptions(ctx: PlanContext) {
-  const spread = planningSpread({ ...ctx.settings.spread, frequencyMhz: ctx.settings.frequencyMhz, nodeAntennaHeightAglM: 1.5, nodeClutterHeightM: 0 });
+  const spread = fleetReferenceSpread(ctx.settings);
   return { sigmaDb: spread.sigmaDb, sigmaSource: spread.sigmaSource, sigmaModelDb: spread.sigmaModelDb, sigmaNote: describeSpread(spread, ctx.settings.spread) };
 }
 
@@ -91,7 +94,7 @@ export type NodeLinksView = ReturnType<typeof nodeLinksView>;
  * A node's links (GET …/nodes/:nodeId/links). Kit overrides preview another kit without
  * saving; unchanged inputs are answered from the engine's front cache (one fingerprint query).
  */
-export async function nodeLinks(engine: LinkEngine, plan: PlanRow, nodeId: string, overrides: KitOverrides = {}, calibration: AppliedCalibration | null = null): Promise<NodeLinksView & { preview: boolean }> {
+export async function nodeLinks(engine: LinkEngine, plan: PlanRow, nodeId: string, overrides: KitOverrides = {}, calibration?: AppliedCalibration | null): Promise<NodeLinksView & { preview: boolean }> {
   const preview = Object.values(overrides).some((v) => v !== undefined);
   const key = preview ? null : await engine.frontKey(plan, nodeId, calibration);
   if (key !== null) {
@@ -112,7 +115,7 @@ export interface FleetQuery {
 }
 
 /** The fleet table (GET /plans/:planId/links): every node with its status, paginated, with counts. */
-export async function fleetTable(engine: LinkEngine, plan: PlanRow, query: FleetQuery = {}, calibration: AppliedCalibration | null = null) {
+export async function fleetTable(engine: LinkEngine, plan: PlanRow, query: FleetQuery = {}, calibration?: AppliedCalibration | null) {
   const ctx = await planContextFor(engine, plan, calibration);
   const outcomes = await engine.fleet(ctx);
   const counts = { served: 0, marginal: 0, unserved: 0 };
@@ -144,8 +147,8 @@ export async function fleetTable(engine: LinkEngine, plan: PlanRow, query: Fleet
         sigmaDb: best ? best.sigmaDb : null,
         bestSf: best ? best.bestSf : null,
         timeOnAirMs: best ? best.timeOnAirMs : null,
-        gatewaysHeard: o.links.filter((link) => link.marginDb >= 0).length,
-        legal: o.links.every((link) => link.legal === null || link.legal.withinLimit),
+        gatewaysHeard: gatewaysHeard(o.links),
+        legal: linksLegal(o.links),
         warnings: o.node.warnings,
       };
     }),
@@ -159,7 +162,7 @@ export async function fleetTable(engine: LinkEngine, plan: PlanRow, query: Fleet
 }
 
 /** The installer's link check of the best link, or of `gatewayId` (GET …/nodes/:nodeId/check). */
-export async function nodeLinkCheck(engine: LinkEngine, plan: PlanRow, nodeId: string, gatewayId?: string, calibration: AppliedCalibration | null = null) {
+export async function nodeLinkCheck(engine: LinkEngine, plan: PlanRow, nodeId: string, gatewayId?: string, calibration?: AppliedCalibration | null) {
   const ctx = await planContextFor(engine, plan, calibration);
   const outcome = await engine.linksForNode(ctx, nodeId);
   const wanted = gatewayId ?? outcome.bestGatewayId;
@@ -191,34 +194,39 @@ export async function nodeLinkCheck(engine: LinkEngine, plan: PlanRow, nodeId: s
 }
 
 /** Kit options for one node (POST …/nodes/:nodeId/recommend). */
-export async function nodeRecommendation(engine: LinkEngine, plan: PlanRow, nodeId: string, request: RecommendRequest = {}, calibration: AppliedCalibration | null = null) {
+export async function nodeRecommendation(engine: LinkEngine, plan: PlanRow, nodeId: string, request: RecommendRequest = {}, calibration?: AppliedCalibration | null) {
   const ctx = await planContextFor(engine, plan, calibration);
   const row = await engine.nodeRow(ctx, nodeId);
   return recommendForNode(engine, ctx, row, request);
 }
 
 /** The installer's visit sheet (a recommendation only when the node is not served). */
-export async function nodeVisitSheet(engine: LinkEngine, plan: PlanRow, nodeId: string, calibration: AppliedCalibration | null = null) {
+export async function nodeVisitSheet(engine: LinkEngine, plan: PlanRow, nodeId: string, calibration?: AppliedCalibration | null) {
   const ctx = await planContextFor(engine, plan, calibration);
   const outcome = await engine.linksForNode(ctx, nodeId);
   const recommendation = outcome.status === 'served' ? null : await recommendForNode(engine, ctx, outcome.node.row, {});
-  return visitSheet(ctx, outcome, recommendation);
+  return visitSheet(ctx, outcome, recommendation, (await loadCatalog(engine.database, ctx.teamId)).masts);
 }
 
 /**
  * Starts the fleet kit recommendation as a job (its row and audit entry first, then the
  * work in the background). Returns the job and the promise of the work.
  */
-export async function startFleetRecommendation(engine: LinkEngine, plan: PlanRow, principal: Principal, body: RecommendRequest, processId: string, calibration: AppliedCalibration | null = null) {
+/** Where a background job reports what went wrong (the API passes its request logger). */
+export interface JobLog {
+  error(detail: Record<string, unknown>, message: string): void;
+}
+
+export async function startFleetRecommendation(engine: LinkEngine, plan: PlanRow, principal: Principal, body: RecommendRequest, processId: string, log: JobLog, calibration?: AppliedCalibration | null) {
   const ctx = await planContextFor(engine, plan, calibration);
   const db = engine.database;
   const job = await createKitJob(db, plan.id, body, principal.userId, processId);
   await recordAudit(db, { principal, action: 'create', entity: 'kit-recommendation', entityId: job.id, detail: { planId: plan.id } });
-  const work = runFleetRecommendation(engine, ctx, job.id, body);
+  const work = runFleetRecommendation(engine, ctx, job.id, body, log);
   return { job, work };
 }
 
-async function runFleetRecommendation(engine: LinkEngine, ctx: PlanContext, jobId: string, body: RecommendRequest): Promise<void> {
+async function runFleetRecommendation(engine: LinkEngine, ctx: PlanContext, jobId: string, body: RecommendRequest, log: JobLog): Promise<void> {
   const db = engine.database;
   try {
     const catalog = await loadCatalog(db, ctx.teamId);
@@ -241,8 +249,11 @@ async function runFleetRecommendation(engine: LinkEngine, ctx: PlanContext, jobI
     }
     await updateKitJob(db, jobId, { status: 'done', progress: 1, summary: { counts, nodes } });
   } catch (error) {
-    const message = error instanceof AppError || error instanceof PlanSettingsError ? error.message : 'the recommendation failed; see the server log';
-    await updateKitJob(db, jobId, { status: 'failed', error: message }).catch(() => undefined);
+    const known = error instanceof AppError || error instanceof PlanSettingsError || error instanceof InvalidPatternError;
+    // The cause goes to the log with the job id, so "see the server log" leads somewhere.
+    log.error({ err: error, jobId, planId: ctx.plan.id }, 'fleet recommendation job failed');
+    const message = known ? (error as Error).message : `the recommendation failed (job ${jobId}); the server log has the cause under this job id`;
+    await updateKitJob(db, jobId, { status: 'failed', error: message }).catch((writeError: unknown) => log.error({ err: writeError, jobId }, 'could not record the failed job'));
   }
 }
 

@@ -8,9 +8,11 @@ import type { NodeRow } from '../db/repositories/nodes.ts';
 import type { AntennaDesign } from '../radio/antennas.ts';
 import type { FeedlineType } from '../radio/feedlines.ts';
 import type { MastOption } from '../radio/masts.ts';
+import { nodeKitPrice } from './kit-price.ts';
+import type { KitPrice } from '../planning/kit-price.ts';
 import { nodeLinkResults, summariseNodeLinks } from '../planning/node-links.ts';
 import { predictPath, type PathPrediction } from '../planning/path.ts';
-import { recommendKit, type KitCandidate, type KitEvaluation, type Recommendation } from '../planning/recommend.ts';
+import { recommendKit, type KitCandidate, type KitEvaluation, type RankedKitOption, type Recommendation } from '../planning/recommend.ts';
 import { LinkInputError, nodeConnectors, type GatewayContext, type LinkEngine, type PlanContext } from '../jobs/link-engine.ts';
 
 export interface RecommendRequest {
@@ -22,7 +24,15 @@ export interface RecommendRequest {
   maxCost?: number;
 }
 
-export interface NodeRecommendation extends Recommendation {
+export interface PricedKitOption extends RankedKitOption {
+  antennaName: string;
+  feedlineName: string | null;
+  mastName: string | null;
+  price: KitPrice;
+}
+
+export interface NodeRecommendation extends Omit<Recommendation, 'options'> {
+  options: PricedKitOption[];
   nodeId: string;
   target: { targetMarginDb: number; targetDelivery: number };
   currentKit: { antennaDesignId: string; antennaHeightAglM: number; feedlineId: string | null; feedlineLengthM: number };
@@ -138,11 +148,20 @@ export async function recommendForNode(engine: LinkEngine, ctx: PlanContext, row
     target,
     maxCost: request.maxCost,
   });
+  // Each option carries the one kit price with part names (server/app/kit-price.ts): the
+  // figure the chooser, the installer view and the visit sheet show for the same kit.
+  const pricedOptions = result.options.map((option) => {
+    const antenna = antennaById.get(option.antennaDesignId) as AntennaDesign;
+    const feedline = option.feedlineId ? (feedlineById.get(option.feedlineId) ?? null) : null;
+    const price = nodeKitPrice({ antenna, feedline, feedlineLengthM: option.feedlineLengthM, antennaHeightAglM: option.mastHeightM, mastOptionId: option.mastOptionId }, kit.masts);
+    return { ...option, antennaName: antenna.name, feedlineName: feedline?.name ?? null, mastName: price.mastName, price };
+  });
   return {
     nodeId: row.id,
     target,
     currentKit: { antennaDesignId: row.antennaDesignId, antennaHeightAglM: row.antennaHeightAglM, feedlineId: row.feedlineId, feedlineLengthM: row.feedlineLengthM },
     ...result,
+    options: pricedOptions,
     catalog: {
       antennas: antennas.map((a) => ({ id: a.id, name: a.name, costUsd: a.costUsd })),
       masts: masts.map((m) => ({ heightM: m.mastHeightM, mastOptionId: m.mastOptionId, costUsd: m.costUsd })),

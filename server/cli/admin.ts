@@ -9,7 +9,8 @@ import { loadConfig } from '../config.ts';
 import { dataFolderHolder, openDatabase, type Database } from '../db/client.ts';
 import { adminTeamAdd, adminTokenIssue, adminTokenRevoke, teamAddInput, tokenIssueInput, tokenRevokeInput } from '../db/repositories/admin-ops.ts';
 import { ConflictError, NotFoundError } from '../db/errors.ts';
-import { CliUsageError, defineCommand, stringOption, type CliCommand } from './framework.ts';
+import { CliUsageError, defineCommand, describeOptionError, flagOption, integerOption, stringOption, type CliCommand } from './framework.ts';
+import { invitationDays, publicBaseUrl, signInLink } from '../app/team-access.ts';
 import { callRunningServer, readRunningServer } from './running-server.ts';
 
 function pidAlive(pid: number): boolean {
@@ -75,15 +76,30 @@ export const adminCommands: CliCommand[] = [
   }),
   defineCommand({
     words: 'token issue',
-    summary: 'Issue an API token (--team <slug> --role planner|installer|viewer [--name <user>])',
-    options: z.strictObject({ team: stringOption(), role: roleOption, name: stringOption().optional() }),
+    summary: 'Issue an API token, or with --link a one-time sign-in link for a teammate',
+    options: z.strictObject({
+      team: stringOption().describe('team slug'),
+      role: roleOption.describe('role of the user'),
+      name: stringOption().optional().describe('user name (default: the team\'s first user of that role)'),
+      link: flagOption().describe('issue a one-time sign-in link (valid --days days) instead of an API token'),
+      days: integerOption().optional().describe('days the token or link stays valid (link default 7)'),
+    }),
+    examples: ['earshot token issue --team demo --role installer --name "Ana (field)" --link --json'],
     async run(options) {
-      const input = tokenIssueInput.parse({ team: options.team, role: options.role, name: options.name });
-      return runAdminOperation('token-issue', input);
+      const oneTime = options.link;
+      const input = tokenIssueInput.safeParse({ team: options.team, role: options.role, name: options.name, oneTime: oneTime || undefined, expiresInDays: options.days ?? (oneTime ? invitationDays : undefined) });
+      if (!input.success) throw new CliUsageError(describeOptionError(input.error).replace('--expiresInDays', '--days'));
+      const issued = (await runAdminOperation('token-issue', input.data)) as { token: string; role: string; team: string; expiresAt: string | Date | null };
+      if (!oneTime) return issued;
+      const config = loadConfig();
+      const port = readRunningServer(config)?.port ?? config.port;
+      return { ...issued, link: signInLink(publicBaseUrl(config, port), issued.token) };
     },
     formatText: (result) => {
-      const issued = result as { token: string; role: string; team: string };
-      return `${issued.token}\n(${issued.role} token for team ${issued.team}; shown once, valid until revoked)`;
+      const issued = result as { token: string; role: string; team: string; link?: string; expiresAt: string | Date | null };
+      const until = issued.expiresAt ? `valid until ${new Date(issued.expiresAt).toLocaleString()}` : 'valid until revoked';
+      if (issued.link) return `${issued.link}\n(one-time sign-in link for a ${issued.role} of team ${issued.team}; works once, ${until})`;
+      return `${issued.token}\n(${issued.role} token for team ${issued.team}; shown once, ${until})`;
     },
   }),
   defineCommand({

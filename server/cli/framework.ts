@@ -4,6 +4,7 @@
 // The dispatcher (server/cli.ts) prints that document with --json, or the
 // command's own text form without it; errors become one line on stderr.
 import { z } from 'zod';
+import type { HelpText } from './help-texts.ts';
 
 /** Raised for anything the user must fix; printed as one line, exit code 2. */
 export class CliUsageError extends Error {}
@@ -25,6 +26,8 @@ export interface CliCommand<S extends z.ZodType = z.ZodType> {
   /** Schema over the options with their kebab-case names as keys (values arrive as strings or `true`). */
   options: S;
   run: (options: z.infer<S>, context: CliContext) => Promise<unknown> | unknown;
+  /** Example command lines shown by `earshot <command> --help`. */
+  examples?: string[];
   /** Human-readable form when --json is not given; defaults to pretty JSON. */
   formatText?: (result: unknown) => string;
 }
@@ -116,3 +119,82 @@ export const flagOption = () =>
     .union([z.literal(true), z.enum(['on', 'off', 'true', 'false'])])
     .optional()
     .transform((value) => value === true || value === 'on' || value === 'true');
+
+interface ZodDefLike {
+  type?: string;
+  innerType?: z.ZodType;
+  in?: z.ZodType;
+  entries?: Record<string, string | number>;
+}
+
+interface OptionDoc {
+  name: string;
+  required: boolean;
+  description: string;
+  choices: string[];
+}
+
+/** Reads the option list out of a command's zod schema (names, required or not, `.describe()` texts, enum values). */
+export function describeOptions(schema: z.ZodType): OptionDoc[] {
+  const shape = (schema as unknown as { shape?: Record<string, z.ZodType> }).shape;
+  if (!shape) return [];
+  return Object.entries(shape).map(([name, field]) => {
+    let description = field.description ?? '';
+    let inner: z.ZodType | undefined = field;
+    const choices: string[] = [];
+    // Walk through optional/default/pipe wrappers to find a description and enum values.
+    for (let guard = 0; inner && guard < 6; guard++) {
+      if (!description && inner.description) description = inner.description;
+      const def: ZodDefLike | undefined = (inner as unknown as { def?: ZodDefLike }).def;
+      if (def?.type === 'enum' && def.entries) choices.push(...Object.values(def.entries).map(String));
+      inner = def?.innerType ?? def?.in;
+    }
+    const required = !field.safeParse(undefined).success;
+    return { name, required, description, choices };
+  });
+}
+
+/** The text of `earshot <command> --help`: summary, options (required first), examples. */
+export function commandHelp(command: CliCommand, texts: HelpText = {}): string {
+  const docs = describeOptions(command.options)
+    .map((doc) => ({ ...doc, description: doc.description || texts.options?.[doc.name] || '' }))
+    .sort((a, b) => Number(b.required) - Number(a.required));
+  const width = Math.max(8, ...docs.map((d) => d.name.length + 2));
+  const lines = [`usage: earshot ${command.words} [options] [--json]`, '', command.summary, ''];
+  if (docs.length === 0) lines.push('options: none');
+  else {
+    lines.push('options:');
+    for (const doc of docs) {
+      const notes = [doc.required ? 'required' : 'optional', doc.choices.length > 0 ? `one of ${doc.choices.join(' | ')}` : ''].filter(Boolean).join('; ');
+      lines.push(`  --${doc.name.padEnd(width)} ${doc.description ? `${doc.description} ` : ''}(${notes})`);
+    }
+  }
+  lines.push(`  --${'json'.padEnd(width)} print one JSON document instead of text`);
+  const examples = command.examples ?? texts.examples ?? [`earshot ${command.words}${docs.filter((d) => d.required).map((d) => ` --${d.name} <${d.name}>`).join('')}`];
+  lines.push('', examples.length > 1 ? 'examples:' : 'example:', ...examples.map((e) => `  ${e}`));
+  return lines.join('\n');
+}
+
+/**
+ * Plain-text form of a result for commands without their own formatText: indented
+ * "key: value" lines (JSON is printed only with --json).
+ */
+export function plainText(value: unknown, indent = ''): string {
+  if (value === null || value === undefined) return `${indent}–`;
+  if (typeof value !== 'object') return `${indent}${String(value)}`;
+  if (value instanceof Date) return `${indent}${value.toLocaleString()}`;
+  const lines: string[] = [];
+  if (Array.isArray(value)) {
+    if (value.length === 0) return `${indent}(none)`;
+    value.forEach((item, i) => {
+      if (item !== null && typeof item === 'object') lines.push(`${indent}${i + 1}.`, plainText(item, `${indent}  `));
+      else lines.push(`${indent}- ${String(item)}`);
+    });
+    return lines.join('\n');
+  }
+  for (const [key, item] of Object.entries(value as Record<string, unknown>)) {
+    if (item !== null && typeof item === 'object' && !(item instanceof Date)) lines.push(`${indent}${key}:`, plainText(item, `${indent}  `));
+    else lines.push(`${indent}${key}: ${item instanceof Date ? item.toLocaleString() : item === null || item === undefined ? '–' : String(item)}`);
+  }
+  return lines.join('\n');
+}

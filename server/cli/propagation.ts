@@ -15,7 +15,8 @@ import {
 import { extractProfile } from '../terrain/profile.ts';
 import { openTerrainStore, type TerrainStore } from '../terrain/store.ts';
 
-async function readInput(source: string, readStdin: () => Promise<string>): Promise<unknown> {
+/** Reads `--input` (a file, or `-` for standard input) as JSON; a read or parse failure is a usage error naming --input. */
+export async function readInput(source: string, readStdin: () => Promise<string>): Promise<unknown> {
   let text: string;
   try {
     text = source === '-' ? await readStdin() : await readFile(source, 'utf8');

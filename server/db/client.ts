@@ -10,6 +10,7 @@ import pg from 'pg';
 import { PrismaClient } from './generated/client.ts';
 import type { Config } from '../config.ts';
 import { applyMigrations, type RawSql } from './migrate.ts';
+import { commitCheckingPglite } from './pglite-commit.ts';
 import { syncBuiltInKit } from './repositories/kit.ts';
 
 export { PrismaClient };
@@ -143,7 +144,7 @@ async function openPglite(config: Config, options: OpenOptions): Promise<Databas
     await client.waitReady;
     const raw = pgliteRaw(client);
     if (!options.skipMigrations) await applyMigrations(raw);
-    const prisma = new PrismaClient({ adapter: new PrismaPGlite(client) });
+    const prisma = new PrismaClient({ adapter: commitCheckingPglite(new PrismaPGlite(client)) });
     const db: Database = {
       prisma,
       engine: 'pglite',

@@ -4,8 +4,8 @@
 // adding a new migration, never by rewriting an applied one). Works on PGlite and PostgreSQL.
 import { createHash } from 'node:crypto';
 import { existsSync, readdirSync, readFileSync } from 'node:fs';
-import { dirname, join } from 'node:path';
-import { fileURLToPath } from 'node:url';
+import { join } from 'node:path';
+import { projectRoot } from '../paths.ts';
 
 /** The minimum a raw SQL connection must offer (PGlite and a pg client both fit). */
 export interface RawSql {
@@ -21,7 +21,7 @@ export interface Migration {
   checksum: string;
 }
 
-export const migrationsDir = join(dirname(fileURLToPath(import.meta.url)), '..', '..', 'prisma', 'migrations');
+export const migrationsDir = join(projectRoot, 'prisma', 'migrations');
 
 export function loadMigrations(dir = migrationsDir): Migration[] {
   if (!existsSync(dir)) return [];

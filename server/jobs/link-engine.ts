@@ -27,6 +27,7 @@ import { hashOf, hashOfShared, LINK_ENGINE_VERSION, nodeAimAzimuthDeg, nodeLinkR
 import type { PathPrediction } from '../planning/path.ts';
 import { resolveLinkSettings, type ResolvedLinkSettings } from '../planning/settings.ts';
 import type { AppliedCalibration } from '../planning/spread.ts';
+import { findAppliedCalibration } from '../db/repositories/calibrations.ts';
 import { bearingsBetween } from '../planning/geometry.ts';
 
 /** Connectors assumed in a node's feedline run: two mated N/SMA pairs (common practice, 0.1 dB each). */
@@ -168,7 +169,8 @@ export class LinkEngine {
   }
 
   /** Fingerprint of a node's inputs: the plan row's version/time plus one query over the rest. */
-  async frontKey(plan: PlanRow, nodeId: string, calibration: AppliedCalibration | null = null): Promise<string> {
+  async frontKey(plan: PlanRow, nodeId: string, given?: AppliedCalibration | null): Promise<string> {
+    const calibration = given !== undefined ? given : await this.appliedCalibration(plan.id);
     const rest = await nodeLinkFingerprint(this.db, plan.id, nodeId, plan.teamId);
     return `${LINK_ENGINE_VERSION}|${plan.version}|${plan.updatedAt.toISOString()}|${calibration ? hashOf(calibration) : '-'}|${rest}`;
   }
@@ -243,6 +245,12 @@ export class LinkEngine {
     return cachedLookup(ctx.antennaCache, id, () => findAntennaDesignForTeam(this.db, ctx.teamId, id));
   }
 
+  /** The calibration applied to a plan, as the spread resolver takes it (null = none). */
+  private async appliedCalibration(planId: string): Promise<AppliedCalibration | null> {
+    const row = await findAppliedCalibration(this.db, planId);
+    return row ? { id: row.id, biasDb: row.biasDb, sigmaDb: row.sigmaDb } : null;
+  }
+
   private feedline(ctx: Pick<PlanContext, 'feedlineCache' | 'teamId'>, id: string): Promise<FeedlineType> {
     return cachedLookup(ctx.feedlineCache, id, () => findFeedlineForTeam(this.db, ctx.teamId, id));
   }
@@ -250,11 +258,15 @@ export class LinkEngine {
   /**
    * Loads a plan's settings, gateways and terrain. `options.calibration`: the plan's applied
    * calibration (fitted spread and bias); it enters every link's budget and the cache hash.
+   * Left out, the calibration applied to the plan (server/db/repositories/calibrations.ts) is
+   * used, so every caller (links, coverage, siting, capacity, reports) gets the same figures;
+   * null asks for the model as is (the calibration fit compares readings with that).
    */
   async planContext(plan: PlanRow, options: { calibration?: AppliedCalibration | null } = {}): Promise<PlanContext> {
     // Workers start with the first plan a process touches and stay (unref'd) for the next fleet.
     this.pool?.warm();
-    const settings = resolveLinkSettings(plan, { calibration: options.calibration ?? null });
+    const calibration = options.calibration !== undefined ? options.calibration : await this.appliedCalibration(plan.id);
+    const settings = resolveLinkSettings(plan, { calibration });
     const raw = plan.settings && typeof plan.settings === 'object' && !Array.isArray(plan.settings) ? (plan.settings as Record<string, unknown>) : {};
     const clutterHeightsM = raw.clutterHeightsM && typeof raw.clutterHeightsM === 'object' ? (raw.clutterHeightsM as Record<string, number>) : undefined;
     const { store, spec, signature } = await this.terrainFor(plan, clutterHeightsM);
@@ -278,11 +290,9 @@ export class LinkEngine {
     if (!store) ctx.warnings.push('no elevation layer in this plan: paths are predicted over a smooth earth at 0 m (upload terrain for real predictions)');
     const gatewayRows = await listGatewaysForLinks(this.db, plan.id);
     for (const row of gatewayRows) {
-      let antenna: AntennaDesign;
-      let feedline: FeedlineType;
+      let gateway: GatewayContext;
       try {
-        antenna = await this.antenna(ctx, row.antennaDesignId);
-        feedline = await this.feedline(ctx, row.feedlineId);
+        gateway = await this.gatewayContext(ctx, row);
       } catch (error) {
         if (error instanceof NotFoundError) {
           ctx.warnings.push(`gateway ${row.name}: ${error.message}; left out of the predictions`);
@@ -290,15 +300,25 @@ export class LinkEngine {
         }
         throw error;
       }
-      // A directional gateway antenna points where the row says (degrees from true north);
-      // null = omni, or aimed at each node (the link budget then takes the path's bearing).
-      // The aim enters the kit hash only when set, so cached omni rows stay valid.
-      const boresightAzimuthDeg = row.antennaAzimuthDeg ?? null;
-      const kit: EndKit = { antenna, boresightAzimuthDeg, feedline, feedlineLengthM: row.feedlineLengthM, connectors: row.feedlineLengthM > 0 ? connectorUses(GATEWAY_CONNECTORS) : [] };
-      const radio: GatewayRadio = { noiseFigureDb: row.noiseFigureDb };
-      ctx.gateways.push({ row, kit, radio, antenna, feedline, kitHash: hashOf({ a: hashOfShared(antenna, ctx.objectHashes), f: hashOfShared(feedline, ctx.objectHashes), length: row.feedlineLengthM, c: kit.connectors.map((u) => [u.connector.id, u.connector.lossDb, u.count]), radio, az: boresightAzimuthDeg ?? undefined }) });
+      ctx.gateways.push(gateway);
     }
     return ctx;
+  }
+
+  /**
+   * A gateway row (saved, or one that exists only as a siting candidate) with
+   * its kit resolved from the catalog; throws NotFoundError for an unknown kit id.
+   */
+  async gatewayContext(ctx: PlanContext, row: GatewayRow): Promise<GatewayContext> {
+    const antenna = await this.antenna(ctx, row.antennaDesignId);
+    const feedline = await this.feedline(ctx, row.feedlineId);
+    // A directional gateway antenna points where the row says (degrees from true north);
+    // null = omni, or aimed at each node (the link budget then takes the path's bearing).
+    // The aim enters the kit hash only when set, so cached omni rows stay valid.
+    const boresightAzimuthDeg = row.antennaAzimuthDeg ?? null;
+    const kit: EndKit = { antenna, boresightAzimuthDeg, feedline, feedlineLengthM: row.feedlineLengthM, connectors: row.feedlineLengthM > 0 ? connectorUses(GATEWAY_CONNECTORS) : [] };
+    const radio: GatewayRadio = { noiseFigureDb: row.noiseFigureDb };
+    return { row, kit, radio, antenna, feedline, kitHash: hashOf({ a: hashOfShared(antenna, ctx.objectHashes), f: hashOfShared(feedline, ctx.objectHashes), length: row.feedlineLengthM, c: kit.connectors.map((u) => [u.connector.id, u.connector.lossDb, u.count]), radio, az: boresightAzimuthDeg ?? undefined }) };
   }
 
   /** The node with its kit (saved, or overridden for a preview) resolved from the catalog. */
@@ -376,7 +396,8 @@ export class LinkEngine {
     return linkProfile(ctx.terrain, ctx.settings, from, to);
   }
 
-  private pathHash(ctx: PlanContext, node: ResolvedNode, gateway: GatewayContext): string {
+  /** Key of a node → gateway path in the cache and in `precomputed` maps. */
+  pathHash(ctx: PlanContext, node: ResolvedNode, gateway: GatewayContext): string {
     return hashOf({
       s: ctx.pathSettingsHash,
       n: [node.row.lat, node.row.lon, node.antennaHeightAglM],
@@ -583,6 +604,11 @@ export function nodeConnectors(hasFeedline: boolean): ConnectorUse[] {
   return hasFeedline ? connectorUses(NODE_CONNECTORS) : [];
 }
 
+/** Gateway connectors for a feedline run (as planContext assumes). */
+export function gatewayConnectors(hasFeedline: boolean): ConnectorUse[] {
+  return hasFeedline ? connectorUses(GATEWAY_CONNECTORS) : [];
+}
+
 /** Loss of those connectors, dB. */
 export function nodeConnectorLossDb(hasFeedline: boolean): number {
   return connectorLossDb(nodeConnectors(hasFeedline));
@@ -604,6 +630,6 @@ function brokenNodeOutcome(row: NodeRow, message: string): NodeLinksOutcome {
 }
 
 /** A path end of a node or gateway row at an antenna height. */
-function pathEnd(row: { lat: number; lon: number }, antennaHeightAglM: number) {
+export function pathEnd(row: { lat: number; lon: number }, antennaHeightAglM: number) {
   return { lat: row.lat, lon: row.lon, antennaHeightAglM };
 }

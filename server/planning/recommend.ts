@@ -90,6 +90,15 @@ export function meetsKitTarget(evaluation: KitEvaluation, target: KitTarget): bo
   return true;
 }
 
+/**
+ * Price of one kit: antenna + mast + feedline per metre × length, USD, to the cent.
+ * The one kit price: the recommendation ranks by it and the bill of materials
+ * (server/report/bom.ts) sums it, and siting prices its candidates' kit with it.
+ */
+export function kitCostUsd(antennaCostUsd: number, mastCostUsd: number, feedlineCostUsdPerM: number, feedlineLengthM: number): number {
+  return round2(antennaCostUsd + mastCostUsd + feedlineCostUsdPerM * feedlineLengthM);
+}
+
 /** All candidates of the catalog, cheapest first (ties: lower mast, then input order). */
 export function enumerateKitCandidates(input: Pick<RecommendationInput, 'antennas' | 'masts' | 'feedlines' | 'feedlineLengthForMastM' | 'maxCost'>): KitCandidate[] {
   const candidates: KitCandidate[] = [];
@@ -97,7 +106,7 @@ export function enumerateKitCandidates(input: Pick<RecommendationInput, 'antenna
     for (const mast of input.masts) {
       for (const feedline of input.feedlines) {
         const feedlineLengthM = feedline.feedlineId === null ? 0 : input.feedlineLengthForMastM(mast.mastHeightM);
-        const cost = round2(antenna.costUsd + mast.costUsd + feedline.costUsdPerM * feedlineLengthM);
+        const cost = kitCostUsd(antenna.costUsd, mast.costUsd, feedline.costUsdPerM, feedlineLengthM);
         if (input.maxCost !== undefined && cost > input.maxCost) continue;
         candidates.push({
           antennaDesignId: antenna.antennaDesignId,

@@ -7,7 +7,7 @@ import { CODING_RATES, type CodingRate } from '../radio/lora-phy.ts';
 import type { BuildingType } from '../radio/building-entry-loss.ts';
 import { DEFAULT_ENVIRONMENT_SETTINGS, type EnvironmentSettings } from './environment.ts';
 import { DEFAULT_PATH_SETTINGS, PROPAGATION_METHODS, type PathSettings, type PropagationMethodId } from './path.ts';
-import { DEFAULT_LOCATION_WIDTH_M, type AppliedCalibration, type SpreadSettings } from './spread.ts';
+import { DEFAULT_LOCATION_WIDTH_M, planningSpread, type AppliedCalibration, type PlanningSpread, type SpreadSettings } from './spread.ts';
 
 /** The plan columns this room reads. */
 export interface PlanLinkColumns {
@@ -100,7 +100,7 @@ function defaultFrequencyMhz(plan: BandPlan): number {
 }
 
 /** Uplink SFs at a bandwidth: the LoRa data rates of the default channels' DR span; else SF7–12. */
-function uplinkSfsFor(plan: BandPlan, bandwidthKhz: number): Array<{ sf: number; maxAppPayloadBytes: number | null }> {
+export function uplinkSfsFor(plan: BandPlan, bandwidthKhz: number): Array<{ sf: number; maxAppPayloadBytes: number | null }> {
   const lorawan = plan.lorawan;
   if (lorawan) {
     const channels = lorawan.defaultChannels;
@@ -191,4 +191,12 @@ export function resolveLinkSettings(plan: PlanLinkColumns, options: { calibratio
     feedlineDropM: num(s, 'feedlineDropM', 1, 0, 100, warnings),
     warnings,
   };
+}
+
+/**
+ * The plan-wide σ quoted beside fleet figures (fleet table, reports): the planning spread of a
+ * reference node at 1.5 m in the open. Each link carries its own sigmaDb for its own heights.
+ */
+export function fleetReferenceSpread(settings: ResolvedLinkSettings): PlanningSpread {
+  return planningSpread({ ...settings.spread, frequencyMhz: settings.frequencyMhz, nodeAntennaHeightAglM: 1.5, nodeClutterHeightM: 0 });
 }

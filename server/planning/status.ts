@@ -21,3 +21,19 @@ export function linkStatus(bestMarginDb: number | null, combinedDelivery: number
   if (bestMarginDb >= target.targetMarginDb && combinedDelivery >= target.targetDelivery) return 'served';
   return 'marginal';
 }
+
+/**
+ * The words for each status, defined once (the rule above) and served to the front end
+ * (GET /api/v1/status-words) so map, panels, legend, sheets and reports say the same thing.
+ */
+export const STATUS_WORDS: Record<LinkStatus, { label: string; meaning: string }> = {
+  served: { label: 'Served', meaning: 'meets the target margin and delivery' },
+  marginal: { label: 'Marginal', meaning: 'heard, but short of the target margin or delivery' },
+  unserved: { label: 'Unserved', meaning: 'every link below sensitivity at the median (margin under 0 dB)' },
+};
+
+/** "Marginal (heard, but short of the target margin or delivery) · delivery 68.0 %". */
+export function statusPhrase(status: LinkStatus, combinedDelivery: number): string {
+  const words = STATUS_WORDS[status];
+  return `${words.label} (${words.meaning}) · delivery ${(combinedDelivery * 100).toFixed(1)} %`;
+}

@@ -36,6 +36,8 @@ export interface ConnectorType {
   name: string;
   /** Insertion loss per mated pair at sub-GHz, dB. */
   lossDb: number;
+  /** Price of one mated pair (or one arrestor), USD: illustrative list price, not a quote (absent = not priced). */
+  costUsd?: number;
   source: string;
   notes: string[];
 }
@@ -176,11 +178,11 @@ export const builtInFeedlines: FeedlineType[] = [
 ];
 
 export const builtInConnectors: ConnectorType[] = [
-  { id: 'n-type', name: 'N-type mated pair', lossDb: 0.1, source: 'common practice (about 0.1 dB per mated pair below 1 GHz)', notes: ['Weatherproof with self-amalgamating tape outdoors.'] },
-  { id: 'sma', name: 'SMA / RP-SMA mated pair', lossDb: 0.1, source: 'common practice (about 0.1 dB per mated pair below 1 GHz)', notes: [] },
-  { id: 'uhf-pl259', name: 'UHF (PL-259/SO-239) mated pair', lossDb: 0.2, source: 'common practice (not constant impedance; avoid above 300 MHz where possible)', notes: ['Not constant impedance: prefer N-type at sub-GHz.'] },
-  { id: 'u-fl', name: 'U.FL / IPEX micro-coax mated pair', lossDb: 0.2, source: 'common practice (rated for few mating cycles)', notes: ['Rated for only a few tens of mating cycles.'] },
-  { id: 'surge-arrestor', name: 'Coaxial surge arrestor (gas discharge), inline', lossDb: 0.2, source: 'common practice (typical insertion loss of inline arrestors at sub-GHz)', notes: ['Bond to the site ground; follow local electrical codes.'] },
+  { id: 'n-type', costUsd: 12, name: 'N-type mated pair', lossDb: 0.1, source: 'common practice (about 0.1 dB per mated pair below 1 GHz)', notes: ['Weatherproof with self-amalgamating tape outdoors.'] },
+  { id: 'sma', costUsd: 6, name: 'SMA / RP-SMA mated pair', lossDb: 0.1, source: 'common practice (about 0.1 dB per mated pair below 1 GHz)', notes: [] },
+  { id: 'uhf-pl259', costUsd: 5, name: 'UHF (PL-259/SO-239) mated pair', lossDb: 0.2, source: 'common practice (not constant impedance; avoid above 300 MHz where possible)', notes: ['Not constant impedance: prefer N-type at sub-GHz.'] },
+  { id: 'u-fl', costUsd: 3, name: 'U.FL / IPEX micro-coax mated pair', lossDb: 0.2, source: 'common practice (rated for few mating cycles)', notes: ['Rated for only a few tens of mating cycles.'] },
+  { id: 'surge-arrestor', costUsd: 45, name: 'Coaxial surge arrestor (gas discharge), inline', lossDb: 0.2, source: 'common practice (typical insertion loss of inline arrestors at sub-GHz)', notes: ['Bond to the site ground; follow local electrical codes.'] },
 ];
 
 /** Raised for an unknown feedline or connector id. */

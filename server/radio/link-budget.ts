@@ -111,7 +111,8 @@ export interface LinkBudget {
 
 export class LinkBudgetError extends Error {}
 
-function endLosses(end: LinkEndInput, frequencyMhz: number): LinkEndLosses {
+/** Losses and gains of one end of a link (feedline, connectors, mismatch, antenna); also used by transmitter.ts. */
+export function endLosses(end: LinkEndInput, frequencyMhz: number): LinkEndLosses {
   const feedlineDb = end.feedline ? feedlineLossDb(end.feedline.feedline, frequencyMhz, end.feedline.lengthM) : 0;
   const connectorDb = end.connectors ? connectorLossDb(end.connectors) : 0;
   const mismatchDb = mismatchLossDb(end.vswr ?? end.antenna.typicalVswr);

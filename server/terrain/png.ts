@@ -1,7 +1,7 @@
 // A small PNG encoder (PNG specification, ISO/IEC 15948): 8-bit greyscale, grey + alpha or RGBA,
 // filter type 1 (Sub) on every row, one zlib IDAT from node:zlib. Used for hillshade tiles; other
 // rooms' raster tiles can use it too.
-import { deflateSync } from 'node:zlib';
+import { deflateSync, inflateSync } from 'node:zlib';
 
 const CRC_TABLE = (() => {
   const table = new Uint32Array(256);
@@ -30,10 +30,10 @@ function chunk(type: string, data: Uint8Array): Uint8Array {
   return out;
 }
 
-export type PngColour = 'grey' | 'grey-alpha' | 'rgba';
+export type PngColour = 'grey' | 'grey-alpha' | 'rgb' | 'rgba';
 
-const CHANNELS: Record<PngColour, number> = { grey: 1, 'grey-alpha': 2, rgba: 4 };
-const COLOUR_TYPE: Record<PngColour, number> = { grey: 0, 'grey-alpha': 4, rgba: 6 };
+const CHANNELS: Record<PngColour, number> = { grey: 1, 'grey-alpha': 2, rgb: 3, rgba: 4 };
+const COLOUR_TYPE: Record<PngColour, number> = { grey: 0, 'grey-alpha': 4, rgb: 2, rgba: 6 };
 
 /** Encodes 8-bit pixels (row-major, channels interleaved) as a PNG file. */
 export function encodePng(widthPx: number, heightPx: number, pixels: Uint8Array, colour: PngColour = 'rgba'): Uint8Array {
@@ -74,4 +74,60 @@ export function encodePng(widthPx: number, heightPx: number, pixels: Uint8Array,
     at += part.length;
   }
   return png;
+}
+
+/**
+ * Decodes an 8-bit, non-interlaced PNG (grey, grey + alpha, RGB or RGBA, as encodePng writes)
+ * back to its pixels: the IDAT stream inflated, then each row's filter undone (PNG spec §9.2:
+ * None, Sub, Up, Average, Paeth). Other PNGs (palette, 16-bit, interlaced) are refused.
+ */
+export function decodePng(png: Uint8Array): { widthPx: number; heightPx: number; colour: PngColour; pixels: Uint8Array } {
+  const view = new DataView(png.buffer, png.byteOffset, png.byteLength);
+  let at = 8;
+  let widthPx = 0;
+  let heightPx = 0;
+  let colour: PngColour | null = null;
+  const idat: Uint8Array[] = [];
+  while (at + 8 <= png.length) {
+    const length = view.getUint32(at);
+    const type = String.fromCharCode(png[at + 4], png[at + 5], png[at + 6], png[at + 7]);
+    const data = png.subarray(at + 8, at + 8 + length);
+    if (type === 'IHDR') {
+      widthPx = view.getUint32(at + 8);
+      heightPx = view.getUint32(at + 12);
+      const found = (Object.keys(COLOUR_TYPE) as PngColour[]).find((c) => COLOUR_TYPE[c] === data[9]);
+      if (data[8] !== 8 || !found || data[12] !== 0) throw new RangeError('decodePng: only 8-bit, non-interlaced grey, grey-alpha, RGB or RGBA images');
+      colour = found;
+    } else if (type === 'IDAT') idat.push(data);
+    else if (type === 'IEND') break;
+    at += 12 + length;
+  }
+  if (!colour) throw new RangeError('decodePng: no IHDR chunk');
+  const channels = CHANNELS[colour];
+  const stride = widthPx * channels;
+  const raw = inflateSync(Buffer.concat(idat));
+  const pixels = new Uint8Array(stride * heightPx);
+  for (let y = 0; y < heightPx; y++) {
+    const filter = raw[y * (stride + 1)];
+    const src = y * (stride + 1) + 1;
+    const row = y * stride;
+    for (let i = 0; i < stride; i++) {
+      const a = i >= channels ? pixels[row + i - channels] : 0;
+      const b = y > 0 ? pixels[row - stride + i] : 0;
+      const c = y > 0 && i >= channels ? pixels[row - stride + i - channels] : 0;
+      let predictor = 0;
+      if (filter === 1) predictor = a;
+      else if (filter === 2) predictor = b;
+      else if (filter === 3) predictor = (a + b) >> 1;
+      else if (filter === 4) {
+        const p = a + b - c;
+        const pa = Math.abs(p - a);
+        const pb = Math.abs(p - b);
+        const pc = Math.abs(p - c);
+        predictor = pa <= pb && pa <= pc ? a : pb <= pc ? b : c;
+      }
+      pixels[row + i] = (raw[src + i] + predictor) & 0xff;
+    }
+  }
+  return { widthPx, heightPx, colour, pixels };
 }

@@ -3,8 +3,9 @@
 // NoData). A file is opened with geotiff's fromFile, so only the header and
 // the tiles/strips a window touches are ever read from disk.
 import { stat } from 'node:fs/promises';
-import { inflateSync } from 'node:zlib';
-import { BaseDecoder, fromArrayBuffer, fromFile, getDecoder, type GeoTIFF, type GeoTIFFImage, type TypedArray } from 'geotiff';
+import { fromArrayBuffer, fromFile, getDecoder, type GeoTIFF, type GeoTIFFImage, type TypedArray } from 'geotiff';
+import { inspectTiff } from './tiff-structure.ts';
+import { BoundedInflateDecoder, BoundedLzwDecoder, BoundedPackBitsDecoder } from './tiff-decoders.ts';
 import { crsForEpsg, transformForCrs, UnsupportedCrsError, type CrsInfo, type CrsTransform } from './crs.ts';
 import type { GeoTransform } from './geotiff-writer.ts';
 
@@ -142,6 +143,13 @@ export async function openGeoRaster(source: string | ArrayBuffer): Promise<GeoRa
   let fileBytes = 0;
   try {
     fileBytes = typeof source === 'string' ? (await stat(source)).size : source.byteLength;
+  } catch (error) {
+    const message = error instanceof Error ? error.message : String(error);
+    throw new RasterError('not_tiff', /ENOENT/.test(message) ? `file not found: ${typeof source === 'string' ? source : '(buffer)'}` : `cannot read the file (${message.split('\n')[0]})`);
+  }
+  // A bounded walk over the directories first: geotiff itself would follow an IFD loop forever.
+  const structure = await inspectTiff(source);
+  try {
     tiff = typeof source === 'string' ? await fromFile(source) : await fromArrayBuffer(source);
   } catch (error) {
     const message = error instanceof Error ? error.message : String(error);
@@ -149,7 +157,7 @@ export async function openGeoRaster(source: string | ArrayBuffer): Promise<GeoRa
     throw new RasterError('not_tiff', `not a TIFF file (${message.split('\n')[0]})`);
   }
   try {
-    return await describe(tiff, fileBytes);
+    return await describe(tiff, fileBytes, structure.images.length);
   } catch (error) {
     await closeQuietly(tiff);
     if (error instanceof RasterError) throw error;
@@ -168,8 +176,7 @@ async function closeQuietly(tiff: GeoTIFF): Promise<void> {
   }
 }
 
-async function describe(tiff: GeoTIFF, fileBytes: number): Promise<GeoRaster> {
-  const imageCount = await tiff.getImageCount();
+async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number): Promise<GeoRaster> {
   const image = await tiff.getImage(0);
   const directory = image.getFileDirectory();
   const widthPx = image.getWidth();
@@ -379,7 +386,15 @@ async function describe(tiff: GeoTIFF, fileBytes: number): Promise<GeoRaster> {
         ? Math.ceil(img.getWidth() / img.getTileWidth()) * Math.ceil(img.getHeight() / img.getTileHeight())
         : Math.ceil(img.getHeight() / img.getTileHeight());
       if (offsets.length < expected) throw new RasterError('corrupt', `image ${level} lists ${offsets.length} ${tiledImage ? 'tiles' : 'strips'}, its size needs ${expected}`);
+      // A compressed block is never much larger than its decoded size (LZW at worst ~1.5×); a larger
+      // byte count is a lie that would make one read pull that many bytes from the file.
+      const img0 = images[level];
+      const bitsPerPixel = dir.getValue('PlanarConfiguration' as never) === 2 ? img0.getBitsPerSample(0) : img0.getBitsPerSample(0) * img0.getSamplesPerPixel();
+      const maxStored = 2 * Math.ceil((img0.getTileWidth() * bitsPerPixel) / 8) * img0.getTileHeight() + 65_536;
       for (let i = 0; i < offsets.length; i++) {
+        if (Number(counts[i]) > maxStored) {
+          throw new RasterError('corrupt', `${tiledImage ? 'tile' : 'strip'} ${i} of image ${level} claims ${Number(counts[i])} stored bytes, more than its pixels could need`);
+        }
         const end = Number(offsets[i]) + Number(counts[i]);
         if (!(end <= fileBytes)) {
           throw new RasterError('corrupt', `the file is truncated or corrupt: ${tiledImage ? 'tile' : 'strip'} ${i} of image ${level} ends at byte ${end}, the file has ${fileBytes}`);
@@ -419,15 +434,6 @@ async function describe(tiff: GeoTIFF, fileBytes: number): Promise<GeoRaster> {
 
 type Decoder = Awaited<ReturnType<typeof getDecoder>>;
 
-/** Deflate through node's zlib (native; geotiff's own decoder is pako in JavaScript). Same bytes out. */
-class ZlibInflateDecoder extends BaseDecoder {
-  override decodeBlock(buffer: ArrayBufferLike): ArrayBufferLike {
-    const bytes = inflateSync(new Uint8Array(buffer));
-    // A fresh, exactly sized ArrayBuffer (zlib may hand back a view into a larger pool).
-    return bytes.byteOffset === 0 && bytes.byteLength === bytes.buffer.byteLength ? bytes.buffer : bytes.slice().buffer;
-  }
-}
-
 /** The decoder of one image, with the parameters geotiff's registry would give it (predictor included). */
 async function makeDecoder(img: GeoTIFFImage): Promise<Decoder> {
   const dir = img.getFileDirectory();
@@ -440,7 +446,10 @@ async function makeDecoder(img: GeoTIFFImage): Promise<Decoder> {
     bitsPerSample: (await dir.loadValue('BitsPerSample' as never)) as number[],
     predictor: Number((await dir.loadValue('Predictor' as never)) || 1),
   };
-  if (compression === 8 || compression === 32946) return new ZlibInflateDecoder(parameters) as Decoder;
+  // Our own bounded decoders (tiff-decoders.ts): no block decodes to more than its declared size.
+  if (compression === 8 || compression === 32946) return new BoundedInflateDecoder(parameters) as Decoder;
+  if (compression === 5) return new BoundedLzwDecoder(parameters) as Decoder;
+  if (compression === 32773) return new BoundedPackBitsDecoder(parameters) as Decoder;
   return getDecoder(compression, parameters);
 }
 

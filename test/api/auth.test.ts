@@ -152,7 +152,7 @@ describe('request logs and rate limit', () => {
         done();
       },
     });
-    const app = await buildApp({ db: t.db, config: t.config, logger: { stream } });
+    const app = await buildApp({ db: t.db, config: { ...t.config, requestLogLevel: 'info' }, logger: { stream } });
     await app.ready();
     try {
       const http = request(app.server);

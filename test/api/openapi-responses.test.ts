@@ -23,7 +23,7 @@ interface Operation {
 type OpenApi = { paths: Record<string, Record<string, Operation>>; components?: { schemas?: Record<string, JsonSchema> } };
 
 /** Path prefixes (after /api/v1) whose operations this test covers. */
-const COVERED = [/^\/plans\/\{planId\}\/terrain/, /^\/plans\/\{planId\}\/coverage/, /^\/coverage\//, /^\/kit\//, /^\/audit$/, /^\/me$/, /^\/tokens/, /^\/auth\//, /^\/health$/, /^\/plans(\/\{planId\})?$/, /^\/plans\/\{planId\}\/sites/, /^\/plans\/\{planId\}\/nodes(\/\{id\})?$/];
+const COVERED = [/^\/plans\/\{planId\}\/terrain/, /^\/plans\/\{planId\}\/coverage/, /^\/coverage\//, /^\/kit\//, /^\/audit$/, /^\/me$/, /^\/tokens/, /^\/auth\//, /^\/health$/, /^\/plans(\/\{planId\})?$/, /^\/plans\/\{planId\}\/sites/, /^\/plans\/\{planId\}\/nodes(\/\{id\})?$/, /^\/plans\/\{planId\}\/capacity$/];
 
 /** Operations that answer no JSON body on success, with what they answer instead. */
 const NOT_JSON: Record<string, string> = {

@@ -326,7 +326,7 @@ describe('map front end (chromium)', () => {
     await page.getByRole('button', { name: 'Save plan settings' }).click();
     await page.getByRole('heading', { name: 'Plan settings' }).waitFor({ state: 'detached' });
     await expect.poll(() => textOf('#plan-settings-line'), { timeout: 20_000 }).toContain(`Target margin ${newMargin} dB`);
-    expect(await textOf('#plan-settings-line')).toContain('σ 7.5 dB');
+    expect(await textOf('#plan-settings-line')).toContain('σL 7.5 dB');
     const after = await readPlan();
     expect(after.targetMarginDb).toBe(newMargin);
     expect(after.locationSigmaDb).toBe(7.5);
@@ -481,8 +481,8 @@ describe('map front end (chromium)', () => {
       expect(await p.locator('#install-status-line').textContent()).toContain('install status: installed');
       const stored = await p.evaluate(
         async ([plan, node]) => {
-          const token = sessionStorage.getItem('earshot.token') ?? '';
-          const r = await fetch(`/api/v1/plans/${plan}/nodes/${node}`, { headers: { authorization: `Bearer ${token}` } });
+          // The pasted token was exchanged for the session cookie (POST /signin).
+          const r = await fetch(`/api/v1/plans/${plan}/nodes/${node}`);
           return ((await r.json()) as { installStatus: string }).installStatus;
         },
         [planId, installNodeId],

@@ -414,6 +414,11 @@ export interface RecommendOption {
   feedlineLengthM: number;
   /** Kit cost, USD (catalog prices). */
   cost: number;
+  /** The one kit price with part names (antenna, feedline, connectors, mast); newer servers. */
+  price?: { lines: Array<{ part: string; name: string; quantity: number; unit: 'each' | 'm'; costUsd: number }>; totalUsd: number; unpriced: string[] };
+  antennaName?: string;
+  feedlineName?: string | null;
+  mastName?: string | null;
   /** Best link margin at the chosen SF; null = no gateway in range. */
   marginDb: number | null;
   deliveryProbability: number;
@@ -434,7 +439,16 @@ export interface Recommendation {
 export const recommend = (planId: string, nodeId: string, body: RecommendRequest, signal?: AbortSignal): Promise<Recommendation> =>
   request<Recommendation>('POST', `/plans/${planId}/nodes/${nodeId}/recommend`, body, undefined, signal);
 
-export const visitSheetUrl = (planId: string, nodeId: string): string => `${base}/plans/${planId}/nodes/${nodeId}/visit-sheet`;
+/** The printable sheet, with times in this browser's time zone. */
+export const visitSheetUrl = (planId: string, nodeId: string): string => {
+  let tz = '';
+  try {
+    tz = Intl.DateTimeFormat().resolvedOptions().timeZone ?? '';
+  } catch {
+    tz = '';
+  }
+  return `${base}/plans/${planId}/nodes/${nodeId}/visit-sheet${/^[A-Za-z0-9_+\-/]+$/.test(tz) ? `?tz=${encodeURIComponent(tz)}` : ''}`;
+};
 export interface BuildSheet {
   design: string;
   designName: string;
@@ -449,6 +463,11 @@ export interface BuildSheet {
   droopDeg?: number;
   sources: string[];
 }
+export interface KitPriceShape {
+  lines: Array<{ part: string; name: string; quantity: number; unit: 'each' | 'm'; costUsd: number }>;
+  totalUsd: number;
+  unpriced: string[];
+}
 export interface VisitSheet {
   title: string;
   generatedAt: string;
@@ -462,7 +481,10 @@ export interface VisitSheet {
     antennaHeightAglM: number;
     mastOptionId: string | null;
     meetsTarget: boolean;
-    recommended: { antennaDesignId: string; mastHeightM: number; feedlineId: string | null; feedlineLengthM: number; cost: number; reason: string } | null;
+    recommended: { antennaDesignId: string; antennaName?: string; mastHeightM: number; mastName?: string | null; feedlineId: string | null; feedlineName?: string | null; feedlineLengthM: number; cost: number; price?: KitPriceShape; reason: string } | null;
+    /** The one kit price with part names (newer servers). */
+    price?: KitPriceShape;
+    mastName?: string | null;
   };
   buildSheet: BuildSheet | null;
   gateways: Array<{ id: string; name: string; distanceM: number; aimAzimuthDeg: number; elevationDeg: number; sf: number; expectedRssiDbm: Range; expectedSnrDb: Range; marginDb: number }>;

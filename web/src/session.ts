@@ -2,6 +2,7 @@
 // token is pasted); the views ask `canEdit()` before showing editing tools.
 
 import { ApiError, getMe, type Me } from './api.ts';
+import { clearDevice } from './offline/device.ts';
 
 export interface Session {
   me: Me | null;
@@ -19,6 +20,8 @@ export async function refreshSession(): Promise<Session> {
     if (err instanceof ApiError && err.status === 401) {
       session.me = null;
       session.signedIn = false;
+      // The session ended (signed out elsewhere, expired or revoked): what this device kept for it goes too.
+      void clearDevice();
     } else {
       throw err;
     }

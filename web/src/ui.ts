@@ -175,3 +175,11 @@ export function cautionsBlock(fromServer: readonly string[] = []): HTMLElement {
 export function present<T>(...items: Array<T | null | undefined | false>): T[] {
   return items.filter((item): item is T => item !== null && item !== undefined && item !== false);
 }
+
+/** A server timestamp in the viewer's own time zone and locale ("2 Dec 2026, 14:05"), never raw ISO. */
+export function localTime(value: string | Date | null | undefined): string {
+  if (value === null || value === undefined || value === '') return '–';
+  const date = value instanceof Date ? value : new Date(value);
+  if (Number.isNaN(date.getTime())) return '–';
+  return date.toLocaleString(undefined, { year: 'numeric', month: 'short', day: 'numeric', hour: '2-digit', minute: '2-digit' });
+}

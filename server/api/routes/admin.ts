@@ -9,6 +9,9 @@ import { z } from 'zod';
 import { adminTeamAdd, adminTokenIssue, adminTokenRevoke, teamAddInput, tokenIssueInput, tokenRevokeInput } from '../../db/repositories/admin-ops.ts';
 import { ApiError } from '../errors.ts';
 import { linkAdminRoutes } from './links.ts';
+import { listNodesForAdmin, listPlansForAdmin, nodesListInput, plansListInput } from '../../app/fleet-lists.ts';
+import { reportAdminRoutes } from './exports.ts';
+import { sitingAdminRoutes } from './siting.ts';
 
 const loopback = new Set(['127.0.0.1', '::1', '::ffff:127.0.0.1']);
 
@@ -35,5 +38,12 @@ export default async function adminRoutes(app: FastifyInstance): Promise<void> {
   api.post('/token-revoke', { config, schema: { hide: true, body: tokenRevokeInput } }, async (request) => adminTokenRevoke(db, request.body));
   // `earshot link` / `earshot recommend` while this server holds the data folder (same engine function).
   await app.register(linkAdminRoutes);
+  // `earshot plans` / `earshot nodes` while this server holds the data folder.
+  api.post('/plans-list', { config, schema: { hide: true, body: plansListInput } }, async (request) => listPlansForAdmin(db, request.body));
+  api.post('/nodes-list', { config, schema: { hide: true, body: nodesListInput } }, async (request) => listNodesForAdmin(db, request.body));
+  // `earshot report` / `earshot export` (same reportFile function as the command in-process).
+  await app.register(reportAdminRoutes);
+  // `earshot siting` (the same sitingReport use case as in-process).
+  await app.register(sitingAdminRoutes);
   api.get('/ping', { schema: { hide: true, response: { 200: z.object({ ok: z.literal(true), pid: z.number() }) } } }, async () => ({ ok: true as const, pid: process.pid }));
 }

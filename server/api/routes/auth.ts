@@ -9,11 +9,12 @@ import { z } from 'zod';
 import { createUser, issueToken, revokeToken, roles, verifyToken } from '../../db/repositories/accounts.ts';
 import { writeWithAudit } from '../../db/repositories/audit.ts';
 import { requireRole, sessionCookieName } from '../auth.ts';
+import { startBrowserSession } from '../../app/team-access.ts';
+import { setSessionCookie } from './team-access.ts';
 import { ApiError } from '../errors.ts';
 import { errorResponses, id, itemParams, name, pageOf, pageQuery } from '../schemas.ts';
 import { pageWindow, toPage } from '../../db/repositories/pagination.ts';
 
-const sessionDays = 30;
 const tokenRateLimit = { rateLimit: { max: 20, timeWindow: '1 minute' } };
 
 function signInPage(title: string, message: string): string {
@@ -40,15 +41,7 @@ export async function signInRoutes(app: FastifyInstance): Promise<void> {
           .type('text/html; charset=utf-8')
           .send(signInPage('Sign-in link not valid', 'This sign-in link is unknown, expired or already used. Ask a planner of your team for a new one (earshot token issue).'));
       }
-      const expiresAt = new Date(Date.now() + sessionDays * 86_400_000);
-      const session = await writeWithAudit(db, (tx) => issueToken(tx, { userId: principal.userId, label: 'browser session', expiresAt }), (issued) => ({ principal, action: 'signin', entity: 'token', entityId: issued.id, detail: { via: 'one-time link' } }));
-      reply.setCookie(sessionCookieName, session.token, {
-        httpOnly: true,
-        sameSite: 'strict',
-        path: '/',
-        secure: request.protocol === 'https',
-        expires: expiresAt,
-      });
+      setSessionCookie(request, reply, await startBrowserSession(db, principal, 'one-time link'));
       return reply.redirect('/', 303);
     },
   );

@@ -17,6 +17,8 @@ import { resultDir, RESULT_FILES, type CoverageJobParams } from '../../jobs/cove
 import { requireRole } from '../auth.ts';
 import { ApiError, apiErrorOf } from '../errors.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
+import { streamRunProgress } from '../run-events.ts';
+import { appliedCalibrationFigures } from '../../app/calibration.ts';
 import { coverageRadiusKm, dateTime, errorResponses, id, nodeAntennaHeightAglM, nodeEnvironment, nodeFeedlineLengthM, nodeTxPowerDbm, pageOf, pageQuery, payloadBytes, planParams, targetMarginDb } from '../schemas.ts';
 
 const runParams = z.strictObject({ planId: id(), runId: id() });
@@ -151,7 +153,9 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
     async (request, reply) => {
       const principal = requireRole(request, 'planner');
       const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
-      const params = await resolveCoverageRequest(app.linkEngine, config, plan, request.body).catch((error: unknown) => {
+      // An applied calibration (server/app/calibration.ts) shifts every cell by its bias and gives the spread.
+      const calibration = await appliedCalibrationFigures(db, plan.id);
+      const params = await resolveCoverageRequest(app.linkEngine, config, plan, request.body, calibration).catch((error: unknown) => {
         throw apiErrorOf(error) ?? error;
       });
       const gateways = params.gateways;
@@ -202,26 +206,10 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
 
   api.get('/plans/:planId/coverage/:runId/events', { schema: { summary: 'Progress of a run as server-sent events until it finishes (text/event-stream)', tags, params: runParams } }, async (request, reply) => {
     const { plan, run } = await loadRun(request, request.params.planId, request.params.runId);
-    reply.hijack();
-    const res = reply.raw;
-    res.writeHead(200, { 'content-type': 'text/event-stream', 'cache-control': 'no-cache', connection: 'keep-alive' });
-    let last = '';
-    let current: CoverageRunRow | null = run;
-    let open = true;
-    request.raw.on('close', () => (open = false));
-    while (open && current) {
-      const view = runView(current);
-      const line = JSON.stringify({ status: view.status, progress: view.progress, error: view.error });
-      if (line !== last) {
-        res.write(`event: progress\ndata: ${line}\n\n`);
-        last = line;
-      }
-      if (['done', 'failed', 'cancelled'].includes(current.status)) break;
-      await new Promise((resolve) => setTimeout(resolve, 500));
-      current = await findCoverageRun(db, plan.id, run.id);
-    }
-    if (open) res.write(`event: end\ndata: {}\n\n`);
-    res.end();
+    await streamRunProgress(request, reply, runView(run), async () => {
+      const current = await findCoverageRun(db, plan.id, run.id);
+      return current ? runView(current) : null;
+    });
   });
 
   api.post('/plans/:planId/coverage/:runId/cancel', { schema: { summary: 'Cancel a queued or running coverage run', tags, params: runParams, response: { 200: coverageRunResponse, ...errorResponses } } }, async (request) => {

@@ -11,8 +11,9 @@ import { assertKitVisible } from '../kit-check.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
 import { dateTime, finite, gatewayAntennaHeightAglM, gatewayFeedlineLengthM, gatewayTxPowerDbm, id, latitude, longitude, name, noiseFigureDb, notes, pageOf, pageQuery, planItemParams, planParams, version } from '../schemas.ts';
 
-export const defaultGatewayAntennaId = 'collinear-fibreglass-6dbi';
-export const defaultGatewayFeedlineId = 'low-loss-10mm';
+import { DEFAULT_GATEWAY_ANTENNA_ID as defaultGatewayAntennaId, DEFAULT_GATEWAY_FEEDLINE_ID as defaultGatewayFeedlineId } from '../../planning/gateway-kit.ts';
+
+export { defaultGatewayAntennaId, defaultGatewayFeedlineId };
 
 const gatewayFields = {
   name: name(),

@@ -4,7 +4,7 @@
 import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import type { Prisma } from '../../db/generated/client.ts';
+import type { JsonValue } from '../../db/types.ts';
 import { writeWithAudit } from '../../db/repositories/audit.ts';
 import {
   createAntennaDesign,
@@ -24,6 +24,7 @@ import {
 } from '../../db/repositories/kit.ts';
 import type { Database } from '../../db/client.ts';
 import { requireRole } from '../auth.ts';
+import { antennaPatternSchema, omniPattern } from '../../radio/pattern-schema.ts';
 import { ApiError } from '../errors.ts';
 import { dateTime, errorResponses, finite, id, itemParams, jsonObject, name, nonNegative, notes, pageOf, pageQuery, positive, version } from '../schemas.ts';
 
@@ -31,7 +32,8 @@ const antennaFields = {
   name: name(),
   kind: z.string().regex(/^[a-z0-9-]{1,40}$/, 'must be a kind such as collinear or yagi'),
   gainDbi: finite().min(-30, 'must be ≥ -30 dBi').max(40, 'must be ≤ 40 dBi'),
-  pattern: jsonObject.optional(),
+  // Omitted on create: stored explicitly as an omni of gainDbi (see server/radio/pattern-schema.ts).
+  pattern: antennaPatternSchema.default(omniPattern),
   polarization: z.enum(['vertical', 'horizontal', 'circular', 'mixed'], { error: 'must be vertical, horizontal, circular or mixed' }).optional(),
   fromMhz: positive(),
   toMhz: positive(),
@@ -46,7 +48,7 @@ const bandRule = (body: { fromMhz?: number; toMhz?: number }, ctx: z.RefinementC
 };
 const antennaCreate = z.strictObject(antennaFields).superRefine(bandRule);
 const antennaPatch = z
-  .strictObject({ ...antennaFields, name: name().optional(), kind: antennaFields.kind.optional(), gainDbi: antennaFields.gainDbi.optional(), fromMhz: positive().optional(), toMhz: positive().optional(), version: version() })
+  .strictObject({ ...antennaFields, pattern: antennaPatternSchema.optional(), name: name().optional(), kind: antennaFields.kind.optional(), gainDbi: antennaFields.gainDbi.optional(), fromMhz: positive().optional(), toMhz: positive().optional(), version: version() })
   .superRefine(bandRule);
 
 const lossPoint = z.strictObject({ frequencyMhz: positive(), lossDbPer100m: nonNegative() });
@@ -117,7 +119,7 @@ const mastResponse = z.object({ ...kitRowFields, heightM: z.number().describe('m
 
 type Row = { id: string; teamId: string | null };
 const withBuiltIn = <T extends Row>(row: T) => ({ ...row, builtIn: row.teamId === null });
-const asJson = <T extends Record<string, unknown>>(body: T) => body as T & Record<string, Prisma.InputJsonValue | undefined>;
+const asJson = <T extends Record<string, unknown>>(body: T) => body as T & Record<string, JsonValue | undefined>;
 
 interface Catalog {
   kind: KitKind;

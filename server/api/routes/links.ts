@@ -58,7 +58,10 @@ const fleetQuery = pageQuery.extend({
 });
 
 const checkQuery = z.strictObject({ gatewayId: id().optional() });
-const sheetQuery = z.strictObject({ format: z.enum(['html', 'json'], { error: 'must be html or json' }).optional() });
+const sheetQuery = z.strictObject({
+  format: z.enum(['html', 'json'], { error: 'must be html or json' }).optional(),
+  tz: z.string().max(64).regex(/^[A-Za-z0-9_+\-/]+$/, 'must be an IANA time zone such as Europe/Berlin').optional().describe('time zone for the printed times (the app sends the viewer\'s)'),
+});
 
 /** Maps the engine's and use cases' errors onto the API's error shape. */
 export function asApiError(error: unknown): never {
@@ -138,7 +141,7 @@ export default async function linkRoutes(app: FastifyInstance): Promise<void> {
     async (request, reply) => {
       const principal = requireRole(request, 'planner');
       const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
-      const { job, work } = await startFleetRecommendation(engine, plan, principal, (request.body ?? {}) as RecommendRequest, processId).catch(asApiError);
+      const { job, work } = await startFleetRecommendation(engine, plan, principal, (request.body ?? {}) as RecommendRequest, processId, request.log).catch(asApiError);
       const tracked = work.finally(() => running.delete(tracked));
       running.add(tracked);
       return reply.status(202).send({ id: job.id, status: 'running', progress: 0, poll: `/api/v1/plans/${plan.id}/recommend/${job.id}` });
@@ -163,7 +166,7 @@ export default async function linkRoutes(app: FastifyInstance): Promise<void> {
       const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
       const sheet = await nodeVisitSheet(engine, plan, request.params.nodeId).catch(asApiError);
       if (request.query.format === 'json') return sheet;
-      return reply.type('text/html; charset=utf-8').send(visitSheetHtml(sheet));
+      return reply.type('text/html; charset=utf-8').send(visitSheetHtml(sheet, request.query.tz));
     },
   );
 

@@ -7,7 +7,7 @@ import { z } from 'zod';
 import { writeWithAudit } from '../../db/repositories/audit.ts';
 import { createNode, createNodesAtomically, deleteNode, findNode, listNodes, updateNode, type NodeCreate } from '../../db/repositories/nodes.ts';
 import type { Database } from '../../db/client.ts';
-import type { InstallStatus } from '../../db/generated/client.ts';
+import type { DbInstallStatus as InstallStatus } from '../../db/types.ts';
 import { requireRole } from '../auth.ts';
 import { ApiError } from '../errors.ts';
 import { assertKitVisible } from '../kit-check.ts';
@@ -28,6 +28,13 @@ export function nodeView<T extends { installStatus?: unknown }>(node: T): Omit<T
   return { ...node, installStatus: (status === 'needs_visit' ? 'needs-visit' : status) as ApiInstallStatus };
 }
 
+/** LoRaWAN DevEUI: 16 hex digits; separators (-, :, space) are dropped and letters upper-cased. */
+export const devEuiField = () =>
+  z
+    .string({ error: 'must be a text of 16 hexadecimal digits' })
+    .regex(/^[0-9A-Fa-f]{2}([\s:-]?[0-9A-Fa-f]{2}){7}$/, 'must be 16 hexadecimal digits (LoRaWAN DevEUI)')
+    .transform((value) => value.replace(/[\s:-]/g, '').toUpperCase());
+
 const nodeFields = {
   name: name(),
   lat: latitude(),
@@ -47,6 +54,7 @@ const nodeFields = {
   buildingType: z.string().max(100).nullable().optional(),
   installStatus: z.enum(installStatuses, { error: 'must be planned, installed or needs-visit' }).optional(),
   notes: notes().optional(),
+  devEui: devEuiField().nullable().optional(),
 };
 
 function fixedSfRule(body: { sfPolicy?: string; fixedSf?: number | null }, ctx: z.RefinementCtx) {
@@ -117,6 +125,7 @@ export const nodeResponse = z
     buildingType: z.string().nullable(),
     installStatus: z.enum(installStatuses),
     notes: z.string(),
+    devEui: z.string().nullable().describe('LoRaWAN DevEUI, 16 hex digits'),
     version: z.number().int(),
     createdAt: dateTime,
     updatedAt: dateTime,

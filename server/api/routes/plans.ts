@@ -10,7 +10,7 @@ import { writeWithAudit } from '../../db/repositories/audit.ts';
 import { createPlan, deletePlanReturningFiles, listPlans, planCounts, updatePlan } from '../../db/repositories/plans.ts';
 import { resultDir } from '../../jobs/coverage-job.ts';
 import type { PlanFiles } from '../../db/repositories/plans.ts';
-import type { Prisma } from '../../db/generated/client.ts';
+import type { JsonValue } from '../../db/types.ts';
 import { requireRole } from '../auth.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
 import { dateTime, errorResponses, jsonObject, name, notes, pageOf, pageQuery, planParams, sigmaDb, targetMarginDb, version } from '../schemas.ts';
@@ -53,7 +53,7 @@ export const planPatchBody = z.strictObject({ ...planFields, name: name().option
 
 function toData<T extends { settings?: Record<string, unknown> }>(body: T) {
   const { settings, ...rest } = body;
-  return settings === undefined ? rest : { ...rest, settings: settings as Prisma.InputJsonValue };
+  return settings === undefined ? rest : { ...rest, settings: settings as JsonValue };
 }
 
 /**
@@ -68,8 +68,20 @@ export async function removePlanFiles(filesDir: string, planId: string, files: P
     const rel = relative(root, resolve(root, path));
     return rel !== '' && !rel.startsWith('..') && !isAbsolute(rel);
   };
-  const targets = new Set<string>([join(root, 'terrain', planId)]);
-  for (const filePath of files.terrainFiles) targets.add(resolve(root, filePath));
+  // The plan's upload folder goes as a whole unless a copy of the plan still uses a file in it;
+  // then only the files nobody references go.
+  const planTerrainDir = join(root, 'terrain', planId);
+  const shared = new Set((files.sharedTerrainFiles ?? []).map((filePath) => resolve(root, filePath)));
+  const targets = new Set<string>();
+  if ([...shared].some((path) => !relative(planTerrainDir, path).startsWith('..'))) {
+    for (const name of await readdir(planTerrainDir).catch(() => [] as string[])) {
+      const path = join(planTerrainDir, name);
+      if (!shared.has(path)) targets.add(path);
+    }
+  } else {
+    targets.add(planTerrainDir);
+  }
+  for (const filePath of files.terrainFiles) if (!shared.has(resolve(root, filePath))) targets.add(resolve(root, filePath));
   for (const path of files.coverageResultPaths) targets.add(resolve(root, path));
   const coverageDir = join(root, 'coverage');
   const partials = await readdir(coverageDir).catch(() => [] as string[]);

@@ -5,7 +5,8 @@ import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { createFieldReadings, listNodeReadings, listPlanReadings, type NewFieldReading } from '../../db/repositories/field-readings.ts';
-import type { FieldReading } from '../../db/generated/client.ts';
+import type { FieldReading, JsonValue } from '../../db/types.ts';
+import { kitSnapshot } from '../../app/calibration.ts';
 import type { PlanRow } from '../../db/repositories/plans.ts';
 import { decodeCursor, encodeCursor } from '../../db/repositories/pagination.ts';
 import { requireRole } from '../auth.ts';
@@ -88,7 +89,7 @@ export function registerReadingRoutes(
         if ((input.lat === undefined) !== (input.lon === undefined)) {
           throw new ApiError(400, 'invalid_input', `${'readings' in body ? `readings.${index}.` : ''}lat/lon: give both or neither`);
         }
-        return { nodeId: node.id, gatewayId: input.gatewayId ?? null, rssiDbm: input.rssiDbm, snrDb: input.snrDb, sf: input.sf, measuredAt, lat: input.lat ?? null, lon: input.lon ?? null, note: input.note ?? '' };
+        return { nodeId: node.id, gatewayId: input.gatewayId ?? null, rssiDbm: input.rssiDbm, snrDb: input.snrDb, sf: input.sf, measuredAt, lat: input.lat ?? null, lon: input.lon ?? null, note: input.note ?? '', kit: kitSnapshot(node) as unknown as JsonValue };
       });
       // The readings and their audit entry are one transaction: neither is kept without the other.
       const created = await createFieldReadings(db, plan.id, principal.userId, rows, (stored) => ({ principal, action: 'create', entity: 'field-reading', entityId: stored.map((r) => r.id).join(','), detail: { planId: plan.id, nodeId: node.id, count: stored.length } }));

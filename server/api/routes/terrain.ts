@@ -15,13 +15,15 @@ import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { writeWithAudit } from '../../db/repositories/audit.ts';
 import type { Database } from '../../db/client.ts';
-import { allTerrainLayers, createTerrainLayerWith, deleteTerrainLayer, listTerrainLayers, planExtent, terrainFilePaths, type TerrainLayerRow } from '../../db/repositories/terrain-layers.ts';
+import { terrainFileNamesReferencedIn, terrainFilesStillReferenced } from '../../db/repositories/scenarios.ts';
+import { allTerrainLayers, createTerrainLayerWith, deleteTerrainLayer, listTerrainLayers, planExtent, type TerrainLayerRow } from '../../db/repositories/terrain-layers.ts';
 import { crsForEpsg } from '../../terrain/crs.ts';
 import { openGeoRaster, RasterError, type GeoRaster } from '../../terrain/raster.ts';
 import { renderHillshadeTile, validTile } from '../../terrain/tiles.ts';
 import { requireRole } from '../auth.ts';
 import { ApiError } from '../errors.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
+import { assertCleanText } from '../input-guard.ts';
 import { dateTime, errorResponses, id, name, pageOf, pageQuery, planParams } from '../schemas.ts';
 
 const uploadQuery = z.strictObject({
@@ -210,6 +212,8 @@ export default async function terrainRoutes(app: FastifyInstance): Promise<void>
   app.addHook('onReady', async () => {
     try {
       await sweepOrphanFiles(db, join(filesDir, 'terrain'), 60 * 60 * 1000);
+      // Uploads interrupted by a crash: gone at once (one still being written elsewhere keeps a fresh mtime).
+      await sweepIncomingFiles(join(filesDir, 'terrain'), 2 * 60 * 1000);
     } catch (error) {
       app.log.warn({ err: error }, 'terrain file sweep failed');
     }
@@ -366,9 +370,9 @@ export default async function terrainRoutes(app: FastifyInstance): Promise<void>
       },
       (deleted) => ({ principal, action: 'delete', entity: 'terrain_layer', entityId: deleted.id, detail: { planId: plan.id, name: deleted.name } }),
     );
-    // Only after the commit: a rolled-back delete keeps its file.
+    // Only after the commit: a rolled-back delete keeps its file, and a file a copied plan's layer still uses stays.
     dropRasters(plan.id);
-    await rm(resolveFile(row.filePath), { force: true });
+    if ((await terrainFilesStillReferenced(db, [row.filePath])).size === 0) await rm(resolveFile(row.filePath), { force: true });
     return reply.status(204).send();
   });
 
@@ -417,6 +421,8 @@ async function receiveUpload(request: FastifyRequest, tempPath: string, limit: n
         received = await receive(part.file, tempPath, limit);
         if (part.file.truncated) throw new ApiError(413, 'payload_too_large', `file: larger than the upload limit of ${formatBytes(limit)} (EARSHOT_MAX_UPLOAD_MB)`);
       } else if (typeof part.value === 'string') {
+        assertCleanText(`${part.fieldname} (form field name)`, part.fieldname, { singleLine: true });
+        assertCleanText(part.fieldname, part.value);
         fields[part.fieldname] = part.value;
       }
     }
@@ -428,6 +434,30 @@ async function receiveUpload(request: FastifyRequest, tempPath: string, limit: n
     throw new ApiError(415, 'unsupported_media_type', `send the GeoTIFF as the body with Content-Type: image/tiff, or as multipart/form-data (got ${request.headers['content-type'] ?? 'no content type'})`);
   }
   return { received: await receive(body, tempPath, limit), fields };
+}
+
+/** Removes `.incoming-*.tif` upload files under <filesDir>/terrain/<planId>/ not written to for `minAgeMs`. */
+export async function sweepIncomingFiles(terrainDir: string, minAgeMs: number): Promise<string[]> {
+  const removed: string[] = [];
+  let planDirs: string[];
+  try {
+    planDirs = (await readdir(terrainDir, { withFileTypes: true })).filter((entry) => entry.isDirectory()).map((entry) => entry.name);
+  } catch {
+    return removed;
+  }
+  const now = Date.now();
+  for (const planId of planDirs) {
+    const dir = join(terrainDir, planId);
+    for (const file of await readdir(dir).catch(() => [] as string[])) {
+      if (!/^\.incoming-[0-9a-f-]+\.tif$/.test(file)) continue;
+      const path = join(dir, file);
+      const info = await stat(path).catch(() => null);
+      if (!info || !info.isFile() || now - info.mtimeMs < minAgeMs) continue;
+      await rm(path, { force: true });
+      removed.push(path);
+    }
+  }
+  return removed;
 }
 
 /** Removes files under <filesDir>/terrain/<planId>/ that no terrain layer row references and that are older than `minAgeMs`. */
@@ -442,7 +472,8 @@ export async function sweepOrphanFiles(db: Database, terrainDir: string, minAgeM
   const now = Date.now();
   for (const planId of planDirs) {
     const dir = join(terrainDir, planId);
-    const referenced = new Set((await terrainFilePaths(db, planId)).map((filePath) => filePath.split(/[\\/]/).pop()));
+    // Layers of this plan and of its copies (which share the files) keep a file.
+    const referenced = await terrainFileNamesReferencedIn(db, planId);
     for (const file of await readdir(dir)) {
       if (referenced.has(file)) continue;
       const path = join(dir, file);

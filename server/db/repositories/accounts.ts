@@ -1,9 +1,15 @@
 // Teams, users and tokens. Tokens look like `esk_<lookupId>_<secret>`: the lookupId finds
 // the row, only a scrypt hash of the whole token is stored, and it is compared in constant
-// time. A successful check is remembered per process (sha256 of the token) so requests
-// do not pay the scrypt cost again, while revocation and expiry are read from the row
-// every time.
-import { createHash, randomBytes, scrypt as scryptCallback, timingSafeEqual } from 'node:crypto';
+// time. Every check that is not answered from the cache costs one row lookup and one scrypt,
+// whether the lookupId exists or not (an unknown one is compared against a dummy hash), so the
+// time does not tell which lookupIds exist.
+//
+// Verified tokens are cached for a short while (tokenCacheTtlMs) under an HMAC of the token
+// with a per-process random key (the cache never holds the token or a plain hash of it). A
+// revocation in this process drops the entry at once; other processes (API instances, the CLI
+// through the database) are seen within tokenRecheckMs: cached entries are re-read from the
+// database in one query at most that often, and revoked, expired or deleted ones are dropped.
+import { createHmac, randomBytes, scrypt as scryptCallback, timingSafeEqual } from 'node:crypto';
 import { promisify } from 'node:util';
 import type { Database } from '../client.ts';
 import type { UserRole } from '../generated/client.ts';
@@ -49,11 +55,78 @@ async function tokenMatches(token: string, stored: string): Promise<boolean> {
 }
 
 const tokenPattern = /^esk_([0-9a-f]{16})_([A-Za-z0-9_-]{43})$/;
-const verifiedCache = new Map<string, string>(); // lookupId -> sha256(token) known to match the stored hash
 
-function sha256(text: string): Buffer {
-  return createHash('sha256').update(text).digest();
+/** How long a verified token is answered from memory. */
+export const tokenCacheTtlMs = 30_000;
+/** How stale the cache may be about revocations made by other processes. */
+export const tokenRecheckMs = 1_000;
+const tokenCacheMax = 10_000;
+const cacheKeySecret = randomBytes(32);
+
+interface CachedToken {
+  principal: Principal;
+  lookupId: string;
+  tokenExpiresAtMs: number | null;
+  cachedUntilMs: number;
+  lastUsedWriteMs: number;
+  owner: Database;
 }
+const verifiedTokens = new Map<string, CachedToken>(); // HMAC(token) -> what the row said
+const recheck = new WeakMap<Database, { atMs: number; running: Promise<void> | null }>();
+
+function cacheKey(token: string): string {
+  return createHmac('sha256', cacheKeySecret).update(token).digest('base64url');
+}
+
+function forgetLookupId(lookupId: string): void {
+  for (const [key, entry] of verifiedTokens) if (entry.lookupId === lookupId) verifiedTokens.delete(key);
+}
+
+/** Re-reads every cached token of `db` (one query), at most once per tokenRecheckMs; concurrent callers share it. */
+async function recheckCachedTokens(db: Database): Promise<void> {
+  let state = recheck.get(db);
+  if (!state) {
+    state = { atMs: 0, running: null };
+    recheck.set(db, state);
+  }
+  if (state.running) return state.running;
+  if (Date.now() - state.atMs < tokenRecheckMs) return;
+  const current = state;
+  current.running = (async () => {
+    const startedMs = Date.now();
+    const lookupIds = [...verifiedTokens.values()].filter((entry) => entry.owner === db).map((entry) => entry.lookupId);
+    if (lookupIds.length > 0) {
+      const rows = await db.prisma.apiToken.findMany({ where: { lookupId: { in: lookupIds } }, select: { lookupId: true, revokedAt: true, expiresAt: true, user: { select: { role: true } } } });
+      const live = new Map(rows.filter((row) => !row.revokedAt && !(row.expiresAt && row.expiresAt.getTime() <= Date.now())).map((row) => [row.lookupId, row.user.role]));
+      for (const [key, entry] of verifiedTokens) {
+        if (entry.owner !== db) continue;
+        const role = live.get(entry.lookupId);
+        if (role === undefined) verifiedTokens.delete(key);
+        else entry.principal = { ...entry.principal, role }; // a role change is seen as quickly as a revocation
+      }
+    }
+    current.atMs = startedMs;
+  })().finally(() => {
+    current.running = null;
+  });
+  return current.running;
+}
+
+/** Whether `token` would be answered from the cache (no scrypt): the throttle does not count those. */
+export function isTokenCached(db: Database, token: string): boolean {
+  const hit = verifiedTokens.get(cacheKey(token));
+  return hit !== undefined && hit.owner === db && hit.cachedUntilMs > Date.now() && !(hit.tokenExpiresAtMs !== null && hit.tokenExpiresAtMs <= Date.now());
+}
+
+/** Drops every cached verification (tests; an operator's "log everyone out"). */
+export function clearTokenCache(): void {
+  verifiedTokens.clear();
+}
+
+// A well-formed hash of a random token nobody holds: unknown lookupIds are compared against it,
+// so they cost the same scrypt as a wrong secret for a known one.
+let dummyHash: Promise<string> | null = null;
+const dummyHashOnce = () => (dummyHash ??= hashToken(`esk_${randomBytes(8).toString('hex')}_${randomBytes(32).toString('base64url')}`));
 
 export async function createTeam(db: Database, input: { slug: string; name: string }) {
   const existing = await db.prisma.team.findUnique({ where: { slug: input.slug } });
@@ -120,15 +193,39 @@ export async function issueTeamToken(
 export async function verifyToken(db: Database, token: string, options: { consumeOneTime?: boolean } = {}): Promise<(Principal & { oneTime: boolean }) | null> {
   const match = tokenPattern.exec(token);
   if (!match) return null;
+  const key = cacheKey(token);
+  if (!options.consumeOneTime) {
+    const hit = verifiedTokens.get(key);
+    if (hit && hit.owner === db && hit.cachedUntilMs > Date.now() && !(hit.tokenExpiresAtMs !== null && hit.tokenExpiresAtMs <= Date.now())) {
+      await recheckCachedTokens(db);
+      const still = verifiedTokens.get(key);
+      if (still) {
+        if (Date.now() - still.lastUsedWriteMs > 60_000) {
+          still.lastUsedWriteMs = Date.now();
+          // Best effort, off the request path: lastUsedAt is informational.
+          void db.prisma.apiToken.updateMany({ where: { lookupId: still.lookupId }, data: { lastUsedAt: new Date() } }).catch(() => undefined);
+        }
+        return { ...still.principal, oneTime: false };
+      }
+      return null;
+    }
+  }
   const row = await db.prisma.apiToken.findUnique({ where: { lookupId: match[1] }, include: { user: true } });
-  if (!row || row.revokedAt || (row.expiresAt && row.expiresAt.getTime() <= Date.now())) return null;
+  // One scrypt on every path: the answer takes as long for an unknown lookupId as for a wrong secret.
+  const matches = await tokenMatches(token, row?.hash ?? (await dummyHashOnce()));
+  if (!row || !matches) return null;
+  if (row.revokedAt || (row.expiresAt && row.expiresAt.getTime() <= Date.now())) return null;
   if (row.oneTime && !options.consumeOneTime) return null; // one-time sign-in tokens only work at /signin
-  const digest = sha256(token);
-  const cached = verifiedCache.get(row.lookupId);
-  const cachedOk = cached !== undefined && timingSafeEqual(Buffer.from(cached, 'hex'), digest);
-  if (!cachedOk) {
-    if (!(await tokenMatches(token, row.hash))) return null;
-    verifiedCache.set(row.lookupId, digest.toString('hex'));
+  if (!row.oneTime) {
+    if (verifiedTokens.size >= tokenCacheMax) verifiedTokens.delete(verifiedTokens.keys().next().value as string);
+    verifiedTokens.set(key, {
+      principal: { userId: row.userId, teamId: row.teamId, role: row.user.role, tokenId: row.id },
+      lookupId: row.lookupId,
+      tokenExpiresAtMs: row.expiresAt ? row.expiresAt.getTime() : null,
+      cachedUntilMs: Date.now() + tokenCacheTtlMs,
+      lastUsedWriteMs: Date.now(),
+      owner: db,
+    });
   }
   if (row.oneTime) {
     // Consume atomically: only the first of two racing sign-ins wins.
@@ -152,7 +249,7 @@ export async function revokeToken(db: Database, by: { token?: string; id?: strin
     }
   }
   if (!row) throw new NotFoundError('token');
-  verifiedCache.delete(row.lookupId);
+  forgetLookupId(row.lookupId);
   if (row.revokedAt) return { id: row.id, alreadyRevoked: true };
   await db.prisma.apiToken.update({ where: { id: row.id }, data: { revokedAt: new Date() } });
   return { id: row.id, alreadyRevoked: false };

@@ -16,6 +16,7 @@ export const tokenIssueInput = z.strictObject({
   role: z.enum(roles as [Role, ...Role[]], { error: 'must be planner, installer or viewer' }),
   name: z.string().trim().min(1).max(200).optional(),
   oneTime: z.boolean().optional(),
+  expiresInDays: z.number().int('must be a whole number').min(1, 'must be ≥ 1').max(3650, 'must be ≤ 3650').optional(),
 });
 export const tokenRevokeInput = z
   .strictObject({ token: z.string().min(1).optional(), id: z.string().min(1).optional() })
@@ -32,10 +33,10 @@ export async function adminTokenIssue(db: Database, input: z.infer<typeof tokenI
   if (!(await findTeamBySlug(db, input.team))) throw new NotFoundError(`team "${input.team}"`);
   const issued = await writeWithAudit(
     db,
-    (tx) => issueTeamToken(tx, { teamSlug: input.team, role: input.role, userName: input.name, oneTime: input.oneTime, label: 'issued by admin CLI' }),
+    (tx) => issueTeamToken(tx, { teamSlug: input.team, role: input.role, userName: input.name, oneTime: input.oneTime, label: input.oneTime ? 'invitation link (admin CLI)' : 'issued by admin CLI', expiresAt: input.expiresInDays ? new Date(Date.now() + input.expiresInDays * 86_400_000) : null }),
     (row) => ({ principal: system(row.teamId), action: 'issue', entity: 'token', entityId: row.id, detail: { role: row.role, via: 'cli' } }),
   );
-  return { token: issued.token, id: issued.id, team: input.team, role: issued.role, userId: issued.userId };
+  return { token: issued.token, id: issued.id, team: input.team, role: issued.role, userId: issued.userId, oneTime: input.oneTime ?? false, expiresAt: issued.expiresAt };
 }
 
 export async function adminTokenRevoke(db: Database, input: z.infer<typeof tokenRevokeInput>) {

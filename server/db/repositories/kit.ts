@@ -3,6 +3,7 @@
 // reaches existing databases; teams add their own rows (teamId set, cuid ids).
 // The *ForTeam helpers return the server/radio shapes the computation rooms take.
 import { createHash } from 'node:crypto';
+import { parseStoredPattern } from '../../radio/pattern-schema.ts';
 import type { Database } from '../client.ts';
 import type { Prisma } from '../generated/client.ts';
 import { NotFoundError } from '../errors.ts';
@@ -206,7 +207,8 @@ export function toRadioAntennaDesign(row: AntennaDesignRow): RadioAntennaDesign 
     name: row.name,
     kind: row.kind as RadioAntennaDesign['kind'],
     gainDbi: row.gainDbi,
-    pattern: row.pattern as unknown as RadioAntennaDesign['pattern'],
+    // Parsed through the same schema the API checks with (no pattern = an omni of gainDbi).
+    pattern: parseStoredPattern(row.pattern, row.name),
     polarization: row.polarization as RadioAntennaDesign['polarization'],
     bandMhz: { fromMhz: row.fromMhz, toMhz: row.toMhz },
     typicalVswr: row.typicalVswr,

@@ -14,10 +14,25 @@ export interface Page<T> {
 export const defaultPageLimit = 100;
 export const maxPageLimit = 1000;
 
+/** A cursor that this server did not hand out (the API answers 400). */
+export class InvalidCursorError extends Error {
+  constructor() {
+    super('cursor: not a cursor this server handed out (use the `next` of the previous page)');
+  }
+}
+
+/** Largest offset a cursor may carry (a PostgreSQL INTEGER, far beyond any real list). */
+export const maxCursorOffset = 2_147_483_647;
+
+/** The offset in a cursor; throws InvalidCursorError unless it is the base64url of a plain decimal offset in range. */
 export function decodeCursor(cursor: string | null | undefined): number {
   if (!cursor) return 0;
-  const offset = Number(Buffer.from(cursor, 'base64url').toString('utf8'));
-  return Number.isInteger(offset) && offset >= 0 ? offset : 0;
+  if (!/^[A-Za-z0-9_-]{1,16}$/.test(cursor)) throw new InvalidCursorError();
+  const text = Buffer.from(cursor, 'base64url').toString('utf8');
+  if (!/^(0|[1-9]\d{0,9})$/.test(text)) throw new InvalidCursorError();
+  const offset = Number(text);
+  if (offset > maxCursorOffset) throw new InvalidCursorError();
+  return offset;
 }
 
 export function encodeCursor(offset: number): string {

@@ -44,6 +44,8 @@ export async function deletePlan(db: Database, teamId: string, planId: string): 
 export interface PlanFiles {
   /** Terrain layer files no other plan's layer references (the demo DEM may be shared). */
   terrainFiles: string[];
+  /** The plan's terrain files another plan's layer still references (a plan copy): kept. */
+  sharedTerrainFiles?: string[];
   /** Coverage runs of the plan: their result folders are <filesDir>/coverage/<runId>/. */
   coverageRunIds: string[];
   /** Result paths stored on the runs (normally coverage/<runId>). */
@@ -63,6 +65,7 @@ export async function deletePlanReturningFiles(db: Database, teamId: string, pla
   );
   return {
     terrainFiles: ownTerrain.filter((filePath) => !stillUsed.has(filePath)),
+    sharedTerrainFiles: ownTerrain.filter((filePath) => stillUsed.has(filePath)),
     coverageRunIds: runs.map((run) => run.id),
     coverageResultPaths: runs.flatMap((run) => (run.resultPath ? [run.resultPath] : [])),
   };

@@ -101,6 +101,8 @@ export function openEditDialog(
   entity: Entity,
   catalog: Catalog,
   save: (changes: Record<string, unknown>) => Promise<string | null>,
+  /** Adds live read-outs under the fields (the gateway's EIRP and legal check). */
+  decorate?: (controls: ReadonlyMap<string, HTMLInputElement | HTMLSelectElement | HTMLTextAreaElement>, form: HTMLFormElement) => void,
 ): void {
   openDialog(`Edit ${kindLabel[kind]}: ${entity.name}`, (body, close) => {
     const form = h('form', { class: 'edit-form' });
@@ -129,6 +131,7 @@ export function openEditDialog(
       controls.set(spec.key, control);
       form.append(field(spec.label, control, spec.hint));
     }
+    decorate?.(controls, form);
     const status = h('div', { 'aria-live': 'polite' });
     form.append(
       h('div', { class: 'dialog-actions' }, h('button', { type: 'submit', class: 'primary' }, 'Save'), h('button', { type: 'button', onclick: close }, 'Cancel')),

@@ -1,10 +1,12 @@
 // Fleet table: every node with its predicted status and best link; sortable
 // by any column, filterable by status, each row linked to the map.
 import type { Route } from '../router.ts';
+import { getGatewayChecks } from '../api-gateways.ts';
 import { planHash } from '../router.ts';
 import { PlanStore } from '../plan-store.ts';
 import { clear, db, fmt, h, metres, notice, percent } from '../ui.ts';
 import { nodeSymbolSvg, statusStyle, symbolElement, type NodeClass } from '../symbols.ts';
+import { getCapacity } from '../api-capacity.ts';
 
 interface Row {
   id: string;
@@ -15,6 +17,8 @@ interface Row {
   bestSf: number | null;
   toaMs: number | null;
   delivery: number | null;
+  /** Delivery ratio with collisions and duty-cycle budget (GET /capacity, capture model); null until known. */
+  deliveryLoad: number | null;
   heard: number | null;
   legal: string;
   device: string;
@@ -32,6 +36,7 @@ const columns: Array<{ key: Key; label: string; numeric?: boolean }> = [
   { key: 'bestSf', label: 'Best SF', numeric: true },
   { key: 'toaMs', label: 'Time on air (ms)', numeric: true },
   { key: 'delivery', label: 'Delivery', numeric: true },
+  { key: 'deliveryLoad', label: 'Delivery with network load', numeric: true },
   { key: 'heard', label: 'Heard by (gateways, margin ≥ 0 dB)', numeric: true },
   { key: 'legal', label: 'Power legal' },
   { key: 'device', label: 'Device' },
@@ -59,6 +64,7 @@ export async function renderFleet(main: HTMLElement, route: Route): Promise<void
       bestSf: num(f?.bestSf),
       toaMs: num(f?.timeOnAirMs),
       delivery: num(f?.combinedDeliveryProbability),
+      deliveryLoad: null,
       heard: num(f?.gatewaysHeard),
       legal: f ? (f.legal ? 'yes' : 'NO') : '–',
       device: n.deviceType,
@@ -156,6 +162,7 @@ export async function renderFleet(main: HTMLElement, route: Route): Promise<void
           h('td', { class: 'num' }, r.bestSf ? `SF${r.bestSf}` : '–'),
           h('td', { class: 'num' }, fmt(r.toaMs, 'ms', 0)),
           h('td', { class: 'num' }, percent(r.delivery)),
+          h('td', { class: 'num', 'data-col': 'delivery-load' }, percent(r.deliveryLoad)),
           h('td', { class: 'num' }, r.heard === null ? '–' : String(r.heard)),
           h('td', {}, r.legal),
           h('td', {}, r.device),
@@ -169,7 +176,52 @@ export async function renderFleet(main: HTMLElement, route: Route): Promise<void
   filter.addEventListener('change', draw);
   search.addEventListener('input', draw);
   draw();
+  // The delivery ratio with collisions comes from the capacity route; the table is usable before it arrives.
+  const loadNote = h('p', { class: 'muted small', id: 'fleet-load-note' }, 'Delivery with network load: computing…');
+  countLine.after(loadNote);
+  getCapacity(planId, { model: 'capture' })
+    .then((capacity) => {
+      const byId = new Map(capacity.nodes.map((n) => [n.nodeId, n.deliveryRatio]));
+      for (const r of rows) r.deliveryLoad = byId.get(r.id) ?? null;
+      loadNote.textContent = `“Delivery” is the link-only figure; “with network load” also counts collisions (capture model) and duty-cycle budgets at the planned reporting rates (${capacity.totals.overBudgetNodes} node(s) over budget).`;
+      draw();
+    })
+    .catch((err: unknown) => {
+      loadNote.textContent = `Delivery with network load is not available: ${err instanceof Error ? err.message : String(err)}.`;
+    });
   main.append(
     h('ul', { class: 'status-key inline' }, ...(Object.keys(statusStyle) as NodeClass[]).map((c) => h('li', {}, symbolElement(nodeSymbolSvg(c, 14), ''), statusStyle[c].label))),
   );
+  // Gateways are checked by the same legal rule as nodes.
+  const gatewayBox = h('section', { class: 'card', id: 'fleet-gateways', 'aria-labelledby': 'fleet-gateways-h' }, h('h2', { id: 'fleet-gateways-h' }, 'Gateways: radiated power'));
+  main.append(gatewayBox);
+  void getGatewayChecks(planId)
+    .then(({ items }) => {
+      const rows = items.map((g) =>
+        h(
+          'tr',
+          { class: g.legal.withinLimit ? '' : 'row-warn' },
+          h('th', { scope: 'row' }, g.name),
+          h('td', { class: 'num' }, fmt(g.txPowerDbm, 'dBm')),
+          h('td', {}, `${g.antennaName} (${fmt(g.antennaGainDbi, 'dBi')})`),
+          h('td', { class: 'num' }, fmt(g.antennaHeightAglM, 'm')),
+          h('td', { class: 'num' }, fmt(g.peakEirpDbm, 'dBm')),
+          h('td', { class: 'num' }, g.legal.maxEirpDbm === null ? '–' : fmt(g.legal.maxEirpDbm, 'dBm')),
+          h('td', {}, g.legal.withinLimit ? 'yes' : `NO, ${fmt(g.legal.excessDb, 'dB')} over`),
+        ),
+      );
+      gatewayBox.append(
+        h(
+          'div',
+          { class: 'table-scroll' },
+          h(
+            'table',
+            { class: 'data-table' },
+            h('thead', {}, h('tr', {}, ...['Gateway', 'Power', 'Antenna', 'Height', 'Peak EIRP', 'Limit', 'Power legal'].map((t) => h('th', { scope: 'col' }, t)))),
+            h('tbody', {}, ...rows),
+          ),
+        ),
+      );
+    })
+    .catch((err: unknown) => gatewayBox.append(notice('error', `Gateway check: ${err instanceof Error ? err.message : String(err)}`)));
 }

@@ -7,7 +7,8 @@ import { announce, errorText, field, h, notice, openDialog, select } from '../ui
 
 const csvExample = 'name,lat,lon,deviceType,antennaHeightAglM,environment\nProbe 1,40.0100,-105.2000,soil probe,1.5,outdoor';
 
-export function openImportDialog(store: PlanStore): void {
+/** `onImported` gets the imported nodes (the map moves onto them). */
+export function openImportDialog(store: PlanStore, onImported?: (nodes: Array<{ lat: number; lon: number }>) => void): void {
   openDialog('Import nodes', (body, close) => {
     const format = select(
       [
@@ -56,6 +57,7 @@ export function openImportDialog(store: PlanStore): void {
         commitButton.disabled = !dryRun || result.errors.length > 0;
         if (!dryRun) {
           await store.reloadAll();
+          onImported?.(result.items ?? []);
           announce(`Imported ${result.created ?? result.items?.length ?? ''} nodes`);
         }
       } catch (err) {

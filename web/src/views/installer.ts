@@ -8,12 +8,16 @@ import { explainWriteError, PlanStore } from '../plan-store.ts';
 import type { Route } from '../router.ts';
 import { planHash } from '../router.ts';
 import { canRecordReadings } from '../session.ts';
-import { announce, cautionsBlock, coords, db, dbm, distance, errorText, field, h, metres, notice, percent, select } from '../ui.ts';
+import { announce, cautionsBlock, coords, db, dbm, distance, errorText, field, h, metres, money, notice, percent, select } from '../ui.ts';
 import { nodeSymbolSvg, statusStyle, symbolElement } from '../symbols.ts';
 import { kitLabel } from './node-panel.ts';
+import { tuningPanel } from './tuning-panel.ts';
+import { offlineCard, outboxPanel } from './offline-panel.ts';
+import { isNetworkFailure, queueInstallStatus, queueReading } from '../offline/device.ts';
 
 export async function renderInstaller(main: HTMLElement, route: Route): Promise<void> {
   main.classList.add('narrow');
+  main.append(outboxPanel());
   const store = new PlanStore(route.planId as string);
   await store.load();
   if (!route.nodeId) {
@@ -64,6 +68,7 @@ async function renderNodeVisit(main: HTMLElement, store: PlanStore, node: FleetN
     h('p', { class: 'muted small', id: 'install-status-line' }, statusLine(node)),
   );
   renderInstallStatus(main, store, node);
+  main.append(offlineCard(store.planId, node));
 
   // where
   const copy = h('button', { type: 'button', onclick: () => void navigator.clipboard?.writeText(`${node.lat.toFixed(6)}, ${node.lon.toFixed(6)}`).then(() => announce('Coordinates copied')) }, 'Copy coordinates');
@@ -87,6 +92,7 @@ async function renderNodeVisit(main: HTMLElement, store: PlanStore, node: FleetN
     sheetBox.replaceChildren();
     renderSheet(sheetBox, store, sheet);
     form?.useSheet(sheet);
+    main.append(tuningPanel(store.planId, node.id, sheet.buildSheet?.design ?? null, store.plan.bandPlanId));
   } catch (err) {
     sheetBox.replaceChildren(notice('info', `Visit sheet: ${errorText(err)}.`), cautionsBlock());
   } finally {
@@ -117,6 +123,16 @@ function renderInstallStatus(main: HTMLElement, store: PlanStore, node: FleetNod
   save.addEventListener('click', () => {
     save.disabled = true;
     result.textContent = 'Saving…';
+    // No connection: the change waits on this device; the server's version check decides when it is sent.
+    const queue = () =>
+      queueInstallStatus(store.planId, node, choice.value).then(() => {
+        result.textContent = `Not yet sent: install status ${installStatusLabels[choice.value as keyof typeof installStatusLabels]} is saved on this device and is sent when the connection returns (its state is in the list at the top).`;
+        save.disabled = false;
+      });
+    if (!navigator.onLine) {
+      void queue();
+      return;
+    }
     void store
       .update('nodes', node.id, { installStatus: choice.value }, false, `set the install status of ${node.name}`)
       .then((updated) => {
@@ -127,6 +143,7 @@ function renderInstallStatus(main: HTMLElement, store: PlanStore, node: FleetNod
         announce(result.textContent);
       })
       .catch((err: unknown) => {
+        if (isNetworkFailure(err)) return queue();
         result.textContent = explainWriteError(err, store, `node ${node.name}`);
       })
       .finally(() => {
@@ -160,13 +177,20 @@ function renderSheet(main: HTMLElement, store: PlanStore, sheet: VisitSheet): vo
       h('dd', { id: 'install-height' }, `${metres(k.antennaHeightAglM)} above ground`),
       h('dt', {}, 'Feedline'),
       h('dd', {}, k.feedline ? `${k.feedline.name}, ${metres(k.feedline.lengthM)}` : 'none (radio at the antenna)'),
+      k.mastName ? h('dt', {}, 'Mast or mount') : null,
+      k.mastName ? h('dd', {}, k.mastName) : null,
+      k.price ? h('dt', {}, 'Kit cost') : null,
+      k.price ? h('dd', { id: 'install-kit-cost' }, money(k.price.totalUsd)) : null,
     ),
+    k.price ? h('ul', { class: 'price-lines small' }, ...k.price.lines.map((l) => h('li', {}, `${l.name}${l.unit === 'm' ? `, ${metres(l.quantity)}` : l.quantity > 1 ? ` × ${l.quantity}` : ''}: ${money(l.costUsd)}`))) : null,
   );
   if (k.recommended) {
     kit.append(
       notice(
         'warn',
-        `This kit does not meet the target. Recommended instead: ${kitLabel(store, { antennaDesignId: k.recommended.antennaDesignId, mastHeightM: k.recommended.mastHeightM, feedlineId: k.recommended.feedlineId, feedlineLengthM: k.recommended.feedlineLengthM })} (${k.recommended.cost.toFixed(2)} USD). ${k.recommended.reason}`,
+        `This kit does not meet the target. Recommended instead: ${kitLabel(store, { antennaDesignId: k.recommended.antennaDesignId, mastHeightM: k.recommended.mastHeightM, feedlineId: k.recommended.feedlineId, feedlineLengthM: k.recommended.feedlineLengthM })}${k.recommended.mastName ? ` on ${k.recommended.mastName}` : ''} (`,
+        h('span', { id: 'install-rec-cost' }, money(k.recommended.price?.totalUsd ?? k.recommended.cost)),
+        `). ${k.recommended.reason}`,
       ),
     );
   }
@@ -266,7 +290,7 @@ function renderReadingForm(main: HTMLElement, store: PlanStore, node: FleetNode)
       return;
     }
     out.replaceChildren(h('p', {}, 'Saving…'));
-    void postReading(store.planId, {
+    const reading = {
       nodeId: node.id,
       gatewayId: gateway.value,
       rssiDbm,
@@ -274,7 +298,19 @@ function renderReadingForm(main: HTMLElement, store: PlanStore, node: FleetNode)
       sf: Number(sf.value),
       measuredAt: new Date(when.value).toISOString(),
       note: note.value || undefined,
-    })
+    };
+    // No connection: the reading waits on this device ("not yet sent") and goes when the connection returns.
+    const queue = () =>
+      queueReading(store.planId, node, reading, `reading RSSI ${dbm(rssiDbm)}, SNR ${db(snrDb)} at SF${sf.value}`).then(() => {
+        out.replaceChildren(notice('info', h('span', { id: 'reading-queued' }, `Not yet sent: the reading (RSSI ${dbm(rssiDbm)}, SNR ${db(snrDb)}) is saved on this device and is sent when the connection returns (its state is in the list at the top).`)));
+        rssi.value = '';
+        snr.value = '';
+      });
+    if (!navigator.onLine) {
+      void queue();
+      return;
+    }
+    void postReading(store.planId, reading)
       .then(({ items }) => {
         const saved = items[0];
         const compare =
@@ -286,7 +322,7 @@ function renderReadingForm(main: HTMLElement, store: PlanStore, node: FleetNode)
         rssi.value = '';
         snr.value = '';
       })
-      .catch((err: unknown) => out.replaceChildren(notice('error', explainWriteError(err, store, 'the reading'))));
+      .catch((err: unknown) => (isNetworkFailure(err) ? queue() : out.replaceChildren(notice('error', explainWriteError(err, store, 'the reading')))));
   });
   main.append(form);
   let touched = false;

@@ -3,7 +3,7 @@
 // overlays; planner editing (add, drag, edit, delete, import, undo); the
 // side panel shows the selected object (the node panel has the link check).
 import * as L from 'leaflet';
-import { ApiError, getClientSettings, hillshadeTileUrl, listTerrain, type ClientSettings, type Entity, type EntityKind, type FleetNode } from '../api.ts';
+import { ApiError, getClientSettings, isAbort, hillshadeTileUrl, listTerrain, type ClientSettings, type Entity, type EntityKind, type FleetNode } from '../api.ts';
 import { explainWriteError, PlanStore } from '../plan-store.ts';
 import type { Route } from '../router.ts';
 import { canEdit } from '../session.ts';
@@ -11,9 +11,14 @@ import { announce, append, clear, coords, errorText, h, metres, notice, openDial
 import { gatewaySymbolSvg, nodeSymbolSvg, siteSymbolSvg, statusStyle, symbolElement, type NodeClass } from '../symbols.ts';
 import { kindLabel, openEditDialog } from './edit-dialog.ts';
 import { openImportDialog } from './import-dialog.ts';
+import { openTerrainUploadDialog } from './terrain-upload.ts';
+import { gatewayCheckBlock, liveGatewayCheck } from './gateway-check.ts';
+import { getGatewayChecks } from '../api-gateways.ts';
+import { insideBox, layerBox, type LonLatBox } from '../api-terrain.ts';
 import { openPlanSettingsDialog } from './plan-settings-dialog.ts';
 import { renderNodePanel } from './node-panel.ts';
 import { renderCoveragePanel } from './coverage-panel.ts';
+import { renderCalibrationPanel } from './calibration-panel.ts';
 
 export function nodeClass(store: PlanStore, nodeId: string): NodeClass {
   return store.fleet.get(nodeId)?.status ?? 'unknown';
@@ -39,16 +44,23 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
     minZoom: 5,
     attribution: 'Hillshade from the plan’s terrain layers',
   });
-  hillshade.addTo(map);
   let terrainNote = '';
+  /** Extents of the plan's elevation layers: where a node can be predicted at all. */
+  const terrainBoxes: LonLatBox[] = [];
   try {
     const layers = await listTerrain(planId);
+    for (const layer of layers) {
+      const box = layer.kind === 'clutter' ? null : layerBox(layer);
+      if (box) terrainBoxes.push(box);
+    }
     if (layers.length === 0) terrainNote = 'This plan has no terrain layer yet: the base layer is blank until one is uploaded.';
     else if (layers.some((l) => /synthetic/i.test(String(l.name ?? '') + String(l.source ?? '') + String(l.notes ?? ''))))
       terrainNote = 'Terrain: synthetic demo terrain (not a real place).';
   } catch (err) {
     terrainNote = `Terrain layers: ${errorText(err)}.`;
   }
+  // Without terrain the server has no hillshade to send (404 per tile): the layer joins on upload.
+  if (terrainBoxes.length > 0) hillshade.addTo(map);
   // An online base layer only when the server is configured with one (EARSHOT_BASE_LAYER_URL,
   // handed over by GET /client-settings); offered as a toggle, off by default.
   let settings: ClientSettings = { onlineBaseLayer: null, bandPlans: [], propagationMethods: [] };
@@ -59,6 +71,22 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
   }
   const onlineLayer = settings.onlineBaseLayer;
   const online = onlineLayer ? L.tileLayer(onlineLayer.urlTemplate, { maxZoom: 19, attribution: onlineLayer.attribution ?? 'Online base layer (configured on the server)' }) : null;
+
+  // Map tools: a metric scale bar and the coordinates under the pointer (or of the map centre).
+  L.control.scale({ metric: true, imperial: false, position: 'bottomleft' }).addTo(map);
+  const readout = h('div', { class: 'coord-readout', id: 'coord-readout', 'aria-live': 'off' });
+  const ReadoutControl = L.Control.extend({ onAdd: () => readout });
+  new ReadoutControl({ position: 'bottomleft' }).addTo(map);
+  const showCentre = (): void => {
+    const c = map.getCenter();
+    mapEl.dataset.centre = `${c.lat.toFixed(6)},${c.lng.toFixed(6)}`;
+    readout.textContent = `centre ${coords(c.lat, c.lng)}`;
+  };
+  map.on('moveend', showCentre);
+  map.on('mousemove', (event: L.LeafletMouseEvent) => {
+    readout.textContent = coords(event.latlng.lat, event.latlng.lng);
+  });
+  map.on('mouseout', showCentre);
 
   const nodeLayer = L.layerGroup().addTo(map);
   const gatewayLayer = L.layerGroup().addTo(map);
@@ -99,6 +127,12 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
     return h('label', { class: 'toggle' }, box, symbol ?? null, label);
   };
   const counts = h('p', { class: 'muted', id: 'fleet-counts' });
+  const terrainNoteEl = h('p', { class: 'muted small', id: 'terrain-note' }, terrainNote);
+  /** Moves the map onto a set of points (imported nodes, a new layer). */
+  const fitTo = (points: Array<{ lat: number; lon: number }>): void => {
+    if (points.length === 0) return;
+    map.fitBounds(L.latLngBounds(points.map((p) => [p.lat, p.lon] as L.LatLngTuple)), { padding: [30, 30], maxZoom: 15 });
+  };
   append(
     layersPanel,
     planLine,
@@ -107,7 +141,7 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
       'fieldset',
       { class: 'layer-list' },
       h('legend', {}, 'Layers'),
-      toggle('Hillshade (plan terrain)', hillshade, true),
+      toggle('Hillshade (plan terrain)', hillshade, terrainBoxes.length > 0),
       online ? toggle('Online base layer', online, false) : null,
       toggle('Nodes', nodeLayer, true),
       toggle('Gateways', gatewayLayer, true, symbolElement(gatewaySymbolSvg(18), '')),
@@ -120,7 +154,7 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
       ...(Object.keys(statusStyle) as NodeClass[]).map((c) => h('li', {}, symbolElement(nodeSymbolSvg(c, 16), ''), statusStyle[c].label)),
     ),
     counts,
-    terrainNote ? h('p', { class: 'muted small' }, terrainNote) : null,
+    terrainNoteEl,
   );
   if (store.fleetProblem) layersPanel.append(notice('info', `Node status not shown: ${store.fleetProblem}.`));
 
@@ -150,8 +184,32 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
     for (const [k, b] of placeButtons) b.setAttribute('aria-pressed', String(k === kind));
     toolStatus.textContent = kind ? `Click the map where the new ${kindLabel[kind]} goes (Esc cancels), or use “at map centre”.` : '';
   };
+  /** Off the terrain there is no profile to predict with: ask before placing there. */
+  const confirmOffTerrain = (kind: EntityKind): Promise<boolean> =>
+    new Promise((resolve) => {
+      let answered = false;
+      const dialog = openDialog(`This ${kindLabel[kind]} would be off the terrain`, (body, close) => {
+        const answer = (value: boolean): void => {
+          answered = true;
+          resolve(value);
+          close();
+        };
+        body.append(
+          notice('warn', terrainBoxes.length === 0 ? 'This plan has no terrain layer yet, so nothing placed now can be predicted. Upload a GeoTIFF first (Edit the fleet → Upload terrain).' : 'The point is outside every elevation layer of this plan: links to it cannot be predicted until terrain covering it is uploaded.'),
+          h('div', { class: 'dialog-actions' }, h('button', { type: 'button', class: 'primary', onclick: () => answer(false) }, 'Cancel'), h('button', { type: 'button', id: 'place-anyway', onclick: () => answer(true) }, 'Place it anyway')),
+        );
+      });
+      dialog.root.addEventListener('close', () => {
+        if (!answered) resolve(false);
+      });
+    });
+  const onTerrain = (lat: number, lon: number): boolean => terrainBoxes.some((box) => insideBox(box, lat, lon));
   const addAt = async (kind: EntityKind, latlng: L.LatLng): Promise<void> => {
     setPlacing(null);
+    if (kind !== 'sites' && !onTerrain(latlng.lat, latlng.lng) && !(await confirmOffTerrain(kind))) {
+      toolStatus.textContent = `Not placed: the point is off the terrain.`;
+      return;
+    }
     const n = store.list(kind).length + 1;
     const body: Record<string, unknown> = { name: `New ${kindLabel[kind]} ${n}`, lat: round6(latlng.lat), lon: round6(latlng.lng) };
     const antenna = store.catalog.antennas[0]?.id;
@@ -177,7 +235,32 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
     const centre = h('button', { type: 'button', onclick: () => placing && void addAt(placing, map.getCenter()) }, 'Place at map centre');
     tools.append(
       row,
-      h('div', { class: 'button-row' }, centre, h('button', { type: 'button', id: 'import-button', onclick: () => openImportDialog(store) }, 'Import nodes (CSV / GeoJSON)'), undoButton),
+      h('div', { class: 'button-row' }, centre, h('button', { type: 'button', id: 'import-button', onclick: () => openImportDialog(store, fitTo) }, 'Import nodes (CSV / GeoJSON)'), undoButton),
+      h(
+        'div',
+        { class: 'button-row' },
+        h(
+          'button',
+          {
+            type: 'button',
+            id: 'terrain-upload-button',
+            onclick: () =>
+              openTerrainUploadDialog(planId, (layer) => {
+                const box = layer.kind === 'clutter' ? null : layerBox(layer);
+                // Move first, then shade: adding the layer (min zoom 5) while the map is zoomed
+                // out would start a zoom the fit cannot interrupt.
+                if (box) {
+                  terrainBoxes.push(box);
+                  terrainNoteEl.textContent = `Terrain: ${String(layer.name ?? 'new layer')} added.`;
+                  map.fitBounds(L.latLngBounds([box.south, box.west], [box.north, box.east]), { padding: [20, 20], animate: false });
+                }
+                if (map.hasLayer(hillshade)) hillshade.redraw();
+                else hillshade.addTo(map);
+              }),
+          },
+          'Upload terrain (GeoTIFF)',
+        ),
+      ),
       toolStatus,
       h('p', { class: 'muted small' }, 'Drag a marker to move it. Select an object to edit or delete it.'),
     );
@@ -207,8 +290,10 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
   });
 
   const coveragePanel = h('section', { class: 'panel', 'aria-labelledby': 'coverage-h' });
-  sidebar.append(detail, layersPanel, tools, coveragePanel);
+  const calibrationPanel = h('section', { class: 'panel', 'aria-labelledby': 'calibration-h' });
+  sidebar.append(detail, layersPanel, tools, coveragePanel, calibrationPanel);
   const stopCoverage = renderCoveragePanel(coveragePanel, store, map);
+  const stopCalibration = renderCalibrationPanel(calibrationPanel, store);
 
   // ---------- markers ----------
   const draggable = canEdit();
@@ -359,11 +444,27 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
         panelRequests.signal,
       );
     } else {
+      const gatewayBox = h('div', { id: 'gateway-check', 'aria-busy': 'true' }, h('p', { class: 'muted' }, 'Checking EIRP against the band plan…'));
+      if (kind === 'gateways') {
+        panelRequests = new AbortController();
+        void getGatewayChecks(planId, panelRequests.signal)
+          .then((checks) => {
+            const check = checks.items.find((c) => c.gatewayId === id);
+            gatewayBox.replaceChildren(check ? gatewayCheckBlock(check) : notice('info', 'No check for this gateway (its antenna or feedline is not in the catalog).'));
+            gatewayBox.removeAttribute('aria-busy');
+          })
+          .catch((err: unknown) => {
+            if (isAbort(err)) return;
+            gatewayBox.replaceChildren(notice('error', `EIRP check: ${errorText(err)}`));
+            gatewayBox.removeAttribute('aria-busy');
+          });
+      }
       append(
         detail,
         h('h2', {}, `${kind === 'gateways' ? 'Gateway' : 'Candidate site'}: ${entity.name}`),
         h('p', {}, coords(entity.lat, entity.lon)),
         kind === 'gateways' ? h('p', {}, `Antenna ${metres(Number(entity.antennaHeightAglM))} above ground`) : h('p', {}, `Kind: ${String(entity.kind ?? 'candidate')}`),
+        kind === 'gateways' ? gatewayBox : null,
         entity.notes ? h('p', { class: 'muted' }, String(entity.notes)) : null,
         canEdit()
           ? h(
@@ -380,6 +481,26 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
   function edit(kind: EntityKind, id: string): void {
     const entity = store.find(kind, id);
     if (!entity) return;
+    // Gateways: EIRP, the legal check and cautions follow the form as it is typed.
+    const decorate =
+      kind === 'gateways'
+        ? (controls: ReadonlyMap<string, HTMLInputElement | HTMLSelectElement | HTMLTextAreaElement>, form: HTMLFormElement): void => {
+            const num = (key: string): number => Number(controls.get(key)?.value ?? NaN);
+            const live = liveGatewayCheck(planId, () => {
+              const antennaDesignId = controls.get('antennaDesignId')?.value ?? '';
+              const txPowerDbm = num('txPowerDbm');
+              const antennaHeightAglM = num('antennaHeightAglM');
+              if (!antennaDesignId || !Number.isFinite(txPowerDbm) || !Number.isFinite(antennaHeightAglM)) return null;
+              const feedlineId = controls.get('feedlineId')?.value || null;
+              const length = num('feedlineLengthM');
+              return { name: entity.name, txPowerDbm, antennaHeightAglM, antennaDesignId, feedlineId, feedlineLengthM: Number.isFinite(length) ? length : 0 };
+            });
+            for (const key of ['txPowerDbm', 'antennaDesignId', 'antennaHeightAglM', 'feedlineId', 'feedlineLengthM']) controls.get(key)?.addEventListener('input', live.refresh);
+            for (const key of ['antennaDesignId', 'feedlineId']) controls.get(key)?.addEventListener('change', live.refresh);
+            form.append(h('div', { class: 'edit-form-wide' }, h('h3', {}, 'Radiated power and legal check'), live.element));
+            live.refresh();
+          }
+        : undefined;
     openEditDialog(kind, entity, store.catalog, async (changes) => {
       try {
         await store.update(kind, id, changes);
@@ -391,7 +512,7 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
         // A version conflict has its own dialog (with reload): the stale form closes.
         return err instanceof ApiError && err.status === 409 ? null : text;
       }
-    });
+    }, decorate);
   }
 
   function remove(kind: EntityKind, id: string): void {
@@ -469,12 +590,16 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
   // initial view: the fleet's extent, or the plan's terrain
   const all: L.LatLngExpression[] = [...store.nodes, ...store.gateways, ...store.sites].map((e) => [e.lat, e.lon] as L.LatLngTuple);
   if (all.length > 0) map.fitBounds(L.latLngBounds(all), { padding: [30, 30], maxZoom: 15 });
-  else map.setView([0, 0], 5);
+  else if (terrainBoxes.length > 0) {
+    const b = terrainBoxes.reduce((acc, box) => ({ west: Math.min(acc.west, box.west), south: Math.min(acc.south, box.south), east: Math.max(acc.east, box.east), north: Math.max(acc.north, box.north) }));
+    map.fitBounds(L.latLngBounds([b.south, b.west], [b.north, b.east]), { padding: [20, 20] });
+  } else map.setView([20, 0], 2);
   if (route.nodeId && store.find('nodes', route.nodeId)) select('nodes', route.nodeId, true);
 
   return () => {
     abortPanelRequests();
     stopCoverage();
+    stopCalibration();
     unsubscribe();
     document.removeEventListener('keydown', onKey);
     map.remove();

@@ -13,10 +13,11 @@ import {
   type KitPreview,
   type Link,
   type LinkCheck,
-  type MastOption,
   type NodeLinks,
   type Recommendation,
 } from '../api.ts';
+import { renderNodeReadings } from './calibration-panel.ts';
+import { getKitPrice, priceParts } from '../api-kit.ts';
 import { explainWriteError, type PlanStore } from '../plan-store.ts';
 import { applyRange, rangeProblem } from '../ranges.ts';
 import { planHash } from '../router.ts';
@@ -84,7 +85,9 @@ export async function renderNodePanel(panel: HTMLElement, store: PlanStore, node
   const kitBox = h('section', { class: 'subpanel', 'aria-labelledby': 'kit-h' });
   const recBox = h('section', { class: 'subpanel', 'aria-labelledby': 'rec-h' }, h('h3', { id: 'rec-h' }, 'Recommended kit'), h('p', { class: 'muted' }, 'Searching the catalog…'));
   const cautionsBox = h('div', {}, cautionsBlock());
-  panel.append(linksBox, profileBox, kitBox, recBox, cautionsBox);
+  const readingsBox = h('section', { class: 'subpanel', 'aria-labelledby': 'node-readings-h' });
+  panel.append(linksBox, profileBox, kitBox, recBox, readingsBox, cautionsBox);
+  renderNodeReadings(readingsBox, store, node.id, signal);
 
   renderKitChooser(kitBox, store, node, signal);
   // The three requests run side by side; each fills its own box when it answers (unless
@@ -209,10 +212,8 @@ function renderProfile(box: HTMLElement, check: LinkCheck): void {
 
 // ---------- kit chooser ----------
 
-/** Cheapest catalog mast reaching the height, for the cost line (null = none in the catalog). */
-function mastFor(store: PlanStore, heightM: number): MastOption | null {
-  return store.catalog.masts.filter((m) => m.heightM >= heightM - 1e-9).sort((a, b) => (a.costUsd ?? 0) - (b.costUsd ?? 0))[0] ?? null;
-}
+/** The mast of a recommended option loaded into the chooser (its price names that mast); cleared when the height is typed. */
+let chosenMastOptionId: string | null = null;
 
 function renderKitChooser(box: HTMLElement, store: PlanStore, node: FleetNode, signal: AbortSignal): void {
   box.append(h('h3', { id: 'kit-h' }, 'Try another kit'));
@@ -260,13 +261,16 @@ function renderKitChooser(box: HTMLElement, store: PlanStore, node: FleetNode, s
     out.classList.add('busy');
     const preview: KitPreview = { antennaDesignId: antenna.value, antennaHeightAglM: heightM, feedlineId: feedline.value, feedlineLengthM: feedline.value === 'none' ? 0 : lengthM };
     try {
-      const result = await getNodeLinks(store.planId, node.id, preview, signal);
+      // The price comes from the server's one kit-price function (same as the recommendation's).
+      const [result, price] = await Promise.all([
+        getNodeLinks(store.planId, node.id, preview, signal),
+        getKitPrice(store.planId, { antennaDesignId: antenna.value, antennaHeightAglM: heightM, feedlineId: feedline.value === 'none' ? null : feedline.value, feedlineLengthM: feedline.value === 'none' ? 0 : lengthM, mastOptionId: chosenMastOptionId }, signal).catch((err: unknown) => {
+          if (isAbort(err)) throw err;
+          return null;
+        }),
+      ]);
       if (mine !== seq || signal.aborted) return;
       const best = result.links.find((l) => l.gatewayId === result.bestGatewayId) ?? result.links[0];
-      const ant = store.catalog.antennas.find((a) => a.id === antenna.value);
-      const fl = store.catalog.feedlines.find((f) => f.id === feedline.value);
-      const mast = heightM > 2 ? mastFor(store, heightM) : null;
-      const cost = (ant?.costUsd ?? 0) + (fl ? (fl.costUsdPerM ?? 0) * lengthM : 0) + (mast?.costUsd ?? 0);
       out.replaceChildren(
         ...present<HTMLElement>(
           h(
@@ -281,7 +285,8 @@ function renderKitChooser(box: HTMLElement, store: PlanStore, node: FleetNode, s
             h('dt', {}, 'Status'),
             h('dd', { id: 'kit-status' }, symbolElement(nodeSymbolSvg(result.status, 16), ''), ` ${result.status} (target ${db(result.target.targetMarginDb)})`),
             h('dt', {}, 'Kit cost'),
-            h('dd', {}, `${money(cost)}${mast ? ` incl. ${mast.name}` : heightM > 2 ? ' (no catalog mast this tall)' : ''}`),
+            h('dd', { id: 'kit-cost' }, price ? money(price.totalUsd) : 'not available'),
+            price ? h('dd', { class: 'muted small' }, `${priceParts(price)}${price.mastName ? '' : heightM >= 0.5 ? ' · no catalog mast this tall' : ''}`) : null,
           ),
           canEdit()
             ? h(
@@ -295,7 +300,7 @@ function renderKitChooser(box: HTMLElement, store: PlanStore, node: FleetNode, s
                       antennaHeightAglM: heightM,
                       feedlineId: feedline.value === 'none' ? null : feedline.value,
                       feedlineLengthM: feedline.value === 'none' ? 0 : lengthM,
-                      mastOptionId: mast?.id ?? null,
+                      mastOptionId: price?.mastOptionId ?? null,
                     };
                     void store
                       .update('nodes', node.id, changes, true, `changed the kit of ${node.name}`)
@@ -335,10 +340,12 @@ function renderKitChooser(box: HTMLElement, store: PlanStore, node: FleetNode, s
   });
   feedLength.addEventListener('input', schedule);
   height.addEventListener('input', () => {
+    chosenMastOptionId = null;
     heightRange.value = height.value;
     schedule();
   });
   heightRange.addEventListener('input', () => {
+    chosenMastOptionId = null;
     height.value = heightRange.value;
     schedule();
   });
@@ -369,7 +376,10 @@ function renderRecommendation(box: HTMLElement, store: PlanStore, rec: Recommend
         {},
         h('strong', {}, kitLabel(store, { antennaDesignId: option.antennaDesignId, mastHeightM: option.mastHeightM, feedlineId: option.feedlineId, feedlineLengthM: option.feedlineLengthM })),
         h('br', {}),
-        `margin ${db(option.marginDb)} · delivery ${percent(option.deliveryProbability)} · cost ${money(option.cost)} · ${option.meetsTarget ? 'meets the target' : 'below the target'}`,
+        `margin ${db(option.marginDb)} · delivery ${percent(option.deliveryProbability)} · `,
+        h('span', { class: 'rec-cost' }, `cost ${money(option.price?.totalUsd ?? option.cost)}`),
+        ` · ${option.meetsTarget ? 'meets the target' : 'below the target'}`,
+        option.price ? h('span', { class: 'muted small' }, h('br', {}), priceParts(option.price)) : null,
         option.reason ? h('span', { class: 'muted small' }, ` — ${option.reason}`) : null,
         h('br', {}),
         h('button', { type: 'button', class: 'small-button', onclick: () => loadIntoChooser(option) }, 'Try it in the kit chooser'),
@@ -391,6 +401,7 @@ function loadIntoChooser(option: Recommendation['options'][number]): void {
   set('kit-feedline-length', String(option.feedlineId ? option.feedlineLengthM : 0), 'input');
   set('kit-feedline', option.feedlineId ?? 'none', 'change');
   set('kit-height', String(option.mastHeightM), 'input');
+  chosenMastOptionId = option.mastOptionId;
   document.getElementById('kit-h')?.scrollIntoView({ block: 'start' });
   document.getElementById('kit-height')?.focus();
 }

@@ -1,7 +1,8 @@
-// Sign-in: the server prints a one-time link (/signin?token=...) that sets a
-// cookie; an API token (from `earshot token issue`) can be pasted instead and
-// is kept for this browser tab only.
-import { ApiError, storeToken } from '../api.ts';
+// Sign-in: a one-time link (/signin?token=..., from an invitation or the server's start-up
+// line) sets the session cookie; a pasted link or API token is exchanged for the same
+// cookie (POST /signin), so every request the page makes is signed in.
+import { ApiError } from '../api.ts';
+import { signInWithToken } from '../api-team.ts';
 import { refreshSession } from '../session.ts';
 import { errorText, field, h, notice } from '../ui.ts';
 
@@ -17,11 +18,9 @@ export function renderSignIn(main: HTMLElement, onSignedIn: () => Promise<void>)
     h(
       'p',
       {},
-      'Open the one-time sign-in link the server printed when it started (it looks like ',
-      h('code', {}, '/signin?token=…'),
-      '), or paste an API token or that link here.',
+      'Open the sign-in link a planner of your team sent you (or scan its QR code with your phone), or paste the link or an API token here.',
     ),
-    field('API token or sign-in link', input, 'Issued with: npm run --silent earshot -- token issue --team <slug> --role planner --json'),
+    field('API token or sign-in link', input, 'The first planner uses the link the server printed at start-up; admins: earshot token issue --team <slug> --role <role> --link'),
     h('button', { type: 'submit', class: 'primary' }, 'Sign in'),
     status,
   );
@@ -34,24 +33,20 @@ export function renderSignIn(main: HTMLElement, onSignedIn: () => Promise<void>)
         status.append(notice('error', 'Paste a token or a sign-in link first.'));
         return;
       }
+      // A pasted sign-in link or a bare token: either way the token goes to the server in the
+      // request body and comes back as the session cookie (no token in a URL or in the tab).
       const linkMatch = /[?&]token=([^&#\s]+)/.exec(raw);
-      if (linkMatch) {
-        // A one-time link: let the server turn it into the sign-in cookie.
-        location.href = `/signin?token=${linkMatch[1]}`;
-        return;
-      }
-      storeToken(raw);
+      const token = linkMatch ? decodeURIComponent(linkMatch[1]) : raw;
       try {
+        await signInWithToken(token);
         const s = await refreshSession();
         if (!s.signedIn) {
-          storeToken(null);
-          status.append(notice('error', 'The server did not accept this token (it may be revoked, mistyped, or a one-time token already used).'));
+          status.append(notice('error', 'Signed in, but the server did not keep the session. Are cookies blocked for this site?'));
           return;
         }
         await onSignedIn();
       } catch (err) {
-        storeToken(null);
-        const message = err instanceof ApiError ? `${err.message} (${err.code})` : errorText(err);
+        const message = err instanceof ApiError && err.status === 401 ? 'this token or link is unknown, revoked, expired or already used. Ask a planner of your team for a new invitation.' : err instanceof ApiError ? `${err.message} (${err.code})` : errorText(err);
         status.append(notice('error', `Sign-in failed: ${message}`));
       }
     })();

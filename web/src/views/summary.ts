@@ -5,8 +5,40 @@ import { listCoverage, runState, type CoverageRun } from '../api.ts';
 import { PlanStore } from '../plan-store.ts';
 import type { Route } from '../router.ts';
 import { planHash } from '../router.ts';
-import { append, h, notice, percent } from '../ui.ts';
+import { append, errorText, h, notice, percent } from '../ui.ts';
+import { downloadPlanFile, type PlanFile } from '../api-reports.ts';
 import { nodeSymbolSvg, statusStyle, symbolElement, type NodeClass } from '../symbols.ts';
+import { getCapacity } from '../api-capacity.ts';
+
+/** The server-made PDF report and the exports (web/src/api-reports.ts). */
+function reportButtons(planId: string): HTMLElement {
+  const status = h('span', { class: 'muted small', 'aria-live': 'polite', id: 'report-status' });
+  const button = (file: PlanFile, label: string, id: string) => {
+    const b = h('button', { type: 'button', id }, label);
+    b.addEventListener('click', async () => {
+      b.setAttribute('disabled', '');
+      status.textContent = file === 'report.pdf' ? 'Making the report… (a large plan takes a while)' : 'Preparing the file…';
+      try {
+        status.textContent = `Downloaded ${await downloadPlanFile(planId, file)}.`;
+      } catch (err) {
+        status.textContent = `Failed: ${errorText(err)}`;
+      } finally {
+        b.removeAttribute('disabled');
+      }
+    });
+    return b;
+  };
+  return h(
+    'span',
+    { class: 'report-buttons' },
+    button('report.pdf', 'Report (PDF)', 'summary-report'),
+    button('export.geojson', 'GeoJSON', 'summary-geojson'),
+    button('export.kml', 'KML', 'summary-kml'),
+    button('export.csv', 'Fleet CSV', 'summary-csv'),
+    button('bom.csv', 'Bill of materials CSV', 'summary-bom'),
+    status,
+  );
+}
 
 const usd = (v: number): string => `${v.toLocaleString('en-US', { minimumFractionDigits: 2, maximumFractionDigits: 2 })} USD`;
 
@@ -20,6 +52,7 @@ export async function renderSummary(main: HTMLElement, route: Route): Promise<vo
       { class: 'summary-head' },
       h('h1', {}, `Plan summary · ${store.plan.name}`),
       h('button', { type: 'button', onclick: () => window.print() }, 'Print'),
+      reportButtons(planId),
     ),
     h('p', { class: 'muted' }, `Target margin ${store.plan.targetMarginDb ?? '–'} dB · band plan ${store.plan.bandPlanId ?? '–'} · ${store.nodes.length} nodes · ${store.gateways.length} gateways · ${store.sites.length} candidate sites`),
   );
@@ -90,6 +123,31 @@ export async function renderSummary(main: HTMLElement, route: Route): Promise<vo
       ),
     );
   main.append(redundancy);
+
+  // delivery with network load (collisions, duty-cycle budgets) beside the link-only figure
+  const load = h('section', { class: 'card', 'aria-labelledby': 'load-h', id: 'summary-load' }, h('h2', { id: 'load-h' }, 'Delivery with network load'), h('p', { class: 'muted' }, 'Computing…'));
+  main.append(load);
+  void getCapacity(planId, { model: 'capture' })
+    .then((capacity) => {
+      load.replaceChildren(
+        h('h2', { id: 'load-h' }, 'Delivery with network load'),
+        h(
+          'table',
+          { class: 'data-table compact' },
+          h(
+            'tbody',
+            {},
+            h('tr', {}, h('th', { scope: 'row' }, 'Mean delivery, link only'), h('td', { class: 'num' }, percent(capacity.totals.meanLinkDeliveryProbability))),
+            h('tr', {}, h('th', { scope: 'row' }, 'Mean delivery with collisions and budgets'), h('td', { class: 'num', id: 'summary-delivery-load' }, percent(capacity.totals.meanDeliveryRatio))),
+            h('tr', {}, h('th', { scope: 'row' }, 'Nodes over their airtime budget'), h('td', { class: 'num' }, String(capacity.totals.overBudgetNodes))),
+          ),
+        ),
+        h('p', { class: 'muted small' }, 'Capture model at the planned reporting rates. ', h('a', { href: planHash(planId, '/capacity') }, 'Network load per gateway'), '.'),
+      );
+    })
+    .catch((err: unknown) => {
+      load.replaceChildren(h('h2', { id: 'load-h' }, 'Delivery with network load'), h('p', { class: 'muted' }, `Not available: ${err instanceof Error ? err.message : String(err)}.`));
+    });
 
   // kit cost from the catalog
   const antennaCost = new Map(store.catalog.antennas.map((a) => [a.id, a.costUsd ?? 0]));

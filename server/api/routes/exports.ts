@@ -1,0 +1,64 @@
+// Exports and the report of a plan: GeoJSON, KML, the fleet CSV, the bill of
+// materials CSV and the PDF report, streamed with a file name. The work is in
+// server/app/exports.ts and server/app/report.ts; this file parses and shapes.
+import { Readable } from 'node:stream';
+import type { FastifyInstance, FastifyReply } from 'fastify';
+import type { ZodTypeProvider } from 'fastify-type-provider-zod';
+import { planExport, type ExportFormat } from '../../app/exports.ts';
+import { planReport } from '../../app/report.ts';
+import { reportFile, reportFileInput } from '../../app/report-files.ts';
+import { LinkEngine } from '../../jobs/link-engine.ts';
+import { loadPlanForPrincipal } from '../scope.ts';
+import { planParams } from '../schemas.ts';
+import { asApiError } from './links.ts';
+
+function attachment(reply: FastifyReply, contentType: string, fileName: string): FastifyReply {
+  return reply.header('content-type', contentType).header('content-disposition', `attachment; filename="${fileName}"`).header('cache-control', 'private, no-store');
+}
+
+export default async function exportRoutes(app: FastifyInstance): Promise<void> {
+  const api = app.withTypeProvider<ZodTypeProvider>();
+  const { db, config } = app.deps;
+  const engine = app.linkEngine;
+  const tags = ['exports'];
+
+  const formats: Array<{ path: string; format: ExportFormat; summary: string }> = [
+    { path: '/plans/:planId/export.geojson', format: 'geojson', summary: 'The plan as GeoJSON (RFC 7946, [lon, lat]): one Feature per node, gateway and site with properties.id, properties.kind (node | gateway | site), status, best margin (dB), delivery, kit' },
+    { path: '/plans/:planId/export.kml', format: 'kml', summary: 'The plan as KML 2.2: the same features, one folder per kind, nodes styled by status' },
+    { path: '/plans/:planId/export.csv', format: 'csv', summary: 'The fleet as CSV (RFC 4180): one row per node with its link results and kit, units in the headers' },
+    { path: '/plans/:planId/bom.csv', format: 'bom', summary: 'Bill of materials as CSV: antennas, feedline metres, connectors, masts, gateway radios, site works, with catalog prices (USD)' },
+  ];
+  for (const entry of formats) {
+    api.get(entry.path, { schema: { summary: entry.summary, tags, params: planParams } }, async (request, reply) => {
+      const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
+      const file = await planExport(engine, plan, entry.format).catch(asApiError);
+      return attachment(reply, file.contentType, file.fileName).send(Readable.from(file.chunks));
+    });
+  }
+
+  api.get(
+    '/plans/:planId/report.pdf',
+    { schema: { summary: 'The plan report as PDF: cover, map (hillshade, latest coverage, nodes and gateways), service counts, redundancy, risks, bill of materials, assumptions, cautions', tags, params: planParams } },
+    async (request, reply) => {
+      const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
+      const report = await planReport(engine, config, plan).catch(asApiError);
+      return attachment(reply, 'application/pdf', report.fileName).send(report.pdf);
+    },
+  );
+}
+
+/**
+ * Loopback admin route for `earshot report` / `earshot export` while this server holds
+ * the data folder (registered inside server/api/routes/admin.ts, behind its secret check):
+ * POST /_admin/report-file → { fileName, contentType, base64, counts }.
+ */
+export async function reportAdminRoutes(app: FastifyInstance): Promise<void> {
+  const api = app.withTypeProvider<ZodTypeProvider>();
+  const { db, config } = app.deps;
+  const engine = new LinkEngine(db, config);
+  app.addHook('onClose', async () => engine.close());
+  api.post('/report-file', { schema: { hide: true, body: reportFileInput } }, async (request) => {
+    const file = await reportFile(engine, config, request.body).catch(asApiError);
+    return { fileName: file.fileName, contentType: file.contentType, base64: file.bytes.toString('base64'), counts: file.counts ?? null };
+  });
+}

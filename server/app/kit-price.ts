@@ -1,0 +1,28 @@
+// A node kit's one price from catalog objects (see server/planning/kit-price.ts), used by the
+// recommendation, the kit chooser, the installer view and the visit sheet alike.
+import { nodeConnectors } from '../jobs/link-engine.ts';
+import { kitPrice, mastForHeight, type KitPrice } from '../planning/kit-price.ts';
+import type { AntennaDesign } from '../radio/antennas.ts';
+import type { FeedlineType } from '../radio/feedlines.ts';
+import type { MastOption } from '../radio/masts.ts';
+
+export interface NodeKitParts {
+  antenna: Pick<AntennaDesign, 'name' | 'costUsd'>;
+  feedline: Pick<FeedlineType, 'name' | 'costUsdPerM'> | null;
+  feedlineLengthM: number;
+  antennaHeightAglM: number;
+  mastOptionId?: string | null;
+}
+
+export function nodeKitPrice(parts: NodeKitParts, masts: readonly MastOption[]): KitPrice & { mastName: string | null; mastOptionId: string | null } {
+  const hasFeedline = parts.feedline !== null && parts.feedlineLengthM > 0;
+  const mast = mastForHeight(masts, parts.antennaHeightAglM, parts.mastOptionId);
+  const price = kitPrice({
+    antenna: { name: parts.antenna.name, costUsd: parts.antenna.costUsd ?? 0 },
+    mast: mast ? { name: mast.name, costUsd: mast.costUsd } : null,
+    feedline: hasFeedline && parts.feedline ? { name: parts.feedline.name, costUsdPerM: parts.feedline.costUsdPerM ?? 0 } : null,
+    feedlineLengthM: parts.feedlineLengthM,
+    connectors: nodeConnectors(hasFeedline).map((u) => ({ name: u.connector.name, costUsd: u.connector.costUsd, count: u.count })),
+  });
+  return { ...price, mastName: mast?.name ?? null, mastOptionId: mast?.id ?? null };
+}

@@ -1,0 +1,358 @@
+// The figures of one plan that exports, scenario comparisons and the report all
+// show: every node's status, best margin, delivery, gateways heard and kit, the
+// counts per status, redundancy, the bill of materials, the named risks and the
+// assumptions. Everything comes from the link engine's fleet results (the same
+// call the fleet table makes) and the definitions that exist: status
+// (server/planning/status.ts), kit price (server/planning/recommend.ts),
+// connectors (server/jobs/link-engine.ts), cautions (server/planning/check.ts).
+import type { Database } from '../db/client.ts';
+import type { PlanRow } from '../db/repositories/plans.ts';
+import { listSitesForPlan, priceCatalogRows, teamName, type SiteListRow } from '../db/repositories/scenarios.ts';
+import { gatewayConnectors, nodeConnectors, type LinkEngine, type NodeLinksOutcome, type PlanContext } from '../jobs/link-engine.ts';
+import { installCautions } from '../planning/check.ts';
+import { planCapacity, type PlanCapacity } from './capacity.ts';
+import { describeSpread, planningSpread } from '../planning/spread.ts';
+import type { LinkResult } from '../planning/link.ts';
+import type { LinkStatus } from '../planning/status.ts';
+import { builtInConnectors } from '../radio/feedlines.ts';
+import { billOfMaterials, DEFAULT_GATEWAY_UNIT_COST_USD, endKitCostUsd, type BillOfMaterials, type PriceCatalog, type PricedEnd } from '../report/bom.ts';
+
+/** Gateways that hear a node: links with margin ≥ 0 dB at the SF the node uses (the fleet table's `gatewaysHeard`). */
+export function gatewaysHeard(links: readonly LinkResult[]): number {
+  let n = 0;
+  for (const link of links) if (link.marginDb >= 0) n++;
+  return n;
+}
+
+/** Every link within the band plan's power limit (the fleet table's `legal`). */
+export function linksLegal(links: readonly LinkResult[]): boolean {
+  return links.every((link) => link.legal === null || link.legal.withinLimit);
+}
+
+export interface NodeFigure {
+  id: string;
+  originId: string | null;
+  name: string;
+  lat: number;
+  lon: number;
+  deviceType: string;
+  environment: string;
+  installStatus: string;
+  status: LinkStatus;
+  bestMarginDb: number | null;
+  combinedDeliveryProbability: number;
+  bestGatewayId: string | null;
+  bestGatewayName: string | null;
+  rssiDbm: number | null;
+  snrDb: number | null;
+  distanceM: number | null;
+  sf: number | null;
+  timeOnAirMs: number | null;
+  gatewaysHeard: number;
+  legal: boolean;
+  messagesPerHour: number;
+  /** Messages per hour the band plan's duty-cycle rule allows at the SF used (null = no rule). */
+  dutyCycleMessagesPerHour: number | null;
+  overDutyCycle: boolean;
+  kit: { antennaDesignId: string; antennaName: string; antennaHeightAglM: number; feedlineId: string | null; feedlineLengthM: number; mastOptionId: string | null; costUsd: number };
+  warnings: string[];
+}
+
+export interface GatewayFigure {
+  id: string;
+  name: string;
+  lat: number;
+  lon: number;
+  siteId: string | null;
+  antennaDesignId: string;
+  antennaHeightAglM: number;
+  feedlineId: string;
+  feedlineLengthM: number;
+  mastOptionId: string | null;
+  /** Nodes whose best link is this gateway. */
+  bestServerOf: number;
+  kitCostUsd: number;
+}
+
+export interface SiteFigure {
+  id: string;
+  name: string;
+  lat: number;
+  lon: number;
+  kind: string;
+  costUsd: number | null;
+  maxAntennaHeightAglM: number | null;
+  hasGateway: boolean;
+}
+
+export interface Redundancy {
+  /** Nodes heard by no gateway (margin ≥ 0 dB), by exactly one, by two or more. */
+  none: number;
+  one: number;
+  twoOrMore: number;
+}
+
+export interface RiskEntry {
+  nodeId: string;
+  nodeName: string;
+  detail: string;
+}
+
+export interface PlanRisks {
+  unserved: RiskEntry[];
+  singleGateway: RiskEntry[];
+  illegal: RiskEntry[];
+  overDutyCycle: RiskEntry[];
+}
+
+export interface PlanAssumptions {
+  bandPlanId: string;
+  bandPlanName: string;
+  frequencyMhz: number;
+  bandwidthKhz: number;
+  codingRate: string;
+  method: string;
+  targetMarginDb: number;
+  targetDelivery: number;
+  sigmaDb: number;
+  sigmaSource: string;
+  gatewayCorrelation: number;
+  maxLinkRangeKm: number;
+  maxEirpDbm: number | null;
+  limitSource: string;
+  terrain: string;
+  statusRule: string;
+}
+
+/** The capacity engine's plan-wide answer (server/app/capacity.ts, model "capture"), as the report shows it. */
+export interface CapacityFigures {
+  model: string;
+  method: string;
+  channels: number;
+  meanDeliveryRatio: number;
+  meanLinkDeliveryProbability: number;
+  overBudgetNodes: number;
+  gateways: Array<{ name: string; nodes: number; offeredLoadErlang: number; downlinkAirtimeShare: number }>;
+  sources: string[];
+  cautions: string[];
+}
+
+export interface PlanFigures {
+  plan: { id: string; name: string; description: string; teamId: string; teamName: string };
+  generatedAt: Date;
+  assumptions: PlanAssumptions;
+  nodes: NodeFigure[];
+  gateways: GatewayFigure[];
+  sites: SiteFigure[];
+  counts: Record<LinkStatus, number>;
+  redundancy: Redundancy;
+  bom: BillOfMaterials;
+  risks: PlanRisks;
+  /** Network load from the capacity engine; null when the plan has no gateway to load. */
+  capacity: CapacityFigures | null;
+  cautions: string[];
+  warnings: string[];
+}
+
+export const STATUS_RULE =
+  'served: best link meets the target margin at an allowed SF and the combined delivery meets the target; unserved: best margin below 0 dB (heard less than half the time); marginal: in between';
+
+async function priceCatalog(db: Database, teamId: string): Promise<PriceCatalog> {
+  const rows = await priceCatalogRows(db, teamId);
+  // A team's own entry of an id wins over the built-in one (as the kit lookups do).
+  const byId = <T extends { id: string; teamId: string | null }>(list: T[]) => {
+    const map = new Map<string, T>();
+    for (const row of list) if (!map.has(row.id) || row.teamId) map.set(row.id, row);
+    return map;
+  };
+  return {
+    antennas: byId(rows.antennas),
+    feedlines: byId(rows.feedlines),
+    masts: byId(rows.masts),
+    connectors: new Map(builtInConnectors.flatMap((c) => (c.costUsd === undefined ? [] : [[c.id, { name: c.name, costUsd: c.costUsd }] as const]))),
+  };
+}
+
+function gatewayUnitCost(plan: PlanRow): number {
+  const raw = plan.settings && typeof plan.settings === 'object' && !Array.isArray(plan.settings) ? (plan.settings as Record<string, unknown>).gatewayUnitCostUsd : undefined;
+  return typeof raw === 'number' && Number.isFinite(raw) && raw >= 0 ? raw : DEFAULT_GATEWAY_UNIT_COST_USD;
+}
+
+function nodeFigure(ctx: PlanContext, outcome: NodeLinksOutcome, names: Map<string, string>, catalog: PriceCatalog): NodeFigure {
+  const row = outcome.node.row;
+  const best = outcome.links[0] as LinkResult | undefined;
+  const perSf = best ? best.perSf.find((entry) => entry.sf === best.usedSf) : undefined;
+  const allowed = perSf ? perSf.messagesPerHour : null;
+  const feedlineId = outcome.node.feedline ? outcome.node.feedline.id : null;
+  const feedlineLengthM = outcome.node.kit ? outcome.node.kit.feedlineLengthM : 0;
+  const antennaId = outcome.node.antenna ? outcome.node.antenna.id : row.antennaDesignId;
+  return {
+    id: row.id,
+    originId: row.originId ?? null,
+    name: row.name,
+    lat: row.lat,
+    lon: row.lon,
+    deviceType: row.deviceType,
+    environment: row.environment,
+    installStatus: row.installStatus === 'needs_visit' ? 'needs-visit' : row.installStatus,
+    status: outcome.status,
+    bestMarginDb: outcome.bestMarginDb,
+    combinedDeliveryProbability: outcome.combinedDeliveryProbability,
+    bestGatewayId: outcome.bestGatewayId,
+    bestGatewayName: outcome.bestGatewayId ? (names.get(outcome.bestGatewayId) ?? null) : null,
+    rssiDbm: best ? best.rssiDbm : null,
+    snrDb: best ? best.snrDb : null,
+    distanceM: best ? best.distanceM : null,
+    sf: best ? best.usedSf : null,
+    timeOnAirMs: best ? best.timeOnAirMs : null,
+    gatewaysHeard: gatewaysHeard(outcome.links),
+    legal: linksLegal(outcome.links),
+    messagesPerHour: row.messagesPerHour,
+    dutyCycleMessagesPerHour: allowed,
+    overDutyCycle: allowed !== null && row.messagesPerHour > allowed,
+    kit: {
+      antennaDesignId: antennaId,
+      antennaName: outcome.node.antenna ? outcome.node.antenna.name : (catalog.antennas.get(antennaId)?.name ?? antennaId),
+      antennaHeightAglM: outcome.node.antennaHeightAglM,
+      feedlineId,
+      feedlineLengthM,
+      mastOptionId: row.mastOptionId,
+      costUsd: endKitCostUsd({ kind: 'node', id: row.id, name: row.name, antennaDesignId: antennaId, feedlineId, feedlineLengthM, mastOptionId: row.mastOptionId, connectors: [] }, catalog),
+    },
+    warnings: [...outcome.node.warnings],
+  };
+}
+
+function terrainDescription(ctx: PlanContext): string {
+  if (!ctx.terrainSpec) return 'no elevation layer: smooth earth at 0 m';
+  return ctx.terrainSpec.files.map((file) => `${file.kind} "${file.name}"`).join('; ');
+}
+
+/**
+ * The plan's figures. `onProgress` reports the fleet's progress (0–1); the fleet
+ * itself is the link engine's (cached Link rows are reused, missing paths computed).
+ */
+export async function planFigures(engine: LinkEngine, plan: PlanRow, onProgress?: (fraction: number) => void): Promise<PlanFigures> {
+  const db = engine.database;
+  const ctx = await engine.planContext(plan);
+  const outcomes = await engine.fleet(ctx, onProgress ? (done, total) => onProgress(total ? done / total : 1) : undefined);
+  // The capacity engine over the same fleet answer: planCapacity only asks the engine for
+  // engine.fleet(ctx), so it is handed the outcomes already in hand instead of a second pass.
+  let capacity: PlanCapacity | null = null;
+  if (ctx.gateways.length > 0 && outcomes.length > 0) {
+    const sameFleet = Object.create(engine, { fleet: { value: async () => outcomes } }) as LinkEngine;
+    capacity = await planCapacity(sameFleet, ctx, { model: 'capture' });
+  }
+  const [catalog, sites, team] = await Promise.all([priceCatalog(db, plan.teamId), listSitesForPlan(db, plan.id), teamName(db, plan.teamId)]);
+  const names = new Map(ctx.gateways.map((g) => [g.row.id, g.row.name]));
+  const nodes = outcomes.map((outcome) => nodeFigure(ctx, outcome, names, catalog));
+  const counts: Record<LinkStatus, number> = { served: 0, marginal: 0, unserved: 0 };
+  const redundancy: Redundancy = { none: 0, one: 0, twoOrMore: 0 };
+  const bestOf = new Map<string, number>();
+  const risks: PlanRisks = { unserved: [], singleGateway: [], illegal: [], overDutyCycle: [] };
+  const dec = (v: number | null) => (v === null ? '–' : v.toFixed(1));
+  for (const node of nodes) {
+    counts[node.status]++;
+    if (node.gatewaysHeard === 0) redundancy.none++;
+    else if (node.gatewaysHeard === 1) redundancy.one++;
+    else redundancy.twoOrMore++;
+    if (node.bestGatewayId) bestOf.set(node.bestGatewayId, (bestOf.get(node.bestGatewayId) ?? 0) + 1);
+    if (node.status === 'unserved') risks.unserved.push({ nodeId: node.id, nodeName: node.name, detail: node.bestMarginDb === null ? 'no gateway within range' : `best margin ${dec(node.bestMarginDb)} dB` });
+    if (node.gatewaysHeard === 1) risks.singleGateway.push({ nodeId: node.id, nodeName: node.name, detail: `only ${node.bestGatewayName ?? 'one gateway'} hears it (margin ${dec(node.bestMarginDb)} dB)` });
+    if (!node.legal) risks.illegal.push({ nodeId: node.id, nodeName: node.name, detail: `radiated power over the ${ctx.settings.bandPlan.name} limit on at least one link` });
+    if (!capacity && node.overDutyCycle) risks.overDutyCycle.push({ nodeId: node.id, nodeName: node.name, detail: `${node.messagesPerHour} messages/h, the duty cycle allows ${dec(node.dutyCycleMessagesPerHour)} at SF${node.sf}` });
+  }
+  if (capacity) {
+    // With a capacity answer, its duty-cycle and dwell budget per node is the one the risk list uses.
+    for (const c of capacity.nodes) {
+      if (!c.overBudget) continue;
+      const allowed = c.maxMessagesPerHourAtDutyCycle ?? c.maxMessagesPerHourAtDwell;
+      risks.overDutyCycle.push({ nodeId: c.nodeId, nodeName: c.nodeName, detail: `${dec(c.messagesPerHour)} messages/h at SF${c.sf ?? '–'}; the band plan allows ${dec(allowed)} per hour` });
+    }
+  }
+  const ends: PricedEnd[] = [
+    ...outcomes.map((o) => ({
+      kind: 'node' as const,
+      id: o.node.row.id,
+      name: o.node.row.name,
+      antennaDesignId: o.node.row.antennaDesignId,
+      feedlineId: o.node.row.feedlineId,
+      feedlineLengthM: o.node.row.feedlineId ? o.node.row.feedlineLengthM : 0,
+      mastOptionId: o.node.row.mastOptionId,
+      connectors: nodeConnectors(!!o.node.row.feedlineId && o.node.row.feedlineLengthM > 0).map((u) => ({ id: u.connector.id, count: u.count })),
+    })),
+    ...ctx.gateways.map((g) => ({
+      kind: 'gateway' as const,
+      id: g.row.id,
+      name: g.row.name,
+      antennaDesignId: g.row.antennaDesignId,
+      feedlineId: g.row.feedlineId,
+      feedlineLengthM: g.row.feedlineLengthM,
+      mastOptionId: g.row.mastOptionId,
+      siteId: g.row.siteId,
+      connectors: gatewayConnectors(g.row.feedlineLengthM > 0).map((u) => ({ id: u.connector.id, count: u.count })),
+    })),
+  ];
+  const gatewayIds = new Set(ctx.gateways.map((g) => g.row.siteId).filter((id): id is string => !!id));
+  const bom = billOfMaterials(ends, catalog, { gatewayUnitCostUsd: gatewayUnitCost(plan), sites: sites.map((s: SiteListRow) => ({ id: s.id, name: s.name, costUsd: s.costUsd })) });
+  const s = ctx.settings;
+  // The fleet table's plan-wide σ (a node at 1.5 m in the open); each link carries its own.
+  const spread = planningSpread({ ...s.spread, frequencyMhz: s.frequencyMhz, nodeAntennaHeightAglM: 1.5, nodeClutterHeightM: 0 });
+  return {
+    plan: { id: plan.id, name: plan.name, description: plan.description, teamId: plan.teamId, teamName: team },
+    generatedAt: new Date(),
+    assumptions: {
+      bandPlanId: s.bandPlan.id,
+      bandPlanName: s.bandPlan.name,
+      frequencyMhz: s.frequencyMhz,
+      bandwidthKhz: s.bandwidthKhz,
+      codingRate: s.codingRate,
+      method: s.path.method,
+      targetMarginDb: s.targetMarginDb,
+      targetDelivery: s.targetDelivery,
+      sigmaDb: spread.sigmaDb,
+      sigmaSource: `${spread.sigmaSource}: ${describeSpread(spread, s.spread)}`,
+      gatewayCorrelation: s.gatewayCorrelation,
+      maxLinkRangeKm: s.maxLinkRangeM / 1000,
+      maxEirpDbm: s.maxEirpDbm,
+      limitSource: s.limitSource,
+      terrain: terrainDescription(ctx),
+      statusRule: STATUS_RULE,
+    },
+    nodes,
+    gateways: ctx.gateways.map((g) => ({
+      id: g.row.id,
+      name: g.row.name,
+      lat: g.row.lat,
+      lon: g.row.lon,
+      siteId: g.row.siteId,
+      antennaDesignId: g.row.antennaDesignId,
+      antennaHeightAglM: g.row.antennaHeightAglM,
+      feedlineId: g.row.feedlineId,
+      feedlineLengthM: g.row.feedlineLengthM,
+      mastOptionId: g.row.mastOptionId,
+      bestServerOf: bestOf.get(g.row.id) ?? 0,
+      kitCostUsd: endKitCostUsd(ends.find((e) => e.id === g.row.id) as PricedEnd, catalog),
+    })),
+    sites: sites.map((site) => ({ id: site.id, name: site.name, lat: site.lat, lon: site.lon, kind: site.kind, costUsd: site.costUsd, maxAntennaHeightAglM: site.maxAntennaHeightAglM, hasGateway: gatewayIds.has(site.id) })),
+    counts,
+    redundancy,
+    bom,
+    risks,
+    capacity: capacity
+      ? {
+          model: capacity.model,
+          method: capacity.method,
+          channels: capacity.channels,
+          meanDeliveryRatio: capacity.totals.meanDeliveryRatio,
+          meanLinkDeliveryProbability: capacity.totals.meanLinkDeliveryProbability,
+          overBudgetNodes: capacity.totals.overBudgetNodes,
+          gateways: capacity.gateways.map((g) => ({ name: g.gatewayName, nodes: g.nodes, offeredLoadErlang: g.offeredLoadErlang, downlinkAirtimeShare: g.downlink.airtimeShare })),
+          sources: capacity.sources,
+          cautions: capacity.cautions,
+        }
+      : null,
+    cautions: installCautions(s.bandPlan.cautions),
+    warnings: [...ctx.warnings],
+  };
+}

@@ -1,0 +1,227 @@
+// The siting matrix: for every node × candidate, the link the link table would
+// predict if a gateway stood there, through the SAME link engine (path on the
+// link worker pool, the radio room's budget, the band plan's SF rule, the
+// plan's σ) and the link table's served rule per link. Pairs beyond the plan's
+// link range, or far beyond the smooth-earth radio horizon, are skipped.
+import type { GatewayRow } from '../db/repositories/gateways.ts';
+import { listNodesForLinks } from '../db/repositories/links.ts';
+import { NotFoundError } from '../db/errors.ts';
+import { bearingsBetween, medianEarthFactor } from '../planning/geometry.ts';
+import { hashOf, LINK_ENGINE_VERSION } from '../planning/node-links.ts';
+import type { PathPrediction } from '../planning/path.ts';
+import { linkStatus } from '../planning/status.ts';
+import { radioHorizonM } from '../siting/horizon.ts';
+import { LinkInputError, pathEnd, type GatewayContext, type LinkEngine, type PlanContext, type ResolvedNode } from './link-engine.ts';
+import type { LinkPathPair } from './link-pool.ts';
+
+/** Bumped when the matrix's rule (not the link engine's) changes, so cached matrices miss. */
+export const SITING_MATRIX_VERSION = 'siting-matrix-1';
+
+/**
+ * Pairs further apart than this multiple of the smooth-earth radio horizon are
+ * skipped. Beyond the horizon the path is already obstructed (the straight ray
+ * dips below the area's lowest ground); the factor 1.5 is our own allowance
+ * for diffraction past it, not a published figure. The plan's link range
+ * (maxLinkRangeKm, the same rule as the link table) always applies too.
+ */
+export const HORIZON_ALLOWANCE = 1.5;
+
+export interface SitingCandidate {
+  /** Stable within a run: "site:<id>", "gateway:<id>" or "terrain:<n>". */
+  id: string;
+  source: 'site' | 'gateway' | 'terrain';
+  siteId: string | null;
+  /** Existing gateway this candidate stands for (kept as built). */
+  gatewayId: string | null;
+  name: string;
+  lat: number;
+  lon: number;
+  antennaDesignId: string;
+  antennaHeightAglM: number;
+  feedlineId: string;
+  feedlineLengthM: number;
+  mastOptionId: string | null;
+  noiseFigureDb: number;
+  costUsd: number;
+  fixed: boolean;
+}
+
+export interface SitingMatrix {
+  nodeIds: string[];
+  nodeNames: string[];
+  candidates: SitingCandidate[];
+  /** rows = nodes, columns = candidates: the link alone meets the plan's served rule. */
+  meets: boolean[][];
+  /** Margin at the SF the node would use, dB (0.01 dB); null = pair skipped (out of range / beyond the horizon) or node unusable. */
+  marginDb: Array<Array<number | null>>;
+  pairsPredicted: number;
+  pairsSkipped: number;
+  warnings: string[];
+}
+
+export class SitingCancelled extends Error {
+  constructor() {
+    super('cancelled');
+  }
+}
+
+/** Path pairs per progress step (the pool works through each batch in parallel). */
+const BATCH_PAIRS = 400;
+
+function candidateRow(ctx: PlanContext, candidate: SitingCandidate): GatewayRow {
+  const epoch = new Date(0);
+  return {
+    id: candidate.id,
+    planId: ctx.plan.id,
+    siteId: candidate.siteId,
+    name: candidate.name,
+    lat: candidate.lat,
+    lon: candidate.lon,
+    antennaDesignId: candidate.antennaDesignId,
+    antennaHeightAglM: candidate.antennaHeightAglM,
+    antennaAzimuthDeg: null,
+    feedlineId: candidate.feedlineId,
+    feedlineLengthM: candidate.feedlineLengthM,
+    mastOptionId: candidate.mastOptionId,
+    noiseFigureDb: candidate.noiseFigureDb,
+    txPowerDbm: 27,
+    notes: '',
+    version: 1,
+    createdAt: epoch,
+    updatedAt: epoch,
+  } as GatewayRow;
+}
+
+/** Hash of everything the matrix depends on (for the cache of matrices). */
+export function sitingMatrixHash(ctx: PlanContext, nodes: ReadonlyArray<{ id: string; kitHash: string; lat: number; lon: number; antennaHeightAglM: number }>, gateways: readonly GatewayContext[]): string {
+  return hashOf({
+    v: [SITING_MATRIX_VERSION, LINK_ENGINE_VERSION],
+    path: ctx.pathSettingsHash,
+    radio: ctx.radioSettingsHash,
+    target: [ctx.settings.targetMarginDb, ctx.settings.targetDelivery, ctx.settings.maxLinkRangeM],
+    nodes: nodes.map((n) => [n.id, n.kitHash, n.lat, n.lon, n.antennaHeightAglM]),
+    candidates: gateways.map((g) => [g.row.id, g.kitHash, g.row.lat, g.row.lon, g.row.antennaHeightAglM]),
+  });
+}
+
+export interface MatrixInputs {
+  nodes: ResolvedNode[];
+  broken: Array<{ id: string; name: string; message: string }>;
+  gateways: GatewayContext[];
+  hash: string;
+}
+
+/** Resolves the plan's nodes and the candidates' kits, and hashes the lot. */
+export async function matrixInputs(engine: LinkEngine, ctx: PlanContext, candidates: readonly SitingCandidate[]): Promise<MatrixInputs> {
+  const rows = await listNodesForLinks(engine.database, ctx.plan.id);
+  const nodes: ResolvedNode[] = [];
+  const broken: MatrixInputs['broken'] = [];
+  for (const row of rows) {
+    try {
+      nodes.push(await engine.resolveNode(ctx, row));
+    } catch (error) {
+      if (!(error instanceof LinkInputError)) throw error;
+      broken.push({ id: row.id, name: row.name, message: error.message });
+    }
+  }
+  const gateways: GatewayContext[] = [];
+  for (const candidate of candidates) {
+    try {
+      gateways.push(await engine.gatewayContext(ctx, candidateRow(ctx, candidate)));
+    } catch (error) {
+      if (error instanceof NotFoundError) throw new LinkInputError('invalid_input', 'invalid_input', `gatewayKit: ${error.message}`);
+      throw error;
+    }
+  }
+  const hash = sitingMatrixHash(
+    ctx,
+    [...nodes.map((n) => ({ id: n.row.id, kitHash: n.kitHash, lat: n.row.lat, lon: n.row.lon, antennaHeightAglM: n.antennaHeightAglM })), ...broken.map((b) => ({ id: b.id, kitHash: 'broken', lat: 0, lon: 0, antennaHeightAglM: 0 }))],
+    gateways,
+  );
+  return { nodes, broken, gateways, hash };
+}
+
+/**
+ * Predicts the matrix. `onProgress(fraction)` is awaited after each batch; it
+ * may throw SitingCancelled (or return false) to stop.
+ */
+export async function computeSitingMatrix(
+  engine: LinkEngine,
+  ctx: PlanContext,
+  candidates: readonly SitingCandidate[],
+  inputs: MatrixInputs,
+  options: { areaMinElevationM: number | null; onProgress?: (fraction: number) => Promise<boolean | void> | boolean | void },
+): Promise<SitingMatrix> {
+  const { nodes, broken, gateways } = inputs;
+  const warnings: string[] = [...ctx.warnings];
+  for (const b of broken) warnings.push(`node ${b.name}: ${b.message}; left out of the matrix`);
+  const kFactor = medianEarthFactor();
+  const reference = options.areaMinElevationM ?? 0;
+  const ground = async (lat: number, lon: number) => (ctx.terrain ? ((await ctx.terrain.sampleElevation(lat, lon)) ?? reference) : 0);
+  const candidateGround = await Promise.all(gateways.map((g) => ground(g.row.lat, g.row.lon)));
+  // 1. The pairs within range and within the horizon allowance.
+  const inRange: number[][] = [];
+  const pairs: LinkPathPair[] = [];
+  const pairKeys: string[] = [];
+  let skipped = 0;
+  for (const node of nodes) {
+    const nodeGround = await ground(node.row.lat, node.row.lon);
+    const list: number[] = [];
+    for (let j = 0; j < gateways.length; j++) {
+      const g = gateways[j];
+      const distanceM = bearingsBetween(node.row.lat, node.row.lon, g.row.lat, g.row.lon).distanceM;
+      const horizonM = radioHorizonM(nodeGround - reference + Math.max(0, node.antennaHeightAglM), candidateGround[j] - reference + g.row.antennaHeightAglM, kFactor);
+      if (distanceM > ctx.settings.maxLinkRangeM || distanceM > HORIZON_ALLOWANCE * horizonM) {
+        skipped++;
+        continue;
+      }
+      list.push(j);
+      pairs.push({ node: pathEnd(node.row, node.antennaHeightAglM), gateway: pathEnd(g.row, g.row.antennaHeightAglM) });
+      pairKeys.push(engine.pathHash(ctx, node, g));
+    }
+    inRange.push(list);
+  }
+  // 2. Paths on the worker pool, batch by batch, with progress (paths are ~all of the time).
+  const precomputed = new Map<string, PathPrediction>();
+  for (let start = 0; start < pairs.length; start += BATCH_PAIRS) {
+    const batch = pairs.slice(start, start + BATCH_PAIRS);
+    const paths = await engine.computePaths(ctx, batch);
+    for (let b = 0; b < paths.length; b++) precomputed.set(pairKeys[start + b], paths[b]);
+    const go = await options.onProgress?.((0.95 * (start + batch.length)) / Math.max(1, pairs.length));
+    if (go === false) throw new SitingCancelled();
+  }
+  // 3. Budgets through the link table's own nodeLinks, one node over its in-range candidates.
+  const target = { targetMarginDb: ctx.settings.targetMarginDb, targetDelivery: ctx.settings.targetDelivery };
+  const columnOf = new Map(gateways.map((g, j) => [g.row.id, j]));
+  const meets: boolean[][] = [];
+  const marginDb: Array<Array<number | null>> = [];
+  const nodeIds: string[] = [];
+  const nodeNames: string[] = [];
+  for (let n = 0; n < nodes.length; n++) {
+    const node = nodes[n];
+    const meetRow = new Array<boolean>(gateways.length).fill(false);
+    const marginRow = new Array<number | null>(gateways.length).fill(null);
+    if (inRange[n].length > 0) {
+      const nodeCtx: PlanContext = { ...ctx, gateways: inRange[n].map((j) => gateways[j]) };
+      const { outcome } = await engine.nodeLinks(nodeCtx, node, [], false, precomputed);
+      for (const link of outcome.links) {
+        const j = columnOf.get(link.gatewayId) as number;
+        marginRow[j] = Math.round(link.marginDb * 100) / 100;
+        // The link table's served rule, applied to this one link.
+        meetRow[j] = linkStatus(link.marginDb, link.deliveryProbability, target) === 'served';
+      }
+    }
+    nodeIds.push(node.row.id);
+    nodeNames.push(node.row.name);
+    meets.push(meetRow);
+    marginDb.push(marginRow);
+  }
+  for (const b of broken) {
+    nodeIds.push(b.id);
+    nodeNames.push(b.name);
+    meets.push(new Array<boolean>(gateways.length).fill(false));
+    marginDb.push(new Array<number | null>(gateways.length).fill(null));
+  }
+  await options.onProgress?.(0.97);
+  return { nodeIds, nodeNames, candidates: [...candidates], meets, marginDb, pairsPredicted: pairs.length, pairsSkipped: skipped, warnings };
+}

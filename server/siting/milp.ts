@@ -1,0 +1,263 @@
+// The exact siting model as a mixed-integer program in CPLEX LP text, solved by
+// HiGHS (the `highs` package: HiGHS compiled to WebAssembly). The HiGHS module
+// is passed in (the app loads it once), so this file holds no global state.
+//
+// Variables: x_j ∈ {0,1} candidate j chosen; y_i ∈ {0,1} node i covered
+// (budget variant only); a_p ∈ [0,1] node of hearing pair p homed at its
+// candidate (capacity cap only; integral at any integral x, y because the
+// assignment part is a transportation polytope with integer bounds).
+//
+// Cover variant:   min Σ w_j x_j   s.t. Σ_{j∈H(i)} x_j ≥ r_i  for every coverable i
+//                  (w_j = 1 for "gateways", the cost in USD for "cost").
+// Budget variant:  max Σ y_i − ε·Σ w_j x_j
+//                  s.t. Σ_{j∈H(i)} x_j − r_i·y_i ≥ 0, Σ c_j x_j ≤ B, Σ x_j ≤ G;
+//                  ε·Σ w_j x_j < 1/2 always, so the tie-break never trades a node.
+// Capacity cap M:  Σ_{p∈i} a_p ≥ r_i (or r_i·y_i), a_p ≤ x_j(p), Σ_{p∋j} a_p ≤ M·x_j.
+// Fixed gateways:  x_j = 1.
+import type { Highs } from 'highs';
+import { capacityFlow, coveredMask, greedyCover, isBudgetVariant, requirements, selectionCostUsd, selectionCount, type CoverInstance, type CoverOptions } from './cover.ts';
+
+export interface SolveOptions {
+  /** Wall-clock limit of the MILP, seconds (default 10). */
+  timeLimitS?: number;
+  /** Relative gap at which HiGHS may stop and call the answer optimal (default 0: prove it). */
+  relativeGap?: number;
+}
+
+export interface SitingSolution {
+  /** optimal: proven; feasible: a solution, gap reported; infeasible: no selection satisfies the rules. */
+  status: 'optimal' | 'feasible' | 'infeasible';
+  selected: Uint8Array;
+  /** Objective value in the model's own units (gateways, USD, or covered nodes). */
+  objective: number;
+  /** Best bound HiGHS proved (same units), null when it has none. */
+  bound: number | null;
+  /** 100·|objective − bound| / max(|objective|, 1e-9); 0 when proven. */
+  gapPercent: number;
+  solver: string;
+  seconds: number;
+  message: string | null;
+  /** The greedy start: its selection and time, for the side-by-side figures. */
+  greedy: { selected: Uint8Array; seconds: number; feasible: boolean };
+}
+
+function term(coefficient: number, name: string): string {
+  const c = Number(coefficient.toPrecision(15));
+  return `${c < 0 ? '-' : '+'} ${Math.abs(c)} ${name}`;
+}
+
+/** Writes terms a few per line (LP format lets an expression continue on the next line). */
+function pushTerms(lines: string[], head: string, terms: string[], tail: string): void {
+  if (terms.length === 0) {
+    lines.push(`${head} 0 x_0 ${tail}`.trimEnd());
+    return;
+  }
+  for (let t = 0; t < terms.length; t += 16) {
+    const chunk = terms.slice(t, t + 16).join(' ');
+    const first = t === 0;
+    const last = t + 16 >= terms.length;
+    lines.push(`${first ? head + ' ' : '   '}${chunk}${last ? (tail ? ' ' + tail : '') : ''}`);
+  }
+}
+
+/** The LP text of the model, with the weights used in the objective. */
+export function sitingLpText(instance: CoverInstance, options: CoverOptions): { text: string; budget: boolean; weights: Float64Array } {
+  const required = requirements(instance, options.requiredGateways);
+  const budget = isBudgetVariant(options);
+  const m = instance.candidateCount;
+  const byCost = options.minimise === 'cost';
+  const weights = new Float64Array(m);
+  for (let j = 0; j < m; j++) weights[j] = byCost ? instance.costUsd[j] : 1;
+  const lines: string[] = [];
+  const objective: string[] = [];
+  if (budget) {
+    let totalWeight = 0;
+    for (let j = 0; j < m; j++) totalWeight += weights[j];
+    const epsilon = 0.5 / (totalWeight + 1);
+    for (let i = 0; i < instance.nodeCount; i++) if (required[i] > 0) objective.push(term(1, `y_${i}`));
+    for (let j = 0; j < m; j++) objective.push(term(-epsilon * weights[j], `x_${j}`));
+    lines.push('Maximize');
+  } else {
+    for (let j = 0; j < m; j++) objective.push(term(weights[j], `x_${j}`));
+    lines.push('Minimize');
+  }
+  pushTerms(lines, ' obj:', objective, '');
+  lines.push('Subject To');
+  const cap = options.maxNodesPerGateway;
+  for (let i = 0; i < instance.nodeCount; i++) {
+    const r = required[i];
+    if (r <= 0) continue;
+    const terms: string[] = [];
+    for (let p = instance.hearStart[i]; p < instance.hearStart[i + 1]; p++) terms.push(term(1, cap !== undefined ? `a_${p}` : `x_${instance.hearIndex[p]}`));
+    if (budget) {
+      terms.push(term(-r, `y_${i}`));
+      pushTerms(lines, ` n_${i}:`, terms, '>= 0');
+    } else pushTerms(lines, ` n_${i}:`, terms, `>= ${r}`);
+  }
+  if (cap !== undefined) {
+    const perCandidate: string[][] = Array.from({ length: m }, () => []);
+    for (let i = 0; i < instance.nodeCount; i++) {
+      if (required[i] <= 0) continue;
+      for (let p = instance.hearStart[i]; p < instance.hearStart[i + 1]; p++) {
+        const j = instance.hearIndex[p];
+        lines.push(` h_${p}: + 1 a_${p} - 1 x_${j} <= 0`);
+        perCandidate[j].push(term(1, `a_${p}`));
+      }
+    }
+    for (let j = 0; j < m; j++) if (perCandidate[j].length > 0) pushTerms(lines, ` c_${j}:`, [...perCandidate[j], term(-cap, `x_${j}`)], '<= 0');
+  }
+  if (budget && options.budgetUsd !== undefined) {
+    const terms: string[] = [];
+    for (let j = 0; j < m; j++) if (instance.costUsd[j] > 0) terms.push(term(instance.costUsd[j], `x_${j}`));
+    if (terms.length > 0) pushTerms(lines, ' budget:', terms, `<= ${options.budgetUsd}`);
+  }
+  if (budget && options.maxGateways !== undefined) {
+    const terms: string[] = [];
+    for (let j = 0; j < m; j++) terms.push(term(1, `x_${j}`));
+    pushTerms(lines, ' gateways:', terms, `<= ${options.maxGateways}`);
+  }
+  lines.push('Bounds');
+  for (let j = 0; j < m; j++) lines.push(instance.fixed[j] ? ` x_${j} = 1` : ` 0 <= x_${j} <= 1`);
+  if (cap !== undefined) for (let p = 0; p < instance.hearIndex.length; p++) lines.push(` 0 <= a_${p} <= 1`);
+  if (budget) for (let i = 0; i < instance.nodeCount; i++) if (required[i] > 0) lines.push(` 0 <= y_${i} <= 1`);
+  lines.push('General');
+  const ints: string[] = [];
+  for (let j = 0; j < m; j++) ints.push(`x_${j}`);
+  if (budget) for (let i = 0; i < instance.nodeCount; i++) if (required[i] > 0) ints.push(`y_${i}`);
+  for (let t = 0; t < ints.length; t += 20) lines.push(' ' + ints.slice(t, t + 20).join(' '));
+  lines.push('End', '');
+  return { text: lines.join('\n'), budget, weights };
+}
+
+/** Objective of a selection in the model's units (see sitingLpText). */
+export function modelObjective(instance: CoverInstance, options: CoverOptions, selected: Uint8Array): number {
+  if (isBudgetVariant(options)) {
+    const covered = coveredMask(instance, selected, requirements(instance, options.requiredGateways));
+    return selectionCount(covered);
+  }
+  return options.minimise === 'cost' ? selectionCostUsd(instance, selected) : selectionCount(selected);
+}
+
+/** Whether a selection obeys every rule of the options (capacity via the exact flow check). */
+export function selectionFeasible(instance: CoverInstance, options: CoverOptions, selected: Uint8Array): boolean {
+  for (let j = 0; j < instance.candidateCount; j++) if (instance.fixed[j] && !selected[j]) return false;
+  const required = requirements(instance, options.requiredGateways);
+  const budget = isBudgetVariant(options);
+  if (budget) {
+    if (options.budgetUsd !== undefined && selectionCostUsd(instance, selected) > options.budgetUsd + 1e-6) return false;
+    if (options.maxGateways !== undefined && selectionCount(selected) > options.maxGateways) return false;
+  }
+  const covered = coveredMask(instance, selected, required);
+  if (!budget) for (let i = 0; i < instance.nodeCount; i++) if (required[i] > 0 && !covered[i]) return false;
+  if (options.maxNodesPerGateway !== undefined) {
+    let need = 0;
+    for (let i = 0; i < instance.nodeCount; i++) if (covered[i]) need += required[i];
+    if (capacityFlow(instance, selected, required, options.maxNodesPerGateway, covered) < need) return false;
+  }
+  return true;
+}
+
+function validate(instance: CoverInstance, options: CoverOptions): string | null {
+  if (!Number.isInteger(options.requiredGateways) || options.requiredGateways < 1) return 'requiredGateways: must be a whole number ≥ 1';
+  if (options.budgetUsd !== undefined && !(options.budgetUsd >= 0)) return 'budgetUsd: must be ≥ 0';
+  if (options.maxGateways !== undefined && !(Number.isInteger(options.maxGateways) && options.maxGateways >= 0)) return 'maxGateways: must be a whole number ≥ 0';
+  if (options.maxNodesPerGateway !== undefined && !(Number.isInteger(options.maxNodesPerGateway) && options.maxNodesPerGateway >= 1)) return 'maxNodesPerGateway: must be a whole number ≥ 1';
+  void instance;
+  return null;
+}
+
+/**
+ * Solves the siting model: greedy first (its answer is HiGHS's start when it
+ * obeys every rule), then the MILP to proven optimality or the time limit.
+ */
+export function solveSiting(highs: Highs, instance: CoverInstance, options: CoverOptions, solve: SolveOptions = {}): SitingSolution {
+  const invalid = validate(instance, options);
+  if (invalid) throw new RangeError(invalid);
+  const solver = `HiGHS ${highs.version?.string ?? ''}`.trim();
+  const g0 = performance.now();
+  const greedySelected = greedyCover(instance, options);
+  const greedySeconds = (performance.now() - g0) / 1000;
+  const greedyFeasible = selectionFeasible(instance, options, greedySelected);
+  const greedy = { selected: greedySelected, seconds: greedySeconds, feasible: greedyFeasible };
+  const budget = isBudgetVariant(options);
+  let fixedCount = 0;
+  for (const f of instance.fixed) fixedCount += f;
+  if (budget && options.maxGateways !== undefined && fixedCount > options.maxGateways) {
+    return { status: 'infeasible', selected: Uint8Array.from(instance.fixed), objective: Number.NaN, bound: null, gapPercent: Number.NaN, solver, seconds: 0, message: `maxGateways: ${options.maxGateways} is fewer than the ${fixedCount} gateways kept as built`, greedy };
+  }
+  const required = requirements(instance, options.requiredGateways);
+  let decisions = 0;
+  for (let j = 0; j < instance.candidateCount; j++) if (!instance.fixed[j]) decisions++;
+  if (instance.candidateCount === 0 || decisions === 0 || required.every((r) => r === 0)) {
+    // Nothing to decide: the fixed gateways are the answer (no candidate, or no node any candidate hears).
+    const selected = Uint8Array.from(instance.fixed);
+    const feasible = selectionFeasible(instance, options, selected);
+    const objective = modelObjective(instance, options, selected);
+    return { status: feasible ? 'optimal' : 'infeasible', selected, objective, bound: feasible ? objective : null, gapPercent: feasible ? 0 : Number.NaN, solver: 'none (nothing to decide)', seconds: 0, message: feasible ? null : 'the gateways kept as built break the capacity cap', greedy };
+  }
+  const { text } = sitingLpText(instance, options);
+  const model = highs.createModel({ format: 'lp', data: text });
+  const t0 = performance.now();
+  try {
+    model.options.set('output_flag', false);
+    model.options.set('time_limit', solve.timeLimitS ?? 10);
+    model.options.set('mip_rel_gap', solve.relativeGap ?? 0);
+    model.options.set('mip_abs_gap', 1e-7);
+    const numCols = model.getDimensions().numCols;
+    const column = new Map<string, number>();
+    for (let c = 0; c < numCols; c++) column.set(model.getColName(c), c);
+    if (greedyFeasible && options.maxNodesPerGateway === undefined) {
+      const start = new Float64Array(numCols);
+      for (let j = 0; j < instance.candidateCount; j++) start[column.get(`x_${j}`) as number] = greedySelected[j];
+      if (budget) {
+        const covered = coveredMask(instance, greedySelected, required);
+        for (let i = 0; i < instance.nodeCount; i++) if (required[i] > 0) start[column.get(`y_${i}`) as number] = covered[i];
+      }
+      try {
+        model.setSolution({ colValue: start });
+      } catch {
+        // A start HiGHS refuses only costs time, never correctness.
+      }
+    }
+    model.run();
+    const seconds = (performance.now() - t0) / 1000;
+    const status = model.getModelStatus();
+    const codes = highs.constants.modelStatus;
+    if (status === codes.infeasible) {
+      return { status: 'infeasible', selected: Uint8Array.from(instance.fixed), objective: Number.NaN, bound: null, gapPercent: Number.NaN, solver, seconds, message: infeasibleMessage(options), greedy };
+    }
+    const hasSolution = Number(model.info.get('primal_solution_status')) === highs.constants.solutionStatus.feasible;
+    if (!hasSolution) {
+      // Time ran out before HiGHS found a solution of its own: fall back on greedy when it obeys the rules.
+      const message = `HiGHS stopped (${statusName(highs, status)}) without a solution`;
+      if (greedyFeasible) {
+        const objective = modelObjective(instance, options, greedySelected);
+        return { status: 'feasible', selected: greedySelected, objective, bound: null, gapPercent: Number.NaN, solver: `greedy (${solver} ${message})`, seconds, message, greedy };
+      }
+      return { status: 'infeasible', selected: Uint8Array.from(instance.fixed), objective: Number.NaN, bound: null, gapPercent: Number.NaN, solver, seconds, message, greedy };
+    }
+    const values = model.getSolution().colValue as Float64Array;
+    const selected = new Uint8Array(instance.candidateCount);
+    for (let j = 0; j < instance.candidateCount; j++) selected[j] = values[column.get(`x_${j}`) as number] > 0.5 ? 1 : 0;
+    const objective = modelObjective(instance, options, selected);
+    let bound: number | null = Number(model.info.get('mip_dual_bound'));
+    if (!Number.isFinite(bound)) bound = null;
+    // The budget model's objective carries the ε tie-break; its bound on covered nodes is ⌊bound + ½⌋.
+    if (bound !== null && budget) bound = Math.floor(bound + 0.5);
+    const proven = status === codes.optimal;
+    const gapPercent = proven ? 0 : bound === null ? Number.NaN : (100 * Math.abs(objective - bound)) / Math.max(Math.abs(objective), 1e-9);
+    return { status: proven ? 'optimal' : 'feasible', selected, objective, bound: proven ? objective : bound, gapPercent, solver, seconds, message: proven ? null : `HiGHS stopped: ${statusName(highs, status)}`, greedy };
+  } finally {
+    model.dispose();
+  }
+}
+
+function statusName(highs: Highs, code: number): string {
+  for (const [name, value] of Object.entries(highs.constants.modelStatus)) if (value === code) return name;
+  return `status ${code}`;
+}
+
+function infeasibleMessage(options: CoverOptions): string {
+  if (options.maxNodesPerGateway !== undefined) return `maxNodesPerGateway: no choice of candidates homes every coverable node with at most ${options.maxNodesPerGateway} nodes per gateway`;
+  return 'no choice of candidates satisfies the rules';
+}

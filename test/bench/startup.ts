@@ -1,0 +1,130 @@
+// Start-up benchmarks (`npm run bench -- startup`): whole-process wall times, measured side by
+// side in one run, of the compiled programs (scripts/launch.mjs → build/server) against the
+// same programs from the sources through tsx, and against the outside references:
+// 1. `node -e 0` (a bare Node start) and `earshot airtime …`;
+// 2. `earshot token issue` on an embedded data folder (no server running: the CLI opens the folder);
+// 3. a server restart on an existing data folder, until it prints its listening line;
+// 4. `earshot coverage --mode los` against gdal_viewshed on the same DEM, observer and radius.
+import { spawn, spawnSync } from 'node:child_process';
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { createServer } from 'node:net';
+import { cpus, loadavg, tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { performance } from 'node:perf_hooks';
+import { writeGeoTiff } from '../../server/terrain/geotiff-writer.ts';
+import { makeSyntheticDem } from '../unit/coverage/synthetic-dem.ts';
+
+const repeats = 3;
+
+function wallMs(command: string, args: string[], env: NodeJS.ProcessEnv = process.env): number {
+  const started = performance.now();
+  const result = spawnSync(command, args, { encoding: 'utf8', env, timeout: 300_000 });
+  const elapsed = performance.now() - started;
+  if (result.status !== 0) throw new Error(`${command} ${args.join(' ')} failed: ${result.stderr.split('\n')[0]}`);
+  return elapsed;
+}
+
+const best = (times: number[]) => Math.min(...times);
+function bestOf(run: () => number): number {
+  const times: number[] = [];
+  for (let i = 0; i < repeats; i++) times.push(run());
+  return best(times);
+}
+
+async function freePort(): Promise<number> {
+  return new Promise((resolve, reject) => {
+    const server = createServer();
+    server.once('error', reject);
+    server.listen(0, '127.0.0.1', () => {
+      const address = server.address();
+      const port = typeof address === 'object' && address ? address.port : 0;
+      server.close(() => resolve(port));
+    });
+  });
+}
+
+/** Milliseconds from spawn until the server prints its listening line; then it is stopped. */
+async function serverStartMs(args: string[], dataDir: string): Promise<number> {
+  const port = await freePort();
+  const started = performance.now();
+  const child = spawn(process.execPath, args, { env: { ...process.env, EARSHOT_DATA_DIR: dataDir, PORT: String(port), EARSHOT_LOG_LEVEL: 'warn' }, stdio: ['ignore', 'pipe', 'pipe'] });
+  let output = '';
+  const elapsed = await new Promise<number>((resolve, reject) => {
+    const timer = setTimeout(() => reject(new Error(`server did not start within 120 s: ${output.slice(-400)}`)), 120_000);
+    child.stdout.on('data', (chunk: Buffer) => {
+      output += String(chunk);
+      if (output.includes('earshot is listening on')) {
+        clearTimeout(timer);
+        resolve(performance.now() - started);
+      }
+    });
+    child.stderr.on('data', (chunk: Buffer) => (output += String(chunk)));
+    child.once('exit', (code) => {
+      clearTimeout(timer);
+      reject(new Error(`server exited (${code}) before listening: ${output.slice(-400)}`));
+    });
+  });
+  child.removeAllListeners('exit');
+  await new Promise<void>((resolve) => {
+    child.once('exit', () => resolve());
+    child.kill('SIGTERM');
+  });
+  return elapsed;
+}
+
+export async function run(): Promise<void> {
+  const log = (line: string) => console.log(line);
+  log(`machine: ${cpus().length} cores, load average ${loadavg().map((l) => l.toFixed(1)).join(' ')} (other work on the machine inflates every figure)`);
+  const dir = mkdtempSync(join(tmpdir(), 'earshot-bench-startup-'));
+  try {
+    // The compiled tree is brought up to date once, outside the timings.
+    wallMs(process.execPath, ['scripts/build-server.mjs', '--quiet']);
+    const compiled = (program: string, args: string[]) => [join('scripts', 'launch.mjs'), program, ...args];
+    const sources = (entry: string, args: string[]) => ['--import', 'tsx', entry, ...args];
+
+    // 1. Bare node and the smallest CLI command.
+    const bareMs = bestOf(() => wallMs(process.execPath, ['-e', '0']));
+    const airtime = ['airtime', '--sf', '10', '--bw-khz', '125', '--payload-bytes', '24', '--json'];
+    const airtimeCompiledMs = bestOf(() => wallMs(process.execPath, compiled('cli', airtime)));
+    const airtimeTsxMs = bestOf(() => wallMs(process.execPath, sources('server/cli.ts', airtime)));
+    log(`node -e 0: ${bareMs.toFixed(0)} ms`);
+    log(`earshot airtime: compiled ${airtimeCompiledMs.toFixed(0)} ms (${(airtimeCompiledMs / bareMs).toFixed(1)}× bare node; target ≤ 10×), tsx ${airtimeTsxMs.toFixed(0)} ms (${(airtimeTsxMs / bareMs).toFixed(1)}×)`);
+
+    // 2. token issue on an embedded folder made (with the demo team) by a first server start.
+    const dataDir = join(dir, 'data');
+    const firstStartMs = await serverStartMs(compiled('server', []), dataDir);
+    const env = { ...process.env, EARSHOT_DATA_DIR: dataDir };
+    const issue = ['token', 'issue', '--team', 'demo', '--role', 'viewer', '--json'];
+    const tokenCompiledMs = bestOf(() => wallMs(process.execPath, compiled('cli', issue), env));
+    const tokenTsxMs = bestOf(() => wallMs(process.execPath, sources('server/cli.ts', issue), env));
+    log(`earshot token issue (embedded folder): compiled ${tokenCompiledMs.toFixed(0)} ms (target ≤ 3000), tsx ${tokenTsxMs.toFixed(0)} ms`);
+
+    // 3. Restart on the existing folder.
+    const restartCompiledMs = best([await serverStartMs(compiled('server', []), dataDir), await serverStartMs(compiled('server', []), dataDir)]);
+    const restartTsxMs = best([await serverStartMs(sources('server/main.ts', []), dataDir), await serverStartMs(sources('server/main.ts', []), dataDir)]);
+    log(`server: first start on a new folder ${firstStartMs.toFixed(0)} ms; restart on the existing folder: compiled ${restartCompiledMs.toFixed(0)} ms (target ≤ 5000), tsx ${restartTsxMs.toFixed(0)} ms`);
+
+    // 4. coverage --mode los, whole process, against gdal_viewshed on one synthetic 30 m DEM (20 km).
+    if (spawnSync('which', ['gdal_viewshed']).status === 0) {
+      const sizePx = 1400;
+      const cellM = 30;
+      const dem = makeSyntheticDem(sizePx, sizePx, cellM, 21, 1.2);
+      const demPath = join(dir, 'dem30.tif');
+      writeFileSync(demPath, writeGeoTiff({ widthPx: sizePx, heightPx: sizePx, data: dem.elevationM, geoTransform: [500_000, cellM, 0, 4_100_000, 0, -cellM], epsg: 32633, noData: -9999, tiled: { tileSizePx: 256 } }));
+      const ox = 500_000 + 700.5 * cellM;
+      const oy = 4_100_000 - 700.5 * cellM;
+      const info = spawnSync('gdaltransform', ['-s_srs', 'EPSG:32633', '-t_srs', 'EPSG:4326', '-output_xy'], { input: `${ox} ${oy}\n`, encoding: 'utf8' });
+      const [lon, lat] = info.stdout.trim().split(/\s+/).map(Number);
+      const gdalMs = bestOf(() => wallMs('gdal_viewshed', ['-q', '-oz', '20', '-tz', '1.5', '-md', '20000', '-cc', '0.75', '-vv', '1', '-iv', '0', '-ov', '100', '-ox', String(ox), '-oy', String(oy), demPath, join(dir, 'gdal.tif')]));
+      const coverage = ['coverage', '--terrain', demPath, '--site', `${lat},${lon}`, '--height-m', '20', '--radius-km', '20', '--mode', 'los', '--out', join(dir, 'los.tif'), '--json'];
+      const losCompiledMs = bestOf(() => wallMs(process.execPath, compiled('cli', coverage)));
+      const losTsxMs = bestOf(() => wallMs(process.execPath, sources('server/cli.ts', coverage)));
+      log(`coverage --mode los, whole process: compiled ${losCompiledMs.toFixed(0)} ms, tsx ${losTsxMs.toFixed(0)} ms, gdal_viewshed ${gdalMs.toFixed(0)} ms → ratio compiled/GDAL ${(losCompiledMs / gdalMs).toFixed(2)} (target ≤ 2), tsx/GDAL ${(losTsxMs / gdalMs).toFixed(2)}`);
+    } else {
+      log('coverage --mode los vs gdal_viewshed: skipped (gdal-bin not installed)');
+    }
+    log(`best of ${repeats} for every figure except restarts (best of 2); load average now ${loadavg().map((l) => l.toFixed(1)).join(' ')}`);
+  } finally {
+    rmSync(dir, { recursive: true, force: true });
+  }
+}

@@ -1,0 +1,70 @@
+// Client calls of reports, exports and scenarios (server/api/routes/exports.ts,
+// server/api/routes/scenarios.ts).
+import { ApiError, request, storedToken, type Plan } from './api.ts';
+import type { LinkStatus } from './api.ts';
+
+export interface ScenarioSide {
+  planId: string;
+  name: string;
+  counts: Record<LinkStatus, number>;
+  nodes: number;
+  gateways: number;
+  sites: number;
+  redundancy: { none: number; one: number; twoOrMore: number };
+  kitCostUsd: number;
+  costUsd: number;
+  servedShare: number;
+  risks: { unserved: number; singleGateway: number; illegal: number; overDutyCycle: number };
+}
+
+export interface NodeComparison {
+  id: string;
+  name: string;
+  idA: string | null;
+  idB: string | null;
+  statusA: LinkStatus | null;
+  statusB: LinkStatus | null;
+  marginA: number | null;
+  marginB: number | null;
+  marginChangeDb: number | null;
+}
+
+export interface PlanComparison {
+  a: ScenarioSide;
+  b: ScenarioSide;
+  nodes: NodeComparison[];
+  matching: string;
+}
+
+export const comparePlans = (planId: string, otherPlanId: string): Promise<PlanComparison> =>
+  request<PlanComparison>('GET', `/plans/${encodeURIComponent(planId)}/compare/${encodeURIComponent(otherPlanId)}`);
+
+export const copyPlan = (planId: string, name: string): Promise<Plan & { copied: Record<string, number> }> =>
+  request('POST', `/plans/${encodeURIComponent(planId)}/copy`, { name });
+
+export type PlanFile = 'report.pdf' | 'export.geojson' | 'export.kml' | 'export.csv' | 'bom.csv';
+
+/**
+ * Fetches a file of the plan (with the tab's bearer token when one is kept, else the
+ * sign-in cookie) and hands it to the browser as a download under the server's file name.
+ */
+export async function downloadPlanFile(planId: string, file: PlanFile): Promise<string> {
+  const headers: Record<string, string> = { 'x-earshot-request': '1' };
+  const token = storedToken();
+  if (token) headers.authorization = `Bearer ${token}`;
+  const response = await fetch(`/api/v1/plans/${encodeURIComponent(planId)}/${file}`, { credentials: 'same-origin', headers });
+  if (!response.ok) {
+    const body = (await response.json().catch(() => ({}))) as { error?: { code?: string; message?: string } };
+    throw new ApiError(response.status, body.error?.code ?? `http_${response.status}`, body.error?.message ?? response.statusText);
+  }
+  const name = /filename="([^"]+)"/.exec(response.headers.get('content-disposition') ?? '')?.[1] ?? file;
+  const url = URL.createObjectURL(await response.blob());
+  const a = document.createElement('a');
+  a.href = url;
+  a.download = name;
+  document.body.append(a);
+  a.click();
+  a.remove();
+  setTimeout(() => URL.revokeObjectURL(url), 30_000);
+  return name;
+}
