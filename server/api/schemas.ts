@@ -80,3 +80,53 @@ export const jsonObject = z
   .refine((value) => Buffer.byteLength(JSON.stringify(value) ?? '') <= maxJsonFieldBytes, `must be at most ${maxJsonFieldBytes / 1024} KB as JSON`);
 
 export const dateTime = z.date().or(z.string());
+
+// ---- One rule per physical input ------------------------------------------------------------
+// Every route that takes one of these quantities builds its field here, and
+// GET /client-settings serves the same table so every UI form uses the same limits.
+
+export interface FieldRange {
+  min: number;
+  max: number;
+  unit: string;
+  /** Step the forms offer. */
+  step: number;
+  /** Why the limits are what they are (shown in the forms' hints). */
+  note: string;
+}
+
+export const FIELD_RANGES = {
+  nodeAntennaHeightAglM: { min: -10, max: 200, unit: 'm', step: 0.1, note: 'node antenna above ground; negative for a pit or meter box below ground' },
+  gatewayAntennaHeightAglM: { min: 0, max: 500, unit: 'm', step: 0.5, note: 'gateway antenna above ground' },
+  nodeTxPowerDbm: { min: -10, max: 30, unit: 'dBm', step: 0.5, note: 'conducted power at the node radio port (1 W at most); the band plan limits the radiated power' },
+  gatewayTxPowerDbm: { min: -10, max: 36, unit: 'dBm', step: 0.5, note: 'conducted power at the gateway radio port' },
+  nodeFeedlineLengthM: { min: 0, max: 500, unit: 'm', step: 0.5, note: 'cable from the node radio to its antenna' },
+  gatewayFeedlineLengthM: { min: 0, max: 1000, unit: 'm', step: 0.5, note: 'cable from the gateway radio to its antenna' },
+  targetMarginDb: { min: -20, max: 60, unit: 'dB', step: 0.5, note: 'fade margin a node must reach to count as served' },
+  sigmaDb: { min: 0, max: 30, unit: 'dB', step: 0.1, note: 'a spread of the received level (σL or σM)' },
+  noiseFigureDb: { min: 0, max: 20, unit: 'dB', step: 0.1, note: 'gateway receiver noise figure' },
+  coverageRadiusKm: { min: 0.1, max: 100, unit: 'km', step: 0.1, note: 'radius of a coverage run around each gateway (clipped to the terrain)' },
+  payloadBytes: { min: 1, max: 255, unit: 'B', step: 1, note: 'application payload of one uplink' },
+} as const satisfies Record<string, FieldRange>;
+
+export type RangedField = keyof typeof FIELD_RANGES;
+
+/** A number field within FIELD_RANGES[field], with messages naming the limit and its unit. */
+export function ranged(field: RangedField) {
+  const r = FIELD_RANGES[field];
+  const unit = r.unit === 'B' ? ' bytes' : ` ${r.unit}`;
+  return finite().min(r.min, `must be ≥ ${r.min}${unit}`).max(r.max, `must be ≤ ${r.max}${unit}`);
+}
+
+export const nodeAntennaHeightAglM = () => ranged('nodeAntennaHeightAglM');
+export const gatewayAntennaHeightAglM = () => ranged('gatewayAntennaHeightAglM');
+export const nodeTxPowerDbm = () => ranged('nodeTxPowerDbm');
+export const gatewayTxPowerDbm = () => ranged('gatewayTxPowerDbm');
+export const nodeFeedlineLengthM = () => ranged('nodeFeedlineLengthM');
+export const gatewayFeedlineLengthM = () => ranged('gatewayFeedlineLengthM');
+export const targetMarginDb = () => ranged('targetMarginDb');
+export const sigmaDb = () => ranged('sigmaDb');
+export const noiseFigureDb = () => ranged('noiseFigureDb');
+export const coverageRadiusKm = () => ranged('coverageRadiusKm');
+export const payloadBytes = () => ranged('payloadBytes').int('must be a whole number');
+export const nodeEnvironment = () => z.enum(['outdoor', 'indoor', 'pit'], { error: 'must be outdoor, indoor or pit' });

@@ -14,16 +14,17 @@ import { CalibrationInputError, fitCalibration, groupKey, type CalibrationFit, t
 import type { LinkEngine, NodeLinksOutcome, PlanContext } from '../jobs/link-engine.ts';
 import { bearingsBetween } from '../planning/geometry.ts';
 import type { LinkResult } from '../planning/link.ts';
+import { AppError, type AppErrorKind } from './errors.ts';
 
-/** A use-case failure the caller must fix; the API maps it to its status and code. */
-export class CalibrationError extends Error {
+/** A use-case failure the caller must fix; it carries a kind (server/app/errors.ts) the API maps to a status. */
+export class CalibrationError extends AppError {
   constructor(
-    readonly statusCode: 400 | 404 | 409 | 422,
-    readonly code: string,
+    kind: AppErrorKind,
+    code: string,
     message: string,
     readonly extra?: Record<string, unknown>,
   ) {
-    super(message);
+    super(kind, code, message);
   }
 }
 
@@ -198,7 +199,7 @@ export async function importReadings(
   if (dryRun) return { dryRun: true, valid: errors.length === 0, created: errors.length === 0 ? fresh.length : 0, ...base, readings: [], preview: fresh.slice(0, 100) };
   if (errors.length > 0) {
     const rowsWithErrors = new Set(errors.map((e) => e.row)).size;
-    throw new CalibrationError(400, 'invalid_rows', `${rowsWithErrors} of ${base.rowCount} rows have errors; nothing was imported (first: row ${errors[0].row} ${errors[0].field}: ${errors[0].message})`, { rows: errors.slice(0, 500) });
+    throw new CalibrationError('invalid_input', 'invalid_rows', `${rowsWithErrors} of ${base.rowCount} rows have errors; nothing was imported (first: row ${errors[0].row} ${errors[0].field}: ${errors[0].message})`, { rows: errors.slice(0, 500) });
   }
   const readings =
     fresh.length === 0
@@ -340,14 +341,14 @@ export async function createPlanCalibration(db: Database, engine: LinkEngine, ac
   const grouping = request.grouping ?? 'none';
   const ctx = await engine.planContext(plan, { calibration: null });
   const readings = await listReadingsForCalibration(db, plan.id);
-  if (readings.length === 0) throw new CalibrationError(422, 'no_readings', 'readings: the plan has no field readings heard at a gateway; record or import some first');
+  if (readings.length === 0) throw new CalibrationError('unprocessable', 'no_readings', 'readings: the plan has no field readings heard at a gateway; record or import some first');
   const nodes = new Map((await listNodesForLinks(db, plan.id)).map((n) => [n.id, n]));
   const { residuals, excluded } = await pairReadings(engine, ctx, readings, nodes, grouping);
   let fit: CalibrationFit;
   try {
     fit = fitCalibration(residuals, { grouping, folds: request.folds, seed: request.seed });
   } catch (error) {
-    if (error instanceof CalibrationInputError) throw new CalibrationError(422, 'too_few_readings', `${error.message} (${excluded.length} reading(s) could not be paired with a prediction)`);
+    if (error instanceof CalibrationInputError) throw new CalibrationError('unprocessable', 'too_few_readings', `${error.message} (${excluded.length} reading(s) could not be paired with a prediction)`);
     throw error;
   }
   const { grouping: _g, n, biasDb, sigmaDb, ...rest } = fit;
@@ -384,12 +385,12 @@ export async function applyPlanCalibration(db: Database, actor: Actor, plan: Pla
 /** Reverts the applied calibration; the one before it (if any) is applied again. */
 export async function revertPlanCalibration(db: Database, actor: Actor, plan: PlanRow): Promise<{ reverted: CalibrationView; restored: CalibrationView | null }> {
   const current = await findAppliedCalibration(db, plan.id);
-  if (!current) throw new CalibrationError(409, 'nothing_applied', 'no calibration is applied to this plan');
+  if (!current) throw new CalibrationError('conflict', 'nothing_applied', 'no calibration is applied to this plan');
   const outcome = await writeWithAudit(
     db,
     async (tx) => {
       const done = await revertCalibration(tx, plan.id, actor.userId);
-      if (!done) throw new CalibrationError(409, 'nothing_applied', 'no calibration is applied to this plan');
+      if (!done) throw new CalibrationError('conflict', 'nothing_applied', 'no calibration is applied to this plan');
       return done;
     },
     (done) => ({ principal: actor, action: 'revert', entity: 'calibration', entityId: done.reverted.id, detail: { planId: plan.id, restored: done.restored?.id ?? null } }),

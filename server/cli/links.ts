@@ -5,12 +5,13 @@
 // While a server runs on the folder (it wrote <dataDir>/admin.json with its port and
 // a local secret), the command asks that server's loopback admin route
 // (/_admin/link, /_admin/recommend), which runs the same function
-// (linkReport / recommendReport in server/api/routes/links.ts) and returns the same JSON.
+// (linkReport / recommendReport in server/app/links.ts) and returns the same JSON.
 import { z } from 'zod';
 import { loadConfig } from '../config.ts';
 import { dataFolderHolder, openDatabase } from '../db/client.ts';
-import { LinkEngine, LinkInputError } from '../jobs/link-engine.ts';
-import { linkReport, recommendReport, type nodeLinksView } from '../api/routes/links.ts';
+import { LinkEngine } from '../jobs/link-engine.ts';
+import { AppError } from '../app/errors.ts';
+import { linkReport, recommendReport, type NodeLinksView } from '../app/links.ts';
 import { PlanSettingsError } from '../planning/settings.ts';
 import { CliUsageError, defineCommand, numberOption, stringOption, type CliCommand } from './framework.ts';
 import { callRunningServer, readRunningServer } from './running-server.ts';
@@ -36,7 +37,7 @@ export async function runLinkOperation(operation: LinkOperation, body: Record<st
   try {
     return operation === 'link' ? await linkReport(engine, body as never) : await recommendReport(engine, body as never);
   } catch (error) {
-    if (error instanceof LinkInputError || error instanceof PlanSettingsError) throw new CliUsageError(error.message);
+    if (error instanceof AppError || error instanceof PlanSettingsError) throw new CliUsageError(error.message);
     throw error;
   } finally {
     await engine.close();
@@ -53,7 +54,7 @@ export const linkCommands: CliCommand[] = [
       return runLinkOperation('link', { plan: options.plan, node: options.node, ...(options.gateway ? { gateway: options.gateway } : {}) });
     },
     formatText: (result) => {
-      const view = result as ReturnType<typeof nodeLinksView>;
+      const view = result as NodeLinksView;
       const lines = view.links.map((l) => `${(l.gatewayName ?? l.gatewayId).padEnd(20)} ${(l.distanceM / 1000).toFixed(2).padStart(7)} km  loss ${l.basicLossDb.toFixed(1)} dB  RSSI ${l.rssiDbm.toFixed(1)} dBm  SNR ${l.snrDb.toFixed(1)} dB  margin ${l.marginDb.toFixed(1)} dB  SF${l.bestSf ?? '–'}  delivery ${(l.deliveryProbability * 100).toFixed(1)} %`);
       return [...lines, `status ${view.status}, at least one gateway hears it ${(view.combinedDeliveryProbability * 100).toFixed(1)} %`].join('\n');
     },

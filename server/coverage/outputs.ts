@@ -1,27 +1,20 @@
-// Per-cell products of a loss raster: received power, margin at the chosen
-// SF, best SF and delivery probability, from a link budget the radio room
-// computed (the engine stays radio-agnostic: it only needs the fixed part of
-// the budget and the sensitivity per SF).
-import { deliveryProbability } from '../planning/probability.ts';
+// Per-cell products of a loss raster: received power, margin, best SF and
+// delivery probability, each from the one link budget (the caller passes it in,
+// built on server/planning/link.ts), so coverage and links cannot disagree.
 
 /** NoData of Float32 loss/margin rasters written to GeoTIFF. */
 export const LOSS_NODATA = -9999;
 
-export interface CellBudget {
-  /**
-   * Everything in the budget except the path: transmitter power + antenna
-   * gains − feedline, connector and mismatch losses (dBm), so that
-   * received power = fixedDbm − basic loss.
-   */
-  fixedDbm: number;
-  /** Receiver sensitivity (dBm) for SF 7..12 (index 0 = SF7). */
-  sensitivityDbmBySf: number[];
-  /** The SF the margin raster is computed for. */
-  spreadingFactor: number;
-  /** Margin a cell needs to count as served (dB). */
-  requiredMarginDb: number;
-  /** Location variability standard deviation (dB) for the delivery probability. */
-  locationSigmaDb: number;
+/** One place's budget, as a node link there would have it (server/planning/link.ts linkBudget). */
+export interface CellBudgetResult {
+  /** Received level at the gateway, dBm. */
+  rssiDbm: number;
+  /** A node link's marginDb at this place: at the SF the band plan's SF rule picks. */
+  marginDb: number;
+  /** Fastest allowed SF meeting the target margin; null when none does. */
+  bestSf: number | null;
+  /** Φ(margin/σ) with the one planning spread σ. */
+  deliveryProbability: number;
 }
 
 export const FIRST_SF = 7;
@@ -35,16 +28,16 @@ export interface CellProducts {
   deliveryProbability: Float32Array;
 }
 
-export function cellProducts(lossDb: Float32Array, budget: CellBudget): CellProducts {
+/**
+ * Per-cell products of a loss raster through `budgetAt(index, lossDb)`, which the caller
+ * builds from the link room's budget (so a cell's margin is a node link's margin there).
+ */
+export function cellProducts(lossDb: Float32Array, budgetAt: (index: number, lossDb: number) => CellBudgetResult): CellProducts {
   const n = lossDb.length;
   const powerDbm = new Float32Array(n);
   const marginDb = new Float32Array(n);
   const bestSf = new Uint8Array(n);
   const probability = new Float32Array(n);
-  const sfIndex = budget.spreadingFactor - FIRST_SF;
-  const sensitivity = budget.sensitivityDbmBySf[sfIndex];
-  if (sensitivity === undefined) throw new RangeError(`spreading factor ${budget.spreadingFactor} has no sensitivity`);
-  const sfs = budget.sensitivityDbmBySf.length;
   for (let i = 0; i < n; i++) {
     const loss = lossDb[i];
     if (loss !== loss) {
@@ -54,19 +47,11 @@ export function cellProducts(lossDb: Float32Array, budget: CellBudget): CellProd
       probability[i] = Number.NaN;
       continue;
     }
-    const power = budget.fixedDbm - loss;
-    powerDbm[i] = power;
-    const margin = power - sensitivity;
-    marginDb[i] = margin;
-    let best = 0;
-    for (let s = 0; s < sfs; s++) {
-      if (power - budget.sensitivityDbmBySf[s] >= budget.requiredMarginDb) {
-        best = FIRST_SF + s;
-        break;
-      }
-    }
-    bestSf[i] = best;
-    probability[i] = deliveryProbability(margin, budget.locationSigmaDb);
+    const cell = budgetAt(i, loss);
+    powerDbm[i] = cell.rssiDbm;
+    marginDb[i] = cell.marginDb;
+    bestSf[i] = cell.bestSf ?? 0;
+    probability[i] = cell.deliveryProbability;
   }
   return { powerDbm, marginDb, bestSf, deliveryProbability: probability };
 }

@@ -12,24 +12,48 @@ import { openGeoRaster, type GeoRaster } from '../terrain/raster.ts';
 import { writeGeoTiff } from '../terrain/geotiff-writer.ts';
 import { CLUTTER_CLASSES, CLUTTER_CODE_PRESETS, clutterLookup, type ClutterPreset } from '../terrain/clutter.ts';
 import { loadClutterHeights, loadTerrainWindow, windowFor, windowGeoTransform, type WindowPlacement } from '../coverage/terrain-window.ts';
-import { cellProducts, LOSS_NODATA, type CellBudget } from '../coverage/outputs.ts';
+import { cellProducts, LOSS_NODATA } from '../coverage/outputs.ts';
+import { sampleBilinear } from '../coverage/geometry.ts';
+import { freeSpaceLossDb } from '../propagation/free-space.ts';
+import { budgetAtPlace, type EndKit, type GatewayRadio, type LinkRadioSettings, type NodeRadio } from '../planning/link.ts';
+import { bearingsBetween } from '../planning/geometry.ts';
+import type { PropagationMethodId } from '../planning/path.ts';
+import { resolveBandPlan } from '../planning/settings.ts';
 import { buildComposite, summarise, type PlacedProducts } from '../coverage/composite.ts';
 import { BYTE_NODATA } from '../coverage/rasterise.ts';
 import type { CoverageMode } from '../coverage/area.ts';
 import { runArea, RunCancelledError } from './area-runner.ts';
 import type { WorkerPool } from './pool.ts';
 
-/** Everything a run needs, resolved by the API when the run is created (so workers need no plan logic). */
+/** The one link budget of a run (server/planning/link.ts), as plain data a worker can read from the row. */
+export interface CoverageBudgetParams {
+  /** The node kit everywhere on the map, as a node with that kit would have it (resolveNode). */
+  nodeKit: EndKit;
+  node: NodeRadio;
+  /** The link settings of that node (allowed SFs for its payload, target, spread); bandPlan by id. */
+  radio: Omit<LinkRadioSettings, 'bandPlan'> & { bandPlanId: string };
+  /** Node antenna height above ground as given, m (negative in a pit). */
+  nodeAntennaHeightAglM: number;
+  method: PropagationMethodId;
+  deltaN: number;
+}
+
+/** Everything a run needs, resolved when the run is created (server/app/coverage.ts), so workers need no plan logic. */
 export interface CoverageJobParams {
   /** fast or full (los gives visibility only, which has no margin: CLI only). */
   mode: Exclude<CoverageMode, 'los'>;
   radiusKm: number;
+  /** Node antenna height the sweeps use, m (the node kit's, at least 1 m as for link paths). */
   targetHeightM: number;
-  sf: number;
+  /** A fixed SF for every cell, or null: the node SF rule (fastest allowed SF meeting the target). */
+  sf: number | null;
   requiredMarginDb: number;
   frequencyMhz: number;
+  /** Median effective earth-radius factor k50 from the plan's ΔN (P.1812-8 Eq. (5)), as links use. */
   kFactor: number;
-  locationSigmaDb: number;
+  /** P.1812 options of the plan (full mode): ΔN, N0, time percent, polarisation. */
+  p1812: { deltaN: number; n0: number; timePercent: number; polarisation: 'horizontal' | 'vertical' };
+  budget: CoverageBudgetParams;
   /** Elevation layer file (absolute, or relative to the files folder) and its id. */
   terrainPath: string;
   terrainLayerId: string;
@@ -39,8 +63,8 @@ export interface CoverageJobParams {
    * the P.1812 defaults with the plan's overrides, `clutterHeightsByIndex`).
    */
   clutter?: { layerId: string; name: string; path: string; codes: ClutterPreset; heightByClassM: number[] } | null;
-  gateways: Array<{ id: string; name: string; lat: number; lon: number; heightAglM: number; fixedDbm: number; sensitivityDbmBySf: number[] }>;
-  nodes: Array<{ id: string; lat: number; lon: number }>;
+  gateways: Array<{ id: string; name: string; lat: number; lon: number; heightAglM: number; kit: EndKit; radio: GatewayRadio }>;
+  nodes: Array<{ id: string; name?: string; lat: number; lon: number }>;
 }
 
 /** The files of a finished run, inside `<filesDir>/coverage/<runId>/`. */
@@ -109,8 +133,18 @@ export async function executeCoverageRun(db: Database, config: Config, runId: st
     if (clutter) clutterRaster = await openGeoRaster(resolveFilePath(config, clutter.path));
     const classByCode = clutter ? clutterLookup(CLUTTER_CODE_PRESETS[clutter.codes]) : null;
     const radiusM = params.radiusKm * 1000;
-    const placements = params.gateways.map((g) => windowFor(raster!, { lat: g.lat, lon: g.lon, radiusM, allowClip: false }));
+    // A radius past the terrain is clipped: cells without terrain are NoData (the summary says how much of the disc had terrain).
+    const placements = params.gateways.map((g) => windowFor(raster!, { lat: g.lat, lon: g.lon, radiusM, allowClip: true }));
+    const radio: LinkRadioSettings = { ...params.budget.radio, bandPlan: resolveBandPlan(params.budget.radio.bandPlanId) };
+    const discShares: number[] = [];
     const union = unionOf(placements);
+    const geoTransform = windowGeoTransform(raster, union);
+    const res = raster.resolutionM;
+    const cellArea = (row: number): number => {
+      if (raster!.crs.kind === 'projected') return (Math.abs(geoTransform[1] * geoTransform[5]) / 1e6);
+      const lat = raster!.pixelToLonLat(union.x0 + 0.5, union.y0 + row + 0.5).lat;
+      return (res.x * res.y * Math.cos((lat * Math.PI) / 180)) / Math.cos((((raster!.boundsLonLat.south + raster!.boundsLonLat.north) / 2) * Math.PI) / 180) / 1e6;
+    };
     const parts: PlacedProducts[] = [];
     const inside = new Uint8Array(union.widthPx * union.heightPx);
     for (let index = 0; index < gatewayCount; index++) {
@@ -129,34 +163,62 @@ export async function executeCoverageRun(db: Database, config: Config, runId: st
           targetHeightAglM: params.targetHeightM,
           kFactor: params.kFactor,
           frequencyMhz: params.frequencyMhz,
-          p1812: { siteLatDeg: g.lat },
+          p1812: { siteLatDeg: g.lat, ...params.p1812 },
         },
         { pool: options.pool, workers: options.workers, signal: controller.signal, onProgress: (f) => report((index + f * 0.95) / gatewayCount) },
       );
       if (!area.lossDb) throw new Error('coverage runs need a loss mode (fast or full)');
       const lossDb = area.lossDb;
-      const budget: CellBudget = {
-        fixedDbm: g.fixedDbm,
-        sensitivityDbmBySf: g.sensitivityDbmBySf,
-        spreadingFactor: params.sf,
-        requiredMarginDb: params.requiredMarginDb,
-        locationSigmaDb: params.locationSigmaDb,
+      // The one budget per cell: a node with the run's kit at the cell centre, linked to this gateway.
+      const { widthPx: w, heightPx: h } = placement;
+      const sitePx = raster.lonLatToPixel(g.lon, g.lat);
+      const gatewayGroundM = sampleBilinear(terrain.elevationM, w, h, sitePx.x - placement.x0, sitePx.y - placement.y0);
+      const b = params.budget;
+      const budgetAt = (i: number, loss: number) => {
+        const col = i % w;
+        const row = (i - col) / w;
+        const cell = raster!.pixelToLonLat(placement.x0 + col + 0.5, placement.y0 + row + 0.5);
+        const bearings = bearingsBetween(cell.lat, cell.lon, g.lat, g.lon);
+        const clutterM = terrain.clutterHeightM ? terrain.clutterHeightM[i] : 0;
+        const budget = budgetAtPlace(
+          {
+            method: b.method,
+            basicLossDb: loss,
+            freeSpaceLossDb: freeSpaceLossDb(Math.max(bearings.distanceM, 1) / 1000, params.frequencyMhz),
+            distanceM: bearings.distanceM,
+            nodeGroundM: terrain.elevationM[i],
+            gatewayGroundM: gatewayGroundM === gatewayGroundM ? gatewayGroundM : terrain.elevationM[i],
+            nodeAntennaHeightAglM: b.nodeAntennaHeightAglM,
+            gatewayAntennaHeightAglM: g.heightAglM,
+            nodeAzimuthDeg: bearings.forwardAzimuthDeg,
+            gatewayAzimuthDeg: bearings.backAzimuthDeg,
+            deltaN: b.deltaN,
+            nodeClutterHeightM: clutterM === clutterM ? clutterM : 0,
+          },
+          b.nodeKit,
+          g.kit,
+          b.node,
+          g.radio,
+          radio,
+        );
+        return { rssiDbm: budget.rssiDbm, marginDb: budget.marginDb, bestSf: budget.bestSf, deliveryProbability: budget.deliveryProbability };
       };
-      const products = cellProducts(lossDb, budget);
+      const products = cellProducts(lossDb, budgetAt);
       parts.push({ gatewayIndex: index, x0: placement.x0 - union.x0, y0: placement.y0 - union.y0, widthPx: placement.widthPx, heightPx: placement.heightPx, products, lossDb });
+      let withTerrainKm2 = 0;
       for (let row = 0; row < placement.heightPx; row++) {
         for (let col = 0; col < placement.widthPx; col++) {
           if (lossDb[row * placement.widthPx + col] === lossDb[row * placement.widthPx + col]) {
             inside[(row + placement.y0 - union.y0) * union.widthPx + col + placement.x0 - union.x0] = 1;
+            withTerrainKm2 += cellArea(row + placement.y0 - union.y0);
           }
         }
       }
+      discShares.push(Math.min(1, withTerrainKm2 / ((Math.PI * radiusM * radiusM) / 1e6)));
       await reporting;
       if (controller.signal.aborted) throw new RunCancelledError();
     }
     const composite = buildComposite(union.widthPx, union.heightPx, parts, params.requiredMarginDb);
-    const geoTransform = windowGeoTransform(raster, union);
-    const res = raster.resolutionM;
     const nodes = params.nodes.map((node) => {
       const p = raster!.lonLatToPixel(node.lon, node.lat);
       const col = p.x - union.x0;
@@ -164,11 +226,10 @@ export async function executeCoverageRun(db: Database, config: Config, runId: st
       const ok = col >= 0 && row >= 0 && col < union.widthPx && row < union.heightPx;
       return { id: node.id, col: ok ? col : null, row: ok ? row : null };
     });
-    const cellArea = (row: number): number => {
-      if (raster!.crs.kind === 'projected') return (Math.abs(geoTransform[1] * geoTransform[5]) / 1e6);
-      const lat = raster!.pixelToLonLat(union.x0 + 0.5, union.y0 + row + 0.5).lat;
-      return (res.x * res.y * Math.cos((lat * Math.PI) / 180)) / Math.cos((((raster!.boundsLonLat.south + raster!.boundsLonLat.north) / 2) * Math.PI) / 180) / 1e6;
-    };
+    const outsideNodes = params.nodes.filter((node, k) => {
+      const p = nodes[k];
+      return p.col === null || p.row === null || !inside[Math.floor(p.row) * union.widthPx + Math.floor(p.col)];
+    });
     const summary = summarise(composite, inside, gatewayCount, params.requiredMarginDb, cellArea, nodes);
     const summaryJson = {
       ...summary,
@@ -176,6 +237,21 @@ export async function executeCoverageRun(db: Database, config: Config, runId: st
       mode: params.mode,
       radiusKm: params.radiusKm,
       sf: params.sf,
+      terrain: {
+        // Share of each gateway's disc that had terrain (the rest is NoData), and the nodes outside it.
+        discShare: Math.min(...discShares),
+        perGateway: params.gateways.map((gw, k) => ({ gatewayId: gw.id, discShare: discShares[k] })),
+        nodesOutside: outsideNodes.map((node) => ({ id: node.id, name: node.name ?? null })),
+        note:
+          Math.min(...discShares) < 0.999
+            ? `the ${params.radiusKm} km radius reaches past the terrain: ${(Math.min(...discShares) * 100).toFixed(0)} % of the disc had terrain, the rest is NoData; ${outsideNodes.length} node(s) lay outside it`
+            : `the whole ${params.radiusKm} km disc had terrain`,
+      },
+      budget: {
+        note: 'each cell: the margin a node with this kit would have there (the link budget of node links: kit, feedline, connectors, mismatch, antenna patterns toward the gateway, SF rule of the band plan, planning spread σ)',
+        allowedSfs: params.budget.radio.allowedSfs,
+        kFactor: params.kFactor,
+      },
       requiredMarginDb: params.requiredMarginDb,
       clutter: clutter
         ? {

@@ -169,7 +169,8 @@ export class LinkEngine {
   }
 
   /** Fingerprint of a node's inputs: the plan row's version/time plus one query over the rest. */
-  async frontKey(plan: PlanRow, nodeId: string, calibration: AppliedCalibration | null = null): Promise<string> {
+  async frontKey(plan: PlanRow, nodeId: string, given?: AppliedCalibration | null): Promise<string> {
+    const calibration = given !== undefined ? given : await this.appliedCalibration(plan.id);
     const rest = await nodeLinkFingerprint(this.db, plan.id, nodeId, plan.teamId);
     return `${LINK_ENGINE_VERSION}|${plan.version}|${plan.updatedAt.toISOString()}|${calibration ? hashOf(calibration) : '-'}|${rest}`;
   }

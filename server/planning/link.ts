@@ -11,7 +11,7 @@ import { environmentLoss, type EnvironmentSettings, type NodeEnvironment } from 
 import { combinedDeliveryProbability, deliveryProbability } from './probability.ts';
 import { planningSpread, type SigmaSource, type SpreadSettings } from './spread.ts';
 import { linkStatus, type LinkStatus, type ServiceTarget } from './status.ts';
-import type { PathPrediction } from './path.ts';
+import { pathAtPlace, type PathPrediction, type PlaceInput } from './path.ts';
 
 export type { LegalCheck };
 
@@ -182,6 +182,14 @@ export function linkBudget(path: PathPrediction, nodeKit: EndKit, gatewayKit: En
     legal: budget.legal,
     warnings: budget.warnings,
   };
+}
+
+/**
+ * A node link's budget at a place given by its loss and geometry (a coverage cell): the same
+ * linkBudget over pathAtPlace, so a cell's margin is a node link's marginDb there.
+ */
+export function budgetAtPlace(place: PlaceInput, nodeKit: EndKit, gatewayKit: EndKit, node: NodeRadio, gateway: GatewayRadio, settings: LinkRadioSettings): LinkBudget {
+  return linkBudget(pathAtPlace(place), nodeKit, gatewayKit, node, gateway, settings);
 }
 
 // ---------------------------------------------------------------------------

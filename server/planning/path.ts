@@ -113,29 +113,73 @@ export function predictPath(profile: PathProfile, settings: PathSettings, node: 
   };
   const result = predictPropagationPath(request, arrays);
   warnings.push(...result.warnings);
-  const nodeGroundM = profile.groundM[0];
-  const gatewayGroundM = profile.groundM[count - 1];
-  const earthFactor = medianEarthFactor(settings.deltaN);
-  const distanceM = Math.max(result.distanceKm * 1000, 1);
   const terms: Record<string, number> = {};
   for (const [key, value] of Object.entries(result.terms)) if (typeof value === 'number') terms[key] = value;
   return {
-    method: settings.method,
-    distanceM,
-    basicLossDb: result.basicLossDb,
-    freeSpaceLossDb: result.terms.freeSpaceDb,
-    excessLossDb: result.basicLossDb - result.terms.freeSpaceDb,
+    ...pathAtPlace({
+      method: settings.method,
+      basicLossDb: result.basicLossDb,
+      freeSpaceLossDb: result.terms.freeSpaceDb,
+      distanceM: result.distanceKm * 1000,
+      nodeGroundM: profile.groundM[0],
+      gatewayGroundM: profile.groundM[count - 1],
+      nodeAntennaHeightAglM: node.antennaHeightAglM,
+      gatewayAntennaHeightAglM: gateway.antennaHeightAglM,
+      nodeAzimuthDeg: bearings.forwardAzimuthDeg,
+      gatewayAzimuthDeg: bearings.backAzimuthDeg,
+      deltaN: settings.deltaN,
+      nodeClutterHeightM: profile.clutterHeightM ? profile.clutterHeightM[0] : 0,
+    }),
     lineOfSight: result.lineOfSight,
     fresnelClearanceRatio: result.fresnelClearanceRatio,
-    nodeGroundM,
-    gatewayGroundM,
-    nodeAntennaHeightAglM: node.antennaHeightAglM,
-    nodeClutterHeightM: profile.clutterHeightM ? profile.clutterHeightM[0] : 0,
-    nodeAzimuthDeg: bearings.forwardAzimuthDeg,
-    gatewayAzimuthDeg: bearings.backAzimuthDeg,
-    nodeElevationDeg: pathElevationDeg(nodeGroundM + nodeHeightM, gatewayGroundM + gatewayHeightM, distanceM, earthFactor),
-    gatewayElevationDeg: pathElevationDeg(gatewayGroundM + gatewayHeightM, nodeGroundM + nodeHeightM, distanceM, earthFactor),
     terms,
     warnings,
+  };
+}
+
+export interface PlaceInput {
+  method: PropagationMethodId;
+  basicLossDb: number;
+  freeSpaceLossDb: number;
+  distanceM: number;
+  nodeGroundM: number;
+  gatewayGroundM: number;
+  nodeAntennaHeightAglM: number;
+  gatewayAntennaHeightAglM: number;
+  nodeAzimuthDeg: number;
+  gatewayAzimuthDeg: number;
+  deltaN: number;
+  nodeClutterHeightM: number;
+}
+
+/**
+ * The path as the link budget sees it, from a loss and the geometry of the two ends: what
+ * predictPath returns for a profile, and what a coverage cell is (loss from the area sweep,
+ * geometry of the cell), so both go through the same budget. Elevations over the effective
+ * earth of k50 from ΔN (P.1812-8 Eq. (5)), antenna heights clamped as for the path methods.
+ */
+export function pathAtPlace(input: PlaceInput): PathPrediction {
+  const nodeHeightM = Math.max(input.nodeAntennaHeightAglM, MIN_PATH_ANTENNA_HEIGHT_M);
+  const gatewayHeightM = Math.max(input.gatewayAntennaHeightAglM, MIN_PATH_ANTENNA_HEIGHT_M);
+  const earthFactor = medianEarthFactor(input.deltaN);
+  const distanceM = Math.max(input.distanceM, 1);
+  return {
+    method: input.method,
+    distanceM,
+    basicLossDb: input.basicLossDb,
+    freeSpaceLossDb: input.freeSpaceLossDb,
+    excessLossDb: input.basicLossDb - input.freeSpaceLossDb,
+    lineOfSight: false,
+    fresnelClearanceRatio: Number.NaN,
+    nodeGroundM: input.nodeGroundM,
+    gatewayGroundM: input.gatewayGroundM,
+    nodeAntennaHeightAglM: input.nodeAntennaHeightAglM,
+    nodeClutterHeightM: input.nodeClutterHeightM,
+    nodeAzimuthDeg: input.nodeAzimuthDeg,
+    gatewayAzimuthDeg: input.gatewayAzimuthDeg,
+    nodeElevationDeg: pathElevationDeg(input.nodeGroundM + nodeHeightM, input.gatewayGroundM + gatewayHeightM, distanceM, earthFactor),
+    gatewayElevationDeg: pathElevationDeg(input.gatewayGroundM + gatewayHeightM, input.nodeGroundM + nodeHeightM, distanceM, earthFactor),
+    terms: {},
+    warnings: [],
   };
 }

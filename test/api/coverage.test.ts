@@ -226,11 +226,23 @@ describeEngines('coverage API', (engine) => {
     expect(legend.body.classes).toHaveLength(MARGIN_CLASSES.length);
   });
 
-  it('refuses a radius beyond the terrain, a gateway outside it and a grid above the cell ceiling, with clear 4xx', async () => {
-    const far = await http.post(`/api/v1/plans/${planId}/coverage`).set(as('planner')).send({ radiusKm: 20 });
-    expect(far.status).toBe(422);
-    expect(far.body.error.code).toBe('radius_beyond_terrain');
-    expect(far.body.error.message).toMatch(/km/);
+  it('a radius past the terrain is clipped: the run succeeds, cells without terrain are NoData, the summary gives the share of the disc with terrain', async () => {
+    // The DEM is 9 km square around a mast at its centre: a 6 km disc reaches 1.5 km past every edge.
+    const far = await http.post(`/api/v1/plans/${planId}/coverage`).set(as('planner')).send({ radiusKm: 6, mode: 'fast', gatewayIds: [gatewayId] });
+    expect(far.status, JSON.stringify(far.body)).toBe(202);
+    const done = await waitFor(far.body.id, ['done', 'failed']);
+    expect(done.status, done.error).toBe('done');
+    // Disc of 6 km (113.1 km²) on a 9 km square centred on it: minus four circle segments beyond the edges,
+    // each r²·acos(d/r) − d·√(r² − d²) = 36·acos(0.75) − 4.5·√15.75 = 8.16 km² → 80.5 km², a share of 0.71.
+    expect(done.summary.terrain.discShare).toBeGreaterThan(0.66);
+    expect(done.summary.terrain.discShare).toBeLessThan(0.76);
+    expect(done.summary.terrain.note).toMatch(/reaches past the terrain/);
+    const raster = await openGeoRaster(join(resultDir(t.config, far.body.id), 'margin.tif'));
+    expect(raster.widthPx).toBeLessThanOrEqual(SIZE);
+    await raster.close();
+  });
+
+  it('refuses a gateway outside the terrain and a grid above the cell ceiling, with clear 4xx', async () => {
     const before = process.env.EARSHOT_MAX_COVERAGE_CELLS;
     process.env.EARSHOT_MAX_COVERAGE_CELLS = '1000';
     try {

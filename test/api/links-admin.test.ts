@@ -11,7 +11,7 @@ import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { buildApp } from '../../server/api/app.ts';
 import { LinkEngine } from '../../server/jobs/link-engine.ts';
-import { linkReport, recommendReport } from '../../server/api/routes/links.ts';
+import { linkReport, recommendReport } from '../../server/app/links.ts';
 import { runLinkOperation } from '../../server/cli/links.ts';
 import { bearer, createTestApp, type TestApp } from '../helpers/test-app.ts';
 

@@ -575,6 +575,8 @@ export interface CoverageSummary {
   nodes: { total: number; served: number; marginal: number; unserved: number; outside: number };
   /** Per gateway: cells and nodes for which it is the best server. */
   gateways: Array<{ index: number; bestServerCells: number; nodes: number; gatewayId: string; name: string }>;
+  /** Share of the disc that had terrain (the rest is NoData) and the nodes outside it. */
+  terrain?: { discShare: number; note: string; nodesOutside: Array<{ id: string; name: string | null }> };
 }
 export interface CoverageRun {
   id: string;
@@ -597,7 +599,9 @@ export interface CoverageRequest {
   gatewayIds?: string[];
   mode?: 'fast' | 'full';
   radiusKm: number;
-  targetHeightM?: number;
+  /** The node kit of every cell: the same fields and rules as a node. */
+  nodeKit?: { antennaDesignId: string; antennaHeightAglM: number; txPowerDbm: number; feedlineId?: string | null; feedlineLengthM?: number; environment?: 'outdoor' | 'indoor' | 'pit' };
+  /** A fixed SF for every cell; absent: the node SF rule. */
   sf?: number;
   requiredMarginDb?: number;
 }
@@ -644,5 +648,28 @@ export interface ClientSettings {
   /** Band plans and propagation methods a plan may use (what PATCH /plans/:id accepts). */
   bandPlans: Array<{ id: string; name: string }>;
   propagationMethods: string[];
+  /** The valid range of each physical input (server/api/schemas.ts FIELD_RANGES). */
+  ranges?: FieldRanges;
 }
+export interface FieldRange {
+  min: number;
+  max: number;
+  unit: string;
+  step: number;
+  note: string;
+}
+export type FieldRanges = Record<
+  | 'nodeAntennaHeightAglM'
+  | 'gatewayAntennaHeightAglM'
+  | 'nodeTxPowerDbm'
+  | 'gatewayTxPowerDbm'
+  | 'nodeFeedlineLengthM'
+  | 'gatewayFeedlineLengthM'
+  | 'targetMarginDb'
+  | 'sigmaDb'
+  | 'noiseFigureDb'
+  | 'coverageRadiusKm'
+  | 'payloadBytes',
+  FieldRange
+>;
 export const getClientSettings = (): Promise<ClientSettings> => request<ClientSettings>('GET', '/client-settings');

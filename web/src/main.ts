@@ -1,5 +1,6 @@
 // earshot front end: a hash router over a few views. Hash routes keep the
 // server side trivial (web/dist served as static files at /).
+import { loadFieldRanges } from './ranges.ts';
 import 'leaflet/dist/leaflet.css';
 import './styles.css';
 import './styles-field.css';
@@ -93,6 +94,8 @@ async function render(): Promise<void> {
     });
     return;
   }
+  // Every form reads the server's field ranges (GET /client-settings) before it is drawn.
+  await loadFieldRanges();
   const main = h('main', { id: 'main', tabindex: '-1', class: `view-${route.name}` });
   app.append(shell(route), main);
   try {

@@ -9,6 +9,7 @@ import { decodeCursor, encodeCursor } from '../../db/repositories/pagination.ts'
 import { CALIBRATION_GROUPINGS } from '../../calibration/fit.ts';
 import { requireRole } from '../auth.ts';
 import { ApiError } from '../errors.ts';
+import { STATUS_OF_KIND } from '../errors.ts';
 import { ImportFormatError, importRecords, validateRecords, type ImportFormat } from '../node-import.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
 import { errorResponses, finite, id, latitude, longitude, pageQuery, planParams } from '../schemas.ts';
@@ -135,7 +136,7 @@ const calibrationResponse = z.object({
   });
 
 function mapError(error: unknown): never {
-  if (error instanceof CalibrationError) throw new ApiError(error.statusCode, error.code, error.message, error.extra);
+  if (error instanceof CalibrationError) throw new ApiError(STATUS_OF_KIND[error.kind], error.code, error.message, error.extra);
   return asApiError(error);
 }
 

@@ -2,13 +2,15 @@
 // configuration: the optional online base layer (EARSHOT_BASE_LAYER_URL,
 // config.onlineBaseLayerUrl; null unless configured, so the map stays offline by default),
 // and the choices the plan settings editor offers (band plans, propagation methods: the
-// same lists PATCH /plans/:id and the link engine accept).
+// same lists PATCH /plans/:id and the link engine accept), and the valid range of every
+// physical input (FIELD_RANGES: the rules the routes apply), which every UI form reads.
 // Every signed-in role may read it (the auth hook refuses anonymous callers with 401).
 import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { bandPlans } from '../../radio/band-plans.ts';
 import { PROPAGATION_METHODS } from '../../planning/path.ts';
+import { FIELD_RANGES } from '../schemas.ts';
 
 export const clientSettingsResponse = z.object({
   onlineBaseLayer: z
@@ -20,6 +22,9 @@ export const clientSettingsResponse = z.object({
     .nullable(),
   bandPlans: z.array(z.object({ id: z.string(), name: z.string() })).describe('band plans a plan may use (bandPlanId)'),
   propagationMethods: z.array(z.string()).describe('propagation method ids a plan may use (propagationMethod)'),
+  ranges: z
+    .record(z.string(), z.object({ min: z.number(), max: z.number(), unit: z.string(), step: z.number(), note: z.string() }))
+    .describe('the valid range of each physical input, the same rules every route applies (server/api/schemas.ts FIELD_RANGES)'),
 });
 export type ClientSettings = z.infer<typeof clientSettingsResponse>;
 
@@ -41,6 +46,7 @@ export default async function clientSettingsRoutes(app: FastifyInstance): Promis
         onlineBaseLayer: urlTemplate ? { urlTemplate } : null,
         bandPlans: bandPlans.map((plan) => ({ id: plan.id, name: plan.name })),
         propagationMethods: [...PROPAGATION_METHODS],
+        ranges: FIELD_RANGES,
       };
     },
   );

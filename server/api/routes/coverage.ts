@@ -9,26 +9,17 @@ import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { writeWithAudit } from '../../db/repositories/audit.ts';
 import { cancelCoverageRun, createCoverageRun, findCoverageRun, listCoverageRuns, type CoverageRunRow } from '../../db/repositories/coverage-runs.ts';
-import { listGateways, type GatewayRow } from '../../db/repositories/gateways.ts';
-import { listNodes } from '../../db/repositories/nodes.ts';
-import { allTerrainLayers } from '../../db/repositories/terrain-layers.ts';
-import { findAntennaDesignForTeam, findFeedlineForTeam } from '../../db/repositories/kit.ts';
-import { resolveLinkSettings } from '../../planning/settings.ts';
-import { planningSpread } from '../../planning/spread.ts';
-import { appliedCalibrationFigures } from '../../app/calibration.ts';
-import { sensitivityDbm } from '../../radio/lora-phy.ts';
-import { feedlineLossDb } from '../../radio/feedlines.ts';
 import { openGeoRaster, type GeoRaster } from '../../terrain/raster.ts';
-import { CLUTTER_CLASSES, clutterHeightsByIndex, type ClutterClass } from '../../terrain/clutter.ts';
-import { CoverageInputError, windowFor } from '../../coverage/terrain-window.ts';
+import { maxCoverageCells, resolveCoverageRequest } from '../../app/coverage.ts';
 import { legend, renderMarginTile } from '../../coverage/tiles.ts';
 import { createCoverageJobs, type CoverageJobs } from '../../jobs/runner.ts';
-import { resolveFilePath, resultDir, RESULT_FILES, type CoverageJobParams } from '../../jobs/coverage-job.ts';
+import { resultDir, RESULT_FILES, type CoverageJobParams } from '../../jobs/coverage-job.ts';
 import { requireRole } from '../auth.ts';
-import { ApiError } from '../errors.ts';
+import { ApiError, apiErrorOf } from '../errors.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
 import { streamRunProgress } from '../run-events.ts';
-import { dateTime, errorResponses, finite, id, pageOf, pageQuery, planParams } from '../schemas.ts';
+import { appliedCalibrationFigures } from '../../app/calibration.ts';
+import { coverageRadiusKm, dateTime, errorResponses, id, nodeAntennaHeightAglM, nodeEnvironment, nodeFeedlineLengthM, nodeTxPowerDbm, pageOf, pageQuery, payloadBytes, planParams, targetMarginDb } from '../schemas.ts';
 
 const runParams = z.strictObject({ planId: id(), runId: id() });
 const tileParams = z.strictObject({
@@ -39,26 +30,31 @@ const tileParams = z.strictObject({
   y: z.string().regex(/^\d+\.png$/, 'must be <y>.png'),
 });
 
+/** The kit a coverage map is drawn for: the same names and rules as a node's (server/api/schemas.ts builders). */
+export const coverageNodeKit = z.strictObject({
+  antennaDesignId: id().optional(),
+  antennaHeightAglM: nodeAntennaHeightAglM().optional(),
+  txPowerDbm: nodeTxPowerDbm().optional(),
+  feedlineId: id().nullable().optional(),
+  feedlineLengthM: nodeFeedlineLengthM().optional(),
+  environment: nodeEnvironment().optional(),
+  payloadBytes: payloadBytes().optional(),
+});
+
 export const coverageBody = z.strictObject({
   gatewayIds: z.array(id()).min(1, 'must list at least one gateway').max(100, 'at most 100 gateways').optional(),
   mode: z.enum(['fast', 'full'], { error: 'must be fast or full (los is a command-line mode: visibility has no margin)' }).optional(),
-  radiusKm: finite().positive('must be > 0 km').max(100, 'must be ≤ 100 km'),
-  targetHeightM: finite().min(0, 'must be ≥ 0 m').max(100, 'must be ≤ 100 m').optional(),
+  radiusKm: coverageRadiusKm(),
+  /** The node kit of every cell (defaults: a node's defaults). */
+  nodeKit: coverageNodeKit.optional(),
+  /** A fixed SF for every cell (default: the node SF rule, fastest allowed SF meeting the target). */
   sf: z.number().int('must be a whole number').min(7, 'must be 7–12').max(12, 'must be 7–12').optional(),
-  requiredMarginDb: finite().min(-20, 'must be ≥ -20 dB').max(60, 'must be ≤ 60 dB').optional(),
-  kFactor: finite().min(0.3, 'must be ≥ 0.3').max(100, 'must be ≤ 100').optional(),
-  nodeTxPowerDbm: finite().min(-10, 'must be ≥ -10 dBm').max(30, 'must be ≤ 30 dBm').optional(),
-  nodeAntennaGainDbi: finite().min(-20, 'must be ≥ -20 dBi').max(20, 'must be ≤ 20 dBi').optional(),
-  nodeLossDb: finite().min(0, 'must be ≥ 0 dB').max(30, 'must be ≤ 30 dB').optional(),
+  requiredMarginDb: targetMarginDb().optional(),
   /** Use the plan's clutter layer when it has one (default true). */
   useClutter: z.boolean({ error: 'must be true or false' }).optional(),
 });
 
-/** Ceiling on the cells of one run's grid (EARSHOT_MAX_COVERAGE_CELLS, default 25 million). */
-export function maxCoverageCells(env: NodeJS.ProcessEnv = process.env): number {
-  const value = Number(env.EARSHOT_MAX_COVERAGE_CELLS ?? 25_000_000);
-  return Number.isFinite(value) && value > 0 ? value : 25_000_000;
-}
+export { maxCoverageCells };
 
 /** A coverage run as the API answers it (runView). */
 export const coverageRunResponse = z
@@ -87,15 +83,6 @@ const legendResponse = z.object({
   note: z.string(),
 });
 
-/** A terrain layer's raster, or null when its file cannot be read (the layer is passed over). */
-async function openReadableRaster(path: string): Promise<GeoRaster | null> {
-  try {
-    return await openGeoRaster(path);
-  } catch {
-    return null;
-  }
-}
-
 function runView(run: CoverageRunRow) {
   const params = (run.params ?? {}) as Partial<CoverageJobParams>;
   return {
@@ -115,17 +102,6 @@ function runView(run: CoverageRunRow) {
     startedAt: run.startedAt?.toISOString() ?? null,
     finishedAt: run.finishedAt?.toISOString() ?? null,
   };
-}
-
-async function allPages<T>(fetch: (cursor: string | undefined) => Promise<{ items: T[]; next: string | null }>): Promise<T[]> {
-  const out: T[] = [];
-  let cursor: string | undefined;
-  for (;;) {
-    const page = await fetch(cursor);
-    out.push(...page.items);
-    if (!page.next) return out;
-    cursor = page.next;
-  }
 }
 
 export default async function coverageRoutes(app: FastifyInstance): Promise<void> {
@@ -177,124 +153,12 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
     async (request, reply) => {
       const principal = requireRole(request, 'planner');
       const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
-      const body = request.body;
       // An applied calibration (server/app/calibration.ts) shifts every cell by its bias and gives the spread.
       const calibration = await appliedCalibrationFigures(db, plan.id);
-      const settings = resolveLinkSettings(plan, { calibration });
-      const planGateways = await allPages<GatewayRow>((cursor) => listGateways(db, plan.id, { limit: 1000, cursor }));
-      let gateways = planGateways;
-      if (body.gatewayIds) {
-        const byId = new Map(planGateways.map((g) => [g.id, g]));
-        const missing = body.gatewayIds.filter((gid) => !byId.has(gid));
-        if (missing.length > 0) throw new ApiError(400, 'invalid_input', `gatewayIds: no gateway "${missing[0]}" in this plan`);
-        gateways = body.gatewayIds.map((gid) => byId.get(gid)!);
-      }
-      if (gateways.length === 0) throw new ApiError(422, 'no_gateways', 'the plan has no gateways to compute coverage for');
-      const allLayers = await allTerrainLayers(db, plan.id);
-      const layers = allLayers.filter((layer) => layer.kind === 'elevation');
-      if (layers.length === 0) throw new ApiError(422, 'no_terrain', 'the plan has no elevation terrain layer; upload a DEM first');
-      const radiusM = body.radiusKm * 1000;
-      const maxCells = maxCoverageCells();
-      // The finest elevation layer that holds every gateway's circle.
-      let chosen: { layer: (typeof layers)[number]; path: string } | null = null;
-      let firstProblem: CoverageInputError | null = null;
-      for (const layer of layers) {
-        const path = resolveFilePath(config, layer.filePath);
-        const raster = await openReadableRaster(path);
-        if (!raster) continue;
-        try {
-          let cells = 0;
-          for (const g of gateways) {
-            const w = windowFor(raster, { lat: g.lat, lon: g.lon, radiusM, maxCells });
-            cells += w.widthPx * w.heightPx;
-          }
-          if (cells > maxCells * 4) throw new CoverageInputError('too_many_cells', `the run would compute ${cells} cells, above the ceiling of ${maxCells * 4}; use fewer gateways or a smaller radius`);
-          chosen = { layer, path };
-          break;
-        } catch (error) {
-          if (!(error instanceof CoverageInputError)) throw error;
-          // A gateway outside a layer is the most useful message to keep; else the first problem.
-          if (!firstProblem || error.code === 'site_outside_terrain') firstProblem = error;
-        } finally {
-          await raster.close();
-        }
-      }
-      if (!chosen) {
-        const problem = firstProblem ?? new CoverageInputError('site_outside_terrain', 'no elevation layer of the plan can be read');
-        const status = problem.code === 'too_many_cells' ? 413 : 422;
-        throw new ApiError(status, problem.code, problem.message);
-      }
-      // The finest clutter layer under every gateway (earshot's class codes, like link checks); heights: P.1812 defaults + plan overrides.
-      let clutter: CoverageJobParams['clutter'] = null;
-      if (body.useClutter !== false) {
-        const raw = plan.settings && typeof plan.settings === 'object' && !Array.isArray(plan.settings) ? (plan.settings as Record<string, unknown>) : {};
-        const overrides: Partial<Record<ClutterClass, number>> = {};
-        if (raw.clutterHeightsM && typeof raw.clutterHeightsM === 'object') {
-          for (const [name, value] of Object.entries(raw.clutterHeightsM as Record<string, unknown>)) {
-            if ((CLUTTER_CLASSES as readonly string[]).includes(name) && typeof value === 'number') overrides[name as ClutterClass] = value;
-          }
-        }
-        let heightByClassM: number[];
-        try {
-          heightByClassM = Array.from(clutterHeightsByIndex(overrides));
-        } catch (error) {
-          throw new ApiError(422, 'invalid_clutter_heights', `plan settings clutterHeightsM: ${(error as Error).message}`);
-        }
-        for (const layer of allLayers.filter((l) => l.kind === 'clutter')) {
-          const path = resolveFilePath(config, layer.filePath);
-          const raster = await openReadableRaster(path);
-          if (!raster) continue;
-          try {
-            const covers = gateways.every((g) => {
-              const p = raster.lonLatToPixel(g.lon, g.lat);
-              return p.x >= 0 && p.y >= 0 && p.x < raster.widthPx && p.y < raster.heightPx;
-            });
-            if (covers) {
-              clutter = { layerId: layer.id, name: layer.name, path, codes: 'earshot', heightByClassM };
-              break;
-            }
-          } finally {
-            await raster.close();
-          }
-        }
-      }
-      const nodeTxPowerDbm = body.nodeTxPowerDbm ?? 14;
-      const nodeAntennaGainDbi = body.nodeAntennaGainDbi ?? 2.15;
-      const nodeLossDb = body.nodeLossDb ?? 0;
-      const sfs = [7, 8, 9, 10, 11, 12];
-      const jobGateways: CoverageJobParams['gateways'] = [];
-      for (const g of gateways) {
-        const antenna = await findAntennaDesignForTeam(db, principal.teamId, g.antennaDesignId);
-        const feedline = await findFeedlineForTeam(db, principal.teamId, g.feedlineId);
-        const gatewayLossDb = feedlineLossDb(feedline, settings.frequencyMhz, g.feedlineLengthM);
-        jobGateways.push({
-          id: g.id,
-          name: g.name,
-          lat: g.lat,
-          lon: g.lon,
-          heightAglM: g.antennaHeightAglM,
-          // Uplink budget: node EIRP + gateway antenna gain − gateway feedline (the path is reciprocal).
-          fixedDbm: nodeTxPowerDbm + nodeAntennaGainDbi - nodeLossDb + antenna.gainDbi - gatewayLossDb + (calibration?.biasDb ?? 0),
-          sensitivityDbmBySf: sfs.map((sf) => sensitivityDbm(sf, settings.bandwidthKhz, g.noiseFigureDb)),
-        });
-      }
-      const nodes = await allPages<{ id: string; lat: number; lon: number }>((cursor) => listNodes(db, plan.id, { limit: 1000, cursor }));
-      const params: CoverageJobParams = {
-        mode: body.mode ?? 'fast',
-        radiusKm: body.radiusKm,
-        targetHeightM: body.targetHeightM ?? 1.5,
-        sf: body.sf ?? 10,
-        requiredMarginDb: body.requiredMarginDb ?? settings.targetMarginDb,
-        frequencyMhz: settings.frequencyMhz,
-        kFactor: body.kFactor ?? 4 / 3,
-        // The one planning spread (server/planning/spread.ts) for a node at the target height in the open.
-        locationSigmaDb: planningSpread({ ...settings.spread, frequencyMhz: settings.frequencyMhz, nodeAntennaHeightAglM: body.targetHeightM ?? 1.5, nodeClutterHeightM: 0 }).sigmaDb,
-        terrainPath: chosen.path,
-        terrainLayerId: chosen.layer.id,
-        clutter,
-        gateways: jobGateways,
-        nodes: nodes.map((n) => ({ id: n.id, lat: n.lat, lon: n.lon })),
-      };
+      const params = await resolveCoverageRequest(app.linkEngine, config, plan, request.body, calibration).catch((error: unknown) => {
+        throw apiErrorOf(error) ?? error;
+      });
+      const gateways = params.gateways;
       const run = await writeWithAudit(
         db,
         (tx) => createCoverageRun(tx, plan.id, { gatewayIds: gateways.map((g) => g.id), params, createdById: principal.userId }),

@@ -9,7 +9,7 @@ import { requireRole } from '../auth.ts';
 import { ApiError } from '../errors.ts';
 import { assertKitVisible } from '../kit-check.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
-import { dateTime, finite, id, latitude, longitude, name, nonNegative, notes, pageOf, pageQuery, planItemParams, planParams, version } from '../schemas.ts';
+import { dateTime, finite, gatewayAntennaHeightAglM, gatewayFeedlineLengthM, gatewayTxPowerDbm, id, latitude, longitude, name, noiseFigureDb, notes, pageOf, pageQuery, planItemParams, planParams, version } from '../schemas.ts';
 
 import { DEFAULT_GATEWAY_ANTENNA_ID as defaultGatewayAntennaId, DEFAULT_GATEWAY_FEEDLINE_ID as defaultGatewayFeedlineId } from '../../planning/gateway-kit.ts';
 
@@ -21,7 +21,7 @@ const gatewayFields = {
   lat: latitude().optional(),
   lon: longitude().optional(),
   antennaDesignId: id().optional(),
-  antennaHeightAglM: nonNegative().max(500, 'must be ≤ 500 m').optional(),
+  antennaHeightAglM: gatewayAntennaHeightAglM().optional(),
   antennaAzimuthDeg: finite()
     .min(0, 'must be ≥ 0° (degrees clockwise from true north)')
     .lt(360, 'must be < 360° (degrees clockwise from true north)')
@@ -29,10 +29,10 @@ const gatewayFields = {
     .optional()
     .describe('where a directional gateway antenna points, degrees clockwise from true north; null or absent = omni, or a directional antenna aimed at each node'),
   feedlineId: id().optional(),
-  feedlineLengthM: nonNegative().max(1000, 'must be ≤ 1000 m').optional(),
+  feedlineLengthM: gatewayFeedlineLengthM().optional(),
   mastOptionId: id().nullable().optional(),
-  noiseFigureDb: finite().min(0, 'must be ≥ 0 dB').max(20, 'must be ≤ 20 dB').optional(),
-  txPowerDbm: finite().min(-10, 'must be ≥ -10 dBm').max(36, 'must be ≤ 36 dBm').optional(),
+  noiseFigureDb: noiseFigureDb().optional(),
+  txPowerDbm: gatewayTxPowerDbm().optional(),
   notes: notes().optional(),
 };
 /** A gateway as the API answers it (loose: later columns pass through). */

@@ -9,7 +9,7 @@ import { STATUS_WORDS } from '../../planning/status.ts';
 import { ApiError } from '../errors.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
 import { errorResponses, id, nonNegative, planParams } from '../schemas.ts';
-import { loadCatalog } from './recommend.ts';
+import { loadCatalog } from '../../app/recommend.ts';
 
 const priceLine = z.object({ part: z.enum(['antenna', 'feedline', 'connectors', 'mast']), name: z.string(), quantity: z.number(), unit: z.enum(['each', 'm']), costUsd: z.number() });
 const kitPriceResponse = z.object({ lines: z.array(priceLine), totalUsd: z.number(), unpriced: z.array(z.string()), mastName: z.string().nullable(), mastOptionId: z.string().nullable() });

@@ -13,7 +13,7 @@ import { ApiError } from '../errors.ts';
 import { assertKitVisible } from '../kit-check.ts';
 import { ImportFormatError, importRecords, validateRecords, type RowError } from '../node-import.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
-import { dateTime, errorResponses, finite, id, latitude, longitude, name, nonNegative, notes, pageOf, pageQuery, planItemParams, planParams, version } from '../schemas.ts';
+import { dateTime, errorResponses, finite, id, latitude, longitude, name, nodeAntennaHeightAglM, nodeEnvironment, nodeFeedlineLengthM, nodeTxPowerDbm, notes, pageOf, pageQuery, payloadBytes, planItemParams, planParams, version } from '../schemas.ts';
 import { findAntennaDesignRow, findFeedlineRow, findMastRow } from '../../db/repositories/kit.ts';
 
 export const defaultNodeAntennaId = 'helical-stub';
@@ -41,16 +41,16 @@ const nodeFields = {
   lon: longitude(),
   deviceType: name(),
   antennaDesignId: id().optional(),
-  antennaHeightAglM: finite().min(-10, 'must be ≥ -10 m (pits are below ground)').max(200, 'must be ≤ 200 m').optional(),
+  antennaHeightAglM: nodeAntennaHeightAglM().optional(),
   feedlineId: id().nullable().optional(),
-  feedlineLengthM: nonNegative().max(500, 'must be ≤ 500 m').optional(),
+  feedlineLengthM: nodeFeedlineLengthM().optional(),
   mastOptionId: id().nullable().optional(),
-  txPowerDbm: finite().min(-10, 'must be ≥ -10 dBm').max(30, 'must be ≤ 30 dBm').optional(),
+  txPowerDbm: nodeTxPowerDbm().optional(),
   sfPolicy: z.enum(['adaptive', 'fixed'], { error: 'must be adaptive or fixed' }).optional(),
   fixedSf: z.number({ error: 'must be a number' }).int('must be a whole number').min(5, 'must be 5-12').max(12, 'must be 5-12').nullable().optional(),
-  payloadBytes: z.number({ error: 'must be a number' }).int('must be a whole number').min(1, 'must be 1-255').max(255, 'must be 1-255').optional(),
+  payloadBytes: payloadBytes().optional(),
   messagesPerHour: finite().positive('must be > 0').max(3600, 'must be ≤ 3600').optional(),
-  environment: z.enum(['outdoor', 'indoor', 'pit'], { error: 'must be outdoor, indoor or pit' }).optional(),
+  environment: nodeEnvironment().optional(),
   buildingType: z.string().max(100).nullable().optional(),
   installStatus: z.enum(installStatuses, { error: 'must be planned, installed or needs-visit' }).optional(),
   notes: notes().optional(),

@@ -13,7 +13,7 @@ import type { PlanFiles } from '../../db/repositories/plans.ts';
 import type { JsonValue } from '../../db/types.ts';
 import { requireRole } from '../auth.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
-import { dateTime, errorResponses, finite, jsonObject, name, notes, pageOf, pageQuery, planParams, version } from '../schemas.ts';
+import { dateTime, errorResponses, jsonObject, name, notes, pageOf, pageQuery, planParams, sigmaDb, targetMarginDb, version } from '../schemas.ts';
 
 const bandPlanIds = bandPlans.map((plan) => plan.id) as [string, ...string[]];
 
@@ -21,9 +21,9 @@ const planFields = {
   name: name(),
   description: notes().optional(),
   bandPlanId: z.enum(bandPlanIds, { error: `must be one of ${bandPlanIds.join(', ')}` }).optional(),
-  targetMarginDb: finite().min(-20, 'must be ≥ -20 dB').max(60, 'must be ≤ 60 dB').optional(),
-  locationSigmaDb: finite().min(0, 'must be ≥ 0 dB').max(30, 'must be ≤ 30 dB').nullable().optional(),
-  modelSigmaDb: finite().min(0, 'must be ≥ 0 dB').max(30, 'must be ≤ 30 dB').nullable().optional(),
+  targetMarginDb: targetMarginDb().optional(),
+  locationSigmaDb: sigmaDb().nullable().optional(),
+  modelSigmaDb: sigmaDb().nullable().optional(),
   propagationMethod: z.string().regex(/^[a-z0-9-]{1,40}$/, 'must be a method id such as p1812').optional(),
   settings: jsonObject.optional(),
 };

@@ -5,33 +5,51 @@ import { makeGridFrame } from '../../../server/coverage/geometry.ts';
 import { predictArea } from '../../../server/coverage/area.ts';
 import { freeSpaceLossDb } from '../../../server/propagation/free-space.ts';
 import { sensitivityDbm } from '../../../server/radio/lora-phy.ts';
+import { findBandPlan } from '../../../server/radio/band-plans.ts';
+import { budgetAtPlace, type EndKit, type LinkRadioSettings, type NodeRadio } from '../../../server/planning/link.ts';
+import { DEFAULT_ENVIRONMENT_SETTINGS } from '../../../server/planning/environment.ts';
+import { standardNormalCdf } from '../../../server/planning/probability.ts';
 
 const sens = [7, 8, 9, 10, 11, 12].map((sf) => sensitivityDbm(sf, 125, 6));
-const budget = { fixedDbm: 14 + 2.15 + 6 - 1, sensitivityDbmBySf: sens, spreadingFactor: 10, requiredMarginDb: 10, locationSigmaDb: 6 };
+const flat = { kind: 'omni' as const, elevation: { angleDeg: [-90, 90], relativeDb: [0, 0] } };
+const iso: EndKit = { antenna: { id: 'iso', gainDbi: 0, pattern: flat, typicalVswr: 1 }, boresightAzimuthDeg: null, feedline: null, feedlineLengthM: 0, connectors: [] };
+const node: NodeRadio = { txPowerDbm: 14, phyPayloadBytes: 12, sfPolicy: 'adaptive', fixedSf: null, environment: 'outdoor' };
+const radio: LinkRadioSettings = {
+  frequencyMhz: 915, bandwidthKhz: 125, codingRate: '4/5', preambleSymbols: 8, allowedSfs: [7, 8, 9, 10, 11, 12], bandPlan: findBandPlan('us-902-928'), targetMarginDb: 10,
+  spread: { locationWidthM: 100, planLocationSigmaDb: 0, planModelSigmaDb: 6, calibration: null }, environment: DEFAULT_ENVIRONMENT_SETTINGS,
+};
+/** The one link budget at a 5 km place on flat ground (isotropic ends, 14 dBm, no feedline): RSSI = 14 − loss. */
+const budgetAt = (_i: number, loss: number) => {
+  const place = { method: 'p1812' as const, basicLossDb: loss, freeSpaceLossDb: 105.7, distanceM: 5000, nodeGroundM: 0, gatewayGroundM: 0, nodeAntennaHeightAglM: 2, gatewayAntennaHeightAglM: 30, nodeAzimuthDeg: 0, gatewayAzimuthDeg: 180, deltaN: 45, nodeClutterHeightM: 0 };
+  const b = budgetAtPlace(place, iso, iso, node, { noiseFigureDb: 6 }, radio);
+  return { rssiDbm: b.rssiDbm, marginDb: b.marginDb, bestSf: b.bestSf, deliveryProbability: b.deliveryProbability };
+};
 
-describe('cell products (link budget per cell)', () => {
-  it('power = fixed − loss; margin at the chosen SF; best SF is the lowest meeting the required margin; P = Φ(margin/σ)', () => {
-    const loss = new Float32Array([100, 140, 160, Number.NaN]);
-    const p = cellProducts(loss, budget);
-    expect(p.powerDbm[0]).toBeCloseTo(budget.fixedDbm - 100, 4);
-    expect(p.marginDb[1]).toBeCloseTo(budget.fixedDbm - 140 - sens[3], 4);
-    // 100 dB: SF7 already has ≥ 10 dB margin.
+describe('cell products (the link budget per cell)', () => {
+  it('power = 14 dBm − loss; margin = a node link\'s marginDb (fastest SF meeting 10 dB, else the most robust); P = Φ(margin/σ)', () => {
+    const loss = new Float32Array([100, 130, 160, Number.NaN]);
+    const p = cellProducts(loss, budgetAt);
+    expect(p.powerDbm[0]).toBeCloseTo(14 - 100, 4);
+    // 100 dB: SF7 already has ≥ 10 dB margin, and the margin is SF7's.
     expect(p.bestSf[0]).toBe(7);
-    // The best SF's margin meets the target and the next lower SF's does not.
-    const power1 = budget.fixedDbm - 140;
+    expect(p.marginDb[0]).toBeCloseTo(14 - 100 - sens[0], 3);
+    // 130 dB: the best SF meets the target and the next faster SF does not; its margin is the cell's.
+    const power1 = 14 - 130;
     const best = p.bestSf[1];
     expect(power1 - sens[best - 7]).toBeGreaterThanOrEqual(10);
     if (best > 7) expect(power1 - sens[best - 8]).toBeLessThan(10);
-    expect(p.bestSf[2]).toBe(0); // 160 dB: no SF closes with 10 dB
+    expect(p.marginDb[1]).toBeCloseTo(power1 - sens[best - 7], 3);
+    // 160 dB: no SF closes with 10 dB; the margin is the most robust SF within the US915 400 ms dwell (SF10), as for a node.
+    expect(p.bestSf[2]).toBe(0);
+    expect(p.marginDb[2]).toBeCloseTo(14 - 160 - sens[3], 3);
     expect(p.bestSf[3]).toBe(255);
-    // Φ(0) = 0.5: a margin of exactly 0 dB delivers half the packets (log-normal spread, common practice).
-    const atZero = cellProducts(new Float32Array([budget.fixedDbm - sens[3]]), budget);
-    expect(atZero.deliveryProbability[0]).toBeCloseTo(0.5, 6);
+    // Φ(margin/σ), σ = 6 dB here.
+    expect(p.deliveryProbability[1]).toBeCloseTo(standardNormalCdf(p.marginDb[1] / 6), 4);
   });
 
   it('composite: best server by power, redundancy counts gateways with the required margin, P = 1 − Π(1 − p)', () => {
-    const a = cellProducts(new Float32Array([120, 150]), budget);
-    const b = cellProducts(new Float32Array([130, 125]), budget);
+    const a = cellProducts(new Float32Array([120, 150]), budgetAt);
+    const b = cellProducts(new Float32Array([130, 125]), budgetAt);
     const composite = buildComposite(2, 1, [
       { gatewayIndex: 0, x0: 0, y0: 0, widthPx: 2, heightPx: 1, products: a, lossDb: new Float32Array([120, 150]) },
       { gatewayIndex: 1, x0: 0, y0: 0, widthPx: 2, heightPx: 1, products: b, lossDb: new Float32Array([130, 125]) },

@@ -23,6 +23,7 @@ import {
   type RunState,
 } from '../api.ts';
 import type { PlanStore } from '../plan-store.ts';
+import { applyRange, rangeProblem } from '../ranges.ts';
 import { canEdit } from '../session.ts';
 import { announce, clear, errorText, field, h, notice, percent, present, select } from '../ui.ts';
 
@@ -67,13 +68,41 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
     { id: 'coverage-mode' },
   );
   const radius = h('input', { id: 'coverage-radius', type: 'number', min: '0.5', max: '100', step: '0.5', value: '5' });
-  const rxHeight = h('input', { id: 'coverage-rx-height', type: 'number', min: '0', max: '100', step: '0.1', value: '1.5' });
+  // The node kit every cell is drawn for: the same fields as a node (antenna, height, power, feedline, environment).
+  const antennas = store.catalog.antennas;
+  const nodeAntenna = select(
+    antennas.length > 0 ? antennas.map((a) => ({ value: a.id, label: `${a.name} (${a.gainDbi} dBi)` })) : [{ value: 'helical-stub', label: 'helical-stub' }],
+    antennas.some((a) => a.id === 'helical-stub') || antennas.length === 0 ? 'helical-stub' : antennas[0].id,
+    { id: 'coverage-antenna' },
+  );
+  const rxHeight = h('input', { id: 'coverage-rx-height', type: 'number', min: '-10', max: '200', step: '0.1', value: '1.5' });
+  const txPower = h('input', { id: 'coverage-tx-power', type: 'number', min: '-10', max: '30', step: '0.5', value: '14' });
+  const feedline = select(
+    [{ value: '', label: 'none (antenna on the radio)' }, ...store.catalog.feedlines.map((f) => ({ value: f.id, label: f.name }))],
+    '',
+    { id: 'coverage-feedline' },
+  );
+  const feedlineLength = h('input', { id: 'coverage-feedline-length', type: 'number', min: '0', max: '500', step: '0.5', value: '0' });
+  const environment = select(
+    [
+      { value: 'outdoor', label: 'outdoor' },
+      { value: 'indoor', label: 'indoor (building entry loss)' },
+      { value: 'pit', label: 'pit / meter box' },
+    ],
+    'outdoor',
+    { id: 'coverage-environment' },
+  );
   const sf = select(
-    [7, 8, 9, 10, 11, 12].map((v) => ({ value: String(v), label: `SF${v}` })),
-    '10',
+    [{ value: '', label: 'as a node: fastest allowed SF meeting the margin' }, ...[7, 8, 9, 10, 11, 12].map((v) => ({ value: String(v), label: `fixed SF${v}` }))],
+    '',
     { id: 'coverage-sf' },
   );
+  applyRange(rxHeight, 'nodeAntennaHeightAglM');
+  applyRange(txPower, 'nodeTxPowerDbm');
+  applyRange(feedlineLength, 'nodeFeedlineLengthM');
+  applyRange(radius, 'coverageRadiusKm');
   const margin = h('input', { id: 'coverage-margin', type: 'number', min: '-20', max: '60', step: '0.5', value: String(store.plan.targetMarginDb ?? 10) });
+  applyRange(margin, 'targetMarginDb');
   const startButton = h('button', { type: 'button', id: 'coverage-start', class: 'primary' }, 'Start coverage run');
   const runBox = h('div', { id: 'coverage-run', 'aria-live': 'polite' });
   const overlayBox = h('div', { id: 'coverage-overlay-controls' });
@@ -83,7 +112,12 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
     field('Gateways', gw),
     field('Method', mode),
     field('Radius around each gateway (km)', radius),
-    field('Node antenna height (m)', rxHeight, 'Height above ground of a node in each cell'),
+    field('Node antenna', nodeAntenna, 'Each cell shows the margin a node with this kit would have there'),
+    field('Node antenna height (m)', rxHeight, 'Height above ground of the node antenna in each cell'),
+    field('Node transmit power (dBm)', txPower),
+    field('Node feedline', feedline),
+    field('Feedline length (m)', feedlineLength),
+    field('Node environment', environment),
     field('Spreading factor', sf),
     field('Required margin (dB)', margin, 'Cells at or above it count as served'),
     canEdit() ? startButton : h('p', { class: 'muted small' }, 'Only planners start coverage runs; finished runs can be shown.'),
@@ -163,7 +197,7 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
     }
     closeSource();
     startButton.disabled = false;
-    const what = `${run.mode ?? ''} run, ${run.radiusKm ?? '–'} km, SF${run.sf ?? '–'}, margin ≥ ${run.requiredMarginDb ?? '–'} dB`;
+    const what = `${run.mode ?? ''} run, ${run.radiusKm ?? '–'} km, ${run.sf ? `SF${run.sf}` : 'node SF rule'}, margin ≥ ${run.requiredMarginDb ?? '–'} dB`;
     if (state === 'done') {
       runBox.append(notice('ok', h('span', { id: 'coverage-state' }, `Coverage run finished (${what}). The overlay is on the map.`)));
       announce('Coverage run finished');
@@ -234,14 +268,33 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
 
   startButton.addEventListener('click', () => {
     const radiusKm = Number(radius.value);
-    const targetHeightM = Number(rxHeight.value);
     const requiredMarginDb = Number(margin.value);
-    if (!(radiusKm > 0) || !(targetHeightM >= 0) || !Number.isFinite(requiredMarginDb)) {
+    const problems = [
+      rangeProblem('Radius (km)', radius),
+      rangeProblem('Node antenna height (m)', rxHeight),
+      rangeProblem('Node transmit power (dBm)', txPower),
+      rangeProblem('Feedline length (m)', feedlineLength),
+      rangeProblem('Required margin (dB)', margin),
+    ].filter((p): p is string => p !== null);
+    if (problems.length > 0) {
       clear(runBox);
-      runBox.append(notice('error', 'Radius (km) must be above 0, node antenna height (m) 0 or more, and the margin a number of dB.'));
+      runBox.append(notice('error', problems.join(' ')));
       return;
     }
-    const body: CoverageRequest = { mode: mode.value as 'fast' | 'full', radiusKm, targetHeightM, sf: Number(sf.value), requiredMarginDb };
+    const body: CoverageRequest = {
+      mode: mode.value as 'fast' | 'full',
+      radiusKm,
+      requiredMarginDb,
+      nodeKit: {
+        antennaDesignId: nodeAntenna.value,
+        antennaHeightAglM: Number(rxHeight.value),
+        txPowerDbm: Number(txPower.value),
+        feedlineId: feedline.value === '' ? null : feedline.value,
+        feedlineLengthM: feedline.value === '' ? 0 : Number(feedlineLength.value),
+        environment: environment.value as 'outdoor' | 'indoor' | 'pit',
+      },
+    };
+    if (sf.value !== '') body.sf = Number(sf.value);
     if (gw.value) body.gatewayIds = [gw.value];
     startButton.disabled = true;
     clear(runBox);
@@ -296,5 +349,6 @@ function summaryOf(run: CoverageRun): HTMLElement | null {
     s.gateways.length > 1
       ? h('p', { class: 'small' }, 'Best server load: ', s.gateways.map((g) => `${g.name} ${g.nodes} node(s)`).join(', '), '.')
       : null,
+    s.terrain ? h('p', { class: 'small', id: 'coverage-terrain-note' }, `Terrain: ${s.terrain.note}.`, s.terrain.nodesOutside.length > 0 ? ` Outside: ${s.terrain.nodesOutside.map((n) => n.name ?? n.id).join(', ')}.` : '') : null,
   );
 }

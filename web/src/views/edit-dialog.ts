@@ -1,7 +1,8 @@
 // Edit forms for nodes, gateways and candidate sites, built from one field
 // list per kind. Only changed fields are sent, together with the version the
 // form was opened on (a stale version comes back as 409 and is explained).
-import type { Catalog, Entity, EntityKind } from '../api.ts';
+import type { Catalog, Entity, EntityKind, FieldRanges } from '../api.ts';
+import { applyRange, rangeProblem } from '../ranges.ts';
 import { field, h, openDialog, select } from '../ui.ts';
 
 interface FieldSpec {
@@ -12,6 +13,8 @@ interface FieldSpec {
   min?: number;
   max?: number;
   step?: number;
+  /** The server's range for this quantity (GET /client-settings), which overrides min/max/step. */
+  range?: keyof FieldRanges;
   required?: boolean;
   options?: (catalog: Catalog) => Array<{ value: string; label: string }>;
   hint?: string;
@@ -45,18 +48,18 @@ export const fieldSpecs: Record<EntityKind, FieldSpec[]> = {
       ],
     },
     { key: 'antennaDesignId', label: 'Antenna design', type: 'select', options: antennaOptions },
-    { key: 'antennaHeightAglM', label: 'Antenna height above ground (m)', type: 'number', min: 0, max: 100, step: 0.1, unit: 'm' },
+    { key: 'antennaHeightAglM', label: 'Antenna height above ground (m)', type: 'number', min: -10, max: 200, step: 0.1, unit: 'm', range: 'nodeAntennaHeightAglM', hint: 'negative for a pit or meter box below ground' },
     { key: 'feedlineId', label: 'Feedline', type: 'select', options: (c) => feedlineOptions(c, true) },
-    { key: 'feedlineLengthM', label: 'Feedline length (m)', type: 'number', min: 0, max: 200, step: 0.1, unit: 'm' },
-    { key: 'txPowerDbm', label: 'Transmit power (dBm)', type: 'number', min: -10, max: 36, step: 0.5, unit: 'dBm' },
-    { key: 'payloadBytes', label: 'Payload (bytes)', type: 'number', min: 1, max: 255, step: 1 },
+    { key: 'feedlineLengthM', label: 'Feedline length (m)', type: 'number', min: 0, max: 500, step: 0.1, unit: 'm', range: 'nodeFeedlineLengthM' },
+    { key: 'txPowerDbm', label: 'Transmit power (dBm)', type: 'number', min: -10, max: 30, step: 0.5, unit: 'dBm', range: 'nodeTxPowerDbm' },
+    { key: 'payloadBytes', label: 'Payload (bytes)', type: 'number', min: 1, max: 255, step: 1, range: 'payloadBytes' },
     { key: 'messagesPerHour', label: 'Messages per hour', type: 'number', min: 0, max: 3600, step: 0.1 },
     { key: 'notes', label: 'Notes (access, landmarks)', type: 'textarea' },
   ],
   gateways: [
     ...position,
     { key: 'antennaDesignId', label: 'Antenna design', type: 'select', options: antennaOptions },
-    { key: 'antennaHeightAglM', label: 'Antenna height above ground (m)', type: 'number', min: 0, max: 300, step: 0.5, unit: 'm' },
+    { key: 'antennaHeightAglM', label: 'Antenna height above ground (m)', type: 'number', min: 0, max: 500, step: 0.5, unit: 'm', range: 'gatewayAntennaHeightAglM' },
     {
       key: 'antennaAzimuthDeg',
       label: 'Antenna azimuth (°, clockwise from true north)',
@@ -68,9 +71,9 @@ export const fieldSpecs: Record<EntityKind, FieldSpec[]> = {
       hint: 'where a directional antenna points; leave empty for an omni, or to aim at each node',
     },
     { key: 'feedlineId', label: 'Feedline', type: 'select', options: (c) => feedlineOptions(c, false) },
-    { key: 'feedlineLengthM', label: 'Feedline length (m)', type: 'number', min: 0, max: 300, step: 0.5, unit: 'm' },
-    { key: 'noiseFigureDb', label: 'Receiver noise figure (dB)', type: 'number', min: 0, max: 20, step: 0.1, unit: 'dB' },
-    { key: 'txPowerDbm', label: 'Transmit power (dBm)', type: 'number', min: -10, max: 36, step: 0.5, unit: 'dBm' },
+    { key: 'feedlineLengthM', label: 'Feedline length (m)', type: 'number', min: 0, max: 1000, step: 0.5, unit: 'm', range: 'gatewayFeedlineLengthM' },
+    { key: 'noiseFigureDb', label: 'Receiver noise figure (dB)', type: 'number', min: 0, max: 20, step: 0.1, unit: 'dB', range: 'noiseFigureDb' },
+    { key: 'txPowerDbm', label: 'Transmit power (dBm)', type: 'number', min: -10, max: 36, step: 0.5, unit: 'dBm', range: 'gatewayTxPowerDbm' },
     { key: 'notes', label: 'Notes', type: 'textarea' },
   ],
   sites: [
@@ -122,6 +125,7 @@ export function openEditDialog(
           step: spec.step ?? (spec.type === 'number' ? 'any' : undefined),
           required: spec.required,
         });
+        if (spec.range) applyRange(control, spec.range);
         control.value = current === null || current === undefined ? '' : String(current);
       }
       controls.set(spec.key, control);
@@ -136,6 +140,15 @@ export function openEditDialog(
     form.addEventListener('submit', (event) => {
       event.preventDefault();
       const changes: Record<string, unknown> = {};
+      // The server's ranges, checked before sending (the API answers 400 with the same rule).
+      const problems = fieldSpecs[kind]
+        .filter((spec) => spec.type === 'number' && controls.get(spec.key)?.value !== '')
+        .map((spec) => rangeProblem(spec.label, controls.get(spec.key) as HTMLInputElement))
+        .filter((p): p is string => p !== null);
+      if (problems.length > 0) {
+        status.textContent = problems.join(' ');
+        return;
+      }
       for (const spec of fieldSpecs[kind]) {
         const control = controls.get(spec.key);
         if (!control) continue;

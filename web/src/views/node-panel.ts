@@ -19,6 +19,7 @@ import {
 import { renderNodeReadings } from './calibration-panel.ts';
 import { getKitPrice, priceParts } from '../api-kit.ts';
 import { explainWriteError, type PlanStore } from '../plan-store.ts';
+import { applyRange, rangeProblem } from '../ranges.ts';
 import { planHash } from '../router.ts';
 import { canEdit } from '../session.ts';
 import { announce, cautionsBlock, clear, coords, db, dbm, distance, errorText, field, fmt, h, metres, money, notice, percent, present, select } from '../ui.ts';
@@ -225,7 +226,7 @@ function renderKitChooser(box: HTMLElement, store: PlanStore, node: FleetNode, s
     node.antennaDesignId,
     { id: 'kit-antenna' },
   );
-  const height = h('input', { id: 'kit-height', type: 'number', min: '0.3', max: '60', step: '0.5', inputmode: 'decimal' });
+  const height = applyRange(h('input', { id: 'kit-height', type: 'number', min: '-10', max: '200', step: '0.5', inputmode: 'decimal' }), 'nodeAntennaHeightAglM');
   height.value = String(node.antennaHeightAglM ?? 1.5);
   const heightRange = h('input', { id: 'kit-height-range', type: 'range', min: '0.5', max: '20', step: '0.5', 'aria-label': 'Mast height slider (m)' });
   heightRange.value = height.value;
@@ -237,7 +238,7 @@ function renderKitChooser(box: HTMLElement, store: PlanStore, node: FleetNode, s
     node.feedlineId ?? 'none',
     { id: 'kit-feedline' },
   );
-  const feedLength = h('input', { id: 'kit-feedline-length', type: 'number', min: '0', max: '500', step: '0.5', inputmode: 'decimal' });
+  const feedLength = applyRange(h('input', { id: 'kit-feedline-length', type: 'number', min: '0', max: '500', step: '0.5', inputmode: 'decimal' }), 'nodeFeedlineLengthM');
   feedLength.value = String(node.feedlineLengthM ?? 0);
   const out = h('div', { class: 'kit-result', id: 'kit-result', 'aria-live': 'polite' });
   const applyStatus = h('p', { 'aria-live': 'polite' });
@@ -252,8 +253,9 @@ function renderKitChooser(box: HTMLElement, store: PlanStore, node: FleetNode, s
     const mine = ++seq;
     const heightM = Number(height.value);
     const lengthM = Number(feedLength.value || 0);
-    if (!Number.isFinite(heightM) || heightM <= 0 || !Number.isFinite(lengthM) || lengthM < 0) {
-      out.replaceChildren(notice('error', 'Mast height must be a number of metres above 0, and the feedline length 0 m or more.'));
+    const problem = rangeProblem('Mast height (m)', height) ?? (feedLength.value === '' ? null : rangeProblem('Feedline length (m)', feedLength));
+    if (problem !== null || !Number.isFinite(lengthM)) {
+      out.replaceChildren(notice('error', problem ?? 'Feedline length (m): a number.'));
       return;
     }
     out.classList.add('busy');

@@ -5,6 +5,7 @@
 import { ApiError, type ClientSettings } from '../api.ts';
 import { explainWriteError, type PlanStore } from '../plan-store.ts';
 import { announce, field, h, openDialog, select } from '../ui.ts';
+import { applyRange, rangeProblem } from '../ranges.ts';
 
 /** What each propagation method id means, in our words (ids from the server's list). */
 const methodLabels: Record<string, string> = {
@@ -30,10 +31,13 @@ export function openPlanSettingsDialog(store: PlanStore, settings: ClientSetting
       { name: 'bandPlanId', id: 'plan-band' },
     );
     const margin = h('input', { name: 'targetMarginDb', type: 'number', min: '-20', max: '60', step: '0.5', required: true, id: 'plan-margin', inputmode: 'decimal' });
+    applyRange(margin, 'targetMarginDb');
     margin.value = String(plan.targetMarginDb ?? 10);
     const sigma = h('input', { name: 'locationSigmaDb', type: 'number', min: '0', max: '30', step: '0.1', id: 'plan-sigma', inputmode: 'decimal', placeholder: 'P.1812 §4.8' });
+    applyRange(sigma, 'sigmaDb');
     sigma.value = plan.locationSigmaDb === null || plan.locationSigmaDb === undefined ? '' : String(plan.locationSigmaDb);
     const modelSigma = h('input', { name: 'modelSigmaDb', type: 'number', min: '0', max: '30', step: '0.1', id: 'plan-model-sigma', inputmode: 'decimal', placeholder: 'default 6' });
+    applyRange(modelSigma, 'sigmaDb');
     const planModelSigma = plan.modelSigmaDb === null || plan.modelSigmaDb === undefined ? null : Number(plan.modelSigmaDb);
     modelSigma.value = planModelSigma === null ? '' : String(planModelSigma);
     const methods = settings.propagationMethods.length > 0 ? settings.propagationMethods : [String(plan.propagationMethod ?? 'p1812')];
@@ -65,20 +69,23 @@ export function openPlanSettingsDialog(store: PlanStore, settings: ClientSetting
       if (description.value !== String(plan.description ?? '')) changes.description = description.value;
       if (band.value !== plan.bandPlanId) changes.bandPlanId = band.value;
       const marginDb = Number(margin.value);
-      if (margin.value.trim() === '' || !Number.isFinite(marginDb) || marginDb < -20 || marginDb > 60) problems.push('Target fade margin: a number of dB from −20 to 60.');
+      const marginProblem = rangeProblem('Target fade margin (dB)', margin);
+      if (marginProblem) problems.push(marginProblem);
       else if (marginDb !== plan.targetMarginDb) changes.targetMarginDb = marginDb;
       if (sigma.value.trim() === '') {
         if (plan.locationSigmaDb !== null && plan.locationSigmaDb !== undefined) changes.locationSigmaDb = null;
       } else {
         const sigmaDb = Number(sigma.value);
-        if (!Number.isFinite(sigmaDb) || sigmaDb < 0 || sigmaDb > 30) problems.push('Location variability σ: a number of dB from 0 to 30, or empty for the default.');
+        const sigmaProblem = rangeProblem('Location variability σL (dB), or empty for the default', sigma);
+        if (sigmaProblem) problems.push(sigmaProblem);
         else if (sigmaDb !== plan.locationSigmaDb) changes.locationSigmaDb = sigmaDb;
       }
       if (modelSigma.value.trim() === '') {
         if (planModelSigma !== null) changes.modelSigmaDb = null;
       } else {
         const modelSigmaDb = Number(modelSigma.value);
-        if (!Number.isFinite(modelSigmaDb) || modelSigmaDb < 0 || modelSigmaDb > 30) problems.push('Model error σM: a number of dB from 0 to 30, or empty for the default.');
+        const modelProblem = rangeProblem('Model error σM (dB), or empty for the default', modelSigma);
+        if (modelProblem) problems.push(modelProblem);
         else if (modelSigmaDb !== planModelSigma) changes.modelSigmaDb = modelSigmaDb;
       }
       if (method.value !== plan.propagationMethod) changes.propagationMethod = method.value;

@@ -2,15 +2,15 @@
 // what to bring, the build sheet for a home-made antenna, mast height,
 // expected readings, blanks for the measured RSSI/SNR, and cautions.
 // JSON (?format=json) and printable HTML from the same document.
-import { buildSheet, BuildSheetError, type BuildSheet } from '../../radio/build-sheets.ts';
-import { installCautions, percentileRange, type ExpectedRange } from '../../planning/check.ts';
+import { buildSheet, BuildSheetError, type BuildSheet } from '../radio/build-sheets.ts';
+import { installCautions, percentileRange, type ExpectedRange } from '../planning/check.ts';
 import type { NodeRecommendation } from './recommend.ts';
-import type { NodeLinksOutcome, PlanContext } from '../../jobs/link-engine.ts';
-import { nodeKitPrice } from '../../app/kit-price.ts';
-import type { KitPrice } from '../../planning/kit-price.ts';
-import { STATUS_WORDS, statusPhrase, type LinkStatus } from '../../planning/status.ts';
-import { fittedCautions, CAUTIONS_FOOTER, type CautionGroup } from '../../planning/cautions.ts';
-import type { MastOption } from '../../radio/masts.ts';
+import type { NodeLinksOutcome, PlanContext } from '../jobs/link-engine.ts';
+import { nodeKitPrice } from './kit-price.ts';
+import type { KitPrice } from '../planning/kit-price.ts';
+import { STATUS_WORDS, statusPhrase, type LinkStatus } from '../planning/status.ts';
+import { fittedCautions, CAUTIONS_FOOTER, type CautionGroup } from '../planning/cautions.ts';
+import type { MastOption } from '../radio/masts.ts';
 
 export interface VisitSheet {
   title: string;
@@ -31,7 +31,7 @@ export interface VisitSheet {
     recommended: { antennaDesignId: string; antennaName: string; mastHeightM: number; mastName: string | null; feedlineId: string | null; feedlineName: string | null; feedlineLengthM: number; cost: number; price: KitPrice; reason: string } | null;
   };
   buildSheet: BuildSheet | null;
-  gateways: Array<{ id: string; name: string; distanceM: number; aimAzimuthDeg: number; elevationDeg: number; sf: number; expectedRssiDbm: ExpectedRange; expectedSnrDb: ExpectedRange; marginDb: number }>;
+  gateways: Array<{ id: string; name: string; distanceM: number; aimAzimuthDeg: number; elevationDeg: number; sf: number; expectedRssiDbm: ExpectedRange; expectedSnrDb: ExpectedRange; sigmaDb: number; marginDb: number }>;
   measurements: Array<{ gatewayId: string; gatewayName: string; sf: number; measuredRssiDbm: null; measuredSnrDb: null; time: null }>;
   cautions: string[];
   /** Cautions fitted to this node's height and power (a 1 m probe gets no mast-work list). */
@@ -86,6 +86,7 @@ export function visitSheet(ctx: PlanContext, outcome: NodeLinksOutcome, recommen
       sf: link.usedSf,
       expectedRssiDbm: percentileRange(link.rssiDbm, link.sigmaDb),
       expectedSnrDb: percentileRange(link.snrDb, link.sigmaDb),
+      sigmaDb: link.sigmaDb,
       marginDb: link.marginDb,
     })),
     measurements: outcome.links.map((link) => ({ gatewayId: link.gatewayId, gatewayName: gatewayName.get(link.gatewayId) ?? link.gatewayId, sf: link.usedSf, measuredRssiDbm: null, measuredSnrDb: null, time: null })),

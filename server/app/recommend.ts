@@ -2,18 +2,18 @@
 // the whole fleet as a job with progress (POST /plans/:planId/recommend).
 // The search itself is pure (server/planning/recommend.ts); this file gathers
 // the catalog, predicts the paths at each mast height once, and evaluates.
-import type { Database } from '../../db/client.ts';
-import { listAntennaDesigns, listFeedlines, listMasts, toRadioAntennaDesign, toRadioFeedline, toRadioMastOption } from '../../db/repositories/kit.ts';
-import type { NodeRow } from '../../db/repositories/nodes.ts';
-import type { AntennaDesign } from '../../radio/antennas.ts';
-import type { FeedlineType } from '../../radio/feedlines.ts';
-import type { MastOption } from '../../radio/masts.ts';
-import { nodeKitPrice } from '../../app/kit-price.ts';
-import type { KitPrice } from '../../planning/kit-price.ts';
-import { nodeLinkResults, summariseNodeLinks } from '../../planning/node-links.ts';
-import { predictPath, type PathPrediction } from '../../planning/path.ts';
-import { recommendKit, type KitCandidate, type KitEvaluation, type RankedKitOption, type Recommendation } from '../../planning/recommend.ts';
-import { LinkInputError, nodeConnectors, type GatewayContext, type LinkEngine, type PlanContext } from '../../jobs/link-engine.ts';
+import type { Database } from '../db/client.ts';
+import { listAntennaDesigns, listFeedlines, listMasts, toRadioAntennaDesign, toRadioFeedline, toRadioMastOption } from '../db/repositories/kit.ts';
+import type { NodeRow } from '../db/repositories/nodes.ts';
+import type { AntennaDesign } from '../radio/antennas.ts';
+import type { FeedlineType } from '../radio/feedlines.ts';
+import type { MastOption } from '../radio/masts.ts';
+import { nodeKitPrice } from './kit-price.ts';
+import type { KitPrice } from '../planning/kit-price.ts';
+import { nodeLinkResults, summariseNodeLinks } from '../planning/node-links.ts';
+import { predictPath, type PathPrediction } from '../planning/path.ts';
+import { recommendKit, type KitCandidate, type KitEvaluation, type RankedKitOption, type Recommendation } from '../planning/recommend.ts';
+import { LinkInputError, nodeConnectors, type GatewayContext, type LinkEngine, type PlanContext } from '../jobs/link-engine.ts';
 
 export interface RecommendRequest {
   targetMarginDb?: number;
