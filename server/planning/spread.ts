@@ -95,13 +95,16 @@ export interface PlanningSpread {
 export function planningSpread(input: PlanningSpreadInput): PlanningSpread {
   const sigmaEnvironmentDb = input.environmentSigmaDb ?? 0;
   if (input.calibration) {
+    // The fitted spread replaces every term: the residuals it was fitted to (measured − predicted
+    // at real nodes, indoor and pit ones included) already carry the environment's own spread,
+    // so adding σE again would count it twice.
     const fitted = input.calibration.sigmaDb;
     return {
-      sigmaDb: Math.sqrt(fitted * fitted + sigmaEnvironmentDb * sigmaEnvironmentDb),
+      sigmaDb: fitted,
       sigmaSource: 'calibration',
       sigmaLocationDb: 0,
       sigmaModelDb: fitted,
-      sigmaEnvironmentDb,
+      sigmaEnvironmentDb: 0,
       biasDb: input.calibration.biasDb,
     };
   }

@@ -48,6 +48,9 @@ describe('planningSpread', () => {
   it('an applied calibration replaces σL and σM by its fitted spread and carries its bias: source "calibration"', () => {
     const s = planningSpread({ ...defaults, planModelSigmaDb: 9, calibration: { biasDb: -2.5, sigmaDb: 4.2 }, frequencyMhz: 915, nodeAntennaHeightAglM: 1.5, nodeClutterHeightM: 0 });
     expect(s).toEqual({ sigmaDb: 4.2, sigmaSource: 'calibration', sigmaLocationDb: 0, sigmaModelDb: 4.2, sigmaEnvironmentDb: 0, biasDb: -2.5 });
+    // Indoors too: the fitted residuals already hold the environment's spread (not added twice).
+    const indoor = planningSpread({ ...defaults, calibration: { biasDb: -2.5, sigmaDb: 4.2 }, frequencyMhz: 915, nodeAntennaHeightAglM: 1.5, nodeClutterHeightM: 0, environmentSigmaDb: 8 });
+    expect(indoor.sigmaDb).toBe(4.2);
   });
   it('at a 3 dB margin the uncalibrated answer is no longer the optimistic 93.6 % of σ = 1.97 dB', () => {
     const s = planningSpread({ ...defaults, frequencyMhz: 915, nodeAntennaHeightAglM: 1.5, nodeClutterHeightM: 10 });
