@@ -163,8 +163,12 @@ export function guard(page: Page, baseUrl: string): Guard {
   };
 }
 
-export async function newContext(browser: Browser, viewport = { width: 1400, height: 900 }): Promise<BrowserContext> {
-  return browser.newContext({ viewport, deviceScaleFactor: 1, locale: 'en-US', timezoneId: 'UTC' });
+/**
+ * A browser context. Service workers are blocked unless asked for: page.route() does not see
+ * requests a service worker answers, and only the offline scenario needs the worker.
+ */
+export async function newContext(browser: Browser, viewport = { width: 1400, height: 900 }, options: { serviceWorkers?: 'allow' | 'block' } = {}): Promise<BrowserContext> {
+  return browser.newContext({ viewport, deviceScaleFactor: 1, locale: 'en-US', timezoneId: 'UTC', serviceWorkers: options.serviceWorkers ?? 'block' });
 }
 
 export async function screenshot(page: Page, name: string, fullPage = false): Promise<string> {

@@ -33,7 +33,7 @@ beforeAll(async () => {
   // A generous start-up limit: the shared machine can be loaded (the first PGlite start alone takes seconds).
   [server, browser] = await Promise.all([startServer(420_000), launchBrowser()]);
   token = (cli(server, ['token', 'issue', '--team', 'demo', '--role', 'installer']) as { token: string }).token;
-  context = await newContext(browser, { width: 390, height: 844 });
+  context = await newContext(browser, { width: 390, height: 844 }, { serviceWorkers: 'allow' });
   page = await context.newPage();
   page.setDefaultTimeout(30_000);
   watch = guard(page, server.baseUrl);

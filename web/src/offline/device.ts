@@ -7,7 +7,7 @@
 //   connection returns; the server's version check decides conflicts (a 409 is kept and
 //   shown, never overwritten silently).
 // Signing out empties all of it.
-import { ApiError, getMe, getNodeReadings, getVisitSheet, hillshadeTileUrl, listCoverage, coverageTileUrl, postReading, request, storedToken, type FleetNode, type ReadingInput } from '../api.ts';
+import { ApiError, getClientSettings, getMe, getNodeReadings, getVisitSheet, hillshadeTileUrl, listCoverage, coverageTileUrl, postReading, request, storedToken, type FleetNode, type ReadingInput } from '../api.ts';
 import { PlanStore } from '../plan-store.ts';
 import { adoptStatusWords } from '../status-words.ts';
 
@@ -141,6 +141,7 @@ export async function keepNode(planId: string, node: FleetNode, progress: (text:
   progress('Keeping the node panel, kit and visit sheet…');
   // The answers the app reads on start (read again here, so the service worker records them now that something is kept).
   await getMe();
+  await getClientSettings(); // field ranges every form reads before it is drawn
   await adoptStatusWords();
   await new PlanStore(planId).load();
   await getVisitSheet(planId, node.id);
