@@ -32,6 +32,8 @@ import {
 } from '../db/repositories/siting-runs.ts';
 import { type LinkEngine, type PlanContext } from '../jobs/link-engine.ts';
 import { computeSitingMatrix, matrixInputs, SitingCancelled, type SitingCandidate, type SitingMatrix } from '../jobs/siting-matrix.ts';
+import { splitSitingMatrix } from '../jobs/siting-matrix-split.ts';
+import type { LinkRunJobs } from '../jobs/link-runs.ts';
 import { kitCostUsd } from '../planning/recommend.ts';
 import { DEFAULT_GATEWAY_ANTENNA_ID, DEFAULT_GATEWAY_FEEDLINE_ID, DEFAULT_GATEWAY_NOISE_FIGURE_DB } from '../planning/gateway-kit.ts';
 import { isExcluded, localHighPoints, parseExclusionAreas, pickSpaced, type ExclusionArea, type HighPoint, type LonLatBox } from '../siting/candidates.ts';
@@ -134,6 +136,12 @@ export function loadHighs(): Promise<Highs> {
 export interface SitingDeps {
   db: Database;
   engine: LinkEngine;
+  /**
+   * With REDIS_URL: the queue the matrix is split over (blocks of nodes × candidates
+   * on `npm run worker` processes, server/jobs/siting-matrix-split.ts). Left out, the
+   * matrix is predicted in this process over the link engine's worker threads.
+   */
+  matrixJobs?: LinkRunJobs;
 }
 
 /** Plan-level default gateway kit: the plan's first gateway's kit, else the catalog defaults. */
@@ -353,10 +361,10 @@ export async function executeSitingRun(deps: SitingDeps, runId: string): Promise
       matrix = cached;
       fromCache = true;
     } else {
-      matrix = await computeSitingMatrix(deps.engine, ctx, built.candidates, inputs, {
-        areaMinElevationM: built.minElevationM,
-        onProgress: async (fraction) => reportSitingProgress(deps.db, runId, 0.02 + 0.9 * fraction),
-      });
+      const onProgress = async (fraction: number) => reportSitingProgress(deps.db, runId, 0.02 + 0.9 * fraction);
+      matrix = deps.matrixJobs
+        ? await splitSitingMatrix(deps.engine, deps.matrixJobs, ctx, built.candidates, inputs, { sitingRunId: runId, areaMinElevationM: built.minElevationM, onProgress })
+        : await computeSitingMatrix(deps.engine, ctx, built.candidates, inputs, { areaMinElevationM: built.minElevationM, onProgress });
     }
     const matrixSeconds = (performance.now() - t0) / 1000;
     await saveSitingMatrix(deps.db, runId, inputs.hash, matrix);

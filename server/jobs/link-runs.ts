@@ -30,6 +30,17 @@ import { AppError } from '../app/errors.ts';
 import { LinkInputError, pathEnd, type GatewayContext, type LinkEngine, type PlanContext, type ResolvedNode } from './link-engine.ts';
 import type { LinkPathPair } from './link-pool.ts';
 import { queuePrefix, redisConnection } from './runner.ts';
+import { candidateRow, predictSitingBlock, SitingCancelled, type SitingCandidate, type SitingMatrixBlock } from './siting-matrix.ts';
+
+/** Kind of a LinkRun whose tiles are blocks of a siting run's matrix (server/jobs/siting-matrix-split.ts). */
+export const SITING_MATRIX_KIND = 'siting-matrix';
+
+/** What the tiles of a siting matrix run need beside the plan: the run's candidates and the area's lowest ground. */
+export interface SitingMatrixParams {
+  sitingRunId: string;
+  candidates: SitingCandidate[];
+  areaMinElevationM: number | null;
+}
 
 export const LINK_TILE_QUEUE = 'link-tiles';
 
@@ -48,7 +59,7 @@ const TILE_MAX_NODES = 4000;
 const BATCH_PAIRS = 48;
 
 /** A node whose directional antenna is aimed at its best-heard gateway needs all its gateways in one tile (the aim enters every link). */
-function needsAllGateways(node: ResolvedNode): boolean {
+export function needsAllGateways(node: ResolvedNode): boolean {
   return node.kit.antenna.pattern.kind === 'directional' && node.kit.boresightAzimuthDeg === null;
 }
 
@@ -158,20 +169,58 @@ export class LinkTileExecutor {
       const tile = await findLinkTile(db, runId, index);
       if (!tile) return { kind: 'skipped', reason: 'no such tile' };
       const ctx = await this.context(runId, run.planId, options.workerId);
-      const rows = await this.predict(ctx, tile.nodeIds as string[], tile.gatewayIds as string[], async (pairsDone) => {
+      const checkpoint = async (pairsDone: number) => {
         await options.onBatch?.({ runId, index, pairsDone });
         // Give the event loop a turn (the queue's lock renewal runs on a timer), then check for a cancel.
         await new Promise((resolve) => setImmediate(resolve));
         return linkTileStillOwned(db, runId, index, attempt);
-      });
+      };
+      const nodeIds = tile.nodeIds as string[];
+      const gatewayIds = tile.gatewayIds as string[];
+      let rows: LinkRow[] | null = [];
+      let result: unknown;
+      if (run.kind === SITING_MATRIX_KIND) {
+        const block = await this.sitingBlock(ctx, run.params as unknown as SitingMatrixParams, nodeIds, gatewayIds, checkpoint);
+        if (block === null) rows = null;
+        else result = block;
+      } else rows = await this.predict(ctx, nodeIds, gatewayIds, checkpoint);
       if (rows === null) return { kind: 'skipped', reason: 'cancelled or taken over while running' };
-      const done = await completeLinkTile(db, { runId, planId: run.planId, index, attempt, workerId: options.workerId, rows, seconds: (performance.now() - t0) / 1000 });
+      const done = await completeLinkTile(db, { runId, planId: run.planId, index, attempt, workerId: options.workerId, rows, result, seconds: (performance.now() - t0) / 1000 });
       return { kind: 'done', written: done.written, runDone: done.runDone };
     } catch (error) {
       if (error instanceof LinkTileLost) return { kind: 'skipped', reason: error.message };
       const message = error instanceof AppError ? error.message : `worker ${options.workerId}: ${error instanceof Error ? error.message : String(error)}`;
       await failLinkTile(db, { runId, index, attempt, error: message, final: options.final });
       return options.final ? { kind: 'failed', error: message } : { kind: 'retry', error: message };
+    }
+  }
+
+  /**
+   * A block of a siting matrix: the tile's nodes (rows, in the tile's order) over
+   * its candidates (columns), by predictSitingBlock, the function the whole
+   * matrix uses in one process. Null when a checkpoint says stop.
+   */
+  private async sitingBlock(ctx: PlanContext, params: SitingMatrixParams, nodeIds: readonly string[], candidateIds: readonly string[], checkpoint: (pairsDone: number) => Promise<boolean>): Promise<SitingMatrixBlock | null> {
+    const engine = this.engine;
+    const byId = new Map(params.candidates.map((c) => [c.id, c]));
+    const gateways: GatewayContext[] = [];
+    for (const id of candidateIds) {
+      const candidate = byId.get(id);
+      if (!candidate) throw new Error(`siting matrix tile names an unknown candidate ${id}`);
+      gateways.push(await engine.gatewayContext(ctx, candidateRow(ctx, candidate)));
+    }
+    const rows = new Map((await listNodesByIds(engine.database, ctx.plan.id, nodeIds)).map((row) => [row.id, row]));
+    const nodes: ResolvedNode[] = [];
+    for (const id of nodeIds) {
+      const row = rows.get(id);
+      if (!row) throw new Error(`node ${id} of the matrix is gone from the plan`);
+      nodes.push(await engine.resolveNode(ctx, row));
+    }
+    try {
+      return await predictSitingBlock(engine, ctx, nodes, gateways, { areaMinElevationM: params.areaMinElevationM, onBatch: (done) => checkpoint(done) });
+    } catch (error) {
+      if (error instanceof SitingCancelled) return null;
+      throw error;
     }
   }
 

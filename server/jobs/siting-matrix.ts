@@ -68,7 +68,8 @@ export class SitingCancelled extends Error {
 /** Path pairs per progress step (the pool works through each batch in parallel). */
 const BATCH_PAIRS = 400;
 
-function candidateRow(ctx: PlanContext, candidate: SitingCandidate): GatewayRow {
+/** A candidate as a gateway row (it exists only in the run), so the link engine can resolve its kit. */
+export function candidateRow(ctx: PlanContext, candidate: SitingCandidate): GatewayRow {
   const epoch = new Date(0);
   return {
     id: candidate.id,
@@ -141,20 +142,31 @@ export async function matrixInputs(engine: LinkEngine, ctx: PlanContext, candida
   return { nodes, broken, gateways, hash };
 }
 
+/** One block of the matrix: rows = `nodes`, columns = `gateways` (margins and the served rule per pair). */
+export interface SitingMatrixBlock {
+  meets: boolean[][];
+  marginDb: Array<Array<number | null>>;
+  pairsPredicted: number;
+  pairsSkipped: number;
+}
+
 /**
- * Predicts the matrix. `onProgress(fraction)` is awaited after each batch; it
- * may throw SitingCancelled (or return false) to stop.
+ * Predicts a block of the matrix: the pairs within range and the horizon
+ * allowance, their paths (the link engine's computePaths, batch by batch:
+ * `onBatch(pairsDone, pairsTotal)` after each; false stops with SitingCancelled),
+ * then the budgets through the link table's own nodeLinks, one node over its
+ * in-range columns. A pair's numbers depend on that pair alone (and, for a
+ * directional node aimed at its best-heard candidate, on the node's other
+ * columns: such nodes need every column in one block), so blocks of a split
+ * matrix put together equal the matrix predicted whole.
  */
-export async function computeSitingMatrix(
+export async function predictSitingBlock(
   engine: LinkEngine,
   ctx: PlanContext,
-  candidates: readonly SitingCandidate[],
-  inputs: MatrixInputs,
-  options: { areaMinElevationM: number | null; onProgress?: (fraction: number) => Promise<boolean | void> | boolean | void },
-): Promise<SitingMatrix> {
-  const { nodes, broken, gateways } = inputs;
-  const warnings: string[] = [...ctx.warnings];
-  for (const b of broken) warnings.push(`node ${b.name}: ${b.message}; left out of the matrix`);
+  nodes: readonly ResolvedNode[],
+  gateways: readonly GatewayContext[],
+  options: { areaMinElevationM: number | null; onBatch?: (pairsDone: number, pairsTotal: number) => Promise<boolean | void> | boolean | void },
+): Promise<SitingMatrixBlock> {
   const kFactor = medianEarthFactor();
   const reference = options.areaMinElevationM ?? 0;
   const ground = async (lat: number, lon: number) => (ctx.terrain ? ((await ctx.terrain.sampleElevation(lat, lon)) ?? reference) : 0);
@@ -187,7 +199,7 @@ export async function computeSitingMatrix(
     const batch = pairs.slice(start, start + BATCH_PAIRS);
     const paths = await engine.computePaths(ctx, batch);
     for (let b = 0; b < paths.length; b++) precomputed.set(pairKeys[start + b], paths[b]);
-    const go = await options.onProgress?.((0.95 * (start + batch.length)) / Math.max(1, pairs.length));
+    const go = await options.onBatch?.(start + batch.length, pairs.length);
     if (go === false) throw new SitingCancelled();
   }
   // 3. Budgets through the link table's own nodeLinks, one node over its in-range candidates.
@@ -195,8 +207,6 @@ export async function computeSitingMatrix(
   const columnOf = new Map(gateways.map((g, j) => [g.row.id, j]));
   const meets: boolean[][] = [];
   const marginDb: Array<Array<number | null>> = [];
-  const nodeIds: string[] = [];
-  const nodeNames: string[] = [];
   for (let n = 0; n < nodes.length; n++) {
     const node = nodes[n];
     const meetRow = new Array<boolean>(gateways.length).fill(false);
@@ -211,17 +221,39 @@ export async function computeSitingMatrix(
         meetRow[j] = linkStatus(link.marginDb, link.deliveryProbability, target) === 'served';
       }
     }
-    nodeIds.push(node.row.id);
-    nodeNames.push(node.row.name);
     meets.push(meetRow);
     marginDb.push(marginRow);
   }
-  for (const b of broken) {
-    nodeIds.push(b.id);
-    nodeNames.push(b.name);
-    meets.push(new Array<boolean>(gateways.length).fill(false));
-    marginDb.push(new Array<number | null>(gateways.length).fill(null));
-  }
+  return { meets, marginDb, pairsPredicted: pairs.length, pairsSkipped: skipped };
+}
+
+/** Puts the matrix together from its rows of usable nodes (a whole block, or assembled tiles) and the unusable nodes. */
+export function assembleSitingMatrix(ctx: PlanContext, candidates: readonly SitingCandidate[], inputs: MatrixInputs, block: SitingMatrixBlock): SitingMatrix {
+  const { nodes, broken, gateways } = inputs;
+  const warnings: string[] = [...ctx.warnings];
+  for (const b of broken) warnings.push(`node ${b.name}: ${b.message}; left out of the matrix`);
+  const nodeIds = [...nodes.map((n) => n.row.id), ...broken.map((b) => b.id)];
+  const nodeNames = [...nodes.map((n) => n.row.name), ...broken.map((b) => b.name)];
+  const meets = [...block.meets, ...broken.map(() => new Array<boolean>(gateways.length).fill(false))];
+  const marginDb = [...block.marginDb, ...broken.map(() => new Array<number | null>(gateways.length).fill(null))];
+  return { nodeIds, nodeNames, candidates: [...candidates], meets, marginDb, pairsPredicted: block.pairsPredicted, pairsSkipped: block.pairsSkipped, warnings };
+}
+
+/**
+ * Predicts the matrix in this process. `onProgress(fraction)` is awaited after each batch; it
+ * may throw SitingCancelled (or return false) to stop.
+ */
+export async function computeSitingMatrix(
+  engine: LinkEngine,
+  ctx: PlanContext,
+  candidates: readonly SitingCandidate[],
+  inputs: MatrixInputs,
+  options: { areaMinElevationM: number | null; onProgress?: (fraction: number) => Promise<boolean | void> | boolean | void },
+): Promise<SitingMatrix> {
+  const block = await predictSitingBlock(engine, ctx, inputs.nodes, inputs.gateways, {
+    areaMinElevationM: options.areaMinElevationM,
+    onBatch: (done, total) => options.onProgress?.((0.95 * done) / Math.max(1, total)),
+  });
   await options.onProgress?.(0.97);
-  return { nodeIds, nodeNames, candidates: [...candidates], meets, marginDb, pairsPredicted: pairs.length, pairsSkipped: skipped, warnings };
+  return assembleSitingMatrix(ctx, candidates, inputs, block);
 }

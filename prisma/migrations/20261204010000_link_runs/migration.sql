@@ -29,6 +29,7 @@ CREATE TABLE "LinkRunTile" (
     "linksWritten" INTEGER NOT NULL DEFAULT 0,
     "seconds" DOUBLE PRECISION NOT NULL DEFAULT 0,
     "writeSeconds" DOUBLE PRECISION NOT NULL DEFAULT 0,
+    "result" JSONB,
     "error" TEXT,
     "startedAt" TIMESTAMP(3),
     "finishedAt" TIMESTAMP(3),

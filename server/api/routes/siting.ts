@@ -6,6 +6,7 @@ import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { applyRun, cancelRun, createSitingRequest, findRun, runMatrix, SitingJobs, sitingReport, type SitingDeps } from '../../app/siting.ts';
 import type { SitingRunSummaryRow } from '../../db/repositories/siting-runs.ts';
+import { createLinkRunJobs } from '../../jobs/link-runs.ts';
 import { listSitingRuns } from '../../db/repositories/siting-runs.ts';
 import { requireRole } from '../auth.ts';
 import { apiErrorOf } from '../errors.ts';
@@ -148,7 +149,10 @@ async function mapped<T>(work: () => Promise<T>): Promise<T> {
 
 export default async function sitingRoutes(app: FastifyInstance): Promise<void> {
   const api = app.withTypeProvider<ZodTypeProvider>();
-  const deps: SitingDeps = { db: app.deps.db, engine: app.linkEngine };
+  // With Redis the matrix is split over the queue workers (server/jobs/siting-matrix-split.ts).
+  const matrixJobs = app.deps.config.redisUrl ? await createLinkRunJobs(app.deps.db, app.deps.config, app.linkEngine) : undefined;
+  if (matrixJobs) app.addHook('onClose', async () => matrixJobs.close());
+  const deps: SitingDeps = { db: app.deps.db, engine: app.linkEngine, matrixJobs };
   const jobs = await SitingJobs.start(deps);
   app.addHook('onClose', async () => jobs.close());
   const tags = ['siting'];
@@ -209,6 +213,9 @@ export const sitingReportInput = sitingBody.extend({ plan: id() });
 
 export async function sitingAdminRoutes(app: FastifyInstance): Promise<void> {
   const api = app.withTypeProvider<ZodTypeProvider>();
-  const deps: SitingDeps = { db: app.deps.db, engine: app.linkEngine };
+  // With Redis the matrix is split over the queue workers (server/jobs/siting-matrix-split.ts).
+  const matrixJobs = app.deps.config.redisUrl ? await createLinkRunJobs(app.deps.db, app.deps.config, app.linkEngine) : undefined;
+  if (matrixJobs) app.addHook('onClose', async () => matrixJobs.close());
+  const deps: SitingDeps = { db: app.deps.db, engine: app.linkEngine, matrixJobs };
   api.post('/siting', { schema: { hide: true, body: sitingReportInput } }, async (request) => runView(await mapped(() => sitingReport(deps, request.body))));
 }

@@ -26,7 +26,7 @@ const TILE_INSERT_CHUNK = 500;
 export async function createLinkRun(db: Database, planId: string, input: { kind?: string; params: unknown; createdById: string | null; tiles: readonly NewLinkTile[] }): Promise<LinkRunRow> {
   const pairsTotal = input.tiles.reduce((sum, tile) => sum + tile.pairs, 0);
   const run = await db.prisma.linkRun.create({
-    data: { planId, kind: input.kind ?? 'fleet-links', params: input.params as Prisma.InputJsonValue, status: 'queued', tilesTotal: input.tiles.length, pairsTotal, createdById: input.createdById },
+    data: { planId, kind: input.kind ?? FLEET_LINKS_KIND, params: input.params as Prisma.InputJsonValue, status: 'queued', tilesTotal: input.tiles.length, pairsTotal, createdById: input.createdById },
   });
   for (let start = 0; start < input.tiles.length; start += TILE_INSERT_CHUNK) {
     await db.prisma.linkRunTile.createMany({
@@ -36,8 +36,11 @@ export async function createLinkRun(db: Database, planId: string, input: { kind?
   return run;
 }
 
-export async function findLinkRun(db: Database, planId: string, id: string): Promise<LinkRunRow | null> {
-  return db.prisma.linkRun.findFirst({ where: { id, planId } });
+/** Kind of the fleet link table runs the API serves (other kinds are internal, e.g. siting matrices). */
+export const FLEET_LINKS_KIND = 'fleet-links';
+
+export async function findLinkRun(db: Database, planId: string, id: string, kind = FLEET_LINKS_KIND): Promise<LinkRunRow | null> {
+  return db.prisma.linkRun.findFirst({ where: { id, planId, kind } });
 }
 
 export async function findLinkRunById(db: Database, id: string): Promise<LinkRunRow | null> {
@@ -152,7 +155,7 @@ async function upsertLinkRowsOnce(tx: Pick<Database['prisma'], '$executeRaw'>, p
  */
 export async function completeLinkTile(
   db: Database,
-  input: { runId: string; planId: string; index: number; attempt: number; workerId: string; rows: readonly LinkRow[]; seconds: number },
+  input: { runId: string; planId: string; index: number; attempt: number; workerId: string; rows: readonly LinkRow[]; seconds: number; result?: unknown },
 ): Promise<{ written: number; runDone: boolean; writeSeconds: number }> {
   const t0 = performance.now();
   return db.prisma.$transaction(async (tx) => {
@@ -162,7 +165,8 @@ export async function completeLinkTile(
     if (owned !== 1) throw new LinkTileLost();
     const written = await upsertLinkRowsOnce(tx, input.planId, input.rows);
     const writeSeconds = (performance.now() - t0) / 1000;
-    await tx.$executeRaw`UPDATE "LinkRunTile" SET "linksWritten" = ${input.rows.length}, "seconds" = ${input.seconds + writeSeconds}, "writeSeconds" = ${writeSeconds}
+    const result = input.result === undefined ? null : JSON.stringify(input.result);
+    await tx.$executeRaw`UPDATE "LinkRunTile" SET "linksWritten" = ${input.rows.length}, "seconds" = ${input.seconds + writeSeconds}, "writeSeconds" = ${writeSeconds}, "result" = ${result}::jsonb
       WHERE "runId" = ${input.runId} AND "index" = ${input.index}`;
     await tx.$queryRaw`SELECT "id" FROM "LinkRun" WHERE "id" = ${input.runId} FOR UPDATE`;
     const finished = await tx.$executeRaw`UPDATE "LinkRun" SET "status" = 'done', "finishedAt" = CURRENT_TIMESTAMP
@@ -197,6 +201,16 @@ export async function cancelLinkRun(db: Database, planId: string, id: string): P
   return count === 1;
 }
 
+/** The results of a run's tiles in index order (a siting matrix's blocks). */
+export async function linkTileResults(db: Database, runId: string): Promise<Array<{ index: number; nodeIds: unknown; gatewayIds: unknown; result: unknown }>> {
+  return db.prisma.linkRunTile.findMany({ where: { runId }, select: { index: true, nodeIds: true, gatewayIds: true, result: true }, orderBy: { index: 'asc' } });
+}
+
+/** Unfinished runs of a kind whose params name this parent (e.g. the matrix of a siting run that restarted). */
+export async function unfinishedLinkRunsOf(db: Database, kind: string, parentKey: string, parentId: string): Promise<LinkRunRow[]> {
+  return db.prisma.linkRun.findMany({ where: { kind, status: { in: ['queued', 'running'] }, params: { path: [parentKey], equals: parentId } } });
+}
+
 /** Tile indices of a run not yet finished (to queue again after a restart), in order. */
 export async function unfinishedLinkTiles(db: Database, runId: string): Promise<number[]> {
   const rows = await db.prisma.linkRunTile.findMany({ where: { runId, status: { in: ['queued', 'running'] } }, select: { index: true }, orderBy: { index: 'asc' } });
@@ -209,7 +223,7 @@ export async function unfinishedLinkRuns(db: Database): Promise<LinkRunRow[]> {
 }
 
 export async function listLinkRuns(db: Database, planId: string, take = 20): Promise<LinkRunRow[]> {
-  return db.prisma.linkRun.findMany({ where: { planId }, orderBy: [{ createdAt: 'desc' }, { id: 'desc' }], take });
+  return db.prisma.linkRun.findMany({ where: { planId, kind: FLEET_LINKS_KIND }, orderBy: [{ createdAt: 'desc' }, { id: 'desc' }], take });
 }
 
 /** A run with no tile (nothing within range) is done as soon as it is recorded. */
