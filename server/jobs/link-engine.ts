@@ -443,26 +443,52 @@ export class LinkEngine {
       const path = stored && stored.pathHash === pathHash ? stored.path : (precomputed?.get(pathHash) ?? (await this.computePath(ctx, node, gateway)));
       inRange.push({ gateway, path, pathHash, row });
     }
-    const aim = nodeAimAzimuthDeg(node.kit, inRange);
-    const kit = aim === null ? node.kit : { ...node.kit, boresightAzimuthDeg: aim };
+    const { aim, links } = this.budgets(node, inRange);
     const toSave: LinkRow[] = [];
-    const links: LinkResult[] = [];
-    for (const entry of inRange) {
+    for (let e = 0; e < inRange.length; e++) {
+      const entry = inRange[e];
+      // The input hash only matters for the cache: skipped for previews with no row to compare.
+      if (!save && !entry.row) {
+        computed++;
+        continue;
+      }
       const inputHash = hashOf({ p: entry.pathHash, n: node.kitHash, g: entry.gateway.kitHash, r: ctx.radioSettingsHash, aim });
-      // The budget over a known path costs microseconds, so the row keeps the path (the
-      // expensive part) and a summary; the full result is rebuilt from them, identically.
-      const [link] = nodeLinkResults(kit, node.radio, [{ gatewayId: entry.gateway.row.id, path: entry.path, kit: entry.gateway.kit, radio: entry.gateway.radio }], node.radioSettings);
-      links.push(link);
       if (entry.row && entry.row.inputHash === inputHash && isStoredLink(entry.row.result)) {
         cached++;
         continue;
       }
       computed++;
-      if (save) toSave.push({ nodeId: node.row.id, gatewayId: entry.gateway.row.id, inputHash, result: { pathHash: entry.pathHash, path: entry.path, summary: linkSummary(link) } satisfies StoredLink });
+      if (save) toSave.push({ nodeId: node.row.id, gatewayId: entry.gateway.row.id, inputHash, result: { pathHash: entry.pathHash, path: entry.path, summary: linkSummary(links[e]) } satisfies StoredLink });
     }
     const summary = summariseNodeLinks(links, { targetMarginDb: ctx.settings.targetMarginDb, targetDelivery: ctx.settings.targetDelivery }, ctx.settings.gatewayCorrelation);
     const paths = new Map(inRange.map((entry) => [entry.gateway.row.id, entry.path]));
     return { outcome: { ...summary, node, paths, computed, cached, outOfRange }, toSave };
+  }
+
+  /**
+   * The budgets of one node over its paths, the aim of a directional node antenna fixed once at
+   * its best path (the link table's rule): the one place nodeLinks and linksOverPaths share.
+   */
+  private budgets(node: ResolvedNode, inRange: ReadonlyArray<{ gateway: GatewayContext; path: PathPrediction }>): { aim: number | null; links: LinkResult[] } {
+    const aim = nodeAimAzimuthDeg(node.kit, inRange);
+    const kit = aim === null ? node.kit : { ...node.kit, boresightAzimuthDeg: aim };
+    const links: LinkResult[] = [];
+    for (const entry of inRange) {
+      // The budget over a known path costs microseconds, so a Link row keeps the path (the
+      // expensive part) and a summary; the full result is rebuilt from them, identically.
+      const [link] = nodeLinkResults(kit, node.radio, [{ gatewayId: entry.gateway.row.id, path: entry.path, kit: entry.gateway.kit, radio: entry.gateway.radio }], node.radioSettings);
+      links.push(link);
+    }
+    return { aim, links };
+  }
+
+  /**
+   * A node's links over paths the caller already has (one per gateway, in range by the caller's
+   * rule): the same budgets as nodeLinks, with no cache, no hashing and no range check. The
+   * siting matrix calls it per node over its in-range candidates.
+   */
+  linksOverPaths(node: ResolvedNode, entries: ReadonlyArray<{ gateway: GatewayContext; path: PathPrediction }>): LinkResult[] {
+    return this.budgets(node, entries).links;
   }
 
   /** One node's links (saved to the cache unless it is a preview with overrides). */
