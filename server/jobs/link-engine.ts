@@ -9,6 +9,7 @@ import { existsSync } from 'node:fs';
 import { isAbsolute, join, resolve } from 'node:path';
 import type { Config } from '../config.ts';
 import { AppError } from '../app/errors.ts';
+import { changeStamp, GenerationMemo } from '../db/change-feed.ts';
 import type { Database } from '../db/client.ts';
 import { NotFoundError } from '../db/errors.ts';
 import type { GatewayRow } from '../db/repositories/gateways.ts';
@@ -153,6 +154,8 @@ export class LinkEngine {
   private readonly pool: LinkPathPool | null;
   /** Answers of recent node-links requests by plan:node, with the inputs' fingerprint (see frontKey). */
   private readonly front = new Map<string, { key: string; value: unknown }>();
+  /** Fingerprints of frontKey, valid for one generation of the database's change feed. */
+  private readonly frontKeys = new GenerationMemo<string>();
 
   constructor(
     private readonly db: Database,
@@ -170,9 +173,17 @@ export class LinkEngine {
 
   /** Fingerprint of a node's inputs: the plan row's version/time plus one query over the rest. */
   async frontKey(plan: PlanRow, nodeId: string, given?: AppliedCalibration | null): Promise<string> {
+    // The two queries below run once per generation of the change feed (any committed write
+    // to a plan, node, gateway, kit, terrain or calibration table moves it, in any process).
+    const stamp = changeStamp(this.db);
+    const memoKey = `${plan.id}:${nodeId}:${plan.version}:${plan.updatedAt.getTime()}:${given === undefined ? 'applied' : given ? hashOf(given) : '-'}`;
+    const memoised = this.frontKeys.get(memoKey, stamp);
+    if (memoised !== undefined) return memoised;
     const calibration = given !== undefined ? given : await this.appliedCalibration(plan.id);
     const rest = await nodeLinkFingerprint(this.db, plan.id, nodeId, plan.teamId);
-    return `${LINK_ENGINE_VERSION}|${plan.version}|${plan.updatedAt.toISOString()}|${calibration ? hashOf(calibration) : '-'}|${rest}`;
+    const key = `${LINK_ENGINE_VERSION}|${plan.version}|${plan.updatedAt.toISOString()}|${calibration ? hashOf(calibration) : '-'}|${rest}`;
+    this.frontKeys.set(memoKey, stamp, key);
+    return key;
   }
 
   /** A remembered answer whose inputs are unchanged, or undefined. */
@@ -443,26 +454,52 @@ export class LinkEngine {
       const path = stored && stored.pathHash === pathHash ? stored.path : (precomputed?.get(pathHash) ?? (await this.computePath(ctx, node, gateway)));
       inRange.push({ gateway, path, pathHash, row });
     }
-    const aim = nodeAimAzimuthDeg(node.kit, inRange);
-    const kit = aim === null ? node.kit : { ...node.kit, boresightAzimuthDeg: aim };
+    const { aim, links } = this.budgets(node, inRange);
     const toSave: LinkRow[] = [];
-    const links: LinkResult[] = [];
-    for (const entry of inRange) {
+    for (let e = 0; e < inRange.length; e++) {
+      const entry = inRange[e];
+      // The input hash only matters for the cache: skipped for previews with no row to compare.
+      if (!save && !entry.row) {
+        computed++;
+        continue;
+      }
       const inputHash = hashOf({ p: entry.pathHash, n: node.kitHash, g: entry.gateway.kitHash, r: ctx.radioSettingsHash, aim });
-      // The budget over a known path costs microseconds, so the row keeps the path (the
-      // expensive part) and a summary; the full result is rebuilt from them, identically.
-      const [link] = nodeLinkResults(kit, node.radio, [{ gatewayId: entry.gateway.row.id, path: entry.path, kit: entry.gateway.kit, radio: entry.gateway.radio }], node.radioSettings);
-      links.push(link);
       if (entry.row && entry.row.inputHash === inputHash && isStoredLink(entry.row.result)) {
         cached++;
         continue;
       }
       computed++;
-      if (save) toSave.push({ nodeId: node.row.id, gatewayId: entry.gateway.row.id, inputHash, result: { pathHash: entry.pathHash, path: entry.path, summary: linkSummary(link) } satisfies StoredLink });
+      if (save) toSave.push({ nodeId: node.row.id, gatewayId: entry.gateway.row.id, inputHash, result: { pathHash: entry.pathHash, path: entry.path, summary: linkSummary(links[e]) } satisfies StoredLink });
     }
     const summary = summariseNodeLinks(links, { targetMarginDb: ctx.settings.targetMarginDb, targetDelivery: ctx.settings.targetDelivery }, ctx.settings.gatewayCorrelation);
     const paths = new Map(inRange.map((entry) => [entry.gateway.row.id, entry.path]));
     return { outcome: { ...summary, node, paths, computed, cached, outOfRange }, toSave };
+  }
+
+  /**
+   * The budgets of one node over its paths, the aim of a directional node antenna fixed once at
+   * its best path (the link table's rule): the one place nodeLinks and linksOverPaths share.
+   */
+  private budgets(node: ResolvedNode, inRange: ReadonlyArray<{ gateway: GatewayContext; path: PathPrediction }>): { aim: number | null; links: LinkResult[] } {
+    const aim = nodeAimAzimuthDeg(node.kit, inRange);
+    const kit = aim === null ? node.kit : { ...node.kit, boresightAzimuthDeg: aim };
+    const links: LinkResult[] = [];
+    for (const entry of inRange) {
+      // The budget over a known path costs microseconds, so a Link row keeps the path (the
+      // expensive part) and a summary; the full result is rebuilt from them, identically.
+      const [link] = nodeLinkResults(kit, node.radio, [{ gatewayId: entry.gateway.row.id, path: entry.path, kit: entry.gateway.kit, radio: entry.gateway.radio }], node.radioSettings);
+      links.push(link);
+    }
+    return { aim, links };
+  }
+
+  /**
+   * A node's links over paths the caller already has (one per gateway, in range by the caller's
+   * rule): the same budgets as nodeLinks, with no cache, no hashing and no range check. The
+   * siting matrix calls it per node over its in-range candidates.
+   */
+  linksOverPaths(node: ResolvedNode, entries: ReadonlyArray<{ gateway: GatewayContext; path: PathPrediction }>): LinkResult[] {
+    return this.budgets(node, entries).links;
   }
 
   /** One node's links (saved to the cache unless it is a preview with overrides). */

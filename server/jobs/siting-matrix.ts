@@ -65,8 +65,10 @@ export class SitingCancelled extends Error {
   }
 }
 
-/** Path pairs per progress step (the pool works through each batch in parallel). */
-const BATCH_PAIRS = 400;
+/** Path pairs per group of nodes (a progress step; the pool works through each group in parallel). */
+const GROUP_PAIRS = 2000;
+/** Groups queued on the pool beyond the one being budgeted. */
+const GROUPS_AHEAD = 2;
 
 /** A candidate as a gateway row (it exists only in the run), so the link engine can resolve its kit. */
 export function candidateRow(ctx: PlanContext, candidate: SitingCandidate): GatewayRow {
@@ -142,7 +144,7 @@ export async function matrixInputs(engine: LinkEngine, ctx: PlanContext, candida
   return { nodes, broken, gateways, hash };
 }
 
-/** One block of the matrix: rows = `nodes`, columns = `gateways` (margins and the served rule per pair). */
+/** One block of the matrix: rows = the nodes given, columns = the gateways given (margins and the served rule per pair). */
 export interface SitingMatrixBlock {
   meets: boolean[][];
   marginDb: Array<Array<number | null>>;
@@ -151,14 +153,13 @@ export interface SitingMatrixBlock {
 }
 
 /**
- * Predicts a block of the matrix: the pairs within range and the horizon
- * allowance, their paths (the link engine's computePaths, batch by batch:
- * `onBatch(pairsDone, pairsTotal)` after each; false stops with SitingCancelled),
- * then the budgets through the link table's own nodeLinks, one node over its
- * in-range columns. A pair's numbers depend on that pair alone (and, for a
- * directional node aimed at its best-heard candidate, on the node's other
- * columns: such nodes need every column in one block), so blocks of a split
- * matrix put together equal the matrix predicted whole.
+ * Predicts a block of the matrix (rows `nodes`, columns `gateways`).
+ * `onBatch(pairsDone, pairsTotal)` is awaited after each group of paths; false
+ * (or SitingCancelled thrown) stops. A pair's numbers depend on that pair alone
+ * (and, for a directional node aimed at its best-heard candidate, on the node's
+ * other columns: such nodes need every column in one block), so the blocks of a
+ * split matrix (server/jobs/siting-matrix-split.ts) put together equal the
+ * matrix predicted whole.
  */
 export async function predictSitingBlock(
   engine: LinkEngine,
@@ -171,11 +172,10 @@ export async function predictSitingBlock(
   const reference = options.areaMinElevationM ?? 0;
   const ground = async (lat: number, lon: number) => (ctx.terrain ? ((await ctx.terrain.sampleElevation(lat, lon)) ?? reference) : 0);
   const candidateGround = await Promise.all(gateways.map((g) => ground(g.row.lat, g.row.lon)));
-  // 1. The pairs within range and within the horizon allowance.
+  // 1. The pairs within range and within the horizon allowance (no profile work for the others).
   const inRange: number[][] = [];
-  const pairs: LinkPathPair[] = [];
-  const pairKeys: string[] = [];
   let skipped = 0;
+  let predicted = 0;
   for (const node of nodes) {
     const nodeGround = await ground(node.row.lat, node.row.lon);
     const list: number[] = [];
@@ -188,46 +188,74 @@ export async function predictSitingBlock(
         continue;
       }
       list.push(j);
-      pairs.push({ node: pathEnd(node.row, node.antennaHeightAglM), gateway: pathEnd(g.row, g.row.antennaHeightAglM) });
-      pairKeys.push(engine.pathHash(ctx, node, g));
     }
+    predicted += list.length;
     inRange.push(list);
   }
-  // 2. Paths on the worker pool, batch by batch, with progress (paths are ~all of the time).
-  const precomputed = new Map<string, PathPrediction>();
-  for (let start = 0; start < pairs.length; start += BATCH_PAIRS) {
-    const batch = pairs.slice(start, start + BATCH_PAIRS);
-    const paths = await engine.computePaths(ctx, batch);
-    for (let b = 0; b < paths.length; b++) precomputed.set(pairKeys[start + b], paths[b]);
-    const go = await options.onBatch?.(start + batch.length, pairs.length);
-    if (go === false) throw new SitingCancelled();
-  }
-  // 3. Budgets through the link table's own nodeLinks, one node over its in-range candidates.
+  // 2. Paths on the worker pool in groups of nodes, a few groups queued ahead so the workers never
+  //    wait for this thread; each group's budgets are worked out as soon as its paths are back and
+  //    the paths are dropped (the matrix keeps two figures per pair, not the paths).
   const target = { targetMarginDb: ctx.settings.targetMarginDb, targetDelivery: ctx.settings.targetDelivery };
-  const columnOf = new Map(gateways.map((g, j) => [g.row.id, j]));
   const meets: boolean[][] = [];
   const marginDb: Array<Array<number | null>> = [];
-  for (let n = 0; n < nodes.length; n++) {
-    const node = nodes[n];
-    const meetRow = new Array<boolean>(gateways.length).fill(false);
-    const marginRow = new Array<number | null>(gateways.length).fill(null);
-    if (inRange[n].length > 0) {
-      const nodeCtx: PlanContext = { ...ctx, gateways: inRange[n].map((j) => gateways[j]) };
-      const { outcome } = await engine.nodeLinks(nodeCtx, node, [], false, precomputed);
-      for (const link of outcome.links) {
-        const j = columnOf.get(link.gatewayId) as number;
-        marginRow[j] = Math.round(link.marginDb * 100) / 100;
-        // The link table's served rule, applied to this one link.
-        meetRow[j] = linkStatus(link.marginDb, link.deliveryProbability, target) === 'served';
-      }
+  const groups: Array<{ start: number; end: number }> = [];
+  for (let start = 0, pairsInGroup = 0, n = 0; n < nodes.length; n++) {
+    pairsInGroup += inRange[n].length;
+    if (pairsInGroup >= GROUP_PAIRS || n === nodes.length - 1) {
+      groups.push({ start, end: n + 1 });
+      start = n + 1;
+      pairsInGroup = 0;
     }
-    meets.push(meetRow);
-    marginDb.push(marginRow);
   }
-  return { meets, marginDb, pairsPredicted: pairs.length, pairsSkipped: skipped };
+  const launch = (g: number): Promise<PathPrediction[]> => {
+    const pairs: LinkPathPair[] = [];
+    for (let n = groups[g].start; n < groups[g].end; n++) {
+      const node = nodes[n];
+      for (const j of inRange[n]) pairs.push({ node: pathEnd(node.row, node.antennaHeightAglM), gateway: pathEnd(gateways[j].row, gateways[j].row.antennaHeightAglM) });
+    }
+    const work = engine.computePaths(ctx, pairs);
+    work.catch(() => undefined); // awaited in order below; this only keeps a later group's failure from being reported as unhandled first
+    return work;
+  };
+  const queued: Array<Promise<PathPrediction[]>> = [];
+  let done = 0;
+  try {
+    for (let g = 0; g < groups.length; g++) {
+      for (let ahead = queued.length; ahead < Math.min(groups.length, g + 1 + GROUPS_AHEAD); ahead++) queued.push(launch(ahead));
+      const paths = await queued[g];
+      queued[g] = Promise.resolve([]);
+      let offset = 0;
+      for (let n = groups[g].start; n < groups[g].end; n++) {
+        const node = nodes[n];
+        const meetRow = new Array<boolean>(gateways.length).fill(false);
+        const marginRow = new Array<number | null>(gateways.length).fill(null);
+        const list = inRange[n];
+        if (list.length > 0) {
+          // The link table's budgets (server/jobs/link-engine.ts), one node over its in-range candidates.
+          const links = engine.linksOverPaths(node, list.map((j, b) => ({ gateway: gateways[j], path: paths[offset + b] })));
+          for (let b = 0; b < list.length; b++) {
+            const link = links[b];
+            marginRow[list[b]] = Math.round(link.marginDb * 100) / 100;
+            // The link table's served rule, applied to this one link.
+            meetRow[list[b]] = linkStatus(link.marginDb, link.deliveryProbability, target) === 'served';
+          }
+          offset += list.length;
+        }
+        meets.push(meetRow);
+        marginDb.push(marginRow);
+      }
+      done += offset;
+      const go = await options.onBatch?.(done, predicted);
+      if (go === false) throw new SitingCancelled();
+    }
+  } finally {
+    // A stopped run leaves no work behind it unawaited.
+    await Promise.allSettled(queued);
+  }
+  return { meets, marginDb, pairsPredicted: predicted, pairsSkipped: skipped };
 }
 
-/** Puts the matrix together from its rows of usable nodes (a whole block, or assembled tiles) and the unusable nodes. */
+/** Puts the matrix together from the rows of the usable nodes (a whole block, or assembled blocks) and the unusable nodes. */
 export function assembleSitingMatrix(ctx: PlanContext, candidates: readonly SitingCandidate[], inputs: MatrixInputs, block: SitingMatrixBlock): SitingMatrix {
   const { nodes, broken, gateways } = inputs;
   const warnings: string[] = [...ctx.warnings];
@@ -240,7 +268,7 @@ export function assembleSitingMatrix(ctx: PlanContext, candidates: readonly Siti
 }
 
 /**
- * Predicts the matrix in this process. `onProgress(fraction)` is awaited after each batch; it
+ * Predicts the matrix in this process. `onProgress(fraction)` is awaited after each group; it
  * may throw SitingCancelled (or return false) to stop.
  */
 export async function computeSitingMatrix(

@@ -6,7 +6,7 @@
 // smooth earth at 0 m.
 import type { TerrainStore, Interpolation } from '../terrain/store.ts';
 import { extractProfile } from '../terrain/profile.ts';
-import { bearingsBetween } from './geometry.ts';
+import { bearingsBetween, bearingsOf } from './geometry.ts';
 import { predictPath, type PathEnd, type PathPrediction, type PathProfile, type PathSettings } from './path.ts';
 
 /** The plan settings a path depends on (a structured-clone-safe subset of ResolvedLinkSettings). */
@@ -22,11 +22,12 @@ export type LinkProfile = PathProfile & { lat: Float64Array | null; lon: Float64
 /** The terrain profile node → gateway (smooth earth at 0 m without terrain). */
 export async function linkProfile(terrain: TerrainStore | null, settings: LinkPathSettings, from: { lat: number; lon: number }, to: { lat: number; lon: number }): Promise<LinkProfile> {
   if (!terrain) {
-    const lengthM = bearingsBetween(from.lat, from.lon, to.lat, to.lon).distanceM;
+    const bearings = bearingsBetween(from.lat, from.lon, to.lat, to.lon);
+    const lengthM = bearings.distanceM;
     const count = Math.max(3, Math.min(2001, Math.ceil(lengthM / 30) + 1));
     const distanceM = new Float64Array(count);
     for (let i = 0; i < count; i++) distanceM[i] = (lengthM * i) / (count - 1);
-    return { distanceM, groundM: new Float64Array(count), clutterHeightM: null, lat: null, lon: null, filledPoints: 0 };
+    return { distanceM, groundM: new Float64Array(count), clutterHeightM: null, lat: null, lon: null, filledPoints: 0, bearings };
   }
   const step = settings.profileStepM ?? undefined;
   let profile;
@@ -51,7 +52,9 @@ export async function linkProfile(terrain: TerrainStore | null, settings: LinkPa
   }
   const filledPoints = fillGaps(groundM);
   if (clutter) for (let i = 0; i < clutter.length; i++) if (!Number.isFinite(clutter[i])) clutter[i] = 0;
-  return { distanceM, groundM, clutterHeightM: clutter, lat: profile.lat, lon: profile.lon, filledPoints };
+  // The profile solved the geodesic from → to once; the path's bearings reuse that solution.
+  const bearings = bearingsOf({ distanceM: profile.lengthM, azimuthFromDeg: profile.azimuthFromDeg, azimuthToDeg: profile.azimuthToDeg });
+  return { distanceM, groundM, clutterHeightM: clutter, lat: profile.lat, lon: profile.lon, filledPoints, bearings };
 }
 
 /** Profile + path prediction of one node → gateway pair. */

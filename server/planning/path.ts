@@ -5,7 +5,7 @@
 // The node is the transmitter (uplink); the profile runs node → gateway.
 import { predictPath as predictPropagationPath, zoneCode, type ProfileArrays } from '../propagation/path-prediction.ts';
 import { PATH_METHODS, type PathMethod, type PathRequest } from '../propagation/path-request.ts';
-import { bearingsBetween, medianEarthFactor, pathElevationDeg } from './geometry.ts';
+import { bearingsBetween, medianEarthFactor, pathElevationDeg, type Bearings } from './geometry.ts';
 
 export type PropagationMethodId = PathMethod;
 export const PROPAGATION_METHODS: readonly PropagationMethodId[] = PATH_METHODS;
@@ -18,6 +18,8 @@ export interface PathProfile {
   groundM: Float64Array;
   /** Representative clutter height at each point, m (null = no clutter layer). */
   clutterHeightM: Float64Array | null;
+  /** Bearings node → gateway when the profile already solved the geodesic (else predictPath solves it). */
+  bearings?: Bearings;
 }
 
 export interface PathEnd {
@@ -83,7 +85,7 @@ export function predictPath(profile: PathProfile, settings: PathSettings, node: 
   const count = profile.distanceM.length;
   if (count < 3) throw new RangeError('profile: needs at least 3 points');
   const warnings: string[] = [];
-  const bearings = bearingsBetween(node.lat, node.lon, gateway.lat, gateway.lon);
+  const bearings = profile.bearings ?? bearingsBetween(node.lat, node.lon, gateway.lat, gateway.lon);
   const nodeHeightM = Math.max(node.antennaHeightAglM, MIN_PATH_ANTENNA_HEIGHT_M);
   const gatewayHeightM = Math.max(gateway.antennaHeightAglM, MIN_PATH_ANTENNA_HEIGHT_M);
   if (node.antennaHeightAglM < MIN_PATH_ANTENNA_HEIGHT_M) {
@@ -114,7 +116,10 @@ export function predictPath(profile: PathProfile, settings: PathSettings, node: 
   const result = predictPropagationPath(request, arrays);
   warnings.push(...result.warnings);
   const terms: Record<string, number> = {};
-  for (const [key, value] of Object.entries(result.terms)) if (typeof value === 'number') terms[key] = value;
+  for (const key in result.terms) {
+    const value = result.terms[key as keyof typeof result.terms];
+    if (typeof value === 'number') terms[key] = value;
+  }
   return {
     ...pathAtPlace({
       method: settings.method,

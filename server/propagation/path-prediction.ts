@@ -3,7 +3,7 @@
 import { bullingtonLossDb } from './bullington.ts';
 import { deygoutLossDb } from './deygout.ts';
 import { freeSpaceLossDb } from './free-space.ts';
-import { analysePathGeometry, EARTH_RADIUS_KM } from './path-geometry.ts';
+import { EARTH_RADIUS_KM, pathClearance } from './path-geometry.ts';
 import type { PathMethod, PathRequest } from './path-request.ts';
 import { fieldStrengthDbuvm } from './p1812/location-variability.ts';
 import { predictP1812, type P1812Detail } from './p1812/predict.ts';
@@ -90,7 +90,8 @@ export function predictPath(request: PathRequest, profile: ProfileArrays): PathP
   const lengthKm = profile.distanceKm[n - 1] - profile.distanceKm[0];
   const k50 = 157 / (157 - request.refractivity.deltaN); // P.1812-8 Eq. (7a), also used for the geometry
   const aeKm = EARTH_RADIUS_KM * k50;
-  const geometry = analysePathGeometry({
+  // Only line of sight, the worst clearance and the worst 10 obstructions are read below (no per-point arrays).
+  const geometry = pathClearance({
     distanceKm: profile.distanceKm,
     groundM: profile.groundM,
     clutterM: profile.clutterM,
@@ -211,11 +212,7 @@ export function predictPath(request: PathRequest, profile: ProfileArrays): PathP
     distanceKm: lengthKm,
     kFactor: k50,
     terms,
-    obstructions: geometry.obstructions.slice(0, 10).map((o) => ({
-      distanceKm: o.distanceKm,
-      clearanceM: o.clearanceM,
-      clearanceRatio: o.clearanceRatio,
-    })),
+    obstructions: geometry.obstructions,
     ...(p1812 ? { p1812 } : {}),
     ...(edgesKm ? { edgesKm } : {}),
     warnings,
