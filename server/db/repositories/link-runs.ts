@@ -101,11 +101,11 @@ export async function linkRunTotals(db: Database, runId: string): Promise<LinkRu
  * tile or its run is finished (a duplicate delivery, or a cancel): drop the job.
  */
 export async function claimLinkTile(db: Database, runId: string, index: number, workerId: string): Promise<number | null> {
-  const rows = await db.prisma.$queryRaw<Array<{ attempts: number }>>`UPDATE "LinkRunTile" AS t
+  const rows = await retryTransient(() => db.prisma.$queryRaw<Array<{ attempts: number }>>`UPDATE "LinkRunTile" AS t
       SET "status" = 'running', "attempts" = t."attempts" + 1, "workerIds" = t."workerIds" || jsonb_build_array(${workerId}::text), "startedAt" = CURRENT_TIMESTAMP, "error" = NULL
     FROM "LinkRun" AS r
     WHERE t."runId" = ${runId} AND t."index" = ${index} AND t."status" IN ('queued', 'running') AND r."id" = t."runId" AND r."status" IN ('queued', 'running')
-    RETURNING t."attempts"`;
+    RETURNING t."attempts"`);
   if (rows.length === 0) return null;
   await db.prisma.linkRun.updateMany({ where: { id: runId, status: 'queued' }, data: { status: 'running', startedAt: new Date() } });
   return Number(rows[0].attempts);
@@ -116,6 +116,24 @@ export async function linkTileStillOwned(db: Database, runId: string, index: num
   const rows = await db.prisma.$queryRaw<Array<{ ok: number }>>`SELECT 1 AS ok FROM "LinkRunTile" t JOIN "LinkRun" r ON r."id" = t."runId"
     WHERE t."runId" = ${runId} AND t."index" = ${index} AND t."attempts" = ${attempt} AND t."status" = 'running' AND r."status" = 'running'`;
   return rows.length === 1;
+}
+
+/** PostgreSQL's deadlock and serialization failures: the transaction was rolled back whole and may simply run again. */
+function isTransient(error: unknown): boolean {
+  const text = error instanceof Error ? error.message : String(error);
+  return /40P01|40001|deadlock detected|could not serialize/.test(text);
+}
+
+/** Runs a transaction again (up to 4 times, with a short random pause) when PostgreSQL aborted it as a deadlock victim. */
+async function retryTransient<T>(work: () => Promise<T>): Promise<T> {
+  for (let attempt = 1; ; attempt++) {
+    try {
+      return await work();
+    } catch (error) {
+      if (attempt >= 4 || !isTransient(error)) throw error;
+      await new Promise((resolve) => setTimeout(resolve, 20 + Math.random() * 80 * attempt));
+    }
+  }
 }
 
 /** Raised inside the completion transaction when the attempt lost its tile; rolls everything back. */
@@ -158,7 +176,8 @@ export async function completeLinkTile(
   input: { runId: string; planId: string; index: number; attempt: number; workerId: string; rows: readonly LinkRow[]; seconds: number; result?: unknown },
 ): Promise<{ written: number; runDone: boolean; writeSeconds: number }> {
   const t0 = performance.now();
-  return db.prisma.$transaction(async (tx) => {
+  // Lock order everywhere: tile rows first, then the run row (cancel and fail follow it too).
+  return retryTransient(() => db.prisma.$transaction(async (tx) => {
     const owned = await tx.$executeRaw`UPDATE "LinkRunTile" SET "status" = 'done', "doneBy" = ${input.workerId}, "finishedAt" = CURRENT_TIMESTAMP
       WHERE "runId" = ${input.runId} AND "index" = ${input.index} AND "attempts" = ${input.attempt} AND "status" = 'running'
         AND EXISTS (SELECT 1 FROM "LinkRun" r WHERE r."id" = ${input.runId} AND r."status" = 'running')`;
@@ -172,7 +191,7 @@ export async function completeLinkTile(
     const finished = await tx.$executeRaw`UPDATE "LinkRun" SET "status" = 'done', "finishedAt" = CURRENT_TIMESTAMP
       WHERE "id" = ${input.runId} AND "status" = 'running' AND NOT EXISTS (SELECT 1 FROM "LinkRunTile" t WHERE t."runId" = ${input.runId} AND t."status" <> 'done')`;
     return { written, runDone: finished === 1, writeSeconds };
-  }, transactionLimits);
+  }, transactionLimits));
 }
 
 /**
@@ -186,18 +205,23 @@ export async function failLinkTile(db: Database, input: { runId: string; index: 
     await db.prisma.linkRunTile.updateMany({ where: { runId: input.runId, index: input.index, attempts: input.attempt, status: 'running' }, data: { status: 'queued', error } });
     return;
   }
-  await db.prisma.$transaction(async (tx) => {
-    await tx.linkRunTile.updateMany({ where: { runId: input.runId, index: input.index, attempts: input.attempt, status: { in: ['queued', 'running'] } }, data: { status: 'failed', error, finishedAt: new Date() } });
-    await tx.linkRun.updateMany({ where: { id: input.runId, status: { in: ['queued', 'running'] } }, data: { status: 'failed', error: `tile ${input.index}: ${error}`.slice(0, 2000), finishedAt: new Date() } });
-    // The other tiles of a failed run stop where they are (their completion finds the run no longer running).
-    await tx.linkRunTile.updateMany({ where: { runId: input.runId, status: 'queued' }, data: { status: 'cancelled', finishedAt: new Date() } });
-  }, transactionLimits);
+  await retryTransient(() =>
+    db.prisma.$transaction(async (tx) => {
+      await tx.linkRunTile.updateMany({ where: { runId: input.runId, index: input.index, attempts: input.attempt, status: { in: ['queued', 'running'] } }, data: { status: 'failed', error, finishedAt: new Date() } });
+      // The other tiles of a failed run stop where they are (their completion finds the run no longer running).
+      await tx.linkRunTile.updateMany({ where: { runId: input.runId, status: 'queued' }, data: { status: 'cancelled', finishedAt: new Date() } });
+      await tx.linkRun.updateMany({ where: { id: input.runId, status: { in: ['queued', 'running'] } }, data: { status: 'failed', error: `tile ${input.index}: ${error}`.slice(0, 2000), finishedAt: new Date() } });
+    }, transactionLimits),
+  );
 }
 
 /** A run (queued or running) and every unfinished tile → cancelled; false when the run had already finished. */
 export async function cancelLinkRun(db: Database, planId: string, id: string): Promise<boolean> {
+  // Tiles first, then the run: the order a tile's completion takes its locks in, so the two cannot deadlock.
+  const run = await db.prisma.linkRun.findFirst({ where: { id, planId, status: { in: ['queued', 'running'] } }, select: { id: true } });
+  if (!run) return false;
+  await db.prisma.linkRunTile.updateMany({ where: { runId: id, status: { in: ['queued', 'running'] } }, data: { status: 'cancelled', finishedAt: new Date() } });
   const { count } = await db.prisma.linkRun.updateMany({ where: { id, planId, status: { in: ['queued', 'running'] } }, data: { status: 'cancelled', finishedAt: new Date() } });
-  if (count === 1) await db.prisma.linkRunTile.updateMany({ where: { runId: id, status: { in: ['queued', 'running'] } }, data: { status: 'cancelled', finishedAt: new Date() } });
   return count === 1;
 }
 
