@@ -9,6 +9,7 @@ import { existsSync } from 'node:fs';
 import { isAbsolute, join, resolve } from 'node:path';
 import type { Config } from '../config.ts';
 import { AppError } from '../app/errors.ts';
+import { changeStamp, GenerationMemo } from '../db/change-feed.ts';
 import type { Database } from '../db/client.ts';
 import { NotFoundError } from '../db/errors.ts';
 import type { GatewayRow } from '../db/repositories/gateways.ts';
@@ -155,6 +156,8 @@ export class LinkEngine {
   private readonly scratch = newPathScratch();
   /** Answers of recent node-links requests by plan:node, with the inputs' fingerprint (see frontKey). */
   private readonly front = new Map<string, { key: string; value: unknown }>();
+  /** Fingerprints of frontKey, valid for one generation of the database's change feed. */
+  private readonly frontKeys = new GenerationMemo<string>();
 
   constructor(
     private readonly db: Database,
@@ -172,9 +175,17 @@ export class LinkEngine {
 
   /** Fingerprint of a node's inputs: the plan row's version/time plus one query over the rest. */
   async frontKey(plan: PlanRow, nodeId: string, given?: AppliedCalibration | null): Promise<string> {
+    // The two queries below run once per generation of the change feed (any committed write
+    // to a plan, node, gateway, kit, terrain or calibration table moves it, in any process).
+    const stamp = changeStamp(this.db);
+    const memoKey = `${plan.id}:${nodeId}:${plan.version}:${plan.updatedAt.getTime()}:${given === undefined ? 'applied' : given ? hashOf(given) : '-'}`;
+    const memoised = this.frontKeys.get(memoKey, stamp);
+    if (memoised !== undefined) return memoised;
     const calibration = given !== undefined ? given : await this.appliedCalibration(plan.id);
     const rest = await nodeLinkFingerprint(this.db, plan.id, nodeId, plan.teamId);
-    return `${LINK_ENGINE_VERSION}|${plan.version}|${plan.updatedAt.toISOString()}|${calibration ? hashOf(calibration) : '-'}|${rest}`;
+    const key = `${LINK_ENGINE_VERSION}|${plan.version}|${plan.updatedAt.toISOString()}|${calibration ? hashOf(calibration) : '-'}|${rest}`;
+    this.frontKeys.set(memoKey, stamp, key);
+    return key;
   }
 
   /** A remembered answer whose inputs are unchanged, or undefined. */

@@ -139,3 +139,13 @@ export async function nodeLinkFingerprint(db: Database, planId: string, nodeId: 
     (SELECT count(*) FROM "FeedlineType" WHERE "teamId" = ${teamId} OR "teamId" IS NULL) AS feedlines`;
   return JSON.stringify(rows[0] ?? {}, (_key, value: unknown) => (typeof value === 'bigint' ? value.toString() : value));
 }
+
+/** Nodes of a plan by id (a tile of a link run), in the fleet table's order. */
+export async function listNodesByIds(db: Database, planId: string, ids: readonly string[]) {
+  return db.prisma.node.findMany({ where: { planId, id: { in: [...ids] } }, orderBy: [{ createdAt: 'asc' }, { id: 'asc' }] });
+}
+
+/** Cached rows of some nodes to some gateways (a tile of a link run). */
+export async function listLinkRowsFor(db: Database, planId: string, nodeIds: readonly string[], gatewayIds: readonly string[]): Promise<LinkRow[]> {
+  return db.prisma.link.findMany({ where: { planId, nodeId: { in: [...nodeIds] }, gatewayId: { in: [...gatewayIds] } }, select: { nodeId: true, gatewayId: true, inputHash: true, result: true } });
+}

@@ -55,8 +55,8 @@ export function kitLabel(store: PlanStore, kit: { antennaDesignId?: string | nul
 export async function renderNodePanel(panel: HTMLElement, store: PlanStore, node: FleetNode, actions: Actions, signal: AbortSignal = new AbortController().signal): Promise<void> {
   const status: NodeClass = store.fleet.get(node.id)?.status ?? 'unknown';
   panel.append(
-    h('h2', { id: 'node-panel-title' }, symbolElement(nodeSymbolSvg(status, 18), ''), ` Node ${node.name}`),
-    h('p', { class: `status-line status-${status}` }, statusStyle[status].label),
+    h('h2', { id: 'node-panel-title', 'data-status': status }, symbolElement(nodeSymbolSvg(status, 18), ''), ` Node ${node.name}`),
+    h('p', { class: `status-line status-${status}`, id: 'node-status-line' }, statusStyle[status].label),
     h(
       'dl',
       { class: 'facts' },
@@ -104,7 +104,12 @@ export async function renderNodePanel(panel: HTMLElement, store: PlanStore, node
   await Promise.all([
     settle(
       getNodeLinks(store.planId, node.id, undefined, signal),
-      (links) => renderLinks(linksBox, store, links),
+      (links) => {
+        renderLinks(linksBox, store, links);
+        // The links just predicted carry the node's status (same server rule as the fleet
+        // table, which may still be recomputing after an edit): the heading agrees with them.
+        showNodeStatus(panel, links.status);
+      },
       (err) => {
         clear(linksBox);
         linksBox.append(h('h3', { id: 'links-h' }, 'Links to gateways'), notAvailable(err, 'Link prediction'));
@@ -130,6 +135,17 @@ export async function renderNodePanel(panel: HTMLElement, store: PlanStore, node
       },
     ),
   ]);
+}
+
+/** Puts a node's status in the open panel's heading and status line (no re-render). */
+export function showNodeStatus(panel: HTMLElement, status: NodeClass): void {
+  const title = panel.querySelector<HTMLElement>('#node-panel-title');
+  const line = panel.querySelector<HTMLElement>('#node-status-line');
+  if (!title || !line || title.dataset.status === status) return;
+  title.dataset.status = status;
+  title.querySelector('.symbol')?.replaceWith(symbolElement(nodeSymbolSvg(status, 18), ''));
+  line.className = `status-line status-${status}`;
+  line.textContent = statusStyle[status].label;
 }
 
 function gatewayName(store: PlanStore, id: string): string {
