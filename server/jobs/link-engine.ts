@@ -25,7 +25,7 @@ import { computeLinkPath, linkProfile, type LinkProfile } from '../planning/link
 import { LinkPathPool, type LinkPathPair, type LinkTerrainSpec } from './link-pool.ts';
 import type { EndKit, GatewayRadio, LinkRadioSettings, LinkResult, NodeRadio } from '../planning/link.ts';
 import { hashOf, hashOfShared, LINK_ENGINE_VERSION, nodeAimAzimuthDeg, nodeLinkResults, summariseNodeLinks, type NodeLinkSummary } from '../planning/node-links.ts';
-import type { PathPrediction } from '../planning/path.ts';
+import { newPathScratch, type PathPrediction } from '../planning/path.ts';
 import { resolveLinkSettings, type ResolvedLinkSettings } from '../planning/settings.ts';
 import type { AppliedCalibration } from '../planning/spread.ts';
 import { findAppliedCalibration } from '../db/repositories/calibrations.ts';
@@ -152,6 +152,8 @@ function cachedLookup<T>(cache: Map<string, Promise<T>>, id: string, load: () =>
 export class LinkEngine {
   private readonly stores = new Map<string, { signature: string; spec: LinkTerrainSpec; store: Promise<TerrainStore> }>();
   private readonly pool: LinkPathPool | null;
+  /** P.1812 scratch for paths predicted in this thread (see PathScratch). */
+  private readonly scratch = newPathScratch();
   /** Answers of recent node-links requests by plan:node, with the inputs' fingerprint (see frontKey). */
   private readonly front = new Map<string, { key: string; value: unknown }>();
   /** Fingerprints of frontKey, valid for one generation of the database's change feed. */
@@ -417,7 +419,7 @@ export class LinkEngine {
   }
 
   private computePath(ctx: PlanContext, node: ResolvedNode, gateway: GatewayContext): Promise<PathPrediction> {
-    return computeLinkPath(ctx.terrain, ctx.settings, pathEnd(node.row, node.antennaHeightAglM), pathEnd(gateway.row, gateway.row.antennaHeightAglM));
+    return computeLinkPath(ctx.terrain, ctx.settings, pathEnd(node.row, node.antennaHeightAglM), pathEnd(gateway.row, gateway.row.antennaHeightAglM), this.scratch);
   }
 
   /**
@@ -427,7 +429,7 @@ export class LinkEngine {
   async computePaths(ctx: PlanContext, pairs: readonly LinkPathPair[]): Promise<PathPrediction[]> {
     if (this.pool && pairs.length >= MIN_POOL_PAIRS) return this.pool.computePaths(ctx.terrainSpec, ctx.settings, pairs);
     const paths: PathPrediction[] = [];
-    for (const pair of pairs) paths.push(await computeLinkPath(ctx.terrain, ctx.settings, pair.node, pair.gateway));
+    for (const pair of pairs) paths.push(await computeLinkPath(ctx.terrain, ctx.settings, pair.node, pair.gateway, this.scratch));
     return paths;
   }
 
