@@ -125,8 +125,10 @@ describe('map tools (chromium)', () => {
     await screenshot(page, 'field-map-chooser');
     await chooser.getByRole('button', { name: `Candidate site ${siteName}` }).click();
     await expect.poll(() => textOf('#detail-title')).toBe(`Candidate site: ${siteName}`);
-    // The gateway is one click away too.
+    // The gateway is one click away too (the first chooser fades out in 200 ms first).
+    await expect.poll(() => page.locator('#marker-chooser').count()).toBe(0);
     await page.locator(`.marker-gateways[title="Gateway ${gateway.name}"]`).click();
+    await expect.poll(() => page.locator('#marker-chooser').count()).toBe(1);
     await page.locator('#marker-chooser').getByRole('button', { name: `Gateway ${gateway.name}` }).click();
     await expect.poll(() => textOf('#detail-title')).toBe(`Gateway: ${gateway.name}`);
     watch.assertClean();
