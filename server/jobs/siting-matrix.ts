@@ -69,6 +69,8 @@ export class SitingCancelled extends Error {
 const GROUP_PAIRS = 2000;
 /** Groups queued on the pool beyond the one being budgeted. */
 const GROUPS_AHEAD = 2;
+/** Longest stretch of budgets between two turns of the event loop, ms. */
+const YIELD_EVERY_MS = 3;
 
 /** A candidate as a gateway row (it exists only in the run), so the link engine can resolve its kit. */
 export function candidateRow(ctx: PlanContext, candidate: SitingCandidate): GatewayRow {
@@ -225,7 +227,14 @@ export async function predictSitingBlock(
       const paths = await queued[g];
       queued[g] = Promise.resolve([]);
       let offset = 0;
+      let lastYield = performance.now();
       for (let n = groups[g].start; n < groups[g].end; n++) {
+        // Let the pool's messages in every few ms, so a worker that finished a task gets its next
+        // one now rather than after this group's budgets (the workers, not this loop, are the cost).
+        if (performance.now() - lastYield > YIELD_EVERY_MS) {
+          await new Promise<void>((resolve) => setImmediate(resolve));
+          lastYield = performance.now();
+        }
         const node = nodes[n];
         const meetRow = new Array<boolean>(gateways.length).fill(false);
         const marginRow = new Array<number | null>(gateways.length).fill(null);

@@ -7,7 +7,7 @@
 import type { TerrainStore, Interpolation } from '../terrain/store.ts';
 import { extractProfile } from '../terrain/profile.ts';
 import { bearingsBetween, bearingsOf } from './geometry.ts';
-import { predictPath, type PathEnd, type PathPrediction, type PathProfile, type PathSettings } from './path.ts';
+import { predictPath, type PathEnd, type PathPrediction, type PathProfile, type PathScratch, type PathSettings } from './path.ts';
 
 /** The plan settings a path depends on (a structured-clone-safe subset of ResolvedLinkSettings). */
 export interface LinkPathSettings {
@@ -57,10 +57,10 @@ export async function linkProfile(terrain: TerrainStore | null, settings: LinkPa
   return { distanceM, groundM, clutterHeightM: clutter, lat: profile.lat, lon: profile.lon, filledPoints, bearings };
 }
 
-/** Profile + path prediction of one node → gateway pair. */
-export async function computeLinkPath(terrain: TerrainStore | null, settings: LinkPathSettings, node: PathEnd, gateway: PathEnd): Promise<PathPrediction> {
+/** Profile + path prediction of one node → gateway pair (`scratch`: see PathScratch). */
+export async function computeLinkPath(terrain: TerrainStore | null, settings: LinkPathSettings, node: PathEnd, gateway: PathEnd, scratch?: PathScratch): Promise<PathPrediction> {
   const profile = await linkProfile(terrain, settings, node, gateway);
-  const path = predictPath(profile, settings.path, node, gateway);
+  const path = predictPath(profile, settings.path, node, gateway, scratch);
   if (profile.filledPoints > 0) path.warnings.push(`${profile.filledPoints} profile points had no terrain data and were filled from their neighbours`);
   return path;
 }

@@ -4,6 +4,7 @@
 // (bearing and elevation of the path).
 // The node is the transmitter (uplink); the profile runs node → gateway.
 import { predictPath as predictPropagationPath, zoneCode, type ProfileArrays } from '../propagation/path-prediction.ts';
+import { P1812Predictor } from '../propagation/p1812/predict.ts';
 import { PATH_METHODS, type PathMethod, type PathRequest } from '../propagation/path-request.ts';
 import { bearingsBetween, medianEarthFactor, pathElevationDeg, type Bearings } from './geometry.ts';
 
@@ -80,8 +81,21 @@ export interface PathPrediction {
   warnings: string[];
 }
 
+/**
+ * Scratch a caller that predicts many paths keeps between them (a worker thread, the link
+ * engine): the P.1812 predictor's arrays are reused instead of allocated per path. Used
+ * synchronously within one prediction, so one scratch may serve interleaved async callers.
+ */
+export interface PathScratch {
+  p1812: P1812Predictor;
+}
+
+export function newPathScratch(): PathScratch {
+  return { p1812: new P1812Predictor() };
+}
+
 /** Predicts the path loss of one node → gateway path over `profile`. */
-export function predictPath(profile: PathProfile, settings: PathSettings, node: PathEnd, gateway: PathEnd): PathPrediction {
+export function predictPath(profile: PathProfile, settings: PathSettings, node: PathEnd, gateway: PathEnd, scratch?: PathScratch): PathPrediction {
   const count = profile.distanceM.length;
   if (count < 3) throw new RangeError('profile: needs at least 3 points');
   const warnings: string[] = [];
@@ -113,7 +127,7 @@ export function predictPath(profile: PathProfile, settings: PathSettings, node: 
     rx: { lat: gateway.lat, lon: gateway.lon, heightAglM: gatewayHeightM },
     terrainZone: settings.zone,
   };
-  const result = predictPropagationPath(request, arrays);
+  const result = predictPropagationPath(request, arrays, scratch?.p1812);
   warnings.push(...result.warnings);
   const terms: Record<string, number> = {};
   for (const key in result.terms) {

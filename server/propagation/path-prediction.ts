@@ -6,7 +6,7 @@ import { freeSpaceLossDb } from './free-space.ts';
 import { EARTH_RADIUS_KM, pathClearance } from './path-geometry.ts';
 import type { PathMethod, PathRequest } from './path-request.ts';
 import { fieldStrengthDbuvm } from './p1812/location-variability.ts';
-import { predictP1812, type P1812Detail } from './p1812/predict.ts';
+import { P1812Predictor, type P1812Detail } from './p1812/predict.ts';
 import { pathCentreLatitudeDeg } from './p1812/radio-climate.ts';
 import { ZONE_COASTAL_LAND, ZONE_INLAND, ZONE_SEA } from './p1812/types.ts';
 
@@ -83,8 +83,11 @@ function finiteOr(value: number, fallback: number): number {
   return Number.isFinite(value) ? value : fallback;
 }
 
-/** Runs the requested method over `profile`. */
-export function predictPath(request: PathRequest, profile: ProfileArrays): PathPrediction {
+/**
+ * Runs the requested method over `profile`. `p1812` may be a predictor the caller keeps between
+ * calls (its scratch arrays are reused; the answer holds no reference to them), else one is made.
+ */
+export function predictPath(request: PathRequest, profile: ProfileArrays, p1812Predictor?: P1812Predictor): PathPrediction {
   const warnings: string[] = [];
   const n = profile.distanceKm.length;
   const lengthKm = profile.distanceKm[n - 1] - profile.distanceKm[0];
@@ -128,7 +131,7 @@ export function predictPath(request: PathRequest, profile: ProfileArrays): PathP
       for (const [name, end] of [['tx', request.tx], ['rx', request.rx]] as const) {
         if (end.heightAglM < 1) warnings.push(`${name}.heightAglM below 1 m: outside the antenna height range of ITU-R P.1812-8`);
       }
-      const result = predictP1812({
+      const result = (p1812Predictor ?? new P1812Predictor()).predict({
         frequencyMhz: request.frequencyMhz,
         timePercent: request.timePercent,
         locationPercent: request.locationPercent,

@@ -12,6 +12,7 @@ import { openDatabase } from '../../server/db/client.ts';
 import { seedDemo } from '../../server/demo.ts';
 import { LinkEngine } from '../../server/jobs/link-engine.ts';
 import { computeLinkPath } from '../../server/planning/link-path.ts';
+import * as pathModule from '../../server/planning/path.ts';
 
 function random(seed: number): () => number {
   let a = seed >>> 0;
@@ -55,8 +56,10 @@ try {
       let points = 0;
       let lossSum = 0;
       const dump: string[] = [];
+      // As a link worker does (the scratch exists after this change; the code before has none).
+      const scratch = 'newPathScratch' in pathModule ? (pathModule as unknown as { newPathScratch: () => never }).newPathScratch() : undefined;
       for (const p of pairs) {
-        const path = await computeLinkPath(ctx.terrain, ctx.settings, p.node, p.gateway);
+        const path = await computeLinkPath(ctx.terrain, ctx.settings, p.node, p.gateway, scratch);
         if (process.env.SITING_PROFILE_DUMP) dump.push(JSON.stringify(path));
         lossSum += path.basicLossDb;
         points += path.distanceM / 30;

@@ -66,8 +66,9 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
     showAll();
     selection.refresh();
   });
-  showAll();
+  // The view first: badges are placed in screen pixels, which need a centre and a zoom.
   base.fitInitial(store);
+  showAll();
   if (route.nodeId && store.find('nodes', route.nodeId)) selection.select('nodes', route.nodeId, true);
 
   return () => {

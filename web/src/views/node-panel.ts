@@ -24,6 +24,7 @@ import { planHash } from '../router.ts';
 import { canEdit } from '../session.ts';
 import { announce, cautionsBlock, clear, coords, db, dbm, distance, errorText, field, fmt, h, metres, money, notice, percent, present, select } from '../ui.ts';
 import { nodeSymbolSvg, statusStyle, symbolElement, type NodeClass } from '../symbols.ts';
+import { cautionGroups } from './gateway-check.ts';
 import { obstructionSpans, profileChart, profileKey, profileSeries } from './profile-chart.ts';
 
 interface Actions {
@@ -84,7 +85,7 @@ export async function renderNodePanel(panel: HTMLElement, store: PlanStore, node
   const profileBox = h('section', { class: 'subpanel', 'aria-labelledby': 'profile-h' }, h('h3', { id: 'profile-h' }, 'Path profile (best link)'), h('p', { class: 'muted' }, 'Loading…'));
   const kitBox = h('section', { class: 'subpanel', 'aria-labelledby': 'kit-h' });
   const recBox = h('section', { class: 'subpanel', 'aria-labelledby': 'rec-h' }, h('h3', { id: 'rec-h' }, 'Recommended kit'), h('p', { class: 'muted' }, 'Searching the catalog…'));
-  const cautionsBox = h('div', {}, cautionsBlock());
+  const cautionsBox = h('div', {}, h('p', { class: 'muted small' }, 'Cautions for this node follow its link check…'));
   const readingsBox = h('section', { class: 'subpanel', 'aria-labelledby': 'node-readings-h' });
   panel.append(linksBox, profileBox, kitBox, recBox, readingsBox, cautionsBox);
   renderNodeReadings(readingsBox, store, node.id, signal);
@@ -119,7 +120,8 @@ export async function renderNodePanel(panel: HTMLElement, store: PlanStore, node
       getLinkCheck(store.planId, node.id, signal),
       (check) => {
         renderProfile(profileBox, check);
-        cautionsBox.replaceChildren(cautionsBlock(check.cautions));
+        // Fitted to this node (a 1 m soil probe gets no mast list); older servers: the general list.
+        cautionsBox.replaceChildren(check.fittedCautions ? cautionGroups(check.fittedCautions, check.cautionsFooter ?? '', 'node-cautions', '⚠ Cautions for this node') : cautionsBlock(check.cautions));
       },
       (err) => {
         clear(profileBox);
@@ -403,6 +405,7 @@ function renderRecommendation(box: HTMLElement, store: PlanStore, rec: Recommend
     );
   }
   box.append(list);
+  if (rec.fittedCautions) box.append(cautionGroups(rec.fittedCautions, rec.cautionsFooter ?? '', 'rec-cautions', '⚠ Cautions for the first option'));
 }
 
 /** Puts a recommended option into the kit chooser's controls (which then predict it). */
