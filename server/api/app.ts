@@ -127,6 +127,7 @@ async function registerApiRoutes(api: FastifyInstance): Promise<void> {
   await api.register((await import('./routes/scenarios.ts')).default);
   await api.register((await import('./routes/tuning.ts')).default);
   await api.register((await import('./routes/siting.ts')).default);
+  await api.register((await import('./routes/link-runs.ts')).default);
 }
 
 export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {
@@ -180,6 +181,9 @@ export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {
   app.setSerializerCompiler(serializerCompiler);
   app.addHook('onSend', async (request, reply) => {
     reply.header('x-request-id', request.id);
+    // A write answered here: read memos taken before it must not serve the caller's next read,
+    // even before PostgreSQL's change notification arrives (server/db/change-feed.ts).
+    if (request.method !== 'GET' && request.method !== 'HEAD') deps.db.changes?.bump();
   });
   const requestLogLevel = config.requestLogLevel ?? 'debug';
   app.addHook('onResponse', async (request, reply) => {

@@ -10,6 +10,7 @@ import pg from 'pg';
 import { PrismaClient } from './generated/client.ts';
 import type { Config } from '../config.ts';
 import { applyMigrations, type RawSql } from './migrate.ts';
+import { pgliteChangeFeed, postgresChangeFeed, type ChangeFeed } from './change-feed.ts';
 import { commitCheckingPglite } from './pglite-commit.ts';
 import { syncBuiltInKit } from './repositories/kit.ts';
 
@@ -21,6 +22,11 @@ export interface Database {
   engine: 'pglite' | 'postgres';
   /** Raw SQL on the same database (migrations, test resets, advisory locks). */
   raw: RawSql;
+  /**
+   * Committed changes to the tables answers are built from (server/db/change-feed.ts); absent
+   * on a Database bound to a transaction (its reads must never be memoised).
+   */
+  changes?: ChangeFeed;
   close(): Promise<void>;
 }
 
@@ -145,11 +151,14 @@ async function openPglite(config: Config, options: OpenOptions): Promise<Databas
     const raw = pgliteRaw(client);
     if (!options.skipMigrations) await applyMigrations(raw);
     const prisma = new PrismaClient({ adapter: commitCheckingPglite(new PrismaPGlite(client)) });
+    const changes = options.skipMigrations ? undefined : await pgliteChangeFeed(client); // the triggers come with the migrations
     const db: Database = {
       prisma,
       engine: 'pglite',
       raw,
+      changes,
       async close() {
+        await changes?.close();
         await prisma.$disconnect();
         await client.close();
         release();
@@ -191,11 +200,14 @@ async function openPostgres(url: string, options: OpenOptions): Promise<Database
       }
     }
     const prisma = new PrismaClient({ adapter: new PrismaPg(pool) });
+    const changes: ChangeFeed | undefined = options.skipMigrations ? undefined : postgresChangeFeed(url);
     const db: Database = {
       prisma,
       engine: 'postgres',
       raw: poolRaw(pool),
+      changes,
       async close() {
+        await changes?.close();
         await prisma.$disconnect();
         await pool.end().catch(() => {});
       },

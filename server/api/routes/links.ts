@@ -10,7 +10,7 @@ import { findKitJob, updateKitJob } from '../../db/repositories/links.ts';
 import type { PlanRow } from '../../db/repositories/plans.ts';
 import { requireRole } from '../auth.ts';
 import { ApiError, apiErrorOf } from '../errors.ts';
-import { loadPlanForPrincipal } from '../scope.ts';
+import { loadPlanForPrincipal, loadPlanForRead } from '../scope.ts';
 import { finite, id, nodeAntennaHeightAglM, nodeFeedlineLengthM, pageQuery, ranged, targetMarginDb } from '../schemas.ts';
 import { LinkEngine, type PlanContext } from '../../jobs/link-engine.ts';
 import {
@@ -94,7 +94,7 @@ export default async function linkRoutes(app: FastifyInstance): Promise<void> {
       },
     },
     async (request) => {
-      const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
+      const plan = await loadPlanForRead(db, request.principal, request.params.planId);
       const query = request.query;
       const overrides = { ...query, feedlineId: query.feedlineId === undefined ? undefined : query.feedlineId === '' || query.feedlineId === 'none' ? null : query.feedlineId };
       return nodeLinks(engine, plan, request.params.nodeId, overrides).catch(asApiError);

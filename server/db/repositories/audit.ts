@@ -51,7 +51,7 @@ export async function writeWithAudit<T>(
   return db.prisma.$transaction(async (tx) => {
     // The transaction client lacks only the client-level methods ($transaction, $connect…),
     // which repository functions never call.
-    const inTransaction: Database = { ...db, prisma: tx as unknown as Database['prisma'] };
+    const inTransaction: Database = { ...db, prisma: tx as unknown as Database['prisma'], changes: undefined };
     const result = await write(inTransaction);
     await recordAudit({ prisma: tx }, audit(result));
     return result;

@@ -1,4 +1,5 @@
 // Plans belong to a team; every query is scoped by teamId.
+import { changeStamp, GenerationMemo } from '../change-feed.ts';
 import type { Database } from '../client.ts';
 import type { Prisma } from '../generated/client.ts';
 import { NotFoundError } from '../errors.ts';
@@ -16,6 +17,26 @@ export async function createPlan(db: Database, teamId: string, data: PlanCreate)
 
 export async function findPlan(db: Database, teamId: string, planId: string): Promise<PlanRow | null> {
   return db.prisma.plan.findFirst({ where: { id: planId, teamId } });
+}
+
+const planMemo = new WeakMap<object, GenerationMemo<PlanRow | null>>();
+
+/**
+ * findPlan for read-only answers under load: the row read once per generation of the change
+ * feed (server/db/change-feed.ts), so a crowd of reads costs no query until something is
+ * written. The row is shared between callers: treat it as read-only. Writes use findPlan.
+ */
+export async function findPlanForRead(db: Database, teamId: string, planId: string): Promise<PlanRow | null> {
+  const stamp = changeStamp(db);
+  if (stamp === null || !db.changes) return findPlan(db, teamId, planId);
+  let memo = planMemo.get(db.changes);
+  if (!memo) planMemo.set(db.changes, (memo = new GenerationMemo()));
+  const key = `${teamId}:${planId}`;
+  const hit = memo.get(key, stamp);
+  if (hit !== undefined) return hit;
+  const row = await findPlan(db, teamId, planId);
+  memo.set(key, stamp, row);
+  return row;
 }
 
 export async function listPlans(db: Database, teamId: string, query: PageQuery) {
