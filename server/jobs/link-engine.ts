@@ -26,7 +26,7 @@ import { LinkPathPool, type LinkPathPair, type LinkTerrainSpec } from './link-po
 import type { EndKit, GatewayRadio, LinkRadioSettings, LinkResult, NodeRadio } from '../planning/link.ts';
 import { hashOf, hashOfShared, LINK_ENGINE_VERSION, nodeAimAzimuthDeg, nodeLinkResults, summariseNodeLinks, type NodeLinkSummary } from '../planning/node-links.ts';
 import { newPathScratch, type PathPrediction } from '../planning/path.ts';
-import { resolveLinkSettings, type ResolvedLinkSettings } from '../planning/settings.ts';
+import { resolveLinkSettings, sfsCarrying, type ResolvedLinkSettings } from '../planning/settings.ts';
 import type { AppliedCalibration } from '../planning/spread.ts';
 import { findAppliedCalibration } from '../db/repositories/calibrations.ts';
 import { bearingsBetween } from '../planning/geometry.ts';
@@ -370,7 +370,7 @@ export class LinkEngine {
     };
     const settings = ctx.settings;
     const payloadBytes = row.payloadBytes;
-    let allowed = settings.uplinkSfs.filter((entry) => entry.maxAppPayloadBytes === null || payloadBytes <= entry.maxAppPayloadBytes).map((entry) => entry.sf);
+    let allowed = sfsCarrying(settings.uplinkSfs, payloadBytes);
     if (allowed.length === 0) {
       warnings.push(`a ${payloadBytes}-byte payload exceeds every data rate's limit in ${settings.bandPlan.name}; predicting at every SF anyway`);
       allowed = settings.uplinkSfs.map((entry) => entry.sf);

@@ -118,6 +118,18 @@ export function uplinkSfsFor(plan: BandPlan, bandwidthKhz: number): Array<{ sf: 
   return [7, 8, 9, 10, 11, 12].map((sf) => ({ sf, maxAppPayloadBytes: null }));
 }
 
+/** The LoRa bandwidth of a plan whose settings name none, kHz. */
+export const DEFAULT_BANDWIDTH_KHZ = 125;
+
+/**
+ * The one SF rule for a payload: the uplink SFs whose LoRaWAN maximum application payload
+ * (Regional Parameters, per data rate) carries `payloadBytes`; null = no stated maximum.
+ * Empty when none does (the caller decides what then).
+ */
+export function sfsCarrying(uplinkSfs: ReadonlyArray<{ sf: number; maxAppPayloadBytes: number | null }>, payloadBytes: number): number[] {
+  return uplinkSfs.filter((entry) => entry.maxAppPayloadBytes === null || payloadBytes <= entry.maxAppPayloadBytes).map((entry) => entry.sf);
+}
+
 /**
  * Resolves a plan's link settings. Keys read from `plan.settings` (all optional):
  * frequencyMhz, bandwidthKhz (125), codingRate ('4/5'), preambleSymbols (8),
@@ -141,7 +153,7 @@ export function resolveLinkSettings(plan: PlanLinkColumns, options: { calibratio
     throw new PlanSettingsError(`plan bandPlanId: ${(error as Error).message}`);
   }
   const frequencyMhz = num(s, 'frequencyMhz', defaultFrequencyMhz(bandPlan), bandPlan.fromMhz, bandPlan.toMhz, warnings);
-  const bandwidthKhz = num(s, 'bandwidthKhz', 125, 7, 500, warnings);
+  const bandwidthKhz = num(s, 'bandwidthKhz', DEFAULT_BANDWIDTH_KHZ, 7, 500, warnings);
   const codingRate = pick(s, 'codingRate', CODING_RATES, '4/5', warnings);
   const limit = limitForChannel(bandPlan, frequencyMhz, bandwidthKhz);
   const method = pick<PropagationMethodId>({ method: plan.propagationMethod }, 'method', PROPAGATION_METHODS, 'p1812', warnings);

@@ -6,7 +6,8 @@
 // badges do not overlap. Screenshots go to test-artefacts/screenshots/field-map-*.png.
 import { vi, afterAll, beforeAll, beforeEach, describe, expect, it } from 'vitest';
 import type { Browser, BrowserContext, Page } from 'playwright-core';
-import { buildWeb, guard, launchBrowser, newContext, screenshot, startServer, type Guard, type RunningServer } from './harness.ts';
+import { spawnSync } from 'node:child_process';
+import { buildWeb, cli, guard, launchBrowser, newContext, screenshot, startServer, type Guard, type RunningServer } from './harness.ts';
 
 // Browser steps on a loaded 2-core machine take tens of seconds each.
 vi.setConfig({ testTimeout: 300_000 });
@@ -222,5 +223,24 @@ describe('freshness (chromium)', () => {
     await page.waitForTimeout(2000);
     expect(await textOf('#node-status-line')).not.toMatch(/Not predicted yet/);
     watch.assertClean();
+  });
+});
+
+describe('earshot terrain upload while the server runs', () => {
+  it('uploads a GeoTIFF to a new plan through the running server; a bad file gets the server’s reason', async () => {
+    const plan = await api<{ id: string }>('/plans', 'POST', { name: 'E2E CLI terrain plan' });
+    const layer = cli(server, ['terrain', 'upload', '--plan', plan.id, '--file', 'terrain-samples/elev.tif', '--name', 'CLI DEM']) as { id: string; name: string; kind: string; extent: { south: number; north: number } };
+    expect(layer).toMatchObject({ name: 'CLI DEM', kind: 'elevation' });
+    expect(layer.extent.south).toBeGreaterThan(49.4);
+    expect(layer.extent.north).toBeLessThan(50.2);
+    const listed = await api<{ items: Array<{ id: string }> }>(`/plans/${plan.id}/terrain`);
+    expect(listed.items.map((l) => l.id)).toEqual([layer.id]);
+    // Not a TIFF: the same refusal as the API's, named, and a non-zero exit.
+    const bad = spawnSync(process.execPath, ['node_modules/tsx/dist/cli.mjs', 'server/cli.ts', 'terrain', 'upload', '--plan', plan.id, '--file', 'package.json'], { env: server.env, encoding: 'utf8', timeout: 120_000 });
+    expect(bad.status).not.toBe(0);
+    expect(bad.stderr).toMatch(/not a TIFF file/);
+    const missing = spawnSync(process.execPath, ['node_modules/tsx/dist/cli.mjs', 'server/cli.ts', 'terrain', 'upload', '--plan', 'no-such-plan', '--file', 'terrain-samples/elev.tif'], { env: server.env, encoding: 'utf8', timeout: 120_000 });
+    expect(missing.status).not.toBe(0);
+    expect(missing.stderr).toMatch(/--plan: no plan "no-such-plan"/);
   });
 });

@@ -609,7 +609,7 @@ export interface CoverageRequest {
   mode?: 'fast' | 'full';
   radiusKm: number;
   /** The node kit of every cell: the same fields and rules as a node. */
-  nodeKit?: { antennaDesignId: string; antennaHeightAglM: number; txPowerDbm: number; feedlineId?: string | null; feedlineLengthM?: number; environment?: 'outdoor' | 'indoor' | 'pit' };
+  nodeKit?: { antennaDesignId: string; antennaHeightAglM: number; txPowerDbm: number; feedlineId?: string | null; feedlineLengthM?: number; environment?: 'outdoor' | 'indoor' | 'pit'; payloadBytes?: number };
   /** A fixed SF for every cell; absent: the node SF rule. */
   sf?: number;
   requiredMarginDb?: number;
@@ -655,7 +655,7 @@ export interface ClientSettings {
   /** Optional online tile layer (EARSHOT_BASE_LAYER_URL on the server); null = offline only. */
   onlineBaseLayer: { urlTemplate: string; attribution?: string } | null;
   /** Band plans and propagation methods a plan may use (what PATCH /plans/:id accepts). */
-  bandPlans: Array<{ id: string; name: string }>;
+  bandPlans: Array<{ id: string; name: string; uplinkSfs?: Array<{ sf: number; maxAppPayloadBytes: number | null }> }>;
   propagationMethods: string[];
   /** The valid range of each physical input (server/api/schemas.ts FIELD_RANGES). */
   ranges?: FieldRanges;

@@ -9,6 +9,7 @@ import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { bandPlans } from '../../radio/band-plans.ts';
+import { DEFAULT_BANDWIDTH_KHZ, uplinkSfsFor } from '../../planning/settings.ts';
 import { PROPAGATION_METHODS } from '../../planning/path.ts';
 import { FIELD_RANGES } from '../schemas.ts';
 
@@ -20,7 +21,15 @@ export const clientSettingsResponse = z.object({
       attribution: z.string().optional(),
     })
     .nullable(),
-  bandPlans: z.array(z.object({ id: z.string(), name: z.string() })).describe('band plans a plan may use (bandPlanId)'),
+  bandPlans: z
+    .array(
+      z.object({
+        id: z.string(),
+        name: z.string(),
+        uplinkSfs: z.array(z.object({ sf: z.number().int(), maxAppPayloadBytes: z.number().int().nullable() })).describe('uplink SFs at 125 kHz with the LoRaWAN maximum application payload of each (null: none stated); an SF carries a payload up to that maximum'),
+      }),
+    )
+    .describe('band plans a plan may use (bandPlanId)'),
   propagationMethods: z.array(z.string()).describe('propagation method ids a plan may use (propagationMethod)'),
   ranges: z
     .record(z.string(), z.object({ min: z.number(), max: z.number(), unit: z.string(), step: z.number(), note: z.string() }))
@@ -44,7 +53,7 @@ export default async function clientSettingsRoutes(app: FastifyInstance): Promis
       // The config has no attribution setting yet: none is sent (the map labels the layer itself).
       return {
         onlineBaseLayer: urlTemplate ? { urlTemplate } : null,
-        bandPlans: bandPlans.map((plan) => ({ id: plan.id, name: plan.name })),
+        bandPlans: bandPlans.map((plan) => ({ id: plan.id, name: plan.name, uplinkSfs: uplinkSfsFor(plan, DEFAULT_BANDWIDTH_KHZ) })),
         propagationMethods: [...PROPAGATION_METHODS],
         ranges: FIELD_RANGES,
       };

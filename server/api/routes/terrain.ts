@@ -463,7 +463,8 @@ async function storeTerrainUpload(target: UploadTarget, request: FastifyRequest,
 /** Reads the upload (raw body or multipart with one file part) into `tempPath`; returns form fields too. */
 async function receiveUpload(request: FastifyRequest, tempPath: string, limit: number): Promise<{ received: Received; fields: Record<string, string> }> {
   const fields: Record<string, string> = {};
-  if (request.isMultipart()) {
+  // The CLI's loopback route sends a raw body and has no multipart parser registered.
+  if (typeof request.isMultipart === 'function' && request.isMultipart()) {
     let received: Received | null = null;
     for await (const part of request.parts()) {
       if (part.type === 'file') {

@@ -18,6 +18,7 @@ import {
   listCoverage,
   startCoverage,
   storedToken,
+  type ClientSettings,
   type CoverageRequest,
   type CoverageRun,
   type RunState,
@@ -37,7 +38,7 @@ interface ProgressEvent {
   error: string | null;
 }
 
-export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L.Map): () => void {
+export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L.Map, settings?: ClientSettings): () => void {
   let overlay: L.TileLayer | null = null;
   let timer: number | undefined;
   let stopped = false;
@@ -97,11 +98,28 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
     'outdoor',
     { id: 'coverage-environment' },
   );
-  const sf = select(
-    [{ value: '', label: 'as a node: fastest allowed SF meeting the margin' }, ...[7, 8, 9, 10, 11, 12].map((v) => ({ value: String(v), label: `fixed SF${v}` }))],
-    '',
-    { id: 'coverage-sf' },
-  );
+  // The payload every cell must carry: the plan's (its largest node payload), as nodes do.
+  const planPayload = store.nodes.reduce((most, n) => Math.max(most, Number(n.payloadBytes ?? 0)), 0) || 12;
+  const payload = h('input', { id: 'coverage-payload', type: 'number', min: '1', max: '255', step: '1', value: String(planPayload) });
+  applyRange(payload, 'payloadBytes');
+  // The band plan's uplink SFs with their payload maxima (GET /client-settings); the node SF
+  // rule (server/planning/settings.ts sfsCarrying) allows an SF when the payload fits its maximum.
+  const uplinkSfs = settings?.bandPlans.find((b) => b.id === store.plan.bandPlanId)?.uplinkSfs ?? [7, 8, 9, 10, 11, 12].map((v) => ({ sf: v, maxAppPayloadBytes: null }));
+  const sf = select([], '', { id: 'coverage-sf' });
+  const fillSfs = (): void => {
+    const bytes = Number(payload.value);
+    const keep = sf.value;
+    sf.replaceChildren(h('option', { value: '' }, 'as a node: the fastest SF that carries the payload and meets the margin'));
+    for (const { sf: v, maxAppPayloadBytes: max } of uplinkSfs) {
+      const carries = max === null || !Number.isFinite(bytes) || bytes <= max;
+      const option = h('option', { value: String(v) }, carries ? `fixed SF${v}` : `fixed SF${v} (carries at most ${max} bytes)`);
+      option.disabled = !carries;
+      sf.append(option);
+    }
+    sf.value = [...sf.options].some((o) => o.value === keep && !o.disabled) ? keep : '';
+  };
+  fillSfs();
+  payload.addEventListener('input', fillSfs);
   applyRange(rxHeight, 'nodeAntennaHeightAglM');
   applyRange(txPower, 'nodeTxPowerDbm');
   applyRange(feedlineLength, 'nodeFeedlineLengthM');
@@ -123,6 +141,7 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
     field('Node feedline', feedline),
     field('Feedline length (m)', feedlineLength),
     field('Node environment', environment),
+    field('Payload (bytes)', payload, 'Default: the largest payload of the plan’s nodes'),
     field('Spreading factor', sf),
     field('Required margin (dB)', margin, 'Cells at or above it count as served'),
     canEdit() ? startButton : h('p', { class: 'muted small' }, 'Only planners start coverage runs; finished runs can be shown.'),
@@ -320,6 +339,7 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
       rangeProblem('Node transmit power (dBm)', txPower),
       rangeProblem('Feedline length (m)', feedlineLength),
       rangeProblem('Required margin (dB)', margin),
+      rangeProblem('Payload (bytes)', payload),
     ].filter((p): p is string => p !== null);
     if (problems.length > 0) {
       clear(runBox);
@@ -337,6 +357,7 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
         feedlineId: feedline.value === '' ? null : feedline.value,
         feedlineLengthM: feedline.value === '' ? 0 : Number(feedlineLength.value),
         environment: environment.value as 'outdoor' | 'indoor' | 'pit',
+        payloadBytes: Number(payload.value),
       },
     };
     if (sf.value !== '') body.sf = Number(sf.value);

@@ -54,7 +54,7 @@ export async function renderMap(main: HTMLElement, route: Route): Promise<() => 
   const coveragePanel = h('section', { class: 'panel', 'aria-labelledby': 'coverage-h' });
   const calibrationPanel = h('section', { class: 'panel', 'aria-labelledby': 'calibration-h' });
   sidebar.append(detail, layers.panel, tools.panel, coveragePanel, calibrationPanel);
-  const stopCoverage = renderCoveragePanel(coveragePanel, store, map);
+  const stopCoverage = renderCoveragePanel(coveragePanel, store, map, base.settings);
   const stopCalibration = renderCalibrationPanel(calibrationPanel, store);
 
   const showAll = (): void => {
