@@ -7,7 +7,9 @@
 // connectors (server/jobs/link-engine.ts), cautions (server/planning/check.ts).
 import type { Database } from '../db/client.ts';
 import type { PlanRow } from '../db/repositories/plans.ts';
-import { listSitesForPlan, teamName, type SiteListRow } from '../db/repositories/scenarios.ts';
+import { latestDoneSitingRun, listSitesForPlan, teamName, type SiteListRow } from '../db/repositories/scenarios.ts';
+import { sitingPlanFingerprint } from '../db/repositories/siting-runs.ts';
+import type { SitingResult } from './siting.ts';
 import type { LinkEngine, NodeLinksOutcome, PlanContext } from '../jobs/link-engine.ts';
 import { installCautions } from '../planning/check.ts';
 import { capacityEntryOf, capacityFromEntries, type CapacityNodeEntry, type PlanCapacity } from './capacity.ts';
@@ -143,6 +145,68 @@ export interface CapacityFigures {
   cautions: string[];
 }
 
+/** The latest finished siting run as the siting use case stored it (server/app/siting.ts), not solved again. */
+export interface SitingFigures {
+  runId: string;
+  finishedAt: Date | null;
+  appliedAt: Date | null;
+  /** The plan's nodes, gateways, sites, terrain or settings changed since the run (its answer may no longer hold). */
+  planChangedSince: boolean;
+  requiredGateways: number;
+  minimise: SitingResult['minimise'];
+  status: SitingResult['status'];
+  optimal: boolean;
+  gapPercent: number | null;
+  solver: string;
+  objective: SitingResult['objective'];
+  selected: Array<{ rank: number; name: string; source: string; lat: number; lon: number; antennaHeightAglM: number; costUsd: number; kept: boolean; nodesHeard: number; nodesOnlyHere: number }>;
+  nodesCoverable: number;
+  nodesTotal: number;
+  uncovered: SitingResult['uncovered'];
+  shortOfRequired: SitingResult['shortOfRequired'];
+  greedy: SitingResult['greedy'];
+  before: SitingResult['before'];
+  after: SitingResult['after'];
+  message: string | null;
+  warnings: string[];
+}
+
+function isSitingResult(value: unknown): value is SitingResult {
+  const r = value as SitingResult | null;
+  return !!r && typeof r === 'object' && Array.isArray(r.selected) && Array.isArray(r.uncovered) && !!r.objective && typeof r.status === 'string';
+}
+
+/** The latest done siting run's answer (null when the plan has none). */
+export async function planSiting(db: Database, planId: string): Promise<SitingFigures | null> {
+  const run = await latestDoneSitingRun(db, planId);
+  if (!run || !isSitingResult(run.result)) return null;
+  const r = run.result;
+  const now = await sitingPlanFingerprint(db, planId);
+  return {
+    runId: run.id,
+    finishedAt: run.finishedAt,
+    appliedAt: run.appliedAt,
+    planChangedSince: now !== run.planFingerprint,
+    requiredGateways: r.requiredGateways,
+    minimise: r.minimise,
+    status: r.status,
+    optimal: r.optimal,
+    gapPercent: r.gapPercent,
+    solver: r.solver,
+    objective: r.objective,
+    selected: r.selected.map((x) => ({ rank: x.rank, name: x.name, source: x.source, lat: x.lat, lon: x.lon, antennaHeightAglM: x.antennaHeightAglM, costUsd: x.costUsd, kept: x.kept, nodesHeard: x.nodesHeard, nodesOnlyHere: x.nodesOnlyHere })),
+    nodesCoverable: r.nodesCoverable,
+    nodesTotal: r.nodesTotal,
+    uncovered: r.uncovered,
+    shortOfRequired: r.shortOfRequired,
+    greedy: r.greedy,
+    before: r.before,
+    after: r.after,
+    message: r.message,
+    warnings: r.warnings,
+  };
+}
+
 export interface PlanFigures {
   plan: { id: string; name: string; description: string; teamId: string; teamName: string };
   generatedAt: Date;
@@ -156,6 +220,8 @@ export interface PlanFigures {
   risks: PlanRisks;
   /** Network load from the capacity engine; null when the plan has no gateway to load. */
   capacity: CapacityFigures | null;
+  /** The latest finished gateway siting run; null when the plan has none. */
+  siting: SitingFigures | null;
   cautions: string[];
   warnings: string[];
 }
@@ -243,7 +309,7 @@ function terrainDescription(ctx: PlanContext): string {
 export async function planFigures(engine: LinkEngine, plan: PlanRow, onProgress?: (fraction: number) => void): Promise<PlanFigures> {
   const db = engine.database;
   const ctx = await engine.planContext(plan);
-  const [catalog, sites, team] = await Promise.all([loadCatalog(db, plan.teamId), listSitesForPlan(db, plan.id), teamName(db, plan.teamId)]);
+  const [catalog, sites, team, siting] = await Promise.all([loadCatalog(db, plan.teamId), listSitesForPlan(db, plan.id), teamName(db, plan.teamId), planSiting(db, plan.id)]);
   const names = new Map(ctx.gateways.map((g) => [g.row.id, g.row.name]));
   const gatewayIndex = new Map(ctx.gateways.map((g, k) => [g.row.id, k]));
   const bomBuilder = new BomBuilder();
@@ -355,6 +421,7 @@ export async function planFigures(engine: LinkEngine, plan: PlanRow, onProgress?
           cautions: capacity.cautions,
         }
       : null,
+    siting,
     cautions: installCautions(s.bandPlan.cautions),
     warnings: [...ctx.warnings],
   };

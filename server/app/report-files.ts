@@ -11,6 +11,8 @@ import { planReport } from './report.ts';
 export const reportFileInput = z.strictObject({
   plan: z.string().min(1),
   kind: z.enum(['report', 'geojson', 'kml', 'csv', 'bom'], { error: 'must be report, geojson, kml, csv or bom' }),
+  /** Time zone of the report's printed times (the CLI sends the machine's). */
+  tz: z.string().max(64).optional(),
 });
 export type ReportFileInput = z.infer<typeof reportFileInput>;
 
@@ -26,7 +28,7 @@ export async function reportFile(engine: LinkEngine, config: Config, input: Repo
   const plan = await findPlanById(engine.database, input.plan);
   if (!plan) throw new LinkInputError('not_found', 'not_found', `--plan: no plan "${input.plan}"`);
   if (input.kind === 'report') {
-    const report = await planReport(engine, config, plan);
+    const report = await planReport(engine, config, plan, { timeZone: input.tz ?? null });
     return { fileName: report.fileName, contentType: 'application/pdf', bytes: report.pdf, counts: report.figures.counts };
   }
   const file = await planExport(engine, plan, input.kind as ExportFormat);

@@ -12,7 +12,8 @@ import { RESULT_FILES, resolveFilePath, resultDir, type CoverageJobParams } from
 import type { LinkEngine } from '../jobs/link-engine.ts';
 import { openGeoRaster, type GeoRaster } from '../terrain/raster.ts';
 import { composeMapImage, fitView, paddedBox, renderMapTiles } from '../report/map.ts';
-import { renderReportPdf, type ReportModel } from '../report/pdf.ts';
+import { isTimeZone, MAX_RISK_NAMES, renderReportPdf, reportTime, type ReportModel } from '../report/pdf.ts';
+import { AppError } from './errors.ts';
 import { exportFileName } from './exports.ts';
 import { planFigures, type PlanFigures } from './plan-figures.ts';
 
@@ -67,7 +68,7 @@ async function openElevation(engine: LinkEngine, config: Config, planId: string)
   return rasters;
 }
 
-async function latestMargin(engine: LinkEngine, config: Config, planId: string): Promise<{ raster: GeoRaster; description: string } | null> {
+async function latestMargin(engine: LinkEngine, config: Config, planId: string, timeZone: string | null): Promise<{ raster: GeoRaster; description: string } | null> {
   const run = await latestDoneCoverageRun(engine.database, planId);
   if (!run) return null;
   const path = join(resultDir(config, run.id), RESULT_FILES.margin);
@@ -75,9 +76,9 @@ async function latestMargin(engine: LinkEngine, config: Config, planId: string):
   const params = (run.params ?? {}) as Partial<CoverageJobParams>;
   const raster = await openGeoRaster(path).catch(() => null);
   if (!raster) return null;
-  const when = run.finishedAt ? run.finishedAt.toISOString().slice(0, 16).replace('T', ' ') : '';
+  const when = run.finishedAt ? reportTime(run.finishedAt, timeZone) : 'at an unrecorded time';
   const gateways = Array.isArray(run.gatewayIds) ? run.gatewayIds.length : 0;
-  return { raster, description: `Coverage run ${run.id} (${params.mode ?? '?'} mode, ${gateways} gateway(s), radius ${params.radiusKm ?? '?'} km, SF${params.sf ?? '?'}, node antenna ${params.targetHeightM ?? '?'} m AGL), finished ${when} UTC.` };
+  return { raster, description: `Coverage run ${run.id} (${params.mode ?? '?'} mode, ${gateways} gateway(s), radius ${params.radiusKm ?? '?'} km, SF${params.sf ?? '?'}, node antenna ${params.targetHeightM ?? '?'} m AGL), finished ${when}.` };
 }
 
 function capacityRows(f: PlanFigures): Array<[string, string]> | null {
@@ -92,16 +93,55 @@ function capacityRows(f: PlanFigures): Array<[string, string]> | null {
   ];
 }
 
+const SOURCE_WORDS: Record<string, string> = { site: 'site', terrain: 'terrain point', gateway: 'existing gateway' };
+
+/** The latest siting run's answer as the report shows it (chosen sites by name, k, cost, optimality, uncovered nodes by name). */
+function sitingSection(f: PlanFigures, timeZone: string | null): ReportModel['siting'] {
+  const r = f.siting;
+  if (!r) return null;
+  const usd = (v: number) => `${v.toLocaleString('en-US', { minimumFractionDigits: 2, maximumFractionDigits: 2 })} USD`;
+  const optimality = r.optimal ? 'optimal (proven by the solver)' : r.status === 'feasible' ? `feasible, not proven optimal${r.gapPercent === null ? '' : ` (gap ${r.gapPercent.toFixed(2)} %)`}` : 'infeasible: no choice of candidates meets the request';
+  const state = r.appliedAt ? `applied ${reportTime(r.appliedAt, timeZone)}` : 'not applied';
+  const summary: Array<[string, string]> = [
+    ['Run', `${r.runId}, finished ${r.finishedAt ? reportTime(r.finishedAt, timeZone) : 'at an unrecorded time'}; ${state}`],
+    ['Gateways each node needs (k)', String(r.requiredGateways)],
+    ['Chosen', `${r.objective.gateways} gateway(s), ${usd(r.objective.costUsd)} (minimising ${r.minimise})`],
+    ['Result', `${optimality}; solver ${r.solver}`],
+    ['Nodes coverable', `${r.nodesCoverable} of ${r.nodesTotal}`],
+    ['Greedy choice for comparison', `${r.greedy.gateways} gateway(s), ${usd(r.greedy.costUsd)}, ${r.greedy.nodesCovered} nodes covered`],
+    ['Gateways in the plan', `${r.before.gateways} before, ${r.after.gateways} after applying`],
+  ];
+  if (r.shortOfRequired.length) summary.push(['Heard by fewer than k candidates', `${r.shortOfRequired.length} node(s), e.g. ${r.shortOfRequired.slice(0, 5).map((n) => n.name).join(', ')}`]);
+  const shown = r.uncovered.slice(0, MAX_RISK_NAMES);
+  const notes = [
+    'From the siting run as it was solved (the siting use case’s stored answer, not solved again for this report).',
+    r.planChangedSince ? 'The plan’s nodes, gateways, sites, terrain or settings changed since this run: its answer may no longer hold (start a new run to refresh it).' : 'The plan is unchanged since this run.',
+    ...(r.message ? [r.message] : []),
+    ...r.warnings.slice(0, 5),
+  ];
+  return {
+    summary,
+    selected: r.selected.map((x) => [String(x.rank), `${x.name} (${SOURCE_WORDS[x.source] ?? x.source}${x.kept ? ', kept' : ''})`, `${x.antennaHeightAglM.toFixed(1)} m AGL`, usd(x.costUsd), String(x.nodesHeard), String(x.nodesOnlyHere)]),
+    uncovered: shown.map((u) => [u.name, u.reason]),
+    uncoveredMore: r.uncovered.length - shown.length,
+    note: notes.join(' '),
+  };
+}
+
 export interface PlanReportOptions {
   onProgress?: (fraction: number) => void;
+  /** IANA time zone for the printed times (the viewer's); default UTC. */
+  timeZone?: string | null;
 }
 
 /** The report PDF of a plan and its file name. */
 export async function planReport(engine: LinkEngine, config: Config, plan: PlanRow, options: PlanReportOptions = {}): Promise<{ fileName: string; pdf: Buffer; figures: PlanFigures }> {
+  const timeZone = options.timeZone ?? null;
+  if (timeZone !== null && !isTimeZone(timeZone)) throw new AppError('invalid_input', 'invalid_input', `tz: "${timeZone}" is not an IANA time zone (such as Europe/Berlin)`);
   const figures = await planFigures(engine, plan, options.onProgress ? (x) => options.onProgress?.(x * 0.8) : undefined);
   const box = paddedBox([...figures.nodes, ...figures.gateways, ...figures.sites]);
   const elevation = await openElevation(engine, config, plan.id);
-  const margin = await latestMargin(engine, config, plan.id);
+  const margin = await latestMargin(engine, config, plan.id, timeZone);
   try {
     let map: ReportModel['map'] = null;
     if (box) {
@@ -114,6 +154,7 @@ export async function planReport(engine: LinkEngine, config: Config, plan: PlanR
       title: `${plan.name}: coverage report`,
       plan: { id: plan.id, name: plan.name, description: plan.description, teamName: figures.plan.teamName },
       generatedAt: figures.generatedAt,
+      timeZone,
       basis: basisOf(figures),
       counts: figures.counts,
       redundancy: figures.redundancy,
@@ -125,6 +166,7 @@ export async function planReport(engine: LinkEngine, config: Config, plan: PlanR
       capacityNote: figures.capacity
         ? `Model: ${figures.capacity.method}. ${figures.capacity.cautions.join(' ')} Sources: ${figures.capacity.sources.join('; ')}.`
         : 'No capacity figures: the plan has no gateway (or no node) to load. The duty-cycle check per node (band plan rule, at the SF used) is in the risk list.',
+      siting: sitingSection(figures, timeZone),
       risks: [
         { title: 'Unserved nodes', explanation: 'Best margin below 0 dB: messages get through less than half the time.', entries: figures.risks.unserved },
         { title: 'Heard by a single gateway', explanation: 'One gateway hears these nodes with margin ≥ 0 dB: a fault or outage at that gateway loses them.', entries: figures.risks.singleGateway },

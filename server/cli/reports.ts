@@ -61,7 +61,7 @@ export const reportCommands: CliCommand[] = [
     summary: "A plan's PDF report: cover, map, service, redundancy, risks, bill of materials, cautions (--plan ID --out FILE.pdf)",
     options: z.strictObject({ plan: stringOption(), out: stringOption() }),
     async run(options) {
-      return writeOut(await fetchReportFile({ plan: options.plan, kind: 'report' }), options.out);
+      return writeOut(await fetchReportFile({ plan: options.plan, kind: 'report', tz: Intl.DateTimeFormat().resolvedOptions().timeZone }), options.out);
     },
     formatText,
   }),

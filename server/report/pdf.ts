@@ -28,6 +28,8 @@ export interface ReportModel {
   title: string;
   plan: { id: string; name: string; description: string; teamName: string };
   generatedAt: Date;
+  /** IANA time zone the printed times are in (the viewer's, ?tz=); null = UTC. */
+  timeZone: string | null;
   basis: Array<[string, string]>;
   counts: Record<LinkStatus, number>;
   redundancy: { none: number; one: number; twoOrMore: number };
@@ -39,11 +41,32 @@ export interface ReportModel {
   /** Capacity figures as label/value pairs, or null when no capacity result exists (the text says so). */
   capacity: Array<[string, string]> | null;
   capacityNote: string;
+  /** The latest finished gateway siting run, or null when the plan has none (the text says so). */
+  siting: { summary: Array<[string, string]>; selected: string[][]; uncovered: string[][]; uncoveredMore: number; note: string } | null;
   risks: Array<{ title: string; explanation: string; entries: ReportRisk[] }>;
   bom: BillOfMaterials;
   assumptions: Array<[string, string]>;
   warnings: string[];
   cautions: string[];
+}
+
+/** True when Intl knows the IANA zone. */
+export function isTimeZone(timeZone: string): boolean {
+  try {
+    new Intl.DateTimeFormat('en-GB', { timeZone });
+    return true;
+  } catch {
+    return false;
+  }
+}
+
+/** "2 Dec 2026, 09:30 (Europe/Berlin, GMT+1)": a time in the given zone with the zone said; UTC without one. */
+export function reportTime(date: Date, timeZone: string | null, style: 'date' | 'time' = 'time'): string {
+  const zone = timeZone ?? 'UTC';
+  const text = date.toLocaleString('en-GB', style === 'date' ? { timeZone: zone, dateStyle: 'medium' } : { timeZone: zone, dateStyle: 'medium', timeStyle: 'short' });
+  if (style === 'date') return text;
+  const offset = new Intl.DateTimeFormat('en-GB', { timeZone: zone, timeZoneName: 'shortOffset' }).formatToParts(date).find((p) => p.type === 'timeZoneName')?.value ?? '';
+  return zone === 'UTC' ? `${text} UTC` : `${text} (${zone}, ${offset})`;
 }
 
 /** Risk entries listed by name per category; the rest are counted (the full list is in export.csv). */
@@ -237,16 +260,14 @@ function coverPage(w: ReportWriter, m: ReportModel): void {
   doc.fillColor('#000').font('bold').fontSize(11).text(w.t('earshot · coverage report'), MARGIN, 60);
   doc.font('bold').fontSize(24).text(w.t(m.plan.name), MARGIN, 90, { width: CONTENT_W });
   doc.moveDown(0.3).font('body').fontSize(12).fillColor('#222').text(w.t(`Team: ${m.plan.teamName}`));
-  doc.text(w.t(`Made: ${m.generatedAt.toISOString().slice(0, 16).replace('T', ' ')} UTC · plan id ${m.plan.id}`));
+  doc.text(w.t(`Made: ${reportTime(m.generatedAt, m.timeZone)} · plan id ${m.plan.id}`));
   if (m.plan.description) doc.moveDown(0.5).fontSize(10).fillColor('#333').text(w.t(m.plan.description), { width: CONTENT_W });
   doc.fillColor('#000');
 
   w.heading('Key figures', 13);
   const rows: Array<[string, string]> = [
     ['Nodes', String(total)],
-    ['Served (target margin met)', `${m.counts.served} (${pct(m.counts.served, total)})`],
-    ['Marginal (below target, still heard)', `${m.counts.marginal} (${pct(m.counts.marginal, total)})`],
-    ['Unserved (not heard)', `${m.counts.unserved} (${pct(m.counts.unserved, total)})`],
+    ...(['served', 'marginal', 'unserved'] as const).map((s): [string, string] => [STATUS_STYLE[s].label, `${m.counts[s]} (${pct(m.counts[s], total)})`]),
     ['Heard by 2 or more gateways', `${m.redundancy.twoOrMore} (${pct(m.redundancy.twoOrMore, total)})`],
     ['Gateways', String(m.gateways.length)],
     ['Kit cost (nodes and gateways: antennas, feedlines, connectors, masts)', usd(m.bom.kitCostUsd)],
@@ -256,7 +277,7 @@ function coverPage(w: ReportWriter, m: ReportModel): void {
 
   w.heading('Planning basis', 13);
   w.table([{ header: 'Setting', width: 170 }, { header: 'Value and source', width: CONTENT_W - 170 }], m.basis, { size: 9.5 });
-  w.para('Contents: map · service and redundancy · capacity · risks · bill of materials · assumptions and sources · cautions.', { size: 9, colour: '#333' });
+  w.para('Contents: map · service and redundancy · capacity · gateway siting · risks · bill of materials · assumptions and sources · cautions.', { size: 9, colour: '#333' });
 }
 
 function mapPage(w: ReportWriter, m: ReportModel): void {
@@ -389,6 +410,25 @@ function servicePages(w: ReportWriter, m: ReportModel): void {
   if (m.capacity) w.table([{ header: 'Figure', width: 300 }, { header: 'Value', width: CONTENT_W - 300, align: 'right' }], m.capacity);
   w.para(m.capacityNote, { size: 9, colour: '#222' });
 
+  w.subheading('Gateway siting');
+  if (!m.siting) w.para('No finished siting run: the gateways are as placed by hand. A siting run (the map’s siting panel) chooses sites that cover the nodes at least cost.', { size: 9, colour: '#222' });
+  else {
+    w.table([{ header: 'Figure', width: 200 }, { header: 'Value', width: CONTENT_W - 200 }], m.siting.summary, { size: 9 });
+    if (m.siting.selected.length) {
+      w.table(
+        [{ header: 'Rank', width: 35, align: 'right' }, { header: 'Chosen site', width: 175 }, { header: 'Antenna', width: 60, align: 'right' }, { header: 'Cost', width: 85, align: 'right' }, { header: 'Nodes heard', width: 70, align: 'right' }, { header: 'Only here', width: CONTENT_W - 425, align: 'right' }],
+        m.siting.selected,
+        { size: 8.5 },
+      );
+    }
+    if (m.siting.uncovered.length) {
+      w.para('Nodes no candidate covers:', { size: 9 });
+      w.table([{ header: 'Node', width: 190 }, { header: 'Why', width: CONTENT_W - 190 }], m.siting.uncovered, { size: 8.5 });
+      if (m.siting.uncoveredMore > 0) w.para(`… and ${m.siting.uncoveredMore} more.`, { size: 9 });
+    }
+    w.para(m.siting.note, { size: 8.5, colour: '#222' });
+  }
+
   w.heading('Risks');
   w.para('Named nodes that need attention before the budget is committed. The full fleet with every figure is in the CSV export (export.csv).');
   for (const risk of m.risks) {
@@ -446,7 +486,7 @@ function pageNumbers(w: ReportWriter, m: ReportModel): void {
     const y = A4.height - MARGIN + 6;
     doc.moveTo(MARGIN, y - 6).lineTo(MARGIN + CONTENT_W, y - 6).lineWidth(0.4).strokeColor('#777').stroke();
     doc.font('body').fontSize(8).fillColor('#333');
-    doc.text(w.t(`${m.plan.name} · earshot report · ${m.generatedAt.toISOString().slice(0, 10)}`), MARGIN, y, { width: CONTENT_W - 80, lineBreak: false, height: 10 });
+    doc.text(w.t(`${m.plan.name} · earshot report · ${reportTime(m.generatedAt, m.timeZone, 'date')}`), MARGIN, y, { width: CONTENT_W - 80, lineBreak: false, height: 10 });
     doc.text(`Page ${i + 1 - range.start} of ${range.count}`, MARGIN + CONTENT_W - 80, y, { width: 80, align: 'right', lineBreak: false, height: 10 });
   }
 }

@@ -3,12 +3,17 @@
 // equal): shape AND colour carry the status so it reads in grey print and
 // without colour vision. served = disc, marginal = diamond, unserved = downward
 // triangle; gateways are black masts, sites green hexagons.
-import type { LinkStatus } from '../planning/status.ts';
+import { STATUS_WORDS, type LinkStatus } from '../planning/status.ts';
+
+/** "Served (meets the target margin and delivery)": the words of server/planning/status.ts, as the map's legend shows them (web/src/status-words.ts). */
+export function statusLabel(status: LinkStatus): string {
+  return `${STATUS_WORDS[status].label} (${STATUS_WORDS[status].meaning})`;
+}
 
 export const STATUS_STYLE: Record<LinkStatus, { colour: string; label: string; shape: 'disc' | 'diamond' | 'triangle' }> = {
-  served: { colour: '#1d5fa8', label: 'Served (target margin met)', shape: 'disc' },
-  marginal: { colour: '#b86e00', label: 'Marginal (below target, still heard)', shape: 'diamond' },
-  unserved: { colour: '#9c1c6b', label: 'Unserved (not heard)', shape: 'triangle' },
+  served: { colour: '#1d5fa8', label: statusLabel('served'), shape: 'disc' },
+  marginal: { colour: '#b86e00', label: statusLabel('marginal'), shape: 'diamond' },
+  unserved: { colour: '#9c1c6b', label: statusLabel('unserved'), shape: 'triangle' },
 };
 
 export const GATEWAY_COLOUR = '#111111';

@@ -72,7 +72,7 @@ it('the report through the running server is a PDF with the fleet counts', async
     const out = join(dataDir, 'r.pdf');
     writeFileSync(out, file.bytes);
     const text = spawnSync('pdftotext', [out, '-'], { encoding: 'utf8' }).stdout.replace(/\s+/g, ' ');
-    expect(text).toContain(`Served (target margin met) ${file.counts!.served} `);
+    expect(text).toContain(`Served (meets the target margin and delivery) ${file.counts!.served} `);
   }
 }, 120_000);
 

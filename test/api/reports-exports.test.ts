@@ -13,6 +13,7 @@ import { seedDemo } from '../../server/demo.ts';
 import { issueToken } from '../../server/db/repositories/accounts.ts';
 import { installCautions } from '../../server/planning/check.ts';
 import { findBandPlan } from '../../server/radio/band-plans.ts';
+import { STATUS_WORDS } from '../../server/planning/status.ts';
 
 const inCi = process.env.CI === 'true';
 const has = (tool: string) => spawnSync('which', [tool]).status === 0;
@@ -120,8 +121,10 @@ suite('exports open in GDAL/OGR at the API coordinates (RFC 7946, KML 2.2, RFC 4
     expect(file.status).toBe(200);
     const text = execFileSync('ogrinfo', ['-ro', '-al', '-q', file.path], { encoding: 'utf8' });
     // 22 soil probes carry the helical stub (server/demo.ts).
-    expect(text).toMatch(/item_id \(String\) = helical-stub\s+name \(String\) = [^\n]+\s+quantity \(String\) = 22/);
-    expect(text).toMatch(/item_id \(String\) = gateway-radio\s+name \(String\) = [^\n]+\s+quantity \(String\) = 2/);
+    expect(text).toMatch(/category \(String\) = antenna\s+name \(String\) = [^\n]+\s+quantity \(String\) = 22/);
+    expect(text).toMatch(/name \(String\) = Gateway radio[^\n]*\s+quantity \(String\) = 2/);
+    // Names, never catalog ids.
+    expect(text).not.toMatch(/= helical-stub/);
   });
 
   it('other teams get 404, not the file', async () => {
@@ -146,14 +149,13 @@ suite('the report PDF (rendered by pdftoppm, read back by pdftotext)', () => {
     expect(text).toContain(`Page 1 of ${pages.length}`);
     const total = fleet.items.length;
     const share = (n: number) => `${((n / total) * 100).toFixed(1)} %`;
-    expect(text).toContain(`Served (target margin met) ${fleet.counts.served} (${share(fleet.counts.served)})`);
-    expect(text).toContain(`Marginal (below target, still heard) ${fleet.counts.marginal} (${share(fleet.counts.marginal)})`);
-    expect(text).toContain(`Unserved (not heard) ${fleet.counts.unserved} (${share(fleet.counts.unserved)})`);
+    for (const s of ['served', 'marginal', 'unserved'] as const) expect(text).toContain(`${STATUS_WORDS[s].label} (${STATUS_WORDS[s].meaning}) ${fleet.counts[s]} (${share(fleet.counts[s])})`);
     // Kit cost from the catalog's prices, the same sum as GET /bom.csv's kit row.
     const bom = execFileSync('ogrinfo', ['-ro', '-al', '-q', join(dir, 'bom.csv')], { encoding: 'utf8' });
-    const kit = Number(/item_id \(String\) = kit[\s\S]*?cost_usd \(String\) = ([\d.]+)/.exec(bom)![1]);
+    const kit = Number(/name \(String\) = Kit cost \(nodes and gateways\)[\s\S]*?cost_usd \(String\) = ([\d.]+)/.exec(bom)![1]);
     expect(kit).toBeGreaterThan(0);
-    expect(text).toContain(`Kit cost (antennas, feedlines, masts) ${kit.toLocaleString('en-US', { minimumFractionDigits: 2 })} USD`);
+    expect(text).toContain(`Kit cost (nodes and gateways: antennas, feedlines, connectors, masts) ${kit.toLocaleString('en-US', { minimumFractionDigits: 2 })} USD`);
+    expect(text).toContain('Gateway siting');
     for (const caution of installCautions(findBandPlan('us-902-928').cautions)) expect(text).toContain(caution.slice(0, 40));
     // σ and its source as the fleet table states them (the one planning spread).
     expect(text).toContain(`Location variability σ ${fleet.assumptions.sigmaDb.toFixed(1)} dB (${fleet.assumptions.sigmaSource}`);

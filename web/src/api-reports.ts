@@ -52,7 +52,10 @@ export async function downloadPlanFile(planId: string, file: PlanFile): Promise<
   const headers: Record<string, string> = { 'x-earshot-request': '1' };
   const token = storedToken();
   if (token) headers.authorization = `Bearer ${token}`;
-  const response = await fetch(`/api/v1/plans/${encodeURIComponent(planId)}/${file}`, { credentials: 'same-origin', headers });
+  // The report prints its times in the viewer's own time zone (and names it).
+  const tz = file === 'report.pdf' ? Intl.DateTimeFormat().resolvedOptions().timeZone : '';
+  const query = tz ? `?tz=${encodeURIComponent(tz)}` : '';
+  const response = await fetch(`/api/v1/plans/${encodeURIComponent(planId)}/${file}${query}`, { credentials: 'same-origin', headers });
   if (!response.ok) {
     const body = (await response.json().catch(() => ({}))) as { error?: { code?: string; message?: string } };
     throw new ApiError(response.status, body.error?.code ?? `http_${response.status}`, body.error?.message ?? response.statusText);

@@ -4,6 +4,7 @@
 import { Readable } from 'node:stream';
 import type { FastifyInstance, FastifyReply } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
+import { z } from 'zod';
 import { planExport, type ExportFormat } from '../../app/exports.ts';
 import { planReport } from '../../app/report.ts';
 import { reportFile, reportFileInput } from '../../app/report-files.ts';
@@ -38,10 +39,17 @@ export default async function exportRoutes(app: FastifyInstance): Promise<void> 
 
   api.get(
     '/plans/:planId/report.pdf',
-    { schema: { summary: 'The plan report as PDF: cover, map (hillshade, latest coverage, nodes and gateways), service counts, redundancy, risks, bill of materials, assumptions, cautions', tags, params: planParams } },
+    {
+      schema: {
+        summary: 'The plan report as PDF: cover, map (hillshade, latest coverage, nodes and gateways), service counts, redundancy, capacity, the latest gateway siting run, risks, bill of materials, assumptions, cautions',
+        tags,
+        params: planParams,
+        querystring: z.strictObject({ tz: z.string().max(64).regex(/^[A-Za-z0-9_+\-/]+$/, 'must be an IANA time zone such as Europe/Berlin').optional().describe('time zone for the printed times (the app sends the viewer’s); default UTC') }),
+      },
+    },
     async (request, reply) => {
       const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
-      const report = await planReport(engine, config, plan).catch(asApiError);
+      const report = await planReport(engine, config, plan, { timeZone: request.query.tz ?? null }).catch(asApiError);
       return attachment(reply, 'application/pdf', report.fileName).send(report.pdf);
     },
   );

@@ -101,3 +101,12 @@ export async function terrainFileNamesReferencedIn(db: Database, planId: string)
   });
   return new Set(rows.map((row) => row.filePath.split(/[\\/]/).pop() as string));
 }
+
+/** The most recently finished siting run of a plan, without its (large) matrix (null when none finished). */
+export async function latestDoneSitingRun(db: Database, planId: string) {
+  return db.prisma.sitingRun.findFirst({
+    where: { planId, status: 'done' },
+    orderBy: [{ finishedAt: 'desc' }, { id: 'desc' }],
+    select: { id: true, params: true, result: true, planFingerprint: true, finishedAt: true, appliedAt: true },
+  });
+}

@@ -12,6 +12,7 @@ import { kitPrice } from '../../../server/planning/kit-price.ts';
 import { composeMapImage, fitView, lonLatToGlobalPx, paddedBox, viewPx } from '../../../server/report/map.ts';
 import { geoJsonChunks, kmlChunks, xmlText } from '../../../server/report/features.ts';
 import { kmlColour, STATUS_STYLE } from '../../../server/report/style.ts';
+import { STATUS_WORDS } from '../../../server/planning/status.ts';
 import { mercatorPixelToLonLat } from '../../../server/terrain/hillshade.ts';
 import { kitCostUsd } from '../../../server/planning/recommend.ts';
 import { pairNodes } from '../../../server/app/scenarios.ts';
@@ -108,10 +109,12 @@ describe('map placement (Web Mercator, EPSG:3857 spherical)', () => {
 });
 
 describe('features and palette', () => {
-  it('status colours are the map’s (web/src/symbols.ts)', () => {
+  it('status colours and shapes are the map’s (web/src/symbols.ts); labels are the status words (server/planning/status.ts) as the map adopts them', () => {
     const web = readFileSync(new URL('../../../web/src/symbols.ts', import.meta.url), 'utf8');
     for (const [status, style] of Object.entries(STATUS_STYLE)) {
-      expect(web).toMatch(new RegExp(`${status}: \\{ color: '${style.colour}', label: '${style.label.replace(/[()]/g, '\\$&')}', shape: '${style.shape}'`));
+      expect(web).toMatch(new RegExp(`${status}: \\{ color: '${style.colour}', label: '[^']*', shape: '${style.shape}'`));
+      const words = STATUS_WORDS[status as keyof typeof STATUS_WORDS];
+      expect(style.label).toBe(`${words.label} (${words.meaning})`);
     }
     expect(kmlColour('#1d5fa8')).toBe('ffa85f1d');
   });
