@@ -127,6 +127,7 @@ async function registerApiRoutes(api: FastifyInstance): Promise<void> {
   await api.register((await import('./routes/scenarios.ts')).default);
   await api.register((await import('./routes/tuning.ts')).default);
   await api.register((await import('./routes/siting.ts')).default);
+  await api.register((await import('./routes/link-runs.ts')).default);
 }
 
 export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {

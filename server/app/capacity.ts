@@ -93,44 +93,69 @@ export interface PlanCapacity {
   warnings: string[];
 }
 
-/** The link engine's fleet answer turned into the capacity engine's plain input. */
-export function capacityNodesFromFleet(ctx: PlanContext, outcomes: readonly NodeLinksOutcome[], rateScale: number): { inputs: CapacityNodeInput[]; used: NodeLinksOutcome[]; skipped: NodeLinksOutcome[] } {
-  const gatewayIndex = new Map(ctx.gateways.map((g, k) => [g.row.id, k]));
-  const inputs: CapacityNodeInput[] = [];
-  const used: NodeLinksOutcome[] = [];
-  const skipped: NodeLinksOutcome[] = [];
-  for (const outcome of outcomes) {
-    const best = outcome.links[0];
-    if (!best) {
-      skipped.push(outcome);
-      continue;
-    }
-    // The node sends at the SF its best link uses (the network's data-rate choice); at each
-    // gateway the link engine's budget at that SF gives margin, RSSI and delivery probability.
-    const sf = best.usedSf;
-    const links = [];
-    for (const link of outcome.links) {
-      const index = gatewayIndex.get(link.gatewayId);
-      if (index === undefined) continue;
-      const atSf = link.perSf.find((entry) => entry.sf === sf);
-      const marginDb = atSf ? atSf.marginDb : link.marginDb;
-      links.push({ gateway: index, rssiDbm: link.rssiDbm, linkProbability: deliveryProbability(marginDb, link.sigmaDb), heard: marginDb >= 0 });
-    }
-    inputs.push({ sf, bandwidthKhz: ctx.settings.bandwidthKhz, timeOnAirMs: best.timeOnAirMs, messagesPerHour: outcome.node.row.messagesPerHour * rateScale, links });
-    used.push(outcome);
+/**
+ * What the capacity model needs of one node of the fleet: its input (null when no gateway is
+ * within range, so it carries no load) and the names the answer shows. Taken from an outcome as
+ * the fleet streams by (LinkEngine.fleetEach), so the outcomes themselves need not be kept.
+ */
+export interface CapacityNodeEntry {
+  input: CapacityNodeInput | null;
+  nodeId: string;
+  nodeName: string;
+  messagesPerHour: number;
+  warnings: string[];
+}
+
+/** One node's fleet outcome turned into the capacity engine's plain input. */
+export function capacityEntryOf(ctx: PlanContext, outcome: NodeLinksOutcome, rateScale: number, gatewayIndex: ReadonlyMap<string, number> = new Map(ctx.gateways.map((g, k) => [g.row.id, k]))): CapacityNodeEntry {
+  const row = outcome.node.row;
+  const entry = { nodeId: row.id, nodeName: row.name, messagesPerHour: row.messagesPerHour * rateScale, warnings: [...outcome.node.warnings] };
+  const best = outcome.links[0];
+  if (!best) return { ...entry, input: null };
+  // The node sends at the SF its best link uses (the network's data-rate choice); at each
+  // gateway the link engine's budget at that SF gives margin, RSSI and delivery probability.
+  const sf = best.usedSf;
+  const links = [];
+  for (const link of outcome.links) {
+    const index = gatewayIndex.get(link.gatewayId);
+    if (index === undefined) continue;
+    const atSf = link.perSf.find((e) => e.sf === sf);
+    const marginDb = atSf ? atSf.marginDb : link.marginDb;
+    links.push({ gateway: index, rssiDbm: link.rssiDbm, linkProbability: deliveryProbability(marginDb, link.sigmaDb), heard: marginDb >= 0 });
   }
-  return { inputs, used, skipped };
+  return { ...entry, input: { sf, bandwidthKhz: ctx.settings.bandwidthKhz, timeOnAirMs: best.timeOnAirMs, messagesPerHour: entry.messagesPerHour, links } };
+}
+
+/** The rate scale a capacity request asks for (1 = the nodes' own rates). */
+export function capacityRateScale(options: CapacityRunOptions): number {
+  return options.rateScale ?? 1;
 }
 
 /** A plan's capacity: the fleet through the link engine, then the chosen model. */
 export async function planCapacity(engine: LinkEngine, ctx: PlanContext, options: CapacityRunOptions): Promise<PlanCapacity> {
+  const rateScale = capacityRateScale(options);
+  const gatewayIndex = new Map(ctx.gateways.map((g, k) => [g.row.id, k]));
+  const entries: CapacityNodeEntry[] = [];
+  await engine.fleetEach(ctx, (outcome) => void entries.push(capacityEntryOf(ctx, outcome, rateScale, gatewayIndex)));
+  return capacityFromEntries(ctx, entries, options);
+}
+
+/** The chosen capacity model over the fleet's entries (capacityEntryOf of every node, in fleet order). */
+export function capacityFromEntries(ctx: PlanContext, entries: readonly CapacityNodeEntry[], options: CapacityRunOptions): PlanCapacity {
   const warnings = [...ctx.warnings];
-  const rateScale = options.rateScale ?? 1;
+  const rateScale = capacityRateScale(options);
   const settingShare = planSetting(ctx.plan, 'confirmedUplinkShare');
   const confirmedShare = options.confirmedShare ?? (typeof settingShare === 'number' && settingShare >= 0 && settingShare <= 1 ? settingShare : 0);
   const channels = options.channels ?? planUplinkChannels(ctx, warnings);
-  const outcomes = await engine.fleet(ctx);
-  const { inputs, used, skipped } = capacityNodesFromFleet(ctx, outcomes, rateScale);
+  const inputs: CapacityNodeInput[] = [];
+  const used: CapacityNodeEntry[] = [];
+  const skipped: CapacityNodeEntry[] = [];
+  for (const entry of entries) {
+    if (entry.input) {
+      inputs.push(entry.input);
+      used.push(entry);
+    } else skipped.push(entry);
+  }
   const result = assess(
     { bandPlan: ctx.settings.bandPlan, channels, gatewayCount: ctx.gateways.length, nodes: inputs, confirmedShare, gatewayCorrelation: ctx.settings.gatewayCorrelation },
     { model: options.model, durationS: options.durationS, seed: options.seed, captureThresholdDb: options.captureThresholdDb },
@@ -138,23 +163,23 @@ export async function planCapacity(engine: LinkEngine, ctx: PlanContext, options
   if (skipped.length > 0) warnings.push(`${skipped.length} node(s) have no gateway within range and carry no load`);
   if (ctx.gateways.length === 0) warnings.push('no gateways in this plan: nothing can be received');
   const nodes: PlanCapacity['nodes'] = result.nodes.map((node) => {
-    const outcome = used[node.node];
+    const entry = used[node.node];
     const { node: _index, gateways, ...rest } = node;
     return {
-      nodeId: outcome.node.row.id,
-      nodeName: outcome.node.row.name,
+      nodeId: entry.nodeId,
+      nodeName: entry.nodeName,
       ...rest,
       gatewaysHeard: gateways.filter((g) => g.linkProbability >= 0.5).length,
-      warnings: [...outcome.node.warnings, ...node.warnings],
+      warnings: [...entry.warnings, ...node.warnings],
     };
   });
-  for (const outcome of skipped) {
+  for (const entry of skipped) {
     nodes.push({
-      nodeId: outcome.node.row.id,
-      nodeName: outcome.node.row.name,
+      nodeId: entry.nodeId,
+      nodeName: entry.nodeName,
       sf: null,
       timeOnAirMs: 0,
-      messagesPerHour: outcome.node.row.messagesPerHour * rateScale,
+      messagesPerHour: entry.messagesPerHour,
       successProbability: null,
       linkDeliveryProbability: 0,
       deliveryRatio: 0,
@@ -163,7 +188,7 @@ export async function planCapacity(engine: LinkEngine, ctx: PlanContext, options
       dwellOk: null,
       overBudget: false,
       gatewaysHeard: 0,
-      warnings: [...outcome.node.warnings, 'no gateway within range'],
+      warnings: [...entry.warnings, 'no gateway within range'],
     });
   }
   return {

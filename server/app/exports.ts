@@ -37,7 +37,7 @@ export function planFeatures(figures: PlanFigures): PlanFeature[] {
       name: g.name,
       lat: g.lat,
       lon: g.lon,
-      properties: { siteId: g.siteId, nodesBestServed: g.bestServerOf, antennaDesignId: g.antennaDesignId, antennaHeightAglM: g.antennaHeightAglM, feedlineId: g.feedlineId, feedlineLengthM: g.feedlineLengthM, mastOptionId: g.mastOptionId, kitCostUsd: g.kitCostUsd },
+      properties: { siteId: g.siteId, nodesBestServed: g.bestServerOf, antennaDesignId: g.antennaDesignId, antennaName: g.antennaName, antennaHeightAglM: g.antennaHeightAglM, feedlineId: g.feedlineId, feedlineName: g.feedlineName, feedlineLengthM: g.feedlineLengthM, mastOptionId: g.mastOptionId, mastName: g.mastName, kitCostUsd: g.kitCostUsd },
     });
   }
   for (const n of figures.nodes) {
@@ -60,10 +60,13 @@ export function planFeatures(figures: PlanFigures): PlanFeature[] {
         environment: n.environment,
         installStatus: n.installStatus,
         antennaDesignId: n.kit.antennaDesignId,
+        antennaName: n.kit.antennaName,
         antennaHeightAglM: n.kit.antennaHeightAglM,
         feedlineId: n.kit.feedlineId,
+        feedlineName: n.kit.feedlineName,
         feedlineLengthM: n.kit.feedlineLengthM,
         mastOptionId: n.kit.mastOptionId,
+        mastName: n.kit.mastName,
         kitCostUsd: n.kit.costUsd,
       },
     });
@@ -95,10 +98,13 @@ export const NODE_CSV_COLUMNS: ReadonlyArray<{ header: string; value: (n: NodeFi
   { header: 'messages_per_hour', value: (n) => n.messagesPerHour },
   { header: 'duty_cycle_messages_per_hour', value: (n) => round(n.dutyCycleMessagesPerHour, 1) },
   { header: 'antenna_design_id', value: (n) => n.kit.antennaDesignId },
+  { header: 'antenna_name', value: (n) => n.kit.antennaName },
   { header: 'antenna_height_agl_m', value: (n) => n.kit.antennaHeightAglM },
   { header: 'feedline_id', value: (n) => n.kit.feedlineId },
+  { header: 'feedline_name', value: (n) => n.kit.feedlineName },
   { header: 'feedline_length_m', value: (n) => n.kit.feedlineLengthM },
   { header: 'mast_option_id', value: (n) => n.kit.mastOptionId },
+  { header: 'mast_name', value: (n) => n.kit.mastName },
   { header: 'kit_cost_usd', value: (n) => n.kit.costUsd },
   { header: 'warnings', value: (n) => n.warnings.join('; ') },
 ];
@@ -118,12 +124,15 @@ export function* exportChunks(figures: PlanFigures, format: ExportFormat): Gener
       return;
     case 'bom': {
       const bom = figures.bom;
+      const total = (name: string, costUsd: number) => ({ category: 'total', name, quantity: null, unit: null, unit_cost_usd: null, cost_usd: costUsd });
       const rows: Array<Record<string, CsvValue>> = [
-        ...bom.lines.map((l) => ({ category: l.category, item_id: l.itemId, name: l.name, quantity: l.quantity, unit: l.unit, unit_cost_usd: l.unitCostUsd, cost_usd: l.costUsd })),
-        { category: 'total', item_id: 'kit', name: 'Kit (antennas, feedlines, masts)', quantity: null, unit: null, unit_cost_usd: null, cost_usd: bom.kitCostUsd },
-        { category: 'total', item_id: 'all', name: 'Total', quantity: null, unit: null, unit_cost_usd: null, cost_usd: bom.totalUsd },
+        ...bom.lines.map((l) => ({ category: l.category, name: l.name, quantity: l.quantity, unit: l.unit, unit_cost_usd: l.unitCostUsd, cost_usd: l.costUsd })),
+        total('Node kit (antennas, feedlines, connectors, masts and mounts)', bom.nodeKitCostUsd),
+        total('Gateway kit (antennas, feedlines, connectors, masts)', bom.gatewayKitCostUsd),
+        total('Kit cost (nodes and gateways)', bom.kitCostUsd),
+        total('Total', bom.totalUsd),
       ];
-      const headers = ['category', 'item_id', 'name', 'quantity', 'unit', 'unit_cost_usd', 'cost_usd'];
+      const headers = ['category', 'name', 'quantity', 'unit', 'unit_cost_usd', 'cost_usd'];
       yield* csvLines(headers.map((header) => ({ header, value: (row: Record<string, CsvValue>) => row[header] })), rows);
       return;
     }

@@ -18,7 +18,8 @@ import type { LinkStatus } from '../planning/status.ts';
 import { LinkEngine, LinkInputError, type KitOverrides, type NodeLinksOutcome, type PlanContext } from '../jobs/link-engine.ts';
 import { AppError } from './errors.ts';
 import { loadCatalog, recommendForNode, type RecommendRequest } from './recommend.ts';
-import { visitSheet } from './visit-sheet.ts';
+import { nodeCautions, visitSheet } from './visit-sheet.ts';
+import { CAUTIONS_FOOTER } from '../planning/cautions.ts';
 
 export type { RecommendRequest };
 
@@ -189,6 +190,9 @@ export async function nodeLinkCheck(engine: LinkEngine, plan: PlanRow, nodeId: s
     recommendedKit: recommendation.options[0] ?? null,
     recommendation: { anyMeetsTarget: recommendation.anyMeetsTarget, advice: recommendation.advice },
     cautions: installCautions(ctx.settings.bandPlan.cautions),
+    /** What this node's job needs (a 1 m soil probe gets no mast list), grouped, each said once. */
+    fittedCautions: nodeCautions(outcome),
+    cautionsFooter: CAUTIONS_FOOTER,
     warnings: links.warnings,
   };
 }

@@ -3,19 +3,21 @@
 // counts per status, redundancy, the bill of materials, the named risks and the
 // assumptions. Everything comes from the link engine's fleet results (the same
 // call the fleet table makes) and the definitions that exist: status
-// (server/planning/status.ts), kit price (server/planning/recommend.ts),
+// (server/planning/status.ts), kit price (server/planning/kit-price.ts),
 // connectors (server/jobs/link-engine.ts), cautions (server/planning/check.ts).
 import type { Database } from '../db/client.ts';
 import type { PlanRow } from '../db/repositories/plans.ts';
-import { listSitesForPlan, priceCatalogRows, teamName, type SiteListRow } from '../db/repositories/scenarios.ts';
-import { gatewayConnectors, nodeConnectors, type LinkEngine, type NodeLinksOutcome, type PlanContext } from '../jobs/link-engine.ts';
+import { listSitesForPlan, teamName, type SiteListRow } from '../db/repositories/scenarios.ts';
+import type { LinkEngine, NodeLinksOutcome, PlanContext } from '../jobs/link-engine.ts';
 import { installCautions } from '../planning/check.ts';
-import { planCapacity, type PlanCapacity } from './capacity.ts';
+import { capacityEntryOf, capacityFromEntries, type CapacityNodeEntry, type PlanCapacity } from './capacity.ts';
+import { gatewayKitPrice, nodeKitPrice } from './kit-price.ts';
+import { loadCatalog } from './recommend.ts';
 import { describeSpread, planningSpread } from '../planning/spread.ts';
 import type { LinkResult } from '../planning/link.ts';
-import type { LinkStatus } from '../planning/status.ts';
-import { builtInConnectors } from '../radio/feedlines.ts';
-import { billOfMaterials, DEFAULT_GATEWAY_UNIT_COST_USD, endKitCostUsd, type BillOfMaterials, type PriceCatalog, type PricedEnd } from '../report/bom.ts';
+import { STATUS_WORDS, type LinkStatus } from '../planning/status.ts';
+import type { KitPrice } from '../planning/kit-price.ts';
+import { BomBuilder, DEFAULT_GATEWAY_UNIT_COST_USD, type BillOfMaterials } from '../report/bom.ts';
 
 /** Gateways that hear a node: links with margin ≥ 0 dB at the SF the node uses (the fleet table's `gatewaysHeard`). */
 export function gatewaysHeard(links: readonly LinkResult[]): number {
@@ -54,7 +56,8 @@ export interface NodeFigure {
   /** Messages per hour the band plan's duty-cycle rule allows at the SF used (null = no rule). */
   dutyCycleMessagesPerHour: number | null;
   overDutyCycle: boolean;
-  kit: { antennaDesignId: string; antennaName: string; antennaHeightAglM: number; feedlineId: string | null; feedlineLengthM: number; mastOptionId: string | null; costUsd: number };
+  /** The node's kit and its one price (nodeKitPrice: the installer view's and visit sheet's figure). */
+  kit: { antennaDesignId: string; antennaName: string; antennaHeightAglM: number; feedlineId: string | null; feedlineName: string | null; feedlineLengthM: number; mastOptionId: string | null; mastName: string | null; costUsd: number };
   warnings: string[];
 }
 
@@ -69,6 +72,9 @@ export interface GatewayFigure {
   feedlineId: string;
   feedlineLengthM: number;
   mastOptionId: string | null;
+  mastName: string | null;
+  antennaName: string;
+  feedlineName: string;
   /** Nodes whose best link is this gateway. */
   bestServerOf: number;
   kitCostUsd: number;
@@ -154,36 +160,33 @@ export interface PlanFigures {
   warnings: string[];
 }
 
-export const STATUS_RULE =
-  'served: best link meets the target margin at an allowed SF and the combined delivery meets the target; unserved: best margin below 0 dB (heard less than half the time); marginal: in between';
-
-async function priceCatalog(db: Database, teamId: string): Promise<PriceCatalog> {
-  const rows = await priceCatalogRows(db, teamId);
-  // A team's own entry of an id wins over the built-in one (as the kit lookups do).
-  const byId = <T extends { id: string; teamId: string | null }>(list: T[]) => {
-    const map = new Map<string, T>();
-    for (const row of list) if (!map.has(row.id) || row.teamId) map.set(row.id, row);
-    return map;
-  };
-  return {
-    antennas: byId(rows.antennas),
-    feedlines: byId(rows.feedlines),
-    masts: byId(rows.masts),
-    connectors: new Map(builtInConnectors.flatMap((c) => (c.costUsd === undefined ? [] : [[c.id, { name: c.name, costUsd: c.costUsd }] as const]))),
-  };
-}
+/** The status rule in the words every view uses (STATUS_WORDS of server/planning/status.ts). */
+export const STATUS_RULE = (['served', 'marginal', 'unserved'] as const).map((status) => `${STATUS_WORDS[status].label}: ${STATUS_WORDS[status].meaning}`).join('; ');
 
 function gatewayUnitCost(plan: PlanRow): number {
   const raw = plan.settings && typeof plan.settings === 'object' && !Array.isArray(plan.settings) ? (plan.settings as Record<string, unknown>).gatewayUnitCostUsd : undefined;
   return typeof raw === 'number' && Number.isFinite(raw) && raw >= 0 ? raw : DEFAULT_GATEWAY_UNIT_COST_USD;
 }
 
-function nodeFigure(ctx: PlanContext, outcome: NodeLinksOutcome, names: Map<string, string>, catalog: PriceCatalog): NodeFigure {
+type Catalog = Awaited<ReturnType<typeof loadCatalog>>;
+
+/** The node's one kit price; a node whose antenna is not in the catalog is priced at 0 for it and listed as unpriced. */
+function nodePrice(outcome: NodeLinksOutcome, catalog: Catalog): KitPrice & { mastName: string | null } {
+  const node = outcome.node;
+  const row = node.row;
+  if (node.antenna) return nodeKitPrice({ antenna: node.antenna, feedline: node.feedline ?? null, feedlineLengthM: node.kit.feedlineLengthM, antennaHeightAglM: node.antennaHeightAglM, mastOptionId: row.mastOptionId }, catalog.masts);
+  const antenna = catalog.antennas.find((a) => a.id === row.antennaDesignId);
+  const feedline = row.feedlineId ? (catalog.feedlines.find((f) => f.id === row.feedlineId) ?? null) : null;
+  const price = nodeKitPrice({ antenna: antenna ?? { name: row.antennaDesignId, costUsd: 0 }, feedline, feedlineLengthM: feedline ? row.feedlineLengthM : 0, antennaHeightAglM: row.antennaHeightAglM, mastOptionId: row.mastOptionId }, catalog.masts);
+  return antenna ? price : { ...price, unpriced: [...price.unpriced, `antenna ${row.antennaDesignId}`] };
+}
+
+function nodeFigure(outcome: NodeLinksOutcome, names: Map<string, string>, price: KitPrice & { mastName: string | null }): NodeFigure {
   const row = outcome.node.row;
   const best = outcome.links[0] as LinkResult | undefined;
   const perSf = best ? best.perSf.find((entry) => entry.sf === best.usedSf) : undefined;
   const allowed = perSf ? perSf.messagesPerHour : null;
-  const feedlineId = outcome.node.feedline ? outcome.node.feedline.id : null;
+  const feedline = outcome.node.feedline ?? null;
   const feedlineLengthM = outcome.node.kit ? outcome.node.kit.feedlineLengthM : 0;
   const antennaId = outcome.node.antenna ? outcome.node.antenna.id : row.antennaDesignId;
   return {
@@ -212,12 +215,14 @@ function nodeFigure(ctx: PlanContext, outcome: NodeLinksOutcome, names: Map<stri
     overDutyCycle: allowed !== null && row.messagesPerHour > allowed,
     kit: {
       antennaDesignId: antennaId,
-      antennaName: outcome.node.antenna ? outcome.node.antenna.name : (catalog.antennas.get(antennaId)?.name ?? antennaId),
+      antennaName: outcome.node.antenna ? outcome.node.antenna.name : (price.lines[0]?.name ?? antennaId),
       antennaHeightAglM: outcome.node.antennaHeightAglM,
-      feedlineId,
+      feedlineId: feedline ? feedline.id : null,
+      feedlineName: feedline ? feedline.name : null,
       feedlineLengthM,
       mastOptionId: row.mastOptionId,
-      costUsd: endKitCostUsd({ kind: 'node', id: row.id, name: row.name, antennaDesignId: antennaId, feedlineId, feedlineLengthM, mastOptionId: row.mastOptionId, connectors: [] }, catalog),
+      mastName: price.mastName,
+      costUsd: price.totalUsd,
     },
     warnings: [...outcome.node.warnings],
   };
@@ -230,22 +235,34 @@ function terrainDescription(ctx: PlanContext): string {
 
 /**
  * The plan's figures. `onProgress` reports the fleet's progress (0–1); the fleet
- * itself is the link engine's (cached Link rows are reused, missing paths computed).
+ * itself is the link engine's (cached Link rows are reused, missing paths computed),
+ * taken one node at a time (LinkEngine.fleetEach): each outcome becomes its node
+ * figure, its capacity input and its bill-of-materials lines, and is then dropped,
+ * so a 5,000-node plan never holds every link result and path at once.
  */
 export async function planFigures(engine: LinkEngine, plan: PlanRow, onProgress?: (fraction: number) => void): Promise<PlanFigures> {
   const db = engine.database;
   const ctx = await engine.planContext(plan);
-  const outcomes = await engine.fleet(ctx, onProgress ? (done, total) => onProgress(total ? done / total : 1) : undefined);
-  // The capacity engine over the same fleet answer: planCapacity only asks the engine for
-  // engine.fleet(ctx), so it is handed the outcomes already in hand instead of a second pass.
-  let capacity: PlanCapacity | null = null;
-  if (ctx.gateways.length > 0 && outcomes.length > 0) {
-    const sameFleet = Object.create(engine, { fleet: { value: async () => outcomes } }) as LinkEngine;
-    capacity = await planCapacity(sameFleet, ctx, { model: 'capture' });
-  }
-  const [catalog, sites, team] = await Promise.all([priceCatalog(db, plan.teamId), listSitesForPlan(db, plan.id), teamName(db, plan.teamId)]);
+  const [catalog, sites, team] = await Promise.all([loadCatalog(db, plan.teamId), listSitesForPlan(db, plan.id), teamName(db, plan.teamId)]);
   const names = new Map(ctx.gateways.map((g) => [g.row.id, g.row.name]));
-  const nodes = outcomes.map((outcome) => nodeFigure(ctx, outcome, names, catalog));
+  const gatewayIndex = new Map(ctx.gateways.map((g, k) => [g.row.id, k]));
+  const bomBuilder = new BomBuilder();
+  const nodes: NodeFigure[] = [];
+  // The capacity engine over the same fleet answer (server/app/capacity.ts, no second pass).
+  const withCapacity = ctx.gateways.length > 0;
+  const capacityEntries: CapacityNodeEntry[] = [];
+  await engine.fleetEach(
+    ctx,
+    (outcome) => {
+      const price = nodePrice(outcome, catalog);
+      nodes.push(nodeFigure(outcome, names, price));
+      bomBuilder.add({ kind: 'node', id: outcome.node.row.id, name: outcome.node.row.name, price });
+      if (withCapacity) capacityEntries.push(capacityEntryOf(ctx, outcome, 1, gatewayIndex));
+    },
+    onProgress ? (done, total) => onProgress(total ? done / total : 1) : undefined,
+  );
+  const capacity: PlanCapacity | null = withCapacity && nodes.length > 0 ? capacityFromEntries(ctx, capacityEntries, { model: 'capture' }) : null;
+  capacityEntries.length = 0;
   const counts: Record<LinkStatus, number> = { served: 0, marginal: 0, unserved: 0 };
   const redundancy: Redundancy = { none: 0, one: 0, twoOrMore: 0 };
   const bestOf = new Map<string, number>();
@@ -270,31 +287,14 @@ export async function planFigures(engine: LinkEngine, plan: PlanRow, onProgress?
       risks.overDutyCycle.push({ nodeId: c.nodeId, nodeName: c.nodeName, detail: `${dec(c.messagesPerHour)} messages/h at SF${c.sf ?? '–'}; the band plan allows ${dec(allowed)} per hour` });
     }
   }
-  const ends: PricedEnd[] = [
-    ...outcomes.map((o) => ({
-      kind: 'node' as const,
-      id: o.node.row.id,
-      name: o.node.row.name,
-      antennaDesignId: o.node.row.antennaDesignId,
-      feedlineId: o.node.row.feedlineId,
-      feedlineLengthM: o.node.row.feedlineId ? o.node.row.feedlineLengthM : 0,
-      mastOptionId: o.node.row.mastOptionId,
-      connectors: nodeConnectors(!!o.node.row.feedlineId && o.node.row.feedlineLengthM > 0).map((u) => ({ id: u.connector.id, count: u.count })),
-    })),
-    ...ctx.gateways.map((g) => ({
-      kind: 'gateway' as const,
-      id: g.row.id,
-      name: g.row.name,
-      antennaDesignId: g.row.antennaDesignId,
-      feedlineId: g.row.feedlineId,
-      feedlineLengthM: g.row.feedlineLengthM,
-      mastOptionId: g.row.mastOptionId,
-      siteId: g.row.siteId,
-      connectors: gatewayConnectors(g.row.feedlineLengthM > 0).map((u) => ({ id: u.connector.id, count: u.count })),
-    })),
-  ];
+  const gatewayPrices = new Map<string, KitPrice & { mastName: string | null }>();
+  for (const g of ctx.gateways) {
+    const price = gatewayKitPrice({ antenna: g.antenna, feedline: g.feedline, feedlineLengthM: g.row.feedlineLengthM, mastOptionId: g.row.mastOptionId }, catalog.masts);
+    gatewayPrices.set(g.row.id, price);
+    bomBuilder.add({ kind: 'gateway', id: g.row.id, name: g.row.name, price, siteId: g.row.siteId });
+  }
   const gatewayIds = new Set(ctx.gateways.map((g) => g.row.siteId).filter((id): id is string => !!id));
-  const bom = billOfMaterials(ends, catalog, { gatewayUnitCostUsd: gatewayUnitCost(plan), sites: sites.map((s: SiteListRow) => ({ id: s.id, name: s.name, costUsd: s.costUsd })) });
+  const bom = bomBuilder.finish({ gatewayUnitCostUsd: gatewayUnitCost(plan), sites: sites.map((site: SiteListRow) => ({ id: site.id, name: site.name, costUsd: site.costUsd })) });
   const s = ctx.settings;
   // The fleet table's plan-wide σ (a node at 1.5 m in the open); each link carries its own.
   const spread = planningSpread({ ...s.spread, frequencyMhz: s.frequencyMhz, nodeAntennaHeightAglM: 1.5, nodeClutterHeightM: 0 });
@@ -331,8 +331,11 @@ export async function planFigures(engine: LinkEngine, plan: PlanRow, onProgress?
       feedlineId: g.row.feedlineId,
       feedlineLengthM: g.row.feedlineLengthM,
       mastOptionId: g.row.mastOptionId,
+      mastName: gatewayPrices.get(g.row.id)?.mastName ?? null,
+      antennaName: g.antenna.name,
+      feedlineName: g.feedline.name,
       bestServerOf: bestOf.get(g.row.id) ?? 0,
-      kitCostUsd: endKitCostUsd(ends.find((e) => e.id === g.row.id) as PricedEnd, catalog),
+      kitCostUsd: gatewayPrices.get(g.row.id)?.totalUsd ?? 0,
     })),
     sites: sites.map((site) => ({ id: site.id, name: site.name, lat: site.lat, lon: site.lon, kind: site.kind, costUsd: site.costUsd, maxAntennaHeightAglM: site.maxAntennaHeightAglM, hasGateway: gatewayIds.has(site.id) })),
     counts,

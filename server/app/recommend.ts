@@ -9,6 +9,7 @@ import type { AntennaDesign } from '../radio/antennas.ts';
 import type { FeedlineType } from '../radio/feedlines.ts';
 import type { MastOption } from '../radio/masts.ts';
 import { nodeKitPrice } from './kit-price.ts';
+import { CAUTIONS_FOOTER, fittedCautions, type CautionGroup } from '../planning/cautions.ts';
 import type { KitPrice } from '../planning/kit-price.ts';
 import { nodeLinkResults, summariseNodeLinks } from '../planning/node-links.ts';
 import { predictPath, type PathPrediction } from '../planning/path.ts';
@@ -38,6 +39,9 @@ export interface NodeRecommendation extends Omit<Recommendation, 'options'> {
   currentKit: { antennaDesignId: string; antennaHeightAglM: number; feedlineId: string | null; feedlineLengthM: number };
   /** Catalog entries in the search, with names, so a reader can see what was compared. */
   catalog: { antennas: Array<{ id: string; name: string; costUsd: number }>; masts: Array<{ heightM: number; mastOptionId: string | null; costUsd: number }>; feedlines: Array<{ id: string | null; name: string; costUsdPerM: number }> };
+  /** Cautions fitted to the first option (the kit recommended): height, gain, EIRP, pit or building. */
+  fittedCautions: CautionGroup[];
+  cautionsFooter: string;
   warnings: string[];
 }
 
@@ -126,16 +130,21 @@ export async function recommendForNode(engine: LinkEngine, ctx: PlanContext, row
   }
   const antennaById = new Map(antennas.map((a) => [a.id, a]));
   const feedlineById = new Map(feedlines.filter((fl): fl is FeedlineType => fl !== null).map((fl) => [fl.id, fl]));
-  const evaluate = (candidate: KitCandidate): KitEvaluation => {
+  /** The links a candidate kit would have (null: no gateway in range). */
+  const linksOf = (candidate: Pick<KitCandidate, 'antennaDesignId' | 'mastHeightM' | 'feedlineId' | 'feedlineLengthM'>) => {
     const paths = pathsByHeight.get(candidate.mastHeightM) ?? [];
-    if (paths.length === 0) return { marginDb: null, deliveryProbability: 0, bestGatewayId: null };
+    if (paths.length === 0) return null;
     const feedline = candidate.feedlineId ? (feedlineById.get(candidate.feedlineId) ?? null) : null;
-    const links = nodeLinkResults(
+    return nodeLinkResults(
       { antenna: antennaById.get(candidate.antennaDesignId) as AntennaDesign, boresightAzimuthDeg: null, feedline, feedlineLengthM: candidate.feedlineLengthM, connectors: nodeConnectors(feedline !== null && candidate.feedlineLengthM > 0) },
       node.radio,
       paths.map(({ gateway, path }) => ({ gatewayId: gateway.row.id, path, kit: gateway.kit, radio: gateway.radio })),
       { ...node.radioSettings, targetMarginDb: target.targetMarginDb },
     );
+  };
+  const evaluate = (candidate: KitCandidate): KitEvaluation => {
+    const links = linksOf(candidate);
+    if (links === null) return { marginDb: null, deliveryProbability: 0, bestGatewayId: null };
     const summary = summariseNodeLinks(links, target, ctx.settings.gatewayCorrelation);
     return { marginDb: summary.bestMarginDb, deliveryProbability: summary.combinedDeliveryProbability, bestGatewayId: summary.bestGatewayId };
   };
@@ -156,6 +165,13 @@ export async function recommendForNode(engine: LinkEngine, ctx: PlanContext, row
     const price = nodeKitPrice({ antenna, feedline, feedlineLengthM: option.feedlineLengthM, antennaHeightAglM: option.mastHeightM, mastOptionId: option.mastOptionId }, kit.masts);
     return { ...option, antennaName: antenna.name, feedlineName: feedline?.name ?? null, mastName: price.mastName, price };
   });
+  // Cautions for the kit the answer recommends (its mast height, gain and EIRP), from the
+  // same links the ranking used; none when nothing was found.
+  const top = pricedOptions[0];
+  const topLegal = top ? ((linksOf(top) ?? []).find((l) => l.legal)?.legal ?? null) : null;
+  const cautions = top
+    ? fittedCautions({ role: 'node', antennaHeightAglM: top.mastHeightM, peakEirpDbm: topLegal?.peakEirpDbm ?? null, antennaGainDbi: antennaById.get(top.antennaDesignId)?.gainDbi ?? 0, legal: topLegal, enclosed: row.environment !== 'outdoor' })
+    : [];
   return {
     nodeId: row.id,
     target,
@@ -167,6 +183,8 @@ export async function recommendForNode(engine: LinkEngine, ctx: PlanContext, row
       masts: masts.map((m) => ({ heightM: m.mastHeightM, mastOptionId: m.mastOptionId, costUsd: m.costUsd })),
       feedlines: feedlines.map((fl) => ({ id: fl ? fl.id : null, name: fl ? fl.name : 'none (radio at the antenna)', costUsdPerM: fl ? fl.costUsdPerM : 0 })),
     },
+    fittedCautions: cautions,
+    cautionsFooter: CAUTIONS_FOOTER,
     warnings: [...warnings, ...node.warnings],
   };
 }

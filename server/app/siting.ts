@@ -29,14 +29,23 @@ import {
   sitingPlanFingerprint,
   unfinishedSitingRuns,
   type SitingRunSummaryRow,
+  type StoredSitingMatrix,
+  markSitingUndone,
+  recordSitingRemoved,
+  removeGatewaysForSiting,
+  restoreGatewaysForSiting,
+  type RemovedGateway,
 } from '../db/repositories/siting-runs.ts';
 import { type LinkEngine, type PlanContext } from '../jobs/link-engine.ts';
 import { computeSitingMatrix, matrixInputs, SitingCancelled, type SitingCandidate, type SitingMatrix } from '../jobs/siting-matrix.ts';
+import { splitSitingMatrix } from '../jobs/siting-matrix-split.ts';
+import type { LinkRunJobs } from '../jobs/link-runs.ts';
 import { kitCostUsd } from '../planning/recommend.ts';
 import { DEFAULT_GATEWAY_ANTENNA_ID, DEFAULT_GATEWAY_FEEDLINE_ID, DEFAULT_GATEWAY_NOISE_FIGURE_DB } from '../planning/gateway-kit.ts';
 import { isExcluded, localHighPoints, parseExclusionAreas, pickSpaced, type ExclusionArea, type HighPoint, type LonLatBox } from '../siting/candidates.ts';
 import { coverInstance, hearingCounts, marginalNodes, requirements, selectionCostUsd, selectionCount, coveredMask, type CoverOptions } from '../siting/cover.ts';
 import { solveSiting } from '../siting/milp.ts';
+import { packMatrix, unpackMatrix } from '../siting/matrix-pack.ts';
 import { openGeoRaster } from '../terrain/raster.ts';
 import { clutterClassIndex } from '../terrain/clutter.ts';
 
@@ -90,6 +99,7 @@ export interface SitingSelected {
   lon: number;
   antennaHeightAglM: number;
   costUsd: number;
+  /** An existing gateway that stays (fixed, or chosen with keepExistingGateways false). */
   kept: boolean;
   nodesHeard: number;
   nodesOnlyHere: number;
@@ -119,6 +129,8 @@ export interface SitingResult {
   matrix: { nodes: number; candidates: number; pairsPredicted: number; pairsSkipped: number; cached: boolean; seconds: number };
   before: { gateways: number };
   after: { gateways: number };
+  /** keepExistingGateways false: the existing gateways the answer drops (apply removes them; undo restores them). */
+  removed: Array<{ gatewayId: string; name: string }>;
   warnings: string[];
 }
 
@@ -134,6 +146,12 @@ export function loadHighs(): Promise<Highs> {
 export interface SitingDeps {
   db: Database;
   engine: LinkEngine;
+  /**
+   * With REDIS_URL: the queue the matrix is split over (blocks of nodes × candidates
+   * on `npm run worker` processes, server/jobs/siting-matrix-split.ts). Left out, the
+   * matrix is predicted in this process over the link engine's worker threads.
+   */
+  matrixJobs?: LinkRunJobs;
 }
 
 /** Plan-level default gateway kit: the plan's first gateway's kit, else the catalog defaults. */
@@ -187,8 +205,8 @@ export async function createSitingRequest(deps: SitingDeps, principal: AuditPrin
       throw error;
     }
   }
-  if (!request.candidates.sites && request.candidates.terrainPoints === 0 && !request.keepExistingGateways) {
-    throw new SitingError('invalid_input', 'invalid_input', 'candidates: choose sites, terrain points (terrainPoints ≥ 1) or keepExistingGateways; there is nothing to choose from');
+  if (!request.candidates.sites && request.candidates.terrainPoints === 0 && (await listGatewaysForLinks(deps.db, plan.id)).length === 0) {
+    throw new SitingError('invalid_input', 'invalid_input', 'candidates: choose sites or terrain points (terrainPoints ≥ 1); the plan has no gateways either, so there is nothing to choose from');
   }
   const params: SitingParams = { ...request, gatewayKit };
   const planFingerprint = await sitingPlanFingerprint(deps.db, plan.id);
@@ -270,10 +288,10 @@ async function buildCandidates(deps: SitingDeps, ctx: PlanContext, params: Sitin
     return { antennaHeightAglM, feedlineLengthM, kitCostUsd: kitCostUsd(antenna.costUsd, mast?.costUsd ?? 0, feedline.costUsdPerM, feedlineLengthM) };
   };
   const candidates: SitingCandidate[] = [];
-  if (params.keepExistingGateways) {
-    for (const g of ctx.gateways) {
-      candidates.push({ id: `gateway:${g.row.id}`, source: 'gateway', siteId: g.row.siteId, gatewayId: g.row.id, name: g.row.name, lat: g.row.lat, lon: g.row.lon, antennaDesignId: g.row.antennaDesignId, antennaHeightAglM: g.row.antennaHeightAglM, feedlineId: g.row.feedlineId, feedlineLengthM: g.row.feedlineLengthM, mastOptionId: g.row.mastOptionId, noiseFigureDb: g.row.noiseFigureDb, costUsd: 0, fixed: true });
-    }
+  // Existing gateways: kept as built (fixed, cost 0) or, with keepExistingGateways false, ordinary
+  // candidates the answer may keep or drop (cost 0 USD: they are built already; apply removes the dropped ones).
+  for (const g of ctx.gateways) {
+    candidates.push({ id: `gateway:${g.row.id}`, source: 'gateway', siteId: g.row.siteId, gatewayId: g.row.id, name: g.row.name, lat: g.row.lat, lon: g.row.lon, antennaDesignId: g.row.antennaDesignId, antennaHeightAglM: g.row.antennaHeightAglM, feedlineId: g.row.feedlineId, feedlineLengthM: g.row.feedlineLengthM, mastOptionId: g.row.mastOptionId, noiseFigureDb: g.row.noiseFigureDb, costUsd: 0, fixed: params.keepExistingGateways });
   }
   const sites = await listSitesForSiting(deps.db, ctx.plan.id);
   const gatewaySites = new Set(ctx.gateways.map((g) => g.row.siteId).filter((id): id is string => !!id));
@@ -281,7 +299,8 @@ async function buildCandidates(deps: SitingDeps, ctx: PlanContext, params: Sitin
     const wanted = params.candidates.siteIds ? new Set(params.candidates.siteIds) : null;
     for (const site of sites) {
       if (wanted ? !wanted.has(site.id) : site.kind !== 'candidate') continue;
-      if (params.keepExistingGateways && gatewaySites.has(site.id)) continue;
+      // A site that holds a gateway is that gateway's candidate already.
+      if (gatewaySites.has(site.id)) continue;
       if (isExcluded(areas, site.lat, site.lon)) {
         warnings.push(`site ${site.name} lies in an exclusion area; left out`);
         continue;
@@ -332,6 +351,29 @@ function isMatrix(value: unknown): value is SitingMatrix {
   return !!value && typeof value === 'object' && Array.isArray((value as SitingMatrix).meets) && Array.isArray((value as SitingMatrix).candidates);
 }
 
+/** The JSON part of a packed matrix (its cells are in the run's byte columns). */
+type PackedMatrixMeta = Omit<SitingMatrix, 'meets' | 'marginDb'> & { format: typeof PACKED_FORMAT; rows: number; columns: number };
+const PACKED_FORMAT = 'siting-matrix-packed-1';
+
+/** A matrix as stored: ids, names, candidates and counts as JSON, the cells packed (server/siting/matrix-pack.ts). */
+function toStored(matrix: SitingMatrix): { meta: PackedMatrixMeta; meetsBits: Uint8Array; marginCdB: Uint8Array } {
+  const { meets, marginDb, ...rest } = matrix;
+  const packed = packMatrix(meets, marginDb, matrix.candidates.length);
+  return { meta: { ...rest, format: PACKED_FORMAT, rows: packed.rows, columns: packed.columns }, meetsBits: packed.meetsBits, marginCdB: packed.marginCdB };
+}
+
+/** A stored matrix back as the API serves it; runs stored before the packed format kept it all as JSON. */
+function fromStored(stored: StoredSitingMatrix | null): SitingMatrix | null {
+  if (!stored) return null;
+  const meta = stored.matrix as Partial<PackedMatrixMeta> | null;
+  if (meta && meta.format === PACKED_FORMAT && stored.meetsBits && stored.marginCdB && typeof meta.rows === 'number' && typeof meta.columns === 'number') {
+    const { format: _f, rows, columns, ...rest } = meta as PackedMatrixMeta;
+    const { meets, marginDb } = unpackMatrix({ rows, columns, meetsBits: stored.meetsBits, marginCdB: stored.marginCdB });
+    return { ...rest, meets, marginDb };
+  }
+  return isMatrix(stored.matrix) ? stored.matrix : null;
+}
+
 /** Executes a queued run to done / failed / cancelled. Never throws for the run's own failures. */
 export async function executeSitingRun(deps: SitingDeps, runId: string): Promise<void> {
   const run = await findSitingRunById(deps.db, runId);
@@ -346,20 +388,20 @@ export async function executeSitingRun(deps: SitingDeps, runId: string): Promise
     await reportSitingProgress(deps.db, runId, 0.02);
     const t0 = performance.now();
     const inputs = await matrixInputs(deps.engine, ctx, built.candidates);
-    const cached = await findCachedMatrix(deps.db, plan.id, inputs.hash);
+    const cached = fromStored(await findCachedMatrix(deps.db, plan.id, inputs.hash));
     let matrix: SitingMatrix;
     let fromCache = false;
-    if (isMatrix(cached) && cached.candidates.length === built.candidates.length) {
+    if (cached && cached.candidates.length === built.candidates.length) {
       matrix = cached;
       fromCache = true;
     } else {
-      matrix = await computeSitingMatrix(deps.engine, ctx, built.candidates, inputs, {
-        areaMinElevationM: built.minElevationM,
-        onProgress: async (fraction) => reportSitingProgress(deps.db, runId, 0.02 + 0.9 * fraction),
-      });
+      const onProgress = async (fraction: number) => reportSitingProgress(deps.db, runId, 0.02 + 0.9 * fraction);
+      matrix = deps.matrixJobs
+        ? await splitSitingMatrix(deps.engine, deps.matrixJobs, ctx, built.candidates, inputs, { sitingRunId: runId, areaMinElevationM: built.minElevationM, onProgress })
+        : await computeSitingMatrix(deps.engine, ctx, built.candidates, inputs, { areaMinElevationM: built.minElevationM, onProgress });
     }
     const matrixSeconds = (performance.now() - t0) / 1000;
-    await saveSitingMatrix(deps.db, runId, inputs.hash, matrix);
+    await saveSitingMatrix(deps.db, runId, inputs.hash, toStored(matrix));
     if (!(await reportSitingProgress(deps.db, runId, 0.93))) throw new SitingCancelled();
     const result = await solveMatrix(matrix, params, [...built.warnings, ...matrix.warnings], { cached: fromCache, seconds: matrixSeconds }, ctx.gateways.length);
     await completeSitingRun(deps.db, runId, result);
@@ -404,7 +446,7 @@ export async function solveMatrix(matrix: SitingMatrix, params: Omit<SitingReque
     if (!solution.selected[j]) continue;
     const c = matrix.candidates[j];
     const only = lost.get(j) ?? [];
-    selected.push({ rank: 0, candidateId: c.id, source: c.source, siteId: c.siteId, gatewayId: c.gatewayId, name: c.name, lat: c.lat, lon: c.lon, antennaHeightAglM: c.antennaHeightAglM, costUsd: c.costUsd, kept: c.fixed, nodesHeard: byCandidate.get(j) ?? 0, nodesOnlyHere: only.length, nodeIdsOnlyHere: only.map((i) => matrix.nodeIds[i]) });
+    selected.push({ rank: 0, candidateId: c.id, source: c.source, siteId: c.siteId, gatewayId: c.gatewayId, name: c.name, lat: c.lat, lon: c.lon, antennaHeightAglM: c.antennaHeightAglM, costUsd: c.costUsd, kept: c.source === 'gateway', nodesHeard: byCandidate.get(j) ?? 0, nodesOnlyHere: only.length, nodeIdsOnlyHere: only.map((i) => matrix.nodeIds[i]) });
   }
   selected.sort((a, b) => b.nodesOnlyHere - a.nodesOnlyHere || b.nodesHeard - a.nodesHeard || a.costUsd - b.costUsd);
   selected.forEach((s, n) => (s.rank = n + 1));
@@ -424,6 +466,12 @@ export async function solveMatrix(matrix: SitingMatrix, params: Omit<SitingReque
   }
   const greedyCovered = coveredMask(instance, solution.greedy.selected, required);
   const gateways = selectionCount(solution.selected);
+  const removed: SitingResult['removed'] = [];
+  if (solution.status !== 'infeasible') {
+    matrix.candidates.forEach((c, j) => {
+      if (c.source === 'gateway' && c.gatewayId && !solution.selected[j]) removed.push({ gatewayId: c.gatewayId, name: c.name });
+    });
+  }
   return {
     selected,
     coveredNodeIds,
@@ -445,8 +493,9 @@ export async function solveMatrix(matrix: SitingMatrix, params: Omit<SitingReque
     greedy: { gateways: selectionCount(solution.greedy.selected), costUsd: round2(selectionCostUsd(instance, solution.greedy.selected)), nodesCovered: selectionCount(greedyCovered), feasible: solution.greedy.feasible, seconds: Math.round(solution.greedy.seconds * 1e4) / 1e4 },
     matrix: { nodes: matrix.nodeIds.length, candidates: matrix.candidates.length, pairsPredicted: matrix.pairsPredicted, pairsSkipped: matrix.pairsSkipped, cached: matrixInfo.cached, seconds: Math.round(matrixInfo.seconds * 100) / 100 },
     before: { gateways: gatewaysBefore },
-    // Existing gateways stay in the plan either way; keepExistingGateways only decides whether the model counts them.
-    after: { gateways: gatewaysBefore + selected.filter((s) => !s.kept).length },
+    // Kept existing gateways plus new ones; with keepExistingGateways false the dropped ones are removed by apply.
+    after: { gateways: gatewaysBefore - removed.length + selected.filter((s) => !s.kept).length },
+    removed,
     warnings,
   };
 }
@@ -459,8 +508,8 @@ export async function findRun(deps: SitingDeps, planId: string, runId: string): 
 
 export async function runMatrix(deps: SitingDeps, planId: string, runId: string): Promise<SitingMatrix> {
   const run = await findRun(deps, planId, runId);
-  const matrix = await findSitingMatrix(deps.db, planId, run.id);
-  if (!isMatrix(matrix)) throw new SitingError('conflict', 'not_ready', `the run is ${run.status}; its matrix exists once the predictions are done`);
+  const matrix = fromStored(await findSitingMatrix(deps.db, planId, run.id));
+  if (!matrix) throw new SitingError('conflict', 'not_ready', `the run is ${run.status}; its matrix exists once the predictions are done`);
   return matrix;
 }
 
@@ -477,7 +526,12 @@ export async function cancelRun(deps: SitingDeps, principal: AuditPrincipal, pla
 }
 
 /** Creates the run's new gateways (kept ones exist already), audited, once; 409 when the plan changed since. */
-export async function applyRun(deps: SitingDeps, principal: AuditPrincipal, planId: string, runId: string): Promise<{ gatewayIds: string[]; gateways: Array<{ id: string; name: string; candidateId: string }> }> {
+export async function applyRun(
+  deps: SitingDeps,
+  principal: AuditPrincipal,
+  planId: string,
+  runId: string,
+): Promise<{ gatewayIds: string[]; gateways: Array<{ id: string; name: string; candidateId: string }>; removedGatewayIds: string[] }> {
   const run = await findRun(deps, planId, runId);
   if (run.status !== 'done') throw new SitingError('conflict', 'not_ready', `the run is ${run.status}; only a finished run can be applied`);
   if (run.appliedAt) throw new SitingError('conflict', 'already_applied', `this run was applied at ${run.appliedAt.toISOString()}`);
@@ -511,11 +565,36 @@ export async function applyRun(deps: SitingDeps, principal: AuditPrincipal, plan
         out.push({ id: row.id, name: row.name, candidateId: c.id });
       }
       if (!(await markSitingApplied(tx, run.id, out.map((g) => g.id)))) throw new SitingError('conflict', 'already_applied', 'this run was applied meanwhile');
-      return out;
+      // keepExistingGateways false: the answer replaces the plan's gateways; the dropped ones are
+      // removed here and remembered on the run (rows and readings) for undo.
+      const removed = await removeGatewaysForSiting(tx, planId, (result.removed ?? []).map((g) => g.gatewayId));
+      if (removed.length > 0) await recordSitingRemoved(tx, run.id, removed);
+      return { out, removedIds: removed.map((r) => r.row.id) };
     },
-    (out) => ({ principal, action: 'apply', entity: 'siting_run', entityId: run.id, detail: { planId, gatewayIds: out.map((g) => g.id) } }),
+    ({ out, removedIds }) => ({ principal, action: 'apply', entity: 'siting_run', entityId: run.id, detail: { planId, gatewayIds: out.map((g) => g.id), removedGatewayIds: removedIds } }),
   );
-  return { gatewayIds: created.map((g) => g.id), gateways: created };
+  return { gatewayIds: created.out.map((g) => g.id), gateways: created.out, removedGatewayIds: created.removedIds };
+}
+
+/**
+ * Undoes an apply, once: deletes the gateways it created and restores the ones it removed (same ids,
+ * fields and field readings), audited. 409 when the run was not applied or is undone already.
+ */
+export async function undoRun(deps: SitingDeps, principal: AuditPrincipal, planId: string, runId: string): Promise<{ deletedGatewayIds: string[]; restoredGatewayIds: string[] }> {
+  const run = await findRun(deps, planId, runId);
+  if (!run.appliedAt) throw new SitingError('conflict', 'not_applied', 'the run was not applied; there is nothing to undo');
+  if (run.undoneAt) throw new SitingError('conflict', 'already_undone', `this apply was undone at ${run.undoneAt.toISOString()}`);
+  const created = (run.appliedGatewayIds ?? []) as string[];
+  const removed = (run.removedGateways ?? []) as unknown as RemovedGateway[];
+  return writeWithAudit(
+    deps.db,
+    async (tx) => {
+      if (!(await markSitingUndone(tx, run.id))) throw new SitingError('conflict', 'already_undone', 'this apply was undone meanwhile');
+      await restoreGatewaysForSiting(tx, planId, created, removed);
+      return { deletedGatewayIds: created, restoredGatewayIds: removed.map((r) => r.row.id) };
+    },
+    (out) => ({ principal, action: 'undo', entity: 'siting_run', entityId: run.id, detail: { planId, ...out } }),
+  );
 }
 
 /**

@@ -36,8 +36,16 @@ export interface VisitSheet {
   cautions: string[];
   /** Cautions fitted to this node's height and power (a 1 m probe gets no mast-work list). */
   fittedCautions: CautionGroup[];
+  cautionsFooter: string;
   statusText: string;
   warnings: string[];
+}
+
+/** Cautions fitted to a node as it stands: its height, gain, EIRP and legal check, pit or building. */
+export function nodeCautions(outcome: NodeLinksOutcome): CautionGroup[] {
+  const node = outcome.node;
+  const legal = outcome.links.find((l) => l.legal)?.legal ?? null;
+  return fittedCautions({ role: 'node', antennaHeightAglM: node.antennaHeightAglM, peakEirpDbm: legal?.peakEirpDbm ?? null, antennaGainDbi: node.antenna.gainDbi, legal, enclosed: node.row.environment !== 'outdoor' });
 }
 
 export function visitSheet(ctx: PlanContext, outcome: NodeLinksOutcome, recommendation: NodeRecommendation | null, masts: readonly MastOption[] = []): VisitSheet {
@@ -58,7 +66,6 @@ export function visitSheet(ctx: PlanContext, outcome: NodeLinksOutcome, recommen
   const meets = outcome.status === 'served';
   const first = recommendation?.options[0] ?? null;
   const price = nodeKitPrice({ antenna: node.antenna, feedline: node.feedline, feedlineLengthM: node.kit.feedlineLengthM, antennaHeightAglM: node.antennaHeightAglM, mastOptionId: row.mastOptionId }, masts);
-  const bestLegal = outcome.links.find((l) => l.legal)?.legal ?? null;
   return {
     title: `Visit sheet: ${row.name}`,
     generatedAt: new Date().toISOString(),
@@ -91,7 +98,8 @@ export function visitSheet(ctx: PlanContext, outcome: NodeLinksOutcome, recommen
     })),
     measurements: outcome.links.map((link) => ({ gatewayId: link.gatewayId, gatewayName: gatewayName.get(link.gatewayId) ?? link.gatewayId, sf: link.usedSf, measuredRssiDbm: null, measuredSnrDb: null, time: null })),
     cautions: installCautions(ctx.settings.bandPlan.cautions),
-    fittedCautions: fittedCautions({ role: 'node', antennaHeightAglM: node.antennaHeightAglM, peakEirpDbm: bestLegal?.peakEirpDbm ?? null, antennaGainDbi: node.antenna.gainDbi, legal: bestLegal, enclosed: row.environment !== 'outdoor' }),
+    fittedCautions: nodeCautions(outcome),
+    cautionsFooter: CAUTIONS_FOOTER,
     statusText: statusPhrase(outcome.status as LinkStatus, outcome.combinedDeliveryProbability),
     warnings,
   };

@@ -68,6 +68,10 @@ export const helpTexts: Record<string, HelpText> = {
     },
     examples: ['earshot battery --capacity-mah 2600 --messages-per-day 96 --sf 10 --bw-khz 125 --payload-bytes 20'],
   },
+  'terrain upload': {
+    options: { plan: 'plan id (earshot plans)', file: 'GeoTIFF file (DEM in metres, or clutter classes)', kind: 'layer kind (default elevation)', name: 'layer name shown in the app' },
+    examples: ['earshot terrain upload --plan <plan id> --file terrain-samples/elev.tif --name "Valley DEM" --json'],
+  },
   profile: {
     options: { terrain: 'DEM GeoTIFF path', from: 'start LAT,LON', to: 'end LAT,LON', 'step-m': 'sample spacing, m', interpolation: 'height interpolation', clutter: 'clutter GeoTIFF path' },
     examples: ['earshot profile --terrain terrain-samples/demo-valley.tif --from 41.50,-112.10 --to 41.55,-112.05'],

@@ -12,6 +12,8 @@ import { dataFolderHolder, openDatabase } from '../db/client.ts';
 import { LinkEngine } from '../jobs/link-engine.ts';
 import { AppError } from '../app/errors.ts';
 import { linkReport, recommendReport, type NodeLinksView } from '../app/links.ts';
+import type { NodeRecommendation } from '../app/recommend.ts';
+import { cautionLines } from '../planning/cautions.ts';
 import { PlanSettingsError } from '../planning/settings.ts';
 import { CliUsageError, defineCommand, numberOption, stringOption, type CliCommand } from './framework.ts';
 import { callRunningServer, readRunningServer } from './running-server.ts';
@@ -80,5 +82,22 @@ export const linkCommands: CliCommand[] = [
       if (options['max-cost'] !== undefined) body.maxCost = options['max-cost'];
       return runLinkOperation('recommend', body);
     },
+    formatText: (result) => formatRecommendation(result as NodeRecommendation),
   }),
 ];
+
+/** The recommendation as text: ranked options with the one kit price, advice, fitted cautions. */
+export function formatRecommendation(rec: NodeRecommendation): string {
+  const lines = [`Kit options for node ${rec.nodeId} (target margin ${rec.target.targetMarginDb.toFixed(1)} dB, delivery ${(rec.target.targetDelivery * 100).toFixed(0)} %), cheapest meeting the target first:`];
+  rec.options.slice(0, 5).forEach((o, i) => {
+    const parts = [o.antennaName, `at ${o.mastHeightM.toFixed(1)} m${o.mastName ? ` (${o.mastName})` : ''}`, o.feedlineName ? `${o.feedlineName}, ${o.feedlineLengthM.toFixed(1)} m` : 'no feedline'];
+    const margin = o.marginDb === null ? 'no gateway in range' : `margin ${o.marginDb.toFixed(1)} dB`;
+    lines.push(`${i + 1}. ${parts.join(' · ')}`, `   ${margin} · delivery ${(o.deliveryProbability * 100).toFixed(1)} % · ${o.price.totalUsd.toFixed(2)} USD · ${o.meetsTarget ? 'meets the target' : 'below the target'}`);
+  });
+  if (rec.options.length === 0) lines.push('(the catalog has no option for this node)');
+  const notes = [...rec.advice, ...rec.warnings];
+  if (notes.length > 0) lines.push('', ...notes.map((n) => `- ${n}`));
+  if (rec.fittedCautions.length > 0) lines.push('', 'Cautions for the first option:', ...cautionLines(rec.fittedCautions).map((c) => `! ${c}`));
+  lines.push('', rec.cautionsFooter);
+  return lines.join('\n');
+}

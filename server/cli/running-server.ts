@@ -48,3 +48,30 @@ export async function callRunningServer(server: RunningServer, operation: string
   if (!response.ok) throw new CliUsageError(payload.error?.message ?? `the running server answered ${response.status}`);
   return payload;
 }
+
+/**
+ * Streams a file to the running server's /_admin/<operation>?<query> route as the raw body
+ * (never read whole into memory). Returns the JSON answer; null when nothing answers.
+ */
+export async function sendFileToRunningServer(server: RunningServer, operation: string, query: Record<string, string>, filePath: string, contentType: string, timeoutMs: number): Promise<unknown | null> {
+  const { createReadStream, statSync } = await import('node:fs');
+  const { Readable } = await import('node:stream');
+  const search = new URLSearchParams(query).toString();
+  let response: Response;
+  try {
+    response = await fetch(`http://127.0.0.1:${server.port}/_admin/${operation}?${search}`, {
+      method: 'POST',
+      headers: { 'content-type': contentType, 'content-length': String(statSync(filePath).size), 'x-earshot-admin': server.secret },
+      body: Readable.toWeb(createReadStream(filePath)) as ReadableStream<Uint8Array>,
+      duplex: 'half',
+      signal: AbortSignal.timeout(timeoutMs),
+    } as RequestInit & { duplex: 'half' });
+  } catch (error) {
+    // Refused connection: no server. An answer cut short (e.g. a refused oversize upload) is the server's.
+    if ((error as { cause?: { code?: string } }).cause?.code === 'ECONNREFUSED') return null;
+    throw new CliUsageError(`the running server did not finish the upload: ${error instanceof Error ? error.message : String(error)}`);
+  }
+  const payload = (await response.json().catch(() => ({}))) as { error?: { message?: string } };
+  if (!response.ok) throw new CliUsageError(payload.error?.message ?? `the running server answered ${response.status}`);
+  return payload;
+}

@@ -1,10 +1,12 @@
-// Commands of the terrain room: `earshot profile`.
+// Commands of the terrain room: `earshot profile`, and `earshot terrain upload` (through the running server).
 import { existsSync } from 'node:fs';
 import { z } from 'zod';
 import { CliUsageError, defineCommand, latLonOption, numberOption, stringOption, type CliCommand } from './framework.ts';
 import { clutterClassName, extractProfile } from '../terrain/profile.ts';
 import { RasterError } from '../terrain/raster.ts';
 import { openTerrainStore, type TerrainFile } from '../terrain/store.ts';
+import { loadConfig } from '../config.ts';
+import { readRunningServer, sendFileToRunningServer } from './running-server.ts';
 
 interface ProfilePoint {
   distanceM: number;
@@ -90,4 +92,46 @@ const profileCommand = defineCommand({
   },
 });
 
-export const terrainCommands: CliCommand[] = [profileCommand];
+interface UploadedLayer {
+  id: string;
+  name: string;
+  kind: string;
+  widthPx: number;
+  heightPx: number;
+  resolutionM: number;
+  extent: { west: number; south: number; east: number; north: number };
+}
+
+/**
+ * `earshot terrain upload --plan ID --file F.tif`: the GeoTIFF goes to the running server
+ * (POST /_admin/terrain-upload, the same checks and storage as the API's upload), like `link`.
+ * The checks and storage live with the API route, so without a running server it says so.
+ */
+const uploadCommand = defineCommand({
+  words: 'terrain upload',
+  summary: 'Upload a GeoTIFF terrain layer to a plan through the running server (--plan ID --file F.tif [--kind elevation|clutter] [--name TEXT])',
+  options: z.strictObject({
+    plan: stringOption(),
+    file: stringOption(),
+    kind: z.enum(['elevation', 'clutter'], { error: 'must be elevation or clutter' }).optional(),
+    name: stringOption().optional(),
+  }),
+  run: async (options): Promise<UploadedLayer> => {
+    if (!existsSync(options.file)) throw new CliUsageError(`--file: file not found: ${options.file}`);
+    const config = loadConfig(process.env);
+    const server = readRunningServer(config);
+    const query: Record<string, string> = { plan: options.plan };
+    if (options.kind) query.kind = options.kind;
+    if (options.name) query.name = options.name;
+    const answer = server ? await sendFileToRunningServer(server, 'terrain-upload', query, options.file, 'image/tiff', 600_000) : null;
+    if (answer === null) throw new CliUsageError(`no earshot server answers for the data folder ${config.dataDir}: start it (npm start), then run the upload again`);
+    return answer as UploadedLayer;
+  },
+  formatText: (result) => {
+    const l = result as UploadedLayer;
+    const e = l.extent;
+    return `uploaded ${l.kind} layer “${l.name}” (${l.id}): ${l.widthPx} × ${l.heightPx} px, ${l.resolutionM.toFixed(1)} m per pixel, ${e.south.toFixed(4)}…${e.north.toFixed(4)}° N, ${e.west.toFixed(4)}…${e.east.toFixed(4)}° E`;
+  },
+});
+
+export const terrainCommands: CliCommand[] = [profileCommand, uploadCommand];

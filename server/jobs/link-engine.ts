@@ -16,7 +16,7 @@ import type { GatewayRow } from '../db/repositories/gateways.ts';
 import { findNode, type NodeRow } from '../db/repositories/nodes.ts';
 import type { PlanRow } from '../db/repositories/plans.ts';
 import { findAntennaDesignForTeam, findFeedlineForTeam } from '../db/repositories/kit.ts';
-import { nodeLinkFingerprint, listGatewaysForLinks, listNodeLinkRows, listNodesForLinks, listPlanLinkRows, listTerrainForLinks, saveLinkRows, type LinkRow } from '../db/repositories/links.ts';
+import { nodeLinkFingerprint, listGatewaysForLinks, listNodeLinkRows, listLinkRowsForNodes, listNodesForLinks, listPlanLinkPathHashes, listTerrainForLinks, saveLinkRows, type LinkRow } from '../db/repositories/links.ts';
 import type { AntennaDesign } from '../radio/antennas.ts';
 import { connectorLossDb, findConnector, type ConnectorUse, type FeedlineType } from '../radio/feedlines.ts';
 import type { BuildingType } from '../radio/building-entry-loss.ts';
@@ -25,7 +25,7 @@ import { computeLinkPath, linkProfile, type LinkProfile } from '../planning/link
 import { LinkPathPool, type LinkPathPair, type LinkTerrainSpec } from './link-pool.ts';
 import type { EndKit, GatewayRadio, LinkRadioSettings, LinkResult, NodeRadio } from '../planning/link.ts';
 import { hashOf, hashOfShared, LINK_ENGINE_VERSION, nodeAimAzimuthDeg, nodeLinkResults, summariseNodeLinks, type NodeLinkSummary } from '../planning/node-links.ts';
-import type { PathPrediction } from '../planning/path.ts';
+import { newPathScratch, type PathPrediction } from '../planning/path.ts';
 import { resolveLinkSettings, type ResolvedLinkSettings } from '../planning/settings.ts';
 import type { AppliedCalibration } from '../planning/spread.ts';
 import { findAppliedCalibration } from '../db/repositories/calibrations.ts';
@@ -152,6 +152,8 @@ function cachedLookup<T>(cache: Map<string, Promise<T>>, id: string, load: () =>
 export class LinkEngine {
   private readonly stores = new Map<string, { signature: string; spec: LinkTerrainSpec; store: Promise<TerrainStore> }>();
   private readonly pool: LinkPathPool | null;
+  /** P.1812 scratch for paths predicted in this thread (see PathScratch). */
+  private readonly scratch = newPathScratch();
   /** Answers of recent node-links requests by plan:node, with the inputs' fingerprint (see frontKey). */
   private readonly front = new Map<string, { key: string; value: unknown }>();
   /** Fingerprints of frontKey, valid for one generation of the database's change feed. */
@@ -417,7 +419,7 @@ export class LinkEngine {
   }
 
   private computePath(ctx: PlanContext, node: ResolvedNode, gateway: GatewayContext): Promise<PathPrediction> {
-    return computeLinkPath(ctx.terrain, ctx.settings, pathEnd(node.row, node.antennaHeightAglM), pathEnd(gateway.row, gateway.row.antennaHeightAglM));
+    return computeLinkPath(ctx.terrain, ctx.settings, pathEnd(node.row, node.antennaHeightAglM), pathEnd(gateway.row, gateway.row.antennaHeightAglM), this.scratch);
   }
 
   /**
@@ -427,7 +429,7 @@ export class LinkEngine {
   async computePaths(ctx: PlanContext, pairs: readonly LinkPathPair[]): Promise<PathPrediction[]> {
     if (this.pool && pairs.length >= MIN_POOL_PAIRS) return this.pool.computePaths(ctx.terrainSpec, ctx.settings, pairs);
     const paths: PathPrediction[] = [];
-    for (const pair of pairs) paths.push(await computeLinkPath(ctx.terrain, ctx.settings, pair.node, pair.gateway));
+    for (const pair of pairs) paths.push(await computeLinkPath(ctx.terrain, ctx.settings, pair.node, pair.gateway, this.scratch));
     return paths;
   }
 
@@ -454,26 +456,52 @@ export class LinkEngine {
       const path = stored && stored.pathHash === pathHash ? stored.path : (precomputed?.get(pathHash) ?? (await this.computePath(ctx, node, gateway)));
       inRange.push({ gateway, path, pathHash, row });
     }
-    const aim = nodeAimAzimuthDeg(node.kit, inRange);
-    const kit = aim === null ? node.kit : { ...node.kit, boresightAzimuthDeg: aim };
+    const { aim, links } = this.budgets(node, inRange);
     const toSave: LinkRow[] = [];
-    const links: LinkResult[] = [];
-    for (const entry of inRange) {
+    for (let e = 0; e < inRange.length; e++) {
+      const entry = inRange[e];
+      // The input hash only matters for the cache: skipped for previews with no row to compare.
+      if (!save && !entry.row) {
+        computed++;
+        continue;
+      }
       const inputHash = hashOf({ p: entry.pathHash, n: node.kitHash, g: entry.gateway.kitHash, r: ctx.radioSettingsHash, aim });
-      // The budget over a known path costs microseconds, so the row keeps the path (the
-      // expensive part) and a summary; the full result is rebuilt from them, identically.
-      const [link] = nodeLinkResults(kit, node.radio, [{ gatewayId: entry.gateway.row.id, path: entry.path, kit: entry.gateway.kit, radio: entry.gateway.radio }], node.radioSettings);
-      links.push(link);
       if (entry.row && entry.row.inputHash === inputHash && isStoredLink(entry.row.result)) {
         cached++;
         continue;
       }
       computed++;
-      if (save) toSave.push({ nodeId: node.row.id, gatewayId: entry.gateway.row.id, inputHash, result: { pathHash: entry.pathHash, path: entry.path, summary: linkSummary(link) } satisfies StoredLink });
+      if (save) toSave.push({ nodeId: node.row.id, gatewayId: entry.gateway.row.id, inputHash, result: { pathHash: entry.pathHash, path: entry.path, summary: linkSummary(links[e]) } satisfies StoredLink });
     }
     const summary = summariseNodeLinks(links, { targetMarginDb: ctx.settings.targetMarginDb, targetDelivery: ctx.settings.targetDelivery }, ctx.settings.gatewayCorrelation);
     const paths = new Map(inRange.map((entry) => [entry.gateway.row.id, entry.path]));
     return { outcome: { ...summary, node, paths, computed, cached, outOfRange }, toSave };
+  }
+
+  /**
+   * The budgets of one node over its paths, the aim of a directional node antenna fixed once at
+   * its best path (the link table's rule): the one place nodeLinks and linksOverPaths share.
+   */
+  private budgets(node: ResolvedNode, inRange: ReadonlyArray<{ gateway: GatewayContext; path: PathPrediction }>): { aim: number | null; links: LinkResult[] } {
+    const aim = nodeAimAzimuthDeg(node.kit, inRange);
+    const kit = aim === null ? node.kit : { ...node.kit, boresightAzimuthDeg: aim };
+    const links: LinkResult[] = [];
+    for (const entry of inRange) {
+      // The budget over a known path costs microseconds, so a Link row keeps the path (the
+      // expensive part) and a summary; the full result is rebuilt from them, identically.
+      const [link] = nodeLinkResults(kit, node.radio, [{ gatewayId: entry.gateway.row.id, path: entry.path, kit: entry.gateway.kit, radio: entry.gateway.radio }], node.radioSettings);
+      links.push(link);
+    }
+    return { aim, links };
+  }
+
+  /**
+   * A node's links over paths the caller already has (one per gateway, in range by the caller's
+   * rule): the same budgets as nodeLinks, with no cache, no hashing and no range check. The
+   * siting matrix calls it per node over its in-range candidates.
+   */
+  linksOverPaths(node: ResolvedNode, entries: ReadonlyArray<{ gateway: GatewayContext; path: PathPrediction }>): LinkResult[] {
+    return this.budgets(node, entries).links;
   }
 
   /** One node's links (saved to the cache unless it is a preview with overrides). */
@@ -489,18 +517,30 @@ export class LinkEngine {
 
   /** Every node of the plan (the fleet table), computing what the cache lacks. */
   async fleet(ctx: PlanContext, onProgress?: (done: number, total: number) => void): Promise<NodeLinksOutcome[]> {
+    const outcomes: NodeLinksOutcome[] = [];
+    await this.fleetEach(ctx, (outcome) => void outcomes.push(outcome), onProgress);
+    return outcomes;
+  }
+
+  /**
+   * The fleet one node at a time, in the fleet table's order: `visit` sees each node's
+   * outcome and the engine keeps none of them, so a caller that only needs figures
+   * (the report, the exports) never holds 5,000 outcomes with their paths at once.
+   * The cached rows are read a page of nodes at a time (only their path hashes up front);
+   * the same results and cache writes as fleet(). Returns the number of nodes.
+   */
+  async fleetEach(ctx: PlanContext, visit: (outcome: NodeLinksOutcome) => void | Promise<void>, onProgress?: (done: number, total: number) => void): Promise<number> {
     const nodes = await listNodesForLinks(this.db, ctx.plan.id);
-    const rows = await listPlanLinkRows(this.db, ctx.plan.id);
-    const byNode = new Map<string, LinkRow[]>();
-    for (const row of rows) {
-      const list = byNode.get(row.nodeId);
-      if (list) list.push(row);
-      else byNode.set(row.nodeId, [row]);
+    const storedHashes = new Map<string, Map<string, string | null>>();
+    for (const row of await listPlanLinkPathHashes(this.db, ctx.plan.id)) {
+      const byGateway = storedHashes.get(row.nodeId);
+      if (byGateway) byGateway.set(row.gatewayId, row.pathHash);
+      else storedHashes.set(row.nodeId, new Map([[row.gatewayId, row.pathHash]]));
     }
     // 1. Resolve every node and collect the paths the cache lacks (one per path hash),
     //    in groups of nodes so budgets and cache writes of one group overlap the
     //    workers' paths of the next.
-    const resolved: Array<{ node: ResolvedNode } | { broken: NodeRow; message: string }> = [];
+    const resolved: Array<{ node: ResolvedNode } | { broken: NodeRow; message: string } | null> = [];
     const groups: Array<Map<string, LinkPathPair>> = [];
     const seen = new Set<string>();
     for (const row of nodes) {
@@ -514,15 +554,16 @@ export class LinkEngine {
       }
       const group = Math.floor(resolved.length / FLEET_GROUP_NODES);
       resolved.push({ node });
-      const stored = new Map((byNode.get(row.id) ?? []).map((link) => [link.gatewayId, isStoredLink(link.result) ? link.result.pathHash : null]));
+      const stored = storedHashes.get(row.id);
       for (const gateway of ctx.gateways) {
         if (bearingsBetween(row.lat, row.lon, gateway.row.lat, gateway.row.lon).distanceM > ctx.settings.maxLinkRangeM) continue;
         const pathHash = this.pathHash(ctx, node, gateway);
-        if (stored.get(gateway.row.id) === pathHash || seen.has(pathHash)) continue;
+        if (stored?.get(gateway.row.id) === pathHash || seen.has(pathHash)) continue;
         seen.add(pathHash);
         (groups[group] ??= new Map()).set(pathHash, { node: pathEnd(row, node.antennaHeightAglM), gateway: pathEnd(gateway.row, gateway.row.antennaHeightAglM) });
       }
     }
+    storedHashes.clear();
     // 2. The cold paths: every group queued on the worker threads at once (in-thread: one group at a time).
     const precomputed = new Map<string, PathPrediction>();
     const runGroup = async (g: number): Promise<void> => {
@@ -541,30 +582,44 @@ export class LinkEngine {
         queued.push(work);
       }
     }
-    // 3. Budgets in-thread; cache rows written in batches.
-    const outcomes: NodeLinksOutcome[] = [];
+    // 3. Budgets in-thread, a group at a time with that group's cached rows; cache rows written in batches.
     let pending: LinkRow[] = [];
-    for (let i = 0; i < resolved.length; i++) {
+    let byNode = new Map<string, LinkRow[]>();
+    const total = resolved.length;
+    for (let i = 0; i < total; i++) {
       if (i % FLEET_GROUP_NODES === 0) {
         const g = i / FLEET_GROUP_NODES;
         await (queued[g] ?? runGroup(g));
+        const ids: string[] = [];
+        for (let k = i; k < Math.min(total, i + FLEET_GROUP_NODES); k++) {
+          const entry = resolved[k];
+          if (entry && 'node' in entry) ids.push(entry.node.row.id);
+        }
+        byNode = new Map();
+        for (const row of await listLinkRowsForNodes(this.db, ctx.plan.id, ids)) {
+          const list = byNode.get(row.nodeId);
+          if (list) list.push(row);
+          else byNode.set(row.nodeId, [row]);
+        }
       }
-      const entry = resolved[i];
+      const entry = resolved[i] as { node: ResolvedNode } | { broken: NodeRow; message: string };
+      resolved[i] = null; // visited nodes are the caller's to keep or drop
       if ('broken' in entry) {
-        outcomes.push(brokenNodeOutcome(entry.broken, entry.message));
+        await visit(brokenNodeOutcome(entry.broken, entry.message));
+        onProgress?.(i + 1, total);
         continue;
       }
       const { outcome, toSave } = await this.nodeLinks(ctx, entry.node, byNode.get(entry.node.row.id) ?? [], true, precomputed);
-      outcomes.push(outcome);
+      await visit(outcome);
       pending.push(...toSave);
       if (pending.length >= 500) {
         await saveLinkRows(this.db, ctx.plan.id, pending);
         pending = [];
       }
-      onProgress?.(i + 1, resolved.length);
+      onProgress?.(i + 1, total);
     }
     await saveLinkRows(this.db, ctx.plan.id, pending);
-    return outcomes;
+    return total;
   }
 
   /** Finds a node row of the plan or throws a 404 input error. */

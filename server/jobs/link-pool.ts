@@ -9,7 +9,7 @@
 // started by the pool as a worker entry it answers tasks.
 import { parentPort, threadId, workerData } from 'node:worker_threads';
 import { computeLinkPath, type LinkPathSettings } from '../planning/link-path.ts';
-import type { PathEnd, PathPrediction } from '../planning/path.ts';
+import { newPathScratch, type PathEnd, type PathPrediction } from '../planning/path.ts';
 import { openTerrainStore, type TerrainFile, type TerrainStore, type TerrainStoreOptions } from '../terrain/store.ts';
 import { defaultWorkerCount, WorkerPool } from './pool.ts';
 
@@ -40,8 +40,14 @@ interface LinkPathTaskResult {
   error?: string;
 }
 
-/** Pairs per task: small enough to balance two to many cores, large enough that messages cost little. */
-const PAIRS_PER_TASK = 12;
+/**
+ * Pairs per task: at least 12 (small enough to balance two to many cores, large enough that
+ * messages cost little); a big call (the siting matrix's groups) gets tasks of up to 96, about
+ * 4 per worker, so each holds a worker for ~10 ms and the worker rarely waits for the calling
+ * thread (busy with budgets) to hand it the next task.
+ */
+const MIN_PAIRS_PER_TASK = 12;
+const MAX_PAIRS_PER_TASK = 96;
 
 export class LinkPathPool {
   private pool: WorkerPool<LinkPathTask, LinkPathTaskResult> | null = null;
@@ -79,8 +85,9 @@ export class LinkPathPool {
     const pool = this.pool!;
     const plain: LinkPathSettings = { path: settings.path, profileStepM: settings.profileStepM, profileInterpolation: settings.profileInterpolation };
     const chunks: Promise<LinkPathTaskResult>[] = [];
-    for (let start = 0; start < pairs.length; start += PAIRS_PER_TASK) {
-      chunks.push(pool.exec({ id: this.nextId++, terrain, settings: plain, pairs: pairs.slice(start, start + PAIRS_PER_TASK) }));
+    const perTask = Math.max(MIN_PAIRS_PER_TASK, Math.min(MAX_PAIRS_PER_TASK, Math.ceil(pairs.length / (4 * this.size))));
+    for (let start = 0; start < pairs.length; start += perTask) {
+      chunks.push(pool.exec({ id: this.nextId++, terrain, settings: plain, pairs: pairs.slice(start, start + perTask) }));
     }
     const results = await Promise.all(chunks);
     this.lastThreads = new Set(results.map((r) => r.threadId ?? -1));
@@ -97,6 +104,8 @@ export class LinkPathPool {
 // ---- worker side ----
 
 const stores = new Map<string, Promise<TerrainStore>>();
+/** This worker's P.1812 scratch, reused by every path it predicts. */
+const scratch = newPathScratch();
 
 function storeFor(spec: LinkTerrainSpec): Promise<TerrainStore> {
   let store = stores.get(spec.signature);
@@ -118,7 +127,7 @@ async function runTask(task: LinkPathTask): Promise<LinkPathTaskResult> {
   const terrain = task.terrain ? await storeFor(task.terrain) : null;
   const paths: PathPrediction[] = [];
   if (task.pairs.length > 0 && !task.settings) throw new Error('link path task without settings');
-  for (const pair of task.pairs) paths.push(await computeLinkPath(terrain, task.settings!, pair.node, pair.gateway));
+  for (const pair of task.pairs) paths.push(await computeLinkPath(terrain, task.settings!, pair.node, pair.gateway, scratch));
   return { id: task.id, paths };
 }
 

@@ -65,10 +65,15 @@ export class SitingCancelled extends Error {
   }
 }
 
-/** Path pairs per progress step (the pool works through each batch in parallel). */
-const BATCH_PAIRS = 400;
+/** Path pairs per group of nodes (a progress step; the pool works through each group in parallel). */
+const GROUP_PAIRS = 2000;
+/** Groups queued on the pool beyond the one being budgeted. */
+const GROUPS_AHEAD = 2;
+/** Longest stretch of budgets between two turns of the event loop, ms. */
+const YIELD_EVERY_MS = 3;
 
-function candidateRow(ctx: PlanContext, candidate: SitingCandidate): GatewayRow {
+/** A candidate as a gateway row (it exists only in the run), so the link engine can resolve its kit. */
+export function candidateRow(ctx: PlanContext, candidate: SitingCandidate): GatewayRow {
   const epoch = new Date(0);
   return {
     id: candidate.id,
@@ -141,29 +146,38 @@ export async function matrixInputs(engine: LinkEngine, ctx: PlanContext, candida
   return { nodes, broken, gateways, hash };
 }
 
+/** One block of the matrix: rows = the nodes given, columns = the gateways given (margins and the served rule per pair). */
+export interface SitingMatrixBlock {
+  meets: boolean[][];
+  marginDb: Array<Array<number | null>>;
+  pairsPredicted: number;
+  pairsSkipped: number;
+}
+
 /**
- * Predicts the matrix. `onProgress(fraction)` is awaited after each batch; it
- * may throw SitingCancelled (or return false) to stop.
+ * Predicts a block of the matrix (rows `nodes`, columns `gateways`).
+ * `onBatch(pairsDone, pairsTotal)` is awaited after each group of paths; false
+ * (or SitingCancelled thrown) stops. A pair's numbers depend on that pair alone
+ * (and, for a directional node aimed at its best-heard candidate, on the node's
+ * other columns: such nodes need every column in one block), so the blocks of a
+ * split matrix (server/jobs/siting-matrix-split.ts) put together equal the
+ * matrix predicted whole.
  */
-export async function computeSitingMatrix(
+export async function predictSitingBlock(
   engine: LinkEngine,
   ctx: PlanContext,
-  candidates: readonly SitingCandidate[],
-  inputs: MatrixInputs,
-  options: { areaMinElevationM: number | null; onProgress?: (fraction: number) => Promise<boolean | void> | boolean | void },
-): Promise<SitingMatrix> {
-  const { nodes, broken, gateways } = inputs;
-  const warnings: string[] = [...ctx.warnings];
-  for (const b of broken) warnings.push(`node ${b.name}: ${b.message}; left out of the matrix`);
+  nodes: readonly ResolvedNode[],
+  gateways: readonly GatewayContext[],
+  options: { areaMinElevationM: number | null; onBatch?: (pairsDone: number, pairsTotal: number) => Promise<boolean | void> | boolean | void },
+): Promise<SitingMatrixBlock> {
   const kFactor = medianEarthFactor();
   const reference = options.areaMinElevationM ?? 0;
   const ground = async (lat: number, lon: number) => (ctx.terrain ? ((await ctx.terrain.sampleElevation(lat, lon)) ?? reference) : 0);
   const candidateGround = await Promise.all(gateways.map((g) => ground(g.row.lat, g.row.lon)));
-  // 1. The pairs within range and within the horizon allowance.
+  // 1. The pairs within range and within the horizon allowance (no profile work for the others).
   const inRange: number[][] = [];
-  const pairs: LinkPathPair[] = [];
-  const pairKeys: string[] = [];
   let skipped = 0;
+  let predicted = 0;
   for (const node of nodes) {
     const nodeGround = await ground(node.row.lat, node.row.lon);
     const list: number[] = [];
@@ -176,52 +190,107 @@ export async function computeSitingMatrix(
         continue;
       }
       list.push(j);
-      pairs.push({ node: pathEnd(node.row, node.antennaHeightAglM), gateway: pathEnd(g.row, g.row.antennaHeightAglM) });
-      pairKeys.push(engine.pathHash(ctx, node, g));
     }
+    predicted += list.length;
     inRange.push(list);
   }
-  // 2. Paths on the worker pool, batch by batch, with progress (paths are ~all of the time).
-  const precomputed = new Map<string, PathPrediction>();
-  for (let start = 0; start < pairs.length; start += BATCH_PAIRS) {
-    const batch = pairs.slice(start, start + BATCH_PAIRS);
-    const paths = await engine.computePaths(ctx, batch);
-    for (let b = 0; b < paths.length; b++) precomputed.set(pairKeys[start + b], paths[b]);
-    const go = await options.onProgress?.((0.95 * (start + batch.length)) / Math.max(1, pairs.length));
-    if (go === false) throw new SitingCancelled();
-  }
-  // 3. Budgets through the link table's own nodeLinks, one node over its in-range candidates.
+  // 2. Paths on the worker pool in groups of nodes, a few groups queued ahead so the workers never
+  //    wait for this thread; each group's budgets are worked out as soon as its paths are back and
+  //    the paths are dropped (the matrix keeps two figures per pair, not the paths).
   const target = { targetMarginDb: ctx.settings.targetMarginDb, targetDelivery: ctx.settings.targetDelivery };
-  const columnOf = new Map(gateways.map((g, j) => [g.row.id, j]));
   const meets: boolean[][] = [];
   const marginDb: Array<Array<number | null>> = [];
-  const nodeIds: string[] = [];
-  const nodeNames: string[] = [];
-  for (let n = 0; n < nodes.length; n++) {
-    const node = nodes[n];
-    const meetRow = new Array<boolean>(gateways.length).fill(false);
-    const marginRow = new Array<number | null>(gateways.length).fill(null);
-    if (inRange[n].length > 0) {
-      const nodeCtx: PlanContext = { ...ctx, gateways: inRange[n].map((j) => gateways[j]) };
-      const { outcome } = await engine.nodeLinks(nodeCtx, node, [], false, precomputed);
-      for (const link of outcome.links) {
-        const j = columnOf.get(link.gatewayId) as number;
-        marginRow[j] = Math.round(link.marginDb * 100) / 100;
-        // The link table's served rule, applied to this one link.
-        meetRow[j] = linkStatus(link.marginDb, link.deliveryProbability, target) === 'served';
-      }
+  const groups: Array<{ start: number; end: number }> = [];
+  for (let start = 0, pairsInGroup = 0, n = 0; n < nodes.length; n++) {
+    pairsInGroup += inRange[n].length;
+    if (pairsInGroup >= GROUP_PAIRS || n === nodes.length - 1) {
+      groups.push({ start, end: n + 1 });
+      start = n + 1;
+      pairsInGroup = 0;
     }
-    nodeIds.push(node.row.id);
-    nodeNames.push(node.row.name);
-    meets.push(meetRow);
-    marginDb.push(marginRow);
   }
-  for (const b of broken) {
-    nodeIds.push(b.id);
-    nodeNames.push(b.name);
-    meets.push(new Array<boolean>(gateways.length).fill(false));
-    marginDb.push(new Array<number | null>(gateways.length).fill(null));
+  const launch = (g: number): Promise<PathPrediction[]> => {
+    const pairs: LinkPathPair[] = [];
+    for (let n = groups[g].start; n < groups[g].end; n++) {
+      const node = nodes[n];
+      for (const j of inRange[n]) pairs.push({ node: pathEnd(node.row, node.antennaHeightAglM), gateway: pathEnd(gateways[j].row, gateways[j].row.antennaHeightAglM) });
+    }
+    const work = engine.computePaths(ctx, pairs);
+    work.catch(() => undefined); // awaited in order below; this only keeps a later group's failure from being reported as unhandled first
+    return work;
+  };
+  const queued: Array<Promise<PathPrediction[]>> = [];
+  let done = 0;
+  try {
+    for (let g = 0; g < groups.length; g++) {
+      for (let ahead = queued.length; ahead < Math.min(groups.length, g + 1 + GROUPS_AHEAD); ahead++) queued.push(launch(ahead));
+      const paths = await queued[g];
+      queued[g] = Promise.resolve([]);
+      let offset = 0;
+      let lastYield = performance.now();
+      for (let n = groups[g].start; n < groups[g].end; n++) {
+        // Let the pool's messages in every few ms, so a worker that finished a task gets its next
+        // one now rather than after this group's budgets (the workers, not this loop, are the cost).
+        if (performance.now() - lastYield > YIELD_EVERY_MS) {
+          await new Promise<void>((resolve) => setImmediate(resolve));
+          lastYield = performance.now();
+        }
+        const node = nodes[n];
+        const meetRow = new Array<boolean>(gateways.length).fill(false);
+        const marginRow = new Array<number | null>(gateways.length).fill(null);
+        const list = inRange[n];
+        if (list.length > 0) {
+          // The link table's budgets (server/jobs/link-engine.ts), one node over its in-range candidates.
+          const links = engine.linksOverPaths(node, list.map((j, b) => ({ gateway: gateways[j], path: paths[offset + b] })));
+          for (let b = 0; b < list.length; b++) {
+            const link = links[b];
+            marginRow[list[b]] = Math.round(link.marginDb * 100) / 100;
+            // The link table's served rule, applied to this one link.
+            meetRow[list[b]] = linkStatus(link.marginDb, link.deliveryProbability, target) === 'served';
+          }
+          offset += list.length;
+        }
+        meets.push(meetRow);
+        marginDb.push(marginRow);
+      }
+      done += offset;
+      const go = await options.onBatch?.(done, predicted);
+      if (go === false) throw new SitingCancelled();
+    }
+  } finally {
+    // A stopped run leaves no work behind it unawaited.
+    await Promise.allSettled(queued);
   }
+  return { meets, marginDb, pairsPredicted: predicted, pairsSkipped: skipped };
+}
+
+/** Puts the matrix together from the rows of the usable nodes (a whole block, or assembled blocks) and the unusable nodes. */
+export function assembleSitingMatrix(ctx: PlanContext, candidates: readonly SitingCandidate[], inputs: MatrixInputs, block: SitingMatrixBlock): SitingMatrix {
+  const { nodes, broken, gateways } = inputs;
+  const warnings: string[] = [...ctx.warnings];
+  for (const b of broken) warnings.push(`node ${b.name}: ${b.message}; left out of the matrix`);
+  const nodeIds = [...nodes.map((n) => n.row.id), ...broken.map((b) => b.id)];
+  const nodeNames = [...nodes.map((n) => n.row.name), ...broken.map((b) => b.name)];
+  const meets = [...block.meets, ...broken.map(() => new Array<boolean>(gateways.length).fill(false))];
+  const marginDb = [...block.marginDb, ...broken.map(() => new Array<number | null>(gateways.length).fill(null))];
+  return { nodeIds, nodeNames, candidates: [...candidates], meets, marginDb, pairsPredicted: block.pairsPredicted, pairsSkipped: block.pairsSkipped, warnings };
+}
+
+/**
+ * Predicts the matrix in this process. `onProgress(fraction)` is awaited after each group; it
+ * may throw SitingCancelled (or return false) to stop.
+ */
+export async function computeSitingMatrix(
+  engine: LinkEngine,
+  ctx: PlanContext,
+  candidates: readonly SitingCandidate[],
+  inputs: MatrixInputs,
+  options: { areaMinElevationM: number | null; onProgress?: (fraction: number) => Promise<boolean | void> | boolean | void },
+): Promise<SitingMatrix> {
+  const block = await predictSitingBlock(engine, ctx, inputs.nodes, inputs.gateways, {
+    areaMinElevationM: options.areaMinElevationM,
+    onBatch: (done, total) => options.onProgress?.((0.95 * done) / Math.max(1, total)),
+  });
   await options.onProgress?.(0.97);
-  return { nodeIds, nodeNames, candidates: [...candidates], meets, marginDb, pairsPredicted: pairs.length, pairsSkipped: skipped, warnings };
+  return assembleSitingMatrix(ctx, candidates, inputs, block);
 }

@@ -1,5 +1,6 @@
-// `npm run worker`: a queue worker process. Takes coverage jobs from the
-// BullMQ queue on REDIS_URL and runs them on a worker-thread pool, writing
+// `npm run worker`: a queue worker process. Takes coverage jobs and the tiles
+// of fleet link table runs (server/jobs/link-runs.ts) from the BullMQ queues on
+// REDIS_URL and runs them on a worker-thread pool, writing
 // state to the shared PostgreSQL (DATABASE_URL) and results to the shared
 // files folder (EARSHOT_DATA_DIR). Run as many as you like, on any machine
 // that sees the same Redis, database and files folder.
@@ -10,6 +11,9 @@ import { openDatabase } from '../db/client.ts';
 import { executeCoverageRun } from './coverage-job.ts';
 import { WorkerPool } from './pool.ts';
 import { COVERAGE_QUEUE, queuePrefix, redisConnection } from './runner.ts';
+import { LinkEngine } from './link-engine.ts';
+import { LINK_TILE_QUEUE, LinkTileExecutor, TILE_ATTEMPTS } from './link-runs.ts';
+import { failLinkTile, findLinkTile } from '../db/repositories/link-runs.ts';
 
 async function main(): Promise<void> {
   const config = loadConfig();
@@ -36,10 +40,43 @@ async function main(): Promise<void> {
     },
   );
   worker.on('error', (error) => console.error(`worker: ${error.message}`));
-  await worker.waitUntilReady();
-  console.log(`earshot worker ${workerId} ready (queue ${queuePrefix()}:${COVERAGE_QUEUE}, ${pool?.size ?? 1} thread(s))`);
+  // Tiles of fleet link table runs: the link engine of this process (its paths on
+  // EARSHOT_WORKERS threads), one tile at a time; a tile is idempotent and written in one transaction.
+  const engine = new LinkEngine(db, config);
+  const executor = new LinkTileExecutor(engine);
+  const tiles = new Worker(
+    LINK_TILE_QUEUE,
+    async (job) => {
+      const { runId, index } = job.data as { runId: string; index: number };
+      const final = job.attemptsMade + 1 >= (job.opts.attempts ?? TILE_ATTEMPTS);
+      const outcome = await executor.execute(String(runId), Number(index), { workerId, final });
+      // A retry is the queue's: another worker (on another machine, maybe) takes the tile.
+      if (outcome.kind === 'retry') throw new Error(outcome.error);
+      return outcome;
+    },
+    {
+      connection: redisConnection(config.redisUrl),
+      prefix: queuePrefix(),
+      concurrency: 1,
+      lockDuration: Number(process.env.EARSHOT_JOB_LOCK_MS ?? 30_000),
+      stalledInterval: Number(process.env.EARSHOT_JOB_STALLED_MS ?? 30_000),
+      maxStalledCount: 3,
+    },
+  );
+  tiles.on('error', (error) => console.error(`worker (link tiles): ${error.message}`));
+  // A tile the queue gives up on without our processor (stalled too often: its workers keep dying) fails its run, once.
+  tiles.on('failed', (job, error) => {
+    if (!job || !/stalled/i.test(error.message)) return;
+    const { runId, index } = job.data as { runId: string; index: number };
+    void findLinkTile(db, String(runId), Number(index))
+      .then((tile) => tile && failLinkTile(db, { runId: tile.runId, index: tile.index, attempt: tile.attempts, error: `the tile's workers stopped responding ${tile.attempts} times (${error.message})`, final: true }))
+      .catch((failure: unknown) => console.error(`worker: could not record a stalled tile: ${String(failure)}`));
+  });
+  await Promise.all([worker.waitUntilReady(), tiles.waitUntilReady()]);
+  console.log(`earshot worker ${workerId} ready (queues ${queuePrefix()}:${COVERAGE_QUEUE}, ${queuePrefix()}:${LINK_TILE_QUEUE}; ${pool?.size ?? 1} coverage thread(s), ${engine.workerCount || 1} link thread(s))`);
   const stop = async () => {
-    await worker.close();
+    await Promise.all([worker.close(), tiles.close()]);
+    await engine.close();
     await pool?.close();
     await db.close();
     process.exit(0);

@@ -47,7 +47,28 @@ export function fittedCautions(input: CautionInput): CautionGroup[] {
     if (items.length > 0) groups.push({ topic: 'Legal power', items });
   }
   if (input.enclosed) groups.push({ topic: 'On site', items: ['Electrical work in pits, boxes and buildings follows local electrical codes.'] });
-  return groups;
+  return withoutRepeats(groups);
+}
+
+/** Each caution said once: a repeated item (in any group) and an emptied group are dropped. */
+export function withoutRepeats(groups: readonly CautionGroup[]): CautionGroup[] {
+  const seen = new Set<string>();
+  const out: CautionGroup[] = [];
+  for (const group of groups) {
+    const items = group.items.filter((item) => {
+      const key = item.trim().toLowerCase();
+      if (seen.has(key)) return false;
+      seen.add(key);
+      return true;
+    });
+    if (items.length > 0) out.push({ topic: group.topic, items });
+  }
+  return out;
+}
+
+/** The groups as lines ("Work at height: …"), for plain-text output (CLI). */
+export function cautionLines(groups: readonly CautionGroup[]): string[] {
+  return groups.map((g) => `${g.topic}: ${g.items.join(' ')}`);
 }
 
 /** The one closing line under every caution list. */

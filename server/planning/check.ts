@@ -106,14 +106,18 @@ export function linkCheck(
   };
 }
 
-/** Cautions every link check and visit sheet shows (common practice; local codes and licensed practice win). */
+/**
+ * The general caution list (printed reports, the visit sheet's "all cautions"): the work-at-
+ * height list, electrical codes and the band plan's own notes, each said once (the work-at-
+ * height list already has grounding and weather; the band plan has RF exposure). What one
+ * job needs is `fittedCautions` (server/planning/cautions.ts). Common practice; local codes win.
+ */
 export function installCautions(bandCautions: readonly string[]): string[] {
-  return [
+  const lines = [
     ...WORK_AT_HEIGHT_CAUTIONS,
-    'RF exposure: do not stand in front of or touch a transmitting antenna; keep people away from gateway antennas while they transmit, and observe the exposure limits of your country.',
-    'Lightning and grounding: bond masts and coax shields to the site ground with a surge arrestor at the building entry; never work on antennas or masts during a thunderstorm.',
     'Electrical work inside buildings and meter pits follows local electrical codes; use a licensed electrician where the code requires one.',
     ...bandCautions,
     'These are planning figures: local codes, regulators and licensed practice take precedence.',
   ];
+  return [...new Set(lines)];
 }

@@ -19,7 +19,11 @@ export interface Bearings {
 
 /** Geodesic distance and the azimuth at each end (WGS84, through the terrain room's geodesic). */
 export function bearingsBetween(fromLat: number, fromLon: number, toLat: number, toLon: number): Bearings {
-  const r = geodesicInverse({ lat: fromLat, lon: fromLon }, { lat: toLat, lon: toLon });
+  return bearingsOf(geodesicInverse({ lat: fromLat, lon: fromLon }, { lat: toLat, lon: toLon }));
+}
+
+/** Bearings from a geodesic inverse solution already at hand (a terrain profile solves it once). */
+export function bearingsOf(r: { distanceM: number; azimuthFromDeg: number; azimuthToDeg: number }): Bearings {
   // azimuthToDeg is the forward direction at the far point; looking back is the opposite way.
   return { distanceM: r.distanceM, forwardAzimuthDeg: normaliseDeg(r.azimuthFromDeg), backAzimuthDeg: normaliseDeg(r.azimuthToDeg + 180) };
 }

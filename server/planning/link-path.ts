@@ -6,8 +6,8 @@
 // smooth earth at 0 m.
 import type { TerrainStore, Interpolation } from '../terrain/store.ts';
 import { extractProfile } from '../terrain/profile.ts';
-import { bearingsBetween } from './geometry.ts';
-import { predictPath, type PathEnd, type PathPrediction, type PathProfile, type PathSettings } from './path.ts';
+import { bearingsBetween, bearingsOf } from './geometry.ts';
+import { predictPath, type PathEnd, type PathPrediction, type PathProfile, type PathScratch, type PathSettings } from './path.ts';
 
 /** The plan settings a path depends on (a structured-clone-safe subset of ResolvedLinkSettings). */
 export interface LinkPathSettings {
@@ -22,11 +22,12 @@ export type LinkProfile = PathProfile & { lat: Float64Array | null; lon: Float64
 /** The terrain profile node → gateway (smooth earth at 0 m without terrain). */
 export async function linkProfile(terrain: TerrainStore | null, settings: LinkPathSettings, from: { lat: number; lon: number }, to: { lat: number; lon: number }): Promise<LinkProfile> {
   if (!terrain) {
-    const lengthM = bearingsBetween(from.lat, from.lon, to.lat, to.lon).distanceM;
+    const bearings = bearingsBetween(from.lat, from.lon, to.lat, to.lon);
+    const lengthM = bearings.distanceM;
     const count = Math.max(3, Math.min(2001, Math.ceil(lengthM / 30) + 1));
     const distanceM = new Float64Array(count);
     for (let i = 0; i < count; i++) distanceM[i] = (lengthM * i) / (count - 1);
-    return { distanceM, groundM: new Float64Array(count), clutterHeightM: null, lat: null, lon: null, filledPoints: 0 };
+    return { distanceM, groundM: new Float64Array(count), clutterHeightM: null, lat: null, lon: null, filledPoints: 0, bearings };
   }
   const step = settings.profileStepM ?? undefined;
   let profile;
@@ -51,13 +52,15 @@ export async function linkProfile(terrain: TerrainStore | null, settings: LinkPa
   }
   const filledPoints = fillGaps(groundM);
   if (clutter) for (let i = 0; i < clutter.length; i++) if (!Number.isFinite(clutter[i])) clutter[i] = 0;
-  return { distanceM, groundM, clutterHeightM: clutter, lat: profile.lat, lon: profile.lon, filledPoints };
+  // The profile solved the geodesic from → to once; the path's bearings reuse that solution.
+  const bearings = bearingsOf({ distanceM: profile.lengthM, azimuthFromDeg: profile.azimuthFromDeg, azimuthToDeg: profile.azimuthToDeg });
+  return { distanceM, groundM, clutterHeightM: clutter, lat: profile.lat, lon: profile.lon, filledPoints, bearings };
 }
 
-/** Profile + path prediction of one node → gateway pair. */
-export async function computeLinkPath(terrain: TerrainStore | null, settings: LinkPathSettings, node: PathEnd, gateway: PathEnd): Promise<PathPrediction> {
+/** Profile + path prediction of one node → gateway pair (`scratch`: see PathScratch). */
+export async function computeLinkPath(terrain: TerrainStore | null, settings: LinkPathSettings, node: PathEnd, gateway: PathEnd, scratch?: PathScratch): Promise<PathPrediction> {
   const profile = await linkProfile(terrain, settings, node, gateway);
-  const path = predictPath(profile, settings.path, node, gateway);
+  const path = predictPath(profile, settings.path, node, gateway, scratch);
   if (profile.filledPoints > 0) path.warnings.push(`${profile.filledPoints} profile points had no terrain data and were filled from their neighbours`);
   return path;
 }

@@ -4,8 +4,9 @@
 // (bearing and elevation of the path).
 // The node is the transmitter (uplink); the profile runs node → gateway.
 import { predictPath as predictPropagationPath, zoneCode, type ProfileArrays } from '../propagation/path-prediction.ts';
+import { P1812Predictor } from '../propagation/p1812/predict.ts';
 import { PATH_METHODS, type PathMethod, type PathRequest } from '../propagation/path-request.ts';
-import { bearingsBetween, medianEarthFactor, pathElevationDeg } from './geometry.ts';
+import { bearingsBetween, medianEarthFactor, pathElevationDeg, type Bearings } from './geometry.ts';
 
 export type PropagationMethodId = PathMethod;
 export const PROPAGATION_METHODS: readonly PropagationMethodId[] = PATH_METHODS;
@@ -18,6 +19,8 @@ export interface PathProfile {
   groundM: Float64Array;
   /** Representative clutter height at each point, m (null = no clutter layer). */
   clutterHeightM: Float64Array | null;
+  /** Bearings node → gateway when the profile already solved the geodesic (else predictPath solves it). */
+  bearings?: Bearings;
 }
 
 export interface PathEnd {
@@ -78,12 +81,25 @@ export interface PathPrediction {
   warnings: string[];
 }
 
+/**
+ * Scratch a caller that predicts many paths keeps between them (a worker thread, the link
+ * engine): the P.1812 predictor's arrays are reused instead of allocated per path. Used
+ * synchronously within one prediction, so one scratch may serve interleaved async callers.
+ */
+export interface PathScratch {
+  p1812: P1812Predictor;
+}
+
+export function newPathScratch(): PathScratch {
+  return { p1812: new P1812Predictor() };
+}
+
 /** Predicts the path loss of one node → gateway path over `profile`. */
-export function predictPath(profile: PathProfile, settings: PathSettings, node: PathEnd, gateway: PathEnd): PathPrediction {
+export function predictPath(profile: PathProfile, settings: PathSettings, node: PathEnd, gateway: PathEnd, scratch?: PathScratch): PathPrediction {
   const count = profile.distanceM.length;
   if (count < 3) throw new RangeError('profile: needs at least 3 points');
   const warnings: string[] = [];
-  const bearings = bearingsBetween(node.lat, node.lon, gateway.lat, gateway.lon);
+  const bearings = profile.bearings ?? bearingsBetween(node.lat, node.lon, gateway.lat, gateway.lon);
   const nodeHeightM = Math.max(node.antennaHeightAglM, MIN_PATH_ANTENNA_HEIGHT_M);
   const gatewayHeightM = Math.max(gateway.antennaHeightAglM, MIN_PATH_ANTENNA_HEIGHT_M);
   if (node.antennaHeightAglM < MIN_PATH_ANTENNA_HEIGHT_M) {
@@ -111,10 +127,13 @@ export function predictPath(profile: PathProfile, settings: PathSettings, node: 
     rx: { lat: gateway.lat, lon: gateway.lon, heightAglM: gatewayHeightM },
     terrainZone: settings.zone,
   };
-  const result = predictPropagationPath(request, arrays);
+  const result = predictPropagationPath(request, arrays, scratch?.p1812);
   warnings.push(...result.warnings);
   const terms: Record<string, number> = {};
-  for (const [key, value] of Object.entries(result.terms)) if (typeof value === 'number') terms[key] = value;
+  for (const key in result.terms) {
+    const value = result.terms[key as keyof typeof result.terms];
+    if (typeof value === 'number') terms[key] = value;
+  }
   return {
     ...pathAtPlace({
       method: settings.method,

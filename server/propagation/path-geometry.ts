@@ -132,3 +132,55 @@ export function analysePathGeometry(input: PathGeometryInput): PathGeometry {
     obstructions,
   };
 }
+
+export interface PathClearance {
+  lineOfSight: boolean;
+  worstClearanceRatio: number;
+  worstDistanceKm: number;
+  /** The `keep` points of lowest clearance ratio below `obstructionRatio`, worst first (ties in path order). */
+  obstructions: Array<{ distanceKm: number; clearanceM: number; clearanceRatio: number }>;
+}
+
+/**
+ * What a path prediction needs of analysePathGeometry (line of sight, the worst
+ * clearance, the worst few obstructions) without its per-point arrays and
+ * objects: the same expressions point by point, so the same numbers
+ * (checked against analysePathGeometry in test/unit/propagation/path-geometry.test.ts),
+ * with nothing allocated per point. The top `keep` obstructions equal a stable sort
+ * of every obstruction by ratio cut to `keep`.
+ */
+export function pathClearance(input: PathGeometryInput, keep = 10): PathClearance {
+  const n = input.distanceKm.length;
+  const k = input.kFactor ?? DEFAULT_K_FACTOR;
+  const limit = input.obstructionRatio ?? 0.6;
+  const d0 = input.distanceKm[0];
+  const total = input.distanceKm[n - 1] - d0;
+  const tx = input.groundM[0] + input.txHeightAglM;
+  const rx = input.groundM[n - 1] + input.rxHeightAglM;
+  let worst = Infinity;
+  let worstIndex = -1;
+  let lineOfSight = true;
+  const obstructions: PathClearance['obstructions'] = [];
+  for (let i = 1; i < n - 1; i++) {
+    const d1 = input.distanceKm[i] - d0;
+    const d2 = total - d1;
+    const ray = tx + ((rx - tx) * d1) / total;
+    const r1 = fresnelZoneRadiusM(d1, d2, input.frequencyMhz);
+    const surface = input.groundM[i] + (input.clutterM ? input.clutterM[i] : 0) + earthBulgeM(d1, d2, k);
+    const clearance = ray - surface;
+    const q = clearance / r1;
+    if (clearance < 0) lineOfSight = false;
+    if (q < worst) {
+      worst = q;
+      worstIndex = i;
+    }
+    if (q < limit && (obstructions.length < keep || q < obstructions[obstructions.length - 1].clearanceRatio)) {
+      // Insert after every kept point of equal or lower ratio (a stable sort keeps path order among ties).
+      let at = obstructions.length;
+      while (at > 0 && obstructions[at - 1].clearanceRatio > q) at--;
+      obstructions.splice(at, 0, { distanceKm: d1, clearanceM: clearance, clearanceRatio: q });
+      if (obstructions.length > keep) obstructions.pop();
+    }
+  }
+  return { lineOfSight, worstClearanceRatio: worst, worstDistanceKm: worstIndex >= 0 ? input.distanceKm[worstIndex] - d0 : 0, obstructions };
+}

@@ -3,10 +3,10 @@
 import { bullingtonLossDb } from './bullington.ts';
 import { deygoutLossDb } from './deygout.ts';
 import { freeSpaceLossDb } from './free-space.ts';
-import { analysePathGeometry, EARTH_RADIUS_KM } from './path-geometry.ts';
+import { EARTH_RADIUS_KM, pathClearance } from './path-geometry.ts';
 import type { PathMethod, PathRequest } from './path-request.ts';
 import { fieldStrengthDbuvm } from './p1812/location-variability.ts';
-import { predictP1812, type P1812Detail } from './p1812/predict.ts';
+import { P1812Predictor, type P1812Detail } from './p1812/predict.ts';
 import { pathCentreLatitudeDeg } from './p1812/radio-climate.ts';
 import { ZONE_COASTAL_LAND, ZONE_INLAND, ZONE_SEA } from './p1812/types.ts';
 
@@ -83,14 +83,18 @@ function finiteOr(value: number, fallback: number): number {
   return Number.isFinite(value) ? value : fallback;
 }
 
-/** Runs the requested method over `profile`. */
-export function predictPath(request: PathRequest, profile: ProfileArrays): PathPrediction {
+/**
+ * Runs the requested method over `profile`. `p1812` may be a predictor the caller keeps between
+ * calls (its scratch arrays are reused; the answer holds no reference to them), else one is made.
+ */
+export function predictPath(request: PathRequest, profile: ProfileArrays, p1812Predictor?: P1812Predictor): PathPrediction {
   const warnings: string[] = [];
   const n = profile.distanceKm.length;
   const lengthKm = profile.distanceKm[n - 1] - profile.distanceKm[0];
   const k50 = 157 / (157 - request.refractivity.deltaN); // P.1812-8 Eq. (7a), also used for the geometry
   const aeKm = EARTH_RADIUS_KM * k50;
-  const geometry = analysePathGeometry({
+  // Only line of sight, the worst clearance and the worst 10 obstructions are read below (no per-point arrays).
+  const geometry = pathClearance({
     distanceKm: profile.distanceKm,
     groundM: profile.groundM,
     clutterM: profile.clutterM,
@@ -127,7 +131,7 @@ export function predictPath(request: PathRequest, profile: ProfileArrays): PathP
       for (const [name, end] of [['tx', request.tx], ['rx', request.rx]] as const) {
         if (end.heightAglM < 1) warnings.push(`${name}.heightAglM below 1 m: outside the antenna height range of ITU-R P.1812-8`);
       }
-      const result = predictP1812({
+      const result = (p1812Predictor ?? new P1812Predictor()).predict({
         frequencyMhz: request.frequencyMhz,
         timePercent: request.timePercent,
         locationPercent: request.locationPercent,
@@ -211,11 +215,7 @@ export function predictPath(request: PathRequest, profile: ProfileArrays): PathP
     distanceKm: lengthKm,
     kFactor: k50,
     terms,
-    obstructions: geometry.obstructions.slice(0, 10).map((o) => ({
-      distanceKm: o.distanceKm,
-      clearanceM: o.clearanceM,
-      clearanceRatio: o.clearanceRatio,
-    })),
+    obstructions: geometry.obstructions,
     ...(p1812 ? { p1812 } : {}),
     ...(edgesKm ? { edgesKm } : {}),
     warnings,

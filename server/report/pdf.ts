@@ -249,7 +249,7 @@ function coverPage(w: ReportWriter, m: ReportModel): void {
     ['Unserved (not heard)', `${m.counts.unserved} (${pct(m.counts.unserved, total)})`],
     ['Heard by 2 or more gateways', `${m.redundancy.twoOrMore} (${pct(m.redundancy.twoOrMore, total)})`],
     ['Gateways', String(m.gateways.length)],
-    ['Kit cost (antennas, feedlines, masts)', usd(m.bom.kitCostUsd)],
+    ['Kit cost (nodes and gateways: antennas, feedlines, connectors, masts)', usd(m.bom.kitCostUsd)],
     ['Bill of materials total', usd(m.bom.totalUsd)],
   ];
   w.table([{ header: 'Figure', width: 300 }, { header: 'Value', width: CONTENT_W - 300, align: 'right' }], rows, { size: 10 });
@@ -415,12 +415,13 @@ function bomPage(w: ReportWriter, m: ReportModel): void {
     [{ header: 'Item', width: 70 }, { header: 'Description', width: 185 }, { header: 'Quantity', width: 65, align: 'right' }, { header: 'Unit price', width: 85, align: 'right' }, { header: 'Cost', width: CONTENT_W - 405, align: 'right' }],
     [
       ...b.lines.map((l) => [category[l.category], l.name, fmtQty(l.quantity, l.unit), unitPrice(l.unitCostUsd, l.unit), usd(l.costUsd)]),
-      ['Subtotal', 'Kit: antennas, feedlines, masts', '', '', usd(b.kitCostUsd)],
-      ['Subtotal', 'Connectors', '', '', usd(b.totalsUsd.connector)],
+      ['Subtotal', 'Node kit (antenna, feedline, connectors, mast or mount)', '', '', usd(b.nodeKitCostUsd)],
+      ['Subtotal', 'Gateway kit (antenna, feedline, connectors, mast)', '', '', usd(b.gatewayKitCostUsd)],
+      ['Subtotal', 'Kit cost (nodes and gateways)', '', '', usd(b.kitCostUsd)],
       ['Subtotal', 'Gateway radios and site works', '', '', usd(b.totalsUsd.gateway + b.totalsUsd.site)],
       ['Total', '', '', '', usd(b.totalUsd)],
     ],
-    { size: 8.5, totalRows: 4 },
+    { size: 8.5, totalRows: 5 },
   );
   if (b.unpriced.length) w.para(`Not priced (not in the catalog): ${b.unpriced.join(', ')}.`, { size: 9 });
   w.bullets(b.notes, 8.5);

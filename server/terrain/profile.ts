@@ -17,6 +17,9 @@ export interface ProfileOptions {
 export interface TerrainProfile {
   /** Geodesic length from `from` to `to` (m). */
   lengthM: number;
+  /** Forward azimuths of the geodesic at `from` and at `to` (degrees from north), from the same inverse solution as lengthM. */
+  azimuthFromDeg: number;
+  azimuthToDeg: number;
   /** Spacing actually used (m): lengthM / (points − 1). */
   stepM: number;
   /** Distance of each point from `from` along the geodesic (m). */
@@ -100,7 +103,7 @@ export async function extractProfile(store: TerrainStore, from: LatLon, to: LatL
   validPosition('from', from);
   validPosition('to', to);
   const interpolation = options.interpolation ?? 'bilinear';
-  const { distanceM: lengthM } = geodesicInverse(from, to);
+  const { distanceM: lengthM, azimuthFromDeg, azimuthToDeg } = geodesicInverse(from, to);
   let stepM = options.stepM;
   if (stepM === undefined) {
     const box = {
@@ -136,7 +139,7 @@ export async function extractProfile(store: TerrainStore, from: LatLon, to: LatL
   const groundM = await store.sampleElevations(lat, lon, interpolation, pixels);
   let noDataPoints = 0;
   for (let i = 0; i < count; i++) if (Number.isNaN(groundM[i])) noDataPoints++;
-  const profile: TerrainProfile = { lengthM, stepM: spacing, distanceM, lat, lon, groundM, noDataPoints };
+  const profile: TerrainProfile = { lengthM, azimuthFromDeg, azimuthToDeg, stepM: spacing, distanceM, lat, lon, groundM, noDataPoints };
   const clutter = await store.sampleClutters(lat, lon, pixels);
   if (clutter) {
     profile.clutterClass = clutter.classIndex;

@@ -58,6 +58,11 @@ export interface CacheStats {
 
 const DEFAULT_CACHE_BYTES = 256 * 1024 * 1024;
 
+/** How run() samples a layer (a constant, not a closure per call). */
+const NEAREST = 0;
+const BILINEAR = 1;
+type SampleMode = typeof NEAREST | typeof BILINEAR;
+
 export class TerrainStore {
   private readonly layers: StoreLayer[] = [];
   private requestedCacheBytes: number;
@@ -167,8 +172,12 @@ export class TerrainStore {
     for (const layer of this.layers) {
       if (layer.kind !== 'elevation' || pending.length === 0) continue;
       const { px, py } = this.pixelsOf(layer, lat, lon, pending, pixelsFor);
-      await this.run(layer, pending, px, py, interpolation === 'bilinear' ? (l, x, y) => this.bilinearAt(l, x, y) : (l, x, y) => this.nearestAt(l, x, y), out);
-      pending = pending.filter((i) => Number.isNaN(out[i]));
+      await this.run(layer, pending, px, py, interpolation === 'bilinear' ? BILINEAR : NEAREST, out);
+      // The points this layer left without data, for the next (coarser) layer; a plain loop (typed-array
+      // filter with a callback costs more than the sampling of a whole profile).
+      let left = 0;
+      for (let k = 0; k < pending.length; k++) if (Number.isNaN(out[pending[k]])) pending[left++] = pending[k];
+      pending = pending.subarray(0, left);
     }
     return out;
   }
@@ -182,7 +191,7 @@ export class TerrainStore {
     const all = new Int32Array(n);
     for (let i = 0; i < n; i++) all[i] = i;
     const { px, py } = this.pixelsOf(layer, lat, lon, all, pixelsFor);
-    await this.run(layer, all, px, py, (l, x, y) => this.nearestAt(l, x, y), codes);
+    await this.run(layer, all, px, py, NEAREST, codes);
     const classIndex = new Uint8Array(n).fill(NO_CLUTTER_CLASS);
     const heightM = new Float64Array(n).fill(Number.NaN);
     const lookup = layer.lookup;
@@ -229,26 +238,32 @@ export class TerrainStore {
     return { px, py };
   }
 
-  /** Samples points of one layer, loading missing blocks in cache-sized batches until every point is resolved. */
-  private async run(layer: StoreLayer, indices: Int32Array, px: Float64Array, py: Float64Array, sample: (layer: StoreLayer, x: number, y: number) => number, out: Float64Array): Promise<void> {
-    let todo = new Int32Array(indices.length);
-    for (let k = 0; k < indices.length; k++) todo[k] = k;
-    for (let guard = 0; todo.length > 0; guard++) {
+  /**
+   * Samples points of one layer, loading missing blocks in cache-sized batches until every point is resolved.
+   * The first pass runs over every point with no index list; later passes only over the points that waited.
+   */
+  private async run(layer: StoreLayer, indices: Int32Array, px: Float64Array, py: Float64Array, mode: SampleMode, out: Float64Array): Promise<void> {
+    let todo: Int32Array | null = null;
+    let count = indices.length;
+    for (let guard = 0; count > 0; guard++) {
       layer.missing.clear();
       this.clock++;
       let waiting = 0;
-      const retry = new Int32Array(todo.length);
-      for (let t = 0; t < todo.length; t++) {
-        const k = todo[t];
+      let retry: Int32Array | null = null;
+      for (let t = 0; t < count; t++) {
+        const k = todo === null ? t : todo[t];
         this.missedFlag = false;
-        const value = sample(layer, px[k], py[k]);
-        if (this.missedFlag) retry[waiting++] = k;
-        else out[indices[k]] = value;
+        const value = mode === BILINEAR ? this.bilinearAt(layer, px[k], py[k]) : this.nearestAt(layer, px[k], py[k]);
+        if (this.missedFlag) {
+          retry ??= new Int32Array(count - t);
+          retry[waiting++] = k;
+        } else out[indices[k]] = value;
       }
       if (waiting === 0) return;
       if (guard > 100000) throw new Error('TerrainStore: sampling made no progress (cache too small?)');
       await this.loadMissing(layer);
-      todo = retry.slice(0, waiting);
+      todo = retry;
+      count = waiting;
     }
   }
 

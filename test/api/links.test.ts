@@ -209,6 +209,12 @@ describe('fleet table, link check, recommendation, visit sheet', () => {
     expect(res.body.cautions.join(' ')).toMatch(/height/i);
     expect(res.body.cautions.join(' ')).toMatch(/RF exposure/);
     expect(res.body.cautions.join(' ')).toMatch(/ground/i);
+    expect(new Set(res.body.cautions).size).toBe(res.body.cautions.length);
+    // Fitted to Probe 1 as it stands (a 10 m mast): work at height and grounding, each once.
+    const topics = (res.body.fittedCautions as Array<{ topic: string }>).map((g) => g.topic);
+    expect(topics).toEqual(expect.arrayContaining(['Work at height', 'Lightning and grounding']));
+    expect(new Set(topics).size).toBe(topics.length);
+    expect(res.body.cautionsFooter).toMatch(/local codes/);
   });
 
   it('recommend: ranked, cheapest meeting option first; an impossible target answers honestly', async () => {
@@ -224,6 +230,11 @@ describe('fleet table, link check, recommendation, visit sheet', () => {
       expect(options[0].meetsTarget).toBe(true);
       expect(options[0].cost).toBe(Math.min(...meeting.map((o) => o.cost)));
     }
+    // Cautions fitted to the first option (its mast height): work at height from 3 m up.
+    const first = res.body.options[0] as { mastHeightM: number };
+    const recTopics = (res.body.fittedCautions as Array<{ topic: string }>).map((g) => g.topic);
+    expect(recTopics.includes('Work at height')).toBe(first.mastHeightM > 2);
+    expect(res.body.cautionsFooter).toMatch(/local codes/);
     const impossible = await request(t.app.server).post(`/api/v1/plans/${planId}/nodes/${nodeId}/recommend`).set(bearer(t.tokens.planner)).send({ targetMarginDb: 59 });
     expect(impossible.status).toBe(200);
     expect(impossible.body.anyMeetsTarget).toBe(false);

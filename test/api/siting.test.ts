@@ -246,3 +246,60 @@ describe('siting terrain candidates', () => {
     expect(result.optimal).toBe(true);
   }, 240_000);
 });
+
+describeEngines('siting with keepExistingGateways false (start over)', (engine) => {
+  let t: TestApp;
+  afterAll(async () => t?.close());
+
+  it('existing gateways are ordinary candidates; apply replaces the plan’s gateways (audited); undo restores them with their readings, once', async () => {
+    t = await createTestApp(engine);
+    const demo = await seedDemo(t.db, t.config);
+    const auth = bearer((await issueToken(t.db, { userId: demo.plannerUserId, label: 'siting test' })).token);
+    const planId = demo.planId as string;
+    const before = await t.db.prisma.gateway.findMany({ where: { planId }, orderBy: { id: 'asc' } });
+    expect(before).toHaveLength(2);
+    // A field reading that names the first gateway: removing the gateway clears it, undo must put it back.
+    const node = await t.db.prisma.node.findFirstOrThrow({ where: { planId } });
+    const reading = await t.db.prisma.fieldReading.create({ data: { planId, nodeId: node.id, gatewayId: before[0].id, rssiDbm: -101, snrDb: 3, sf: 9, measuredAt: new Date('2026-05-01T08:00:00Z') } });
+    // At most one gateway in all: at least one of the two existing ones must go.
+    const start = await request(t.app.server).post(`/api/v1/plans/${planId}/siting`).set(auth).send({ requiredGateways: 1, candidates: { sites: true, terrainPoints: 0 }, keepExistingGateways: false, maxGateways: 1 });
+    expect(start.status).toBe(202);
+    const run = await waitDone(t, auth, planId, start.body.id);
+    expect(run.status, String(run.error)).toBe('done');
+    const matrix = (await request(t.app.server).get(`/api/v1/plans/${planId}/siting/${start.body.id}/matrix`).set(auth)).body as Matrix & { candidates: Array<{ id: string; fixed: boolean; costUsd: number; gatewayId: string | null }> };
+    const existing = matrix.candidates.filter((c) => c.id.startsWith('gateway:'));
+    expect(existing).toHaveLength(2);
+    for (const c of existing) expect(c).toMatchObject({ fixed: false, costUsd: 0 });
+    const result = run.result as { selected: Array<{ candidateId: string; gatewayId: string | null; kept: boolean }>; removed: Array<{ gatewayId: string }>; after: { gateways: number }; before: { gateways: number } };
+    expect(result.selected.length).toBeLessThanOrEqual(1);
+    const keptIds = result.selected.filter((s) => s.kept).map((s) => s.gatewayId);
+    // removed = the existing gateways the answer does not choose; after = what the plan will hold.
+    expect(new Set(result.removed.map((r) => r.gatewayId))).toEqual(new Set(before.map((g) => g.id).filter((id) => !keptIds.includes(id))));
+    expect(result.removed.length).toBeGreaterThanOrEqual(1);
+    expect(result.before.gateways).toBe(2);
+    expect(result.after.gateways).toBe(result.selected.length);
+    const applied = await request(t.app.server).post(`/api/v1/plans/${planId}/siting/${start.body.id}/apply`).set(auth);
+    expect(applied.status).toBe(201);
+    expect(new Set(applied.body.removedGatewayIds)).toEqual(new Set(result.removed.map((r) => r.gatewayId)));
+    const now = await t.db.prisma.gateway.findMany({ where: { planId } });
+    expect(now).toHaveLength(result.after.gateways);
+    for (const r of result.removed) expect(now.find((g) => g.id === r.gatewayId)).toBeUndefined();
+    const audit = await t.db.prisma.auditEntry.findFirstOrThrow({ where: { entity: 'siting_run', entityId: start.body.id, action: 'apply' } });
+    expect(JSON.stringify(audit.detail)).toContain(result.removed[0].gatewayId);
+    if (result.removed.some((r) => r.gatewayId === before[0].id)) expect((await t.db.prisma.fieldReading.findUniqueOrThrow({ where: { id: reading.id } })).gatewayId).toBeNull();
+    // Undo: created gateways gone, removed ones back with the same ids and fields, the reading names its gateway again.
+    const undo = await request(t.app.server).post(`/api/v1/plans/${planId}/siting/${start.body.id}/undo`).set(auth);
+    expect(undo.status).toBe(200);
+    expect(new Set(undo.body.restoredGatewayIds)).toEqual(new Set(result.removed.map((r) => r.gatewayId)));
+    const restored = await t.db.prisma.gateway.findMany({ where: { planId }, orderBy: { id: 'asc' } });
+    const fields = (g: (typeof before)[number]) => ({ id: g.id, name: g.name, lat: g.lat, lon: g.lon, siteId: g.siteId, antennaDesignId: g.antennaDesignId, antennaHeightAglM: g.antennaHeightAglM, feedlineId: g.feedlineId, feedlineLengthM: g.feedlineLengthM, noiseFigureDb: g.noiseFigureDb, version: g.version, createdAt: g.createdAt.toISOString() });
+    expect(restored.map(fields)).toEqual(before.map(fields));
+    expect((await t.db.prisma.fieldReading.findUniqueOrThrow({ where: { id: reading.id } })).gatewayId).toBe(before[0].id);
+    expect(await t.db.prisma.auditEntry.count({ where: { entity: 'siting_run', entityId: start.body.id, action: 'undo' } })).toBe(1);
+    const again = await request(t.app.server).post(`/api/v1/plans/${planId}/siting/${start.body.id}/undo`).set(auth);
+    expect(again.status).toBe(409);
+    expect(again.body.error.code).toBe('already_undone');
+    const run2 = (await request(t.app.server).get(`/api/v1/plans/${planId}/siting/${start.body.id}`).set(auth)).body;
+    expect(run2.undoneAt).not.toBeNull();
+  }, 300_000);
+});

@@ -14,7 +14,7 @@ import { mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir, loadavg } from 'node:os';
 import { join } from 'node:path';
 import { performance } from 'node:perf_hooks';
-import { createTestApp, postgresAvailable } from '../helpers/test-app.ts';
+import { createTestApp, postgresAvailable, type TestApp } from '../helpers/test-app.ts';
 import { writeGeoTiff } from '../../server/terrain/geotiff-writer.ts';
 import { RESULT_FILES, resultDir } from '../../server/jobs/coverage-job.ts';
 
@@ -41,6 +41,43 @@ function grid(fill: (u: number, v: number) => number) {
 
 const mb = (bytes: number) => `${(bytes / 1024 / 1024).toFixed(0)} MB`;
 
+/** The bench plan: a synthetic DEM layer, 3 gateways, 5,000 nodes and a finished coverage run. */
+export async function makeBenchPlan(t: TestApp, dir: string): Promise<{ planId: string; auth: { authorization: string } }> {
+  const dLat = CELL_M / 111_320;
+  const dLon = CELL_M / (111_320 * Math.cos((CENTRE.lat * Math.PI) / 180));
+  const west = CENTRE.lon - (SIZE_PX / 2) * dLon;
+  const north = CENTRE.lat + (SIZE_PX / 2) * dLat;
+  const geoTransform: [number, number, number, number, number, number] = [west, dLon, 0, north, 0, -dLat];
+  const demPath = join(dir, 'dem.tif');
+  const dem = writeGeoTiff({ widthPx: SIZE_PX, heightPx: SIZE_PX, data: grid((u, v) => 1200 + 180 * Math.sin(6.1 * u + 1.3) * Math.cos(4.3 * v) + 90 * Math.sin(17 * (u + 0.4 * v))), geoTransform, epsg: 4326, compression: 'deflate', tiled: { tileSizePx: 256 }, overviews: [2, 4, 8] });
+  writeFileSync(demPath, dem);
+  const auth = { authorization: `Bearer ${t.tokens.planner}` };
+  const plan = await t.app.inject({ method: 'POST', url: '/api/v1/plans', headers: auth, payload: { name: 'Report bench', propagationMethod: 'p1812' } });
+  const planId = (plan.json() as { id: string }).id;
+  await t.db.prisma.terrainLayer.create({
+    data: { planId, kind: 'elevation', name: 'bench DEM (synthetic)', filePath: demPath, fileBytes: BigInt(dem.length), widthPx: SIZE_PX, heightPx: SIZE_PX, epsg: 4326, proj4: '+proj=longlat +datum=WGS84 +no_defs', geoTransform, west, south: north - SIZE_PX * dLat, east: west + SIZE_PX * dLon, north, resolutionM: CELL_M },
+  });
+  const kmLat = 1 / 111.32;
+  const kmLon = 1 / (111.32 * Math.cos((CENTRE.lat * Math.PI) / 180));
+  const gatewayIds: string[] = [];
+  for (const [i, [dx, dy]] of [[0, 0], [8, 7], [-9, -8]].entries()) {
+    const res = await t.app.inject({ method: 'POST', url: `/api/v1/plans/${planId}/gateways`, headers: auth, payload: { name: `GW ${i + 1}`, lat: CENTRE.lat + dy * kmLat, lon: CENTRE.lon + dx * kmLon, antennaHeightAglM: 15 } });
+    gatewayIds.push((res.json() as { id: string }).id);
+  }
+  const rand = random(7);
+  const rows = [];
+  for (let i = 0; i < NODES; i++) {
+    rows.push({ planId, name: `Node ${String(i + 1).padStart(4, '0')}`, lat: CENTRE.lat + (rand() - 0.5) * 26 * kmLat, lon: CENTRE.lon + (rand() - 0.5) * 26 * kmLon, deviceType: 'probe', antennaDesignId: 'helical-stub', antennaHeightAglM: 1 + rand() * 3, environment: rand() < 0.15 ? ('indoor' as const) : ('outdoor' as const) });
+  }
+  await t.db.prisma.node.createMany({ data: rows });
+  // A finished coverage run with a synthetic margin raster (falls off with distance from the centre).
+  const run = await t.db.prisma.coverageRun.create({ data: { planId, gatewayIds, params: { mode: 'fast', radiusKm: 15, sf: 9, targetHeightM: 2, requiredMarginDb: 10 }, status: 'done', progress: 1, finishedAt: new Date(), resultPath: '' } });
+  mkdirSync(resultDir(t.config, run.id), { recursive: true });
+  writeFileSync(join(resultDir(t.config, run.id), RESULT_FILES.margin), writeGeoTiff({ widthPx: SIZE_PX, heightPx: SIZE_PX, data: grid((u, v) => 35 - 60 * Math.hypot(u - 0.5, v - 0.5) + 6 * Math.sin(20 * u)), geoTransform, epsg: 4326, compression: 'deflate', tiled: { tileSizePx: 256 }, overviews: [2, 4] }));
+
+  return { planId, auth };
+}
+
 export async function run(): Promise<void> {
   const dir = mkdtempSync(join(tmpdir(), 'earshot-bench-report-'));
   // PostgreSQL when it answers (as a team install runs): an in-memory PGlite would hold the
@@ -49,38 +86,7 @@ export async function run(): Promise<void> {
   const t = await createTestApp(engine);
   console.log(`database: ${engine}`);
   try {
-    const dLat = CELL_M / 111_320;
-    const dLon = CELL_M / (111_320 * Math.cos((CENTRE.lat * Math.PI) / 180));
-    const west = CENTRE.lon - (SIZE_PX / 2) * dLon;
-    const north = CENTRE.lat + (SIZE_PX / 2) * dLat;
-    const geoTransform: [number, number, number, number, number, number] = [west, dLon, 0, north, 0, -dLat];
-    const demPath = join(dir, 'dem.tif');
-    const dem = writeGeoTiff({ widthPx: SIZE_PX, heightPx: SIZE_PX, data: grid((u, v) => 1200 + 180 * Math.sin(6.1 * u + 1.3) * Math.cos(4.3 * v) + 90 * Math.sin(17 * (u + 0.4 * v))), geoTransform, epsg: 4326, compression: 'deflate', tiled: { tileSizePx: 256 }, overviews: [2, 4, 8] });
-    writeFileSync(demPath, dem);
-    const auth = { authorization: `Bearer ${t.tokens.planner}` };
-    const plan = await t.app.inject({ method: 'POST', url: '/api/v1/plans', headers: auth, payload: { name: 'Report bench', propagationMethod: 'p1812' } });
-    const planId = (plan.json() as { id: string }).id;
-    await t.db.prisma.terrainLayer.create({
-      data: { planId, kind: 'elevation', name: 'bench DEM (synthetic)', filePath: demPath, fileBytes: BigInt(dem.length), widthPx: SIZE_PX, heightPx: SIZE_PX, epsg: 4326, proj4: '+proj=longlat +datum=WGS84 +no_defs', geoTransform, west, south: north - SIZE_PX * dLat, east: west + SIZE_PX * dLon, north, resolutionM: CELL_M },
-    });
-    const kmLat = 1 / 111.32;
-    const kmLon = 1 / (111.32 * Math.cos((CENTRE.lat * Math.PI) / 180));
-    const gatewayIds: string[] = [];
-    for (const [i, [dx, dy]] of [[0, 0], [8, 7], [-9, -8]].entries()) {
-      const res = await t.app.inject({ method: 'POST', url: `/api/v1/plans/${planId}/gateways`, headers: auth, payload: { name: `GW ${i + 1}`, lat: CENTRE.lat + dy * kmLat, lon: CENTRE.lon + dx * kmLon, antennaHeightAglM: 15 } });
-      gatewayIds.push((res.json() as { id: string }).id);
-    }
-    const rand = random(7);
-    const rows = [];
-    for (let i = 0; i < NODES; i++) {
-      rows.push({ planId, name: `Node ${String(i + 1).padStart(4, '0')}`, lat: CENTRE.lat + (rand() - 0.5) * 26 * kmLat, lon: CENTRE.lon + (rand() - 0.5) * 26 * kmLon, deviceType: 'probe', antennaDesignId: 'helical-stub', antennaHeightAglM: 1 + rand() * 3, environment: rand() < 0.15 ? ('indoor' as const) : ('outdoor' as const) });
-    }
-    await t.db.prisma.node.createMany({ data: rows });
-    // A finished coverage run with a synthetic margin raster (falls off with distance from the centre).
-    const run = await t.db.prisma.coverageRun.create({ data: { planId, gatewayIds, params: { mode: 'fast', radiusKm: 15, sf: 9, targetHeightM: 2, requiredMarginDb: 10 }, status: 'done', progress: 1, finishedAt: new Date(), resultPath: '' } });
-    mkdirSync(resultDir(t.config, run.id), { recursive: true });
-    writeFileSync(join(resultDir(t.config, run.id), RESULT_FILES.margin), writeGeoTiff({ widthPx: SIZE_PX, heightPx: SIZE_PX, data: grid((u, v) => 35 - 60 * Math.hypot(u - 0.5, v - 0.5) + 6 * Math.sin(20 * u)), geoTransform, epsg: 4326, compression: 'deflate', tiled: { tileSizePx: 256 }, overviews: [2, 4] }));
-
+    const { planId, auth } = await makeBenchPlan(t, dir);
     console.log(`load average before: ${loadavg().map((v) => v.toFixed(2)).join(' ')}; link workers ${t.config.workerCount}`);
     let start = performance.now();
     const cold = await t.app.inject({ method: 'GET', url: `/api/v1/plans/${planId}/links?limit=1`, headers: auth });

@@ -9,7 +9,7 @@
 import { loadavg } from 'node:os';
 import { performance } from 'node:perf_hooks';
 import type { Highs } from 'highs';
-import { mkdtempSync, rmSync } from 'node:fs';
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { loadConfig } from '../../server/config.ts';
@@ -83,11 +83,20 @@ export async function run(): Promise<void> {
         const ctx = await engine.planContext(plan);
         await engine.workersReady();
         const t0 = performance.now();
+        const c0 = process.cpuUsage();
         const inputs = await matrixInputs(engine, ctx, candidates);
         const matrix = await computeSitingMatrix(engine, ctx, candidates, inputs, { areaMinElevationM: null });
         const seconds = (performance.now() - t0) / 1000;
+        // CPU time of the whole process (main thread + worker threads + GC), less sensitive to the machine's load than wall time.
+        const cpu = process.cpuUsage(c0);
+        const cpuSeconds = (cpu.user + cpu.system) / 1e6;
         const meets = matrix.meets.reduce((n, row) => n + row.filter(Boolean).length, 0);
-        console.log(`matrix ${method.padEnd(10)} ${seconds.toFixed(1).padStart(7)} s on ${engine.workerCount} worker threads; ${matrix.pairsPredicted} pairs predicted (${(matrix.pairsPredicted / seconds).toFixed(0)} /s), ${matrix.pairsSkipped} skipped; ${meets} pairs meet the target; load ${loadavg()[0].toFixed(2)}`);
+        const heapMb = process.memoryUsage().heapUsed / 2 ** 20;
+        console.log(
+          `matrix ${method.padEnd(10)} ${seconds.toFixed(1).padStart(7)} s wall, ${cpuSeconds.toFixed(1)} CPU-s (${((cpuSeconds / Math.max(1, matrix.pairsPredicted)) * 1000).toFixed(3)} CPU-ms/pair) on ${engine.workerCount} worker threads; ${matrix.pairsPredicted} pairs predicted (${(matrix.pairsPredicted / seconds).toFixed(0)} /s), ${matrix.pairsSkipped} skipped; ${meets} pairs meet the target; heap ${heapMb.toFixed(0)} MB; load ${loadavg()[0].toFixed(2)}`,
+        );
+        // SITING_BENCH_DUMP=<prefix>: the matrix as JSON, to compare two versions of the code byte for byte.
+        if (process.env.SITING_BENCH_DUMP) writeFileSync(`${process.env.SITING_BENCH_DUMP}.${method}.json`, JSON.stringify({ meets: matrix.meets, marginDb: matrix.marginDb, pairsPredicted: matrix.pairsPredicted, pairsSkipped: matrix.pairsSkipped }));
         // The solve runs on the first method's matrix (P.1812 by default).
         if (method === methods[0]) lastMatrix = matrix;
       } finally {

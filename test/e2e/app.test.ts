@@ -112,7 +112,7 @@ describe('map front end (chromium)', () => {
     const finder = page.locator('#node-finder');
     const options = await finder.locator('option').evaluateAll((els) => els.map((e) => ({ value: (e as HTMLOptionElement).value, label: e.textContent ?? '' })));
     // Prefer a node that is not comfortably served: height matters most there.
-    const pick = options.find((o) => /marginal|unserved/.test(o.label)) ?? options.find((o) => o.value !== '');
+    const pick = options.find((o) => /marginal|unserved/i.test(o.label)) ?? options.find((o) => o.value !== '');
     expect(pick).toBeDefined();
     await finder.selectOption(pick?.value ?? '');
     await page.locator('#node-panel-title').waitFor();

@@ -47,6 +47,8 @@ export interface SitingResult {
   matrix: { nodes: number; candidates: number; pairsPredicted: number; pairsSkipped: number; cached: boolean; seconds: number };
   before: { gateways: number };
   after: { gateways: number };
+  /** keepExistingGateways false: existing gateways the answer drops (apply removes them, undo restores them). */
+  removed?: Array<{ gatewayId: string; name: string }>;
   warnings: string[];
 }
 
@@ -59,9 +61,11 @@ export interface SitingRun {
   result: SitingResult | null;
   appliedAt: string | null;
   appliedGatewayIds: string[] | null;
+  undoneAt: string | null;
 }
 
 export const startSiting = (planId: string, body: SitingRequest): Promise<SitingRun> => request<SitingRun>('POST', `/plans/${planId}/siting`, body);
 export const getSiting = (planId: string, runId: string): Promise<SitingRun> => request<SitingRun>('GET', `/plans/${planId}/siting/${runId}`);
 export const cancelSiting = (planId: string, runId: string): Promise<SitingRun> => request<SitingRun>('POST', `/plans/${planId}/siting/${runId}/cancel`);
-export const applySiting = (planId: string, runId: string): Promise<{ gatewayIds: string[] }> => request<{ gatewayIds: string[] }>('POST', `/plans/${planId}/siting/${runId}/apply`);
+export const applySiting = (planId: string, runId: string): Promise<{ gatewayIds: string[]; removedGatewayIds: string[] }> => request<{ gatewayIds: string[]; removedGatewayIds: string[] }>('POST', `/plans/${planId}/siting/${runId}/apply`);
+export const undoSiting = (planId: string, runId: string): Promise<{ deletedGatewayIds: string[]; restoredGatewayIds: string[] }> => request<{ deletedGatewayIds: string[]; restoredGatewayIds: string[] }>('POST', `/plans/${planId}/siting/${runId}/undo`);

@@ -392,6 +392,9 @@ export interface LinkCheck {
   recommendedKit: (KitChoice & { meetsTarget?: boolean; reason?: string }) | null;
   recommendation?: { anyMeetsTarget: boolean; advice: string[] };
   cautions: string[];
+  /** Cautions fitted to this node's job (height, gain, EIRP, pit or building), grouped, each once. */
+  fittedCautions?: Array<{ topic: string; items: string[] }>;
+  cautionsFooter?: string;
   warnings: string[];
 }
 export const getLinkCheck = (planId: string, nodeId: string, signal?: AbortSignal): Promise<LinkCheck> =>
@@ -435,6 +438,9 @@ export interface Recommendation {
   advice: string[];
   warnings: string[];
   target: { targetMarginDb: number; targetDelivery: number };
+  /** Cautions fitted to the recommended kit (its mast height, gain and EIRP). */
+  fittedCautions?: Array<{ topic: string; items: string[] }>;
+  cautionsFooter?: string;
 }
 export const recommend = (planId: string, nodeId: string, body: RecommendRequest, signal?: AbortSignal): Promise<Recommendation> =>
   request<Recommendation>('POST', `/plans/${planId}/nodes/${nodeId}/recommend`, body, undefined, signal);
@@ -489,6 +495,9 @@ export interface VisitSheet {
   buildSheet: BuildSheet | null;
   gateways: Array<{ id: string; name: string; distanceM: number; aimAzimuthDeg: number; elevationDeg: number; sf: number; expectedRssiDbm: Range; expectedSnrDb: Range; marginDb: number }>;
   cautions: string[];
+  /** Cautions fitted to this node as it stands (server/planning/cautions.ts). */
+  fittedCautions?: Array<{ topic: string; items: string[] }>;
+  cautionsFooter?: string;
   warnings: string[];
 }
 export const getVisitSheet = (planId: string, nodeId: string): Promise<VisitSheet> =>

@@ -25,7 +25,28 @@ import { h, openDialog } from './ui.ts';
 
 export interface UndoEntry {
   label: string;
-  run: () => Promise<void>;
+  /** Undoes the change through the store open now (the view that made it may be gone). */
+  run: (store: PlanStore) => Promise<void>;
+}
+
+/**
+ * Undo history per plan, kept for the life of the tab: each view makes its own PlanStore,
+ * so a history on the store would be lost on a change of view (map → fleet table → map).
+ * Entries carry ids and values, not the store that recorded them.
+ */
+interface PlanHistory {
+  undo: UndoEntry[];
+  /** Old id → new id of objects an undo re-created (a re-created object gets a new id). */
+  recreated: Map<string, string>;
+}
+const histories = new Map<string, PlanHistory>();
+function historyOf(planId: string): PlanHistory {
+  let history = histories.get(planId);
+  if (!history) {
+    history = { undo: [], recreated: new Map() };
+    histories.set(planId, history);
+  }
+  return history;
 }
 
 /** Fields a create call accepts back when an undo re-creates a deleted object. */
@@ -41,7 +62,8 @@ export class PlanStore {
   fleet = new Map<string, FleetRow>();
   /** Why the fleet status is missing, if it is (e.g. the links API is not deployed yet). */
   fleetProblem: string | null = null;
-  undoStack: UndoEntry[] = [];
+  /** This plan's undo history (shared by every view of the plan in this tab). */
+  readonly undoStack: UndoEntry[];
   /** Resolves when the latest fleet-status refresh (started after a write) has been applied. */
   fleetRefresh: Promise<void> = Promise.resolve();
   private listeners = new Set<() => void>();
@@ -54,11 +76,13 @@ export class PlanStore {
   private writeGen = 0;
   private loadSeq = 0;
   private fleetSeq = 0;
-  /** Old id → new id of objects an undo re-created (a re-created object gets a new id). */
-  private recreated = new Map<string, string>();
+  private readonly recreated: Map<string, string>;
 
   constructor(planId: string) {
     this.planId = planId;
+    const history = historyOf(planId);
+    this.undoStack = history.undo;
+    this.recreated = history.recreated;
   }
 
   onChange(listener: () => void): () => void {
@@ -148,7 +172,7 @@ export class PlanStore {
     this.writeGen++;
     this.put(kind, created);
     if (recordUndo) {
-      this.pushUndo({ label: `added ${kindLabel[kind]} ${created.name}`, run: () => this.remove(kind, this.currentId(created.id), false) });
+      this.pushUndo({ label: `added ${kindLabel[kind]} ${created.name}`, run: (store) => store.remove(kind, store.currentId(created.id), false) });
     }
     this.afterWrite(kind);
     return created;
@@ -165,7 +189,7 @@ export class PlanStore {
     this.writeGen++;
     this.put(kind, updated);
     if (recordUndo) {
-      this.pushUndo({ label: label ?? `edited ${kindLabel[kind]} ${updated.name}`, run: () => this.update(kind, this.currentId(id), previous, false).then(() => undefined) });
+      this.pushUndo({ label: label ?? `edited ${kindLabel[kind]} ${updated.name}`, run: (store) => store.update(kind, store.currentId(id), previous, false).then(() => undefined) });
     }
     this.afterWrite(kind);
     return updated;
@@ -183,10 +207,10 @@ export class PlanStore {
       for (const [key, value] of Object.entries(before)) if (!serverFields.has(key) && value !== null) copy[key] = value;
       this.pushUndo({
         label: `deleted ${kindLabel[kind]} ${before.name}`,
-        run: async () => {
+        run: async (store) => {
           // The server gives the re-created object a new id; older undo entries follow it.
-          const again = await this.create(kind, copy, false);
-          this.recreated.set(id, again.id);
+          const again = await store.create(kind, copy, false);
+          store.recreated.set(id, again.id);
         },
       });
     }
@@ -206,7 +230,13 @@ export class PlanStore {
   async undo(): Promise<string | null> {
     const entry = this.undoStack.pop();
     if (!entry) return null;
-    await entry.run();
+    try {
+      await entry.run(this);
+    } catch (err) {
+      // A version conflict: after the reload the same undo can be tried again.
+      if (err instanceof ApiError && err.status === 409) this.undoStack.push(entry);
+      throw err;
+    }
     return entry.label;
   }
 

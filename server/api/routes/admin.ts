@@ -12,6 +12,7 @@ import { linkAdminRoutes } from './links.ts';
 import { listNodesForAdmin, listPlansForAdmin, nodesListInput, plansListInput } from '../../app/fleet-lists.ts';
 import { reportAdminRoutes } from './exports.ts';
 import { sitingAdminRoutes } from './siting.ts';
+import { terrainAdminRoutes } from './terrain.ts';
 
 const loopback = new Set(['127.0.0.1', '::1', '::ffff:127.0.0.1']);
 
@@ -43,6 +44,8 @@ export default async function adminRoutes(app: FastifyInstance): Promise<void> {
   api.post('/nodes-list', { config, schema: { hide: true, body: nodesListInput } }, async (request) => listNodesForAdmin(db, request.body));
   // `earshot report` / `earshot export` (same reportFile function as the command in-process).
   await app.register(reportAdminRoutes);
+  // `earshot terrain upload` (the same checks and storage as POST /plans/:id/terrain).
+  await app.register(terrainAdminRoutes);
   // `earshot siting` (the same sitingReport use case as in-process).
   await app.register(sitingAdminRoutes);
   api.get('/ping', { schema: { hide: true, response: { 200: z.object({ ok: z.literal(true), pid: z.number() }) } } }, async () => ({ ok: true as const, pid: process.pid }));

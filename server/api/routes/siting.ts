@@ -4,8 +4,9 @@
 import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import { applyRun, cancelRun, createSitingRequest, findRun, runMatrix, SitingJobs, sitingReport, type SitingDeps } from '../../app/siting.ts';
+import { applyRun, cancelRun, createSitingRequest, findRun, runMatrix, SitingJobs, sitingReport, undoRun, type SitingDeps } from '../../app/siting.ts';
 import type { SitingRunSummaryRow } from '../../db/repositories/siting-runs.ts';
+import { createLinkRunJobs } from '../../jobs/link-runs.ts';
 import { listSitingRuns } from '../../db/repositories/siting-runs.ts';
 import { requireRole } from '../auth.ts';
 import { apiErrorOf } from '../errors.ts';
@@ -31,7 +32,9 @@ export const sitingBody = z.strictObject({
     spacingM: finite().min(30, 'must be ≥ 30 m').max(50_000, 'must be ≤ 50000 m').optional().describe('least distance between terrain points, m (default 500)'),
     terrainPointCostUsd: nonNegative().max(1e7, 'must be ≤ 10000000 USD').optional().describe('site cost assumed for a terrain point, USD (default 0; the kit is always counted)'),
   }),
-  keepExistingGateways: z.boolean({ error: 'must be true or false' }),
+  keepExistingGateways: z
+    .boolean({ error: 'must be true or false' })
+    .describe("true: the plan's gateways stay as built (fixed, cost 0). false: start over — they become ordinary candidates (cost 0 USD, built already) and apply replaces the plan's gateways with the answer (dropped ones removed; undo restores them)"),
   minimise: z.enum(['gateways', 'cost'], { error: 'must be gateways or cost' }).optional(),
   maxGateways: wholeNumber(0, 10_000).optional(),
   budgetUsd: finite().min(0, 'must be ≥ 0 USD').max(1e9, 'must be ≤ 1000000000 USD').optional(),
@@ -61,7 +64,7 @@ const selectedSchema = z.object({
   lon: z.number(),
   antennaHeightAglM: z.number().describe('m above ground'),
   costUsd: z.number().describe('USD: site cost + kit'),
-  kept: z.boolean().describe('an existing gateway kept as built'),
+  kept: z.boolean().describe('an existing gateway that stays (kept as built, or chosen among the candidates with keepExistingGateways false)'),
   nodesHeard: z.number().int(),
   nodesOnlyHere: z.number().int().describe('nodes that fall short of their requirement if this site is dropped'),
   nodeIdsOnlyHere: z.array(z.string()),
@@ -89,6 +92,7 @@ const resultSchema = z.object({
   matrix: z.object({ nodes: z.number().int(), candidates: z.number().int(), pairsPredicted: z.number().int(), pairsSkipped: z.number().int(), cached: z.boolean(), seconds: z.number() }),
   before: z.object({ gateways: z.number().int() }),
   after: z.object({ gateways: z.number().int() }),
+  removed: z.array(z.object({ gatewayId: z.string(), name: z.string() })).optional().describe('keepExistingGateways false: existing gateways the answer drops; apply removes them, undo restores them'),
   warnings: z.array(z.string()),
 });
 
@@ -102,6 +106,7 @@ export const sitingRunResponse = z.object({
   result: resultSchema.nullable(),
   appliedAt: dateTime.nullable(),
   appliedGatewayIds: z.array(z.string()).nullable(),
+  undoneAt: dateTime.nullable(),
   createdAt: dateTime,
   startedAt: dateTime.nullable(),
   finishedAt: dateTime.nullable(),
@@ -118,7 +123,12 @@ const matrixResponse = z.object({
   warnings: z.array(z.string()),
 });
 
-const applyResponse = z.object({ gatewayIds: z.array(z.string()), gateways: z.array(z.object({ id: z.string(), name: z.string(), candidateId: z.string() })) });
+const applyResponse = z.object({
+  gatewayIds: z.array(z.string()),
+  gateways: z.array(z.object({ id: z.string(), name: z.string(), candidateId: z.string() })),
+  removedGatewayIds: z.array(z.string()).describe('keepExistingGateways false: the existing gateways removed (undo restores them)'),
+});
+const undoResponse = z.object({ deletedGatewayIds: z.array(z.string()), restoredGatewayIds: z.array(z.string()) });
 
 function runView(run: SitingRunSummaryRow) {
   return {
@@ -131,6 +141,7 @@ function runView(run: SitingRunSummaryRow) {
     result: (run.result ?? null) as z.infer<typeof resultSchema> | null,
     appliedAt: run.appliedAt?.toISOString() ?? null,
     appliedGatewayIds: (run.appliedGatewayIds ?? null) as string[] | null,
+    undoneAt: run.undoneAt?.toISOString() ?? null,
     createdAt: run.createdAt.toISOString(),
     startedAt: run.startedAt?.toISOString() ?? null,
     finishedAt: run.finishedAt?.toISOString() ?? null,
@@ -148,7 +159,10 @@ async function mapped<T>(work: () => Promise<T>): Promise<T> {
 
 export default async function sitingRoutes(app: FastifyInstance): Promise<void> {
   const api = app.withTypeProvider<ZodTypeProvider>();
-  const deps: SitingDeps = { db: app.deps.db, engine: app.linkEngine };
+  // With Redis the matrix is split over the queue workers (server/jobs/siting-matrix-split.ts).
+  const matrixJobs = app.deps.config.redisUrl ? await createLinkRunJobs(app.deps.db, app.deps.config, app.linkEngine) : undefined;
+  if (matrixJobs) app.addHook('onClose', async () => matrixJobs.close());
+  const deps: SitingDeps = { db: app.deps.db, engine: app.linkEngine, matrixJobs };
   const jobs = await SitingJobs.start(deps);
   app.addHook('onClose', async () => jobs.close());
   const tags = ['siting'];
@@ -202,6 +216,16 @@ export default async function sitingRoutes(app: FastifyInstance): Promise<void> 
     reply.code(201);
     return applied;
   });
+
+  api.post(
+    '/plans/:planId/siting/:runId/undo',
+    { schema: { summary: 'Undo an apply, once: delete the gateways it created and restore those it removed (keepExistingGateways false)', tags, params: runParams, response: { 200: undoResponse, ...errorResponses } } },
+    async (request) => {
+      const principal = requireRole(request, 'planner');
+      const plan = await loadPlanForPrincipal(app.deps.db, principal, request.params.planId);
+      return mapped(() => undoRun(deps, principal, plan.id, request.params.runId));
+    },
+  );
 }
 
 /** `earshot siting` while this server holds the data folder: the same use case, on the loopback admin route. */
@@ -209,6 +233,9 @@ export const sitingReportInput = sitingBody.extend({ plan: id() });
 
 export async function sitingAdminRoutes(app: FastifyInstance): Promise<void> {
   const api = app.withTypeProvider<ZodTypeProvider>();
-  const deps: SitingDeps = { db: app.deps.db, engine: app.linkEngine };
+  // With Redis the matrix is split over the queue workers (server/jobs/siting-matrix-split.ts).
+  const matrixJobs = app.deps.config.redisUrl ? await createLinkRunJobs(app.deps.db, app.deps.config, app.linkEngine) : undefined;
+  if (matrixJobs) app.addHook('onClose', async () => matrixJobs.close());
+  const deps: SitingDeps = { db: app.deps.db, engine: app.linkEngine, matrixJobs };
   api.post('/siting', { schema: { hide: true, body: sitingReportInput } }, async (request) => runView(await mapped(() => sitingReport(deps, request.body))));
 }

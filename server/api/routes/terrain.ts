@@ -13,10 +13,11 @@ import multipart from '@fastify/multipart';
 import type { FastifyInstance, FastifyRequest } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import { writeWithAudit } from '../../db/repositories/audit.ts';
+import { writeWithAudit, type AuditPrincipal } from '../../db/repositories/audit.ts';
 import type { Database } from '../../db/client.ts';
 import { terrainFileNamesReferencedIn, terrainFilesStillReferenced } from '../../db/repositories/scenarios.ts';
 import { allTerrainLayers, createTerrainLayerWith, deleteTerrainLayer, listTerrainLayers, planExtent, type TerrainLayerRow } from '../../db/repositories/terrain-layers.ts';
+import { findPlanById } from '../../db/repositories/links.ts';
 import { crsForEpsg } from '../../terrain/crs.ts';
 import { openGeoRaster, RasterError, type GeoRaster } from '../../terrain/raster.ts';
 import { renderHillshadeTile, validTile } from '../../terrain/tiles.ts';
@@ -268,93 +269,9 @@ export default async function terrainRoutes(app: FastifyInstance): Promise<void>
     async (request, reply) => {
       const principal = requireRole(request, 'planner');
       const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
-      const planDir = join(filesDir, 'terrain', plan.id);
-      await mkdir(planDir, { recursive: true });
-      const tempPath = join(planDir, `.incoming-${randomUUID()}.tif`);
-      const layerId = randomUUID().replace(/-/g, '');
-      const relativePath = join('terrain', plan.id, `${layerId}.tif`);
-      const finalPath = join(filesDir, relativePath);
-      let raster: GeoRaster | null = null;
-      let renamed = false;
-      try {
-        const { received, fields } = await receiveUpload(request, tempPath, config.maxUploadBytes);
-        const options = uploadQuery.safeParse({ ...request.query, ...fields });
-        if (!options.success) {
-          const issue = options.error.issues[0];
-          throw new ApiError(400, 'invalid_input', `${issue.path.join('.') || 'field'}: ${issue.message}`);
-        }
-        const kind = options.data.kind ?? 'elevation';
-        if (received.bytes === 0) throw new ApiError(400, 'empty_upload', 'file: the upload is empty; send a GeoTIFF');
-        if (!looksLikeTiff(received.head)) throw new ApiError(415, 'not_tiff', 'file: not a TIFF file (GeoTIFF expected: it starts with II*\\0 or MM\\0*)');
-        try {
-          raster = await openGeoRaster(tempPath);
-        } catch (error) {
-          if (error instanceof RasterError) throw new ApiError(STATUS_FOR[error.code], error.code, `file: ${error.message}`);
-          throw error;
-        }
-        const cells = raster.widthPx * raster.heightPx;
-        if (cells > config.maxRasterCells) {
-          throw new ApiError(413, 'raster_too_large', `file: the raster is ${raster.widthPx} × ${raster.heightPx} = ${cells} cells; the limit is ${config.maxRasterCells} cells (EARSHOT_MAX_RASTER_CELLS)`);
-        }
-        const box = raster.boundsLonLat;
-        if (!(box.west >= -180.5 && box.east <= 180.5 && box.south >= -90.5 && box.north <= 90.5 && box.west < box.east && box.south < box.north)) {
-          throw new ApiError(422, 'bad_georeferencing', `file: the georeferencing places the raster outside the Earth (${fmt(box)})`);
-        }
-        if (!(raster.resolutionM.x > 0.01 && raster.resolutionM.y > 0.01 && raster.resolutionM.x < 100_000 && raster.resolutionM.y < 100_000)) {
-          throw new ApiError(422, 'bad_georeferencing', `file: implausible pixel size ${raster.resolutionM.x.toFixed(3)} × ${raster.resolutionM.y.toFixed(3)} m`);
-        }
-        try {
-          await raster.verifyBlockExtents();
-        } catch (error) {
-          if (error instanceof RasterError) throw new ApiError(422, 'corrupt_raster', `file: ${error.message}`);
-          throw error;
-        }
-        await sampleBlocks(raster);
-        const extent = await planExtent(db, plan.id);
-        if (extent && !intersects(box, extent)) {
-          throw new ApiError(422, 'no_overlap', `file: the layer (${fmt(box)}) does not overlap the plan's sites, gateways and nodes (${fmt(extent)})`);
-        }
-        const info = raster;
-        const { row } = await createTerrainLayerWith(
-          db,
-          plan.id,
-          {
-            id: layerId,
-            kind,
-            name: options.data.name ?? `${kind === 'clutter' ? 'clutter' : 'elevation'} ${info.widthPx}×${info.heightPx}`,
-            filePath: relativePath,
-            fileBytes: BigInt(received.bytes),
-            sha256: received.sha256,
-            widthPx: info.widthPx,
-            heightPx: info.heightPx,
-            epsg: info.crs.epsg,
-            proj4: info.crs.proj4,
-            geoTransform: [...info.geoTransform],
-            west: box.west,
-            south: box.south,
-            east: box.east,
-            north: box.north,
-            resolutionM: Math.min(info.resolutionM.x, info.resolutionM.y),
-            noData: info.noData === null || Number.isNaN(info.noData) ? null : info.noData,
-            createdById: principal.userId,
-          },
-          (created) => ({ principal, action: 'create', entity: 'terrain_layer', entityId: created.id, detail: { planId: plan.id, kind, name: created.name, fileBytes: received.bytes, sha256: received.sha256 } }),
-          async () => {
-            await info.close();
-            raster = null;
-            await rename(tempPath, finalPath);
-            renamed = true;
-          },
-        );
-        dropRasters(plan.id);
-        return reply.status(201).send(terrainLayerDto(row));
-      } catch (error) {
-        if (renamed) await rm(finalPath, { force: true });
-        throw error;
-      } finally {
-        if (raster) await (raster as GeoRaster).close();
-        await rm(tempPath, { force: true });
-      }
+      const row = await storeTerrainUpload({ db, filesDir, maxUploadBytes: config.maxUploadBytes, maxRasterCells: config.maxRasterCells }, request, request.query, plan.id, principal);
+      dropRasters(plan.id);
+      return reply.status(201).send(terrainLayerDto(row));
     },
   );
 
@@ -405,6 +322,142 @@ export default async function terrainRoutes(app: FastifyInstance): Promise<void>
     }
     return reply.type('image/png').send(png);
   });
+}
+
+const adminUploadQuery = z.strictObject({
+  plan: id(),
+  kind: z.enum(['elevation', 'clutter'], { error: 'must be elevation or clutter' }).optional(),
+  name: name().optional(),
+});
+
+/**
+ * Loopback admin route for `earshot terrain upload` (server/cli/terrain.ts) while this server
+ * holds the data folder, registered inside server/api/routes/admin.ts (its loopback + local
+ * secret check guards it): POST /_admin/terrain-upload?plan=ID[&kind=][&name=] with the raw
+ * GeoTIFF body, stored exactly as the API route stores it; audited as done from the CLI.
+ */
+export async function terrainAdminRoutes(app: FastifyInstance): Promise<void> {
+  const api = app.withTypeProvider<ZodTypeProvider>();
+  const { db, config } = app.deps;
+  app.addContentTypeParser(['image/tiff', 'image/geotiff', 'application/octet-stream'], (_request, payload, done) => done(null, payload));
+  api.post('/terrain-upload', { schema: { hide: true, querystring: adminUploadQuery } }, async (request, reply) => {
+    const plan = await findPlanById(db, request.query.plan);
+    if (!plan) throw new ApiError(404, 'not_found', `--plan: no plan "${request.query.plan}" (earshot plans lists them)`);
+    const { kind, name: layerName } = request.query;
+    const row = await storeTerrainUpload(
+      { db, filesDir: config.filesDir, maxUploadBytes: config.maxUploadBytes, maxRasterCells: config.maxRasterCells },
+      request,
+      { ...(kind ? { kind } : {}), ...(layerName ? { name: layerName } : {}) },
+      plan.id,
+      { teamId: plan.teamId, userId: null, tokenId: null },
+    );
+    return reply.status(201).send(terrainLayerDto(row));
+  });
+}
+
+interface UploadTarget {
+  db: Database;
+  filesDir: string;
+  maxUploadBytes: number;
+  maxRasterCells: number;
+}
+
+/**
+ * Receives, checks and stores one GeoTIFF for a plan (the API route and the CLI's loopback
+ * route, `earshot terrain upload`): streamed to a temporary file, validated (TIFF,
+ * georeferencing, compression, size, tile table, a few decoded tiles, overlap with the plan),
+ * then row, audit entry and file move in one transaction. `query` holds kind and name.
+ */
+async function storeTerrainUpload(target: UploadTarget, request: FastifyRequest, query: unknown, planId: string, principal: AuditPrincipal): Promise<TerrainLayerRow> {
+  const { db, filesDir } = target;
+  const plan = { id: planId };
+  const config = target;
+  const planDir = join(filesDir, 'terrain', plan.id);
+  await mkdir(planDir, { recursive: true });
+  const tempPath = join(planDir, `.incoming-${randomUUID()}.tif`);
+  const layerId = randomUUID().replace(/-/g, '');
+  const relativePath = join('terrain', plan.id, `${layerId}.tif`);
+  const finalPath = join(filesDir, relativePath);
+  let raster: GeoRaster | null = null;
+  let renamed = false;
+  try {
+    const { received, fields } = await receiveUpload(request, tempPath, config.maxUploadBytes);
+    const options = uploadQuery.safeParse({ ...(query as Record<string, unknown>), ...fields });
+    if (!options.success) {
+      const issue = options.error.issues[0];
+      throw new ApiError(400, 'invalid_input', `${issue.path.join('.') || 'field'}: ${issue.message}`);
+    }
+    const kind = options.data.kind ?? 'elevation';
+    if (received.bytes === 0) throw new ApiError(400, 'empty_upload', 'file: the upload is empty; send a GeoTIFF');
+    if (!looksLikeTiff(received.head)) throw new ApiError(415, 'not_tiff', 'file: not a TIFF file (GeoTIFF expected: it starts with II*\\0 or MM\\0*)');
+    try {
+      raster = await openGeoRaster(tempPath);
+    } catch (error) {
+      if (error instanceof RasterError) throw new ApiError(STATUS_FOR[error.code], error.code, `file: ${error.message}`);
+      throw error;
+    }
+    const cells = raster.widthPx * raster.heightPx;
+    if (cells > config.maxRasterCells) {
+      throw new ApiError(413, 'raster_too_large', `file: the raster is ${raster.widthPx} × ${raster.heightPx} = ${cells} cells; the limit is ${config.maxRasterCells} cells (EARSHOT_MAX_RASTER_CELLS)`);
+    }
+    const box = raster.boundsLonLat;
+    if (!(box.west >= -180.5 && box.east <= 180.5 && box.south >= -90.5 && box.north <= 90.5 && box.west < box.east && box.south < box.north)) {
+      throw new ApiError(422, 'bad_georeferencing', `file: the georeferencing places the raster outside the Earth (${fmt(box)})`);
+    }
+    if (!(raster.resolutionM.x > 0.01 && raster.resolutionM.y > 0.01 && raster.resolutionM.x < 100_000 && raster.resolutionM.y < 100_000)) {
+      throw new ApiError(422, 'bad_georeferencing', `file: implausible pixel size ${raster.resolutionM.x.toFixed(3)} × ${raster.resolutionM.y.toFixed(3)} m`);
+    }
+    try {
+      await raster.verifyBlockExtents();
+    } catch (error) {
+      if (error instanceof RasterError) throw new ApiError(422, 'corrupt_raster', `file: ${error.message}`);
+      throw error;
+    }
+    await sampleBlocks(raster);
+    const extent = await planExtent(db, plan.id);
+    if (extent && !intersects(box, extent)) {
+      throw new ApiError(422, 'no_overlap', `file: the layer (${fmt(box)}) does not overlap the plan's sites, gateways and nodes (${fmt(extent)})`);
+    }
+    const info = raster;
+    const { row } = await createTerrainLayerWith(
+      db,
+      plan.id,
+      {
+        id: layerId,
+        kind,
+        name: options.data.name ?? `${kind === 'clutter' ? 'clutter' : 'elevation'} ${info.widthPx}×${info.heightPx}`,
+        filePath: relativePath,
+        fileBytes: BigInt(received.bytes),
+        sha256: received.sha256,
+        widthPx: info.widthPx,
+        heightPx: info.heightPx,
+        epsg: info.crs.epsg,
+        proj4: info.crs.proj4,
+        geoTransform: [...info.geoTransform],
+        west: box.west,
+        south: box.south,
+        east: box.east,
+        north: box.north,
+        resolutionM: Math.min(info.resolutionM.x, info.resolutionM.y),
+        noData: info.noData === null || Number.isNaN(info.noData) ? null : info.noData,
+        createdById: principal.userId ?? null,
+      },
+      (created) => ({ principal, action: 'create', entity: 'terrain_layer', entityId: created.id, detail: { planId: plan.id, kind, name: created.name, fileBytes: received.bytes, sha256: received.sha256 } }),
+      async () => {
+        await info.close();
+        raster = null;
+        await rename(tempPath, finalPath);
+        renamed = true;
+      },
+    );
+    return row;
+  } catch (error) {
+    if (renamed) await rm(finalPath, { force: true });
+    throw error;
+  } finally {
+    if (raster) await (raster as GeoRaster).close();
+    await rm(tempPath, { force: true });
+  }
 }
 
 /** Reads the upload (raw body or multipart with one file part) into `tempPath`; returns form fields too. */

@@ -24,6 +24,21 @@ export async function listPlanLinkRows(db: Database, planId: string): Promise<Li
   return db.prisma.link.findMany({ where: { planId }, select: { nodeId: true, gatewayId: true, inputHash: true, result: true } });
 }
 
+/**
+ * The path hash of every cached row of a plan, without the stored path: what the fleet
+ * needs up front to know which paths the cache lacks (a few dozen bytes a row, where a
+ * full row carries the whole path prediction).
+ */
+export async function listPlanLinkPathHashes(db: Database, planId: string): Promise<Array<{ nodeId: string; gatewayId: string; pathHash: string | null }>> {
+  return db.prisma.$queryRaw<Array<{ nodeId: string; gatewayId: string; pathHash: string | null }>>`SELECT "nodeId", "gatewayId", "result"->>'pathHash' AS "pathHash" FROM "Link" WHERE "planId" = ${planId}`;
+}
+
+/** Cached rows of some nodes of a plan (one page of the fleet). */
+export async function listLinkRowsForNodes(db: Database, planId: string, nodeIds: readonly string[]): Promise<LinkRow[]> {
+  if (nodeIds.length === 0) return [];
+  return db.prisma.link.findMany({ where: { planId, nodeId: { in: [...nodeIds] } }, select: { nodeId: true, gatewayId: true, inputHash: true, result: true } });
+}
+
 /** Rows per INSERT: 500 rows × 6 parameters stays far below PostgreSQL's 65 535 bind parameters. */
 const SAVE_CHUNK_ROWS = 500;
 
@@ -138,4 +153,14 @@ export async function nodeLinkFingerprint(db: Database, planId: string, nodeId: 
     (SELECT max("updatedAt") FROM "FeedlineType" WHERE "teamId" = ${teamId} OR "teamId" IS NULL) AS feedline_at,
     (SELECT count(*) FROM "FeedlineType" WHERE "teamId" = ${teamId} OR "teamId" IS NULL) AS feedlines`;
   return JSON.stringify(rows[0] ?? {}, (_key, value: unknown) => (typeof value === 'bigint' ? value.toString() : value));
+}
+
+/** Nodes of a plan by id (a tile of a link run), in the fleet table's order. */
+export async function listNodesByIds(db: Database, planId: string, ids: readonly string[]) {
+  return db.prisma.node.findMany({ where: { planId, id: { in: [...ids] } }, orderBy: [{ createdAt: 'asc' }, { id: 'asc' }] });
+}
+
+/** Cached rows of some nodes to some gateways (a tile of a link run). */
+export async function listLinkRowsFor(db: Database, planId: string, nodeIds: readonly string[], gatewayIds: readonly string[]): Promise<LinkRow[]> {
+  return db.prisma.link.findMany({ where: { planId, nodeId: { in: [...nodeIds] }, gatewayId: { in: [...gatewayIds] } }, select: { nodeId: true, gatewayId: true, inputHash: true, result: true } });
 }

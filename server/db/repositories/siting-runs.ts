@@ -5,6 +5,7 @@
 import type { Database } from '../client.ts';
 import type { Prisma } from '../generated/client.ts';
 import { pageWindow, toPage, type PageQuery } from './pagination.ts';
+import type { GatewayRow } from './gateways.ts';
 
 export type SitingRunRow = Awaited<ReturnType<Database['prisma']['sitingRun']['findFirstOrThrow']>>;
 
@@ -21,12 +22,28 @@ const withoutMatrix = {
   result: true,
   appliedAt: true,
   appliedGatewayIds: true,
+  removedGateways: true,
+  undoneAt: true,
   createdById: true,
   createdAt: true,
   startedAt: true,
   finishedAt: true,
 } as const;
-export type SitingRunSummaryRow = Omit<SitingRunRow, 'matrix'>;
+export type SitingRunSummaryRow = Omit<SitingRunRow, 'matrix' | 'matrixMeets' | 'matrixMarginCdB'>;
+
+/** A stored matrix: its JSON part and, for runs stored since the packed format, its two byte columns. */
+export interface StoredSitingMatrix {
+  matrix: unknown;
+  meetsBits: Uint8Array | null;
+  marginCdB: Uint8Array | null;
+}
+
+const matrixColumns = { matrix: true, matrixMeets: true, matrixMarginCdB: true } as const;
+
+function stored(row: { matrix: unknown; matrixMeets: Uint8Array | null; matrixMarginCdB: Uint8Array | null } | null): StoredSitingMatrix | null {
+  if (!row || row.matrix === null) return null;
+  return { matrix: row.matrix, meetsBits: row.matrixMeets ? new Uint8Array(row.matrixMeets) : null, marginCdB: row.matrixMarginCdB ? new Uint8Array(row.matrixMarginCdB) : null };
+}
 
 export async function createSitingRun(db: Database, planId: string, input: { params: unknown; planFingerprint: string; createdById: string | null }): Promise<SitingRunSummaryRow> {
   return db.prisma.sitingRun.create({ data: { planId, params: input.params as Prisma.InputJsonValue, planFingerprint: input.planFingerprint, createdById: input.createdById, status: 'queued' }, select: withoutMatrix });
@@ -40,15 +57,13 @@ export async function findSitingRunById(db: Database, id: string): Promise<Sitin
   return db.prisma.sitingRun.findFirst({ where: { id }, select: withoutMatrix });
 }
 
-export async function findSitingMatrix(db: Database, planId: string, id: string): Promise<unknown> {
-  const row = await db.prisma.sitingRun.findFirst({ where: { id, planId }, select: { matrix: true } });
-  return row?.matrix ?? null;
+export async function findSitingMatrix(db: Database, planId: string, id: string): Promise<StoredSitingMatrix | null> {
+  return stored(await db.prisma.sitingRun.findFirst({ where: { id, planId }, select: matrixColumns }));
 }
 
 /** A matrix an earlier run of the plan computed from the same inputs (the cache by input hash). */
-export async function findCachedMatrix(db: Database, planId: string, matrixHash: string): Promise<unknown> {
-  const row = await db.prisma.sitingRun.findFirst({ where: { planId, matrixHash }, orderBy: { createdAt: 'desc' }, select: { matrix: true } });
-  return row?.matrix ?? null;
+export async function findCachedMatrix(db: Database, planId: string, matrixHash: string): Promise<StoredSitingMatrix | null> {
+  return stored(await db.prisma.sitingRun.findFirst({ where: { planId, matrixHash }, orderBy: { createdAt: 'desc' }, select: matrixColumns }));
 }
 
 export async function listSitingRuns(db: Database, planId: string, query: PageQuery) {
@@ -70,8 +85,11 @@ export async function reportSitingProgress(db: Database, id: string, progress: n
 }
 
 /** Keeps the matrix as soon as it exists (so a failed solve still leaves it cached). */
-export async function saveSitingMatrix(db: Database, id: string, matrixHash: string, matrix: unknown): Promise<void> {
-  await db.prisma.sitingRun.updateMany({ where: { id }, data: { matrixHash, matrix: matrix as Prisma.InputJsonValue } });
+export async function saveSitingMatrix(db: Database, id: string, matrixHash: string, matrix: { meta: unknown; meetsBits: Uint8Array; marginCdB: Uint8Array }): Promise<void> {
+  await db.prisma.sitingRun.updateMany({
+    where: { id },
+    data: { matrixHash, matrix: matrix.meta as Prisma.InputJsonValue, matrixMeets: new Uint8Array(matrix.meetsBits), matrixMarginCdB: new Uint8Array(matrix.marginCdB) },
+  });
 }
 
 export async function completeSitingRun(db: Database, id: string, result: unknown): Promise<boolean> {
@@ -92,6 +110,51 @@ export async function cancelSitingRun(db: Database, planId: string, id: string):
 /** done and not yet applied → applied with the gateways made; false when applied already. */
 export async function markSitingApplied(db: Database, id: string, gatewayIds: string[]): Promise<boolean> {
   const { count } = await db.prisma.sitingRun.updateMany({ where: { id, status: 'done', appliedAt: null }, data: { appliedAt: new Date(), appliedGatewayIds: gatewayIds } });
+  return count === 1;
+}
+
+/** A gateway apply removed, as it was: its row and the field readings that named it (undo puts both back). */
+export interface RemovedGateway {
+  row: GatewayRow;
+  fieldReadingIds: string[];
+}
+
+/**
+ * keepExistingGateways false: removes the plan's gateways the answer did not keep, remembering each
+ * row and the field readings that named it (their gatewayId becomes null as the schema's SetNull does).
+ */
+export async function removeGatewaysForSiting(db: Database, planId: string, gatewayIds: readonly string[]): Promise<RemovedGateway[]> {
+  const removed: RemovedGateway[] = [];
+  for (const id of gatewayIds) {
+    const row = await db.prisma.gateway.findFirst({ where: { id, planId } });
+    if (!row) continue;
+    const readings = await db.prisma.fieldReading.findMany({ where: { planId, gatewayId: id }, select: { id: true } });
+    await db.prisma.gateway.deleteMany({ where: { id, planId } });
+    removed.push({ row, fieldReadingIds: readings.map((r) => r.id) });
+  }
+  return removed;
+}
+
+/** Undo of an apply: deletes the gateways it created, restores the ones it removed (same ids and fields) and their readings' gateway. */
+export async function restoreGatewaysForSiting(db: Database, planId: string, createdIds: readonly string[], removed: readonly RemovedGateway[]): Promise<void> {
+  await db.prisma.gateway.deleteMany({ where: { planId, id: { in: [...createdIds] } } });
+  for (const entry of removed) {
+    const { row } = entry;
+    // The site may have been deleted since; the gateway comes back without it then (as SetNull would have left it).
+    const siteId = row.siteId && (await db.prisma.site.findFirst({ where: { id: row.siteId, planId }, select: { id: true } })) ? row.siteId : null;
+    await db.prisma.gateway.create({ data: { ...row, siteId, planId, createdAt: new Date(row.createdAt), updatedAt: new Date() } });
+    if (entry.fieldReadingIds.length > 0) await db.prisma.fieldReading.updateMany({ where: { planId, id: { in: entry.fieldReadingIds }, gatewayId: null }, data: { gatewayId: row.id } });
+  }
+}
+
+/** applied → applied with the removed gateways remembered. */
+export async function recordSitingRemoved(db: Database, id: string, removed: readonly RemovedGateway[]): Promise<void> {
+  await db.prisma.sitingRun.updateMany({ where: { id }, data: { removedGateways: removed as unknown as Prisma.InputJsonValue } });
+}
+
+/** applied and not undone → undone; false when it was not applied or is undone already. */
+export async function markSitingUndone(db: Database, id: string): Promise<boolean> {
+  const { count } = await db.prisma.sitingRun.updateMany({ where: { id, appliedAt: { not: null }, undoneAt: null }, data: { undoneAt: new Date() } });
   return count === 1;
 }
 

@@ -7,7 +7,8 @@ import { deflateSync } from 'node:zlib';
 import { crc32, decodePng, encodePng } from '../../../server/terrain/png.ts';
 import { describe, expect, it } from 'vitest';
 import { csvField, csvLines, csvRecord } from '../../../server/report/csv.ts';
-import { billOfMaterials, endKitCostUsd, type PriceCatalog, type PricedEnd } from '../../../server/report/bom.ts';
+import { billOfMaterials, type PricedEnd } from '../../../server/report/bom.ts';
+import { kitPrice } from '../../../server/planning/kit-price.ts';
 import { composeMapImage, fitView, lonLatToGlobalPx, paddedBox, viewPx } from '../../../server/report/map.ts';
 import { geoJsonChunks, kmlChunks, xmlText } from '../../../server/report/features.ts';
 import { kmlColour, STATUS_STYLE } from '../../../server/report/style.ts';
@@ -40,30 +41,41 @@ describe('CSV (RFC 4180 §2)', () => {
 });
 
 describe('bill of materials', () => {
-  const catalog: PriceCatalog = {
-    antennas: new Map([['a1', { name: 'Whip', costUsd: 10 }], ['a2', { name: 'Collinear', costUsd: 100 }]]),
-    feedlines: new Map([['f1', { name: 'Coax', costUsdPerM: 2.5 }]]),
-    masts: new Map([['m1', { name: 'Pole', costUsd: 70 }]]),
-    connectors: new Map([['n-type', { name: 'N pair', costUsd: 12 }], ['surge-arrestor', { name: 'Arrestor', costUsd: 45 }]]),
-  };
+  // Every end arrives priced by the one kit price (server/planning/kit-price.ts); the bill only sums it.
+  const whip = { name: 'Whip', costUsd: 10 };
+  const coax = { name: 'Coax', costUsdPerM: 2.5 };
+  const pair = { name: 'N pair', costUsd: 12 };
+  const n1 = kitPrice({ antenna: whip, mast: null, feedline: null, feedlineLengthM: 0, connectors: [] });
+  const n2 = kitPrice({ antenna: whip, mast: { name: 'Pole', costUsd: 70 }, feedline: coax, feedlineLengthM: 4, connectors: [{ ...pair, count: 2 }] });
+  const n3 = kitPrice({ antenna: { name: 'Ghost', costUsd: 0 }, mast: null, feedline: null, feedlineLengthM: 0, connectors: [{ name: 'Odd plug', costUsd: undefined, count: 1 }] });
+  const g1 = kitPrice({ antenna: { name: 'Collinear', costUsd: 100 }, mast: null, feedline: coax, feedlineLengthM: 20, connectors: [{ ...pair, count: 2 }, { name: 'Arrestor', costUsd: 45, count: 1 }] });
   const ends: PricedEnd[] = [
-    { kind: 'node', id: 'n1', name: 'N1', antennaDesignId: 'a1', feedlineId: null, feedlineLengthM: 0, mastOptionId: null, connectors: [] },
-    { kind: 'node', id: 'n2', name: 'N2', antennaDesignId: 'a1', feedlineId: 'f1', feedlineLengthM: 4, mastOptionId: 'm1', connectors: [{ id: 'n-type', count: 2 }] },
-    { kind: 'node', id: 'n3', name: 'N3', antennaDesignId: 'ghost', feedlineId: null, feedlineLengthM: 0, mastOptionId: null, connectors: [] },
-    { kind: 'gateway', id: 'g1', name: 'G1', antennaDesignId: 'a2', feedlineId: 'f1', feedlineLengthM: 20, mastOptionId: null, siteId: 's1', connectors: [{ id: 'n-type', count: 2 }, { id: 'surge-arrestor', count: 1 }] },
+    { kind: 'node', id: 'n1', name: 'N1', price: n1 },
+    { kind: 'node', id: 'n2', name: 'N2', price: n2 },
+    { kind: 'node', id: 'n3', name: 'N3', price: n3 },
+    { kind: 'gateway', id: 'g1', name: 'G1', price: g1, siteId: 's1' },
   ];
-  const bom = billOfMaterials(ends, catalog, { gatewayUnitCostUsd: 600, sites: [{ id: 's1', name: 'Silo', costUsd: 400 }, { id: 's2', name: 'Unused', costUsd: 999 }] });
-  it('sums by hand: kit 10 + (10 + 70 + 2.5·4) + 0 + (100 + 2.5·20) = 250 USD', () => {
-    expect(bom.kitCostUsd).toBe(250);
+  const bom = billOfMaterials(ends, { gatewayUnitCostUsd: 600, sites: [{ id: 's1', name: 'Silo', costUsd: 400 }, { id: 's2', name: 'Unused', costUsd: 999 }] });
+  it('sums by hand: nodes 10 + (10 + 70 + 2.5·4 + 2·12) + 0 = 124, gateway 100 + 2.5·20 + 2·12 + 45 = 219 USD', () => {
+    expect(n2.totalUsd).toBe(kitCostUsd(10, 70, 2.5, 4) + 24);
+    expect(bom.nodeKitCostUsd).toBe(124);
+    expect(bom.gatewayKitCostUsd).toBe(219);
+    expect(bom.kitCostUsd).toBe(343);
     expect(bom.totalsUsd.connector).toBe(4 * 12 + 45);
     expect(bom.totalsUsd.gateway).toBe(600);
     expect(bom.totalsUsd.site).toBe(400);
-    expect(bom.totalUsd).toBe(250 + 93 + 600 + 400);
-    expect(bom.lines.find((l) => l.itemId === 'f1')).toMatchObject({ quantity: 24, unit: 'm', costUsd: 60 });
-    expect(bom.unpriced).toEqual(['antenna ghost']);
+    expect(bom.totalUsd).toBe(343 + 600 + 400);
   });
-  it('each end’s kit price is the recommendation’s kit price', () => {
-    expect(endKitCostUsd(ends[1], catalog)).toBe(kitCostUsd(10, 70, 2.5, 4));
+  it('lists items by name, one line per catalog item, quantities summed', () => {
+    expect(bom.lines.find((l) => l.name === 'Coax')).toMatchObject({ category: 'feedline', quantity: 24, unit: 'm', unitCostUsd: 2.5, costUsd: 60 });
+    expect(bom.lines.find((l) => l.name === 'Whip')).toMatchObject({ category: 'antenna', quantity: 2, unitCostUsd: 10, costUsd: 20 });
+    expect(bom.lines.find((l) => l.name === 'N pair')).toMatchObject({ category: 'connector', quantity: 4, costUsd: 48 });
+    expect(bom.lines.map((l) => l.name)).not.toContain('Site works: Unused');
+    expect(bom.unpriced).toEqual(['Odd plug']);
+  });
+  it('equals the sum of the line costs (nothing priced twice or dropped)', () => {
+    const sum = bom.lines.reduce((acc, l) => acc + l.costUsd, 0);
+    expect(Math.round(sum * 100) / 100).toBe(bom.totalUsd);
   });
 });
 

@@ -64,10 +64,15 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
       { value: 'fast', label: 'fast: Bullington diffraction + free space + clutter' },
       { value: 'full', label: 'full: ITU-R P.1812 for every cell (slow)' },
     ],
-    'fast',
+    defaultMode(store.plan.propagationMethod),
     { id: 'coverage-mode' },
   );
-  const radius = h('input', { id: 'coverage-radius', type: 'number', min: '0.5', max: '100', step: '0.5', value: '5' });
+  const radiusKey = `earshot.coverage-radius.${store.planId}`;
+  const radius = h('input', { id: 'coverage-radius', type: 'number', min: '0.5', max: '100', step: '0.5', value: keptRadius(radiusKey) ?? '5' });
+  // The radius is kept per plan across reloads (the rest follows the plan and its nodes).
+  radius.addEventListener('change', () => {
+    if (rangeProblem('Radius (km)', radius) === null) safeStorage()?.setItem(radiusKey, radius.value);
+  });
   // The node kit every cell is drawn for: the same fields as a node (antenna, height, power, feedline, environment).
   const antennas = store.catalog.antennas;
   const nodeAntenna = select(
@@ -124,9 +129,47 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
   );
   panel.append(form, runBox, overlayBox);
 
+  // ---------- freshness: is the overlay on the map still what the plan would give? ----------
+  const staleBox = h('div', { id: 'coverage-freshness', 'aria-live': 'polite' });
+  const staleBadge = h('div', { class: 'map-badge stale-badge', id: 'coverage-stale-badge', hidden: true }, 'Coverage overlay out of date');
+  const BadgeControl = L.Control.extend({ onAdd: () => staleBadge });
+  const badgeControl = new BadgeControl({ position: 'topright' });
+  badgeControl.addTo(map);
+  /** The run the overlay shows and the plan's inputs when it was put on the map. */
+  let shown: { run: CoverageRun; inputs: string } | null = null;
+  const markFreshness = (): void => {
+    if (!shown) {
+      staleBox.replaceChildren();
+      staleBadge.hidden = true;
+      return;
+    }
+    const reason = staleReason(store, shown.run, shown.inputs);
+    staleBadge.hidden = reason === null;
+    overlay?.getContainer()?.classList.toggle('coverage-stale', reason !== null);
+    staleBox.replaceChildren(
+      reason === null
+        ? h('p', { class: 'muted small', id: 'coverage-fresh' }, 'The overlay matches the plan as it is now.')
+        : notice('warn', h('span', { id: 'coverage-stale' }, `Out of date: ${reason}. `), canEdit() ? 'Start a new run to see the coverage the plan gives now.' : 'A planner can start a new run.'),
+    );
+  };
+  /** The gateway list follows the plan (a gateway added or renamed on the map). */
+  const refreshGateways = (): void => {
+    const keep = gw.value;
+    gw.replaceChildren(
+      h('option', { value: '' }, `All gateways: composite (${store.gateways.length})`),
+      ...store.gateways.map((g) => h('option', { value: g.id }, g.name)),
+    );
+    gw.value = store.gateways.some((g) => g.id === keep) ? keep : '';
+  };
+  const unsubscribe = store.onChange(() => {
+    refreshGateways();
+    markFreshness();
+  });
+
   const showOverlay = async (run: CoverageRun): Promise<void> => {
     clear(overlayBox);
     if (overlay) map.removeLayer(overlay);
+    shown = { run, inputs: planInputs(store) };
     overlay = L.tileLayer(coverageTileUrl(store.planId, run.id), { opacity, maxZoom: 18, zIndex: 10, className: 'coverage-tiles' });
     overlay.addTo(map);
     const show = h('input', { type: 'checkbox', id: 'coverage-show' });
@@ -145,6 +188,7 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
     const composite = run.gatewayIds.length > 1;
     overlayBox.append(
       ...present<HTMLElement>(
+        staleBox,
         h('label', { class: 'toggle' }, show, composite ? 'Show coverage overlay (best server margin)' : 'Show coverage overlay (margin)'),
         field('Overlay opacity', range),
         legendBox,
@@ -161,6 +205,7 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
         ),
       ),
     );
+    markFreshness();
     try {
       const legend = await getCoverageLegend();
       legendBox.append(
@@ -323,9 +368,56 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
 
   return () => {
     stopped = true;
+    unsubscribe();
+    badgeControl.remove();
     closeSource();
     window.clearTimeout(timer);
   };
+}
+
+/** What a coverage run depends on, as this tab holds it: the plan settings, every gateway and node. */
+function planInputs(store: PlanStore): string {
+  const list = (items: ReadonlyArray<{ id: string; version: number }>): string => items.map((e) => `${e.id}:${e.version}`).join(',');
+  return `plan:${store.plan.version}|g:${list(store.gateways)}|n:${list(store.nodes)}`;
+}
+
+const after = (stamp: unknown, runCreatedAt: string): boolean => typeof stamp === 'string' && Date.parse(stamp) > Date.parse(runCreatedAt);
+
+/**
+ * Why a finished run no longer shows the plan, or null: a gateway of the run was deleted or
+ * changed, the set of gateways of a composite changed, the plan settings or the nodes (whose
+ * counts the summary gives) changed after the run was started — by timestamps for edits made
+ * before this page was opened, and by versions for any made since (deletions included).
+ */
+export function staleReason(store: PlanStore, run: CoverageRun, inputsWhenShown: string): string | null {
+  const byId = new Map(store.gateways.map((g) => [g.id, g]));
+  const gone = run.gatewayIds.filter((id) => !byId.has(id));
+  if (gone.length > 0) return `${gone.length === 1 ? 'a gateway of this run was' : `${gone.length} gateways of this run were`} deleted`;
+  const changed = run.gatewayIds.map((id) => byId.get(id)).filter((g) => g && after(g.updatedAt, run.createdAt));
+  if (changed.length > 0) return `gateway ${changed.map((g) => g?.name).join(', ')} changed after this run`;
+  if (run.gatewayIds.length > 1 && store.gateways.length !== run.gatewayIds.length) return 'gateways were added since this composite run';
+  if (after(store.plan.updatedAt, run.createdAt)) return 'the plan settings changed after this run';
+  if (store.nodes.some((n) => after(n.updatedAt, run.createdAt))) return 'nodes changed after this run (its node counts are old)';
+  if (planInputs(store) !== inputsWhenShown) return 'the plan was edited since this overlay was drawn';
+  return null;
+}
+
+/** The coverage method that matches the plan's own: full P.1812 when the plan predicts with it. */
+function defaultMode(method: unknown): 'fast' | 'full' {
+  return method === 'p1812' ? 'full' : 'fast';
+}
+
+function safeStorage(): Storage | null {
+  try {
+    return window.localStorage;
+  } catch {
+    return null;
+  }
+}
+
+function keptRadius(key: string): string | null {
+  const value = safeStorage()?.getItem(key) ?? null;
+  return value !== null && Number.isFinite(Number(value)) && Number(value) > 0 ? value : null;
 }
 
 function summaryOf(run: CoverageRun): HTMLElement | null {

@@ -4,12 +4,13 @@ import { isAbort } from '../api.ts';
 import { previewGatewayCheck, type CautionGroup, type GatewayCheck, type GatewayKitDraft } from '../api-gateways.ts';
 import { errorText, fmt, h, notice } from '../ui.ts';
 
-export function cautionGroups(groups: readonly CautionGroup[], footer: string, id?: string): HTMLElement | null {
+/** Fitted cautions, grouped by topic (server/planning/cautions.ts); only the footer when none apply. */
+export function cautionGroups(groups: readonly CautionGroup[], footer: string, id?: string, title = '⚠ Cautions'): HTMLElement {
   if (groups.length === 0) return h('p', { class: 'muted small', id }, footer);
   return h(
     'section',
     { class: 'cautions fitted', 'aria-label': 'Cautions for this change', id },
-    h('h3', {}, '⚠ Cautions'),
+    h('h3', {}, title),
     ...groups.map((g) => h('div', { class: 'caution-group' }, h('strong', {}, `${g.topic}: `), g.items.join(' '))),
     h('p', { class: 'muted small' }, footer),
   );

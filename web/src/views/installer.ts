@@ -8,6 +8,7 @@ import { explainWriteError, PlanStore } from '../plan-store.ts';
 import type { Route } from '../router.ts';
 import { planHash } from '../router.ts';
 import { canRecordReadings } from '../session.ts';
+import { cautionGroups } from './gateway-check.ts';
 import { announce, cautionsBlock, coords, db, dbm, distance, errorText, field, h, metres, money, notice, percent, select } from '../ui.ts';
 import { nodeSymbolSvg, statusStyle, symbolElement } from '../symbols.ts';
 import { kitLabel } from './node-panel.ts';
@@ -243,7 +244,8 @@ function renderSheet(main: HTMLElement, store: PlanStore, sheet: VisitSheet): vo
     );
   }
   if (sheet.warnings.length) main.append(notice('info', sheet.warnings.join(' ')));
-  main.append(cautionsBlock(sheet.cautions));
+  // Fitted to this node's job (a 1 m soil probe gets no mast list); older servers: the general list.
+  main.append(sheet.fittedCautions ? cautionGroups(sheet.fittedCautions, sheet.cautionsFooter ?? '', 'install-cautions', '⚠ Cautions for this visit') : cautionsBlock(sheet.cautions));
 }
 
 function renderReadingForm(main: HTMLElement, store: PlanStore, node: FleetNode): { useSheet(sheet: VisitSheet): void } | null {

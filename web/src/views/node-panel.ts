@@ -24,6 +24,7 @@ import { planHash } from '../router.ts';
 import { canEdit } from '../session.ts';
 import { announce, cautionsBlock, clear, coords, db, dbm, distance, errorText, field, fmt, h, metres, money, notice, percent, present, select } from '../ui.ts';
 import { nodeSymbolSvg, statusStyle, symbolElement, type NodeClass } from '../symbols.ts';
+import { cautionGroups } from './gateway-check.ts';
 import { obstructionSpans, profileChart, profileKey, profileSeries } from './profile-chart.ts';
 
 interface Actions {
@@ -55,8 +56,8 @@ export function kitLabel(store: PlanStore, kit: { antennaDesignId?: string | nul
 export async function renderNodePanel(panel: HTMLElement, store: PlanStore, node: FleetNode, actions: Actions, signal: AbortSignal = new AbortController().signal): Promise<void> {
   const status: NodeClass = store.fleet.get(node.id)?.status ?? 'unknown';
   panel.append(
-    h('h2', { id: 'node-panel-title' }, symbolElement(nodeSymbolSvg(status, 18), ''), ` Node ${node.name}`),
-    h('p', { class: `status-line status-${status}` }, statusStyle[status].label),
+    h('h2', { id: 'node-panel-title', 'data-status': status }, symbolElement(nodeSymbolSvg(status, 18), ''), ` Node ${node.name}`),
+    h('p', { class: `status-line status-${status}`, id: 'node-status-line' }, statusStyle[status].label),
     h(
       'dl',
       { class: 'facts' },
@@ -84,7 +85,7 @@ export async function renderNodePanel(panel: HTMLElement, store: PlanStore, node
   const profileBox = h('section', { class: 'subpanel', 'aria-labelledby': 'profile-h' }, h('h3', { id: 'profile-h' }, 'Path profile (best link)'), h('p', { class: 'muted' }, 'Loading…'));
   const kitBox = h('section', { class: 'subpanel', 'aria-labelledby': 'kit-h' });
   const recBox = h('section', { class: 'subpanel', 'aria-labelledby': 'rec-h' }, h('h3', { id: 'rec-h' }, 'Recommended kit'), h('p', { class: 'muted' }, 'Searching the catalog…'));
-  const cautionsBox = h('div', {}, cautionsBlock());
+  const cautionsBox = h('div', {}, h('p', { class: 'muted small' }, 'Cautions for this node follow its link check…'));
   const readingsBox = h('section', { class: 'subpanel', 'aria-labelledby': 'node-readings-h' });
   panel.append(linksBox, profileBox, kitBox, recBox, readingsBox, cautionsBox);
   renderNodeReadings(readingsBox, store, node.id, signal);
@@ -104,7 +105,12 @@ export async function renderNodePanel(panel: HTMLElement, store: PlanStore, node
   await Promise.all([
     settle(
       getNodeLinks(store.planId, node.id, undefined, signal),
-      (links) => renderLinks(linksBox, store, links),
+      (links) => {
+        renderLinks(linksBox, store, links);
+        // The links just predicted carry the node's status (same server rule as the fleet
+        // table, which may still be recomputing after an edit): the heading agrees with them.
+        showNodeStatus(panel, links.status);
+      },
       (err) => {
         clear(linksBox);
         linksBox.append(h('h3', { id: 'links-h' }, 'Links to gateways'), notAvailable(err, 'Link prediction'));
@@ -114,7 +120,8 @@ export async function renderNodePanel(panel: HTMLElement, store: PlanStore, node
       getLinkCheck(store.planId, node.id, signal),
       (check) => {
         renderProfile(profileBox, check);
-        cautionsBox.replaceChildren(cautionsBlock(check.cautions));
+        // Fitted to this node (a 1 m soil probe gets no mast list); older servers: the general list.
+        cautionsBox.replaceChildren(check.fittedCautions ? cautionGroups(check.fittedCautions, check.cautionsFooter ?? '', 'node-cautions', '⚠ Cautions for this node') : cautionsBlock(check.cautions));
       },
       (err) => {
         clear(profileBox);
@@ -130,6 +137,17 @@ export async function renderNodePanel(panel: HTMLElement, store: PlanStore, node
       },
     ),
   ]);
+}
+
+/** Puts a node's status in the open panel's heading and status line (no re-render). */
+export function showNodeStatus(panel: HTMLElement, status: NodeClass): void {
+  const title = panel.querySelector<HTMLElement>('#node-panel-title');
+  const line = panel.querySelector<HTMLElement>('#node-status-line');
+  if (!title || !line || title.dataset.status === status) return;
+  title.dataset.status = status;
+  title.querySelector('.symbol')?.replaceWith(symbolElement(nodeSymbolSvg(status, 18), ''));
+  line.className = `status-line status-${status}`;
+  line.textContent = statusStyle[status].label;
 }
 
 function gatewayName(store: PlanStore, id: string): string {
@@ -387,6 +405,7 @@ function renderRecommendation(box: HTMLElement, store: PlanStore, rec: Recommend
     );
   }
   box.append(list);
+  if (rec.fittedCautions) box.append(cautionGroups(rec.fittedCautions, rec.cautionsFooter ?? '', 'rec-cautions', '⚠ Cautions for the first option'));
 }
 
 /** Puts a recommended option into the kit chooser's controls (which then predict it). */

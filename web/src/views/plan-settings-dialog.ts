@@ -8,7 +8,7 @@ import { announce, field, h, openDialog, select } from '../ui.ts';
 import { applyRange, rangeProblem } from '../ranges.ts';
 
 /** What each propagation method id means, in our words (ids from the server's list). */
-const methodLabels: Record<string, string> = {
+export const methodLabels: Record<string, string> = {
   p1812: 'ITU-R P.1812 (path-specific, terrain and clutter)',
   bullington: 'Bullington diffraction over terrain',
   'knife-edge': 'single knife-edge diffraction',

@@ -4,8 +4,8 @@
 // they serve, the nodes no candidate hears and why, before/after counts; and
 // apply the answer (creates the gateways; undo deletes them again).
 import * as L from 'leaflet';
-import { deleteEntity, getFleet, hillshadeTileUrl, listEntities, type FleetNode } from '../api.ts';
-import { applySiting, cancelSiting, getSiting, startSiting, type SitingResult, type SitingRun } from '../api-siting.ts';
+import { getFleet, hillshadeTileUrl, listEntities, type FleetNode } from '../api.ts';
+import { applySiting, cancelSiting, getSiting, startSiting, undoSiting, type SitingResult, type SitingRun } from '../api-siting.ts';
 import type { Route } from '../router.ts';
 import { planHash } from '../router.ts';
 import { canEdit } from '../session.ts';
@@ -67,7 +67,7 @@ export async function renderSiting(main: HTMLElement, route: Route): Promise<() 
     field('Optimise for', objective),
     field('Use the plan’s candidate sites', useSites),
     field('Terrain high points to add', terrainPoints, 'Highest local points of the terrain inside the fleet’s area, 500 m apart.'),
-    field('Keep existing gateways', keepExisting),
+    field('Keep existing gateways', keepExisting, 'Ticked: the plan’s gateways stay and the optimiser adds to them. Unticked: start over — existing gateways are candidates like the others (no cost, they are built), and applying removes the ones the answer drops (undo puts them back).'),
     field('Budget (USD, optional)', budget, 'With a budget or a gateway limit the optimiser covers as many nodes as it can within it.'),
     field('At most this many gateways (optional)', maxGateways),
     run,
@@ -169,6 +169,7 @@ export async function renderSiting(main: HTMLElement, route: Route): Promise<() 
         ? `no answer: ${result.message ?? 'the rules cannot all be met'}`
         : `best found in the time limit (gap ${result.gapPercent ?? '?'} %), ${result.solver}`;
     const newSites = result.selected.filter((s) => !s.kept);
+    const dropped = result.removed ?? [];
     out.append(
       h(
         'section',
@@ -177,6 +178,7 @@ export async function renderSiting(main: HTMLElement, route: Route): Promise<() 
         h('p', {}, `Covers ${result.coveredNodeIds.length} of ${result.nodesTotal} nodes (${result.nodesCoverable} can be heard by some candidate) with each heard by ${result.requiredGateways}; ${proof}.`),
         h('p', { class: 'muted' }, `Greedy choice for comparison: ${result.greedy.gateways} gateway(s), ${money(result.greedy.costUsd)}. Matrix: ${result.matrix.nodes} nodes × ${result.matrix.candidates} candidates, ${result.matrix.pairsPredicted} links predicted${result.matrix.cached ? ' (reused)' : ` in ${result.matrix.seconds.toFixed(1)} s`}.`),
         h('p', { id: 'siting-before-after' }, `Gateways before: ${result.before.gateways}; after applying: ${result.after.gateways}.`),
+        ...(dropped.length > 0 ? [h('p', { id: 'siting-removed' }, `Applying removes ${dropped.length} existing gateway(s) the answer does not keep: ${dropped.map((g) => g.name).join(', ')}.`)] : []),
         ...result.warnings.slice(0, 5).map((w) => h('p', { class: 'warn-text' }, w)),
       ),
     );
@@ -219,8 +221,8 @@ export async function renderSiting(main: HTMLElement, route: Route): Promise<() 
     out.append(applyBox);
     const showApply = (): void => {
       clear(applyBox);
-      if (newSites.length === 0 || result.status === 'infeasible') return;
-      const apply = h('button', { type: 'button', id: 'siting-apply' }, `Create ${newSites.length} gateway(s)`);
+      if ((newSites.length === 0 && dropped.length === 0) || result.status === 'infeasible') return;
+      const apply = h('button', { type: 'button', id: 'siting-apply' }, dropped.length > 0 ? `Create ${newSites.length} gateway(s), remove ${dropped.length}` : `Create ${newSites.length} gateway(s)`);
       apply.addEventListener('click', () => {
         void (async () => {
           apply.setAttribute('disabled', '');
@@ -230,16 +232,17 @@ export async function renderSiting(main: HTMLElement, route: Route): Promise<() 
             const after = await getFleet(planId).catch(() => null);
             clear(applyBox);
             const counts = (f: typeof before) => (f?.counts ? `${f.counts.served ?? 0} served, ${f.counts.marginal ?? 0} marginal, ${f.counts.unserved ?? 0} unserved` : 'unknown');
-            const undo = h('button', { type: 'button', id: 'siting-undo' }, 'Undo (delete these gateways)');
-            applyBox.append(notice('ok', `Created ${made.gatewayIds.length} gateway(s). Fleet before: ${counts(before)}; now: ${counts(after)}.`), undo);
+            const undo = h('button', { type: 'button', id: 'siting-undo' }, made.removedGatewayIds.length > 0 ? 'Undo (delete these gateways, restore the removed ones)' : 'Undo (delete these gateways)');
+            const removedText = made.removedGatewayIds.length > 0 ? ` Removed ${made.removedGatewayIds.length} existing gateway(s).` : '';
+            applyBox.append(notice('ok', `Created ${made.gatewayIds.length} gateway(s).${removedText} Fleet before: ${counts(before)}; now: ${counts(after)}.`), undo);
             announce(`Created ${made.gatewayIds.length} gateways`);
             undo.addEventListener('click', () => {
               void (async () => {
                 undo.setAttribute('disabled', '');
                 try {
-                  for (const id of made.gatewayIds) await deleteEntity(planId, 'gateways', id);
+                  await undoSiting(planId, state.id);
                   clear(applyBox);
-                  applyBox.append(notice('info', 'The created gateways were deleted again; run the optimiser again to apply an answer.'));
+                  applyBox.append(notice('info', 'The created gateways were deleted again and any removed ones restored; run the optimiser again to apply an answer.'));
                 } catch (err) {
                   applyBox.append(notice('error', `Undo failed: ${errorText(err)}`));
                 }
