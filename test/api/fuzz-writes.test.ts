@@ -52,7 +52,7 @@ function deep(levels: number): unknown {
 }
 
 const hostileStrings = ['\u0000', 'a\u0000b', 'x\u0007y', '\u202ename', '\uFEFF', '\uD800', '𝔘𝔫𝔦', '', ' ', '../../etc/passwd', "'; DROP TABLE \"Plan\"; --", '%00', 'x'.repeat(20_000), '1e309', 'NaN', '0x10'];
-const hostileNumbers = [-0, 1e308, -1e308, 2147483647, 2147483648, -2147483649, 9007199254740993, 2 ** 63, 1e-320, 0.1, -1, 1e300];
+const hostileNumbers = [-0, 1e308, -1e308, 2147483647, 2147483648, -2147483649, 2 ** 53 + 2, 2 ** 63, 1e-320, 0.1, -1, 1e300];
 const hostileValue = fc.oneof(
   fc.constantFrom<unknown>(...hostileStrings, ...hostileNumbers, true, false, null, [], {}, deep(40), deep(2000), { __proto__: { admin: true } }, [null], ['\u0000']),
   fc.string({ unit: 'binary', maxLength: 40 }),
@@ -154,7 +154,7 @@ function errorShaped(status: number, body: string): boolean {
 
 describe('fuzzing every write operation of the OpenAPI document', () => {
   let t: TestApp;
-  let operations: Operation[] = [];
+  const operations: Operation[] = [];
   const params: Record<string, string> = {};
   const ids: string[] = [];
   const auth = () => ({ ...bearer(t.tokens.planner), 'content-type': 'application/json' });
