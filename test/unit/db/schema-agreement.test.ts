@@ -65,6 +65,7 @@ const scalarTypes: Record<string, string> = {
   DateTime: 'timestamp without time zone',
   Json: 'jsonb',
   BigInt: 'bigint',
+  Bytes: 'bytea',
 };
 
 function columnsOf(model: Model) {
