@@ -137,7 +137,7 @@ suite('fleet link table runs on BullMQ queue workers (Redis 127.0.0.1:6379, Post
     let victim: ChildProcess | undefined;
     let tileIndex = -1;
     while (!victim && Date.now() < deadline) {
-      const running = await t!.db.prisma.linkRunTile.findFirst({ where: { runId, status: 'running', startedAt: { lt: new Date(Date.now() - 300) } } });
+      const running = await t!.db.prisma.linkRunTile.findFirst({ where: { runId, status: 'running', startedAt: { lt: new Date(Date.now() - 50) } } });
       if (running) {
         const ids = running.workerIds as string[];
         victim = workers.find((child) => child.exitCode === null && ids[ids.length - 1]?.endsWith(workerId(child)));
