@@ -28,7 +28,7 @@ const planFields = {
   settings: jsonObject.optional(),
 };
 
-/** A plan as the API answers it (loose: columns added later are passed through, not dropped). */
+/** A plan as the API answers it: every field listed (the serializer drops unlisted keys). */
 export const planResponse = z
   .object({
     id: z.string(),
@@ -44,8 +44,7 @@ export const planResponse = z
     version: z.number().int(),
     createdAt: dateTime,
     updatedAt: dateTime,
-  })
-  .loose();
+  });
 const planWithCounts = planResponse.extend({ counts: z.object({ sites: z.number().int(), gateways: z.number().int(), nodes: z.number().int(), terrainLayers: z.number().int() }) });
 
 export const planCreateBody = z.strictObject(planFields);

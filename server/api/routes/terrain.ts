@@ -69,8 +69,7 @@ export const terrainLayerResponse = z
     noData: z.number().nullable(),
     priority: z.number().int(),
     createdAt: dateTime,
-  })
-  .loose();
+  });
 
 /** The layer as the API shows it. */
 export function terrainLayerDto(row: TerrainLayerRow) {
