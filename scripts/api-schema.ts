@@ -48,7 +48,7 @@ export async function openApiDocument(): Promise<Record<string, unknown>> {
 
 /** The text of web/src/generated/api-schema.ts for the current routes. */
 export async function generateApiSchema(): Promise<string> {
-  const ast = await openapiTS(await openApiDocument() as Parameters<typeof openapiTS>[0], { alphabetize: true });
+  const ast = await openapiTS((await openApiDocument()) as unknown as Parameters<typeof openapiTS>[0], { alphabetize: true });
   return `${header}${astToString(ast)}`;
 }
 

@@ -125,7 +125,8 @@ function runView(run: CoverageRunRow) {
     radiusKm: params.radiusKm ?? null,
     sf: params.sf ?? null,
     requiredMarginDb: params.requiredMarginDb ?? null,
-    summary: run.summary ?? null,
+    // Stored by the coverage job in this shape (server/jobs/coverage-job.ts).
+    summary: (run.summary ?? null) as z.infer<typeof coverageSummary> | null,
     createdAt: run.createdAt.toISOString(),
     startedAt: run.startedAt?.toISOString() ?? null,
     finishedAt: run.finishedAt?.toISOString() ?? null,

@@ -208,7 +208,7 @@ export default async function nodeRoutes(app: FastifyInstance): Promise<void> {
       if (errors.length === 0) errors.push(...(await kitErrors(db, principal.teamId, data)));
       errors.sort((a, b) => a.row - b.row);
       if (dryRun) {
-        return { dryRun: true, valid: errors.length === 0, rowCount: records.length, errors, preview: data.slice(0, 100).map(nodeView) };
+        return { dryRun: true as const, valid: errors.length === 0, rowCount: records.length, errors, preview: data.slice(0, 100).map(nodeView) };
       }
       if (errors.length > 0) {
         throw new ApiError(400, 'invalid_rows', `${new Set(errors.map((e) => e.row)).size} of ${records.length} rows have errors; nothing was imported (first: row ${errors[0].row} ${errors[0].field}: ${errors[0].message})`, {
