@@ -417,43 +417,18 @@ export interface ReadingInput {
   lon?: number;
   note?: string;
 }
-export interface Reading extends ReadingInput {
-  id: string;
-  predictedRssiDbm: number | null;
-  predictedSnrDb: number | null;
-  /** measured − predicted, dB */
-  rssiDifferenceDb: number | null;
-  snrDifferenceDb: number | null;
-}
-export const postReading = (planId: string, body: ReadingInput): Promise<{ items: Reading[] }> =>
-  request<{ items: Reading[] }>('POST', `/plans/${planId}/readings`, body);
-export const getNodeReadings = (planId: string, nodeId: string): Promise<{ items: Reading[]; total: number; meanRssiDifferenceDb: number | null }> =>
+/** A reading beside the prediction at its gateway (measured − predicted differences, dB). */
+export type Reading = Answer<'/api/v1/plans/{planId}/nodes/{nodeId}/readings', 'get'>['items'][number];
+export const postReading = (planId: string, body: ReadingInput): Promise<Answer<'/api/v1/plans/{planId}/readings', 'post', 201>> =>
+  request('POST', `/plans/${planId}/readings`, body);
+export const getNodeReadings = (planId: string, nodeId: string): Promise<Answer<'/api/v1/plans/{planId}/nodes/{nodeId}/readings', 'get'>> =>
   request('GET', `/plans/${planId}/nodes/${nodeId}/readings`);
 
-export interface FleetRow {
-  nodeId: string;
-  nodeName: string;
-  lat: number;
-  lon: number;
-  status: LinkStatus;
-  combinedDeliveryProbability: number;
-  bestGatewayId: string | null;
-  bestGatewayName: string | null;
-  bestMarginDb: number | null;
-  bestSf: number | null;
-  timeOnAirMs: number | null;
-  /** Gateways that hear the node with margin ≥ 0 dB. */
-  gatewaysHeard: number;
-  /** Every link within the band plan's power limit. */
-  legal: boolean;
-  warnings: string[];
-}
-export interface FleetTable extends ListPage<FleetRow> {
-  counts?: Partial<Record<LinkStatus, number>>;
-}
+export type FleetTable = Answer<'/api/v1/plans/{planId}/links', 'get'>;
+export type FleetRow = FleetTable['items'][number];
 export async function getFleet(planId: string, status?: LinkStatus): Promise<FleetTable> {
   const rows: FleetRow[] = [];
-  let counts: FleetTable['counts'];
+  let first: FleetTable | null = null;
   let cursor: string | null = null;
   let total = 0;
   for (let guard = 0; guard < 200; guard++) {
@@ -461,13 +436,15 @@ export async function getFleet(planId: string, status?: LinkStatus): Promise<Fle
     if (status) q.set('status', status);
     if (cursor) q.set('cursor', cursor);
     const page: FleetTable = await request<FleetTable>('GET', `/plans/${planId}/links?${q.toString()}`);
+    first = first ?? page;
     rows.push(...page.items);
-    counts = counts ?? page.counts;
     total = page.total;
     if (!page.next || page.items.length === 0) break;
     cursor = page.next;
   }
-  return { items: rows, total, next: null, counts };
+  // Counts, assumptions and warnings of the first page (the same on every page).
+  if (!first) throw new ApiError(0, 'no_answer', 'the fleet table answered no page');
+  return { ...first, items: rows, total, next: null };
 }
 
 // ---------- coverage ----------
