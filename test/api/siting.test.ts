@@ -190,6 +190,20 @@ describeEngines('gateway siting API', (engine) => {
     expect(listed.body.items[0].id).toBe(start.body.id);
   }, 120_000);
 
+  it('k = 2: after apply the link table serves every covered node', async () => {
+    const start = await request(t.app.server).post(`/api/v1/plans/${planId}/siting`).set(auth).send(body(2));
+    const run = await waitDone(t, auth, planId, start.body.id);
+    const result = run.result as { coveredNodeIds: string[] };
+    const applied = await request(t.app.server).post(`/api/v1/plans/${planId}/siting/${start.body.id}/apply`).set(auth);
+    expect(applied.status).toBe(201);
+    const fleet = await request(t.app.server).get(`/api/v1/plans/${planId}/links?limit=1000`).set(auth);
+    expect(fleet.status).toBe(200);
+    const status = new Map((fleet.body.items as Array<{ nodeId: string; status: string }>).map((item) => [item.nodeId, item.status]));
+    expect(result.coveredNodeIds.length).toBeGreaterThan(10);
+    for (const id of result.coveredNodeIds) expect(status.get(id), id).toBe('served');
+    for (const id of applied.body.gatewayIds) expect((await request(t.app.server).delete(`/api/v1/plans/${planId}/gateways/${id}`).set(auth)).status).toBe(204);
+  }, 240_000);
+
   it('apply creates the chosen gateways (audited), after which the link table serves the covered nodes; a second apply is refused', async () => {
     const start = await request(t.app.server).post(`/api/v1/plans/${planId}/siting`).set(auth).send(body(1));
     const run = await waitDone(t, auth, planId, start.body.id);
