@@ -6,10 +6,10 @@
 // otherwise the command opens the folder itself under the pid lock (server/db/client.ts).
 import { z } from 'zod';
 import { loadConfig } from '../config.ts';
-import { dataFolderHolder, openDatabase, type Database } from '../db/client.ts';
+import type { Database } from '../db/client.ts';
 import { adminTeamAdd, adminTokenIssue, adminTokenRevoke, teamAddInput, tokenIssueInput, tokenRevokeInput } from '../db/repositories/admin-ops.ts';
 import { ConflictError, NotFoundError } from '../db/errors.ts';
-import { CliUsageError, defineCommand, describeOptionError, flagOption, integerOption, stringOption, type CliCommand } from './framework.ts';
+import { CliUsageError, defineCommand, describeOptionError, flagOption, integerOption, stringOption, type CommandDefinition } from './framework.ts';
 import { invitationDays, publicBaseUrl, signInLink } from '../app/team-access.ts';
 import { callRunningServer, readRunningServer } from './running-server.ts';
 
@@ -38,6 +38,8 @@ async function direct(db: Database, operation: AdminOperation, body: never): Pro
 /** Runs an admin operation against the configured database, the safe way (see the header). */
 export async function runAdminOperation(operation: AdminOperation, body: unknown, env: NodeJS.ProcessEnv = process.env): Promise<unknown> {
   const config = loadConfig(env);
+  // The database client (Prisma, PGlite, pg) is loaded only when this command opens the database itself.
+  const { dataFolderHolder, openDatabase } = await import('../db/client.ts');
   if (!config.databaseUrl) {
     const admin = readRunningServer(config);
     if (admin && admin.pid !== undefined && pidAlive(admin.pid)) {
@@ -59,10 +61,9 @@ export async function runAdminOperation(operation: AdminOperation, body: unknown
 
 const roleOption = z.enum(['planner', 'installer', 'viewer'], { error: 'must be planner, installer or viewer' });
 
-export const adminCommands: CliCommand[] = [
+export const adminCommands: CommandDefinition[] = [
   defineCommand({
     words: 'team add',
-    summary: 'Add a team (--slug, --name)',
     options: z.strictObject({ slug: stringOption(), name: stringOption() }),
     async run(options) {
       const input = teamAddInput.safeParse(options);
@@ -76,7 +77,6 @@ export const adminCommands: CliCommand[] = [
   }),
   defineCommand({
     words: 'token issue',
-    summary: 'Issue an API token, or with --link a one-time sign-in link for a teammate',
     options: z.strictObject({
       team: stringOption().describe('team slug'),
       role: roleOption.describe('role of the user'),
@@ -104,7 +104,6 @@ export const adminCommands: CliCommand[] = [
   }),
   defineCommand({
     words: 'token revoke',
-    summary: 'Revoke a token (--token <token> or --id <id>)',
     options: z.strictObject({ token: stringOption().optional(), id: stringOption().optional() }),
     async run(options) {
       const input = tokenRevokeInput.safeParse(options);

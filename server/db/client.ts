@@ -11,24 +11,13 @@ import { PrismaClient } from './generated/client.ts';
 import type { Config } from '../config.ts';
 import { applyMigrations, type RawSql } from './migrate.ts';
 import { pgliteChangeFeed, postgresChangeFeed, type ChangeFeed } from './change-feed.ts';
+import type { Database } from './database.ts';
 import { commitCheckingPglite } from './pglite-commit.ts';
 import { syncBuiltInKit } from './repositories/kit.ts';
 
 export { PrismaClient };
+export type { Database } from './database.ts';
 export type { Prisma } from './generated/client.ts';
-
-export interface Database {
-  prisma: PrismaClient;
-  engine: 'pglite' | 'postgres';
-  /** Raw SQL on the same database (migrations, test resets, advisory locks). */
-  raw: RawSql;
-  /**
-   * Committed changes to the tables answers are built from (server/db/change-feed.ts); absent
-   * on a Database bound to a transaction (its reads must never be memoised).
-   */
-  changes?: ChangeFeed;
-  close(): Promise<void>;
-}
 
 export interface OpenOptions {
   /** PGlite only: an in-memory database (tests); nothing is written to the data folder. */

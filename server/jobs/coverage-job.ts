@@ -22,8 +22,7 @@ import { resolveBandPlan } from '../planning/settings.ts';
 import { buildComposite, summarise, type PlacedProducts } from '../coverage/composite.ts';
 import { BYTE_NODATA } from '../coverage/rasterise.ts';
 import type { CoverageMode } from '../coverage/area.ts';
-import { runArea, RunCancelledError } from './area-runner.ts';
-import type { WorkerPool } from './pool.ts';
+import { runArea, RunCancelledError, type AreaPool } from './area-runner.ts';
 
 /** The one link budget of a run (server/planning/link.ts), as plain data a worker can read from the row. */
 export interface CoverageBudgetParams {
@@ -81,7 +80,7 @@ export function resolveFilePath(config: Pick<Config, 'filesDir' | 'dataDir'>, fi
 }
 
 export interface ExecuteOptions {
-  pool?: WorkerPool;
+  pool?: AreaPool;
   workers?: number;
   workerId: string;
   /** Called before anything is written; a test hook to kill a worker mid-job. */
