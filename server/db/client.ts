@@ -5,8 +5,7 @@ import { closeSync, existsSync, mkdirSync, openSync, readFileSync, rmSync, write
 import { join } from 'node:path';
 import { PGlite } from '@electric-sql/pglite';
 import { PrismaPGlite } from 'pglite-prisma-adapter';
-import { PrismaPg } from '@prisma/adapter-pg';
-import pg from 'pg';
+import type pg from 'pg';
 import { PrismaClient } from './generated/client.ts';
 import type { Config } from '../config.ts';
 import { applyMigrations, type RawSql } from './migrate.ts';
@@ -20,6 +19,16 @@ export type { Database } from './database.ts';
 export type { Prisma } from './generated/client.ts';
 
 export interface OpenOptions {
+  /**
+   * Listen for committed changes (default true). One-shot commands pass false: they keep no
+   * memo, so a feed would only cost its start.
+   */
+  changeFeed?: boolean;
+  /**
+   * Bring the built-in kit catalog up to date on open (default true). Commands that never read
+   * the kit (the admin commands) pass false; the next server or worker start syncs it.
+   */
+  syncKit?: boolean;
   /** PGlite only: an in-memory database (tests); nothing is written to the data folder. */
   memory?: boolean;
   /** Skip applying migrations (the schema agreement test applies them itself). */
@@ -140,7 +149,7 @@ async function openPglite(config: Config, options: OpenOptions): Promise<Databas
     const raw = pgliteRaw(client);
     if (!options.skipMigrations) await applyMigrations(raw);
     const prisma = new PrismaClient({ adapter: commitCheckingPglite(new PrismaPGlite(client)) });
-    const changes = options.skipMigrations ? undefined : await pgliteChangeFeed(client); // the triggers come with the migrations
+    const changes = options.skipMigrations || options.changeFeed === false ? undefined : await pgliteChangeFeed(client); // the triggers come with the migrations
     const db: Database = {
       prisma,
       engine: 'pglite',
@@ -153,7 +162,7 @@ async function openPglite(config: Config, options: OpenOptions): Promise<Databas
         release();
       },
     };
-    if (!options.skipMigrations) await syncBuiltInKit(db);
+    if (!options.skipMigrations && options.syncKit !== false) await syncBuiltInKit(db);
     return db;
   } catch (error) {
     await client.close().catch(() => {});
@@ -163,6 +172,8 @@ async function openPglite(config: Config, options: OpenOptions): Promise<Databas
 }
 
 async function openPostgres(url: string, options: OpenOptions): Promise<Database> {
+  // Loaded here so processes on an embedded folder never load the PostgreSQL driver.
+  const [{ default: pg }, { PrismaPg }] = await Promise.all([import('pg'), import('@prisma/adapter-pg')]);
   const pool = new pg.Pool({ connectionString: url, max: 10 });
   try {
     if (!options.skipMigrations) {
@@ -189,7 +200,7 @@ async function openPostgres(url: string, options: OpenOptions): Promise<Database
       }
     }
     const prisma = new PrismaClient({ adapter: new PrismaPg(pool) });
-    const changes: ChangeFeed | undefined = options.skipMigrations ? undefined : postgresChangeFeed(url);
+    const changes: ChangeFeed | undefined = options.skipMigrations || options.changeFeed === false ? undefined : postgresChangeFeed(url);
     const db: Database = {
       prisma,
       engine: 'postgres',
@@ -201,7 +212,7 @@ async function openPostgres(url: string, options: OpenOptions): Promise<Database
         await pool.end().catch(() => {});
       },
     };
-    if (!options.skipMigrations) await syncBuiltInKit(db);
+    if (!options.skipMigrations && options.syncKit !== false) await syncBuiltInKit(db);
     return db;
   } catch (error) {
     await pool.end().catch(() => {});
