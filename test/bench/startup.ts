@@ -162,7 +162,11 @@ export async function run(): Promise<void> {
     log(`|${widths.map((w) => '-'.repeat(w + 2)).join('|')}|`);
     for (const cells of table) log(line(cells));
     log(`wall times, best of ${repeats} (restarts: best of 2); load average now ${loadavg().map((l) => l.toFixed(1)).join(' ')}`);
+  } catch (error) {
+    log(`startup bench failed: ${error instanceof Error ? error.message : String(error)}`);
+    throw error;
   } finally {
-    rmSync(dir, { recursive: true, force: true });
+    // A program that was just stopped may still be flushing its data folder: retry the removal.
+    rmSync(dir, { recursive: true, force: true, maxRetries: 5, retryDelay: 500 });
   }
 }
