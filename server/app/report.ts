@@ -8,7 +8,8 @@ import type { Config } from '../config.ts';
 import type { PlanRow } from '../db/repositories/plans.ts';
 import { latestDoneCoverageRun } from '../db/repositories/scenarios.ts';
 import { allTerrainLayers } from '../db/repositories/terrain-layers.ts';
-import { RESULT_FILES, resolveFilePath, resultDir, type CoverageJobParams } from '../jobs/coverage-job.ts';
+import type { CoverageJobParams } from '../jobs/coverage-job.ts';
+import { RESULT_FILES, resolveStoredFile, resultDir } from '../db/files.ts';
 import type { LinkEngine } from '../jobs/link-engine.ts';
 import { openGeoRaster, type GeoRaster } from '../terrain/raster.ts';
 import { composeMapImage, fitView, paddedBox, renderMapTiles } from '../report/map.ts';
@@ -60,7 +61,7 @@ async function openElevation(engine: LinkEngine, config: Config, planId: string)
   const rasters: GeoRaster[] = [];
   for (const row of rows) {
     try {
-      rasters.push(await openGeoRaster(resolveFilePath(config, row.filePath)));
+      rasters.push(await openGeoRaster(resolveStoredFile(config, row.filePath)));
     } catch {
       // An unreadable layer leaves the map without relief there; the link engine reports it in the warnings.
     }

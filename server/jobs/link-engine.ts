@@ -5,10 +5,9 @@
 // (./link-pool.ts), and keeps the Link cache.
 // Same numbers everywhere: the API routes (server/api/routes/links.ts) and
 // `earshot link` (server/cli/links.ts) both call this class.
-import { existsSync } from 'node:fs';
-import { isAbsolute, join, resolve } from 'node:path';
 import type { Config } from '../config.ts';
 import { AppError } from '../app/errors.ts';
+import { resolveStoredFile } from '../db/files.ts';
 import { changeStamp, GenerationMemo } from '../db/change-feed.ts';
 import type { Database } from '../db/client.ts';
 import { NotFoundError } from '../db/errors.ts';
@@ -214,14 +213,6 @@ export class LinkEngine {
     await Promise.all(stores.map(async (entry) => (await entry.store.catch(() => null))?.close()));
   }
 
-  private resolveFile(filePath: string): string {
-    if (isAbsolute(filePath)) return filePath;
-    for (const candidate of [join(this.config.filesDir, filePath), join(this.config.dataDir, filePath), resolve(filePath)]) {
-      if (existsSync(candidate)) return candidate;
-    }
-    return join(this.config.filesDir, filePath);
-  }
-
   private async terrainFor(plan: PlanRow, clutterHeightsM: Record<string, number> | undefined): Promise<{ store: TerrainStore | null; spec: LinkTerrainSpec | null; signature: string }> {
     const layers = await listTerrainForLinks(this.db, plan.id);
     const signature = hashOf({ layers: layers.map((l) => [l.id, l.sha256, l.priority, l.createdAt.toISOString(), l.kind]), clutterHeightsM: clutterHeightsM ?? null });
@@ -236,7 +227,7 @@ export class LinkEngine {
     const ordered = [...layers].sort((a, b) => (a.kind === b.kind ? a.resolutionM - b.resolutionM : a.kind === 'elevation' ? -1 : 1));
     const spec: LinkTerrainSpec = {
       signature,
-      files: ordered.map((layer) => ({ path: this.resolveFile(layer.filePath), kind: layer.kind, name: layer.name })),
+      files: ordered.map((layer) => ({ path: resolveStoredFile(this.config, layer.filePath), kind: layer.kind, name: layer.name })),
       options: { cacheBytes: 64 * 1024 * 1024, clutterHeightsM },
     };
     const store = openTerrainStore(spec.files, spec.options);

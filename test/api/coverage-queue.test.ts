@@ -14,7 +14,7 @@ import request from 'supertest';
 import { afterAll, describe, expect, it } from 'vitest';
 import { bearer, createTestApp, postgresAvailable, type TestApp } from '../helpers/test-app.ts';
 import { writeGeoTiff } from '../../server/terrain/geotiff-writer.ts';
-import { resultDir } from '../../server/jobs/coverage-job.ts';
+import { resultDir } from '../../server/db/files.ts';
 import { makeSyntheticDem } from '../unit/coverage/synthetic-dem.ts';
 
 const REDIS_URL = process.env.EARSHOT_TEST_REDIS_URL ?? 'redis://127.0.0.1:6379';

@@ -13,7 +13,7 @@ import { afterAll, beforeAll, expect, it } from 'vitest';
 import { bearer, createTestApp, describeEngines, type TestApp } from '../helpers/test-app.ts';
 import { writeGeoTiff } from '../../server/terrain/geotiff-writer.ts';
 import { openGeoRaster } from '../../server/terrain/raster.ts';
-import { resultDir } from '../../server/jobs/coverage-job.ts';
+import { resultDir } from '../../server/db/files.ts';
 import { MARGIN_CLASSES } from '../../server/coverage/tiles.ts';
 import { makeSyntheticDem } from '../unit/coverage/synthetic-dem.ts';
 

@@ -16,7 +16,7 @@ import { join } from 'node:path';
 import { performance } from 'node:perf_hooks';
 import { createTestApp, postgresAvailable, type TestApp } from '../helpers/test-app.ts';
 import { writeGeoTiff } from '../../server/terrain/geotiff-writer.ts';
-import { RESULT_FILES, resultDir } from '../../server/jobs/coverage-job.ts';
+import { RESULT_FILES, resultDir } from '../../server/db/files.ts';
 
 const CENTRE = { lat: 44.5, lon: -110.2 };
 const CELL_M = 30;
