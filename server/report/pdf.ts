@@ -36,7 +36,7 @@ export interface ReportModel {
   nodes: ReportNode[];
   gateways: Array<{ name: string; lat: number; lon: number; bestServerOf: number; antennaHeightAglM: number }>;
   sites: Array<{ name: string; lat: number; lon: number; hasGateway: boolean }>;
-  /** The composited map image (RGB PNG of view.widthPx × view.heightPx, see composeMapImage). */
+  /** The composited map image (RGB PNG of view.widthPx × view.heightPx, see renderMapImage). */
   map: { view: MapView; image: Uint8Array; coverage: string | null; terrain: string } | null;
   /** Capacity figures as label/value pairs, or null when no capacity result exists (the text says so). */
   capacity: Array<[string, string]> | null;
