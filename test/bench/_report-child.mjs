@@ -27,7 +27,7 @@ if (!plan) throw new Error('bench plan not found');
 // query plans), so the baseline is a server process ready to answer, not a cold Node.
 const rssAfterOpen = process.memoryUsage().rss;
 await engine.planContext(plan);
-global.gc?.();
+globalThis.gc?.();
 await new Promise((resolve) => setTimeout(resolve, 50));
 const baseline = process.memoryUsage().rss;
 const highWaterBefore = process.resourceUsage().maxRSS * 1024;
