@@ -30,6 +30,12 @@ import type { AppliedCalibration } from '../planning/spread.ts';
 import { findAppliedCalibration } from '../db/repositories/calibrations.ts';
 import { bearingsBetween } from '../planning/geometry.ts';
 
+/** A node → gateway pair as the fleet's first pass measured it: distance, and the path hash when within range. */
+interface PairKey {
+  distanceM: number;
+  pathHash: string | null;
+}
+
 /** Connectors assumed in a node's feedline run: two mated N/SMA pairs (common practice, 0.1 dB each). */
 const NODE_CONNECTORS = [{ id: 'n-type', count: 2 }];
 /** At a gateway: two mated N pairs and an inline surge arrestor (common practice). */
@@ -428,7 +434,7 @@ export class LinkEngine {
    * A node's links to every gateway within range, from the cache where the
    * inputs are unchanged. `save` false (previews) leaves the cache untouched.
    */
-  async nodeLinks(ctx: PlanContext, node: ResolvedNode, cachedRows: readonly LinkRow[] | null, save: boolean, precomputed?: ReadonlyMap<string, PathPrediction>): Promise<{ outcome: NodeLinksOutcome; toSave: LinkRow[] }> {
+  async nodeLinks(ctx: PlanContext, node: ResolvedNode, cachedRows: readonly LinkRow[] | null, save: boolean, precomputed?: ReadonlyMap<string, PathPrediction>, pairs?: ReadonlyMap<string, PairKey>): Promise<{ outcome: NodeLinksOutcome; toSave: LinkRow[] }> {
     const rows = cachedRows ?? (await listNodeLinkRows(this.db, ctx.plan.id, node.row.id));
     const byGateway = new Map(rows.map((row) => [row.gatewayId, row]));
     const inRange: Array<{ gateway: GatewayContext; path: PathPrediction; pathHash: string; row: LinkRow | undefined }> = [];
@@ -436,12 +442,13 @@ export class LinkEngine {
     let computed = 0;
     let cached = 0;
     for (const gateway of ctx.gateways) {
-      const distanceM = bearingsBetween(node.row.lat, node.row.lon, gateway.row.lat, gateway.row.lon).distanceM;
+      const known = pairs?.get(gateway.row.id);
+      const distanceM = known ? known.distanceM : bearingsBetween(node.row.lat, node.row.lon, gateway.row.lat, gateway.row.lon).distanceM;
       if (distanceM > ctx.settings.maxLinkRangeM) {
         outOfRange.push({ gatewayId: gateway.row.id, distanceM });
         continue;
       }
-      const pathHash = this.pathHash(ctx, node, gateway);
+      const pathHash = known?.pathHash ?? this.pathHash(ctx, node, gateway);
       const row = byGateway.get(gateway.row.id);
       const stored = row && isStoredLink(row.result) ? row.result : null;
       const path = stored && stored.pathHash === pathHash ? stored.path : (precomputed?.get(pathHash) ?? (await this.computePath(ctx, node, gateway)));
@@ -531,7 +538,9 @@ export class LinkEngine {
     // 1. Resolve every node and collect the paths the cache lacks (one per path hash),
     //    in groups of nodes so budgets and cache writes of one group overlap the
     //    workers' paths of the next.
-    const resolved: Array<{ node: ResolvedNode } | { broken: NodeRow; message: string } | null> = [];
+    // Each node's pairs as step 1 measured them (distance, path hash), so step 3 does not
+    // measure and hash every pair a second time.
+    const resolved: Array<{ node: ResolvedNode; pairs: Map<string, PairKey> } | { broken: NodeRow; message: string } | null> = [];
     const groups: Array<Map<string, LinkPathPair>> = [];
     const seen = new Set<string>();
     for (const row of nodes) {
@@ -544,11 +553,17 @@ export class LinkEngine {
         continue;
       }
       const group = Math.floor(resolved.length / FLEET_GROUP_NODES);
-      resolved.push({ node });
+      const pairs = new Map<string, PairKey>();
+      resolved.push({ node, pairs });
       const stored = storedHashes.get(row.id);
       for (const gateway of ctx.gateways) {
-        if (bearingsBetween(row.lat, row.lon, gateway.row.lat, gateway.row.lon).distanceM > ctx.settings.maxLinkRangeM) continue;
+        const distanceM = bearingsBetween(row.lat, row.lon, gateway.row.lat, gateway.row.lon).distanceM;
+        if (distanceM > ctx.settings.maxLinkRangeM) {
+          pairs.set(gateway.row.id, { distanceM, pathHash: null });
+          continue;
+        }
         const pathHash = this.pathHash(ctx, node, gateway);
+        pairs.set(gateway.row.id, { distanceM, pathHash });
         if (stored?.get(gateway.row.id) === pathHash || seen.has(pathHash)) continue;
         seen.add(pathHash);
         (groups[group] ??= new Map()).set(pathHash, { node: pathEnd(row, node.antennaHeightAglM), gateway: pathEnd(gateway.row, gateway.row.antennaHeightAglM) });
@@ -593,14 +608,14 @@ export class LinkEngine {
           else byNode.set(row.nodeId, [row]);
         }
       }
-      const entry = resolved[i] as { node: ResolvedNode } | { broken: NodeRow; message: string };
+      const entry = resolved[i] as { node: ResolvedNode; pairs: Map<string, PairKey> } | { broken: NodeRow; message: string };
       resolved[i] = null; // visited nodes are the caller's to keep or drop
       if ('broken' in entry) {
         await visit(brokenNodeOutcome(entry.broken, entry.message));
         onProgress?.(i + 1, total);
         continue;
       }
-      const { outcome, toSave } = await this.nodeLinks(ctx, entry.node, byNode.get(entry.node.row.id) ?? [], true, precomputed);
+      const { outcome, toSave } = await this.nodeLinks(ctx, entry.node, byNode.get(entry.node.row.id) ?? [], true, precomputed, entry.pairs);
       await visit(outcome);
       pending.push(...toSave);
       if (pending.length >= 500) {

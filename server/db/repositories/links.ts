@@ -134,6 +134,11 @@ export async function listNodesForLinks(db: Database, planId: string) {
   return db.prisma.node.findMany({ where: { planId }, orderBy: [{ createdAt: 'asc' }, { id: 'asc' }] });
 }
 
+/** The kit columns of a plan's nodes, in the fleet table's order (what a kit price needs, no more). */
+export async function listNodeKitRows(db: Database, planId: string) {
+  return db.prisma.node.findMany({ where: { planId }, orderBy: [{ createdAt: 'asc' }, { id: 'asc' }], select: { id: true, name: true, antennaDesignId: true, feedlineId: true, feedlineLengthM: true, antennaHeightAglM: true, mastOptionId: true } });
+}
+
 /**
  * One-query fingerprint of everything a node's links depend on besides the plan row:
  * the node row, the plan's gateways and terrain layers, and the team's visible kit
