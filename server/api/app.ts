@@ -167,6 +167,9 @@ export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {
       socket.destroy(error);
     },
     forceCloseConnections: true,
+    // Route plugins do real start-up work (unfinished runs queued again, queues opened): on a busy
+    // machine that can outlast Fastify's 10 s default, which would abort the start.
+    pluginTimeout: 120_000,
     // One line per request, written on completion at config.requestLogLevel (below), instead
     // of Fastify's two info lines that flood a terminal.
     disableRequestLogging: true,

@@ -115,9 +115,16 @@ export async function executeCoverageRun(db: Database, config: Config, runId: st
     const now = Date.now();
     if (now - lastReport < 250 && fraction < 1) return;
     lastReport = now;
+    // Progress is best effort: a failed write (a busy or briefly lost database) must neither end a
+    // long run nor reject while nobody awaits the chain (that would be an unhandled rejection);
+    // the final write of the result is what counts, and it fails the run if the database is gone.
     reporting = reporting.then(async () => {
-      const stillRunning = await reportCoverageProgress(db, runId, fraction);
-      if (!stillRunning) controller.abort();
+      try {
+        const stillRunning = await reportCoverageProgress(db, runId, fraction);
+        if (!stillRunning) controller.abort();
+      } catch {
+        // Best effort (see above): the next report or the final write tries again.
+      }
     });
   };
   let raster: GeoRaster | null = null;
@@ -297,7 +304,7 @@ export async function executeCoverageRun(db: Database, config: Config, runId: st
     await failCoverageRun(db, runId, message);
     return 'failed';
   } finally {
-    await reporting.catch(() => undefined);
+    await reporting;
     await raster?.close();
     await clutterRaster?.close();
   }

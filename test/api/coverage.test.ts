@@ -278,6 +278,28 @@ describeEngines('coverage API', (engine) => {
     expect(again.status).toBe(409);
   });
 
+  it('a refused progress write neither fails the run nor escapes as an unhandled rejection: the run still ends done', async () => {
+    // Refuse only the progress updates of a running row (status stays running, progress below 1);
+    // the claim (queued → running) and the final write (→ done) pass.
+    await t.db.raw.exec(`CREATE OR REPLACE FUNCTION earshot_test_refuse_progress() RETURNS trigger AS $$ BEGIN RAISE EXCEPTION 'forced progress write failure'; END $$ LANGUAGE plpgsql`);
+    await t.db.raw.exec(`CREATE TRIGGER earshot_test_refuse_progress BEFORE UPDATE ON "CoverageRun" FOR EACH ROW WHEN (OLD.status = 'running' AND NEW.status = 'running') EXECUTE FUNCTION earshot_test_refuse_progress()`);
+    const unhandled: unknown[] = [];
+    const onUnhandled = (reason: unknown) => unhandled.push(reason);
+    process.on('unhandledRejection', onUnhandled);
+    try {
+      const started = await http.post(`/api/v1/plans/${planId}/coverage`).set(as('planner')).send({ radiusKm: 3, mode: 'fast', gatewayIds: [gatewayId] });
+      expect(started.status, JSON.stringify(started.body)).toBe(202);
+      const done = await waitFor(started.body.id, ['done', 'failed']);
+      expect(done.status, done.error).toBe('done');
+      expect(done.progress).toBe(1);
+      await new Promise((resolve) => setTimeout(resolve, 100));
+      expect(unhandled).toEqual([]);
+    } finally {
+      process.off('unhandledRejection', onUnhandled);
+      await t.db.raw.exec('DROP TRIGGER IF EXISTS earshot_test_refuse_progress ON "CoverageRun"');
+    }
+  });
+
   it('uses the plan\'s clutter layer: a cell behind a dense-urban block loses margin (more than one over open land); the summary names the layer', async () => {
     // Clutter on the DEM's own grid, earshot's class codes (2 open/rural, 6 dense urban):
     // a dense-urban block 15–25 cells east of the mast, open land elsewhere.
