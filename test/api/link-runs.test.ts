@@ -50,7 +50,9 @@ describeEngines('fleet link table runs in process', (engine) => {
 
   it('progress counts running tiles by the paths they have predicted so far (recorded at their checks), capped at their size', async () => {
     const db = t.db;
-    const run = await createLinkRun(db, fleet.planId, { params: {}, createdById: null, tiles: [0, 1].map(() => ({ nodeIds: [fleet.nodeIds[0]], gatewayIds: [fleet.gatewayIds[0]], pairs: 100 })) });
+    // A plan of its own: the run is never queued, and the other tests' plan keeps only their runs.
+    const plan = await db.prisma.plan.create({ data: { teamId: t.teamId, name: 'Progress of running tiles' } });
+    const run = await createLinkRun(db, plan.id, { params: {}, createdById: null, tiles: [0, 1].map(() => ({ nodeIds: [fleet.nodeIds[0]], gatewayIds: [fleet.gatewayIds[0]], pairs: 100 })) });
     const deps = { engine: { database: db } as LinkEngine };
     expect((await linkRunView(deps, run)).progress).toBe(0);
     const attempt = await claimLinkTile(db, run.id, 0, 'test:1');
@@ -66,7 +68,7 @@ describeEngines('fleet link table runs in process', (engine) => {
     // Claimed again (its worker died): the part of the lost attempt drops back.
     expect(await claimLinkTile(db, run.id, 0, 'test:2')).toBe(2);
     expect((await linkRunView(deps, run)).progress).toBe(0);
-    expect(await cancelLinkRun(db, fleet.planId, run.id)).toBe(true);
+    expect(await cancelLinkRun(db, plan.id, run.id)).toBe(true);
   });
 
   it('a run over tiles writes exactly the rows the fleet table writes, and the fleet table then reads them', async () => {
