@@ -25,6 +25,7 @@ import { LinkPathPool, type LinkPathPair, type LinkTerrainSpec } from './link-po
 import type { EndKit, GatewayRadio, LinkRadioSettings, LinkResult, NodeRadio } from '../planning/link.ts';
 import { hashOf, hashOfShared, LINK_ENGINE_VERSION, nodeAimAzimuthDeg, nodeLinkResults, summariseNodeLinks, type NodeLinkSummary } from '../planning/node-links.ts';
 import { newPathScratch, type PathPrediction } from '../planning/path.ts';
+import { packPath, unpackPath } from '../planning/path-pack.ts';
 import { resolveLinkSettings, sfsCarrying, type ResolvedLinkSettings } from '../planning/settings.ts';
 import type { AppliedCalibration } from '../planning/spread.ts';
 import { findAppliedCalibration } from '../db/repositories/calibrations.ts';
@@ -110,20 +111,35 @@ export interface NodeLinksOutcome extends NodeLinkSummary {
   outOfRange: Array<{ gatewayId: string; distanceM: number }>;
 }
 
-/** What a Link row keeps: the predicted path (reused while its inputs hold) and the contract figures. */
-interface StoredLink {
+/**
+ * What a Link row keeps: the path hash in its JSON result and the predicted path packed into
+ * its bytes (server/planning/path-pack.ts; a path the layout cannot hold stays JSON in the
+ * result). The fleet table rebuilds every budget from the path (microseconds), so nothing
+ * else is stored. Rows written before the packed form ({pathHash, path, summary}) stay readable.
+ */
+interface StoredLinkJson {
   pathHash: string;
-  path: PathPrediction;
-  summary: Pick<LinkResult, 'gatewayId' | 'distanceM' | 'basicLossDb' | 'rssiDbm' | 'snrDb' | 'marginDb' | 'bestSf' | 'usedSf' | 'deliveryProbability' | 'timeOnAirMs'> & { legalOk: boolean | null };
+  path?: PathPrediction;
 }
 
-function isStoredLink(value: unknown): value is StoredLink {
-  return !!value && typeof value === 'object' && typeof (value as StoredLink).pathHash === 'string' && !!(value as StoredLink).path && !!(value as StoredLink).summary;
+/** The stored path of a cached row when it was predicted for `pathHash`, else null. */
+function storedPath(row: LinkRow | undefined, pathHash: string): PathPrediction | null {
+  const result = row?.result as StoredLinkJson | null | undefined;
+  if (!row || !result || typeof result !== 'object' || result.pathHash !== pathHash) return null;
+  if (row.packed) return unpackPath(row.packed);
+  return result.path && typeof result.path === 'object' ? result.path : null;
 }
 
-function linkSummary(link: LinkResult): StoredLink['summary'] {
-  const { gatewayId, distanceM, basicLossDb, rssiDbm, snrDb, marginDb, bestSf, usedSf, deliveryProbability, timeOnAirMs } = link;
-  return { gatewayId, distanceM, basicLossDb, rssiDbm, snrDb, marginDb, bestSf, usedSf, deliveryProbability, timeOnAirMs, legalOk: link.legal ? link.legal.withinLimit : null };
+/** Whether a cached row holds a usable path at all. */
+function hasStoredPath(row: LinkRow): boolean {
+  const result = row.result as StoredLinkJson | null;
+  return !!result && typeof result === 'object' && typeof result.pathHash === 'string' && (!!row.packed || (!!result.path && typeof result.path === 'object'));
+}
+
+/** The cache row of one pair: the packed path, or the path in the JSON when the layout cannot hold it. */
+function linkRowOf(nodeId: string, gatewayId: string, inputHash: string, pathHash: string, path: PathPrediction): LinkRow {
+  const packed = packPath(path);
+  return packed ? { nodeId, gatewayId, inputHash, result: { pathHash } satisfies StoredLinkJson, packed } : { nodeId, gatewayId, inputHash, result: { pathHash, path } satisfies StoredLinkJson, packed: null };
 }
 
 function buildingTypeOf(value: string | null, fallback: BuildingType): BuildingType {
@@ -450,8 +466,7 @@ export class LinkEngine {
       }
       const pathHash = known?.pathHash ?? this.pathHash(ctx, node, gateway);
       const row = byGateway.get(gateway.row.id);
-      const stored = row && isStoredLink(row.result) ? row.result : null;
-      const path = stored && stored.pathHash === pathHash ? stored.path : (precomputed?.get(pathHash) ?? (await this.computePath(ctx, node, gateway)));
+      const path = storedPath(row, pathHash) ?? precomputed?.get(pathHash) ?? (await this.computePath(ctx, node, gateway));
       inRange.push({ gateway, path, pathHash, row });
     }
     const { aim, links } = this.budgets(node, inRange);
@@ -464,12 +479,12 @@ export class LinkEngine {
         continue;
       }
       const inputHash = hashOf({ p: entry.pathHash, n: node.kitHash, g: entry.gateway.kitHash, r: ctx.radioSettingsHash, aim });
-      if (entry.row && entry.row.inputHash === inputHash && isStoredLink(entry.row.result)) {
+      if (entry.row && entry.row.inputHash === inputHash && hasStoredPath(entry.row)) {
         cached++;
         continue;
       }
       computed++;
-      if (save) toSave.push({ nodeId: node.row.id, gatewayId: entry.gateway.row.id, inputHash, result: { pathHash: entry.pathHash, path: entry.path, summary: linkSummary(links[e]) } satisfies StoredLink });
+      if (save) toSave.push(linkRowOf(node.row.id, entry.gateway.row.id, inputHash, entry.pathHash, entry.path));
     }
     const summary = summariseNodeLinks(links, { targetMarginDb: ctx.settings.targetMarginDb, targetDelivery: ctx.settings.targetDelivery }, ctx.settings.gatewayCorrelation);
     const paths = new Map(inRange.map((entry) => [entry.gateway.row.id, entry.path]));
