@@ -40,7 +40,7 @@ import { type LinkEngine, type PlanContext } from '../jobs/link-engine.ts';
 import { computeSitingMatrix, matrixInputs, SitingCancelled, type SitingCandidate, type SitingMatrix } from '../jobs/siting-matrix.ts';
 import { splitSitingMatrix } from '../jobs/siting-matrix-split.ts';
 import type { LinkRunJobs } from '../jobs/link-runs.ts';
-import { kitCostUsd } from '../planning/recommend.ts';
+import { gatewayKitPrice } from './kit-price.ts';
 import { DEFAULT_GATEWAY_ANTENNA_ID, DEFAULT_GATEWAY_FEEDLINE_ID, DEFAULT_GATEWAY_NOISE_FIGURE_DB } from '../planning/gateway-kit.ts';
 import { isExcluded, localHighPoints, parseExclusionAreas, pickSpaced, type ExclusionArea, type HighPoint, type LonLatBox } from '../siting/candidates.ts';
 import { coverInstance, hearingCounts, marginalNodes, requirements, selectionCostUsd, selectionCount, type CoverOptions } from '../siting/cover.ts';
@@ -285,7 +285,8 @@ async function buildCandidates(deps: SitingDeps, ctx: PlanContext, params: Sitin
   const kitFor = (maxHeightM: number | null) => {
     const antennaHeightAglM = maxHeightM !== null ? Math.min(kit.antennaHeightAglM, maxHeightM) : kit.antennaHeightAglM;
     const feedlineLengthM = kit.feedlineLengthM ?? antennaHeightAglM + ctx.settings.feedlineDropM;
-    return { antennaHeightAglM, feedlineLengthM, kitCostUsd: kitCostUsd(antenna.costUsd, mast?.costUsd ?? 0, feedline.costUsdPerM, feedlineLengthM) };
+    // The one gateway kit price (antenna, feedline, connectors and surge arrestor, chosen mast), as the bill of materials prices a gateway.
+    return { antennaHeightAglM, feedlineLengthM, kitCostUsd: gatewayKitPrice({ antenna, feedline, feedlineLengthM, mastOptionId: mast?.id ?? null }, mast ? [mast] : []).totalUsd };
   };
   const candidates: SitingCandidate[] = [];
   // Existing gateways: kept as built (fixed, cost 0) or, with keepExistingGateways false, ordinary
