@@ -110,6 +110,12 @@ async function listAll<T>(path: string, pageSize = 500): Promise<T[]> {
 
 // ---------- plans and fleet objects ----------
 
+/** An uplink SF with the LoRaWAN maximum application payload it carries (null: none stated). */
+export interface UplinkSf {
+  sf: number;
+  maxAppPayloadBytes: number | null;
+}
+
 export interface Plan {
   id: string;
   name: string;
@@ -655,7 +661,14 @@ export interface ClientSettings {
   /** Optional online tile layer (EARSHOT_BASE_LAYER_URL on the server); null = offline only. */
   onlineBaseLayer: { urlTemplate: string; attribution?: string } | null;
   /** Band plans and propagation methods a plan may use (what PATCH /plans/:id accepts). */
-  bandPlans: Array<{ id: string; name: string; uplinkSfs?: Array<{ sf: number; maxAppPayloadBytes: number | null }> }>;
+  defaultBandwidthKhz?: number;
+  bandPlans: Array<{
+    id: string;
+    name: string;
+    uplinkSfs?: UplinkSf[];
+    bandwidths?: Array<{ bandwidthKhz: number; uplinkSfs: UplinkSf[] }>;
+    otherBandwidthSfs?: UplinkSf[];
+  }>;
   propagationMethods: string[];
   /** The valid range of each physical input (server/api/schemas.ts FIELD_RANGES). */
   ranges?: FieldRanges;

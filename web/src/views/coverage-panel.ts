@@ -25,6 +25,7 @@ import {
 } from '../api.ts';
 import type { PlanStore } from '../plan-store.ts';
 import { planInputs, staleReason } from '../coverage-stale.ts';
+import { planUplinkSfs } from '../uplink-sfs.ts';
 import { applyRange, rangeProblem } from '../ranges.ts';
 import { canEdit } from '../session.ts';
 import { announce, clear, errorText, field, h, notice, percent, present, select } from '../ui.ts';
@@ -105,7 +106,7 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
   applyRange(payload, 'payloadBytes');
   // The band plan's uplink SFs with their payload maxima (GET /client-settings); the node SF
   // rule (server/planning/settings.ts sfsCarrying) allows an SF when the payload fits its maximum.
-  const uplinkSfs = settings?.bandPlans.find((b) => b.id === store.plan.bandPlanId)?.uplinkSfs ?? [7, 8, 9, 10, 11, 12].map((v) => ({ sf: v, maxAppPayloadBytes: null }));
+  const uplinkSfs = planUplinkSfs(settings, store.plan);
   const sf = select([], '', { id: 'coverage-sf' });
   const fillSfs = (): void => {
     const bytes = Number(payload.value);
