@@ -2,36 +2,12 @@
 // Every command takes --json and then prints exactly one JSON document on
 // stdout; an error exits non-zero with a one-line message on stderr.
 import { z } from 'zod';
-import { CliUsageError, commandHelp, plainText, describeOptionError, parseArgv, type CliCommand, type CliContext } from './cli/framework.ts';
-import { adminCommands } from './cli/admin.ts';
-import { radioCommands } from './cli/radio.ts';
-import { terrainCommands } from './cli/terrain.ts';
-import { propagationCommands } from './cli/propagation.ts';
-import { linkCommands } from './cli/links.ts';
-import { coverageCommands } from './cli/coverage.ts';
-import { fleetListCommands } from './cli/fleet-lists.ts';
+import { CliUsageError, commandHelp, plainText, describeOptionError, parseArgv, type CliContext } from './cli/framework.ts';
+import { commandIndex, findEntry, loadCommand } from './cli/commands.ts';
 import { helpTexts } from './cli/help-texts.ts';
-import { capacityCommands } from './cli/capacity.ts';
-import { reportCommands } from './cli/reports.ts';
-import { tuningCommands } from './cli/tuning.ts';
-import { sitingCommands } from './cli/siting.ts';
-
-export const allCommands: CliCommand[] = [
-  ...adminCommands,
-  ...radioCommands,
-  ...terrainCommands,
-  ...propagationCommands,
-  ...linkCommands,
-  ...coverageCommands,
-  ...fleetListCommands,
-  ...capacityCommands,
-  ...reportCommands,
-  ...tuningCommands,
-  ...sitingCommands,
-];
 
 function usage(): string {
-  const lines = allCommands.map((command) => `  ${command.words.padEnd(18)} ${command.summary}`);
+  const lines = commandIndex.map((command) => `  ${command.words.padEnd(18)} ${command.summary}`);
   return ['usage: earshot <command> [options] [--json]', '', 'commands:', ...lines, '', 'earshot <command> --help lists a command\'s options with an example.'].join('\n');
 }
 
@@ -53,8 +29,9 @@ export async function runCli(argv: string[]): Promise<number> {
   const context: CliContext = { readStdin, progress };
   try {
     const { words, options } = parseArgv(argv);
-    const helpFor = allCommands.find((candidate) => candidate.words === (words[0] === 'help' ? words.slice(1) : words).join(' '));
-    if (helpFor && (options.help === true || words[0] === 'help')) {
+    const helpEntry = findEntry((words[0] === 'help' ? words.slice(1) : words).join(' '));
+    if (helpEntry && (options.help === true || words[0] === 'help')) {
+      const helpFor = await loadCommand(helpEntry);
       process.stdout.write(`${commandHelp(helpFor, helpTexts[helpFor.words])}\n`);
       return 0;
     }
@@ -63,8 +40,9 @@ export async function runCli(argv: string[]): Promise<number> {
       return words.length === 0 && options.help !== true ? 2 : 0;
     }
     const commandWords = words.join(' ');
-    const command = allCommands.find((candidate) => candidate.words === commandWords);
-    if (!command) throw new CliUsageError(`unknown command "${commandWords}" (try: earshot help)`);
+    const entry = findEntry(commandWords);
+    if (!entry) throw new CliUsageError(`unknown command "${commandWords}" (try: earshot help)`);
+    const command = await loadCommand(entry);
     const json = options.json === true;
     delete options.json;
     const parsed = command.options.safeParse(options);

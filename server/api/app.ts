@@ -2,7 +2,7 @@
 // validation, OpenAPI, authentication, error mapping and every route plugin under /api/v1.
 // Other rooms add ONE register line each in registerApiRoutes below.
 import { randomUUID } from 'node:crypto';
-import Fastify, { type FastifyInstance, type FastifyServerOptions } from 'fastify';
+import Fastify, { LogController, type FastifyInstance, type FastifyServerOptions } from 'fastify';
 import cookie from '@fastify/cookie';
 import helmet from '@fastify/helmet';
 import rateLimit from '@fastify/rate-limit';
@@ -170,9 +170,13 @@ export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {
       socket.destroy(error);
     },
     forceCloseConnections: true,
+    // Route plugins do real start-up work (unfinished runs queued again, queues opened): on a busy
+    // machine that can outlast Fastify's 10 s default, which would abort the start.
+    pluginTimeout: 120_000,
     // One line per request, written on completion at config.requestLogLevel (below), instead
-    // of Fastify's two info lines that flood a terminal.
-    disableRequestLogging: true,
+    // of Fastify's two info lines that flood a terminal. (Through the log controller: the
+    // top-level disableRequestLogging option is deprecated, FSTDEP023.)
+    logController: new LogController({ disableRequestLogging: true }),
   }).withTypeProvider<ZodTypeProvider>();
 
   app.decorate('deps', deps);

@@ -15,7 +15,8 @@ import { MIN_PATH_ANTENNA_HEIGHT_M } from '../planning/path.ts';
 import type { AppliedCalibration } from '../planning/spread.ts';
 import { CLUTTER_CLASSES, clutterHeightsByIndex, type ClutterClass } from '../terrain/clutter.ts';
 import { openGeoRaster, type GeoRaster } from '../terrain/raster.ts';
-import { resolveFilePath, type CoverageJobParams } from '../jobs/coverage-job.ts';
+import type { CoverageJobParams } from '../jobs/coverage-job.ts';
+import { resolveStoredFile } from '../db/files.ts';
 import type { LinkEngine } from '../jobs/link-engine.ts';
 import { AppError } from './errors.ts';
 import { planContextFor } from './links.ts';
@@ -88,7 +89,7 @@ export async function resolveCoverageRequest(
   let chosen: { layer: (typeof layers)[number]; path: string } | null = null;
   let firstProblem: CoverageInputError | null = null;
   for (const layer of layers) {
-    const path = resolveFilePath(config, layer.filePath);
+    const path = resolveStoredFile(config, layer.filePath);
     const raster = await openReadableRaster(path);
     if (!raster) continue;
     try {
@@ -128,7 +129,7 @@ export async function resolveCoverageRequest(
       throw new AppError('unprocessable', 'invalid_clutter_heights', `plan settings clutterHeightsM: ${(error as Error).message}`);
     }
     for (const layer of allLayers.filter((l) => l.kind === 'clutter')) {
-      const path = resolveFilePath(config, layer.filePath);
+      const path = resolveStoredFile(config, layer.filePath);
       const raster = await openReadableRaster(path);
       if (!raster) continue;
       try {

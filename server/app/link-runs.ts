@@ -55,7 +55,8 @@ export async function linkRunView(deps: Pick<LinkRunDeps, 'engine'>, run: LinkRu
     id: run.id,
     planId: run.planId,
     status: run.status,
-    progress: run.status === 'done' ? 1 : run.pairsTotal > 0 ? totals.pairsDone / run.pairsTotal : 0,
+    // Done tiles count whole, running ones by the paths predicted so far (recorded at each of their checks).
+    progress: run.status === 'done' ? 1 : run.pairsTotal > 0 ? Math.min(0.999, (totals.pairsDone + totals.pairsRunning) / run.pairsTotal) : 0,
     children: { total: run.tilesTotal, done: totals.tilesDone, retried: totals.tilesRetried, failed: totals.tilesFailed, cancelled: totals.tilesCancelled },
     workers: totals.workers,
     pairs: run.pairsTotal,

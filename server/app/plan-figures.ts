@@ -6,6 +6,8 @@
 // (server/planning/status.ts), kit price (server/planning/kit-price.ts),
 // connectors (server/jobs/link-engine.ts), cautions (server/planning/check.ts).
 import type { Database } from '../db/client.ts';
+import type { GatewayRow } from '../db/repositories/gateways.ts';
+import { listGatewaysForLinks, listNodeKitRows } from '../db/repositories/links.ts';
 import type { PlanRow } from '../db/repositories/plans.ts';
 import { latestDoneSitingRun, listSitesForPlan, teamName, type SiteListRow } from '../db/repositories/scenarios.ts';
 import { sitingPlanFingerprint } from '../db/repositories/siting-runs.ts';
@@ -236,15 +238,28 @@ function gatewayUnitCost(plan: PlanRow): number {
 
 type Catalog = Awaited<ReturnType<typeof loadCatalog>>;
 
-/** The node's one kit price; a node whose antenna is not in the catalog is priced at 0 for it and listed as unpriced. */
-function nodePrice(outcome: NodeLinksOutcome, catalog: Catalog): KitPrice & { mastName: string | null } {
-  const node = outcome.node;
-  const row = node.row;
-  if (node.antenna) return nodeKitPrice({ antenna: node.antenna, feedline: node.feedline ?? null, feedlineLengthM: node.kit.feedlineLengthM, antennaHeightAglM: node.antennaHeightAglM, mastOptionId: row.mastOptionId }, catalog.masts);
+type NodeKitRow = Pick<NodeLinksOutcome['node']['row'], 'antennaDesignId' | 'feedlineId' | 'feedlineLengthM' | 'antennaHeightAglM' | 'mastOptionId'>;
+
+/**
+ * A node row's one kit price from the team's catalog (nodeKitPrice); a node whose antenna is
+ * not in the catalog is priced at 0 for it and listed as unpriced. The report's bill of
+ * materials and GET /plans/{id}/bom (the summary view's kit cost) both price nodes here.
+ */
+function nodeRowPrice(row: NodeKitRow, catalog: Catalog): KitPrice & { mastName: string | null } {
   const antenna = catalog.antennas.find((a) => a.id === row.antennaDesignId);
   const feedline = row.feedlineId ? (catalog.feedlines.find((f) => f.id === row.feedlineId) ?? null) : null;
   const price = nodeKitPrice({ antenna: antenna ?? { name: row.antennaDesignId, costUsd: 0 }, feedline, feedlineLengthM: feedline ? row.feedlineLengthM : 0, antennaHeightAglM: row.antennaHeightAglM, mastOptionId: row.mastOptionId }, catalog.masts);
   return antenna ? price : { ...price, unpriced: [...price.unpriced, `antenna ${row.antennaDesignId}`] };
+}
+
+type GatewayKitRow = Pick<GatewayRow, 'antennaDesignId' | 'feedlineId' | 'feedlineLengthM' | 'mastOptionId'>;
+
+/** A gateway row's kit price (gatewayKitPrice); null when its antenna or feedline is not in the catalog (the link engine leaves such a gateway out). */
+function gatewayRowPrice(row: GatewayKitRow, catalog: Catalog): (KitPrice & { mastName: string | null }) | null {
+  const antenna = catalog.antennas.find((a) => a.id === row.antennaDesignId);
+  const feedline = catalog.feedlines.find((f) => f.id === row.feedlineId);
+  if (!antenna || !feedline) return null;
+  return gatewayKitPrice({ antenna, feedline, feedlineLengthM: row.feedlineLengthM, mastOptionId: row.mastOptionId }, catalog.masts);
 }
 
 function nodeFigure(outcome: NodeLinksOutcome, names: Map<string, string>, price: KitPrice & { mastName: string | null }): NodeFigure {
@@ -320,7 +335,7 @@ export async function planFigures(engine: LinkEngine, plan: PlanRow, onProgress?
   await engine.fleetEach(
     ctx,
     (outcome) => {
-      const price = nodePrice(outcome, catalog);
+      const price = nodeRowPrice(outcome.node.row, catalog);
       nodes.push(nodeFigure(outcome, names, price));
       bomBuilder.add({ kind: 'node', id: outcome.node.row.id, name: outcome.node.row.name, price });
       if (withCapacity) capacityEntries.push(capacityEntryOf(ctx, outcome, 1, gatewayIndex));
@@ -355,7 +370,7 @@ export async function planFigures(engine: LinkEngine, plan: PlanRow, onProgress?
   }
   const gatewayPrices = new Map<string, KitPrice & { mastName: string | null }>();
   for (const g of ctx.gateways) {
-    const price = gatewayKitPrice({ antenna: g.antenna, feedline: g.feedline, feedlineLengthM: g.row.feedlineLengthM, mastOptionId: g.row.mastOptionId }, catalog.masts);
+    const price = gatewayRowPrice(g.row, catalog) ?? gatewayKitPrice({ antenna: g.antenna, feedline: g.feedline, feedlineLengthM: g.row.feedlineLengthM, mastOptionId: g.row.mastOptionId }, catalog.masts);
     gatewayPrices.set(g.row.id, price);
     bomBuilder.add({ kind: 'gateway', id: g.row.id, name: g.row.name, price, siteId: g.row.siteId });
   }
@@ -425,4 +440,22 @@ export async function planFigures(engine: LinkEngine, plan: PlanRow, onProgress?
     cautions: installCautions(s.bandPlan.cautions),
     warnings: [...ctx.warnings],
   };
+}
+
+/**
+ * The plan's bill of materials without the fleet pass: every node and gateway row priced by
+ * the same functions as the report's (nodeRowPrice, gatewayRowPrice over the team's catalog),
+ * the same gateway radio and site works, so GET /plans/{id}/bom (the summary view's kit cost)
+ * equals the report's figures. Gateways whose kit is not in the catalog are left out, as the
+ * link engine leaves them out of the report.
+ */
+export async function planBillOfMaterials(db: Database, plan: PlanRow): Promise<BillOfMaterials> {
+  const [catalog, sites, nodes, gateways] = await Promise.all([loadCatalog(db, plan.teamId), listSitesForPlan(db, plan.id), listNodeKitRows(db, plan.id), listGatewaysForLinks(db, plan.id)]);
+  const builder = new BomBuilder();
+  for (const row of nodes) builder.add({ kind: 'node', id: row.id, name: row.name, price: nodeRowPrice(row, catalog) });
+  for (const row of gateways) {
+    const price = gatewayRowPrice(row, catalog);
+    if (price) builder.add({ kind: 'gateway', id: row.id, name: row.name, price, siteId: row.siteId });
+  }
+  return builder.finish({ gatewayUnitCostUsd: gatewayUnitCost(plan), sites: sites.map((site) => ({ id: site.id, name: site.name, costUsd: site.costUsd })) });
 }

@@ -6,12 +6,13 @@ import { existsSync } from 'node:fs';
 import { join } from 'node:path';
 import type { Config } from '../config.ts';
 import type { PlanRow } from '../db/repositories/plans.ts';
-import { latestDoneCoverageRun } from '../db/repositories/scenarios.ts';
+import { latestDoneCoverageRun, planPositions } from '../db/repositories/scenarios.ts';
 import { allTerrainLayers } from '../db/repositories/terrain-layers.ts';
-import { RESULT_FILES, resolveFilePath, resultDir, type CoverageJobParams } from '../jobs/coverage-job.ts';
+import type { CoverageJobParams } from '../jobs/coverage-job.ts';
+import { RESULT_FILES, resolveStoredFile, resultDir } from '../db/files.ts';
 import type { LinkEngine } from '../jobs/link-engine.ts';
 import { openGeoRaster, type GeoRaster } from '../terrain/raster.ts';
-import { composeMapImage, fitView, paddedBox, renderMapTiles } from '../report/map.ts';
+import { fitView, paddedBox, renderMapImage } from '../report/map.ts';
 import { isTimeZone, MAX_RISK_NAMES, renderReportPdf, reportTime, type ReportModel } from '../report/pdf.ts';
 import { AppError } from './errors.ts';
 import { exportFileName } from './exports.ts';
@@ -60,7 +61,7 @@ async function openElevation(engine: LinkEngine, config: Config, planId: string)
   const rasters: GeoRaster[] = [];
   for (const row of rows) {
     try {
-      rasters.push(await openGeoRaster(resolveFilePath(config, row.filePath)));
+      rasters.push(await openGeoRaster(resolveStoredFile(config, row.filePath)));
     } catch {
       // An unreadable layer leaves the map without relief there; the link engine reports it in the warnings.
     }
@@ -138,50 +139,54 @@ export interface PlanReportOptions {
 export async function planReport(engine: LinkEngine, config: Config, plan: PlanRow, options: PlanReportOptions = {}): Promise<{ fileName: string; pdf: Buffer; figures: PlanFigures }> {
   const timeZone = options.timeZone ?? null;
   if (timeZone !== null && !isTimeZone(timeZone)) throw new AppError('invalid_input', 'invalid_input', `tz: "${timeZone}" is not an IANA time zone (such as Europe/Berlin)`);
-  const figures = await planFigures(engine, plan, options.onProgress ? (x) => options.onProgress?.(x * 0.8) : undefined);
-  const box = paddedBox([...figures.nodes, ...figures.gateways, ...figures.sites]);
-  const elevation = await openElevation(engine, config, plan.id);
-  const margin = await latestMargin(engine, config, plan.id, timeZone);
-  try {
-    let map: ReportModel['map'] = null;
-    if (box) {
+  // The map first, from the plan's positions alone, then the fleet pass: the map's raster
+  // buffers are made and freed before the fleet's garbage grows the heap, so the two peaks
+  // do not stack (the 5,000-node bench: npm run bench -- report).
+  let map: ReportModel['map'] = null;
+  const box = paddedBox(await planPositions(engine.database, plan.id));
+  const margin = box ? await latestMargin(engine, config, plan.id, timeZone) : null;
+  if (box) {
+    const elevation = await openElevation(engine, config, plan.id);
+    try {
       const view = fitView(box, MAP_WIDTH_PX, MAP_HEIGHT_PX);
-      const tiles = await renderMapTiles(view, elevation, margin?.raster ?? null);
-      map = { view, image: composeMapImage(view, tiles), coverage: margin?.description ?? null, terrain: figures.assumptions.terrain };
+      map = { view, image: await renderMapImage(view, elevation, margin?.raster ?? null), coverage: margin?.description ?? null, terrain: '' };
+    } finally {
+      await Promise.all([...elevation.map((r) => r.close()), margin?.raster.close()]);
     }
-    options.onProgress?.(0.9);
-    const model: ReportModel = {
-      title: `${plan.name}: coverage report`,
-      plan: { id: plan.id, name: plan.name, description: plan.description, teamName: figures.plan.teamName },
-      generatedAt: figures.generatedAt,
-      timeZone,
-      basis: basisOf(figures),
-      counts: figures.counts,
-      redundancy: figures.redundancy,
-      nodes: figures.nodes,
-      gateways: figures.gateways,
-      sites: figures.sites,
-      map,
-      capacity: capacityRows(figures),
-      capacityNote: figures.capacity
-        ? `Model: ${figures.capacity.method}. ${figures.capacity.cautions.join(' ')} Sources: ${figures.capacity.sources.join('; ')}.`
-        : 'No capacity figures: the plan has no gateway (or no node) to load. The duty-cycle check per node (band plan rule, at the SF used) is in the risk list.',
-      siting: sitingSection(figures, timeZone),
-      risks: [
-        { title: 'Unserved nodes', explanation: 'Best margin below 0 dB: messages get through less than half the time.', entries: figures.risks.unserved },
-        { title: 'Heard by a single gateway', explanation: 'One gateway hears these nodes with margin ≥ 0 dB: a fault or outage at that gateway loses them.', entries: figures.risks.singleGateway },
-        { title: 'Illegal configurations', explanation: `Radiated power above the ${figures.assumptions.bandPlanName} limit on at least one link: reduce transmit power or antenna gain.`, entries: figures.risks.illegal },
-        { title: 'Over the duty cycle', explanation: figures.capacity ? 'More messages per hour than the band plan’s duty-cycle (or dwell-time) budget allows at the SF the node uses (capacity engine).' : 'More messages per hour than the band plan’s duty-cycle rule allows at the SF the node uses.', entries: figures.risks.overDutyCycle },
-      ],
-      bom: figures.bom,
-      assumptions: assumptionsOf(figures),
-      warnings: figures.warnings,
-      cautions: figures.cautions,
-    };
-    const pdf = await renderReportPdf(model);
-    options.onProgress?.(1);
-    return { fileName: exportFileName(plan, 'report', 'pdf'), pdf, figures };
-  } finally {
-    await Promise.all([...elevation.map((r) => r.close()), margin?.raster.close()]);
   }
+  options.onProgress?.(0.1);
+  const figures = await planFigures(engine, plan, options.onProgress ? (x) => options.onProgress?.(0.1 + x * 0.8) : undefined);
+  if (map) map.terrain = figures.assumptions.terrain;
+  options.onProgress?.(0.9);
+  const model: ReportModel = {
+    title: `${plan.name}: coverage report`,
+    plan: { id: plan.id, name: plan.name, description: plan.description, teamName: figures.plan.teamName },
+    generatedAt: figures.generatedAt,
+    timeZone,
+    basis: basisOf(figures),
+    counts: figures.counts,
+    redundancy: figures.redundancy,
+    nodes: figures.nodes,
+    gateways: figures.gateways,
+    sites: figures.sites,
+    map,
+    capacity: capacityRows(figures),
+    capacityNote: figures.capacity
+      ? `Model: ${figures.capacity.method}. ${figures.capacity.cautions.join(' ')} Sources: ${figures.capacity.sources.join('; ')}.`
+      : 'No capacity figures: the plan has no gateway (or no node) to load. The duty-cycle check per node (band plan rule, at the SF used) is in the risk list.',
+    siting: sitingSection(figures, timeZone),
+    risks: [
+      { title: 'Unserved nodes', explanation: 'Best margin below 0 dB: messages get through less than half the time.', entries: figures.risks.unserved },
+      { title: 'Heard by a single gateway', explanation: 'One gateway hears these nodes with margin ≥ 0 dB: a fault or outage at that gateway loses them.', entries: figures.risks.singleGateway },
+      { title: 'Illegal configurations', explanation: `Radiated power above the ${figures.assumptions.bandPlanName} limit on at least one link: reduce transmit power or antenna gain.`, entries: figures.risks.illegal },
+      { title: 'Over the duty cycle', explanation: figures.capacity ? 'More messages per hour than the band plan’s duty-cycle (or dwell-time) budget allows at the SF the node uses (capacity engine).' : 'More messages per hour than the band plan’s duty-cycle rule allows at the SF the node uses.', entries: figures.risks.overDutyCycle },
+    ],
+    bom: figures.bom,
+    assumptions: assumptionsOf(figures),
+    warnings: figures.warnings,
+    cautions: figures.cautions,
+  };
+  const pdf = await renderReportPdf(model);
+  options.onProgress?.(1);
+  return { fileName: exportFileName(plan, 'report', 'pdf'), pdf, figures };
 }

@@ -43,7 +43,7 @@ import type { LinkRunJobs } from '../jobs/link-runs.ts';
 import { kitCostUsd } from '../planning/recommend.ts';
 import { DEFAULT_GATEWAY_ANTENNA_ID, DEFAULT_GATEWAY_FEEDLINE_ID, DEFAULT_GATEWAY_NOISE_FIGURE_DB } from '../planning/gateway-kit.ts';
 import { isExcluded, localHighPoints, parseExclusionAreas, pickSpaced, type ExclusionArea, type HighPoint, type LonLatBox } from '../siting/candidates.ts';
-import { coverInstance, hearingCounts, marginalNodes, requirements, selectionCostUsd, selectionCount, coveredMask, type CoverOptions } from '../siting/cover.ts';
+import { coverInstance, hearingCounts, marginalNodes, requirements, selectionCostUsd, selectionCount, type CoverOptions } from '../siting/cover.ts';
 import { solveSiting } from '../siting/milp.ts';
 import { packMatrix, unpackMatrix } from '../siting/matrix-pack.ts';
 import { openGeoRaster } from '../terrain/raster.ts';
@@ -430,9 +430,12 @@ export async function solveMatrix(matrix: SitingMatrix, params: Omit<SitingReque
   };
   const solution = solveSiting(highs, instance, options, { timeLimitS: params.timeLimitS ?? 10 });
   const required = requirements(instance, params.requiredGateways);
-  const covered = coveredMask(instance, solution.selected, required);
-  const lost = marginalNodes(instance, solution.selected, required);
+  // The one covered set (the solver's answer, within any capacity cap): coveredNodeIds, the
+  // objective and each site's nodesOnlyHere are all counted on it.
+  const covered = solution.covered;
+  const lost = marginalNodes(instance, solution.selected, required, covered);
   const heard = hearingCounts(instance, new Uint8Array(instance.candidateCount).fill(1));
+  const heardByChosen = hearingCounts(instance, solution.selected);
   const budget = options.budgetUsd !== undefined || options.maxGateways !== undefined;
   const byCandidate = new Map<number, number>();
   for (let i = 0; i < instance.nodeCount; i++) {
@@ -461,10 +464,11 @@ export async function solveMatrix(matrix: SitingMatrix, params: Omit<SitingReque
     if (covered[i]) coveredNodeIds.push(id);
     else if (required[i] === 0) uncovered.push({ nodeId: id, name, reason: 'no candidate hears it at the plan\'s target margin and delivery' });
     else if (solution.status === 'infeasible') uncovered.push({ nodeId: id, name, reason: 'no answer: the rules cannot all be met' });
+    else if (options.maxNodesPerGateway !== undefined && heardByChosen[i] >= required[i]) uncovered.push({ nodeId: id, name, reason: `heard by the chosen gateways, but they are full (at most ${options.maxNodesPerGateway} nodes each)` });
     else uncovered.push({ nodeId: id, name, reason: budget ? 'left out to stay within the budget or gateway limit' : 'not covered by the chosen set' });
     if (required[i] > 0 && heard[i] < params.requiredGateways) shortOfRequired.push({ nodeId: id, name, candidatesHearing: heard[i] });
   }
-  const greedyCovered = coveredMask(instance, solution.greedy.selected, required);
+  const greedyCovered = solution.greedy.covered;
   const gateways = selectionCount(solution.selected);
   const removed: SitingResult['removed'] = [];
   if (solution.status !== 'infeasible') {

@@ -4,7 +4,6 @@
 //
 // Why a browser session is its own token: the cookie must be revocable on its own (sign-out
 // ends it on the server) without touching the API token a teammate pasted to get it.
-import QRCode from 'qrcode';
 import type { Config } from '../config.ts';
 import type { Database } from '../db/client.ts';
 import { createUser, issueToken, type Principal, type Role } from '../db/repositories/accounts.ts';
@@ -32,6 +31,7 @@ export function signInLink(baseUrl: string, token: string): string {
 
 /** An SVG QR code of the link (error correction M: survives a smudged phone screen). */
 export async function linkQrSvg(link: string): Promise<string> {
+  const { default: QRCode } = await import('qrcode'); // loaded when a link is drawn, not by every importer
   return QRCode.toString(link, { type: 'svg', errorCorrectionLevel: 'M', margin: 2, color: { dark: '#1b2430', light: '#ffffff' } });
 }
 

@@ -5,13 +5,12 @@
 import { z } from 'zod';
 import { capacityScenario, type ScenarioAnswer } from '../app/capacity.ts';
 import { isAppError } from '../app/errors.ts';
-import { CliUsageError, defineCommand, stringOption, type CliCommand } from './framework.ts';
+import { CliUsageError, defineCommand, stringOption, type CommandDefinition } from './framework.ts';
 import { readInput } from './propagation.ts';
 
-export const capacityCommands: CliCommand[] = [
+export const capacityCommands: CommandDefinition[] = [
   defineCommand({
     words: 'capacity',
-    summary: 'Airtime, offered load, collision survival and duty-cycle budget of node groups at one gateway (--input FILE|-)',
     options: z.strictObject({ input: stringOption() }),
     async run(options, context) {
       const raw = await readInput(options.input, context.readStdin);

@@ -5,7 +5,7 @@
 // loss in dB (Float32, −9999 outside the radius).
 import { performance } from 'node:perf_hooks';
 import { z } from 'zod';
-import { CliUsageError, defineCommand, integerOption, latLonOption, numberOption, stringOption, type CliCommand } from './framework.ts';
+import { CliUsageError, defineCommand, integerOption, latLonOption, numberOption, stringOption, type CommandDefinition } from './framework.ts';
 import { openGeoRaster, RasterError } from '../terrain/raster.ts';
 import { CoverageInputError, loadTerrainWindow, writeOnRasterGrid } from '../coverage/terrain-window.ts';
 import { runArea } from '../jobs/area-runner.ts';
@@ -27,10 +27,9 @@ const options = z.object({
   out: stringOption(),
 });
 
-export const coverageCommands: CliCommand[] = [
+export const coverageCommands: CommandDefinition[] = [
   defineCommand({
     words: 'coverage',
-    summary: 'area prediction for one gateway on a DEM: los | fast | full → GeoTIFF',
     options,
     run: async (o, context) => {
       const started = performance.now();

@@ -6,7 +6,7 @@ import { loadConfig } from '../config.ts';
 import { dataFolderHolder, openDatabase } from '../db/client.ts';
 import { NotFoundError } from '../db/errors.ts';
 import { listNodesForAdmin, listPlansForAdmin, type NodeListItem, type PlanListItem } from '../app/fleet-lists.ts';
-import { CliUsageError, defineCommand, stringOption, type CliCommand } from './framework.ts';
+import { CliUsageError, defineCommand, stringOption, type CommandDefinition } from './framework.ts';
 import { callRunningServer, readRunningServer } from './running-server.ts';
 
 type ListOperation = 'plans-list' | 'nodes-list';
@@ -33,10 +33,9 @@ async function runListOperation(operation: ListOperation, body: Record<string, u
   }
 }
 
-export const fleetListCommands: CliCommand[] = [
+export const fleetListCommands: CommandDefinition[] = [
   defineCommand({
     words: 'plans',
-    summary: 'List plans with their ids, teams and sizes',
     options: z.strictObject({ team: stringOption().optional().describe('only this team (slug)') }),
     examples: ['earshot plans', 'earshot plans --team demo --json'],
     run: (options) => runListOperation('plans-list', options.team ? { team: options.team } : {}),
@@ -48,7 +47,6 @@ export const fleetListCommands: CliCommand[] = [
   }),
   defineCommand({
     words: 'nodes',
-    summary: "List a plan's nodes (and gateways) with ids and names",
     options: z.strictObject({ plan: stringOption().describe('plan id (see earshot plans)') }),
     examples: ['earshot nodes --plan <plan id from earshot plans>'],
     run: (options) => runListOperation('nodes-list', { plan: options.plan }),

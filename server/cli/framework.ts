@@ -19,10 +19,15 @@ export interface CliContext {
   progress: (fraction: number, label?: string) => void;
 }
 
-export interface CliCommand<S extends z.ZodType = z.ZodType> {
+export interface CliCommand<S extends z.ZodType = z.ZodType> extends CommandDefinition<S> {
+  /** One line for `earshot help`; it lives in the command index (server/cli/commands.ts). */
+  summary: string;
+}
+
+/** What a command module defines: everything but the summary, which the index holds. */
+export interface CommandDefinition<S extends z.ZodType = z.ZodType> {
   /** Command words, e.g. "airtime" or "token issue". */
   words: string;
-  summary: string;
   /** Schema over the options with their kebab-case names as keys (values arrive as strings or `true`). */
   options: S;
   run: (options: z.infer<S>, context: CliContext) => Promise<unknown> | unknown;
@@ -33,8 +38,8 @@ export interface CliCommand<S extends z.ZodType = z.ZodType> {
 }
 
 /** Helper so each command file gets its option types inferred. */
-export function defineCommand<S extends z.ZodType>(command: CliCommand<S>): CliCommand {
-  return command as unknown as CliCommand;
+export function defineCommand<S extends z.ZodType>(command: CommandDefinition<S>): CommandDefinition {
+  return command as unknown as CommandDefinition;
 }
 
 /** Splits argv into command words and raw options. */

@@ -15,7 +15,7 @@ import { linkReport, recommendReport, type NodeLinksView } from '../app/links.ts
 import type { NodeRecommendation } from '../app/recommend.ts';
 import { cautionLines } from '../planning/cautions.ts';
 import { PlanSettingsError } from '../planning/settings.ts';
-import { CliUsageError, defineCommand, numberOption, stringOption, type CliCommand } from './framework.ts';
+import { CliUsageError, defineCommand, numberOption, stringOption, type CommandDefinition } from './framework.ts';
 import { callRunningServer, readRunningServer } from './running-server.ts';
 
 type LinkOperation = 'link' | 'recommend';
@@ -47,10 +47,9 @@ export async function runLinkOperation(operation: LinkOperation, body: Record<st
   }
 }
 
-export const linkCommands: CliCommand[] = [
+export const linkCommands: CommandDefinition[] = [
   defineCommand({
     words: 'link',
-    summary: "A node's predicted links to the plan's gateways (--plan ID --node ID [--gateway ID])",
     options: z.strictObject({ plan: stringOption(), node: stringOption(), gateway: stringOption().optional() }),
     async run(options) {
       return runLinkOperation('link', { plan: options.plan, node: options.node, ...(options.gateway ? { gateway: options.gateway } : {}) });
@@ -63,7 +62,6 @@ export const linkCommands: CliCommand[] = [
   }),
   defineCommand({
     words: 'recommend',
-    summary: 'Kit options for a node, cheapest meeting the target first (--plan ID --node ID [--target-margin-db N] [--target-delivery P] [--max-cost N])',
     options: z.strictObject({
       plan: stringOption(),
       node: stringOption(),

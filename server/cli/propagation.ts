@@ -3,7 +3,7 @@
 // server/propagation/; this file reads the input, validates it and prints the result.
 import { readFile } from 'node:fs/promises';
 import { z } from 'zod';
-import { CliUsageError, defineCommand, stringOption, type CliCommand } from './framework.ts';
+import { CliUsageError, defineCommand, stringOption, type CommandDefinition } from './framework.ts';
 import { describePathRequestError, pathRequestSchema, type PathRequest } from '../propagation/path-request.ts';
 import {
   predictPath,
@@ -93,10 +93,9 @@ function formatText(result: unknown): string {
   return lines.join('\n');
 }
 
-export const propagationCommands: CliCommand[] = [
+export const propagationCommands: CommandDefinition[] = [
   defineCommand({
     words: 'predict-path',
-    summary: 'Path loss and field strength over one profile (ITU-R P.1812-8, Bullington, knife-edge, Deygout, free space)',
     options: z.object({ input: stringOption() }),
     run: async (options, context) => {
       const raw = await readInput(options.input, context.readStdin);

@@ -1,7 +1,7 @@
 // Radio commands: airtime, sensitivity, mismatch, build-sheet, bands, battery.
 // Thin: each parses its options, calls server/radio and returns one document.
 import { z } from 'zod';
-import { CliUsageError, defineCommand, integerOption, numberOption, stringOption, type CliCommand } from './framework.ts';
+import { CliUsageError, defineCommand, integerOption, numberOption, stringOption, type CommandDefinition } from './framework.ts';
 import {
   CODING_RATES,
   LORA_BANDWIDTH_LABELS_KHZ,
@@ -61,7 +61,6 @@ const onOffOption = (fallback: 'on' | 'off') =>
 
 const airtime = defineCommand({
   words: 'airtime',
-  summary: 'LoRa time on air of one frame (SX1276 §4.1.1.6 / SX1261 §6.1.4)',
   options: options({
     sf: required(spreadingFactorOption()),
     'bw-khz': required(bandwidthOption()),
@@ -114,7 +113,6 @@ const airtime = defineCommand({
 
 const sensitivity = defineCommand({
   words: 'sensitivity',
-  summary: 'LoRa receiver sensitivity, noise floor and SNR floor for an SF and bandwidth',
   options: options({
     sf: required(spreadingFactorOption()),
     'bw-khz': required(bandwidthOption()),
@@ -142,7 +140,6 @@ const sensitivity = defineCommand({
 
 const mismatch = defineCommand({
   words: 'mismatch',
-  summary: 'Reflection coefficient, return loss and mismatch loss from VSWR',
   options: options({
     vswr: required(numberOption().refine((v) => v >= 1, { message: 'VSWR must be at least 1' })),
   }),
@@ -165,9 +162,8 @@ const mismatch = defineCommand({
 
 const buildSheetCommand = defineCommand({
   words: 'build-sheet',
-  summary: `Cut lengths and tuning advice for a hand-built antenna (${BUILD_SHEET_IDS.join(', ')})`,
   options: options({
-    design: required(stringOption()),
+    design: required(stringOption()).describe(`antenna design: ${BUILD_SHEET_IDS.join(', ')}`),
     'frequency-mhz': required(numberOption().refine((f) => f > 0, { message: 'must be a positive frequency in MHz' })),
     radials: integerOption().optional(),
     'droop-deg': numberOption().optional(),
@@ -226,7 +222,6 @@ function bandDocument(plan: BandPlan) {
 
 const bands = defineCommand({
   words: 'bands',
-  summary: 'Band plans with their power, duty-cycle and dwell-time limits and LoRaWAN channel plans',
   options: options({
     band: stringOption().optional(),
   }),
@@ -258,7 +253,6 @@ const nonNegativeOption = () => numberOption().refine((v) => v >= 0, { message: 
 
 const battery = defineCommand({
   words: 'battery',
-  summary: 'Battery life estimate for a node, with its assumptions',
   options: options({
     'capacity-mah': required(positiveOption()),
     'messages-per-day': required(nonNegativeOption()),
@@ -301,4 +295,4 @@ const battery = defineCommand({
   },
 });
 
-export const radioCommands: CliCommand[] = [airtime, sensitivity, mismatch, buildSheetCommand, bands, battery];
+export const radioCommands: CommandDefinition[] = [airtime, sensitivity, mismatch, buildSheetCommand, bands, battery];

@@ -13,7 +13,7 @@ import { LinkEngine } from '../jobs/link-engine.ts';
 import { isAppError } from '../app/errors.ts';
 import { PlanSettingsError } from '../planning/settings.ts';
 import { reportFile, type ReportFile, type ReportFileInput } from '../app/report-files.ts';
-import { CliUsageError, defineCommand, stringOption, type CliCommand } from './framework.ts';
+import { CliUsageError, defineCommand, stringOption, type CommandDefinition } from './framework.ts';
 import { callRunningServer, readRunningServer } from './running-server.ts';
 
 export async function fetchReportFile(input: ReportFileInput, env: NodeJS.ProcessEnv = process.env): Promise<ReportFile> {
@@ -55,10 +55,9 @@ const formatText = (result: unknown) => {
   return `wrote ${r.out} (${r.bytes} bytes, ${r.contentType})${r.counts ? `; nodes served ${r.counts.served}, marginal ${r.counts.marginal}, unserved ${r.counts.unserved}` : ''}`;
 };
 
-export const reportCommands: CliCommand[] = [
+export const reportCommands: CommandDefinition[] = [
   defineCommand({
     words: 'report',
-    summary: "A plan's PDF report: cover, map, service, redundancy, risks, bill of materials, cautions (--plan ID --out FILE.pdf)",
     options: z.strictObject({ plan: stringOption(), out: stringOption() }),
     async run(options) {
       return writeOut(await fetchReportFile({ plan: options.plan, kind: 'report', tz: Intl.DateTimeFormat().resolvedOptions().timeZone }), options.out);
@@ -67,7 +66,6 @@ export const reportCommands: CliCommand[] = [
   }),
   defineCommand({
     words: 'export',
-    summary: 'A plan as GeoJSON, KML, the fleet CSV or the bill of materials CSV (--plan ID --format geojson|kml|csv|bom --out FILE)',
     options: z.strictObject({
       plan: stringOption(),
       format: z.enum(['geojson', 'kml', 'csv', 'bom'], { error: 'must be geojson, kml, csv or bom' }),

@@ -9,7 +9,7 @@ import { dataFolderHolder, openDatabase } from '../db/client.ts';
 import { LinkEngine } from '../jobs/link-engine.ts';
 import { AppError } from '../app/errors.ts';
 import { sitingReport, type SitingReportInput, type SitingResult } from '../app/siting.ts';
-import { CliUsageError, defineCommand, flagOption, integerOption, numberOption, stringOption, type CliCommand } from './framework.ts';
+import { CliUsageError, defineCommand, flagOption, integerOption, numberOption, stringOption, type CommandDefinition } from './framework.ts';
 import { callRunningServer, readRunningServer } from './running-server.ts';
 
 /** Runs a siting request on the configured database, or through the server that holds it. */
@@ -41,10 +41,9 @@ export async function runSiting(input: SitingReportInput, env: NodeJS.ProcessEnv
 
 const positive = () => numberOption().refine((v) => v >= 0, { message: 'must be ≥ 0' });
 
-export const sitingCommands: CliCommand[] = [
+export const sitingCommands: CommandDefinition[] = [
   defineCommand({
     words: 'siting',
-    summary: 'Fewest (or cheapest) gateways so every node is heard by k of them (--plan ID --k 1|2|3 [--terrain-points N] [--no-sites] [--keep-existing] [--budget-usd B] [--max-gateways G] [--max-nodes-per-gateway M] [--minimise gateways|cost])',
     options: z.strictObject({
       plan: stringOption(),
       k: integerOption().refine((v) => v >= 1 && v <= 3, { message: 'must be 1, 2 or 3' }),

@@ -1,7 +1,7 @@
 // Commands of the terrain room: `earshot profile`, and `earshot terrain upload` (through the running server).
 import { existsSync } from 'node:fs';
 import { z } from 'zod';
-import { CliUsageError, defineCommand, latLonOption, numberOption, stringOption, type CliCommand } from './framework.ts';
+import { CliUsageError, defineCommand, latLonOption, numberOption, stringOption, type CommandDefinition } from './framework.ts';
 import { clutterClassName, extractProfile } from '../terrain/profile.ts';
 import { RasterError } from '../terrain/raster.ts';
 import { openTerrainStore, type TerrainFile } from '../terrain/store.ts';
@@ -29,7 +29,6 @@ const round = (value: number, digits: number) => Number(value.toFixed(digits));
 
 const profileCommand = defineCommand({
   words: 'profile',
-  summary: 'terrain profile along the geodesic between two positions',
   options: z.object({
     terrain: stringOption().transform((value) => value.split(',').map((part) => part.trim()).filter((part) => part.length > 0)),
     from: latLonOption(),
@@ -109,7 +108,6 @@ interface UploadedLayer {
  */
 const uploadCommand = defineCommand({
   words: 'terrain upload',
-  summary: 'Upload a GeoTIFF terrain layer to a plan through the running server (--plan ID --file F.tif [--kind elevation|clutter] [--name TEXT])',
   options: z.strictObject({
     plan: stringOption(),
     file: stringOption(),
@@ -134,4 +132,4 @@ const uploadCommand = defineCommand({
   },
 });
 
-export const terrainCommands: CliCommand[] = [profileCommand, uploadCommand];
+export const terrainCommands: CommandDefinition[] = [profileCommand, uploadCommand];

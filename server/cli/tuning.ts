@@ -5,11 +5,10 @@ import { basename } from 'node:path';
 import { z } from 'zod';
 import { TuneError, tuneSweep } from '../app/tuning.ts';
 import type { TuneResult } from '../tuning/analyse.ts';
-import { CliUsageError, defineCommand, flagOption, numberOption, stringOption, type CliCommand } from './framework.ts';
+import { CliUsageError, defineCommand, flagOption, numberOption, stringOption, type CommandDefinition } from './framework.ts';
 
 const tune = defineCommand({
   words: 'tune',
-  summary: 'Antenna tuning from a VSWR sweep (--s1p FILE or --csv FILE, --band ID, --design ID --length-mm L)',
   options: z.strictObject(
     {
       s1p: stringOption().optional(),
@@ -61,4 +60,4 @@ const tune = defineCommand({
   },
 });
 
-export const tuningCommands: CliCommand[] = [tune];
+export const tuningCommands: CommandDefinition[] = [tune];

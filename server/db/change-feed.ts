@@ -8,7 +8,7 @@
 // must not memoise (they read the database as before); a reconnect bumps the generation
 // because notifications sent meanwhile are lost.
 import type { PGlite } from '@electric-sql/pglite';
-import pg from 'pg';
+import type pg from 'pg';
 
 export const changeChannel = 'earshot_change';
 
@@ -67,7 +67,9 @@ export function postgresChangeFeed(url: string): ChangeFeed {
   };
   const connect = async () => {
     if (closed) return;
-    const next = new pg.Client({ connectionString: url, connectionTimeoutMillis: 5000 });
+    const { default: pgModule } = await import('pg'); // loaded by PostgreSQL processes only
+    if (closed) return;
+    const next = new pgModule.Client({ connectionString: url, connectionTimeoutMillis: 5000 });
     next.on('error', () => {
       if (client === next) lost();
     });

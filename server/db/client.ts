@@ -5,32 +5,30 @@ import { closeSync, existsSync, mkdirSync, openSync, readFileSync, rmSync, write
 import { join } from 'node:path';
 import { PGlite } from '@electric-sql/pglite';
 import { PrismaPGlite } from 'pglite-prisma-adapter';
-import { PrismaPg } from '@prisma/adapter-pg';
-import pg from 'pg';
+import type pg from 'pg';
 import { PrismaClient } from './generated/client.ts';
 import type { Config } from '../config.ts';
 import { applyMigrations, type RawSql } from './migrate.ts';
 import { pgliteChangeFeed, postgresChangeFeed, type ChangeFeed } from './change-feed.ts';
+import type { Database } from './database.ts';
 import { commitCheckingPglite } from './pglite-commit.ts';
 import { syncBuiltInKit } from './repositories/kit.ts';
 
 export { PrismaClient };
+export type { Database } from './database.ts';
 export type { Prisma } from './generated/client.ts';
 
-export interface Database {
-  prisma: PrismaClient;
-  engine: 'pglite' | 'postgres';
-  /** Raw SQL on the same database (migrations, test resets, advisory locks). */
-  raw: RawSql;
-  /**
-   * Committed changes to the tables answers are built from (server/db/change-feed.ts); absent
-   * on a Database bound to a transaction (its reads must never be memoised).
-   */
-  changes?: ChangeFeed;
-  close(): Promise<void>;
-}
-
 export interface OpenOptions {
+  /**
+   * Listen for committed changes (default true). One-shot commands pass false: they keep no
+   * memo, so a feed would only cost its start.
+   */
+  changeFeed?: boolean;
+  /**
+   * Bring the built-in kit catalog up to date on open (default true). Commands that never read
+   * the kit (the admin commands) pass false; the next server or worker start syncs it.
+   */
+  syncKit?: boolean;
   /** PGlite only: an in-memory database (tests); nothing is written to the data folder. */
   memory?: boolean;
   /** Skip applying migrations (the schema agreement test applies them itself). */
@@ -151,7 +149,7 @@ async function openPglite(config: Config, options: OpenOptions): Promise<Databas
     const raw = pgliteRaw(client);
     if (!options.skipMigrations) await applyMigrations(raw);
     const prisma = new PrismaClient({ adapter: commitCheckingPglite(new PrismaPGlite(client)) });
-    const changes = options.skipMigrations ? undefined : await pgliteChangeFeed(client); // the triggers come with the migrations
+    const changes = options.skipMigrations || options.changeFeed === false ? undefined : await pgliteChangeFeed(client); // the triggers come with the migrations
     const db: Database = {
       prisma,
       engine: 'pglite',
@@ -164,7 +162,7 @@ async function openPglite(config: Config, options: OpenOptions): Promise<Databas
         release();
       },
     };
-    if (!options.skipMigrations) await syncBuiltInKit(db);
+    if (!options.skipMigrations && options.syncKit !== false) await syncBuiltInKit(db);
     return db;
   } catch (error) {
     await client.close().catch(() => {});
@@ -174,6 +172,8 @@ async function openPglite(config: Config, options: OpenOptions): Promise<Databas
 }
 
 async function openPostgres(url: string, options: OpenOptions): Promise<Database> {
+  // Loaded here so processes on an embedded folder never load the PostgreSQL driver.
+  const [{ default: pg }, { PrismaPg }] = await Promise.all([import('pg'), import('@prisma/adapter-pg')]);
   const pool = new pg.Pool({ connectionString: url, max: 10 });
   try {
     if (!options.skipMigrations) {
@@ -200,7 +200,7 @@ async function openPostgres(url: string, options: OpenOptions): Promise<Database
       }
     }
     const prisma = new PrismaClient({ adapter: new PrismaPg(pool) });
-    const changes: ChangeFeed | undefined = options.skipMigrations ? undefined : postgresChangeFeed(url);
+    const changes: ChangeFeed | undefined = options.skipMigrations || options.changeFeed === false ? undefined : postgresChangeFeed(url);
     const db: Database = {
       prisma,
       engine: 'postgres',
@@ -212,7 +212,7 @@ async function openPostgres(url: string, options: OpenOptions): Promise<Database
         await pool.end().catch(() => {});
       },
     };
-    if (!options.skipMigrations) await syncBuiltInKit(db);
+    if (!options.skipMigrations && options.syncKit !== false) await syncBuiltInKit(db);
     return db;
   } catch (error) {
     await pool.end().catch(() => {});

@@ -3,8 +3,16 @@
 // shared counters), with progress and cancel.
 import { planArea, rasteriseBasicLoss, rasteriseVisibility, sampleBufferLength, sweepSector, type AreaRequest, type AreaResult } from '../coverage/area.ts';
 import type { TerrainWindow } from '../coverage/sweep.ts';
-import { CONTROL, WorkerPool } from './pool.ts';
-import type { AreaTask, AreaTaskResult } from './pool-worker.ts';
+import { defaultWorkerCount, WorkerPool } from './pool.ts';
+import { CONTROL, type AreaTask, type AreaTaskResult } from './area-protocol.ts';
+
+/** A worker pool running coverage area tasks (pool-worker.ts). */
+export type AreaPool = WorkerPool<AreaTask, AreaTaskResult>;
+
+/** A pool of `size` threads (default: every core) running coverage area tasks. */
+export function createAreaPool(size = defaultWorkerCount()): AreaPool {
+  return new WorkerPool<AreaTask, AreaTaskResult>(size, new URL('./pool-worker.ts', import.meta.url));
+}
 
 export class RunCancelledError extends Error {
   constructor() {
@@ -17,7 +25,7 @@ export interface RunOptions {
   /** Worker threads (default: in the calling thread when no pool is given and workers ≤ 1). */
   workers?: number;
   /** A pool to use instead of creating one. */
-  pool?: WorkerPool;
+  pool?: AreaPool;
   /** Progress 0..1. */
   onProgress?: (fraction: number) => void;
   signal?: AbortSignal;
@@ -67,7 +75,7 @@ export async function runArea(terrain: TerrainWindow, request: AreaRequest, opti
   }
 
   checkCancel();
-  const pool = options.pool ?? new WorkerPool(workers);
+  const pool = options.pool ?? createAreaPool(workers);
   try {
     // The window goes to the workers as shared memory (no copy when it already is). Window, clutter and
     // ray-sample buffers are internal to the run and are reused by the pool's next run of the same size;

@@ -4,9 +4,10 @@
 // `npm run worker` (BullMQ). The result folder is written under a temporary
 // name and renamed; the row goes to done once, guarded by its status.
 import { existsSync, mkdirSync, readdirSync, renameSync, rmSync, writeFileSync } from 'node:fs';
-import { isAbsolute, join } from 'node:path';
+import { join } from 'node:path';
 import type { Database } from '../db/client.ts';
 import type { Config } from '../config.ts';
+import { RESULT_FILES, resolveStoredFile, resultDir } from '../db/files.ts';
 import { claimCoverageRun, completeCoverageRun, failCoverageRun, findCoverageRunById, reportCoverageProgress } from '../db/repositories/coverage-runs.ts';
 import { openGeoRaster, type GeoRaster } from '../terrain/raster.ts';
 import { writeGeoTiff } from '../terrain/geotiff-writer.ts';
@@ -22,8 +23,7 @@ import { resolveBandPlan } from '../planning/settings.ts';
 import { buildComposite, summarise, type PlacedProducts } from '../coverage/composite.ts';
 import { BYTE_NODATA } from '../coverage/rasterise.ts';
 import type { CoverageMode } from '../coverage/area.ts';
-import { runArea, RunCancelledError } from './area-runner.ts';
-import type { WorkerPool } from './pool.ts';
+import { runArea, RunCancelledError, type AreaPool } from './area-runner.ts';
 
 /** The one link budget of a run (server/planning/link.ts), as plain data a worker can read from the row. */
 export interface CoverageBudgetParams {
@@ -67,21 +67,8 @@ export interface CoverageJobParams {
   nodes: Array<{ id: string; name?: string; lat: number; lon: number }>;
 }
 
-/** The files of a finished run, inside `<filesDir>/coverage/<runId>/`. */
-export const RESULT_FILES = { margin: 'margin.tif', loss: 'loss.tif', redundancy: 'redundancy.tif', bestSf: 'best-sf.tif', meta: 'meta.json' } as const;
-
-export function resultDir(config: Pick<Config, 'filesDir'>, runId: string): string {
-  return join(config.filesDir, 'coverage', runId);
-}
-
-export function resolveFilePath(config: Pick<Config, 'filesDir' | 'dataDir'>, filePath: string): string {
-  if (isAbsolute(filePath)) return filePath;
-  for (const candidate of [join(config.filesDir, filePath), join(config.dataDir, filePath)]) if (existsSync(candidate)) return candidate;
-  return join(config.filesDir, filePath);
-}
-
 export interface ExecuteOptions {
-  pool?: WorkerPool;
+  pool?: AreaPool;
   workers?: number;
   workerId: string;
   /** Called before anything is written; a test hook to kill a worker mid-job. */
@@ -115,9 +102,16 @@ export async function executeCoverageRun(db: Database, config: Config, runId: st
     const now = Date.now();
     if (now - lastReport < 250 && fraction < 1) return;
     lastReport = now;
+    // Progress is best effort: a failed write (a busy or briefly lost database) must neither end a
+    // long run nor reject while nobody awaits the chain (that would be an unhandled rejection);
+    // the final write of the result is what counts, and it fails the run if the database is gone.
     reporting = reporting.then(async () => {
-      const stillRunning = await reportCoverageProgress(db, runId, fraction);
-      if (!stillRunning) controller.abort();
+      try {
+        const stillRunning = await reportCoverageProgress(db, runId, fraction);
+        if (!stillRunning) controller.abort();
+      } catch {
+        // Best effort (see above): the next report or the final write tries again.
+      }
     });
   };
   let raster: GeoRaster | null = null;
@@ -128,9 +122,9 @@ export async function executeCoverageRun(db: Database, config: Config, runId: st
     // Temporary folders of an earlier attempt of this run (a worker killed while writing) go first.
     const parent = join(config.filesDir, 'coverage');
     if (existsSync(parent)) for (const name of readdirSync(parent)) if (name.startsWith(`${runId}.partial-`)) rmSync(join(parent, name), { recursive: true, force: true });
-    raster = await openGeoRaster(resolveFilePath(config, params.terrainPath));
+    raster = await openGeoRaster(resolveStoredFile(config, params.terrainPath));
     const clutter = params.clutter ?? null;
-    if (clutter) clutterRaster = await openGeoRaster(resolveFilePath(config, clutter.path));
+    if (clutter) clutterRaster = await openGeoRaster(resolveStoredFile(config, clutter.path));
     const classByCode = clutter ? clutterLookup(CLUTTER_CODE_PRESETS[clutter.codes]) : null;
     const radiusM = params.radiusKm * 1000;
     // A radius past the terrain is clipped: cells without terrain are NoData (the summary says how much of the disc had terrain).
@@ -297,7 +291,7 @@ export async function executeCoverageRun(db: Database, config: Config, runId: st
     await failCoverageRun(db, runId, message);
     return 'failed';
   } finally {
-    await reporting.catch(() => undefined);
+    await reporting;
     await raster?.close();
     await clutterRaster?.close();
   }

@@ -5,10 +5,9 @@
 // (./link-pool.ts), and keeps the Link cache.
 // Same numbers everywhere: the API routes (server/api/routes/links.ts) and
 // `earshot link` (server/cli/links.ts) both call this class.
-import { existsSync } from 'node:fs';
-import { isAbsolute, join, resolve } from 'node:path';
 import type { Config } from '../config.ts';
 import { AppError } from '../app/errors.ts';
+import { resolveStoredFile } from '../db/files.ts';
 import { changeStamp, GenerationMemo } from '../db/change-feed.ts';
 import type { Database } from '../db/client.ts';
 import { NotFoundError } from '../db/errors.ts';
@@ -26,10 +25,17 @@ import { LinkPathPool, type LinkPathPair, type LinkTerrainSpec } from './link-po
 import type { EndKit, GatewayRadio, LinkRadioSettings, LinkResult, NodeRadio } from '../planning/link.ts';
 import { hashOf, hashOfShared, LINK_ENGINE_VERSION, nodeAimAzimuthDeg, nodeLinkResults, summariseNodeLinks, type NodeLinkSummary } from '../planning/node-links.ts';
 import { newPathScratch, type PathPrediction } from '../planning/path.ts';
+import { packPath, unpackPath } from '../planning/path-pack.ts';
 import { resolveLinkSettings, sfsCarrying, type ResolvedLinkSettings } from '../planning/settings.ts';
 import type { AppliedCalibration } from '../planning/spread.ts';
 import { findAppliedCalibration } from '../db/repositories/calibrations.ts';
 import { bearingsBetween } from '../planning/geometry.ts';
+
+/** A node → gateway pair as the fleet's first pass measured it: distance, and the path hash when within range. */
+interface PairKey {
+  distanceM: number;
+  pathHash: string | null;
+}
 
 /** Connectors assumed in a node's feedline run: two mated N/SMA pairs (common practice, 0.1 dB each). */
 const NODE_CONNECTORS = [{ id: 'n-type', count: 2 }];
@@ -105,20 +111,35 @@ export interface NodeLinksOutcome extends NodeLinkSummary {
   outOfRange: Array<{ gatewayId: string; distanceM: number }>;
 }
 
-/** What a Link row keeps: the predicted path (reused while its inputs hold) and the contract figures. */
-interface StoredLink {
+/**
+ * What a Link row keeps: the path hash in its JSON result and the predicted path packed into
+ * its bytes (server/planning/path-pack.ts; a path the layout cannot hold stays JSON in the
+ * result). The fleet table rebuilds every budget from the path (microseconds), so nothing
+ * else is stored. Rows written before the packed form ({pathHash, path, summary}) stay readable.
+ */
+interface StoredLinkJson {
   pathHash: string;
-  path: PathPrediction;
-  summary: Pick<LinkResult, 'gatewayId' | 'distanceM' | 'basicLossDb' | 'rssiDbm' | 'snrDb' | 'marginDb' | 'bestSf' | 'usedSf' | 'deliveryProbability' | 'timeOnAirMs'> & { legalOk: boolean | null };
+  path?: PathPrediction;
 }
 
-function isStoredLink(value: unknown): value is StoredLink {
-  return !!value && typeof value === 'object' && typeof (value as StoredLink).pathHash === 'string' && !!(value as StoredLink).path && !!(value as StoredLink).summary;
+/** The stored path of a cached row when it was predicted for `pathHash`, else null. */
+function storedPath(row: LinkRow | undefined, pathHash: string): PathPrediction | null {
+  const result = row?.result as StoredLinkJson | null | undefined;
+  if (!row || !result || typeof result !== 'object' || result.pathHash !== pathHash) return null;
+  if (row.packed) return unpackPath(row.packed);
+  return result.path && typeof result.path === 'object' ? result.path : null;
 }
 
-function linkSummary(link: LinkResult): StoredLink['summary'] {
-  const { gatewayId, distanceM, basicLossDb, rssiDbm, snrDb, marginDb, bestSf, usedSf, deliveryProbability, timeOnAirMs } = link;
-  return { gatewayId, distanceM, basicLossDb, rssiDbm, snrDb, marginDb, bestSf, usedSf, deliveryProbability, timeOnAirMs, legalOk: link.legal ? link.legal.withinLimit : null };
+/** Whether a cached row holds a usable path at all. */
+function hasStoredPath(row: LinkRow): boolean {
+  const result = row.result as StoredLinkJson | null;
+  return !!result && typeof result === 'object' && typeof result.pathHash === 'string' && (!!row.packed || (!!result.path && typeof result.path === 'object'));
+}
+
+/** The cache row of one pair: the packed path, or the path in the JSON when the layout cannot hold it. */
+function linkRowOf(nodeId: string, gatewayId: string, inputHash: string, pathHash: string, path: PathPrediction): LinkRow {
+  const packed = packPath(path);
+  return packed ? { nodeId, gatewayId, inputHash, result: { pathHash } satisfies StoredLinkJson, packed } : { nodeId, gatewayId, inputHash, result: { pathHash, path } satisfies StoredLinkJson, packed: null };
 }
 
 function buildingTypeOf(value: string | null, fallback: BuildingType): BuildingType {
@@ -214,14 +235,6 @@ export class LinkEngine {
     await Promise.all(stores.map(async (entry) => (await entry.store.catch(() => null))?.close()));
   }
 
-  private resolveFile(filePath: string): string {
-    if (isAbsolute(filePath)) return filePath;
-    for (const candidate of [join(this.config.filesDir, filePath), join(this.config.dataDir, filePath), resolve(filePath)]) {
-      if (existsSync(candidate)) return candidate;
-    }
-    return join(this.config.filesDir, filePath);
-  }
-
   private async terrainFor(plan: PlanRow, clutterHeightsM: Record<string, number> | undefined): Promise<{ store: TerrainStore | null; spec: LinkTerrainSpec | null; signature: string }> {
     const layers = await listTerrainForLinks(this.db, plan.id);
     const signature = hashOf({ layers: layers.map((l) => [l.id, l.sha256, l.priority, l.createdAt.toISOString(), l.kind]), clutterHeightsM: clutterHeightsM ?? null });
@@ -236,7 +249,7 @@ export class LinkEngine {
     const ordered = [...layers].sort((a, b) => (a.kind === b.kind ? a.resolutionM - b.resolutionM : a.kind === 'elevation' ? -1 : 1));
     const spec: LinkTerrainSpec = {
       signature,
-      files: ordered.map((layer) => ({ path: this.resolveFile(layer.filePath), kind: layer.kind, name: layer.name })),
+      files: ordered.map((layer) => ({ path: resolveStoredFile(this.config, layer.filePath), kind: layer.kind, name: layer.name })),
       options: { cacheBytes: 64 * 1024 * 1024, clutterHeightsM },
     };
     const store = openTerrainStore(spec.files, spec.options);
@@ -437,7 +450,7 @@ export class LinkEngine {
    * A node's links to every gateway within range, from the cache where the
    * inputs are unchanged. `save` false (previews) leaves the cache untouched.
    */
-  async nodeLinks(ctx: PlanContext, node: ResolvedNode, cachedRows: readonly LinkRow[] | null, save: boolean, precomputed?: ReadonlyMap<string, PathPrediction>): Promise<{ outcome: NodeLinksOutcome; toSave: LinkRow[] }> {
+  async nodeLinks(ctx: PlanContext, node: ResolvedNode, cachedRows: readonly LinkRow[] | null, save: boolean, precomputed?: ReadonlyMap<string, PathPrediction>, pairs?: ReadonlyMap<string, PairKey>): Promise<{ outcome: NodeLinksOutcome; toSave: LinkRow[] }> {
     const rows = cachedRows ?? (await listNodeLinkRows(this.db, ctx.plan.id, node.row.id));
     const byGateway = new Map(rows.map((row) => [row.gatewayId, row]));
     const inRange: Array<{ gateway: GatewayContext; path: PathPrediction; pathHash: string; row: LinkRow | undefined }> = [];
@@ -445,15 +458,15 @@ export class LinkEngine {
     let computed = 0;
     let cached = 0;
     for (const gateway of ctx.gateways) {
-      const distanceM = bearingsBetween(node.row.lat, node.row.lon, gateway.row.lat, gateway.row.lon).distanceM;
+      const known = pairs?.get(gateway.row.id);
+      const distanceM = known ? known.distanceM : bearingsBetween(node.row.lat, node.row.lon, gateway.row.lat, gateway.row.lon).distanceM;
       if (distanceM > ctx.settings.maxLinkRangeM) {
         outOfRange.push({ gatewayId: gateway.row.id, distanceM });
         continue;
       }
-      const pathHash = this.pathHash(ctx, node, gateway);
+      const pathHash = known?.pathHash ?? this.pathHash(ctx, node, gateway);
       const row = byGateway.get(gateway.row.id);
-      const stored = row && isStoredLink(row.result) ? row.result : null;
-      const path = stored && stored.pathHash === pathHash ? stored.path : (precomputed?.get(pathHash) ?? (await this.computePath(ctx, node, gateway)));
+      const path = storedPath(row, pathHash) ?? precomputed?.get(pathHash) ?? (await this.computePath(ctx, node, gateway));
       inRange.push({ gateway, path, pathHash, row });
     }
     const { aim, links } = this.budgets(node, inRange);
@@ -466,12 +479,12 @@ export class LinkEngine {
         continue;
       }
       const inputHash = hashOf({ p: entry.pathHash, n: node.kitHash, g: entry.gateway.kitHash, r: ctx.radioSettingsHash, aim });
-      if (entry.row && entry.row.inputHash === inputHash && isStoredLink(entry.row.result)) {
+      if (entry.row && entry.row.inputHash === inputHash && hasStoredPath(entry.row)) {
         cached++;
         continue;
       }
       computed++;
-      if (save) toSave.push({ nodeId: node.row.id, gatewayId: entry.gateway.row.id, inputHash, result: { pathHash: entry.pathHash, path: entry.path, summary: linkSummary(links[e]) } satisfies StoredLink });
+      if (save) toSave.push(linkRowOf(node.row.id, entry.gateway.row.id, inputHash, entry.pathHash, entry.path));
     }
     const summary = summariseNodeLinks(links, { targetMarginDb: ctx.settings.targetMarginDb, targetDelivery: ctx.settings.targetDelivery }, ctx.settings.gatewayCorrelation);
     const paths = new Map(inRange.map((entry) => [entry.gateway.row.id, entry.path]));
@@ -540,7 +553,9 @@ export class LinkEngine {
     // 1. Resolve every node and collect the paths the cache lacks (one per path hash),
     //    in groups of nodes so budgets and cache writes of one group overlap the
     //    workers' paths of the next.
-    const resolved: Array<{ node: ResolvedNode } | { broken: NodeRow; message: string } | null> = [];
+    // Each node's pairs as step 1 measured them (distance, path hash), so step 3 does not
+    // measure and hash every pair a second time.
+    const resolved: Array<{ node: ResolvedNode; pairs: Map<string, PairKey> } | { broken: NodeRow; message: string } | null> = [];
     const groups: Array<Map<string, LinkPathPair>> = [];
     const seen = new Set<string>();
     for (const row of nodes) {
@@ -553,11 +568,17 @@ export class LinkEngine {
         continue;
       }
       const group = Math.floor(resolved.length / FLEET_GROUP_NODES);
-      resolved.push({ node });
+      const pairs = new Map<string, PairKey>();
+      resolved.push({ node, pairs });
       const stored = storedHashes.get(row.id);
       for (const gateway of ctx.gateways) {
-        if (bearingsBetween(row.lat, row.lon, gateway.row.lat, gateway.row.lon).distanceM > ctx.settings.maxLinkRangeM) continue;
+        const distanceM = bearingsBetween(row.lat, row.lon, gateway.row.lat, gateway.row.lon).distanceM;
+        if (distanceM > ctx.settings.maxLinkRangeM) {
+          pairs.set(gateway.row.id, { distanceM, pathHash: null });
+          continue;
+        }
         const pathHash = this.pathHash(ctx, node, gateway);
+        pairs.set(gateway.row.id, { distanceM, pathHash });
         if (stored?.get(gateway.row.id) === pathHash || seen.has(pathHash)) continue;
         seen.add(pathHash);
         (groups[group] ??= new Map()).set(pathHash, { node: pathEnd(row, node.antennaHeightAglM), gateway: pathEnd(gateway.row, gateway.row.antennaHeightAglM) });
@@ -602,14 +623,14 @@ export class LinkEngine {
           else byNode.set(row.nodeId, [row]);
         }
       }
-      const entry = resolved[i] as { node: ResolvedNode } | { broken: NodeRow; message: string };
+      const entry = resolved[i] as { node: ResolvedNode; pairs: Map<string, PairKey> } | { broken: NodeRow; message: string };
       resolved[i] = null; // visited nodes are the caller's to keep or drop
       if ('broken' in entry) {
         await visit(brokenNodeOutcome(entry.broken, entry.message));
         onProgress?.(i + 1, total);
         continue;
       }
-      const { outcome, toSave } = await this.nodeLinks(ctx, entry.node, byNode.get(entry.node.row.id) ?? [], true, precomputed);
+      const { outcome, toSave } = await this.nodeLinks(ctx, entry.node, byNode.get(entry.node.row.id) ?? [], true, precomputed, entry.pairs);
       await visit(outcome);
       pending.push(...toSave);
       if (pending.length >= 500) {

@@ -173,7 +173,7 @@ export class LinkTileExecutor {
         await options.onBatch?.({ runId, index, pairsDone });
         // Give the event loop a turn (the queue's lock renewal runs on a timer), then check for a cancel.
         await new Promise((resolve) => setImmediate(resolve));
-        return linkTileStillOwned(db, runId, index, attempt);
+        return linkTileStillOwned(db, runId, index, attempt, pairsDone);
       };
       const nodeIds = tile.nodeIds as string[];
       const gatewayIds = tile.gatewayIds as string[];

@@ -7,40 +7,9 @@
 // given slice.
 import { parentPort, threadId } from 'node:worker_threads';
 import { rasteriseBasicLoss, rasteriseVisibility, sweepSector, type AreaRequest } from '../coverage/area.ts';
-import type { GridFrame, RayPlan } from '../coverage/geometry.ts';
 import type { TerrainWindow } from '../coverage/sweep.ts';
 import { p1812FullModel } from '../coverage/full-model.ts';
-import { CONTROL } from './pool.ts';
-
-export interface AreaTask {
-  id: number;
-  phase: 'sweep' | 'rasterise' | 'area';
-  frame: GridFrame;
-  elevation: SharedArrayBuffer;
-  clutter?: SharedArrayBuffer;
-  plan: RayPlan;
-  /** The request without functions (full mode builds its model in the worker). */
-  request: Omit<AreaRequest, 'full'>;
-  samples: SharedArrayBuffer;
-  out: SharedArrayBuffer;
-  /** 'sweep'/'rasterise': the slice; 'area': rays per chunk (start) and rows per band (end). */
-  start: number;
-  end: number;
-  /** 'area': Int32Array(CONTROL.length) over a SharedArrayBuffer, shared by every worker of the run. */
-  control?: SharedArrayBuffer;
-}
-
-export interface AreaTaskResult {
-  id: number;
-  /** Thread that ran the task (for load-balance checks). */
-  threadId?: number;
-  /** CPU time of the task in the worker, ms. */
-  cpuMs?: number;
-  visibleCells?: number;
-  /** 'area': the run was stopped (cancelled, or another worker failed) before this worker finished. */
-  stopped?: boolean;
-  error?: string;
-}
+import { CONTROL, type AreaTask, type AreaTaskResult } from './area-protocol.ts';
 
 function runTask(task: AreaTask): AreaTaskResult {
   const terrain: TerrainWindow = {

@@ -4,10 +4,6 @@
 // terrain and result buffers are never copied.
 import { availableParallelism } from 'node:os';
 import { Worker } from 'node:worker_threads';
-import type { AreaTask, AreaTaskResult } from './pool-worker.ts';
-
-/** Int32 slots of the shared control buffer of an 'area' task (area-runner.ts ↔ pool-worker.ts). */
-export const CONTROL = { nextRay: 0, raysDone: 1, nextRow: 2, rowsDone: 3, stop: 4, length: 8 } as const;
 
 /** Spare shared buffers a pool keeps between runs (a run takes up to three: window, clutter, ray samples). */
 const MAX_SPARE_BUFFERS = 3;
@@ -29,10 +25,10 @@ export function defaultWorkerCount(): number {
 }
 
 /**
- * `entry` is the worker module (default: the coverage area worker); other rooms
- * pass their own module that answers `{ id, error? }` per task.
+ * `entry` is the worker module; it answers `{ id, error? }` per task (coverage:
+ * `createAreaPool` in area-runner.ts; the link table: link-pool.ts).
  */
-export class WorkerPool<Task = AreaTask, Result extends { error?: string } = AreaTaskResult> {
+export class WorkerPool<Task, Result extends { error?: string }> {
   readonly size: number;
   private slots: Slot<Task, Result>[] = [];
   private queue: Pending<Task, Result>[] = [];
@@ -41,8 +37,8 @@ export class WorkerPool<Task = AreaTask, Result extends { error?: string } = Are
   private spare: SharedArrayBuffer[] = [];
 
   constructor(
-    size = defaultWorkerCount(),
-    private readonly entry: URL = new URL('./pool-worker.ts', import.meta.url),
+    size: number,
+    private readonly entry: URL,
   ) {
     if (!Number.isInteger(size) || size < 1) throw new RangeError('worker pool size must be a whole number ≥ 1');
     this.size = size;

@@ -10,7 +10,7 @@ import type { Database } from '../db/client.ts';
 import type { Config } from '../config.ts';
 import { unfinishedCoverageRuns } from '../db/repositories/coverage-runs.ts';
 import { executeCoverageRun } from './coverage-job.ts';
-import { WorkerPool } from './pool.ts';
+import { createAreaPool, type AreaPool } from './area-runner.ts';
 
 export const COVERAGE_QUEUE = 'coverage';
 
@@ -40,7 +40,7 @@ export function redisConnection(url: string): { host: string; port: number; pass
 
 class InProcessJobs implements CoverageJobs {
   readonly kind = 'in-process' as const;
-  private pool: WorkerPool | null = null;
+  private pool: AreaPool | null = null;
   private queue: string[] = [];
   private running: Promise<void> | null = null;
   private closed = false;
@@ -61,7 +61,7 @@ class InProcessJobs implements CoverageJobs {
       while (this.queue.length > 0 && !this.closed) {
         const runId = this.queue.shift()!;
         // Small windows run faster in the calling thread than the pool can start up.
-        this.pool ??= this.config.workerCount > 1 ? new WorkerPool(this.config.workerCount) : null;
+        this.pool ??= this.config.workerCount > 1 ? createAreaPool(this.config.workerCount) : null;
         await executeCoverageRun(this.db, this.config, runId, { pool: this.pool ?? undefined, workers: 1, workerId: `${hostname()}:${process.pid}` }).catch(() => undefined);
       }
     } finally {

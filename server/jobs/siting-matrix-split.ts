@@ -70,7 +70,7 @@ export async function splitSitingMatrix(
     const totals = await linkRunTotals(db, run.id);
     let go: boolean | void = true;
     try {
-      go = await options.onProgress?.((0.95 * totals.pairsDone) / Math.max(1, row.pairsTotal));
+      go = await options.onProgress?.((0.95 * Math.min(row.pairsTotal, totals.pairsDone + totals.pairsRunning)) / Math.max(1, row.pairsTotal));
     } catch (error) {
       if (!(error instanceof SitingCancelled)) throw error;
       go = false;

@@ -2,29 +2,75 @@
 // predict if a gateway stood there, through the SAME link engine (path on the
 // link worker pool, the radio room's budget, the band plan's SF rule, the
 // plan's σ) and the link table's served rule per link. Pairs beyond the plan's
-// link range, or far beyond the smooth-earth radio horizon, are skipped.
+// link range are skipped; so are pairs far beyond the smooth-earth radio horizon
+// whose link would fail the served rule even over free space (freeSpaceCloses).
 import type { GatewayRow } from '../db/repositories/gateways.ts';
 import { listNodesForLinks } from '../db/repositories/links.ts';
 import { NotFoundError } from '../db/errors.ts';
 import { bearingsBetween, medianEarthFactor } from '../planning/geometry.ts';
 import { hashOf, LINK_ENGINE_VERSION } from '../planning/node-links.ts';
-import type { PathPrediction } from '../planning/path.ts';
+import { environmentLoss } from '../planning/environment.ts';
+import { pathAtPlace, type PathPrediction } from '../planning/path.ts';
+import { deliveryProbability } from '../planning/probability.ts';
 import { linkStatus } from '../planning/status.ts';
-import { radioHorizonM } from '../siting/horizon.ts';
+import { lowestBasicLossDb, radioHorizonM } from '../siting/horizon.ts';
 import { LinkInputError, pathEnd, type GatewayContext, type LinkEngine, type PlanContext, type ResolvedNode } from './link-engine.ts';
 import type { LinkPathPair } from './link-pool.ts';
 
 /** Bumped when the matrix's rule (not the link engine's) changes, so cached matrices miss. */
-export const SITING_MATRIX_VERSION = 'siting-matrix-1';
+export const SITING_MATRIX_VERSION = 'siting-matrix-2';
 
 /**
- * Pairs further apart than this multiple of the smooth-earth radio horizon are
- * skipped. Beyond the horizon the path is already obstructed (the straight ray
- * dips below the area's lowest ground); the factor 1.5 is our own allowance
- * for diffraction past it, not a published figure. The plan's link range
- * (maxLinkRangeKm, the same rule as the link table) always applies too.
+ * Pairs within this multiple of the smooth-earth radio horizon are always
+ * predicted. Further out (the straight ray dips below the area's lowest ground)
+ * a pair is skipped only when freeSpaceCloses proves that no path loss the
+ * plan's method can predict lets it meet the served rule; the factor 1.5 (our
+ * own, not a published figure) only decides which pairs are worth that check.
+ * The plan's link range (maxLinkRangeKm, the same rule as the link table)
+ * always applies.
  */
 export const HORIZON_ALLOWANCE = 1.5;
+
+/**
+ * Whether a pair could meet the link table's served rule over the most favourable path its
+ * distance allows: the path loss at the method's floor (lowestBasicLossDb: free space of ITU-R
+ * P.525, less what P.1812 can take off at the plan's time percentage), through the SAME budget
+ * as every link (engine.linksOverPaths: EIRP, gains, feedlines, mismatch, environment loss, the
+ * calibration's bias, σ), then the best case of what the path could change: each antenna at its
+ * peak gain (whatever the aim and elevation), an indoor node's building entry loss flat on (elevation 0°), the slowest allowed SF (most margin; dwell limits
+ * ignored) and the least σ (the node taken above any clutter: §4.8 height factor at clutter
+ * 0 m, the smallest σL). The served rule and Φ(margin/σ) are those of server/planning
+ * (linkStatus, deliveryProbability). False proves the pair is not heard, so skipping it
+ * changes no cell of "meets".
+ */
+export function freeSpaceCloses(engine: LinkEngine, ctx: PlanContext, node: ResolvedNode, gateway: GatewayContext, geometry: { distanceM: number; nodeGroundM: number; gatewayGroundM: number; nodeAzimuthDeg: number; gatewayAzimuthDeg: number }): boolean {
+  const path = ctx.settings.path;
+  const floorDb = lowestBasicLossDb(path.method, geometry.distanceM, ctx.settings.frequencyMhz, path.timePercent);
+  const place = pathAtPlace({
+    method: path.method,
+    basicLossDb: floorDb,
+    freeSpaceLossDb: floorDb,
+    distanceM: geometry.distanceM,
+    nodeGroundM: geometry.nodeGroundM,
+    gatewayGroundM: geometry.gatewayGroundM,
+    nodeAntennaHeightAglM: node.antennaHeightAglM,
+    gatewayAntennaHeightAglM: gateway.row.antennaHeightAglM,
+    nodeAzimuthDeg: geometry.nodeAzimuthDeg,
+    gatewayAzimuthDeg: geometry.gatewayAzimuthDeg,
+    deltaN: path.deltaN,
+    nodeClutterHeightM: 0,
+  });
+  const [link] = engine.linksOverPaths(node, [{ gateway, path: place }]);
+  const gainSlackDb = Math.max(0, node.kit.antenna.gainDbi - link.nodeGainDbi) + Math.max(0, gateway.kit.antenna.gainDbi - link.gatewayGainDbi);
+  // An indoor node's building entry loss grows with the path's elevation (P.2109); its level flat on is the better case.
+  const flatOn = environmentLoss(node.radio.environment, ctx.settings.frequencyMhz, 0, node.radioSettings.environment).lossDb;
+  const environmentSlackDb = Math.max(0, link.environmentLossDb - flatOn);
+  let bestMarginDb = link.marginDb;
+  for (const entry of link.perSf) if (entry.marginDb > bestMarginDb) bestMarginDb = entry.marginDb;
+  bestMarginDb += gainSlackDb + environmentSlackDb;
+  const target = { targetMarginDb: ctx.settings.targetMarginDb, targetDelivery: ctx.settings.targetDelivery };
+  return linkStatus(bestMarginDb, deliveryProbability(bestMarginDb, link.sigmaDb), target) === 'served';
+}
 
 export interface SitingCandidate {
   /** Stable within a run: "site:<id>", "gateway:<id>" or "terrain:<n>". */
@@ -52,7 +98,7 @@ export interface SitingMatrix {
   candidates: SitingCandidate[];
   /** rows = nodes, columns = candidates: the link alone meets the plan's served rule. */
   meets: boolean[][];
-  /** Margin at the SF the node would use, dB (0.01 dB); null = pair skipped (out of range / beyond the horizon) or node unusable. */
+  /** Margin at the SF the node would use, dB (0.01 dB); null = pair skipped (out of range / beyond the horizon and short even over free space) or node unusable. */
   marginDb: Array<Array<number | null>>;
   pairsPredicted: number;
   pairsSkipped: number;
@@ -174,7 +220,8 @@ export async function predictSitingBlock(
   const reference = options.areaMinElevationM ?? 0;
   const ground = async (lat: number, lon: number) => (ctx.terrain ? ((await ctx.terrain.sampleElevation(lat, lon)) ?? reference) : 0);
   const candidateGround = await Promise.all(gateways.map((g) => ground(g.row.lat, g.row.lon)));
-  // 1. The pairs within range and within the horizon allowance (no profile work for the others).
+  // 1. The pairs within range and either within the horizon allowance or, beyond it, not ruled out
+  //    by the free-space check (no profile work for the others).
   const inRange: number[][] = [];
   let skipped = 0;
   let predicted = 0;
@@ -183,9 +230,11 @@ export async function predictSitingBlock(
     const list: number[] = [];
     for (let j = 0; j < gateways.length; j++) {
       const g = gateways[j];
-      const distanceM = bearingsBetween(node.row.lat, node.row.lon, g.row.lat, g.row.lon).distanceM;
+      const bearings = bearingsBetween(node.row.lat, node.row.lon, g.row.lat, g.row.lon);
+      const distanceM = bearings.distanceM;
       const horizonM = radioHorizonM(nodeGround - reference + Math.max(0, node.antennaHeightAglM), candidateGround[j] - reference + g.row.antennaHeightAglM, kFactor);
-      if (distanceM > ctx.settings.maxLinkRangeM || distanceM > HORIZON_ALLOWANCE * horizonM) {
+      const geometry = { distanceM, nodeGroundM: nodeGround, gatewayGroundM: candidateGround[j], nodeAzimuthDeg: bearings.forwardAzimuthDeg, gatewayAzimuthDeg: bearings.backAzimuthDeg };
+      if (distanceM > ctx.settings.maxLinkRangeM || (distanceM > HORIZON_ALLOWANCE * horizonM && !freeSpaceCloses(engine, ctx, node, g, geometry))) {
         skipped++;
         continue;
       }

@@ -9,7 +9,7 @@ import { Worker } from 'bullmq';
 import { loadConfig } from '../config.ts';
 import { openDatabase } from '../db/client.ts';
 import { executeCoverageRun } from './coverage-job.ts';
-import { WorkerPool } from './pool.ts';
+import { createAreaPool } from './area-runner.ts';
 import { COVERAGE_QUEUE, queuePrefix, redisConnection } from './runner.ts';
 import { LinkEngine } from './link-engine.ts';
 import { LINK_TILE_QUEUE, LinkTileExecutor, TILE_ATTEMPTS } from './link-runs.ts';
@@ -20,7 +20,7 @@ async function main(): Promise<void> {
   if (!config.redisUrl) throw new Error('REDIS_URL is not set: queue workers take their jobs from Redis (without it the server runs jobs itself)');
   if (!config.databaseUrl) throw new Error('DATABASE_URL is not set: queue workers need the PostgreSQL database the server uses (the embedded one cannot be shared)');
   const db = await openDatabase(config);
-  const pool = config.workerCount > 1 ? new WorkerPool(config.workerCount) : undefined;
+  const pool = config.workerCount > 1 ? createAreaPool(config.workerCount) : undefined;
   const workerId = `${hostname()}:${process.pid}`;
   const worker = new Worker(
     COVERAGE_QUEUE,

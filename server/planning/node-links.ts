@@ -26,16 +26,31 @@ export function hashOfShared(value: object, memo: WeakMap<object, string>): stri
   return hash;
 }
 
-/** JSON with object keys sorted, typed arrays as plain arrays: equal inputs give equal text. */
+/**
+ * JSON with object keys sorted, typed arrays as plain arrays: equal inputs give equal text.
+ * Built by string concatenation over sorted keys (no entry arrays per object): the fleet
+ * hashes a few inputs per link, so this runs tens of thousands of times per plan.
+ */
 export function stableJson(value: unknown): string {
   if (value === null || typeof value !== 'object') return JSON.stringify(value ?? null);
   if (ArrayBuffer.isView(value)) return JSON.stringify(Array.from(value as unknown as ArrayLike<number>));
-  if (Array.isArray(value)) return `[${value.map(stableJson).join(',')}]`;
+  if (Array.isArray(value)) {
+    let out = '[';
+    for (let i = 0; i < value.length; i++) out += (i > 0 ? ',' : '') + stableJson(value[i]);
+    return `${out}]`;
+  }
   if (value instanceof Date) return JSON.stringify(value.toISOString());
-  const entries = Object.entries(value as Record<string, unknown>)
-    .filter(([, v]) => v !== undefined)
-    .sort(([a], [b]) => (a < b ? -1 : a > b ? 1 : 0));
-  return `{${entries.map(([k, v]) => `${JSON.stringify(k)}:${stableJson(v)}`).join(',')}}`;
+  const record = value as Record<string, unknown>;
+  const keys = Object.keys(record).sort((a, b) => (a < b ? -1 : a > b ? 1 : 0));
+  let out = '{';
+  let first = true;
+  for (const key of keys) {
+    const v = record[key];
+    if (v === undefined) continue;
+    out += `${first ? '' : ','}${JSON.stringify(key)}:${stableJson(v)}`;
+    first = false;
+  }
+  return `${out}}`;
 }
 
 export interface GatewayLinkInput {

@@ -1,8 +1,8 @@
-// The report's map as raster pieces: Web Mercator tiles of the plan's
-// hillshade (renderHillshadeTile, server/terrain/tiles.ts) and of the latest
-// coverage run's margin (renderMarginTile, server/coverage/tiles.ts), for a
-// view fitted to the plan's extent. The PDF writer places the tile PNGs and
-// draws the symbols on top as vectors, so symbols stay sharp in print.
+// The report's map raster: Web Mercator tiles of the plan's hillshade
+// (renderHillshadeTile, server/terrain/tiles.ts) and of the latest coverage
+// run's margin (renderMarginTile, server/coverage/tiles.ts) for a view fitted to
+// the plan's extent, composited into one image. The PDF writer places the image
+// and draws the symbols on top as vectors, so symbols stay sharp in print.
 import { renderMarginTile } from '../coverage/tiles.ts';
 import { mercatorPixelSizeM } from '../terrain/hillshade.ts';
 import type { GeoRaster } from '../terrain/raster.ts';
@@ -97,39 +97,38 @@ export interface MapTile {
   marginPng: Uint8Array | null;
 }
 
-/** Renders the tiles under the view: hillshade from the elevation rasters, margin from the coverage raster. */
-export async function renderMapTiles(view: MapView, elevation: GeoRaster[], margin: GeoRaster | null): Promise<MapTile[]> {
-  const tiles: MapTile[] = [];
+/** The tiles (XYZ at the view's zoom) under the view, each with its top-left corner inside the view. */
+function tilesUnder(view: MapView): Array<{ tx: number; ty: number; x: number; y: number }> {
+  const out: Array<{ tx: number; ty: number; x: number; y: number }> = [];
   const n = 2 ** view.zoom;
   const tx0 = Math.floor(view.x0 / TILE_SIZE_PX);
   const ty0 = Math.max(0, Math.floor(view.y0 / TILE_SIZE_PX));
   const tx1 = Math.floor((view.x0 + view.widthPx - 1) / TILE_SIZE_PX);
   const ty1 = Math.min(n - 1, Math.floor((view.y0 + view.heightPx - 1) / TILE_SIZE_PX));
-  for (let ty = ty0; ty <= ty1; ty++) {
-    for (let tx = tx0; tx <= tx1; tx++) {
-      const x = ((tx % n) + n) % n;
-      const shade = elevation.length > 0 ? await renderHillshadeTile(elevation, view.zoom, x, ty) : null;
-      const cover = margin ? await renderMarginTile(margin, view.zoom, x, ty) : null;
-      tiles.push({ x: tx * TILE_SIZE_PX - view.x0, y: ty * TILE_SIZE_PX - view.y0, hillshadePng: shade && shade.hasData ? shade.png : null, marginPng: cover });
-    }
-  }
-  return tiles;
+  for (let ty = ty0; ty <= ty1; ty++) for (let tx = tx0; tx <= tx1; tx++) out.push({ tx: ((tx % n) + n) % n, ty, x: tx * TILE_SIZE_PX - view.x0, y: ty * TILE_SIZE_PX - view.y0 });
+  return out;
 }
 
 /** Paper colour where there is no terrain (a light grey, so the frame reads in grey print). */
 const BACKGROUND = 0xf4;
 
 /**
- * The tiles composited into one RGB image of the view: hillshade grey where there is
- * terrain, the margin colours over it at their own opacity, light grey elsewhere.
- * One opaque RGB PNG embeds in a PDF as it is (no alpha channel to split), which keeps
- * the report fast and small.
+ * The view's RGB canvas: hillshade grey where there is terrain, the margin colours over it
+ * at their own opacity, light grey elsewhere. Tiles are placed one at a time as they are
+ * rendered (a tile's hillshade, then its margin: tiles do not overlap, so the order across
+ * tiles does not matter), so only the canvas and one tile are in memory at once.
  */
-export function composeMapImage(view: MapView, tiles: readonly MapTile[]): Uint8Array {
-  const w = view.widthPx;
-  const hPx = view.heightPx;
-  const rgb = new Uint8Array(w * hPx * 3).fill(BACKGROUND);
-  const place = (png: Uint8Array, tileX: number, tileY: number, layer: 'shade' | 'margin') => {
+class MapCanvas {
+  readonly rgb: Uint8Array;
+
+  constructor(readonly view: MapView) {
+    this.rgb = new Uint8Array(view.widthPx * view.heightPx * 3).fill(BACKGROUND);
+  }
+
+  place(png: Uint8Array, tileX: number, tileY: number, layer: 'shade' | 'margin'): void {
+    const w = this.view.widthPx;
+    const hPx = this.view.heightPx;
+    const rgb = this.rgb;
     const { pixels, colour, widthPx, heightPx } = decodePng(png);
     const channels = colour === 'grey-alpha' ? 2 : colour === 'rgba' ? 4 : colour === 'rgb' ? 3 : 1;
     for (let ty = 0; ty < heightPx; ty++) {
@@ -154,8 +153,37 @@ export function composeMapImage(view: MapView, tiles: readonly MapTile[]): Uint8
         }
       }
     }
-  };
-  for (const tile of tiles) if (tile.hillshadePng) place(tile.hillshadePng, tile.x, tile.y, 'shade');
-  for (const tile of tiles) if (tile.marginPng) place(tile.marginPng, tile.x, tile.y, 'margin');
-  return encodePng(w, hPx, rgb, 'rgb');
+  }
+
+  /** One opaque RGB PNG: it embeds in a PDF as it is (no alpha channel to split), which keeps the report fast and small. */
+  png(): Uint8Array {
+    return encodePng(this.view.widthPx, this.view.heightPx, this.rgb, 'rgb');
+  }
+}
+
+/**
+ * The report's map image: the hillshade tiles (from the elevation rasters) and coverage margin
+ * tiles (from the coverage raster) under the view, rendered and composited one tile at a time.
+ */
+export async function renderMapImage(view: MapView, elevation: GeoRaster[], margin: GeoRaster | null): Promise<Uint8Array> {
+  const canvas = new MapCanvas(view);
+  for (const tile of tilesUnder(view)) {
+    if (elevation.length > 0) {
+      const shade = await renderHillshadeTile(elevation, view.zoom, tile.tx, tile.ty);
+      if (shade.hasData) canvas.place(shade.png, tile.x, tile.y, 'shade');
+    }
+    const cover = margin ? await renderMarginTile(margin, view.zoom, tile.tx, tile.ty) : null;
+    if (cover) canvas.place(cover, tile.x, tile.y, 'margin');
+  }
+  return canvas.png();
+}
+
+/** Already-rendered tiles composited into one RGB PNG of the view (as renderMapImage does tile by tile). */
+export function composeMapImage(view: MapView, tiles: readonly MapTile[]): Uint8Array {
+  const canvas = new MapCanvas(view);
+  for (const tile of tiles) {
+    if (tile.hillshadePng) canvas.place(tile.hillshadePng, tile.x, tile.y, 'shade');
+    if (tile.marginPng) canvas.place(tile.marginPng, tile.x, tile.y, 'margin');
+  }
+  return canvas.png();
 }

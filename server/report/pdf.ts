@@ -36,7 +36,7 @@ export interface ReportModel {
   nodes: ReportNode[];
   gateways: Array<{ name: string; lat: number; lon: number; bestServerOf: number; antennaHeightAglM: number }>;
   sites: Array<{ name: string; lat: number; lon: number; hasGateway: boolean }>;
-  /** The composited map image (RGB PNG of view.widthPx × view.heightPx, see composeMapImage). */
+  /** The composited map image (RGB PNG of view.widthPx × view.heightPx, see renderMapImage). */
   map: { view: MapView; image: Uint8Array; coverage: string | null; terrain: string } | null;
   /** Capacity figures as label/value pairs, or null when no capacity result exists (the text says so). */
   capacity: Array<[string, string]> | null;
@@ -348,15 +348,17 @@ function mapPage(w: ReportWriter, m: ReportModel): void {
     [`Gateway: ${m.gateways.length}`, (x, y) => w.gatewaySymbol(x, y + 1, 12)],
     ['Site without a gateway', (x, y) => w.siteSymbol(x, y, 4.5)],
   ];
+  // The three status labels are long (the status words with their meaning): one row each, then
+  // gateway and site side by side, so no label runs into another.
   items.forEach(([label, draw], i) => {
-    const col = i % 2;
-    const row = Math.floor(i / 2);
+    const col = i < 3 ? 0 : i - 3;
+    const row = i < 3 ? i : 3;
     const x = MARGIN + col * (CONTENT_W / 2);
-    const y = ly + row * 15;
+    const y = ly + row * 14;
     draw(x + 6, y + 5);
-    doc.fillColor('#000').font('body').fontSize(8.5).text(w.t(label), x + 18, y + 1, { lineBreak: false });
+    doc.fillColor('#000').font('body').fontSize(8.5).text(w.t(label), x + 18, y + 1, { lineBreak: false, width: (i < 3 ? CONTENT_W : CONTENT_W / 2) - 20 });
   });
-  doc.y = ly + Math.ceil(items.length / 2) * 15 + 4;
+  doc.y = ly + 4 * 14 + 4;
   doc.x = MARGIN;
   if (m.map.coverage) {
     const cy = doc.y;
@@ -406,10 +408,13 @@ function servicePages(w: ReportWriter, m: ReportModel): void {
     [{ header: 'Gateway', width: 250 }, { header: 'Antenna height', width: 110, align: 'right' }, { header: 'Nodes best served', width: CONTENT_W - 360, align: 'right' }],
     m.gateways.map((g) => [g.name, `${g.antennaHeightAglM.toFixed(1)} m AGL`, String(g.bestServerOf)]),
   );
+  w.ensure(m.capacity ? 140 : 60);
   w.subheading('Capacity');
   if (m.capacity) w.table([{ header: 'Figure', width: 300 }, { header: 'Value', width: CONTENT_W - 300, align: 'right' }], m.capacity);
   w.para(m.capacityNote, { size: 9, colour: '#222' });
 
+  // Keep the heading with its table (about six rows), not alone at the foot of a page.
+  w.ensure(m.siting ? 170 : 60);
   w.subheading('Gateway siting');
   if (!m.siting) w.para('No finished siting run: the gateways are as placed by hand. A siting run (the map’s siting panel) chooses sites that cover the nodes at least cost.', { size: 9, colour: '#222' });
   else {
@@ -432,6 +437,7 @@ function servicePages(w: ReportWriter, m: ReportModel): void {
   w.heading('Risks');
   w.para('Named nodes that need attention before the budget is committed. The full fleet with every figure is in the CSV export (export.csv).');
   for (const risk of m.risks) {
+    w.ensure(80);
     w.subheading(`${risk.title}: ${risk.entries.length}`);
     w.para(risk.explanation, { size: 9, colour: '#222' });
     if (risk.entries.length === 0) {
@@ -449,7 +455,7 @@ function bomPage(w: ReportWriter, m: ReportModel): void {
   w.heading('Bill of materials');
   const b = m.bom;
   const fmtQty = (q: number, unit: string) => (unit === 'm' ? `${q.toFixed(1)} m` : String(q));
-  const unitPrice = (v: number | null, unit: string) => (v === null ? 'not priced' : `${v.toFixed(2)} USD${unit === 'm' ? '/m' : ''}`);
+  const unitPrice = (v: number | null, unit: string) => (v === null ? 'not priced' : `${usd(v)}${unit === 'm' ? '/m' : ''}`);
   const category: Record<string, string> = { antenna: 'Antenna', feedline: 'Feedline', connector: 'Connector', mast: 'Mast', gateway: 'Gateway', site: 'Site' };
   w.table(
     [{ header: 'Item', width: 70 }, { header: 'Description', width: 185 }, { header: 'Quantity', width: 65, align: 'right' }, { header: 'Unit price', width: 85, align: 'right' }, { header: 'Cost', width: CONTENT_W - 405, align: 'right' }],

@@ -126,6 +126,14 @@ export function heardBy(instance: CoverInstance): { start: Int32Array; index: In
  * when the answer equals the sum of their r_i.
  */
 export function capacityFlow(instance: CoverInstance, selected: Uint8Array, required: Int32Array, cap: number, only?: Uint8Array): number {
+  return capacityHoming(instance, selected, required, cap, only).flow;
+}
+
+/**
+ * The maximum flow of capacityFlow with its integral assignment: `units[i]` requirement units
+ * of node i homed, `pair[p]` = 1 when hearing pair p (node of p homed at its candidate) carries one.
+ */
+export function capacityHoming(instance: CoverInstance, selected: Uint8Array, required: Int32Array, cap: number, only?: Uint8Array): { flow: number; units: Int32Array; pair: Uint8Array } {
   const n = instance.nodeCount;
   const m = instance.candidateCount;
   const source = n + m;
@@ -134,7 +142,7 @@ export function capacityFlow(instance: CoverInstance, selected: Uint8Array, requ
   const to: number[] = [];
   const capacity: number[] = [];
   const next: number[] = [];
-  const addEdge = (a: number, b: number, c: number): void => {
+  const addEdge = (a: number, b: number, c: number): number => {
     to.push(b);
     capacity.push(c);
     next.push(head[a]);
@@ -143,11 +151,13 @@ export function capacityFlow(instance: CoverInstance, selected: Uint8Array, requ
     capacity.push(0);
     next.push(head[b]);
     head[b] = to.length - 1;
+    return to.length - 2;
   };
+  const pairEdge = new Int32Array(instance.hearIndex.length).fill(-1);
   for (let i = 0; i < n; i++) {
     if (required[i] <= 0 || (only && !only[i])) continue;
     addEdge(source, i, required[i]);
-    for (let p = instance.hearStart[i]; p < instance.hearStart[i + 1]; p++) if (selected[instance.hearIndex[p]]) addEdge(i, n + instance.hearIndex[p], 1);
+    for (let p = instance.hearStart[i]; p < instance.hearStart[i + 1]; p++) if (selected[instance.hearIndex[p]]) pairEdge[p] = addEdge(i, n + instance.hearIndex[p], 1);
   }
   for (let j = 0; j < m; j++) if (selected[j]) addEdge(n + j, sink, cap);
   let flow = 0;
@@ -164,7 +174,7 @@ export function capacityFlow(instance: CoverInstance, selected: Uint8Array, requ
         }
       }
     }
-    if (via[sink] === -1) return flow;
+    if (via[sink] === -1) break;
     let push = Infinity;
     for (let v = sink; v !== source; v = to[via[v] ^ 1]) push = Math.min(push, capacity[via[v]]);
     for (let v = sink; v !== source; v = to[via[v] ^ 1]) {
@@ -173,6 +183,34 @@ export function capacityFlow(instance: CoverInstance, selected: Uint8Array, requ
     }
     flow += push;
   }
+  const units = new Int32Array(n);
+  const pair = new Uint8Array(instance.hearIndex.length);
+  for (let i = 0; i < n; i++) {
+    for (let p = instance.hearStart[i]; p < instance.hearStart[i + 1]; p++) {
+      // A used node → gateway edge has its capacity 1 moved to the reverse edge.
+      if (pairEdge[p] >= 0 && capacity[pairEdge[p]] === 0) {
+        pair[p] = 1;
+        units[i]++;
+      }
+    }
+  }
+  return { flow, units, pair };
+}
+
+/**
+ * The nodes a selection covers when no solver says which: those heard by r_i selected
+ * candidates, and with a capacity cap only those a maximum flow homes in full (a node the
+ * flow homes in part is dropped, which frees seats and never unhomes another). Exact for
+ * k = 1; for k > 1 a feasible set, not always the largest (the MILP's own answer is read
+ * from its variables instead, see milp.ts).
+ */
+export function selectionCovered(instance: CoverInstance, options: CoverOptions, selected: Uint8Array): Uint8Array {
+  const required = requirements(instance, options.requiredGateways);
+  const covered = coveredMask(instance, selected, required);
+  if (options.maxNodesPerGateway === undefined) return covered;
+  const { units } = capacityHoming(instance, selected, required, options.maxNodesPerGateway, covered);
+  for (let i = 0; i < instance.nodeCount; i++) if (covered[i] && units[i] < required[i]) covered[i] = 0;
+  return covered;
 }
 
 /**
@@ -265,11 +303,13 @@ function pruneRedundant(instance: CoverInstance, selected: Uint8Array, required:
 }
 
 /**
- * Marginal value of each selected candidate: the nodes the selection meets
- * that would fall short of their requirement if this candidate were dropped.
- * For k = 1 these are the nodes only it hears.
+ * Marginal value of each selected candidate: the nodes of the answer's covered set
+ * (`covered`, the one set the report lists; default: those heard by r_i selected
+ * candidates) that would fall short of their requirement if this candidate were
+ * dropped, i.e. fewer than r_i selected candidates would still hear them.
+ * For k = 1 these are the covered nodes only it hears.
  */
-export function marginalNodes(instance: CoverInstance, selected: Uint8Array, required: Int32Array): Map<number, number[]> {
+export function marginalNodes(instance: CoverInstance, selected: Uint8Array, required: Int32Array, covered?: Uint8Array): Map<number, number[]> {
   const counts = hearingCounts(instance, selected);
   const byCandidate = heardBy(instance);
   const out = new Map<number, number[]>();
@@ -278,7 +318,8 @@ export function marginalNodes(instance: CoverInstance, selected: Uint8Array, req
     const lost: number[] = [];
     for (let q = byCandidate.start[j]; q < byCandidate.start[j + 1]; q++) {
       const i = byCandidate.index[q];
-      if (required[i] > 0 && counts[i] >= required[i] && counts[i] - 1 < required[i]) lost.push(i);
+      const met = covered ? covered[i] === 1 : required[i] > 0 && counts[i] >= required[i];
+      if (met && counts[i] - 1 < required[i]) lost.push(i);
     }
     out.set(j, lost);
   }

@@ -15,7 +15,7 @@
 // Capacity cap M:  Σ_{p∈i} a_p ≥ r_i (or r_i·y_i), a_p ≤ x_j(p), Σ_{p∋j} a_p ≤ M·x_j.
 // Fixed gateways:  x_j = 1.
 import type { Highs } from 'highs';
-import { capacityFlow, coveredMask, greedyCover, isBudgetVariant, requirements, selectionCostUsd, selectionCount, type CoverInstance, type CoverOptions } from './cover.ts';
+import { capacityFlow, capacityHoming, coveredMask, greedyCover, isBudgetVariant, requirements, selectionCostUsd, selectionCount, selectionCovered, type CoverInstance, type CoverOptions } from './cover.ts';
 
 export interface SolveOptions {
   /** Wall-clock limit of the MILP, seconds (default 10). */
@@ -28,6 +28,12 @@ export interface SitingSolution {
   /** optimal: proven; feasible: a solution, gap reported; infeasible: no selection satisfies the rules. */
   status: 'optimal' | 'feasible' | 'infeasible';
   selected: Uint8Array;
+  /**
+   * The nodes the answer covers, the one covered set every figure of the answer is counted
+   * on: heard by r_i selected candidates and, with a capacity cap, homed within the cap by the
+   * solver's own assignment (its y_i and a_p, made integral by a maximum flow over them).
+   */
+  covered: Uint8Array;
   /** Objective value in the model's own units (gateways, USD, or covered nodes). */
   objective: number;
   /** Best bound HiGHS proved (same units), null when it has none. */
@@ -38,7 +44,7 @@ export interface SitingSolution {
   seconds: number;
   message: string | null;
   /** The greedy start: its selection and time, for the side-by-side figures. */
-  greedy: { selected: Uint8Array; seconds: number; feasible: boolean };
+  greedy: { selected: Uint8Array; covered: Uint8Array; seconds: number; feasible: boolean };
 }
 
 function term(coefficient: number, name: string): string {
@@ -129,17 +135,22 @@ export function sitingLpText(instance: CoverInstance, options: CoverOptions): { 
   return { text: lines.join('\n'), budget, weights };
 }
 
-/** Objective of a selection in the model's units (see sitingLpText). */
-export function modelObjective(instance: CoverInstance, options: CoverOptions, selected: Uint8Array): number {
-  if (isBudgetVariant(options)) {
-    const covered = coveredMask(instance, selected, requirements(instance, options.requiredGateways));
-    return selectionCount(covered);
-  }
+/**
+ * Objective of a selection in the model's units (see sitingLpText). Budget variant: the nodes
+ * of `covered` (default: selectionCovered, the nodes the selection covers within the cap).
+ */
+export function modelObjective(instance: CoverInstance, options: CoverOptions, selected: Uint8Array, covered?: Uint8Array): number {
+  if (isBudgetVariant(options)) return selectionCount(covered ?? selectionCovered(instance, options, selected));
   return options.minimise === 'cost' ? selectionCostUsd(instance, selected) : selectionCount(selected);
 }
 
-/** Whether a selection obeys every rule of the options (capacity via the exact flow check). */
-export function selectionFeasible(instance: CoverInstance, options: CoverOptions, selected: Uint8Array): boolean {
+/**
+ * Whether a selection obeys every rule of the options (capacity via the exact flow check).
+ * Cover variant: every coverable node met and homed within the cap. Budget variant: within
+ * the budget and gateway limit, and every node of `covered` (default selectionCovered) heard
+ * by r_i selected candidates and all of them homed within the cap at once.
+ */
+export function selectionFeasible(instance: CoverInstance, options: CoverOptions, selected: Uint8Array, coveredNodes?: Uint8Array): boolean {
   for (let j = 0; j < instance.candidateCount; j++) if (instance.fixed[j] && !selected[j]) return false;
   const required = requirements(instance, options.requiredGateways);
   const budget = isBudgetVariant(options);
@@ -147,8 +158,12 @@ export function selectionFeasible(instance: CoverInstance, options: CoverOptions
     if (options.budgetUsd !== undefined && selectionCostUsd(instance, selected) > options.budgetUsd + 1e-6) return false;
     if (options.maxGateways !== undefined && selectionCount(selected) > options.maxGateways) return false;
   }
-  const covered = coveredMask(instance, selected, required);
-  if (!budget) for (let i = 0; i < instance.nodeCount; i++) if (required[i] > 0 && !covered[i]) return false;
+  const heard = coveredMask(instance, selected, required);
+  const covered = budget ? (coveredNodes ?? selectionCovered(instance, options, selected)) : heard;
+  for (let i = 0; i < instance.nodeCount; i++) {
+    if (!budget && required[i] > 0 && !heard[i]) return false;
+    if (covered[i] && !heard[i]) return false;
+  }
   if (options.maxNodesPerGateway !== undefined) {
     let need = 0;
     for (let i = 0; i < instance.nodeCount; i++) if (covered[i]) need += required[i];
@@ -177,13 +192,15 @@ export function solveSiting(highs: Highs, instance: CoverInstance, options: Cove
   const g0 = performance.now();
   const greedySelected = greedyCover(instance, options);
   const greedySeconds = (performance.now() - g0) / 1000;
-  const greedyFeasible = selectionFeasible(instance, options, greedySelected);
-  const greedy = { selected: greedySelected, seconds: greedySeconds, feasible: greedyFeasible };
+  const greedyCovered = selectionCovered(instance, options, greedySelected);
+  const greedyFeasible = selectionFeasible(instance, options, greedySelected, greedyCovered);
+  const greedy = { selected: greedySelected, covered: greedyCovered, seconds: greedySeconds, feasible: greedyFeasible };
   const budget = isBudgetVariant(options);
   let fixedCount = 0;
   for (const f of instance.fixed) fixedCount += f;
   if (budget && options.maxGateways !== undefined && fixedCount > options.maxGateways) {
-    return { status: 'infeasible', selected: Uint8Array.from(instance.fixed), objective: Number.NaN, bound: null, gapPercent: Number.NaN, solver, seconds: 0, message: `maxGateways: ${options.maxGateways} is fewer than the ${fixedCount} gateways kept as built`, greedy };
+    const selected = Uint8Array.from(instance.fixed);
+    return { status: 'infeasible', selected, covered: selectionCovered(instance, options, selected), objective: Number.NaN, bound: null, gapPercent: Number.NaN, solver, seconds: 0, message: `maxGateways: ${options.maxGateways} is fewer than the ${fixedCount} gateways kept as built`, greedy };
   }
   const required = requirements(instance, options.requiredGateways);
   let decisions = 0;
@@ -191,9 +208,10 @@ export function solveSiting(highs: Highs, instance: CoverInstance, options: Cove
   if (instance.candidateCount === 0 || decisions === 0 || required.every((r) => r === 0)) {
     // Nothing to decide: the fixed gateways are the answer (no candidate, or no node any candidate hears).
     const selected = Uint8Array.from(instance.fixed);
-    const feasible = selectionFeasible(instance, options, selected);
-    const objective = modelObjective(instance, options, selected);
-    return { status: feasible ? 'optimal' : 'infeasible', selected, objective, bound: feasible ? objective : null, gapPercent: feasible ? 0 : Number.NaN, solver: 'none (nothing to decide)', seconds: 0, message: feasible ? null : 'the gateways kept as built break the capacity cap', greedy };
+    const covered = selectionCovered(instance, options, selected);
+    const feasible = selectionFeasible(instance, options, selected, covered);
+    const objective = modelObjective(instance, options, selected, covered);
+    return { status: feasible ? 'optimal' : 'infeasible', selected, covered, objective, bound: feasible ? objective : null, gapPercent: feasible ? 0 : Number.NaN, solver: 'none (nothing to decide)', seconds: 0, message: feasible ? null : 'the gateways kept as built break the capacity cap', greedy };
   }
   const { text } = sitingLpText(instance, options);
   const model = highs.createModel({ format: 'lp', data: text });
@@ -206,12 +224,17 @@ export function solveSiting(highs: Highs, instance: CoverInstance, options: Cove
     const numCols = model.getDimensions().numCols;
     const column = new Map<string, number>();
     for (let c = 0; c < numCols; c++) column.set(model.getColName(c), c);
-    if (greedyFeasible && options.maxNodesPerGateway === undefined) {
+    if (greedyFeasible) {
       const start = new Float64Array(numCols);
       for (let j = 0; j < instance.candidateCount; j++) start[column.get(`x_${j}`) as number] = greedySelected[j];
-      if (budget) {
-        const covered = coveredMask(instance, greedySelected, required);
-        for (let i = 0; i < instance.nodeCount; i++) if (required[i] > 0) start[column.get(`y_${i}`) as number] = covered[i];
+      if (budget) for (let i = 0; i < instance.nodeCount; i++) if (required[i] > 0) start[column.get(`y_${i}`) as number] = greedyCovered[i];
+      if (options.maxNodesPerGateway !== undefined) {
+        // The greedy's homes, from the same maximum flow that found its covered set.
+        const { pair } = capacityHoming(instance, greedySelected, required, options.maxNodesPerGateway, greedyCovered);
+        for (let p = 0; p < pair.length; p++) {
+          const c = column.get(`a_${p}`);
+          if (c !== undefined) start[c] = pair[p];
+        }
       }
       try {
         model.setSolution({ colValue: start });
@@ -224,32 +247,57 @@ export function solveSiting(highs: Highs, instance: CoverInstance, options: Cove
     const status = model.getModelStatus();
     const codes = highs.constants.modelStatus;
     if (status === codes.infeasible) {
-      return { status: 'infeasible', selected: Uint8Array.from(instance.fixed), objective: Number.NaN, bound: null, gapPercent: Number.NaN, solver, seconds, message: infeasibleMessage(options), greedy };
+      const selected = Uint8Array.from(instance.fixed);
+      return { status: 'infeasible', selected, covered: selectionCovered(instance, options, selected), objective: Number.NaN, bound: null, gapPercent: Number.NaN, solver, seconds, message: infeasibleMessage(options), greedy };
     }
     const hasSolution = Number(model.info.get('primal_solution_status')) === highs.constants.solutionStatus.feasible;
     if (!hasSolution) {
       // Time ran out before HiGHS found a solution of its own: fall back on greedy when it obeys the rules.
       const message = `HiGHS stopped (${statusName(highs, status)}) without a solution`;
       if (greedyFeasible) {
-        const objective = modelObjective(instance, options, greedySelected);
-        return { status: 'feasible', selected: greedySelected, objective, bound: null, gapPercent: Number.NaN, solver: `greedy (${solver} ${message})`, seconds, message, greedy };
+        const objective = modelObjective(instance, options, greedySelected, greedyCovered);
+        return { status: 'feasible', selected: greedySelected, covered: greedyCovered, objective, bound: null, gapPercent: Number.NaN, solver: `greedy (${solver} ${message})`, seconds, message, greedy };
       }
-      return { status: 'infeasible', selected: Uint8Array.from(instance.fixed), objective: Number.NaN, bound: null, gapPercent: Number.NaN, solver, seconds, message, greedy };
+      const selected = Uint8Array.from(instance.fixed);
+      return { status: 'infeasible', selected, covered: selectionCovered(instance, options, selected), objective: Number.NaN, bound: null, gapPercent: Number.NaN, solver, seconds, message, greedy };
     }
     const values = model.getSolution().colValue as Float64Array;
     const selected = new Uint8Array(instance.candidateCount);
     for (let j = 0; j < instance.candidateCount; j++) selected[j] = values[column.get(`x_${j}`) as number] > 0.5 ? 1 : 0;
-    const objective = modelObjective(instance, options, selected);
+    const covered = solutionCovered(instance, options, required, selected, (name) => values[column.get(name) as number]);
+    const objective = modelObjective(instance, options, selected, covered);
     let bound: number | null = Number(model.info.get('mip_dual_bound'));
     if (!Number.isFinite(bound)) bound = null;
     // The budget model's objective carries the ε tie-break; its bound on covered nodes is ⌊bound + ½⌋.
     if (bound !== null && budget) bound = Math.floor(bound + 0.5);
     const proven = status === codes.optimal;
     const gapPercent = proven ? 0 : bound === null ? Number.NaN : (100 * Math.abs(objective - bound)) / Math.max(Math.abs(objective), 1e-9);
-    return { status: proven ? 'optimal' : 'feasible', selected, objective, bound: proven ? objective : bound, gapPercent, solver, seconds, message: proven ? null : `HiGHS stopped: ${statusName(highs, status)}`, greedy };
+    return { status: proven ? 'optimal' : 'feasible', selected, covered, objective, bound: proven ? objective : bound, gapPercent, solver, seconds, message: proven ? null : `HiGHS stopped: ${statusName(highs, status)}`, greedy };
   } finally {
     model.dispose();
   }
+}
+
+/**
+ * The covered set of the MILP's answer. Without a cap: the nodes heard by r_i selected
+ * candidates (the y_i of an optimal budget answer are exactly these; a stopped one may leave a
+ * met node's y_i at 0, and it is still heard). With a cap: the nodes the solver covers (y_i = 1 in
+ * the budget variant, every coverable node in the cover variant), homed by an integral
+ * assignment over the solver's selection. The a_p may come back fractional (any point of the
+ * transportation polytope); a maximum flow restricted to those nodes turns them into whole homes,
+ * and it homes them all because the a_p are a fractional flow of the same value. A node the flow
+ * cannot home in full (only through a solver tolerance) is not counted.
+ */
+function solutionCovered(instance: CoverInstance, options: CoverOptions, required: Int32Array, selected: Uint8Array, value: (name: string) => number): Uint8Array {
+  const heard = coveredMask(instance, selected, required);
+  const cap = options.maxNodesPerGateway;
+  if (cap === undefined) return heard;
+  const budget = isBudgetVariant(options);
+  const covered = new Uint8Array(instance.nodeCount);
+  for (let i = 0; i < instance.nodeCount; i++) covered[i] = heard[i] && (!budget || value(`y_${i}`) > 0.5) ? 1 : 0;
+  const { units } = capacityHoming(instance, selected, required, cap, covered);
+  for (let i = 0; i < instance.nodeCount; i++) if (covered[i] && units[i] < required[i]) covered[i] = 0;
+  return covered;
 }
 
 function statusName(highs: Highs, code: number): string {

@@ -6,28 +6,13 @@ import { stat } from 'node:fs/promises';
 import { fromArrayBuffer, fromFile, getDecoder, type GeoTIFF, type GeoTIFFImage, type TypedArray } from 'geotiff';
 import { inspectTiff } from './tiff-structure.ts';
 import { BoundedInflateDecoder, BoundedLzwDecoder, BoundedPackBitsDecoder } from './tiff-decoders.ts';
+import { RasterError } from './raster-error.ts';
 import { crsForEpsg, transformForCrs, UnsupportedCrsError, type CrsInfo, type CrsTransform } from './crs.ts';
 import type { GeoTransform } from './geotiff-writer.ts';
 
 export type { GeoTransform } from './geotiff-writer.ts';
 
-/** Why a raster cannot be used; the API maps codes to HTTP statuses. */
-export type RasterErrorCode =
-  | 'not_tiff'
-  | 'no_georeferencing'
-  | 'unsupported_compression'
-  | 'unsupported_crs'
-  | 'unsupported_layout'
-  | 'corrupt';
-
-export class RasterError extends Error {
-  readonly code: RasterErrorCode;
-  constructor(code: RasterErrorCode, message: string) {
-    super(message);
-    this.name = 'RasterError';
-    this.code = code;
-  }
-}
+export { RasterError, type RasterErrorCode } from './raster-error.ts';
 
 export interface Bounds {
   minX: number;

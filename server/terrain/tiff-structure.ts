@@ -6,7 +6,7 @@
 // have a bounded decoded size, so a request costs bounded time and memory whatever the file says.
 // Reads only the header and the directories (a few KB for a real DEM), never pixel data.
 import { open } from 'node:fs/promises';
-import { RasterError } from './raster.ts';
+import { RasterError } from './raster-error.ts';
 
 /** More IFDs than any real file carries (full-resolution image, overviews, masks). */
 export const maxIfds = 64;

@@ -4,38 +4,18 @@
 // worker completes it exactly once, and no half-written result is left.
 // Mandatory in CI (CI=true); elsewhere a visible skip when Redis or
 // PostgreSQL is unreachable.
-import { spawn, type ChildProcess } from 'node:child_process';
 import { existsSync, readdirSync } from 'node:fs';
 import { join } from 'node:path';
-import { randomBytes } from 'node:crypto';
-import { Redis } from 'ioredis';
 import proj4 from 'proj4';
 import request from 'supertest';
-import { afterAll, describe, expect, it } from 'vitest';
-import { bearer, createTestApp, postgresAvailable, type TestApp } from '../helpers/test-app.ts';
+import { afterAll, expect, it } from 'vitest';
+import { bearer, createTestApp, type TestApp } from '../helpers/test-app.ts';
+import { QueueWorkers, queueSuite, REDIS_URL, requireQueue } from '../helpers/queue-workers.ts';
 import { writeGeoTiff } from '../../server/terrain/geotiff-writer.ts';
-import { resultDir } from '../../server/jobs/coverage-job.ts';
+import { resultDir } from '../../server/db/files.ts';
 import { makeSyntheticDem } from '../unit/coverage/synthetic-dem.ts';
 
-const REDIS_URL = process.env.EARSHOT_TEST_REDIS_URL ?? 'redis://127.0.0.1:6379';
-const inCi = process.env.CI === 'true';
-
-async function redisReachable(): Promise<boolean> {
-  const client = new Redis(REDIS_URL, { lazyConnect: true, connectTimeout: 1500, maxRetriesPerRequest: 0, retryStrategy: () => null });
-  try {
-    await client.connect();
-    return (await client.ping()) === 'PONG';
-  } catch {
-    return false;
-  } finally {
-    client.disconnect();
-  }
-}
-
-const redisOk = await redisReachable();
-const ready = redisOk && postgresAvailable;
-if (!ready && !inCi) console.warn(`SKIPPED coverage-queue: needs Redis at ${REDIS_URL} (${redisOk ? 'ok' : 'unreachable'}) and PostgreSQL (${postgresAvailable ? 'ok' : 'unreachable'})`);
-const suite = ready || inCi ? describe : describe.skip;
+const suite = queueSuite('coverage-queue');
 
 const UTM33 = '+proj=utm +zone=33 +datum=WGS84 +units=m +no_defs';
 const SIZE = 900;
@@ -43,40 +23,17 @@ const CELL_M = 30;
 
 suite('coverage on BullMQ queue workers (Redis 127.0.0.1:6379, PostgreSQL)', () => {
   let t: TestApp | undefined;
-  const workers: ChildProcess[] = [];
-  const prefix = `earshot-test-${randomBytes(5).toString('hex')}`;
+  const pool = new QueueWorkers();
   afterAll(async () => {
-    for (const worker of workers) if (worker.exitCode === null) worker.kill('SIGKILL');
     await t?.close();
-    // Remove this run's queue keys.
-    const redis = new Redis(REDIS_URL);
-    const keys = await redis.keys(`${prefix}:*`);
-    if (keys.length > 0) await redis.del(...keys);
-    redis.disconnect();
+    await pool.cleanUp();
   });
 
-  function startWorker(config: TestApp['config']): ChildProcess {
-    const child = spawn(process.execPath, ['--import', 'tsx', 'server/jobs/worker-main.ts'], {
-      env: {
-        ...process.env,
-        DATABASE_URL: config.databaseUrl,
-        REDIS_URL,
-        EARSHOT_DATA_DIR: config.dataDir,
-        EARSHOT_QUEUE_PREFIX: prefix,
-        EARSHOT_WORKERS: '1',
-        EARSHOT_JOB_LOCK_MS: '4000',
-        EARSHOT_JOB_STALLED_MS: '1500',
-      },
-      stdio: ['ignore', 'pipe', 'pipe'],
-    });
-    child.stderr?.on('data', (chunk: Buffer) => process.stderr.write(`[worker ${child.pid}] ${chunk}`));
-    workers.push(child);
-    return child;
-  }
+  const startWorker = (config: TestApp['config']) => pool.spawn(config);
 
   it('a worker killed with SIGKILL mid-job: the job is retried and completes once, with no half-written result', async () => {
-    if (!ready) throw new Error(`CI=true needs Redis at ${REDIS_URL} and PostgreSQL`);
-    process.env.EARSHOT_QUEUE_PREFIX = prefix;
+    requireQueue();
+    pool.usePrefix();
     t = await createTestApp('postgres', { env: { REDIS_URL } });
     const http = request(t.app.server);
     const as = bearer(t.tokens.planner);

@@ -13,7 +13,7 @@ import { afterAll, beforeAll, expect, it } from 'vitest';
 import { bearer, createTestApp, describeEngines, type TestApp } from '../helpers/test-app.ts';
 import { writeGeoTiff } from '../../server/terrain/geotiff-writer.ts';
 import { openGeoRaster } from '../../server/terrain/raster.ts';
-import { resultDir } from '../../server/jobs/coverage-job.ts';
+import { resultDir } from '../../server/db/files.ts';
 import { MARGIN_CLASSES } from '../../server/coverage/tiles.ts';
 import { makeSyntheticDem } from '../unit/coverage/synthetic-dem.ts';
 
@@ -276,6 +276,28 @@ describeEngines('coverage API', (engine) => {
     expect(existsSync(resultDir(t.config, started.body.id))).toBe(false);
     const again = await http.post(`/api/v1/plans/${planId}/coverage/${started.body.id}/cancel`).set(as('planner'));
     expect(again.status).toBe(409);
+  });
+
+  it('a refused progress write neither fails the run nor escapes as an unhandled rejection: the run still ends done', async () => {
+    // Refuse only the progress updates of a running row (status stays running, progress below 1);
+    // the claim (queued → running) and the final write (→ done) pass.
+    await t.db.raw.exec(`CREATE OR REPLACE FUNCTION earshot_test_refuse_progress() RETURNS trigger AS $$ BEGIN RAISE EXCEPTION 'forced progress write failure'; END $$ LANGUAGE plpgsql`);
+    await t.db.raw.exec(`CREATE TRIGGER earshot_test_refuse_progress BEFORE UPDATE ON "CoverageRun" FOR EACH ROW WHEN (OLD.status = 'running' AND NEW.status = 'running') EXECUTE FUNCTION earshot_test_refuse_progress()`);
+    const unhandled: unknown[] = [];
+    const onUnhandled = (reason: unknown) => unhandled.push(reason);
+    process.on('unhandledRejection', onUnhandled);
+    try {
+      const started = await http.post(`/api/v1/plans/${planId}/coverage`).set(as('planner')).send({ radiusKm: 3, mode: 'fast', gatewayIds: [gatewayId] });
+      expect(started.status, JSON.stringify(started.body)).toBe(202);
+      const done = await waitFor(started.body.id, ['done', 'failed']);
+      expect(done.status, done.error).toBe('done');
+      expect(done.progress).toBe(1);
+      await new Promise((resolve) => setTimeout(resolve, 100));
+      expect(unhandled).toEqual([]);
+    } finally {
+      process.off('unhandledRejection', onUnhandled);
+      await t.db.raw.exec('DROP TRIGGER IF EXISTS earshot_test_refuse_progress ON "CoverageRun"');
+    }
   });
 
   it('uses the plan\'s clutter layer: a cell behind a dense-urban block loses margin (more than one over open land); the summary names the layer', async () => {

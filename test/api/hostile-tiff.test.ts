@@ -4,7 +4,7 @@
 import { existsSync, mkdirSync, mkdtempSync, readdirSync, rmSync, utimesSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { sweepIncomingFiles } from '../../server/api/routes/terrain.ts';
+import { sweepIncomingFiles } from '../../server/db/files.ts';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
 import { BoundedLzwDecoder, BoundedPackBitsDecoder } from '../../server/terrain/tiff-decoders.ts';

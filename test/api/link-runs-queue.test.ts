@@ -4,41 +4,25 @@
 // rows the in-process fleet table writes; a worker killed with SIGKILL while it
 // holds a tile is survived (the tile is retried on another worker; no row
 // missing, none twice); cancel stops every tile; a worker that cannot read the
-// terrain fails the tiles with a clear error, then the run.
+// terrain fails the tiles with a clear error, then the run. A siting run's
+// matrix split over the same workers equals the matrix an API process without
+// Redis predicts in process.
 // Mandatory in CI (CI=true); elsewhere a visible skip when Redis or PostgreSQL is unreachable.
-import { spawn, type ChildProcess } from 'node:child_process';
-import { randomBytes } from 'node:crypto';
+import type { ChildProcess } from 'node:child_process';
 import { mkdtempSync, renameSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, relative } from 'node:path';
 import { Queue } from 'bullmq';
-import { Redis } from 'ioredis';
 import request from 'supertest';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { bearer, createTestApp, postgresAvailable, type TestApp } from '../helpers/test-app.ts';
-import { createFleetFixture, linkRowsOf, type FleetFixture } from '../helpers/fleet-fixture.ts';
+import { afterAll, beforeAll, expect, it } from 'vitest';
+import { bearer, createTestApp, type TestApp } from '../helpers/test-app.ts';
+import { createFleetFixture, linkRowsOf, seeded, type FleetFixture } from '../helpers/fleet-fixture.ts';
+import { QueueWorkers, queueSuite, REDIS_URL, requireQueue } from '../helpers/queue-workers.ts';
+import { buildApp } from '../../server/api/app.ts';
 import { LINK_TILE_QUEUE } from '../../server/jobs/link-runs.ts';
 import { redisConnection } from '../../server/jobs/runner.ts';
 
-const REDIS_URL = process.env.EARSHOT_TEST_REDIS_URL ?? 'redis://127.0.0.1:6379';
-const inCi = process.env.CI === 'true';
-
-async function redisReachable(): Promise<boolean> {
-  const client = new Redis(REDIS_URL, { lazyConnect: true, connectTimeout: 1500, maxRetriesPerRequest: 0, retryStrategy: () => null });
-  try {
-    await client.connect();
-    return (await client.ping()) === 'PONG';
-  } catch {
-    return false;
-  } finally {
-    client.disconnect();
-  }
-}
-
-const redisOk = await redisReachable();
-const ready = redisOk && postgresAvailable;
-if (!ready && !inCi) console.warn(`SKIPPED link-runs-queue: needs Redis at ${REDIS_URL} (${redisOk ? 'ok' : 'unreachable'}) and PostgreSQL (${postgresAvailable ? 'ok' : 'unreachable'})`);
-const suite = ready || inCi ? describe : describe.skip;
+const suite = queueSuite('link-runs-queue');
 
 interface RunView {
   id: string;
@@ -55,12 +39,13 @@ suite('fleet link table runs on BullMQ queue workers (Redis 127.0.0.1:6379, Post
   let t: TestApp | undefined;
   let fleet: FleetFixture;
   let expected: string[] = [];
-  const workers: ChildProcess[] = [];
-  const prefix = `earshot-test-${randomBytes(5).toString('hex')}`;
+  const pool = new QueueWorkers();
+  const workers = pool.children;
+  const prefix = pool.prefix;
 
   beforeAll(async () => {
-    if (!ready) throw new Error(`CI=true needs Redis at ${REDIS_URL} and PostgreSQL`);
-    process.env.EARSHOT_QUEUE_PREFIX = prefix;
+    requireQueue();
+    pool.usePrefix();
     t = await createTestApp('postgres', { env: { REDIS_URL, EARSHOT_WORKERS: '1' } });
     fleet = await createFleetFixture(t.db, t.teamId, t.config.filesDir, { nodes: 120, gateways: 9, sideKm: 16, maxLinkRangeKm: 9, seed: 11 });
     // The in-process result: the fleet table of the API process itself.
@@ -71,33 +56,11 @@ suite('fleet link table runs on BullMQ queue workers (Redis 127.0.0.1:6379, Post
   }, 240_000);
 
   afterAll(async () => {
-    for (const worker of workers) if (worker.exitCode === null && worker.signalCode === null) worker.kill('SIGKILL');
     await t?.close();
-    const redis = new Redis(REDIS_URL);
-    const keys = await redis.keys(`${prefix}:*`);
-    if (keys.length > 0) await redis.del(...keys);
-    redis.disconnect();
+    await pool.cleanUp();
   });
 
-  /** Starts `npm run worker`'s entry; resolves once it says it is ready. */
-  function startWorker(dataDir = t!.config.dataDir): Promise<ChildProcess> {
-    const child = spawn(process.execPath, ['--import', 'tsx', 'server/jobs/worker-main.ts'], {
-      env: { ...process.env, DATABASE_URL: t!.config.databaseUrl, REDIS_URL, EARSHOT_DATA_DIR: dataDir, EARSHOT_QUEUE_PREFIX: prefix, EARSHOT_WORKERS: '1', EARSHOT_JOB_LOCK_MS: '4000', EARSHOT_JOB_STALLED_MS: '1500' },
-      stdio: ['ignore', 'pipe', 'pipe'],
-    });
-    workers.push(child);
-    child.stderr?.on('data', (chunk: Buffer) => process.stderr.write(`[worker ${child.pid}] ${chunk}`));
-    return new Promise((resolve, reject) => {
-      const timer = setTimeout(() => reject(new Error('worker did not start in 90 s')), 90_000);
-      child.stdout?.on('data', (chunk: Buffer) => {
-        if (chunk.toString().includes('ready')) {
-          clearTimeout(timer);
-          resolve(child);
-        }
-      });
-      child.once('exit', (code) => reject(new Error(`worker exited with ${code}`)));
-    });
-  }
+  const startWorker = (dataDir?: string) => pool.start(t!.config, dataDir);
 
   const as = () => bearer(t!.tokens.planner);
   const read = async (runId: string) => (await request(t!.app.server).get(`/api/v1/plans/${fleet.planId}/links/runs/${runId}`).set(as())).body as RunView;
@@ -125,6 +88,65 @@ suite('fleet link table runs on BullMQ queue workers (Redis 127.0.0.1:6379, Post
     expect(run.workers).toHaveLength(3);
     for (const child of workers) expect(run.workers.some((id) => id.endsWith(workerId(child)))).toBe(true);
     expect(await linkRowsOf(t!.db, fleet.planId)).toEqual(expected);
+  }, 300_000);
+
+  it('a siting run over the queue: its matrix, split into blocks on the worker processes, equals the matrix of an in-process siting run', async () => {
+    // Candidate sites over the fleet's area (our own invented places).
+    const rand = seeded(21);
+    const nodes = await t!.db.prisma.node.findMany({ where: { planId: fleet.planId }, select: { lat: true, lon: true } });
+    const lat = [Math.min(...nodes.map((n) => n.lat)), Math.max(...nodes.map((n) => n.lat))];
+    const lon = [Math.min(...nodes.map((n) => n.lon)), Math.max(...nodes.map((n) => n.lon))];
+    for (let n = 0; n < 20; n++) {
+      const res = await request(t!.app.server)
+        .post(`/api/v1/plans/${fleet.planId}/sites`)
+        .set(as())
+        .send({ name: `Queue candidate ${n + 1} (synthetic)`, lat: lat[0] + rand() * (lat[1] - lat[0]), lon: lon[0] + rand() * (lon[1] - lon[0]), kind: 'candidate', costUsd: 500 + 10 * n, maxAntennaHeightAglM: 15 });
+      expect(res.status, JSON.stringify(res.body)).toBe(201);
+    }
+    const body = { requiredGateways: 2, candidates: { sites: true, terrainPoints: 0 }, keepExistingGateways: true };
+    const settleSiting = async (server: TestApp['app']['server'], id: string) => {
+      const deadline = Date.now() + 180_000;
+      for (;;) {
+        const res = await request(server).get(`/api/v1/plans/${fleet.planId}/siting/${id}`).set(as());
+        if (!['queued', 'running'].includes(res.body.status) || Date.now() > deadline) return res.body as { status: string; error: string | null };
+        await new Promise((resolve) => setTimeout(resolve, 200));
+      }
+    };
+    // 1. The API process has REDIS_URL: the matrix goes over the queue to the three workers.
+    const queued = await request(t!.app.server).post(`/api/v1/plans/${fleet.planId}/siting`).set(as()).send(body);
+    expect(queued.status, JSON.stringify(queued.body)).toBe(202);
+    const overQueue = await settleSiting(t!.app.server, queued.body.id);
+    expect(overQueue.status, overQueue.error ?? '').toBe('done');
+    const split = await t!.db.prisma.linkRun.findFirstOrThrow({ where: { kind: 'siting-matrix', params: { path: ['sitingRunId'], equals: queued.body.id } } });
+    expect(split.status).toBe('done');
+    expect(split.tilesTotal).toBeGreaterThan(1);
+    const tiles = await t!.db.prisma.linkRunTile.findMany({ where: { runId: split.id } });
+    const takers = new Set(tiles.map((tile) => tile.doneBy));
+    // Every block was done by a worker process, none by the API process.
+    for (const taker of takers) expect(workers.some((child) => taker?.endsWith(workerId(child)))).toBe(true);
+    expect([...takers].some((taker) => taker?.endsWith(`:${process.pid}`))).toBe(false);
+    const matrixA = await request(t!.app.server).get(`/api/v1/plans/${fleet.planId}/siting/${queued.body.id}/matrix`).set(as());
+    expect(matrixA.status).toBe(200);
+    expect(matrixA.body.pairsPredicted).toBeGreaterThan(500);
+
+    // 2. The same request to an API process without Redis (same database): the matrix is predicted in process.
+    //    The first run's matrix is taken out of the cache so the second one predicts its own.
+    await t!.db.prisma.sitingRun.update({ where: { id: queued.body.id }, data: { matrixHash: null } });
+    const local = await buildApp({ db: t!.db, config: { ...t!.config, redisUrl: undefined }, logger: false });
+    try {
+      await local.ready();
+      const inProcess = await request(local.server).post(`/api/v1/plans/${fleet.planId}/siting`).set(as()).send(body);
+      expect(inProcess.status).toBe(202);
+      const done = await settleSiting(local.server, inProcess.body.id);
+      expect(done.status, done.error ?? '').toBe('done');
+      expect(await t!.db.prisma.linkRun.count({ where: { kind: 'siting-matrix', params: { path: ['sitingRunId'], equals: inProcess.body.id } } })).toBe(0);
+      const matrixB = await request(local.server).get(`/api/v1/plans/${fleet.planId}/siting/${inProcess.body.id}/matrix`).set(as());
+      expect(matrixB.status).toBe(200);
+      // Cell for cell: the same nodes, candidates, meets and margins, and the same counts.
+      expect(matrixA.body).toEqual(matrixB.body);
+    } finally {
+      await local.close();
+    }
   }, 300_000);
 
   it('a worker killed with SIGKILL while it holds a tile: the tile is retried elsewhere, no row missing or twice, the run completes once', async () => {
@@ -194,8 +216,7 @@ suite('fleet link table runs on BullMQ queue workers (Redis 127.0.0.1:6379, Post
 
   it('a worker that cannot read the terrain layer fails its tiles with a clear error, and the run fails once', async () => {
     // Only workers that cannot see the files folder are left: the layer's path is relative to it.
-    for (const child of workers) if (child.exitCode === null && child.signalCode === null) child.kill('SIGTERM');
-    await Promise.all(workers.map((child) => (child.exitCode === null && child.signalCode === null ? new Promise((resolve) => child.once('exit', resolve)) : null)));
+    await pool.stopAll();
     const layer = await t!.db.prisma.terrainLayer.findFirstOrThrow({ where: { planId: fleet.planId } });
     const moved = join(t!.config.filesDir, 'terrain', 'moved.tif');
     renameSync(fleet.terrainPath, moved);

@@ -2,11 +2,15 @@
 // nodes × gateways that execute in this process on the link engine; the rows
 // they write equal the fleet table's own, row for row; the fleet table then
 // reads them (nothing computed); cancel stops every tile; bad input is a 400
-// naming the field, other teams get 404, installers 403. On both engines.
+// naming the field, other teams get 404, installers 403; the progress counts the
+// paths a running tile has predicted so far. On both engines.
 import request from 'supertest';
 import { afterAll, beforeAll, expect, it } from 'vitest';
 import { bearer, createTestApp, describeEngines, type TestApp } from '../helpers/test-app.ts';
 import { createFleetFixture, linkRowsOf, type FleetFixture } from '../helpers/fleet-fixture.ts';
+import { cancelLinkRun, claimLinkTile, createLinkRun, linkTileStillOwned } from '../../server/db/repositories/link-runs.ts';
+import { linkRunView } from '../../server/app/link-runs.ts';
+import type { LinkEngine } from '../../server/jobs/link-engine.ts';
 
 interface RunView {
   id: string;
@@ -43,6 +47,29 @@ describeEngines('fleet link table runs in process', (engine) => {
       await new Promise((resolve) => setTimeout(resolve, 100));
     }
   }
+
+  it('progress counts running tiles by the paths they have predicted so far (recorded at their checks), capped at their size', async () => {
+    const db = t.db;
+    // A plan of its own: the run is never queued, and the other tests' plan keeps only their runs.
+    const plan = await db.prisma.plan.create({ data: { teamId: t.teamId, name: 'Progress of running tiles' } });
+    const run = await createLinkRun(db, plan.id, { params: {}, createdById: null, tiles: [0, 1].map(() => ({ nodeIds: [fleet.nodeIds[0]], gatewayIds: [fleet.gatewayIds[0]], pairs: 100 })) });
+    const deps = { engine: { database: db } as LinkEngine };
+    expect((await linkRunView(deps, run)).progress).toBe(0);
+    const attempt = await claimLinkTile(db, run.id, 0, 'test:1');
+    expect(attempt).toBe(1);
+    expect(await linkTileStillOwned(db, run.id, 0, attempt!, 30)).toBe(true);
+    expect((await linkRunView(deps, run)).progress).toBeCloseTo(30 / 200, 12);
+    // More than the tile's pairs (cached pairs are not counted when it is cut): capped at its size.
+    expect(await linkTileStillOwned(db, run.id, 0, attempt!, 500)).toBe(true);
+    expect((await linkRunView(deps, run)).progress).toBeCloseTo(100 / 200, 12);
+    // A stale attempt neither owns the tile nor moves the progress.
+    expect(await linkTileStillOwned(db, run.id, 0, attempt! + 1, 10)).toBe(false);
+    expect((await linkRunView(deps, run)).progress).toBeCloseTo(0.5, 12);
+    // Claimed again (its worker died): the part of the lost attempt drops back.
+    expect(await claimLinkTile(db, run.id, 0, 'test:2')).toBe(2);
+    expect((await linkRunView(deps, run)).progress).toBe(0);
+    expect(await cancelLinkRun(db, plan.id, run.id)).toBe(true);
+  });
 
   it('a run over tiles writes exactly the rows the fleet table writes, and the fleet table then reads them', async () => {
     const http = request(t.app.server);

@@ -1,6 +1,8 @@
-// The Link cache writes (saveLinkRows: one multi-row INSERT ... ON CONFLICT DO UPDATE per
-// 500 rows) on both engines: new pairs inserted, known pairs replaced in place, a pair
-// listed twice keeps its last row, JSON results read back equal, other plans untouched.
+// The Link cache writes (saveLinkRows → upsertLinkRows: slim rows, a packed path beside
+// {pathHash}, as one unnest INSERT ... ON CONFLICT DO UPDATE; any other row as one
+// jsonb_to_recordset upsert; both in one transaction) on both engines: new pairs inserted,
+// known pairs replaced in place, a pair listed twice keeps its last row, JSON results and
+// packed bytes read back equal, other plans untouched.
 import { afterAll, beforeAll, expect, it } from 'vitest';
 import { createTestApp, describeEngines, type TestApp } from '../helpers/test-app.ts';
 import { listNodeLinkRows, listPlanLinkRows, saveLinkRows, type LinkRow } from '../../server/db/repositories/links.ts';
@@ -24,7 +26,7 @@ describeEngines('link cache writes', (engine) => {
     const gateway = (pid: string, i: number) => ({ planId: pid, name: `GW ${i}`, lat: 40 + i / 100, lon: -105, antennaDesignId: 'collinear-fibreglass-6dbi', antennaHeightAglM: 10, feedlineId: 'low-loss-10mm' });
     const node = (pid: string, i: number) => ({ planId: pid, name: `N ${i}`, lat: 40 - i / 1000, lon: -105, deviceType: 'probe', antennaDesignId: 'half-wave-dipole', antennaHeightAglM: 2, txPowerDbm: 14, payloadBytes: 12 });
     for (let i = 0; i < 3; i++) gatewayIds.push((await prisma.gateway.create({ data: gateway(planId, i) })).id);
-    // 400 nodes × 3 gateways = 1 200 pairs: three chunks of at most 500 rows.
+    // 400 nodes × 3 gateways = 1 200 pairs, half of them in the slim form.
     await prisma.node.createMany({ data: Array.from({ length: 400 }, (_, i) => node(planId, i)) });
     nodeIds.push(...(await prisma.node.findMany({ where: { planId }, select: { id: true }, orderBy: { name: 'asc' } })).map((row) => row.id));
     otherGatewayId = (await prisma.gateway.create({ data: gateway(otherPlanId, 0) })).id;
@@ -36,7 +38,15 @@ describeEngines('link cache writes', (engine) => {
   });
 
   const rowsOf = (hash: (nodeIndex: number, gatewayIndex: number) => string): LinkRow[] =>
-    nodeIds.flatMap((nodeId, n) => gatewayIds.map((gatewayId, g) => ({ nodeId, gatewayId, inputHash: hash(n, g), result: { pathHash: `p${n}.${g}`, path: { basicLossDb: 100 + n / 10 + g, terms: { a: 1.5, nested: [1, 2] } }, summary: { note: 'ünïcode ✓', n, g } } })));
+    nodeIds.flatMap((nodeId, n) =>
+      gatewayIds.map((gatewayId, g) =>
+        n % 2 === 0
+          ? { nodeId, gatewayId, inputHash: hash(n, g), result: { pathHash: `p${n}.${g}` }, packed: new Uint8Array([1, n % 256, g, 0, 255, 44, 10]) }
+          : { nodeId, gatewayId, inputHash: hash(n, g), result: { pathHash: `p${n}.${g}`, path: { basicLossDb: 100 + n / 10 + g, terms: { a: 1.5, nested: [1, 2] } }, summary: { note: 'ünïcode ✓', n, g } }, packed: null },
+      ),
+    );
+  /** A stored row as plain values (Prisma may hand bytes back as a Buffer). */
+  const plain = (row: LinkRow) => ({ ...row, packed: row.packed ? [...row.packed] : null });
 
   it('a cold write stores every pair with its JSON result; a second write replaces the changed pairs in place', async () => {
     const cold = rowsOf((n, g) => `h0-${n}-${g}`);
@@ -46,7 +56,7 @@ describeEngines('link cache writes', (engine) => {
     const stored = await listPlanLinkRows(t.db, planId);
     expect(stored).toHaveLength(1200);
     const byKey = new Map(stored.map((row) => [`${row.nodeId}|${row.gatewayId}`, row]));
-    for (const row of cold) expect(byKey.get(`${row.nodeId}|${row.gatewayId}`)).toEqual(row);
+    for (const row of cold) expect(plain(byKey.get(`${row.nodeId}|${row.gatewayId}`)!)).toEqual(plain(row));
 
     // Every node's first gateway changes; a pair listed twice keeps its last row.
     const changed = rowsOf((n, g) => (g === 0 ? `h1-${n}` : `h0-${n}-${g}`)).filter((row) => row.gatewayId === gatewayIds[0]);
@@ -62,13 +72,15 @@ describeEngines('link cache writes', (engine) => {
     const one = await listNodeLinkRows(t.db, planId, nodeIds[7]);
     expect(one.map((row) => row.inputHash).sort()).toEqual(['h0-7-1', 'h0-7-2', 'h1-7']);
     const other = await listPlanLinkRows(t.db, otherPlanId);
-    expect(other).toEqual([{ nodeId: otherNodeId, gatewayId: otherGatewayId, inputHash: 'other', result: { keep: true } }]);
+    expect(other).toEqual([{ nodeId: otherNodeId, gatewayId: otherGatewayId, inputHash: 'other', result: { keep: true }, packed: null }]);
   });
 
-  it('a failing chunk keeps none of the write (chunks share one transaction)', async () => {
+  it('a failing statement keeps none of the write (the slim and the JSON statement share one transaction)', async () => {
     const before = await listPlanLinkRows(t.db, planId);
     const rows = rowsOf((n, g) => `h2-${n}-${g}`);
-    // The last chunk names a node that does not exist: the foreign key rejects it.
+    // The last row (a JSON one: node 399) names a node that does not exist: the foreign key rejects the
+    // second statement, and the slim rows the first one wrote go with it.
+    expect(rows[rows.length - 1].packed).toBeNull();
     rows[rows.length - 1] = { ...rows[rows.length - 1], nodeId: 'no-such-node' };
     await expect(saveLinkRows(t.db, planId, rows)).rejects.toThrow();
     const after = await listPlanLinkRows(t.db, planId);

@@ -162,6 +162,72 @@ suite('the report PDF (rendered by pdftoppm, read back by pdftotext)', () => {
   });
 });
 
+suite('one price: the summary view’s kit cost (GET /bom) is the report’s', () => {
+  it('GET /bom equals bom.csv and the report’s bill of materials, line by line and in total', async () => {
+    const res = await request(t.app.server).get(`/api/v1/plans/${planId}/bom`).set(bearer(demo.token));
+    expect(res.status).toBe(200);
+    const bom = res.body as { kitCostUsd: number; totalUsd: number; nodeKitCostUsd: number; gatewayKitCostUsd: number; lines: Array<{ category: string; name: string; quantity: number; costUsd: number }> };
+    expect(bom.kitCostUsd).toBeGreaterThan(0);
+    expect(bom.kitCostUsd).toBeCloseTo(bom.nodeKitCostUsd + bom.gatewayKitCostUsd, 2);
+    // The report's own figures (planReport: the fleet pass and its BomBuilder).
+    const { planReport } = await import('../../server/app/report.ts');
+    const { findPlanById } = await import('../../server/db/repositories/links.ts');
+    const report = await planReport(t.app.linkEngine, t.config, (await findPlanById(t.db, planId))!);
+    expect(bom.kitCostUsd).toBe(report.figures.bom.kitCostUsd);
+    expect(bom.totalUsd).toBe(report.figures.bom.totalUsd);
+    expect(bom.lines).toEqual(report.figures.bom.lines);
+    // And the PDF's text states that figure (pdftotext).
+    const pdf = join(dir, 'report-one-price.pdf');
+    writeFileSync(pdf, report.pdf);
+    const text = execFileSync('pdftotext', [pdf, '-'], { encoding: 'utf8' }).replace(/\s+/g, ' ');
+    const usd = (v: number) => `${v.toLocaleString('en-US', { minimumFractionDigits: 2, maximumFractionDigits: 2 })} USD`;
+    expect(text).toContain(`Kit cost (nodes and gateways: antennas, feedlines, connectors, masts) ${usd(bom.kitCostUsd)}`);
+    expect(text).toContain(`Bill of materials total ${usd(bom.totalUsd)}`);
+    // Connectors and the gateways' surge arrestors are in it (the kit price counts them).
+    expect(bom.lines.some((l) => l.category === 'connector' && /surge/i.test(l.name))).toBe(true);
+  });
+
+  it('other teams get 404', async () => {
+    const res = await request(t.app.server).get(`/api/v1/plans/${planId}/bom`).set(bearer(t.tokens.planner));
+    expect(res.status).toBe(404);
+  });
+});
+
+suite('the report’s gateway siting section states the stored siting run (pdftotext)', () => {
+  it('chosen sites, cost and optimality status equal the latest done run’s stored result', async () => {
+    const start = await request(t.app.server).post(`/api/v1/plans/${planId}/siting`).set(bearer(demo.token)).send({ requiredGateways: 1, candidates: { sites: true, terrainPoints: 0 }, keepExistingGateways: false });
+    expect(start.status).toBe(202);
+    let run: { status: string; error?: string | null; result: { selected: Array<{ rank: number; name: string; costUsd: number; nodesHeard: number }>; objective: { gateways: number; costUsd: number }; optimal: boolean; status: string; solver: string; nodesCoverable: number; nodesTotal: number; requiredGateways: number } } | null = null;
+    for (let i = 0; i < 1200 && !run; i++) {
+      const res = await request(t.app.server).get(`/api/v1/plans/${planId}/siting/${start.body.id}`).set(bearer(demo.token));
+      if (['done', 'failed', 'cancelled'].includes(res.body.status)) run = res.body;
+      else await new Promise((resolve) => setTimeout(resolve, 250));
+    }
+    expect(run?.status, String(run?.error)).toBe('done');
+    const r = run!.result;
+    expect(r.selected.length).toBeGreaterThan(0);
+    const file = await download(`/api/v1/plans/${planId}/report.pdf`, 'report-siting.pdf');
+    expect(file.status).toBe(200);
+    const text = execFileSync('pdftotext', [file.path, '-'], { encoding: 'utf8' }).replace(/\s+/g, ' ');
+    // The section: from its heading (the one right before this run's row) to the risks that follow.
+    const runAt = text.indexOf(`Run ${start.body.id}`);
+    expect(runAt).toBeGreaterThan(0);
+    expect(text.lastIndexOf('Gateway siting Figure Value', runAt)).toBeGreaterThan(runAt - 200);
+    const section = text.slice(runAt, text.indexOf('Risks Named nodes', runAt));
+    expect(section.length).toBeGreaterThan(100);
+    const usd = (v: number) => `${v.toLocaleString('en-US', { minimumFractionDigits: 2, maximumFractionDigits: 2 })} USD`;
+    expect(section).toContain(start.body.id);
+    expect(section).toContain(`Gateways each node needs (k) ${r.requiredGateways}`);
+    expect(section).toContain(`Chosen ${r.objective.gateways} gateway(s), ${usd(r.objective.costUsd)}`);
+    expect(section).toContain(`Result ${r.optimal ? 'optimal (proven by the solver)' : r.status === 'feasible' ? 'feasible, not proven optimal' : 'infeasible'}`);
+    expect(section).toContain(`solver ${r.solver}`);
+    expect(section).toContain(`Nodes coverable ${r.nodesCoverable} of ${r.nodesTotal}`);
+    // Every chosen site by rank, name, cost and nodes heard, as the run stored them.
+    for (const x of r.selected) expect(section).toMatch(new RegExp(`${x.rank} ${x.name.replace(/[.*+?^${}()|[\]\\]/g, '\\$&')} \\([^)]*\\) [\\d.]+ m AGL ${usd(x.costUsd).replace(/[.]/g, '\\.')} ${x.nodesHeard} `));
+    expect(section).toContain('not applied');
+  }, 600_000);
+});
+
 suite('scenarios: copy a plan, delete a gateway, compare', () => {
   let copyId: string;
   it('copies every site, gateway, node and terrain layer in one audited write; 400 for a bad name', async () => {

@@ -77,6 +77,39 @@ describeEngines('siting matrix split into blocks', (engineName) => {
     expect(await t.db.prisma.link.count({ where: { planId: fleet.planId } })).toBe(0);
   }, 180_000);
 
+  it('beyond the 1.5 × horizon allowance a pair is skipped only when even free space (ITU-R P.525) cannot close it', async () => {
+    const plan = await t.db.prisma.plan.findUniqueOrThrow({ where: { id: fleet.planId } });
+    const ctx = await engine.planContext(plan);
+    const inputs = await matrixInputs(engine, ctx, candidates);
+    const within = await computeSitingMatrix(engine, ctx, candidates, inputs, { areaMinElevationM: 500 });
+    // Heights over a reference 100 km up are clamped to 0 m: every pair lies beyond the old bound
+    // (1.5 × a horizon of 0 m), which used to drop all of them.
+    const beyond = await computeSitingMatrix(engine, ctx, candidates, inputs, { areaMinElevationM: 100_000 });
+    const heard = within.meets.flat().filter(Boolean).length;
+    expect(heard).toBeGreaterThan(10);
+    expect(beyond.pairsPredicted).toBeGreaterThan(0);
+    // Pairs within 8 km close over free space, so nothing the link table would serve is dropped:
+    // "meets" is identical, and every pair predicted in both has the same margin.
+    expect(beyond.meets).toEqual(within.meets);
+    let compared = 0;
+    beyond.marginDb.forEach((row, i) =>
+      row.forEach((margin, j) => {
+        if (margin === null) expect(within.meets[i][j], `skipped pair ${i}×${j} is not heard`).toBe(false);
+        else {
+          expect(margin).toBe(within.marginDb[i][j]);
+          compared++;
+        }
+      }),
+    );
+    expect(compared).toBeGreaterThan(100);
+    // A target no free-space link can reach: beyond the allowance every pair is skipped (no path
+    // work), within it they are still predicted (and none meets the target).
+    const unreachable = { ...ctx, settings: { ...ctx.settings, targetMarginDb: 150 } };
+    const none = await computeSitingMatrix(engine, unreachable, candidates, inputs, { areaMinElevationM: 100_000 });
+    expect(none.pairsPredicted).toBe(0);
+    expect(none.pairsSkipped).toBe(beyond.pairsPredicted + beyond.pairsSkipped);
+  }, 180_000);
+
   it('a cancelled parent cancels every block and stops', async () => {
     const plan = await t.db.prisma.plan.findUniqueOrThrow({ where: { id: fleet.planId } });
     const ctx = await engine.planContext(plan);

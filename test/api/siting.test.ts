@@ -138,6 +138,43 @@ describeEngines('gateway siting API', (engine) => {
     }, 240_000);
   }
 
+  it('at most 2 gateways of 5 nodes each: the covered nodes are those the chosen pair can home within the cap, and the ranking counts on them', async () => {
+    const start = await request(t.app.server).post(`/api/v1/plans/${planId}/siting`).set(auth).send({ ...body(1), maxGateways: 2, maxNodesPerGateway: 5 });
+    expect(start.status).toBe(202);
+    const run = await waitDone(t, auth, planId, start.body.id);
+    expect(run.status, String(run.error)).toBe('done');
+    const result = run.result as {
+      coveredNodeIds: string[];
+      uncovered: Array<{ nodeId: string; reason: string }>;
+      selected: Array<{ candidateId: string; nodeIdsOnlyHere: string[]; nodesOnlyHere: number }>;
+      optimal: boolean;
+      objective: { gateways: number };
+    };
+    const matrix = (await request(t.app.server).get(`/api/v1/plans/${planId}/siting/${start.body.id}/matrix`).set(auth)).body as Matrix;
+    expect(result.optimal).toBe(true);
+    expect(result.objective.gateways).toBeLessThanOrEqual(2);
+    // Two gateways home at most 10 nodes, and two of the demo's candidates hear more than that, so the cap binds.
+    expect(result.coveredNodeIds.length).toBe(10);
+    // Homing by hand (independent of the server): each covered node heard by a chosen candidate with a free seat.
+    const seats = new Map(result.selected.map((s) => [matrix.candidates.findIndex((c) => c.id === s.candidateId), 5]));
+    const homes = (ids: string[]): boolean => {
+      if (ids.length === 0) return true;
+      const i = matrix.nodeIds.indexOf(ids[0]);
+      for (const [j, free] of seats) {
+        if (free === 0 || !matrix.meets[i][j]) continue;
+        seats.set(j, free - 1);
+        if (homes(ids.slice(1))) return true;
+        seats.set(j, free);
+      }
+      return false;
+    };
+    expect(homes(result.coveredNodeIds)).toBe(true);
+    const covered = new Set(result.coveredNodeIds);
+    for (const s of result.selected) for (const id of s.nodeIdsOnlyHere) expect(covered.has(id)).toBe(true);
+    // Nodes the chosen set hears but cannot seat are told so.
+    expect(result.uncovered.some((u) => /full \(at most 5 nodes each\)/.test(u.reason))).toBe(true);
+  }, 240_000);
+
   it('a second run with the same inputs reuses the cached matrix; SSE reports the finish', async () => {
     const start = await request(t.app.server).post(`/api/v1/plans/${planId}/siting`).set(auth).send(body(1));
     const run = await waitDone(t, auth, planId, start.body.id);
@@ -152,6 +189,20 @@ describeEngines('gateway siting API', (engine) => {
     const listed = await request(t.app.server).get(`/api/v1/plans/${planId}/siting`).set(auth);
     expect(listed.body.items[0].id).toBe(start.body.id);
   }, 120_000);
+
+  it('k = 2: after apply the link table serves every covered node', async () => {
+    const start = await request(t.app.server).post(`/api/v1/plans/${planId}/siting`).set(auth).send(body(2));
+    const run = await waitDone(t, auth, planId, start.body.id);
+    const result = run.result as { coveredNodeIds: string[] };
+    const applied = await request(t.app.server).post(`/api/v1/plans/${planId}/siting/${start.body.id}/apply`).set(auth);
+    expect(applied.status).toBe(201);
+    const fleet = await request(t.app.server).get(`/api/v1/plans/${planId}/links?limit=1000`).set(auth);
+    expect(fleet.status).toBe(200);
+    const status = new Map((fleet.body.items as Array<{ nodeId: string; status: string }>).map((item) => [item.nodeId, item.status]));
+    expect(result.coveredNodeIds.length).toBeGreaterThan(10);
+    for (const id of result.coveredNodeIds) expect(status.get(id), id).toBe('served');
+    for (const id of applied.body.gatewayIds) expect((await request(t.app.server).delete(`/api/v1/plans/${planId}/gateways/${id}`).set(auth)).status).toBe(204);
+  }, 240_000);
 
   it('apply creates the chosen gateways (audited), after which the link table serves the covered nodes; a second apply is refused', async () => {
     const start = await request(t.app.server).post(`/api/v1/plans/${planId}/siting`).set(auth).send(body(1));

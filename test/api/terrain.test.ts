@@ -8,7 +8,7 @@ import request from 'supertest';
 import { bearer, createTestApp, describeEngines, type TestApp } from '../helpers/test-app.ts';
 import { writeGeoTiff } from '../../server/terrain/geotiff-writer.ts';
 import { patchTag } from '../unit/terrain/tiff-patch.ts';
-import { sweepOrphanFiles } from '../../server/api/routes/terrain.ts';
+import { sweepOrphanFiles } from '../../server/db/files.ts';
 
 // A 120 × 100 UTM 32N DEM at 30 m around 49.79° N, 6.1° E (synthetic hills), tiled 32 px, deflate.
 const W = 120;

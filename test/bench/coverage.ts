@@ -15,7 +15,7 @@ import { predictArea, type AreaRequest } from '../../server/coverage/area.ts';
 import { BYTE_NODATA } from '../../server/coverage/rasterise.ts';
 import { viewshedWavefront } from '../../server/coverage/wavefront.ts';
 import { runArea } from '../../server/jobs/area-runner.ts';
-import { WorkerPool } from '../../server/jobs/pool.ts';
+import { createAreaPool } from '../../server/jobs/area-runner.ts';
 import { makeSyntheticDem } from '../unit/coverage/synthetic-dem.ts';
 
 const UTM33_X0 = 500_000;
@@ -151,8 +151,8 @@ export async function run(): Promise<void> {
     for (const line of await growth('full', raster90, site90, [5, 10, 20])) log(`growth full P.1812 (90 m): ${line}`);
 
     // 3. 1 → 2 workers on a warm pool, fast at 20 km (30 m) and full at 10 km (90 m).
-    const pool2 = new WorkerPool(2);
-    const pool1 = new WorkerPool(1);
+    const pool2 = createAreaPool(2);
+    const pool1 = createAreaPool(1);
     try {
       for (const [mode, raster, site, rKm] of [['fast', raster30, site30, 20], ['full', raster90, site90, 10]] as const) {
         const loaded = await loadTerrainWindow(raster, { ...site, radiusM: rKm * 1000, allowClip: true });

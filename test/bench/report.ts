@@ -7,7 +7,8 @@
 //     wall time, PDF size and pages, and the process's peak RSS during the report
 //     (sampled every 10 ms) next to the RSS before it;
 //  3. GET /export.geojson and /export.csv beside it.
-//  2b. (PostgreSQL) the same report in a fresh process: its own peak RSS.
+//  2b. (PostgreSQL) the same report in a fresh process running the compiled server
+//      (build/, no tsx): its baseline RSS and its peak RSS during the report, side by side.
 // REPORT_BENCH_OUT=<file> keeps the last PDF for a look.
 import { spawnSync } from 'node:child_process';
 import { mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
@@ -16,7 +17,7 @@ import { join } from 'node:path';
 import { performance } from 'node:perf_hooks';
 import { createTestApp, postgresAvailable, type TestApp } from '../helpers/test-app.ts';
 import { writeGeoTiff } from '../../server/terrain/geotiff-writer.ts';
-import { RESULT_FILES, resultDir } from '../../server/jobs/coverage-job.ts';
+import { RESULT_FILES, resultDir } from '../../server/db/files.ts';
 
 const CENTRE = { lat: 44.5, lon: -110.2 };
 const CELL_M = 30;
@@ -114,18 +115,23 @@ export async function run(): Promise<void> {
       writeFileSync(process.env.REPORT_BENCH_OUT ?? join(dir, 'report.pdf'), pdf);
     }
     if (engine === 'postgres') {
-      // The same report in a fresh process on the same database: its peak RSS is the report's
-      // whole footprint (Node, Prisma, the fleet answer, the map, the PDF), not the bench harness's.
-      const child = spawnSync(process.execPath, ['node_modules/tsx/dist/cli.mjs', 'test/bench/_report-child.ts'], {
-        env: { ...process.env, DATABASE_URL: t.config.databaseUrl, EARSHOT_DATA_DIR: t.config.dataDir, BENCH_FILES_DIR: t.config.filesDir, BENCH_PLAN_ID: planId },
+      // The same report in a fresh process on the same database, running the compiled server
+      // (build/, scripts/build-server.mjs, as `npm start` runs it: no tsx in that process). It
+      // prints its baseline (Node, Prisma, the database, every server module the report uses,
+      // the plan's context) and its peak RSS while making the report, side by side.
+      const built = spawnSync(process.execPath, ['scripts/build-server.mjs', '--quiet'], { encoding: 'utf8' });
+      if (built.status !== 0) throw new Error(`build-server failed: ${built.stderr.slice(-400)}`);
+      const buildDir = join(process.cwd(), 'build');
+      const child = spawnSync(process.execPath, ['test/bench/_report-child.mjs'], {
+        env: { ...process.env, DATABASE_URL: t.config.databaseUrl, EARSHOT_DATA_DIR: t.config.dataDir, BENCH_FILES_DIR: t.config.filesDir, BENCH_PLAN_ID: planId, BENCH_BUILD_DIR: buildDir },
         encoding: 'utf8',
         timeout: 300_000,
       });
       const line = child.stdout.trim().split('\n').pop() ?? '';
       if (child.status !== 0 || !line.startsWith('{')) console.log(`2b. fresh-process report failed: ${child.stderr.slice(-400)}`);
       else {
-        const r = JSON.parse(line) as { ms: number; bytes: number; maxRssMb: number };
-        console.log(`2b. report.pdf in a fresh process (warm link cache, in-thread paths): ${(r.ms / 1000).toFixed(2)} s, peak RSS of that process ${r.maxRssMb.toFixed(0)} MB (target ≤ 20 s, ≤ 300 MB)`);
+        const r = JSON.parse(line) as { ms: number; bytes: number; baselineRssMb: number; peakRssMb: number };
+        console.log(`2b. report.pdf in a fresh compiled-JS process (warm link cache, in-thread paths): ${(r.ms / 1000).toFixed(2)} s; RSS baseline ${r.baselineRssMb.toFixed(0)} MB → peak ${r.peakRssMb.toFixed(0)} MB (report's own increment +${(r.peakRssMb - r.baselineRssMb).toFixed(0)} MB; peak/baseline ${(r.peakRssMb / r.baselineRssMb).toFixed(2)}×; target ≤ 20 s, ≤ 300 MB peak)`);
       }
     }
     for (const file of ['export.geojson', 'export.csv']) {

@@ -5,6 +5,8 @@
 // 2. `earshot token issue` on an embedded data folder (no server running: the CLI opens the folder);
 // 3. a server restart on an existing data folder, until it prints its listening line;
 // 4. `earshot coverage --mode los` against gdal_viewshed on the same DEM, observer and radius.
+// Printed as one table, each figure as a ratio to its reference (or a time against its target);
+// EARSHOT_BENCH_BASELINE=<another checkout> adds that tree's compiled programs as a column.
 import { spawn, spawnSync } from 'node:child_process';
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { createServer } from 'node:net';
@@ -72,37 +74,58 @@ async function serverStartMs(args: string[], dataDir: string): Promise<number> {
   return elapsed;
 }
 
+interface Row {
+  figure: string;
+  reference: string;
+  referenceMs: number | null;
+  /** Programs measured: compiled (this tree), the baseline tree's compiled programs, tsx. */
+  ms: Record<string, number | null>;
+  target: string;
+  /** Ratio against the reference, or the plain time when the target is a time. */
+  ratio: (ms: number) => string;
+}
+
+// EARSHOT_BENCH_BASELINE=<folder of another checkout, e.g. main's>: its compiled programs are
+// measured in the same run, column by column, so a before/after is one table under one load.
 export async function run(): Promise<void> {
   const log = (line: string) => console.log(line);
   log(`machine: ${cpus().length} cores, load average ${loadavg().map((l) => l.toFixed(1)).join(' ')} (other work on the machine inflates every figure)`);
   const dir = mkdtempSync(join(tmpdir(), 'earshot-bench-startup-'));
+  const baseline = process.env.EARSHOT_BENCH_BASELINE;
   try {
-    // The compiled tree is brought up to date once, outside the timings.
+    // The compiled trees are brought up to date once, outside the timings.
     wallMs(process.execPath, ['scripts/build-server.mjs', '--quiet']);
-    const compiled = (program: string, args: string[]) => [join('scripts', 'launch.mjs'), program, ...args];
-    const sources = (entry: string, args: string[]) => ['--import', 'tsx', entry, ...args];
+    if (baseline) wallMs(process.execPath, [join(baseline, 'scripts', 'build-server.mjs'), '--quiet']);
+    const programs: Record<string, (program: string, entry: string, args: string[]) => string[]> = {
+      compiled: (program, _entry, args) => [join('scripts', 'launch.mjs'), program, ...args],
+      ...(baseline ? { baseline: (program: string, _entry: string, args: string[]) => [join(baseline, 'scripts', 'launch.mjs'), program, ...args] } : {}),
+      tsx: (_program, entry, args) => ['--import', 'tsx', entry, ...args],
+    };
+    const columns = Object.keys(programs);
+    const rows: Row[] = [];
+    const each = (measure: (name: string, argv: (program: string, entry: string, args: string[]) => string[]) => number | null) =>
+      Object.fromEntries(columns.map((name) => [name, measure(name, programs[name])]));
 
     // 1. Bare node and the smallest CLI command.
     const bareMs = bestOf(() => wallMs(process.execPath, ['-e', '0']));
     const airtime = ['airtime', '--sf', '10', '--bw-khz', '125', '--payload-bytes', '24', '--json'];
-    const airtimeCompiledMs = bestOf(() => wallMs(process.execPath, compiled('cli', airtime)));
-    const airtimeTsxMs = bestOf(() => wallMs(process.execPath, sources('server/cli.ts', airtime)));
-    log(`node -e 0: ${bareMs.toFixed(0)} ms`);
-    log(`earshot airtime: compiled ${airtimeCompiledMs.toFixed(0)} ms (${(airtimeCompiledMs / bareMs).toFixed(1)}× bare node; target ≤ 10×), tsx ${airtimeTsxMs.toFixed(0)} ms (${(airtimeTsxMs / bareMs).toFixed(1)}×)`);
+    rows.push({ figure: 'earshot airtime', reference: 'node -e 0', referenceMs: bareMs, ms: each((_n, argv) => bestOf(() => wallMs(process.execPath, argv('cli', 'server/cli.ts', airtime)))), target: '≤ 10×', ratio: (ms) => `${(ms / bareMs).toFixed(1)}×` });
 
     // 2. token issue on an embedded folder made (with the demo team) by a first server start.
     const dataDir = join(dir, 'data');
-    const firstStartMs = await serverStartMs(compiled('server', []), dataDir);
+    const firstStartMs = await serverStartMs(programs.compiled('server', 'server/main.ts', []), dataDir);
     const env = { ...process.env, EARSHOT_DATA_DIR: dataDir };
     const issue = ['token', 'issue', '--team', 'demo', '--role', 'viewer', '--json'];
-    const tokenCompiledMs = bestOf(() => wallMs(process.execPath, compiled('cli', issue), env));
-    const tokenTsxMs = bestOf(() => wallMs(process.execPath, sources('server/cli.ts', issue), env));
-    log(`earshot token issue (embedded folder): compiled ${tokenCompiledMs.toFixed(0)} ms (target ≤ 3000), tsx ${tokenTsxMs.toFixed(0)} ms`);
+    rows.push({ figure: 'earshot token issue (embedded folder)', reference: '', referenceMs: null, ms: each((_n, argv) => bestOf(() => wallMs(process.execPath, argv('cli', 'server/cli.ts', issue), env))), target: '≤ 3000 ms', ratio: (ms) => `${ms.toFixed(0)} ms` });
 
-    // 3. Restart on the existing folder.
-    const restartCompiledMs = best([await serverStartMs(compiled('server', []), dataDir), await serverStartMs(compiled('server', []), dataDir)]);
-    const restartTsxMs = best([await serverStartMs(sources('server/main.ts', []), dataDir), await serverStartMs(sources('server/main.ts', []), dataDir)]);
-    log(`server: first start on a new folder ${firstStartMs.toFixed(0)} ms; restart on the existing folder: compiled ${restartCompiledMs.toFixed(0)} ms (target ≤ 5000), tsx ${restartTsxMs.toFixed(0)} ms`);
+    // 3. Restart on the existing folder (best of 2).
+    const restart: Record<string, number | null> = {};
+    for (const name of columns) {
+      const argv = programs[name]('server', 'server/main.ts', []);
+      restart[name] = best([await serverStartMs(argv, dataDir), await serverStartMs(argv, dataDir)]);
+    }
+    rows.push({ figure: 'server restart (existing folder)', reference: '', referenceMs: null, ms: restart, target: '≤ 5000 ms', ratio: (ms) => `${ms.toFixed(0)} ms` });
+    log(`server: first start on a new folder ${firstStartMs.toFixed(0)} ms (compiled)`);
 
     // 4. coverage --mode los, whole process, against gdal_viewshed on one synthetic 30 m DEM (20 km).
     if (spawnSync('which', ['gdal_viewshed']).status === 0) {
@@ -117,14 +140,33 @@ export async function run(): Promise<void> {
       const [lon, lat] = info.stdout.trim().split(/\s+/).map(Number);
       const gdalMs = bestOf(() => wallMs('gdal_viewshed', ['-q', '-oz', '20', '-tz', '1.5', '-md', '20000', '-cc', '0.75', '-vv', '1', '-iv', '0', '-ov', '100', '-ox', String(ox), '-oy', String(oy), demPath, join(dir, 'gdal.tif')]));
       const coverage = ['coverage', '--terrain', demPath, '--site', `${lat},${lon}`, '--height-m', '20', '--radius-km', '20', '--mode', 'los', '--out', join(dir, 'los.tif'), '--json'];
-      const losCompiledMs = bestOf(() => wallMs(process.execPath, compiled('cli', coverage)));
-      const losTsxMs = bestOf(() => wallMs(process.execPath, sources('server/cli.ts', coverage)));
-      log(`coverage --mode los, whole process: compiled ${losCompiledMs.toFixed(0)} ms, tsx ${losTsxMs.toFixed(0)} ms, gdal_viewshed ${gdalMs.toFixed(0)} ms → ratio compiled/GDAL ${(losCompiledMs / gdalMs).toFixed(2)} (target ≤ 2), tsx/GDAL ${(losTsxMs / gdalMs).toFixed(2)}`);
+      rows.push({ figure: 'earshot coverage --mode los (20 km, 1400² DEM)', reference: 'gdal_viewshed', referenceMs: gdalMs, ms: each((_n, argv) => bestOf(() => wallMs(process.execPath, argv('cli', 'server/cli.ts', coverage)))), target: '≤ 2×', ratio: (ms) => `${(ms / gdalMs).toFixed(2)}×` });
     } else {
       log('coverage --mode los vs gdal_viewshed: skipped (gdal-bin not installed)');
     }
-    log(`best of ${repeats} for every figure except restarts (best of 2); load average now ${loadavg().map((l) => l.toFixed(1)).join(' ')}`);
+
+    // One table: every figure, its reference, each program's wall time and ratio, the target.
+    const header = ['figure', 'reference', ...columns.map((name) => (name === 'baseline' ? `baseline (${baseline})` : name)), 'target'];
+    const table = rows.map((row) => [
+      row.figure,
+      row.referenceMs === null ? '–' : `${row.reference} ${row.referenceMs.toFixed(0)} ms`,
+      ...columns.map((name) => {
+        const ms = row.ms[name];
+        return ms === null || ms === undefined ? '–' : row.referenceMs === null ? row.ratio(ms) : `${ms.toFixed(0)} ms = ${row.ratio(ms)}`;
+      }),
+      row.target,
+    ]);
+    const widths = header.map((h, i) => Math.max(h.length, ...table.map((cells) => cells[i].length)));
+    const line = (cells: string[]) => `| ${cells.map((c, i) => c.padEnd(widths[i])).join(' | ')} |`;
+    log(line(header));
+    log(`|${widths.map((w) => '-'.repeat(w + 2)).join('|')}|`);
+    for (const cells of table) log(line(cells));
+    log(`wall times, best of ${repeats} (restarts: best of 2); load average now ${loadavg().map((l) => l.toFixed(1)).join(' ')}`);
+  } catch (error) {
+    log(`startup bench failed: ${error instanceof Error ? error.message : String(error)}`);
+    throw error;
   } finally {
-    rmSync(dir, { recursive: true, force: true });
+    // A program that was just stopped may still be flushing its data folder: retry the removal.
+    rmSync(dir, { recursive: true, force: true, maxRetries: 5, retryDelay: 500 });
   }
 }

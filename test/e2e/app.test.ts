@@ -78,6 +78,8 @@ describe('map front end (chromium)', () => {
     await page.locator('a.plan-link').first().waitFor();
     const planLinks = page.locator('a.plan-link');
     expect(await planLinks.count()).toBeGreaterThan(0);
+    // The card names the plan's band plan by its label (the row's bandPlanId, labels from /client-settings).
+    expect(await page.locator('.plan-band').first().textContent()).toMatch(/^US 902–928 MHz ISM · target margin [\d.]+ dB$/);
     await expect.poll(() => textOf('.role-badge'), { timeout: 10_000 }).toContain('planner');
     await screenshot(page, '02-plan-list');
     watch.assertClean();
@@ -90,6 +92,8 @@ describe('map front end (chromium)', () => {
     expect(planId).not.toBe('');
     await expect.poll(() => page.locator('.marker-nodes').count(), { timeout: 30_000 }).toBeGreaterThanOrEqual(40);
     expect(await page.locator('.marker-gateways').count()).toBeGreaterThanOrEqual(1);
+    // The demo DEM is named SYNTHETIC: the map says so (read from the layer's name).
+    expect(await page.locator('#terrain-note').textContent()).toContain('synthetic demo terrain');
     expect(await page.locator('.marker-sites').count()).toBeGreaterThanOrEqual(3);
     // The base layer is the plan's own hillshade, served by the local server; with no
     // EARSHOT_BASE_LAYER_URL (GET /client-settings says null) there is no online layer toggle.

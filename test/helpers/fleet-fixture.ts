@@ -94,6 +94,6 @@ export async function createFleetFixture(db: Database, teamId: string, filesDir:
 
 /** Every Link row of a plan, in a stable order, as comparable text (JSON results included). */
 export async function linkRowsOf(db: Database, planId: string): Promise<string[]> {
-  const rows = await db.prisma.link.findMany({ where: { planId }, select: { nodeId: true, gatewayId: true, inputHash: true, result: true }, orderBy: [{ nodeId: 'asc' }, { gatewayId: 'asc' }] });
-  return rows.map((row) => `${row.nodeId}|${row.gatewayId}|${row.inputHash}|${JSON.stringify(row.result)}`);
+  const rows = await db.prisma.link.findMany({ where: { planId }, select: { nodeId: true, gatewayId: true, inputHash: true, result: true, packed: true }, orderBy: [{ nodeId: 'asc' }, { gatewayId: 'asc' }] });
+  return rows.map((row) => `${row.nodeId}|${row.gatewayId}|${row.inputHash}|${JSON.stringify(row.result)}|${row.packed ? Buffer.from(row.packed).toString('hex') : '-'}`);
 }

@@ -42,6 +42,29 @@ export const comparePlans = (planId: string, otherPlanId: string): Promise<PlanC
 export const copyPlan = (planId: string, name: string): Promise<Plan & { copied: Record<string, number> }> =>
   request('POST', `/plans/${encodeURIComponent(planId)}/copy`, { name });
 
+export interface BomLine {
+  category: 'antenna' | 'feedline' | 'connector' | 'mast' | 'gateway' | 'site';
+  name: string;
+  quantity: number;
+  unit: 'each' | 'm';
+  unitCostUsd: number | null;
+  costUsd: number;
+}
+
+/** The plan's bill of materials as the server prices it (the report's and bom.csv's figures). */
+export interface BillOfMaterials {
+  lines: BomLine[];
+  totalsUsd: Record<BomLine['category'], number>;
+  nodeKitCostUsd: number;
+  gatewayKitCostUsd: number;
+  kitCostUsd: number;
+  totalUsd: number;
+  unpriced: string[];
+  notes: string[];
+}
+
+export const getBillOfMaterials = (planId: string): Promise<BillOfMaterials> => request<BillOfMaterials>('GET', `/plans/${encodeURIComponent(planId)}/bom`);
+
 export type PlanFile = 'report.pdf' | 'export.geojson' | 'export.kml' | 'export.csv' | 'bom.csv';
 
 /**

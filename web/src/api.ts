@@ -3,7 +3,19 @@
 // Authentication: the sign-in cookie set by GET /signin?token=..., or a pasted
 // API token kept for this browser tab (sessionStorage) and sent as a bearer.
 
+import type { paths } from './generated/api-schema.ts';
+
 const base = '/api/v1';
+
+type Method = 'get' | 'post' | 'put' | 'patch' | 'delete';
+/** The JSON a route answers with `status`, as the server's OpenAPI document says (web/src/generated/api-schema.ts). */
+export type Answer<P extends keyof paths, M extends Method, S extends number = 200> = paths[P][M] extends {
+  responses: { [K in S]: { content: { 'application/json': infer T } } };
+}
+  ? T
+  : never;
+/** The JSON body a route takes. */
+export type BodyOf<P extends keyof paths, M extends Method> = paths[P][M] extends { requestBody?: { content: { 'application/json': infer T } } } ? T : never;
 const tokenKey = 'earshot.token';
 
 export class ApiError extends Error {
@@ -110,84 +122,10 @@ async function listAll<T>(path: string, pageSize = 500): Promise<T[]> {
 
 // ---------- plans and fleet objects ----------
 
-/** An uplink SF with the LoRaWAN maximum application payload it carries (null: none stated). */
-export interface UplinkSf {
-  sf: number;
-  maxAppPayloadBytes: number | null;
-}
-
-export interface Plan {
-  id: string;
-  name: string;
-  description?: string;
-  bandPlanId?: string;
-  targetMarginDb?: number;
-  locationSigmaDb?: number | null;
-  modelSigmaDb?: number | null;
-  propagationMethod?: string;
-  version: number;
-  [key: string]: unknown;
-}
-
-export interface Site {
-  id: string;
-  planId: string;
-  name: string;
-  lat: number;
-  lon: number;
-  kind?: 'candidate' | 'used';
-  groundM?: number | null;
-  notes?: string;
-  costUsd?: number | null;
-  maxAntennaHeightAglM?: number | null;
-  version: number;
-  [key: string]: unknown;
-}
-
-export interface Gateway {
-  id: string;
-  planId: string;
-  siteId?: string | null;
-  name: string;
-  lat: number;
-  lon: number;
-  antennaDesignId: string;
-  antennaHeightAglM: number;
-  /** Degrees clockwise from true north; null = omni, or a directional antenna aimed at each node. */
-  antennaAzimuthDeg?: number | null;
-  feedlineId: string;
-  feedlineLengthM?: number;
-  mastOptionId?: string | null;
-  noiseFigureDb?: number;
-  txPowerDbm?: number;
-  notes?: string;
-  version: number;
-  [key: string]: unknown;
-}
-
-export interface FleetNode {
-  id: string;
-  planId: string;
-  name: string;
-  lat: number;
-  lon: number;
-  deviceType: string;
-  antennaDesignId: string;
-  antennaHeightAglM: number;
-  feedlineId?: string | null;
-  feedlineLengthM?: number;
-  mastOptionId?: string | null;
-  txPowerDbm?: number;
-  sfPolicy?: 'adaptive' | 'fixed';
-  fixedSf?: number | null;
-  payloadBytes?: number;
-  messagesPerHour?: number;
-  environment?: 'outdoor' | 'indoor' | 'pit';
-  installStatus?: 'planned' | 'installed' | 'needs-visit';
-  notes?: string;
-  version: number;
-  [key: string]: unknown;
-}
+export type Plan = Answer<'/api/v1/plans/{planId}', 'get'>;
+export type Site = Answer<'/api/v1/plans/{planId}/sites/{id}', 'get'>;
+export type Gateway = Answer<'/api/v1/plans/{planId}/gateways/{id}', 'get'>;
+export type FleetNode = Answer<'/api/v1/plans/{planId}/nodes/{id}', 'get'>;
 
 export type EntityKind = 'nodes' | 'gateways' | 'sites';
 export type Entity = FleetNode | Gateway | Site;
@@ -196,7 +134,7 @@ export const listPlans = (): Promise<Plan[]> => listAll<Plan>('/plans');
 export const getPlan = (planId: string): Promise<Plan> => request<Plan>('GET', `/plans/${planId}`);
 export const createPlan = (name: string): Promise<Plan> => request<Plan>('POST', '/plans', { name });
 /** Changes plan settings; `version` is the one read (a stale one comes back as 409). */
-export const updatePlan = (planId: string, body: Record<string, unknown> & { version: number }): Promise<Plan> =>
+export const updatePlan = (planId: string, body: BodyOf<'/api/v1/plans/{planId}', 'patch'>): Promise<Plan> =>
   request<Plan>('PATCH', `/plans/${planId}`, body);
 
 export function listEntities<T extends Entity>(planId: string, kind: EntityKind): Promise<T[]> {
@@ -214,30 +152,9 @@ export function deleteEntity(planId: string, kind: EntityKind, id: string): Prom
 
 // ---------- kit catalog ----------
 
-export interface AntennaDesign {
-  id: string;
-  name: string;
-  gainDbi: number;
-  kind?: string;
-  homemade?: boolean;
-  costUsd?: number;
-  [key: string]: unknown;
-}
-export interface FeedlineType {
-  id: string;
-  name: string;
-  lossDbPer100m: number;
-  referenceMhz?: number;
-  costUsdPerM?: number;
-  [key: string]: unknown;
-}
-export interface MastOption {
-  id: string;
-  name: string;
-  heightM: number;
-  costUsd?: number;
-  [key: string]: unknown;
-}
+export type AntennaDesign = Answer<'/api/v1/kit/antenna-designs/{id}', 'get'>;
+export type FeedlineType = Answer<'/api/v1/kit/feedlines/{id}', 'get'>;
+export type MastOption = Answer<'/api/v1/kit/masts/{id}', 'get'>;
 export interface Catalog {
   antennas: AntennaDesign[];
   feedlines: FeedlineType[];
@@ -255,22 +172,12 @@ export async function getCatalog(): Promise<Catalog> {
 
 // ---------- bulk node import ----------
 
-export interface ImportRowError {
-  row: number;
-  field?: string;
-  message: string;
-}
-export interface ImportResult {
-  dryRun?: boolean;
-  /** Dry run: true when every row passed. */
-  valid?: boolean;
-  rowCount?: number;
-  created?: number;
-  errors: ImportRowError[];
-  preview?: Array<Record<string, unknown>>;
-  items?: FleetNode[];
-  [key: string]: unknown;
-}
+/** ?dryRun=true: the row errors and a preview; nothing stored. */
+export type ImportPreview = Answer<'/api/v1/plans/{planId}/nodes/import', 'post', 200>;
+/** The rows were stored (with any row error the answer is a 400 invalid_rows carrying error.rows). */
+export type ImportDone = Answer<'/api/v1/plans/{planId}/nodes/import', 'post', 201>;
+export type ImportResult = ImportPreview | ImportDone;
+export type ImportRowError = ImportPreview['errors'][number];
 
 /** CSV goes as text/csv, GeoJSON as application/geo+json; ?dryRun=true validates and previews only. */
 export function importNodes(planId: string, format: 'csv' | 'geojson', content: string, dryRun: boolean): Promise<ImportResult> {
@@ -280,18 +187,9 @@ export function importNodes(planId: string, format: 'csv' | 'geojson', content: 
 
 // ---------- terrain ----------
 
-export interface TerrainLayer {
-  id: string;
-  name?: string;
-  kind?: string;
-  crs?: string;
-  resolutionM?: number;
-  extent?: { west: number; south: number; east: number; north: number } | number[];
-  [key: string]: unknown;
-}
+export type TerrainLayer = Answer<'/api/v1/plans/{planId}/terrain', 'get'>['items'][number];
 export async function listTerrain(planId: string): Promise<TerrainLayer[]> {
-  const body = await request<ListPage<TerrainLayer> | TerrainLayer[]>('GET', `/plans/${planId}/terrain`);
-  return Array.isArray(body) ? body : body.items;
+  return (await request<Answer<'/api/v1/plans/{planId}/terrain', 'get'>>('GET', `/plans/${planId}/terrain`)).items;
 }
 export const hillshadeTileUrl = (planId: string): string => `${base}/plans/${planId}/terrain/tiles/{z}/{x}/{y}.png`;
 
@@ -317,7 +215,6 @@ export interface Link {
   lineOfSight?: boolean;
   method?: string;
   legal: { withinLimit: boolean; peakEirpDbm: number; maxEirpDbm: number | null; excessDb: number | null; source: string | null } | null;
-  [key: string]: unknown;
 }
 export interface NodeLinks {
   nodeId: string;
@@ -327,7 +224,7 @@ export interface NodeLinks {
   status: LinkStatus;
   bestGatewayId: string | null;
   target: { targetMarginDb: number; targetDelivery: number };
-  assumptions?: { method?: string; frequencyMhz?: number; sigmaDb?: number; sigmaSource?: 'default' | 'plan' | 'calibration'; locationSigmaDb?: number; combination?: string; [key: string]: unknown };
+  assumptions?: { method?: string; frequencyMhz?: number; sigmaDb?: number; sigmaSource?: 'default' | 'plan' | 'calibration'; locationSigmaDb?: number; combination?: string };
   kit?: { antennaDesignId: string; antennaHeightAglM: number; feedlineId: string | null; feedlineLengthM: number };
   outOfRange?: Array<{ gatewayId: string; distanceM: number }>;
   preview?: boolean;
@@ -520,43 +417,18 @@ export interface ReadingInput {
   lon?: number;
   note?: string;
 }
-export interface Reading extends ReadingInput {
-  id: string;
-  predictedRssiDbm: number | null;
-  predictedSnrDb: number | null;
-  /** measured − predicted, dB */
-  rssiDifferenceDb: number | null;
-  snrDifferenceDb: number | null;
-}
-export const postReading = (planId: string, body: ReadingInput): Promise<{ items: Reading[] }> =>
-  request<{ items: Reading[] }>('POST', `/plans/${planId}/readings`, body);
-export const getNodeReadings = (planId: string, nodeId: string): Promise<{ items: Reading[]; total: number; meanRssiDifferenceDb: number | null }> =>
+/** A reading beside the prediction at its gateway (measured − predicted differences, dB). */
+export type Reading = Answer<'/api/v1/plans/{planId}/nodes/{nodeId}/readings', 'get'>['items'][number];
+export const postReading = (planId: string, body: ReadingInput): Promise<Answer<'/api/v1/plans/{planId}/readings', 'post', 201>> =>
+  request('POST', `/plans/${planId}/readings`, body);
+export const getNodeReadings = (planId: string, nodeId: string): Promise<Answer<'/api/v1/plans/{planId}/nodes/{nodeId}/readings', 'get'>> =>
   request('GET', `/plans/${planId}/nodes/${nodeId}/readings`);
 
-export interface FleetRow {
-  nodeId: string;
-  nodeName: string;
-  lat: number;
-  lon: number;
-  status: LinkStatus;
-  combinedDeliveryProbability: number;
-  bestGatewayId: string | null;
-  bestGatewayName: string | null;
-  bestMarginDb: number | null;
-  bestSf: number | null;
-  timeOnAirMs: number | null;
-  /** Gateways that hear the node with margin ≥ 0 dB. */
-  gatewaysHeard: number;
-  /** Every link within the band plan's power limit. */
-  legal: boolean;
-  warnings: string[];
-}
-export interface FleetTable extends ListPage<FleetRow> {
-  counts?: Partial<Record<LinkStatus, number>>;
-}
+export type FleetTable = Answer<'/api/v1/plans/{planId}/links', 'get'>;
+export type FleetRow = FleetTable['items'][number];
 export async function getFleet(planId: string, status?: LinkStatus): Promise<FleetTable> {
   const rows: FleetRow[] = [];
-  let counts: FleetTable['counts'];
+  let first: FleetTable | null = null;
   let cursor: string | null = null;
   let total = 0;
   for (let guard = 0; guard < 200; guard++) {
@@ -564,62 +436,24 @@ export async function getFleet(planId: string, status?: LinkStatus): Promise<Fle
     if (status) q.set('status', status);
     if (cursor) q.set('cursor', cursor);
     const page: FleetTable = await request<FleetTable>('GET', `/plans/${planId}/links?${q.toString()}`);
+    first = first ?? page;
     rows.push(...page.items);
-    counts = counts ?? page.counts;
     total = page.total;
     if (!page.next || page.items.length === 0) break;
     cursor = page.next;
   }
-  return { items: rows, total, next: null, counts };
+  // Counts, assumptions and warnings of the first page (the same on every page).
+  if (!first) throw new ApiError(0, 'no_answer', 'the fleet table answered no page');
+  return { ...first, items: rows, total, next: null };
 }
 
 // ---------- coverage ----------
 
-export type RunState = 'queued' | 'running' | 'done' | 'failed' | 'cancelled';
-export interface AreaShare {
-  cells: number;
-  share: number;
-  areaKm2: number;
-}
-export interface CoverageSummary {
-  cells: number;
-  areaKm2: number;
-  served: AreaShare;
-  marginal: AreaShare;
-  unserved: AreaShare;
-  nodes: { total: number; served: number; marginal: number; unserved: number; outside: number };
-  /** Per gateway: cells and nodes for which it is the best server. */
-  gateways: Array<{ index: number; bestServerCells: number; nodes: number; gatewayId: string; name: string }>;
-  /** Share of the disc that had terrain (the rest is NoData) and the nodes outside it. */
-  terrain?: { discShare: number; note: string; nodesOutside: Array<{ id: string; name: string | null }> };
-}
-export interface CoverageRun {
-  id: string;
-  planId: string;
-  status: RunState;
-  /** 0 … 1 */
-  progress: number;
-  error: string | null;
-  gatewayIds: string[];
-  mode: 'fast' | 'full' | null;
-  radiusKm: number | null;
-  sf: number | null;
-  requiredMarginDb: number | null;
-  summary: CoverageSummary | null;
-  createdAt: string;
-  startedAt: string | null;
-  finishedAt: string | null;
-}
-export interface CoverageRequest {
-  gatewayIds?: string[];
-  mode?: 'fast' | 'full';
-  radiusKm: number;
-  /** The node kit of every cell: the same fields and rules as a node. */
-  nodeKit?: { antennaDesignId: string; antennaHeightAglM: number; txPowerDbm: number; feedlineId?: string | null; feedlineLengthM?: number; environment?: 'outdoor' | 'indoor' | 'pit'; payloadBytes?: number };
-  /** A fixed SF for every cell; absent: the node SF rule. */
-  sf?: number;
-  requiredMarginDb?: number;
-}
+export type CoverageRun = Answer<'/api/v1/plans/{planId}/coverage/{runId}', 'get'>;
+export type RunState = CoverageRun['status'];
+export type CoverageSummary = NonNullable<CoverageRun['summary']>;
+export type AreaShare = CoverageSummary['served'];
+export type CoverageRequest = BodyOf<'/api/v1/plans/{planId}/coverage', 'post'>;
 export const runState = (run: CoverageRun): RunState => run.status;
 export const startCoverage = (planId: string, body: CoverageRequest): Promise<CoverageRun> =>
   request<CoverageRun>('POST', `/plans/${planId}/coverage`, body);
@@ -628,8 +462,7 @@ export const getCoverage = (planId: string, runId: string): Promise<CoverageRun>
 export const cancelCoverage = (planId: string, runId: string): Promise<CoverageRun> =>
   request<CoverageRun>('POST', `/plans/${planId}/coverage/${runId}/cancel`, {});
 export async function listCoverage(planId: string): Promise<CoverageRun[]> {
-  const body = await request<ListPage<CoverageRun> | CoverageRun[]>('GET', `/plans/${planId}/coverage`);
-  return Array.isArray(body) ? body : body.items;
+  return (await request<Answer<'/api/v1/plans/{planId}/coverage', 'get'>>('GET', `/plans/${planId}/coverage`)).items;
 }
 export const coverageEventsUrl = (planId: string, runId: string): string => `${base}/plans/${planId}/coverage/${runId}/events`;
 /** Margin tiles of a finished run. */
@@ -638,60 +471,20 @@ export const coverageTileUrl = (planId: string, runId: string): string => `${bas
 export const coverageGeoTiffUrl = (planId: string, runId: string, layer: 'margin' | 'loss' | 'redundancy' | 'best-sf'): string =>
   `${base}/plans/${planId}/coverage/${runId}.tif${layer === 'margin' ? '' : `?layer=${layer}`}`;
 
-export interface CoverageLegend {
-  quantity: string;
-  classes: Array<{ minMarginDb: number; label: string; colour: string }>;
-  transparent: string;
-  note: string;
-}
+export type CoverageLegend = Answer<'/api/v1/coverage/legend', 'get'>;
 export const getCoverageLegend = (): Promise<CoverageLegend> => request<CoverageLegend>('GET', '/coverage/legend');
 
 // ---------- session ----------
 
-export interface Me {
-  user: { id: string; name: string; email?: string | null };
-  team: { id: string; slug: string; name: string };
-  role: 'planner' | 'installer' | 'viewer';
-}
+export type Me = Answer<'/api/v1/me', 'get'>;
 export const getMe = (): Promise<Me> => request<Me>('GET', '/me');
 
 // ---------- client settings ----------
 
-export interface ClientSettings {
-  /** Optional online tile layer (EARSHOT_BASE_LAYER_URL on the server); null = offline only. */
-  onlineBaseLayer: { urlTemplate: string; attribution?: string } | null;
-  /** Band plans and propagation methods a plan may use (what PATCH /plans/:id accepts). */
-  defaultBandwidthKhz?: number;
-  bandPlans: Array<{
-    id: string;
-    name: string;
-    uplinkSfs?: UplinkSf[];
-    bandwidths?: Array<{ bandwidthKhz: number; uplinkSfs: UplinkSf[] }>;
-    otherBandwidthSfs?: UplinkSf[];
-  }>;
-  propagationMethods: string[];
-  /** The valid range of each physical input (server/api/schemas.ts FIELD_RANGES). */
-  ranges?: FieldRanges;
-}
-export interface FieldRange {
-  min: number;
-  max: number;
-  unit: string;
-  step: number;
-  note: string;
-}
-export type FieldRanges = Record<
-  | 'nodeAntennaHeightAglM'
-  | 'gatewayAntennaHeightAglM'
-  | 'nodeTxPowerDbm'
-  | 'gatewayTxPowerDbm'
-  | 'nodeFeedlineLengthM'
-  | 'gatewayFeedlineLengthM'
-  | 'targetMarginDb'
-  | 'sigmaDb'
-  | 'noiseFigureDb'
-  | 'coverageRadiusKm'
-  | 'payloadBytes',
-  FieldRange
->;
+export type ClientSettings = Answer<'/api/v1/client-settings', 'get'>;
+/** An uplink SF with the LoRaWAN maximum application payload it carries (null: none stated). */
+export type UplinkSf = ClientSettings['bandPlans'][number]['uplinkSfs'][number];
+/** The valid range of each physical input (server/api/schemas.ts FIELD_RANGES). */
+export type FieldRanges = ClientSettings['ranges'];
+export type FieldRange = FieldRanges[keyof FieldRanges];
 export const getClientSettings = (): Promise<ClientSettings> => request<ClientSettings>('GET', '/client-settings');

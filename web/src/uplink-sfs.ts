@@ -5,7 +5,7 @@ import type { ClientSettings, Plan, UplinkSf } from './api.ts';
 
 const ALL_SFS: UplinkSf[] = [7, 8, 9, 10, 11, 12].map((sf) => ({ sf, maxAppPayloadBytes: null }));
 
-export function planUplinkSfs(settings: Pick<ClientSettings, 'bandPlans' | 'defaultBandwidthKhz'> | undefined, plan: Pick<Plan, 'bandPlanId'> & { settings?: unknown }): UplinkSf[] {
+export function planUplinkSfs(settings: (Pick<ClientSettings, 'bandPlans'> & { defaultBandwidthKhz?: number }) | undefined, plan: Pick<Plan, 'bandPlanId'> & { settings?: unknown }): UplinkSf[] {
   const bandPlan = settings?.bandPlans.find((b) => b.id === plan.bandPlanId);
   if (!bandPlan) return ALL_SFS;
   const chosen = Number((plan.settings as { bandwidthKhz?: unknown } | undefined)?.bandwidthKhz);

@@ -5,7 +5,7 @@ import { z } from 'zod';
 import { listAudit } from '../../db/repositories/audit.ts';
 import { dateTime, errorResponses, pageOf, pageQuery } from '../schemas.ts';
 
-const auditEntryResponse = z
+export const auditEntryResponse = z
   .object({
     id: z.string(),
     teamId: z.string(),
@@ -16,8 +16,7 @@ const auditEntryResponse = z
     entityId: z.string(),
     detail: z.unknown().describe('JSON object'),
     at: dateTime,
-  })
-  .loose();
+  });
 
 export default async function auditRoutes(app: FastifyInstance): Promise<void> {
   const { db } = app.deps;

@@ -11,7 +11,9 @@ import { z } from 'zod';
 import { bandPlans } from '../../radio/band-plans.ts';
 import { DEFAULT_BANDWIDTH_KHZ, loraBandwidthsKhz, uplinkSfsFor } from '../../planning/settings.ts';
 import { PROPAGATION_METHODS } from '../../planning/path.ts';
-import { FIELD_RANGES } from '../schemas.ts';
+import { FIELD_RANGES, type RangedField } from '../schemas.ts';
+
+const fieldRange = z.object({ min: z.number(), max: z.number(), unit: z.string(), step: z.number(), note: z.string() });
 
 const uplinkSfsSchema = z.array(z.object({ sf: z.number().int(), maxAppPayloadBytes: z.number().int().nullable() }));
 
@@ -39,7 +41,7 @@ export const clientSettingsResponse = z.object({
     .describe('band plans a plan may use (bandPlanId)'),
   propagationMethods: z.array(z.string()).describe('propagation method ids a plan may use (propagationMethod)'),
   ranges: z
-    .record(z.string(), z.object({ min: z.number(), max: z.number(), unit: z.string(), step: z.number(), note: z.string() }))
+    .object(Object.fromEntries(Object.keys(FIELD_RANGES).map((field) => [field, fieldRange])) as Record<RangedField, typeof fieldRange>)
     .describe('the valid range of each physical input, the same rules every route applies (server/api/schemas.ts FIELD_RANGES)'),
 });
 export type ClientSettings = z.infer<typeof clientSettingsResponse>;

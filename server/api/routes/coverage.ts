@@ -13,7 +13,8 @@ import { openGeoRaster, type GeoRaster } from '../../terrain/raster.ts';
 import { maxCoverageCells, resolveCoverageRequest } from '../../app/coverage.ts';
 import { legend, renderMarginTile } from '../../coverage/tiles.ts';
 import { createCoverageJobs, type CoverageJobs } from '../../jobs/runner.ts';
-import { resultDir, RESULT_FILES, type CoverageJobParams } from '../../jobs/coverage-job.ts';
+import type { CoverageJobParams } from '../../jobs/coverage-job.ts';
+import { resultDir, RESULT_FILES } from '../../db/files.ts';
 import { requireRole } from '../auth.ts';
 import { ApiError, apiErrorOf } from '../errors.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
@@ -56,6 +57,35 @@ export const coverageBody = z.strictObject({
 
 export { maxCoverageCells };
 
+const areaShare = z.object({ cells: z.number().int(), share: z.number().describe('0 … 1'), areaKm2: z.number() });
+/** The stored summary of a finished run (server/jobs/coverage-job.ts); fields added later are optional for older runs. */
+const coverageSummary = z.object({
+  cells: z.number().int(),
+  areaKm2: z.number(),
+  served: areaShare,
+  marginal: areaShare,
+  unserved: areaShare,
+  nodes: z.object({ total: z.number().int(), served: z.number().int(), marginal: z.number().int(), unserved: z.number().int(), outside: z.number().int() }),
+  gateways: z
+    .array(z.object({ index: z.number().int(), bestServerCells: z.number().int(), nodes: z.number().int(), gatewayId: z.string(), name: z.string() }))
+    .describe('per gateway: cells and nodes for which it is the best server'),
+  mode: z.string().optional(),
+  radiusKm: z.number().optional(),
+  sf: z.number().int().nullable().optional(),
+  requiredMarginDb: z.number().optional(),
+  terrain: z
+    .object({
+      discShare: z.number().describe('0 … 1: the smallest share of a gateway disc that had terrain'),
+      perGateway: z.array(z.object({ gatewayId: z.string(), discShare: z.number() })).optional(),
+      nodesOutside: z.array(z.object({ id: z.string(), name: z.string().nullable() })),
+      note: z.string(),
+    })
+    .optional(),
+  budget: z.object({ note: z.string(), allowedSfs: z.array(z.number().int()), kFactor: z.number() }).optional(),
+  clutter: z.object({ layerId: z.string().nullable(), name: z.string().nullable(), heightsM: z.record(z.string(), z.number()).nullable(), note: z.string() }).optional(),
+  grid: z.object({ widthPx: z.number().int(), heightPx: z.number().int(), geoTransform: z.array(z.number()), epsg: z.number().int().nullable() }).optional(),
+});
+
 /** A coverage run as the API answers it (runView). */
 export const coverageRunResponse = z
   .object({
@@ -70,12 +100,11 @@ export const coverageRunResponse = z
     radiusKm: z.number().nullable(),
     sf: z.number().int().nullable(),
     requiredMarginDb: z.number().nullable(),
-    summary: z.unknown().describe('null until done; shares of the area per margin class, node classes, per-gateway load'),
+    summary: coverageSummary.nullable().describe('null until done; shares of the area per margin class, node classes, per-gateway load'),
     createdAt: dateTime,
     startedAt: dateTime.nullable(),
     finishedAt: dateTime.nullable(),
-  })
-  .loose();
+  });
 const legendResponse = z.object({
   quantity: z.string(),
   classes: z.array(z.object({ minMarginDb: z.number().describe('dB'), label: z.string(), colour: z.string().describe('#rrggbb') })),
@@ -97,7 +126,8 @@ function runView(run: CoverageRunRow) {
     radiusKm: params.radiusKm ?? null,
     sf: params.sf ?? null,
     requiredMarginDb: params.requiredMarginDb ?? null,
-    summary: run.summary ?? null,
+    // Stored by the coverage job in this shape (server/jobs/coverage-job.ts).
+    summary: (run.summary ?? null) as z.infer<typeof coverageSummary> | null,
     createdAt: run.createdAt.toISOString(),
     startedAt: run.startedAt?.toISOString() ?? null,
     finishedAt: run.finishedAt?.toISOString() ?? null,

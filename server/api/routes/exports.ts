@@ -6,11 +6,12 @@ import type { FastifyInstance, FastifyReply } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { planExport, type ExportFormat } from '../../app/exports.ts';
+import { planBillOfMaterials } from '../../app/plan-figures.ts';
 import { planReport } from '../../app/report.ts';
 import { reportFile, reportFileInput } from '../../app/report-files.ts';
 import { LinkEngine } from '../../jobs/link-engine.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
-import { planParams } from '../schemas.ts';
+import { errorResponses, planParams } from '../schemas.ts';
 import { asApiError } from './links.ts';
 
 function attachment(reply: FastifyReply, contentType: string, fileName: string): FastifyReply {
@@ -36,6 +37,26 @@ export default async function exportRoutes(app: FastifyInstance): Promise<void> 
       return attachment(reply, file.contentType, file.fileName).send(Readable.from(file.chunks));
     });
   }
+
+  const money = z.number().describe('USD');
+  const bomResponse = z.object({
+    lines: z.array(z.object({ category: z.enum(['antenna', 'feedline', 'connector', 'mast', 'gateway', 'site']), name: z.string(), quantity: z.number(), unit: z.enum(['each', 'm']), unitCostUsd: money.nullable(), costUsd: money })),
+    totalsUsd: z.record(z.string(), money),
+    nodeKitCostUsd: money,
+    gatewayKitCostUsd: money,
+    kitCostUsd: money.describe('USD: node and gateway kit (antennas, feedlines, connectors and surge arrestors, masts); the report’s “Kit cost”'),
+    totalUsd: money.describe('USD: kit cost plus gateway radios and site works'),
+    unpriced: z.array(z.string()),
+    notes: z.array(z.string()),
+  });
+  api.get(
+    '/plans/:planId/bom',
+    { schema: { summary: 'Bill of materials as JSON, priced as the report and bom.csv price it (one kit price per node and gateway from the team’s catalog), without the link predictions', tags, params: planParams, response: { 200: bomResponse, ...errorResponses } } },
+    async (request) => {
+      const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
+      return planBillOfMaterials(db, plan).catch(asApiError);
+    },
+  );
 
   api.get(
     '/plans/:planId/report.pdf',

@@ -35,7 +35,7 @@ const gatewayFields = {
   txPowerDbm: gatewayTxPowerDbm().optional(),
   notes: notes().optional(),
 };
-/** A gateway as the API answers it (loose: later columns pass through). */
+/** A gateway as the API answers it: every field listed (the serializer drops unlisted keys). */
 export const gatewayResponse = z
   .object({
     id: z.string(),
@@ -56,8 +56,7 @@ export const gatewayResponse = z
     version: z.number().int(),
     createdAt: dateTime,
     updatedAt: dateTime,
-  })
-  .loose();
+  });
 export const gatewayCreateBody = z.strictObject(gatewayFields);
 export const gatewayPatchBody = z.strictObject({ ...gatewayFields, name: name().optional(), version: version() });
 

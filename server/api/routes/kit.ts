@@ -76,7 +76,7 @@ const mastFields = {
 const mastCreate = z.strictObject(mastFields);
 const mastPatch = z.strictObject({ ...mastFields, name: name().optional(), heightM: mastFields.heightM.optional(), version: version() });
 
-/** Columns every catalog row has (loose: later columns pass through). */
+/** Columns every catalog row has (each row schema lists every field; unlisted keys are dropped). */
 const kitRowFields = {
   id: z.string(),
   teamId: z.string().nullable().describe('null for built-in rows'),
@@ -88,7 +88,7 @@ const kitRowFields = {
   createdAt: dateTime,
   updatedAt: dateTime,
 };
-const antennaResponse = z
+export const antennaResponse = z
   .object({
     ...kitRowFields,
     kind: z.string(),
@@ -101,9 +101,8 @@ const antennaResponse = z
     costUsd: z.number(),
     homemade: z.boolean(),
     buildSheetId: z.string().nullable(),
-  })
-  .loose();
-const feedlineResponse = z
+  });
+export const feedlineResponse = z
   .object({
     ...kitRowFields,
     lossDbPer100m: z.number().describe('dB per 100 m at referenceMhz'),
@@ -113,9 +112,8 @@ const feedlineResponse = z
     impedanceOhm: z.number(),
     velocityFactor: z.number().nullable(),
     costUsdPerM: z.number(),
-  })
-  .loose();
-const mastResponse = z.object({ ...kitRowFields, heightM: z.number().describe('m'), costUsd: z.number() }).loose();
+  });
+export const mastResponse = z.object({ ...kitRowFields, heightM: z.number().describe('m'), costUsd: z.number() });
 
 type Row = { id: string; teamId: string | null };
 const withBuiltIn = <T extends Row>(row: T) => ({ ...row, builtIn: row.teamId === null });

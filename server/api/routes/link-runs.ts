@@ -30,7 +30,7 @@ export const linkRunResponse = z.object({
   id: z.string(),
   planId: z.string(),
   status,
-  progress: z.number().describe('0 … 1: pairs of the finished children over all pairs'),
+  progress: z.number().describe('0 … 1: pairs of the finished children, plus the paths the running children have predicted so far, over all pairs'),
   children: z.object({
     total: z.number().int(),
     done: z.number().int(),

@@ -11,7 +11,7 @@ import type { PlanRow } from '../../db/repositories/plans.ts';
 import { requireRole } from '../auth.ts';
 import { ApiError, apiErrorOf } from '../errors.ts';
 import { loadPlanForPrincipal, loadPlanForRead } from '../scope.ts';
-import { finite, id, nodeAntennaHeightAglM, nodeFeedlineLengthM, pageQuery, ranged, targetMarginDb } from '../schemas.ts';
+import { errorResponses, finite, id, nodeAntennaHeightAglM, nodeFeedlineLengthM, pageQuery, ranged, targetMarginDb } from '../schemas.ts';
 import { LinkEngine, type PlanContext } from '../../jobs/link-engine.ts';
 import {
   fleetTable,
@@ -29,6 +29,36 @@ import {
 } from '../../app/links.ts';
 import { visitSheetHtml } from '../../app/visit-sheet.ts';
 import { registerReadingRoutes } from './readings.ts';
+
+const linkStatus = z.enum(['served', 'marginal', 'unserved']);
+/** GET /plans/:planId/links (fleetTable in server/app/links.ts): one row per node, a page of them. */
+const fleetTableResponse = z.object({
+  items: z.array(
+    z.object({
+      nodeId: z.string(),
+      nodeName: z.string(),
+      lat: z.number(),
+      lon: z.number(),
+      status: linkStatus,
+      combinedDeliveryProbability: z.number().describe('0 … 1'),
+      bestGatewayId: z.string().nullable(),
+      bestGatewayName: z.string().nullable(),
+      bestMarginDb: z.number().nullable(),
+      sigmaDb: z.number().nullable().describe('planning spread σ of the best link, dB'),
+      bestSf: z.number().int().nullable(),
+      timeOnAirMs: z.number().nullable(),
+      gatewaysHeard: z.number().int().describe('gateways that hear the node with margin ≥ 0 dB'),
+      legal: z.boolean().describe('every link within the band plan power limit'),
+      warnings: z.array(z.string()),
+    }),
+  ),
+  total: z.number().int(),
+  next: z.string().nullable(),
+  counts: z.object({ served: z.number().int(), marginal: z.number().int(), unserved: z.number().int() }),
+  assumptions: z.object({ sigmaDb: z.number(), sigmaSource: z.enum(['default', 'plan', 'calibration']), sigmaModelDb: z.number(), sigmaNote: z.string() }),
+  cache: z.object({ computed: z.number().int(), cached: z.number().int() }),
+  warnings: z.array(z.string()),
+});
 
 const nodeParams = z.strictObject({ planId: id(), nodeId: id() });
 const jobParams = z.strictObject({ planId: id(), jobId: id() });
@@ -103,7 +133,7 @@ export default async function linkRoutes(app: FastifyInstance): Promise<void> {
 
   api.get(
     '/plans/:planId/links',
-    { schema: { summary: 'The fleet table: every node with its status, best gateway and margin, paginated, with counts per status', tags, params: planParams, querystring: fleetQuery } },
+    { schema: { summary: 'The fleet table: every node with its status, best gateway and margin, paginated, with counts per status', tags, params: planParams, querystring: fleetQuery, response: { 200: fleetTableResponse, ...errorResponses } } },
     async (request) => {
       const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
       return fleetTable(engine, plan, request.query).catch(asApiError);

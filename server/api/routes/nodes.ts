@@ -102,7 +102,7 @@ async function kitErrors(db: Database, teamId: string, rows: NodeCreate[]): Prom
   return errors;
 }
 
-/** A node as the API answers it (loose: later columns pass through). */
+/** A node as the API answers it: every field listed (the serializer drops unlisted keys). */
 export const nodeResponse = z
   .object({
     id: z.string(),
@@ -117,20 +117,32 @@ export const nodeResponse = z
     feedlineLengthM: z.number().describe('m'),
     mastOptionId: z.string().nullable(),
     txPowerDbm: z.number().describe('dBm at the radio port'),
-    sfPolicy: z.string().describe('adaptive or fixed'),
+    sfPolicy: z.enum(['adaptive', 'fixed']),
     fixedSf: z.number().int().nullable(),
     payloadBytes: z.number().int(),
     messagesPerHour: z.number(),
-    environment: z.string(),
+    environment: z.enum(['outdoor', 'indoor', 'pit']),
     buildingType: z.string().nullable(),
     installStatus: z.enum(installStatuses),
     notes: z.string(),
     devEui: z.string().nullable().describe('LoRaWAN DevEUI, 16 hex digits'),
+    originId: z.string().nullable().describe('the node this one was copied from (plan copies), so scenarios compare node by node'),
     version: z.number().int(),
     createdAt: dateTime,
     updatedAt: dateTime,
-  })
-  .loose();
+  });
+
+const rowErrorResponse = z.object({ row: z.number().int().describe('1-based data row (CSV: not counting the header; GeoJSON: feature number)'), field: z.string(), message: z.string() });
+/** ?dryRun=true: whether every row passed, the row errors, and the first 100 rows as they would be stored. */
+const importPreviewResponse = z.object({
+  dryRun: z.literal(true),
+  valid: z.boolean(),
+  rowCount: z.number().int(),
+  errors: z.array(rowErrorResponse),
+  preview: z.array(nodeResponse.omit({ id: true, planId: true, originId: true, version: true, createdAt: true, updatedAt: true }).partial()),
+});
+/** The rows were stored (all of them; with any row error nothing is, and the answer is a 400 invalid_rows with error.rows). */
+const importDoneResponse = z.object({ created: z.number().int(), items: z.array(nodeResponse) });
 
 export default async function nodeRoutes(app: FastifyInstance): Promise<void> {
   const api = app.withTypeProvider<ZodTypeProvider>();
@@ -175,6 +187,7 @@ export default async function nodeRoutes(app: FastifyInstance): Promise<void> {
         tags,
         params: planParams,
         querystring: z.strictObject({ dryRun: z.enum(['true', 'false', '1', '0']).optional() }),
+        response: { 200: importPreviewResponse, 201: importDoneResponse, ...errorResponses },
       },
     },
     async (request, reply) => {
@@ -195,7 +208,7 @@ export default async function nodeRoutes(app: FastifyInstance): Promise<void> {
       if (errors.length === 0) errors.push(...(await kitErrors(db, principal.teamId, data)));
       errors.sort((a, b) => a.row - b.row);
       if (dryRun) {
-        return { dryRun: true, valid: errors.length === 0, rowCount: records.length, errors, preview: data.slice(0, 100).map(nodeView) };
+        return { dryRun: true as const, valid: errors.length === 0, rowCount: records.length, errors, preview: data.slice(0, 100).map(nodeView) };
       }
       if (errors.length > 0) {
         throw new ApiError(400, 'invalid_rows', `${new Set(errors.map((e) => e.row)).size} of ${records.length} rows have errors; nothing was imported (first: row ${errors[0].row} ${errors[0].field}: ${errors[0].message})`, {

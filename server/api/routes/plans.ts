@@ -1,15 +1,12 @@
 // Plans of the caller's team: list, create (only a name is needed), read, update (with
 // version), delete. Planners edit; everyone in the team reads.
-import { readdir, rm } from 'node:fs/promises';
-import { isAbsolute, join, relative, resolve } from 'node:path';
 import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { bandPlans } from '../../radio/band-plans.ts';
 import { writeWithAudit } from '../../db/repositories/audit.ts';
 import { createPlan, deletePlanReturningFiles, listPlans, planCounts, updatePlan } from '../../db/repositories/plans.ts';
-import { resultDir } from '../../jobs/coverage-job.ts';
-import type { PlanFiles } from '../../db/repositories/plans.ts';
+import { removePlanFiles } from '../../db/files.ts';
 import type { JsonValue } from '../../db/types.ts';
 import { requireRole } from '../auth.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
@@ -28,7 +25,7 @@ const planFields = {
   settings: jsonObject.optional(),
 };
 
-/** A plan as the API answers it (loose: columns added later are passed through, not dropped). */
+/** A plan as the API answers it: every field listed (the serializer drops unlisted keys). */
 export const planResponse = z
   .object({
     id: z.string(),
@@ -44,8 +41,7 @@ export const planResponse = z
     version: z.number().int(),
     createdAt: dateTime,
     updatedAt: dateTime,
-  })
-  .loose();
+  });
 const planWithCounts = planResponse.extend({ counts: z.object({ sites: z.number().int(), gateways: z.number().int(), nodes: z.number().int(), terrainLayers: z.number().int() }) });
 
 export const planCreateBody = z.strictObject(planFields);
@@ -54,47 +50,6 @@ export const planPatchBody = z.strictObject({ ...planFields, name: name().option
 function toData<T extends { settings?: Record<string, unknown> }>(body: T) {
   const { settings, ...rest } = body;
   return settings === undefined ? rest : { ...rest, settings: settings as JsonValue };
-}
-
-/**
- * Removes a deleted plan's files: <filesDir>/terrain/<planId>/ (uploads, incl. unfinished
- * ones), terrain files it referenced elsewhere under filesDir, and its coverage result
- * folders (with any `.partial-*` folders of interrupted runs). Never touches anything outside
- * filesDir. Returns the paths that could not be removed.
- */
-export async function removePlanFiles(filesDir: string, planId: string, files: PlanFiles): Promise<string[]> {
-  const root = resolve(filesDir);
-  const inside = (path: string) => {
-    const rel = relative(root, resolve(root, path));
-    return rel !== '' && !rel.startsWith('..') && !isAbsolute(rel);
-  };
-  // The plan's upload folder goes as a whole unless a copy of the plan still uses a file in it;
-  // then only the files nobody references go.
-  const planTerrainDir = join(root, 'terrain', planId);
-  const shared = new Set((files.sharedTerrainFiles ?? []).map((filePath) => resolve(root, filePath)));
-  const targets = new Set<string>();
-  if ([...shared].some((path) => !relative(planTerrainDir, path).startsWith('..'))) {
-    for (const name of await readdir(planTerrainDir).catch(() => [] as string[])) {
-      const path = join(planTerrainDir, name);
-      if (!shared.has(path)) targets.add(path);
-    }
-  } else {
-    targets.add(planTerrainDir);
-  }
-  for (const filePath of files.terrainFiles) if (!shared.has(resolve(root, filePath))) targets.add(resolve(root, filePath));
-  for (const path of files.coverageResultPaths) targets.add(resolve(root, path));
-  const coverageDir = join(root, 'coverage');
-  const partials = await readdir(coverageDir).catch(() => [] as string[]);
-  for (const runId of files.coverageRunIds) {
-    targets.add(resultDir({ filesDir: root }, runId));
-    for (const name of partials) if (name.startsWith(`${runId}.partial-`)) targets.add(join(coverageDir, name));
-  }
-  const failed: string[] = [];
-  for (const target of targets) {
-    if (!inside(target)) continue;
-    await rm(target, { recursive: true, force: true }).catch(() => failed.push(target));
-  }
-  return failed;
 }
 
 export default async function planRoutes(app: FastifyInstance): Promise<void> {

@@ -12,7 +12,7 @@ import { decodeCursor, encodeCursor } from '../../db/repositories/pagination.ts'
 import { requireRole } from '../auth.ts';
 import { ApiError } from '../errors.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
-import { finite, id, latitude, longitude, pageQuery } from '../schemas.ts';
+import { dateTime, errorResponses, finite, id, latitude, longitude, pageOf, pageQuery } from '../schemas.ts';
 import type { LinkEngine, PlanContext } from '../../jobs/link-engine.ts';
 import type { LinkResult } from '../../planning/link.ts';
 
@@ -35,6 +35,32 @@ export const readingsBody = z.union([
 
 const nodeParams = z.strictObject({ planId: id(), nodeId: id() });
 const planParams = z.strictObject({ planId: id() });
+
+/** A stored field reading as the API answers it (every column). */
+export const fieldReadingResponse = z.object({
+  id: z.string(),
+  planId: z.string(),
+  nodeId: z.string(),
+  gatewayId: z.string().nullable(),
+  rssiDbm: z.number().describe('dBm measured'),
+  snrDb: z.number().describe('dB measured'),
+  sf: z.number().int(),
+  measuredAt: dateTime,
+  lat: z.number().nullable(),
+  lon: z.number().nullable(),
+  note: z.string(),
+  kit: z.unknown().describe('JSON: the node kit at the time of the reading'),
+  source: z.string().describe('manual, or the import that brought it'),
+  createdById: z.string().nullable(),
+  createdAt: dateTime,
+});
+/** A reading beside the prediction at its gateway (null when none). */
+export const readingWithPredictionResponse = fieldReadingResponse.extend({
+  predictedRssiDbm: z.number().nullable(),
+  predictedSnrDb: z.number().nullable(),
+  rssiDifferenceDb: z.number().nullable().describe('measured − predicted, dB'),
+  snrDifferenceDb: z.number().nullable().describe('measured − predicted, dB'),
+});
 
 type ReadingInput = { gatewayId?: string | null; rssiDbm: number; snrDb: number; sf: number; measuredAt?: string; lat?: number; lon?: number; note?: string };
 
@@ -68,7 +94,7 @@ export function registerReadingRoutes(
 
   typed.post(
     '/plans/:planId/readings',
-    { schema: { summary: 'Record measured RSSI/SNR of a node (installer or planner); answers each reading beside the prediction', tags, params: planParams, body: readingsBody } },
+    { schema: { summary: 'Record measured RSSI/SNR of a node (installer or planner); answers each reading beside the prediction', tags, params: planParams, body: readingsBody, response: { 201: z.object({ items: z.array(readingWithPredictionResponse) }), ...errorResponses } } },
     async (request, reply) => {
       const principal = requireRole(request, 'installer', 'planner');
       const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
@@ -105,7 +131,7 @@ export function registerReadingRoutes(
 
   typed.get(
     '/plans/:planId/nodes/:nodeId/readings',
-    { schema: { summary: "A node's field readings beside the prediction (difference = measured − predicted, dB)", tags, params: nodeParams } },
+    { schema: { summary: "A node's field readings beside the prediction (difference = measured − predicted, dB)", tags, params: nodeParams, response: { 200: z.object({ items: z.array(readingWithPredictionResponse), total: z.number().int(), meanRssiDifferenceDb: z.number().nullable() }), ...errorResponses } } },
     async (request) => {
       const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
       const ctx = await context(plan);
@@ -125,7 +151,7 @@ export function registerReadingRoutes(
     },
   );
 
-  typed.get('/plans/:planId/readings', { schema: { summary: 'Field readings of a plan, newest first', tags, params: planParams, querystring: pageQuery } }, async (request) => {
+  typed.get('/plans/:planId/readings', { schema: { summary: 'Field readings of a plan, newest first', tags, params: planParams, querystring: pageQuery, response: { 200: pageOf(fieldReadingResponse), ...errorResponses } } }, async (request) => {
     const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
     const offset = decodeCursor(request.query.cursor);
     const limit = request.query.limit ?? 100;

@@ -19,7 +19,7 @@ const siteFields = {
   costUsd: nonNegative().nullable().optional(),
   maxAntennaHeightAglM: nonNegative().max(500, 'must be ≤ 500 m').nullable().optional(),
 };
-/** A site as the API answers it (loose: later columns pass through). */
+/** A site as the API answers it: every field listed (the serializer drops unlisted keys). */
 export const siteResponse = z
   .object({
     id: z.string(),
@@ -35,8 +35,7 @@ export const siteResponse = z
     version: z.number().int(),
     createdAt: dateTime,
     updatedAt: dateTime,
-  })
-  .loose();
+  });
 export const siteCreateBody = z.strictObject(siteFields);
 export const sitePatchBody = z.strictObject({ ...siteFields, name: name().optional(), lat: latitude().optional(), lon: longitude().optional(), version: version() });
 

@@ -6,8 +6,8 @@
 // ever half-stored (a failed transaction removes the renamed file).
 import { createHash, randomUUID } from 'node:crypto';
 import { createWriteStream } from 'node:fs';
-import { mkdir, readdir, rename, rm, stat } from 'node:fs/promises';
-import { isAbsolute, join } from 'node:path';
+import { mkdir, rename, rm } from 'node:fs/promises';
+import { join } from 'node:path';
 import type { Readable } from 'node:stream';
 import multipart from '@fastify/multipart';
 import type { FastifyInstance, FastifyRequest } from 'fastify';
@@ -15,7 +15,7 @@ import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { writeWithAudit, type AuditPrincipal } from '../../db/repositories/audit.ts';
 import type { Database } from '../../db/client.ts';
-import { terrainFileNamesReferencedIn, terrainFilesStillReferenced } from '../../db/repositories/scenarios.ts';
+import { removeTerrainFileIfUnused, resolveStoredFile, sweepIncomingFiles, sweepOrphanFiles, terrainDir } from '../../db/files.ts';
 import { allTerrainLayers, createTerrainLayerWith, deleteTerrainLayer, listTerrainLayers, planExtent, type TerrainLayerRow } from '../../db/repositories/terrain-layers.ts';
 import { findPlanById } from '../../db/repositories/links.ts';
 import { crsForEpsg } from '../../terrain/crs.ts';
@@ -69,8 +69,7 @@ export const terrainLayerResponse = z
     noData: z.number().nullable(),
     priority: z.number().int(),
     createdAt: dateTime,
-  })
-  .loose();
+  });
 
 /** The layer as the API shows it. */
 export function terrainLayerDto(row: TerrainLayerRow) {
@@ -194,7 +193,7 @@ export default async function terrainRoutes(app: FastifyInstance): Promise<void>
   // Raw GeoTIFF bodies are handed to the route as a stream (never buffered in memory).
   app.addContentTypeParser(['image/tiff', 'image/geotiff', 'application/octet-stream'], (_request, payload, done) => done(null, payload));
 
-  const resolveFile = (filePath: string) => (isAbsolute(filePath) ? filePath : join(filesDir, filePath));
+  const resolveFile = (filePath: string) => resolveStoredFile(config, filePath);
 
   // Open rasters per plan for tiles (bounded) and rendered tiles (bounded by bytes).
   const rasterSets = new Map<string, { signature: string; rasters: Promise<GeoRaster[]> }>();
@@ -212,9 +211,9 @@ export default async function terrainRoutes(app: FastifyInstance): Promise<void>
   // so an upload in progress on another instance sharing the data folder is never touched.
   app.addHook('onReady', async () => {
     try {
-      await sweepOrphanFiles(db, join(filesDir, 'terrain'), 60 * 60 * 1000);
+      await sweepOrphanFiles(db, terrainDir(config), 60 * 60 * 1000);
       // Uploads interrupted by a crash: gone at once (one still being written elsewhere keeps a fresh mtime).
-      await sweepIncomingFiles(join(filesDir, 'terrain'), 2 * 60 * 1000);
+      await sweepIncomingFiles(terrainDir(config), 2 * 60 * 1000);
     } catch (error) {
       app.log.warn({ err: error }, 'terrain file sweep failed');
     }
@@ -289,7 +288,7 @@ export default async function terrainRoutes(app: FastifyInstance): Promise<void>
     );
     // Only after the commit: a rolled-back delete keeps its file, and a file a copied plan's layer still uses stays.
     dropRasters(plan.id);
-    if ((await terrainFilesStillReferenced(db, [row.filePath])).size === 0) await rm(resolveFile(row.filePath), { force: true });
+    await removeTerrainFileIfUnused(db, config, row.filePath);
     return reply.status(204).send();
   });
 
@@ -490,52 +489,3 @@ async function receiveUpload(request: FastifyRequest, tempPath: string, limit: n
   return { received: await receive(body, tempPath, limit), fields };
 }
 
-/** Removes `.incoming-*.tif` upload files under <filesDir>/terrain/<planId>/ not written to for `minAgeMs`. */
-export async function sweepIncomingFiles(terrainDir: string, minAgeMs: number): Promise<string[]> {
-  const removed: string[] = [];
-  let planDirs: string[];
-  try {
-    planDirs = (await readdir(terrainDir, { withFileTypes: true })).filter((entry) => entry.isDirectory()).map((entry) => entry.name);
-  } catch {
-    return removed;
-  }
-  const now = Date.now();
-  for (const planId of planDirs) {
-    const dir = join(terrainDir, planId);
-    for (const file of await readdir(dir).catch(() => [] as string[])) {
-      if (!/^\.incoming-[0-9a-f-]+\.tif$/.test(file)) continue;
-      const path = join(dir, file);
-      const info = await stat(path).catch(() => null);
-      if (!info || !info.isFile() || now - info.mtimeMs < minAgeMs) continue;
-      await rm(path, { force: true });
-      removed.push(path);
-    }
-  }
-  return removed;
-}
-
-/** Removes files under <filesDir>/terrain/<planId>/ that no terrain layer row references and that are older than `minAgeMs`. */
-export async function sweepOrphanFiles(db: Database, terrainDir: string, minAgeMs: number): Promise<string[]> {
-  let planDirs: string[];
-  try {
-    planDirs = (await readdir(terrainDir, { withFileTypes: true })).filter((entry) => entry.isDirectory()).map((entry) => entry.name);
-  } catch {
-    return [];
-  }
-  const removed: string[] = [];
-  const now = Date.now();
-  for (const planId of planDirs) {
-    const dir = join(terrainDir, planId);
-    // Layers of this plan and of its copies (which share the files) keep a file.
-    const referenced = await terrainFileNamesReferencedIn(db, planId);
-    for (const file of await readdir(dir)) {
-      if (referenced.has(file)) continue;
-      const path = join(dir, file);
-      const info = await stat(path).catch(() => null);
-      if (!info || !info.isFile() || now - info.mtimeMs < minAgeMs) continue;
-      await rm(path, { force: true });
-      removed.push(path);
-    }
-  }
-  return removed;
-}

@@ -4,7 +4,7 @@
 // The *ForTeam helpers return the server/radio shapes the computation rooms take.
 import { createHash } from 'node:crypto';
 import { parseStoredPattern } from '../../radio/pattern-schema.ts';
-import type { Database } from '../client.ts';
+import type { Database } from '../database.ts';
 import type { Prisma } from '../generated/client.ts';
 import { NotFoundError } from '../errors.ts';
 import { pageWindow, toPage, type PageQuery } from './pagination.ts';

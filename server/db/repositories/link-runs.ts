@@ -8,7 +8,7 @@
 import type { Database } from '../client.ts';
 import { Prisma } from '../generated/client.ts';
 import { transactionLimits } from './audit.ts';
-import type { LinkRow } from './links.ts';
+import { upsertLinkRows, type LinkRow } from './links.ts';
 
 export type LinkRunRow = Awaited<ReturnType<Database['prisma']['linkRun']['findFirstOrThrow']>>;
 export type LinkRunTileRow = Awaited<ReturnType<Database['prisma']['linkRunTile']['findFirstOrThrow']>>;
@@ -59,6 +59,8 @@ export interface LinkRunTotals {
   /** Tiles claimed more than once (their first worker died or gave up). */
   tilesRetried: number;
   pairsDone: number;
+  /** Paths the running tiles have predicted so far (not yet written: a killed attempt loses them). */
+  pairsRunning: number;
   linksWritten: number;
   /** Worker ids that claimed any tile, sorted. */
   workers: string[];
@@ -74,6 +76,7 @@ export async function linkRunTotals(db: Database, runId: string): Promise<LinkRu
       count(*) FILTER (WHERE "status" = 'cancelled') AS cancelled,
       count(*) FILTER (WHERE "attempts" > 1) AS retried,
       coalesce(sum("pairs") FILTER (WHERE "status" = 'done'), 0) AS pairs_done,
+      coalesce(sum("pairsDone") FILTER (WHERE "status" = 'running'), 0) AS pairs_running,
       coalesce(sum("linksWritten"), 0) AS links_written,
       coalesce(sum("seconds") FILTER (WHERE "status" = 'done'), 0) AS tile_seconds,
       coalesce(sum("writeSeconds") FILTER (WHERE "status" = 'done'), 0) AS write_seconds,
@@ -87,6 +90,7 @@ export async function linkRunTotals(db: Database, runId: string): Promise<LinkRu
     tilesCancelled: n(row.cancelled),
     tilesRetried: n(row.retried),
     pairsDone: n(row.pairs_done),
+    pairsRunning: n(row.pairs_running),
     linksWritten: n(row.links_written),
     workers,
     tileSeconds: n(row.tile_seconds),
@@ -102,7 +106,7 @@ export async function linkRunTotals(db: Database, runId: string): Promise<LinkRu
  */
 export async function claimLinkTile(db: Database, runId: string, index: number, workerId: string): Promise<number | null> {
   const rows = await retryTransient(() => db.prisma.$queryRaw<Array<{ attempts: number }>>`UPDATE "LinkRunTile" AS t
-      SET "status" = 'running', "attempts" = t."attempts" + 1, "workerIds" = t."workerIds" || jsonb_build_array(${workerId}::text), "startedAt" = CURRENT_TIMESTAMP, "error" = NULL
+      SET "status" = 'running', "attempts" = t."attempts" + 1, "workerIds" = t."workerIds" || jsonb_build_array(${workerId}::text), "startedAt" = CURRENT_TIMESTAMP, "error" = NULL, "pairsDone" = 0
     FROM "LinkRun" AS r
     WHERE t."runId" = ${runId} AND t."index" = ${index} AND t."status" IN ('queued', 'running') AND r."id" = t."runId" AND r."status" IN ('queued', 'running')
     RETURNING t."attempts"`);
@@ -111,11 +115,21 @@ export async function claimLinkTile(db: Database, runId: string, index: number, 
   return Number(rows[0].attempts);
 }
 
-/** Whether this attempt still owns a running tile of a running run (checked between batches). */
-export async function linkTileStillOwned(db: Database, runId: string, index: number, attempt: number): Promise<boolean> {
-  const rows = await db.prisma.$queryRaw<Array<{ ok: number }>>`SELECT 1 AS ok FROM "LinkRunTile" t JOIN "LinkRun" r ON r."id" = t."runId"
-    WHERE t."runId" = ${runId} AND t."index" = ${index} AND t."attempts" = ${attempt} AND t."status" = 'running' AND r."status" = 'running'`;
-  return rows.length === 1;
+/**
+ * Whether this attempt still owns a running tile of a running run (checked between batches),
+ * recording on the way how many of its paths it has predicted (`pairsDone`, the run's progress
+ * counts it): one statement, the round trip the check costs anyway.
+ */
+export async function linkTileStillOwned(db: Database, runId: string, index: number, attempt: number, pairsDone?: number): Promise<boolean> {
+  if (pairsDone === undefined) {
+    const rows = await db.prisma.$queryRaw<Array<{ ok: number }>>`SELECT 1 AS ok FROM "LinkRunTile" t JOIN "LinkRun" r ON r."id" = t."runId"
+      WHERE t."runId" = ${runId} AND t."index" = ${index} AND t."attempts" = ${attempt} AND t."status" = 'running' AND r."status" = 'running'`;
+    return rows.length === 1;
+  }
+  const updated = await db.prisma.$executeRaw`UPDATE "LinkRunTile" AS t SET "pairsDone" = LEAST(${pairsDone}::int, t."pairs")
+    FROM "LinkRun" AS r
+    WHERE t."runId" = ${runId} AND t."index" = ${index} AND t."attempts" = ${attempt} AND t."status" = 'running' AND r."id" = t."runId" AND r."status" = 'running'`;
+  return updated === 1;
 }
 
 /** PostgreSQL's deadlock and serialization failures: the transaction was rolled back whole and may simply run again. */
@@ -144,27 +158,6 @@ export class LinkTileLost extends Error {
 }
 
 /**
- * The Link rows of many pairs in ONE statement: the rows travel as one JSON
- * parameter and `jsonb_to_recordset` turns them into the VALUES of an upsert on
- * Link's unique key (nodeId, gatewayId), so a tile of any size is one round trip
- * and one statement. A pair listed twice keeps its last row.
- */
-async function upsertLinkRowsOnce(tx: Pick<Database['prisma'], '$executeRaw'>, planId: string, rows: readonly LinkRow[]): Promise<number> {
-  if (rows.length === 0) return 0;
-  const latest = new Map<string, LinkRow>();
-  for (const row of rows) {
-    const key = `${row.nodeId}\u0000${row.gatewayId}`;
-    latest.delete(key);
-    latest.set(key, row);
-  }
-  const json = JSON.stringify([...latest.values()].map((row) => ({ nodeId: row.nodeId, gatewayId: row.gatewayId, inputHash: row.inputHash, result: row.result })));
-  return tx.$executeRaw`INSERT INTO "Link" ("id", "planId", "nodeId", "gatewayId", "inputHash", "result", "computedAt")
-      SELECT gen_random_uuid()::text, ${planId}, r."nodeId", r."gatewayId", r."inputHash", r."result", CURRENT_TIMESTAMP
-      FROM jsonb_to_recordset(${json}::jsonb) AS r("nodeId" text, "gatewayId" text, "inputHash" text, "result" jsonb)
-    ON CONFLICT ("nodeId", "gatewayId") DO UPDATE SET "planId" = EXCLUDED."planId", "inputHash" = EXCLUDED."inputHash", "result" = EXCLUDED."result", "computedAt" = EXCLUDED."computedAt"`;
-}
-
-/**
  * Finishes an attempt in one transaction: the tile → done (only while this
  * attempt owns it and the run runs; else LinkTileLost and nothing is kept), its
  * rows upserted, then, under a lock on the run row (so two last tiles cannot both
@@ -182,7 +175,7 @@ export async function completeLinkTile(
       WHERE "runId" = ${input.runId} AND "index" = ${input.index} AND "attempts" = ${input.attempt} AND "status" = 'running'
         AND EXISTS (SELECT 1 FROM "LinkRun" r WHERE r."id" = ${input.runId} AND r."status" = 'running')`;
     if (owned !== 1) throw new LinkTileLost();
-    const written = await upsertLinkRowsOnce(tx, input.planId, input.rows);
+    const written = await upsertLinkRows(tx, input.planId, input.rows);
     const writeSeconds = (performance.now() - t0) / 1000;
     const result = input.result === undefined ? null : JSON.stringify(input.result);
     await tx.$executeRaw`UPDATE "LinkRunTile" SET "linksWritten" = ${input.rows.length}, "seconds" = ${input.seconds + writeSeconds}, "writeSeconds" = ${writeSeconds}, "result" = ${result}::jsonb

@@ -1,9 +1,9 @@
 // Cached link predictions (model Link). A row holds, for one node–gateway
 // pair, the hash of every input its result was computed from and the result
-// (the path prediction with its own path hash, and the link budget result).
+// (its path hash; the path prediction itself packed into the `packed` bytes,
+// server/planning/path-pack.ts; rows stored before that keep the path as JSON).
 // A lookup with a different hash is a miss, so any change to the node, the
 // gateway, the kit, the plan's settings or the terrain invalidates it.
-import { randomUUID } from 'node:crypto';
 import type { Database } from '../client.ts';
 import { Prisma } from '../generated/client.ts';
 
@@ -12,16 +12,20 @@ export interface LinkRow {
   gatewayId: string;
   inputHash: string;
   result: unknown;
+  /** The packed path (server/planning/path-pack.ts); null/absent when `result` holds everything. */
+  packed?: Uint8Array | null;
 }
+
+const ROW = { nodeId: true, gatewayId: true, inputHash: true, result: true, packed: true } as const;
 
 /** Cached rows of one node. */
 export async function listNodeLinkRows(db: Database, planId: string, nodeId: string): Promise<LinkRow[]> {
-  return db.prisma.link.findMany({ where: { planId, nodeId }, select: { nodeId: true, gatewayId: true, inputHash: true, result: true } });
+  return db.prisma.link.findMany({ where: { planId, nodeId }, select: ROW });
 }
 
 /** Cached rows of a whole plan. */
 export async function listPlanLinkRows(db: Database, planId: string): Promise<LinkRow[]> {
-  return db.prisma.link.findMany({ where: { planId }, select: { nodeId: true, gatewayId: true, inputHash: true, result: true } });
+  return db.prisma.link.findMany({ where: { planId }, select: ROW });
 }
 
 /**
@@ -36,44 +40,80 @@ export async function listPlanLinkPathHashes(db: Database, planId: string): Prom
 /** Cached rows of some nodes of a plan (one page of the fleet). */
 export async function listLinkRowsForNodes(db: Database, planId: string, nodeIds: readonly string[]): Promise<LinkRow[]> {
   if (nodeIds.length === 0) return [];
-  return db.prisma.link.findMany({ where: { planId, nodeId: { in: [...nodeIds] } }, select: { nodeId: true, gatewayId: true, inputHash: true, result: true } });
+  return db.prisma.link.findMany({ where: { planId, nodeId: { in: [...nodeIds] } }, select: ROW });
 }
 
-/** Rows per INSERT: 500 rows × 6 parameters stays far below PostgreSQL's 65 535 bind parameters. */
-const SAVE_CHUNK_ROWS = 500;
+/** A row in the slim form: the packed path beside a result that is only {pathHash}. */
+function slimPathHash(row: LinkRow): string | null {
+  if (!row.packed || !row.result || typeof row.result !== 'object') return null;
+  const keys = Object.keys(row.result);
+  const pathHash = (row.result as { pathHash?: unknown }).pathHash;
+  return keys.length === 1 && typeof pathHash === 'string' && !pathHash.includes(',') ? pathHash : null;
+}
 
 /**
- * Stores (or replaces) the cached result of each pair: one multi-row
- * `INSERT ... ON CONFLICT ("nodeId", "gatewayId") DO UPDATE` per 500 rows (the
- * unique key of Link), several chunks in one transaction. A cold 2 500-link fleet
- * is five statements instead of a delete and an insert per chunk. A pair listed
- * twice keeps its last row (one statement may not update a row twice). The id of
- * a new row is a random UUID (Prisma's cuid() default is client-side, so raw SQL
- * has to bring its own); nothing reads Link ids.
+ * Upserts Link rows on their unique key (nodeId, gatewayId) in at most two
+ * statements whatever their number (`tx`: the client or a transaction's):
+ * rows in the slim form travel as five comma-joined text parameters (ids,
+ * hashes and base64 bytes never hold a comma) unnested into one multi-row
+ * INSERT, the JSON result built in SQL; any other row (a path the packed
+ * layout does not know, or a test's free JSON) as one JSON parameter through
+ * `jsonb_to_recordset`. A pair listed twice keeps its last row (one statement
+ * may not update a row twice). The id of a new row is a random UUID (Prisma's
+ * cuid() default is client-side); nothing reads Link ids. Returns rows written.
  */
-export async function saveLinkRows(db: Database, planId: string, rows: readonly LinkRow[]): Promise<void> {
-  if (rows.length === 0) return;
+export async function upsertLinkRows(tx: Pick<Database['prisma'], '$executeRaw'>, planId: string, rows: readonly LinkRow[]): Promise<number> {
+  if (rows.length === 0) return 0;
   const latest = new Map<string, LinkRow>();
   for (const row of rows) {
     const key = `${row.nodeId}\u0000${row.gatewayId}`;
     latest.delete(key);
     latest.set(key, row);
   }
-  const unique = [...latest.values()];
-  const statements: Prisma.PrismaPromise<number>[] = [];
-  for (let start = 0; start < unique.length; start += SAVE_CHUNK_ROWS) {
-    const values = Prisma.join(
-      unique
-        .slice(start, start + SAVE_CHUNK_ROWS)
-        .map((row) => Prisma.sql`(${randomUUID()}, ${planId}, ${row.nodeId}, ${row.gatewayId}, ${row.inputHash}, ${JSON.stringify(row.result)}::jsonb, CURRENT_TIMESTAMP)`),
-    );
-    statements.push(
-      db.prisma.$executeRaw`INSERT INTO "Link" ("id", "planId", "nodeId", "gatewayId", "inputHash", "result", "computedAt") VALUES ${values}
-        ON CONFLICT ("nodeId", "gatewayId") DO UPDATE SET "planId" = EXCLUDED."planId", "inputHash" = EXCLUDED."inputHash", "result" = EXCLUDED."result", "computedAt" = EXCLUDED."computedAt"`,
-    );
+  const slim = { nodeIds: [] as string[], gatewayIds: [] as string[], inputHashes: [] as string[], pathHashes: [] as string[], packed: [] as string[] };
+  const other: LinkRow[] = [];
+  for (const row of latest.values()) {
+    const pathHash = slimPathHash(row);
+    if (pathHash === null || row.nodeId.includes(',') || row.gatewayId.includes(',') || row.inputHash.includes(',')) {
+      other.push(row);
+      continue;
+    }
+    slim.nodeIds.push(row.nodeId);
+    slim.gatewayIds.push(row.gatewayId);
+    slim.inputHashes.push(row.inputHash);
+    slim.pathHashes.push(pathHash);
+    slim.packed.push(Buffer.from(row.packed!.buffer, row.packed!.byteOffset, row.packed!.byteLength).toString('base64'));
   }
-  if (statements.length === 1) await statements[0];
-  else await db.prisma.$transaction(statements);
+  let written = 0;
+  if (slim.nodeIds.length > 0) {
+    written += await tx.$executeRaw`INSERT INTO "Link" ("id", "planId", "nodeId", "gatewayId", "inputHash", "result", "packed", "computedAt")
+        SELECT gen_random_uuid()::text, ${planId}, r.n, r.g, r.h, jsonb_build_object('pathHash', r.ph), decode(r.p, 'base64'), CURRENT_TIMESTAMP
+        FROM unnest(string_to_array(${slim.nodeIds.join(',')}, ','), string_to_array(${slim.gatewayIds.join(',')}, ','), string_to_array(${slim.inputHashes.join(',')}, ','),
+                    string_to_array(${slim.pathHashes.join(',')}, ','), string_to_array(${slim.packed.join(',')}, ',')) AS r(n, g, h, ph, p)
+      ON CONFLICT ("nodeId", "gatewayId") DO UPDATE SET "planId" = EXCLUDED."planId", "inputHash" = EXCLUDED."inputHash", "result" = EXCLUDED."result", "packed" = EXCLUDED."packed", "computedAt" = EXCLUDED."computedAt"`;
+  }
+  if (other.length > 0) {
+    const json = JSON.stringify(
+      other.map((row) => ({ nodeId: row.nodeId, gatewayId: row.gatewayId, inputHash: row.inputHash, result: row.result, packed: row.packed ? Buffer.from(row.packed.buffer, row.packed.byteOffset, row.packed.byteLength).toString('base64') : null })),
+    );
+    written += await tx.$executeRaw`INSERT INTO "Link" ("id", "planId", "nodeId", "gatewayId", "inputHash", "result", "packed", "computedAt")
+        SELECT gen_random_uuid()::text, ${planId}, r."nodeId", r."gatewayId", r."inputHash", r."result", decode(r."packed", 'base64'), CURRENT_TIMESTAMP
+        FROM jsonb_to_recordset(${json}::jsonb) AS r("nodeId" text, "gatewayId" text, "inputHash" text, "result" jsonb, "packed" text)
+      ON CONFLICT ("nodeId", "gatewayId") DO UPDATE SET "planId" = EXCLUDED."planId", "inputHash" = EXCLUDED."inputHash", "result" = EXCLUDED."result", "packed" = EXCLUDED."packed", "computedAt" = EXCLUDED."computedAt"`;
+  }
+  return written;
+}
+
+/**
+ * Stores (or replaces) the cached result of each pair (upsertLinkRows; its two
+ * statements, when both are needed, in one transaction). A cold 2 500-link fleet
+ * is one statement.
+ */
+export async function saveLinkRows(db: Database, planId: string, rows: readonly LinkRow[]): Promise<void> {
+  if (rows.length === 0) return;
+  const slim = rows.filter((row) => slimPathHash(row) !== null).length;
+  if (slim === 0 || slim === rows.length) await upsertLinkRows(db.prisma, planId, rows);
+  else await db.prisma.$transaction(async (tx) => void (await upsertLinkRows(tx, planId, rows)));
 }
 
 /** Drops every cached link of a plan. */
@@ -134,6 +174,11 @@ export async function listNodesForLinks(db: Database, planId: string) {
   return db.prisma.node.findMany({ where: { planId }, orderBy: [{ createdAt: 'asc' }, { id: 'asc' }] });
 }
 
+/** The kit columns of a plan's nodes, in the fleet table's order (what a kit price needs, no more). */
+export async function listNodeKitRows(db: Database, planId: string) {
+  return db.prisma.node.findMany({ where: { planId }, orderBy: [{ createdAt: 'asc' }, { id: 'asc' }], select: { id: true, name: true, antennaDesignId: true, feedlineId: true, feedlineLengthM: true, antennaHeightAglM: true, mastOptionId: true } });
+}
+
 /**
  * One-query fingerprint of everything a node's links depend on besides the plan row:
  * the node row, the plan's gateways and terrain layers, and the team's visible kit
@@ -162,5 +207,5 @@ export async function listNodesByIds(db: Database, planId: string, ids: readonly
 
 /** Cached rows of some nodes to some gateways (a tile of a link run). */
 export async function listLinkRowsFor(db: Database, planId: string, nodeIds: readonly string[], gatewayIds: readonly string[]): Promise<LinkRow[]> {
-  return db.prisma.link.findMany({ where: { planId, nodeId: { in: [...nodeIds] }, gatewayId: { in: [...gatewayIds] } }, select: { nodeId: true, gatewayId: true, inputHash: true, result: true } });
+  return db.prisma.link.findMany({ where: { planId, nodeId: { in: [...nodeIds] }, gatewayId: { in: [...gatewayIds] } }, select: ROW });
 }

@@ -1,45 +1,22 @@
 // Nodes of a plan. Callers resolve the plan through the team scope first
-// (server/api/scope.ts), so every query here is scoped by planId.
+// (server/api/scope.ts), so every query here is scoped by planId (plan-scoped.ts).
 import type { Database } from '../client.ts';
 import type { Prisma } from '../generated/client.ts';
-import { NotFoundError } from '../errors.ts';
-import { pageWindow, toPage, type PageQuery } from './pagination.ts';
-import { versionedUpdate } from './versioned.ts';
+import { planScopedRepository } from './plan-scoped.ts';
 import { recordAudit, type AuditInput } from './audit.ts';
 
 export type NodeRow = Awaited<ReturnType<Database['prisma']['node']['findFirstOrThrow']>>;
 export type NodeCreate = Omit<Prisma.NodeUncheckedCreateInput, 'id' | 'planId' | 'version' | 'createdAt' | 'updatedAt'>;
 export type NodePatch = Partial<NodeCreate>;
 
-export async function createNode(db: Database, planId: string, data: NodeCreate): Promise<NodeRow> {
-  return db.prisma.node.create({ data: { ...data, planId } });
-}
+const nodes = planScopedRepository<NodeRow, NodeCreate, Prisma.NodeWhereInput>('node', (db) => db.prisma.node);
 
-export async function findNode(db: Database, planId: string, id: string): Promise<NodeRow | null> {
-  return db.prisma.node.findFirst({ where: { id, planId } });
-}
-
-export async function listNodes(db: Database, planId: string, query: PageQuery, filter: Prisma.NodeWhereInput = {}) {
-  const window = pageWindow(query);
-  const where = { ...filter, planId };
-  const [items, total] = await Promise.all([
-    db.prisma.node.findMany({ where, orderBy: [{ createdAt: 'asc' }, { id: 'asc' }], ...window }),
-    db.prisma.node.count({ where }),
-  ]);
-  return toPage(items, total, window);
-}
-
-export async function updateNode(db: Database, planId: string, id: string, version: number, patch: NodePatch): Promise<NodeRow> {
-  return versionedUpdate('node', {
-    attempt: () => db.prisma.node.updateMany({ where: { id, planId, version }, data: { ...patch, version: { increment: 1 } } }),
-    current: () => findNode(db, planId, id),
-  });
-}
-
-export async function deleteNode(db: Database, planId: string, id: string): Promise<void> {
-  const { count } = await db.prisma.node.deleteMany({ where: { id, planId } });
-  if (count === 0) throw new NotFoundError('node');
-}
+export const createNode = nodes.create;
+export const findNode = nodes.find;
+/** The plan's nodes, oldest first; `filter` narrows them further. */
+export const listNodes = nodes.list;
+export const updateNode = nodes.update;
+export const deleteNode = nodes.remove;
 
 /** Creates many nodes in one transaction: all rows or none (and the audit entry with them). */
 export async function createNodesAtomically(db: Database, planId: string, rows: NodeCreate[], audit?: AuditInput): Promise<NodeRow[]> {

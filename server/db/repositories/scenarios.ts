@@ -1,6 +1,6 @@
 // What reports, exports and scenario copies read and write beyond the other
 // repositories: a plan's sites and price catalog in one go, the team's name, the
-// latest finished coverage run, a whole-plan copy (one transaction, with its audit
+// latest finished coverage run, where the plan's points are, a whole-plan copy (one transaction, with its audit
 // entry) and which terrain files other layers still reference.
 import { isAbsolute, join, normalize } from 'node:path';
 import type { Database } from '../client.ts';
@@ -34,6 +34,13 @@ export async function priceCatalogRows(db: Database, teamId: string) {
 /** The most recently finished coverage run of a plan (null when none finished). */
 export async function latestDoneCoverageRun(db: Database, planId: string): Promise<CoverageRunRow | null> {
   return db.prisma.coverageRun.findFirst({ where: { planId, kind: COVERAGE_KIND, status: 'done' }, orderBy: [{ finishedAt: 'desc' }, { id: 'desc' }] });
+}
+
+/** Where a plan's nodes, gateways and sites are (lat/lon only): the report's map extent before the fleet pass. */
+export async function planPositions(db: Database, planId: string): Promise<Array<{ lat: number; lon: number }>> {
+  const select = { lat: true, lon: true } as const;
+  const [nodes, gateways, sites] = await Promise.all([db.prisma.node.findMany({ where: { planId }, select }), db.prisma.gateway.findMany({ where: { planId }, select }), db.prisma.site.findMany({ where: { planId }, select })]);
+  return [...nodes, ...gateways, ...sites];
 }
 
 export interface PlanCopyResult {

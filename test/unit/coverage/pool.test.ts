@@ -2,7 +2,7 @@ import { afterAll, describe, expect, it } from 'vitest';
 import { makeGridFrame } from '../../../server/coverage/geometry.ts';
 import { predictArea, type AreaRequest } from '../../../server/coverage/area.ts';
 import { runArea, RunCancelledError } from '../../../server/jobs/area-runner.ts';
-import { WorkerPool } from '../../../server/jobs/pool.ts';
+import { createAreaPool } from '../../../server/jobs/area-runner.ts';
 import { makeSyntheticDem } from './synthetic-dem.ts';
 
 const N = 241;
@@ -12,7 +12,7 @@ const terrain = { frame, elevationM: dem.elevationM };
 const base = { radiusM: 3_500, heightAglM: 12, targetHeightAglM: 1.5, kFactor: 4 / 3, frequencyMhz: 868, p1812: { siteLatDeg: 45 } };
 
 describe('worker-thread pool (ray sectors, then row bands, over shared memory)', () => {
-  const pool = new WorkerPool(2);
+  const pool = createAreaPool(2);
   afterAll(() => pool.close());
 
   it.each(['los', 'fast'] as const)('%s: 2 workers give exactly the single-thread result', async (mode) => {
@@ -46,7 +46,7 @@ describe('worker-thread pool (ray sectors, then row bands, over shared memory)',
 
   it.each(['los', 'fast', 'full'] as const)('%s: 1, 2 and 3 workers give the same bytes (chunks are taken dynamically from shared counters)', async (mode) => {
     const request: AreaRequest = { mode, ...base, radiusM: mode === 'full' ? 900 : 3_500 };
-    const pools = [new WorkerPool(1), new WorkerPool(3)];
+    const pools = [createAreaPool(1), createAreaPool(3)];
     try {
       const runs = [await runArea(terrain, request, { pool: pools[0] }), await runArea(terrain, request, { pool }), await runArea(terrain, request, { pool: pools[1] })];
       const bytes = runs.map((r) => Buffer.from(mode === 'los' ? r.visible! : new Uint8Array(r.lossDb!.buffer)));

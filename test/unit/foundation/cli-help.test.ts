@@ -3,12 +3,21 @@
 // without --json is never JSON.
 import { spawnSync } from 'node:child_process';
 import { describe, expect, it } from 'vitest';
-import { allCommands } from '../../../server/cli.ts';
+import { commandIndex, commandModules, loadAllCommands } from '../../../server/cli/commands.ts';
 import { commandHelp, describeOptions, plainText } from '../../../server/cli/framework.ts';
 import { helpTexts } from '../../../server/cli/help-texts.ts';
 
 describe('earshot <command> --help', () => {
-  it('every command: all options, which are required, and an example line starting with earshot <command>', () => {
+  it('the command index and the command modules agree: every indexed command is defined once, every defined command is indexed', async () => {
+    const allCommands = await loadAllCommands();
+    expect(allCommands.map((c) => c.words)).toEqual(commandIndex.map((e) => e.words));
+    expect(new Set(commandIndex.map((e) => e.words)).size).toBe(commandIndex.length);
+    const defined = (await Promise.all(commandModules.map((load) => load()))).flat().map((c) => c.words);
+    expect([...defined].sort()).toEqual(commandIndex.map((e) => e.words).sort());
+  });
+
+  it('every command: all options, which are required, and an example line starting with earshot <command>', async () => {
+    const allCommands = await loadAllCommands();
     for (const command of allCommands) {
       const text = commandHelp(command, helpTexts[command.words]);
       for (const option of describeOptions(command.options)) {
@@ -18,7 +27,8 @@ describe('earshot <command> --help', () => {
     }
   });
 
-  it('help texts name only options that exist (a renamed option must update its text)', () => {
+  it('help texts name only options that exist (a renamed option must update its text)', async () => {
+    const allCommands = await loadAllCommands();
     for (const [words, help] of Object.entries(helpTexts)) {
       const command = allCommands.find((c) => c.words === words);
       expect(command, words).toBeDefined();

@@ -40,7 +40,7 @@ interface ProgressEvent {
   error: string | null;
 }
 
-export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L.Map, settings?: ClientSettings): () => void {
+export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L.Map, settings?: Pick<ClientSettings, 'bandPlans'>): () => void {
   let overlay: L.TileLayer | null = null;
   let timer: number | undefined;
   let stopped = false;

@@ -1,7 +1,7 @@
 // Bulk import of nodes from CSV or GeoJSON: a dry run first (the server
 // validates every row and answers with a preview and row-level errors), then
 // the real import, which writes all rows or none.
-import { ApiError, importNodes, type ImportResult } from '../api.ts';
+import { ApiError, importNodes, type ImportPreview, type ImportRowError } from '../api.ts';
 import type { PlanStore } from '../plan-store.ts';
 import { announce, errorText, field, h, notice, openDialog, select } from '../ui.ts';
 
@@ -53,16 +53,21 @@ export function openImportDialog(store: PlanStore, onImported?: (nodes: Array<{ 
       out.replaceChildren(h('p', { class: 'muted' }, dryRun ? 'Checking…' : 'Importing…'));
       try {
         const result = await importNodes(store.planId, format.value as 'csv' | 'geojson', content, dryRun);
-        showResult(out, result, dryRun);
-        commitButton.disabled = !dryRun || result.errors.length > 0;
-        if (!dryRun) {
+        // A dry run answers the row errors and a preview; a commit answers what it stored
+        // (created, items) and no errors list at all.
+        if ('dryRun' in result) {
+          showResult(out, result.errors, result);
+          commitButton.disabled = result.errors.length > 0;
+        } else {
+          showResult(out, [], null, result.created);
+          commitButton.disabled = true;
           await store.reloadAll();
-          onImported?.(result.items ?? []);
-          announce(`Imported ${result.created ?? result.items?.length ?? ''} nodes`);
+          onImported?.(result.items);
+          announce(`Imported ${result.created} nodes`);
         }
       } catch (err) {
         const rows = err instanceof ApiError ? rowErrorsOf(err) : null;
-        if (rows) showResult(out, { errors: rows }, dryRun);
+        if (rows) showResult(out, rows, null);
         else out.replaceChildren(notice('error', `The import failed: ${errorText(err)}`));
         commitButton.disabled = true;
       }
@@ -72,15 +77,14 @@ export function openImportDialog(store: PlanStore, onImported?: (nodes: Array<{ 
   });
 }
 
-/** A 400/422 from the import route may carry the row errors in its body. */
-function rowErrorsOf(err: ApiError): ImportResult['errors'] | null {
-  return Array.isArray(err.detail) ? (err.detail as ImportResult['errors']) : null;
+/** A 400 invalid_rows from the import route carries the row errors (error.rows). */
+function rowErrorsOf(err: ApiError): ImportRowError[] | null {
+  return Array.isArray(err.detail) ? (err.detail as ImportRowError[]) : null;
 }
 
-function showResult(out: HTMLElement, result: ImportResult, dryRun: boolean): void {
+/** Row errors, else the dry run's preview (`preview`), else the count stored (`created`). */
+function showResult(out: HTMLElement, errors: ImportRowError[], preview: ImportPreview | null, created?: number): void {
   const parts: HTMLElement[] = [];
-  const errors = result.errors ?? [];
-  const okCount = result.created ?? result.rowCount ?? result.preview?.length ?? 0;
   if (errors.length > 0) {
     parts.push(notice('error', `${errors.length} row(s) have problems; nothing was imported. Fix them and check again.`));
     parts.push(
@@ -92,14 +96,14 @@ function showResult(out: HTMLElement, result: ImportResult, dryRun: boolean): vo
         h('tbody', {}, ...errors.map((e) => h('tr', {}, h('td', {}, String(e.row)), h('td', {}, e.field ?? '–'), h('td', {}, e.message)))),
       ),
     );
-  } else if (dryRun) {
-    parts.push(notice('ok', `All ${okCount} row(s) are valid. Press “Import” to add them.`));
+  } else if (preview) {
+    parts.push(notice('ok', `All ${preview.rowCount} row(s) are valid. Press “Import” to add them.`));
   } else {
-    parts.push(notice('ok', `Imported ${okCount} node(s).`));
+    parts.push(notice('ok', `Imported ${created ?? 0} node(s).`));
   }
-  const preview = result.preview ?? [];
-  if (dryRun && preview.length > 0) {
-    const cols = ['name', 'lat', 'lon', 'deviceType', 'antennaHeightAglM', 'environment'];
+  const rows = preview?.preview ?? [];
+  if (rows.length > 0) {
+    const cols = ['name', 'lat', 'lon', 'deviceType', 'antennaHeightAglM', 'environment'] as const;
     parts.push(
       h(
         'div',
@@ -107,9 +111,9 @@ function showResult(out: HTMLElement, result: ImportResult, dryRun: boolean): vo
         h(
           'table',
           { class: 'data-table compact', id: 'import-preview-table' },
-          h('caption', {}, `Preview (first ${Math.min(preview.length, 20)} of ${preview.length} valid rows)`),
+          h('caption', {}, `Preview (first ${Math.min(rows.length, 20)} of ${rows.length} valid rows)`),
           h('thead', {}, h('tr', {}, ...cols.map((c) => h('th', { scope: 'col' }, c)))),
-          h('tbody', {}, ...preview.slice(0, 20).map((row) => h('tr', {}, ...cols.map((c) => h('td', {}, row[c] === undefined ? '–' : String(row[c])))))),
+          h('tbody', {}, ...rows.slice(0, 20).map((row) => h('tr', {}, ...cols.map((c) => h('td', {}, row[c] === undefined ? '–' : String(row[c])))))),
         ),
       ),
     );

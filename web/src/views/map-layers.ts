@@ -11,12 +11,15 @@ import { announce, append, clear, coords, errorText, h, notice } from '../ui.ts'
 import { gatewaySymbolSvg, nodeSymbolSvg, siteSymbolSvg, statusStyle, symbolElement, type NodeClass } from '../symbols.ts';
 import { methodLabels, openPlanSettingsDialog } from './plan-settings-dialog.ts';
 
+
+export type MapSettings = Pick<ClientSettings, 'onlineBaseLayer' | 'bandPlans' | 'propagationMethods'>;
 export interface BaseMap {
   map: L.Map;
   mapEl: HTMLElement;
   hillshade: L.TileLayer;
   online: L.TileLayer | null;
-  settings: ClientSettings;
+  /** What the map uses of GET /client-settings (empty lists on a server without the route). */
+  settings: MapSettings;
   /** Extents of the plan's elevation layers: where a node can be predicted at all. */
   terrainBoxes: LonLatBox[];
   terrainNote: string;
@@ -42,7 +45,8 @@ export async function createBaseMap(mapEl: HTMLElement, planId: string): Promise
       if (box) terrainBoxes.push(box);
     }
     if (layers.length === 0) terrainNote = 'This plan has no terrain layer yet: the base layer is blank until one is uploaded.';
-    else if (layers.some((l) => /synthetic/i.test(String(l.name ?? '') + String(l.source ?? '') + String(l.notes ?? ''))))
+    // A terrain layer has no source or notes field: the name says it (the demo DEM is named "… (SYNTHETIC, 30 m)").
+    else if (layers.some((l) => /synthetic/i.test(l.name)))
       terrainNote = 'Terrain: synthetic demo terrain (not a real place).';
   } catch (err) {
     terrainNote = `Terrain layers: ${errorText(err)}.`;
@@ -51,7 +55,7 @@ export async function createBaseMap(mapEl: HTMLElement, planId: string): Promise
   if (terrainBoxes.length > 0) hillshade.addTo(map);
   // An online base layer only when the server is configured with one (EARSHOT_BASE_LAYER_URL,
   // handed over by GET /client-settings); offered as a toggle, off by default.
-  let settings: ClientSettings = { onlineBaseLayer: null, bandPlans: [], propagationMethods: [] };
+  let settings: MapSettings = { onlineBaseLayer: null, bandPlans: [], propagationMethods: [] };
   try {
     settings = await getClientSettings();
   } catch {

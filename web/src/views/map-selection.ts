@@ -95,7 +95,7 @@ export function createSelection(ctx: SelectionContext): Selection {
       detail,
       h('h2', { id: 'detail-title' }, `${kind === 'gateways' ? 'Gateway' : 'Candidate site'}: ${entity.name}`),
       h('p', { id: 'detail-position' }, coords(entity.lat, entity.lon)),
-      kind === 'gateways' ? h('p', {}, `Antenna ${metres(Number(entity.antennaHeightAglM))} above ground`) : h('p', {}, `Kind: ${entity.kind === 'used' ? 'used site' : 'candidate'}`),
+      'antennaHeightAglM' in entity ? h('p', {}, `Antenna ${metres(entity.antennaHeightAglM)} above ground`) : h('p', {}, `Kind: ${'kind' in entity && entity.kind === 'used' ? 'used site' : 'candidate'}`),
       kind === 'gateways' ? gatewayBox : null,
       entity.notes ? h('p', { class: 'muted' }, String(entity.notes)) : null,
       canEdit()

@@ -16,7 +16,7 @@ export const methodLabels: Record<string, string> = {
   'free-space': 'free space only (no terrain)',
 };
 
-export function openPlanSettingsDialog(store: PlanStore, settings: ClientSettings, onSaved: () => void): void {
+export function openPlanSettingsDialog(store: PlanStore, settings: Pick<ClientSettings, 'bandPlans' | 'propagationMethods'>, onSaved: () => void): void {
   const plan = store.plan;
   const openedVersion = plan.version;
   openDialog('Plan settings', (body, close) => {

@@ -1,5 +1,5 @@
 // Plan list: every plan of the signed-in team, and a form to start a new one.
-import { createPlan, listPlans, type Plan } from '../api.ts';
+import { createPlan, getClientSettings, listPlans, type Plan } from '../api.ts';
 import { go, planHash } from '../router.ts';
 import { canEdit } from '../session.ts';
 import { errorText, field, h, notice } from '../ui.ts';
@@ -9,6 +9,10 @@ export async function renderPlans(main: HTMLElement): Promise<void> {
   const listBox = h('div', { class: 'plan-grid' });
   main.append(listBox);
   let plans: Plan[];
+  // Band plan labels (the plan row holds the id); without them the id is shown.
+  const bandPlans = getClientSettings()
+    .then((settings) => settings.bandPlans)
+    .catch(() => []);
   try {
     plans = await listPlans();
   } catch (err) {
@@ -17,14 +21,15 @@ export async function renderPlans(main: HTMLElement): Promise<void> {
   }
   if (plans.length === 0) listBox.append(h('p', {}, 'No plans yet.'));
   for (const plan of plans) {
-    const bits = [plan.bandPlan ?? plan.region, plan.targetMarginDb !== undefined ? `target margin ${plan.targetMarginDb} dB` : null].filter(Boolean);
+    const band = (await bandPlans).find((entry) => entry.id === plan.bandPlanId)?.name ?? plan.bandPlanId;
+    const bits = [band, `target margin ${plan.targetMarginDb} dB`];
     listBox.append(
       h(
         'article',
         { class: 'card plan-card' },
         h('h2', {}, h('a', { href: planHash(plan.id), class: 'plan-link' }, plan.name)),
         plan.description ? h('p', {}, String(plan.description)) : null,
-        bits.length ? h('p', { class: 'muted' }, bits.join(' · ')) : null,
+        h('p', { class: 'muted plan-band' }, bits.join(' · ')),
         h(
           'p',
           { class: 'plan-actions' },

@@ -1,12 +1,12 @@
 // Manager view: the plan on one page. Share of nodes served / marginal /
 // unserved, redundancy (how many gateways hear each node with margin), the
-// kit bill from catalog prices, and the latest coverage run's summary.
+// kit cost as the server prices it (GET /bom), and the latest coverage run's summary.
 import { listCoverage, runState, type CoverageRun } from '../api.ts';
 import { PlanStore } from '../plan-store.ts';
 import type { Route } from '../router.ts';
 import { planHash } from '../router.ts';
 import { append, errorText, h, notice, percent } from '../ui.ts';
-import { downloadPlanFile, type PlanFile } from '../api-reports.ts';
+import { downloadPlanFile, getBillOfMaterials, type PlanFile } from '../api-reports.ts';
 import { nodeSymbolSvg, statusStyle, symbolElement, type NodeClass } from '../symbols.ts';
 import { getCapacity } from '../api-capacity.ts';
 
@@ -149,41 +149,36 @@ export async function renderSummary(main: HTMLElement, route: Route): Promise<vo
       load.replaceChildren(h('h2', { id: 'load-h' }, 'Delivery with network load'), h('p', { class: 'muted' }, `Not available: ${err instanceof Error ? err.message : String(err)}.`));
     });
 
-  // kit cost from the catalog
-  const antennaCost = new Map(store.catalog.antennas.map((a) => [a.id, a.costUsd ?? 0]));
-  const feedCost = new Map(store.catalog.feedlines.map((f) => [f.id, f.costUsdPerM ?? 0]));
-  const mastCost = new Map(store.catalog.masts.map((m) => [m.id, m.costUsd ?? 0]));
-  let antennas = 0;
-  let feedlines = 0;
-  let masts = 0;
-  let unpriced = 0;
-  for (const item of [...store.nodes, ...store.gateways]) {
-    if (antennaCost.has(item.antennaDesignId)) antennas += antennaCost.get(item.antennaDesignId) ?? 0;
-    else unpriced += 1;
-    if (item.feedlineId) feedlines += (feedCost.get(item.feedlineId) ?? 0) * (item.feedlineLengthM ?? 0);
-    if (item.mastOptionId) masts += mastCost.get(item.mastOptionId) ?? 0;
-  }
-  main.append(
-    h(
-      'section',
-      { class: 'card', 'aria-labelledby': 'cost-h', id: 'summary-cost' },
-      h('h2', { id: 'cost-h' }, 'Kit cost (catalog prices)'),
+  // kit cost as the server prices it (GET /plans/{id}/bom: the report's and bom.csv's one kit price)
+  const cost = h('section', { class: 'card', 'aria-labelledby': 'cost-h', id: 'summary-cost' }, h('h2', { id: 'cost-h' }, 'Kit cost (catalog prices)'), h('p', { class: 'muted' }, 'Pricing…'));
+  main.append(cost);
+  try {
+    const bom = await getBillOfMaterials(planId);
+    const t = bom.totalsUsd;
+    append(
+      cost,
       h(
         'table',
         { class: 'data-table compact' },
         h(
           'tbody',
           {},
-          h('tr', {}, h('th', { scope: 'row' }, 'Antennas'), h('td', { class: 'num' }, usd(antennas))),
-          h('tr', {}, h('th', { scope: 'row' }, 'Feedlines'), h('td', { class: 'num' }, usd(feedlines))),
-          h('tr', {}, h('th', { scope: 'row' }, 'Masts'), h('td', { class: 'num' }, usd(masts))),
-          h('tr', { class: 'total' }, h('th', { scope: 'row' }, 'Total'), h('td', { class: 'num', id: 'summary-cost-total' }, usd(antennas + feedlines + masts))),
+          h('tr', {}, h('th', { scope: 'row' }, 'Antennas'), h('td', { class: 'num' }, usd(t.antenna))),
+          h('tr', {}, h('th', { scope: 'row' }, 'Feedlines'), h('td', { class: 'num' }, usd(t.feedline))),
+          h('tr', {}, h('th', { scope: 'row' }, 'Connectors and surge arrestors'), h('td', { class: 'num' }, usd(t.connector))),
+          h('tr', {}, h('th', { scope: 'row' }, 'Masts'), h('td', { class: 'num' }, usd(t.mast))),
+          h('tr', { class: 'total' }, h('th', { scope: 'row' }, 'Kit cost (nodes and gateways)'), h('td', { class: 'num', id: 'summary-cost-total' }, usd(bom.kitCostUsd))),
+          h('tr', {}, h('th', { scope: 'row' }, 'Gateway radios and site works'), h('td', { class: 'num' }, usd(t.gateway + t.site))),
+          h('tr', {}, h('th', { scope: 'row' }, 'Bill of materials total'), h('td', { class: 'num', id: 'summary-bom-total' }, usd(bom.totalUsd))),
         ),
       ),
-      unpriced ? h('p', { class: 'muted small' }, `${unpriced} node(s) or gateway(s) use an antenna that is not in the catalog and are not priced.`) : null,
-      h('p', { class: 'muted small' }, 'Nodes and gateways of this plan; labour, gateways’ radios and site costs are not included.'),
-    ),
-  );
+      bom.unpriced.length ? h('p', { class: 'muted small' }, `Not priced (not in the catalog): ${bom.unpriced.join(', ')}.`) : null,
+      h('p', { class: 'muted small' }, 'The same prices as the report and the bill of materials CSV; labour is not included.'),
+    );
+    cost.querySelector('p.muted')?.remove();
+  } catch (err) {
+    cost.replaceChildren(h('h2', { id: 'cost-h' }, 'Kit cost (catalog prices)'), h('p', { class: 'muted' }, `Not available: ${errorText(err)}.`));
+  }
 
   // latest coverage
   const coverage = h('section', { class: 'card', 'aria-labelledby': 'cov-h' }, h('h2', { id: 'cov-h' }, 'Latest coverage run'));

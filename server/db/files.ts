@@ -1,0 +1,136 @@
+// Where the files the database rows point at live, and the only code that resolves or removes
+// them: terrain uploads under <filesDir>/terrain/<planId>/, coverage results under
+// <filesDir>/coverage/<runId>/. Rows store paths relative to filesDir (absolute paths, which
+// tests use, stay as they are; a path relative to the data folder is an older layout).
+// Used by the link engine and the coverage job (server/jobs), the use cases (server/app) and
+// the routes (server/api), so every room resolves a stored path the same way.
+import { existsSync } from 'node:fs';
+import { readdir, rm, stat } from 'node:fs/promises';
+import { isAbsolute, join, relative, resolve } from 'node:path';
+import type { Config } from '../config.ts';
+import type { Database } from './database.ts';
+import type { PlanFiles } from './repositories/plans.ts';
+import { terrainFileNamesReferencedIn, terrainFilesStillReferenced } from './repositories/scenarios.ts';
+
+type FileConfig = Pick<Config, 'filesDir' | 'dataDir'>;
+
+/** The file a stored path names: absolute as is; else under filesDir, or (older layout) under the data folder. */
+export function resolveStoredFile(config: FileConfig, filePath: string): string {
+  if (isAbsolute(filePath)) return filePath;
+  for (const candidate of [join(config.filesDir, filePath), join(config.dataDir, filePath)]) if (existsSync(candidate)) return candidate;
+  return join(config.filesDir, filePath);
+}
+
+/** The files of a finished coverage run, inside `<filesDir>/coverage/<runId>/`. */
+export const RESULT_FILES = { margin: 'margin.tif', loss: 'loss.tif', redundancy: 'redundancy.tif', bestSf: 'best-sf.tif', meta: 'meta.json' } as const;
+
+/** The folder of a coverage run's results. */
+export function resultDir(config: Pick<Config, 'filesDir'>, runId: string): string {
+  return join(config.filesDir, 'coverage', runId);
+}
+
+/** The folder terrain uploads live in (one sub-folder per plan). */
+export function terrainDir(config: Pick<Config, 'filesDir'>): string {
+  return join(config.filesDir, 'terrain');
+}
+
+/**
+ * Removes a deleted terrain layer's file unless another layer (a copied plan's) still names it.
+ * Call after the delete committed: a rolled-back delete keeps its file.
+ */
+export async function removeTerrainFileIfUnused(db: Database, config: FileConfig, filePath: string): Promise<boolean> {
+  if ((await terrainFilesStillReferenced(db, [filePath])).size > 0) return false;
+  await rm(resolveStoredFile(config, filePath), { force: true });
+  return true;
+}
+
+/**
+ * Removes a deleted plan's files: <filesDir>/terrain/<planId>/ (uploads, incl. unfinished
+ * ones), terrain files it referenced elsewhere under filesDir, and its coverage result
+ * folders (with any `.partial-*` folders of interrupted runs). Never touches anything outside
+ * filesDir. Returns the paths that could not be removed.
+ */
+export async function removePlanFiles(filesDir: string, planId: string, files: PlanFiles): Promise<string[]> {
+  const root = resolve(filesDir);
+  const inside = (path: string) => {
+    const rel = relative(root, resolve(root, path));
+    return rel !== '' && !rel.startsWith('..') && !isAbsolute(rel);
+  };
+  // The plan's upload folder goes as a whole unless a copy of the plan still uses a file in it;
+  // then only the files nobody references go.
+  const planTerrainDir = join(root, 'terrain', planId);
+  const shared = new Set((files.sharedTerrainFiles ?? []).map((filePath) => resolve(root, filePath)));
+  const targets = new Set<string>();
+  if ([...shared].some((path) => !relative(planTerrainDir, path).startsWith('..'))) {
+    for (const name of await readdir(planTerrainDir).catch(() => [] as string[])) {
+      const path = join(planTerrainDir, name);
+      if (!shared.has(path)) targets.add(path);
+    }
+  } else {
+    targets.add(planTerrainDir);
+  }
+  for (const filePath of files.terrainFiles) if (!shared.has(resolve(root, filePath))) targets.add(resolve(root, filePath));
+  for (const path of files.coverageResultPaths) targets.add(resolve(root, path));
+  const coverageDir = join(root, 'coverage');
+  const partials = await readdir(coverageDir).catch(() => [] as string[]);
+  for (const runId of files.coverageRunIds) {
+    targets.add(resultDir({ filesDir: root }, runId));
+    for (const name of partials) if (name.startsWith(`${runId}.partial-`)) targets.add(join(coverageDir, name));
+  }
+  const failed: string[] = [];
+  for (const target of targets) {
+    if (!inside(target)) continue;
+    await rm(target, { recursive: true, force: true }).catch(() => failed.push(target));
+  }
+  return failed;
+}
+
+/** Removes `.incoming-*.tif` upload files under <filesDir>/terrain/<planId>/ not written to for `minAgeMs`. */
+export async function sweepIncomingFiles(terrainDir: string, minAgeMs: number): Promise<string[]> {
+  const removed: string[] = [];
+  let planDirs: string[];
+  try {
+    planDirs = (await readdir(terrainDir, { withFileTypes: true })).filter((entry) => entry.isDirectory()).map((entry) => entry.name);
+  } catch {
+    return removed;
+  }
+  const now = Date.now();
+  for (const planId of planDirs) {
+    const dir = join(terrainDir, planId);
+    for (const file of await readdir(dir).catch(() => [] as string[])) {
+      if (!/^\.incoming-[0-9a-f-]+\.tif$/.test(file)) continue;
+      const path = join(dir, file);
+      const info = await stat(path).catch(() => null);
+      if (!info || !info.isFile() || now - info.mtimeMs < minAgeMs) continue;
+      await rm(path, { force: true });
+      removed.push(path);
+    }
+  }
+  return removed;
+}
+
+/** Removes files under <filesDir>/terrain/<planId>/ that no terrain layer row references and that are older than `minAgeMs`. */
+export async function sweepOrphanFiles(db: Database, terrainDir: string, minAgeMs: number): Promise<string[]> {
+  let planDirs: string[];
+  try {
+    planDirs = (await readdir(terrainDir, { withFileTypes: true })).filter((entry) => entry.isDirectory()).map((entry) => entry.name);
+  } catch {
+    return [];
+  }
+  const removed: string[] = [];
+  const now = Date.now();
+  for (const planId of planDirs) {
+    const dir = join(terrainDir, planId);
+    // Layers of this plan and of its copies (which share the files) keep a file.
+    const referenced = await terrainFileNamesReferencedIn(db, planId);
+    for (const file of await readdir(dir)) {
+      if (referenced.has(file)) continue;
+      const path = join(dir, file);
+      const info = await stat(path).catch(() => null);
+      if (!info || !info.isFile() || now - info.mtimeMs < minAgeMs) continue;
+      await rm(path, { force: true });
+      removed.push(path);
+    }
+  }
+  return removed;
+}
