@@ -25,6 +25,7 @@ import auditRoutes from './routes/audit.ts';
 import adminRoutes from './routes/admin.ts';
 import terrainRoutes from './routes/terrain.ts';
 import { LinkEngine } from '../jobs/link-engine.ts';
+import { createGate, TILE_RENDERS_AT_ONCE, type Gate } from './tile-gate.ts';
 
 declare module 'fastify' {
   interface FastifyInstance {
@@ -32,6 +33,8 @@ declare module 'fastify' {
     deps: AppDeps;
     /** The link engine of this app (one per process: its terrain stores, worker threads and recent answers). */
     linkEngine: LinkEngine;
+    /** Map tile renders of this process pass through here (server/api/tile-gate.ts). */
+    tileRenders: Gate;
   }
 }
 
@@ -179,6 +182,7 @@ export async function buildApp(deps: AppDeps): Promise<FastifyInstance> {
   app.decorate('deps', deps);
   const linkEngine = new LinkEngine(deps.db, config);
   app.decorate('linkEngine', linkEngine);
+  app.decorate('tileRenders', createGate(TILE_RENDERS_AT_ONCE));
   // Root onClose runs after the route plugins' own (they wait for their fleet jobs first).
   app.addHook('onClose', async () => linkEngine.close());
   app.setValidatorCompiler(validatorCompiler);

@@ -6,7 +6,7 @@
 // margin, so it reads in grey too. Cells below −5 dB and outside are transparent.
 import { encodePng } from '../terrain/png.ts';
 import { mercatorPixelToLonLat } from '../terrain/hillshade.ts';
-import { TILE_SIZE_PX, validTile, MAX_TILE_WINDOW_CELLS } from '../terrain/tiles.ts';
+import { TILE_SIZE_PX, validTile, tileWindowAffordable } from '../terrain/tiles.ts';
 import type { GeoRaster } from '../terrain/raster.ts';
 
 export interface MarginClass {
@@ -67,7 +67,7 @@ export async function renderMarginTile(raster: GeoRaster, z: number, x: number, 
   const y0 = Math.max(0, Math.floor(minY));
   const x1 = Math.min(raster.widthPx, Math.ceil(maxX) + 1);
   const y1 = Math.min(raster.heightPx, Math.ceil(maxY) + 1);
-  if (x1 > x0 && y1 > y0 && (x1 - x0) * (y1 - y0) <= MAX_TILE_WINDOW_CELLS) {
+  if (x1 > x0 && y1 > y0 && tileWindowAffordable(raster, x0, y0, x1 - x0, y1 - y0)) {
     const w = x1 - x0;
     const window = await raster.readWindow(x0, y0, w, y1 - y0);
     for (let k = 0; k < n * n; k++) {

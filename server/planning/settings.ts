@@ -118,6 +118,12 @@ export function uplinkSfsFor(plan: BandPlan, bandwidthKhz: number): Array<{ sf: 
   return [7, 8, 9, 10, 11, 12].map((sf) => ({ sf, maxAppPayloadBytes: null }));
 }
 
+/** The LoRa bandwidths (kHz) a band plan's data rates use, ascending; the default bandwidth when it lists none. */
+export function loraBandwidthsKhz(plan: BandPlan): number[] {
+  const widths = new Set((plan.lorawan?.dataRates ?? []).filter((rate) => rate.modulation === 'lora').map((rate) => rate.bandwidthKhz));
+  return widths.size > 0 ? [...widths].sort((a, b) => a - b) : [DEFAULT_BANDWIDTH_KHZ];
+}
+
 /** The LoRa bandwidth of a plan whose settings name none, kHz. */
 export const DEFAULT_BANDWIDTH_KHZ = 125;
 

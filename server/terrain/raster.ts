@@ -74,6 +74,8 @@ export interface GeoRaster {
   readWindow(x0: number, y0: number, w: number, h: number, level?: number): Promise<Float32Array>;
   /** Reads cache block (bx, by) of blockLayout (width/height = the block's actual size). */
   readBlock(bx: number, by: number): Promise<{ data: Float32Array; widthPx: number; heightPx: number }>;
+  /** Pixels of the file's tiles/strips a readWindow of this window decodes (a stripped file decodes whole rows). */
+  blockCellsTouched(x0: number, y0: number, w: number, h: number, level?: number): number;
   /** Continuous pixel coordinates (corner convention: pixel (i, j) spans [i, i+1) × [j, j+1)) of a WGS 84 position. */
   lonLatToPixel(lon: number, lat: number): { x: number; y: number };
   /** WGS 84 position of continuous pixel coordinates (x + 0.5, y + 0.5 is the centre of pixel (x, y)). */
@@ -94,6 +96,8 @@ const OTHER_COMPRESSION_NAMES: Record<number, string> = {
 };
 
 const MAX_CACHE_BLOCK_BYTES = 4 * 1024 * 1024;
+/** Decoded tile/strip bytes one window read holds at a time (at least one block). */
+const WINDOW_DECODE_BYTES = 16 * 1024 * 1024;
 
 function formatOf(sampleFormat: number, bits: number): SampleFormat | null {
   if (sampleFormat === 1 && bits === 8) return 'uint8';
@@ -271,40 +275,58 @@ async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number): P
     const ty0 = Math.floor(y0 / tileH);
     const ty1 = Math.floor((y0 + h - 1) / tileH);
     const out = new Float32Array(w * h);
-    const jobs: Promise<void>[] = [];
-    for (let ty = ty0; ty <= ty1; ty++) {
-      for (let tx = tx0; tx <= tx1; tx++) {
-        jobs.push(
-          img.getTileOrStrip(tx, ty, 0, decoder as never).then((tile) => {
-            const blockH = img.getBlockHeight(ty);
-            const values = typedView(sampleFormat, tile.data as ArrayBuffer, tileW * blockH);
-            // Part of this block inside the window, in block coordinates.
-            const bx0 = Math.max(0, x0 - tx * tileW);
-            const bx1 = Math.min(tileW, x0 + w - tx * tileW);
-            const by0 = Math.max(0, y0 - ty * tileH);
-            const by1 = Math.min(blockH, y0 + h - ty * tileH);
-            for (let by = by0; by < by1; by++) {
-              let src = by * tileW + bx0;
-              let dst = (ty * tileH + by - y0) * w + tx * tileW + bx0 - x0;
-              const end = src + (bx1 - bx0);
-              if (nd === null) {
-                // No NoData, or NoData NaN (NaN stays NaN through scale/offset).
-                if (scale === 1 && offset === 0) for (; src < end; src++, dst++) out[dst] = values[src];
-                else for (; src < end; src++, dst++) out[dst] = values[src] * scale + offset;
-              } else {
-                // Compared in the sample's own precision (a Float32 NoData such as -3.4028235e38 is not exactly the double).
-                for (; src < end; src++, dst++) {
-                  const v = values[src];
-                  out[dst] = v === nd ? Number.NaN : v * scale + offset;
-                }
-              }
-            }
-          }),
-        );
+    const copyBlock = (tx: number, ty: number, data: ArrayBuffer) => {
+      const blockH = img.getBlockHeight(ty);
+      const values = typedView(sampleFormat, data, tileW * blockH);
+      // Part of this block inside the window, in block coordinates.
+      const bx0 = Math.max(0, x0 - tx * tileW);
+      const bx1 = Math.min(tileW, x0 + w - tx * tileW);
+      const by0 = Math.max(0, y0 - ty * tileH);
+      const by1 = Math.min(blockH, y0 + h - ty * tileH);
+      for (let by = by0; by < by1; by++) {
+        let src = by * tileW + bx0;
+        let dst = (ty * tileH + by - y0) * w + tx * tileW + bx0 - x0;
+        const end = src + (bx1 - bx0);
+        if (nd === null) {
+          // No NoData, or NoData NaN (NaN stays NaN through scale/offset).
+          if (scale === 1 && offset === 0) for (; src < end; src++, dst++) out[dst] = values[src];
+          else for (; src < end; src++, dst++) out[dst] = values[src] * scale + offset;
+        } else {
+          // Compared in the sample's own precision (a Float32 NoData such as -3.4028235e38 is not exactly the double).
+          for (; src < end; src++, dst++) {
+            const v = values[src];
+            out[dst] = v === nd ? Number.NaN : v * scale + offset;
+          }
+        }
       }
-    }
-    await Promise.all(jobs);
+    };
+    // Blocks are decoded a few at a time and copied at once, so a window over a stripped raster (every
+    // strip is the full width) holds at most WINDOW_DECODE_BYTES of decoded blocks, not all of them.
+    const across = tx1 - tx0 + 1;
+    const count = across * (ty1 - ty0 + 1);
+    const lanes = Math.max(1, Math.min(16, count, Math.floor(WINDOW_DECODE_BYTES / (tileW * tileH * bytesPerSample))));
+    let next = 0;
+    const lane = async () => {
+      while (next < count) {
+        const index = next++;
+        const tx = tx0 + (index % across);
+        const ty = ty0 + Math.floor(index / across);
+        const tile = await img.getTileOrStrip(tx, ty, 0, decoder as never);
+        copyBlock(tx, ty, tile.data as ArrayBuffer);
+      }
+    };
+    await Promise.all(Array.from({ length: lanes }, lane));
     return out;
+  };
+
+  const blockCellsTouched = (x0: number, y0: number, w: number, h: number, level = 0): number => {
+    const img = level === 0 ? image : overviewImages[level - 1];
+    if (!img) return Number.POSITIVE_INFINITY;
+    const tileW = img.getTileWidth();
+    const tileH = img.getTileHeight();
+    const across = Math.floor((x0 + w - 1) / tileW) - Math.floor(x0 / tileW) + 1;
+    const down = Math.floor((y0 + h - 1) / tileH) - Math.floor(y0 / tileH) + 1;
+    return across * down * tileW * tileH;
   };
 
   const readWindow = async (x0: number, y0: number, w: number, h: number, level = 0): Promise<Float32Array> => {
@@ -410,6 +432,7 @@ async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number): P
     blockLayout,
     readWindow,
     readBlock,
+    blockCellsTouched,
     lonLatToPixel,
     pixelToLonLat,
     transform,

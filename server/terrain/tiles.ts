@@ -9,6 +9,16 @@ export const TILE_SIZE_PX = 256;
 
 /** Windows larger than this (cells) are not read for one tile: the tile is left transparent there. */
 export const MAX_TILE_WINDOW_CELLS = 4_000_000;
+/**
+ * Nor windows whose tiles/strips decode to more pixels than this: a narrow window of a stripped raster
+ * decodes every strip across the full width (a 1 245-row window of a 20 000-wide file is 25 M pixels).
+ */
+export const MAX_TILE_DECODE_CELLS = 32_000_000;
+
+/** Whether one tile may read this window of `raster` (level 0 = full resolution). */
+export function tileWindowAffordable(raster: GeoRaster, x0: number, y0: number, w: number, h: number, level = 0): boolean {
+  return w * h <= MAX_TILE_WINDOW_CELLS && raster.blockCellsTouched(x0, y0, w, h, level) <= MAX_TILE_DECODE_CELLS;
+}
 
 export interface TileResult {
   png: Uint8Array;
@@ -106,7 +116,7 @@ export async function renderHillshadeTile(rasters: GeoRaster[], z: number, x: nu
     if (x1 <= x0 || y1 <= y0) continue;
     const ww = x1 - x0;
     const wh = y1 - y0;
-    if (ww * wh > MAX_TILE_WINDOW_CELLS) {
+    if (!tileWindowAffordable(raster, x0, y0, ww, wh, level)) {
       tooCoarse = true;
       continue;
     }

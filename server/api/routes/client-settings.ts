@@ -9,13 +9,16 @@ import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { bandPlans } from '../../radio/band-plans.ts';
-import { DEFAULT_BANDWIDTH_KHZ, uplinkSfsFor } from '../../planning/settings.ts';
+import { DEFAULT_BANDWIDTH_KHZ, loraBandwidthsKhz, uplinkSfsFor } from '../../planning/settings.ts';
 import { PROPAGATION_METHODS } from '../../planning/path.ts';
 import { FIELD_RANGES, type RangedField } from '../schemas.ts';
 
 const fieldRange = z.object({ min: z.number(), max: z.number(), unit: z.string(), step: z.number(), note: z.string() });
 
+const uplinkSfsSchema = z.array(z.object({ sf: z.number().int(), maxAppPayloadBytes: z.number().int().nullable() }));
+
 export const clientSettingsResponse = z.object({
+  defaultBandwidthKhz: z.number().describe('the LoRa bandwidth of a plan whose settings name none (kHz)'),
   onlineBaseLayer: z
     .object({
       /** XYZ tile URL template with {z}/{x}/{y} (and optionally {s}), as configured. */
@@ -28,7 +31,11 @@ export const clientSettingsResponse = z.object({
       z.object({
         id: z.string(),
         name: z.string(),
-        uplinkSfs: z.array(z.object({ sf: z.number().int(), maxAppPayloadBytes: z.number().int().nullable() })).describe('uplink SFs at 125 kHz with the LoRaWAN maximum application payload of each (null: none stated); an SF carries a payload up to that maximum'),
+        uplinkSfs: uplinkSfsSchema.describe('uplink SFs at the default bandwidth (defaultBandwidthKhz) with the LoRaWAN maximum application payload of each (null: none stated); an SF carries a payload up to that maximum'),
+        bandwidths: z
+          .array(z.object({ bandwidthKhz: z.number(), uplinkSfs: uplinkSfsSchema }))
+          .describe("the uplink SFs at each LoRa bandwidth of the band plan's data rates (a plan's settings.bandwidthKhz picks one)"),
+        otherBandwidthSfs: uplinkSfsSchema.describe('the uplink SFs at a bandwidth the band plan lists no data rate for'),
       }),
     )
     .describe('band plans a plan may use (bandPlanId)'),
@@ -55,7 +62,14 @@ export default async function clientSettingsRoutes(app: FastifyInstance): Promis
       // The config has no attribution setting yet: none is sent (the map labels the layer itself).
       return {
         onlineBaseLayer: urlTemplate ? { urlTemplate } : null,
-        bandPlans: bandPlans.map((plan) => ({ id: plan.id, name: plan.name, uplinkSfs: uplinkSfsFor(plan, DEFAULT_BANDWIDTH_KHZ) })),
+        defaultBandwidthKhz: DEFAULT_BANDWIDTH_KHZ,
+        bandPlans: bandPlans.map((plan) => ({
+          id: plan.id,
+          name: plan.name,
+          uplinkSfs: uplinkSfsFor(plan, DEFAULT_BANDWIDTH_KHZ),
+          bandwidths: loraBandwidthsKhz(plan).map((bandwidthKhz) => ({ bandwidthKhz, uplinkSfs: uplinkSfsFor(plan, bandwidthKhz) })),
+          otherBandwidthSfs: uplinkSfsFor(plan, Number.NaN),
+        })),
         propagationMethods: [...PROPAGATION_METHODS],
         ranges: FIELD_RANGES,
       };

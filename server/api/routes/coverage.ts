@@ -259,7 +259,7 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
     const { run } = await loadRun(request, request.params.planId, request.params.runId);
     const y = Number(request.params.y.replace(/\.png$/, ''));
     const raster = await resultRaster(run, RESULT_FILES.margin);
-    const png = await renderMarginTile(raster, request.params.z, request.params.x, y);
+    const png = await app.tileRenders(() => renderMarginTile(raster, request.params.z, request.params.x, y));
     if (!png) throw new ApiError(400, 'invalid_input', 'tile: x and y must be within 0 … 2^z − 1');
     reply.header('content-type', 'image/png').header('cache-control', 'private, max-age=3600');
     return reply.send(Buffer.from(png));

@@ -308,7 +308,7 @@ export default async function terrainRoutes(app: FastifyInstance): Promise<void>
       tileCache.delete(key);
       tileCache.set(key, png);
     } else {
-      const tile = await renderHillshadeTile(rasters, zoom, x, y);
+      const tile = await app.tileRenders(() => renderHillshadeTile(rasters, zoom, x, y));
       png = Buffer.from(tile.png.buffer, tile.png.byteOffset, tile.png.byteLength);
       if (!tile.hasData) reply.header('x-earshot-tile', tile.tooCoarse ? 'too-coarse' : 'empty');
       tileCache.set(key, png);

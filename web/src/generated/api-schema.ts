@@ -135,14 +135,29 @@ export interface paths {
                         "application/json": {
                             /** @description band plans a plan may use (bandPlanId) */
                             bandPlans: {
+                                /** @description the uplink SFs at each LoRa bandwidth of the band plan's data rates (a plan's settings.bandwidthKhz picks one) */
+                                bandwidths: {
+                                    bandwidthKhz: number;
+                                    uplinkSfs: {
+                                        maxAppPayloadBytes: number | null;
+                                        sf: number;
+                                    }[];
+                                }[];
                                 id: string;
                                 name: string;
-                                /** @description uplink SFs at 125 kHz with the LoRaWAN maximum application payload of each (null: none stated); an SF carries a payload up to that maximum */
+                                /** @description the uplink SFs at a bandwidth the band plan lists no data rate for */
+                                otherBandwidthSfs: {
+                                    maxAppPayloadBytes: number | null;
+                                    sf: number;
+                                }[];
+                                /** @description uplink SFs at the default bandwidth (defaultBandwidthKhz) with the LoRaWAN maximum application payload of each (null: none stated); an SF carries a payload up to that maximum */
                                 uplinkSfs: {
                                     maxAppPayloadBytes: number | null;
                                     sf: number;
                                 }[];
                             }[];
+                            /** @description the LoRa bandwidth of a plan whose settings name none (kHz) */
+                            defaultBandwidthKhz: number;
                             onlineBaseLayer: {
                                 attribution?: string;
                                 urlTemplate: string;
@@ -1830,6 +1845,85 @@ export interface paths {
                 };
             };
         };
+        trace?: never;
+    };
+    "/api/v1/plans/{planId}/bom": {
+        parameters: {
+            query?: never;
+            header?: never;
+            path?: never;
+            cookie?: never;
+        };
+        /** Bill of materials as JSON, priced as the report and bom.csv price it (one kit price per node and gateway from the team’s catalog), without the link predictions */
+        get: {
+            parameters: {
+                query?: never;
+                header?: never;
+                path: {
+                    planId: string;
+                };
+                cookie?: never;
+            };
+            requestBody?: never;
+            responses: {
+                /** @description { error: { code, message } }; 400 invalid_input names the field and rule, 409 version_conflict adds currentVersion */
+                "4XX": {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/json": {
+                            error: {
+                                code: string;
+                                message: string;
+                            } & {
+                                [key: string]: unknown;
+                            };
+                        };
+                    };
+                };
+                /** @description Default Response */
+                200: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/json": {
+                            /** @description USD */
+                            gatewayKitCostUsd: number;
+                            /** @description USD: node and gateway kit (antennas, feedlines, connectors and surge arrestors, masts); the report’s “Kit cost” */
+                            kitCostUsd: number;
+                            lines: {
+                                /** @enum {string} */
+                                category: "antenna" | "feedline" | "connector" | "mast" | "gateway" | "site";
+                                /** @description USD */
+                                costUsd: number;
+                                name: string;
+                                quantity: number;
+                                /** @enum {string} */
+                                unit: "each" | "m";
+                                unitCostUsd: number | null;
+                            }[];
+                            /** @description USD */
+                            nodeKitCostUsd: number;
+                            notes: string[];
+                            totalsUsd: {
+                                [key: string]: number;
+                            };
+                            /** @description USD: kit cost plus gateway radios and site works */
+                            totalUsd: number;
+                            unpriced: string[];
+                        };
+                    };
+                };
+            };
+        };
+        put?: never;
+        post?: never;
+        delete?: never;
+        options?: never;
+        head?: never;
+        patch?: never;
         trace?: never;
     };
     "/api/v1/plans/{planId}/bom.csv": {
@@ -4545,7 +4639,7 @@ export interface paths {
                                 /** @description pairs beyond the plan's link range, skipped */
                                 pairsOutOfRange: number | null;
                                 planId: string;
-                                /** @description 0 … 1: pairs of the finished children over all pairs */
+                                /** @description 0 … 1: pairs of the finished children, plus the paths the running children have predicted so far, over all pairs */
                                 progress: number;
                                 /** @description wall time since the first child started, s */
                                 seconds: number;
@@ -4629,7 +4723,7 @@ export interface paths {
                             /** @description pairs beyond the plan's link range, skipped */
                             pairsOutOfRange: number | null;
                             planId: string;
-                            /** @description 0 … 1: pairs of the finished children over all pairs */
+                            /** @description 0 … 1: pairs of the finished children, plus the paths the running children have predicted so far, over all pairs */
                             progress: number;
                             /** @description wall time since the first child started, s */
                             seconds: number;
@@ -4718,7 +4812,7 @@ export interface paths {
                             /** @description pairs beyond the plan's link range, skipped */
                             pairsOutOfRange: number | null;
                             planId: string;
-                            /** @description 0 … 1: pairs of the finished children over all pairs */
+                            /** @description 0 … 1: pairs of the finished children, plus the paths the running children have predicted so far, over all pairs */
                             progress: number;
                             /** @description wall time since the first child started, s */
                             seconds: number;
@@ -4811,7 +4905,7 @@ export interface paths {
                             /** @description pairs beyond the plan's link range, skipped */
                             pairsOutOfRange: number | null;
                             planId: string;
-                            /** @description 0 … 1: pairs of the finished children over all pairs */
+                            /** @description 0 … 1: pairs of the finished children, plus the paths the running children have predicted so far, over all pairs */
                             progress: number;
                             /** @description wall time since the first child started, s */
                             seconds: number;

@@ -24,6 +24,8 @@ import {
   type RunState,
 } from '../api.ts';
 import type { PlanStore } from '../plan-store.ts';
+import { planInputs, staleReason } from '../coverage-stale.ts';
+import { planUplinkSfs } from '../uplink-sfs.ts';
 import { applyRange, rangeProblem } from '../ranges.ts';
 import { canEdit } from '../session.ts';
 import { announce, clear, errorText, field, h, notice, percent, present, select } from '../ui.ts';
@@ -104,7 +106,7 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
   applyRange(payload, 'payloadBytes');
   // The band plan's uplink SFs with their payload maxima (GET /client-settings); the node SF
   // rule (server/planning/settings.ts sfsCarrying) allows an SF when the payload fits its maximum.
-  const uplinkSfs = settings?.bandPlans.find((b) => b.id === store.plan.bandPlanId)?.uplinkSfs ?? [7, 8, 9, 10, 11, 12].map((v) => ({ sf: v, maxAppPayloadBytes: null }));
+  const uplinkSfs = planUplinkSfs(settings, store.plan);
   const sf = select([], '', { id: 'coverage-sf' });
   const fillSfs = (): void => {
     const bytes = Number(payload.value);
@@ -394,33 +396,6 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
     closeSource();
     window.clearTimeout(timer);
   };
-}
-
-/** What a coverage run depends on, as this tab holds it: the plan settings, every gateway and node. */
-function planInputs(store: PlanStore): string {
-  const list = (items: ReadonlyArray<{ id: string; version: number }>): string => items.map((e) => `${e.id}:${e.version}`).join(',');
-  return `plan:${store.plan.version}|g:${list(store.gateways)}|n:${list(store.nodes)}`;
-}
-
-const after = (stamp: unknown, runCreatedAt: string): boolean => typeof stamp === 'string' && Date.parse(stamp) > Date.parse(runCreatedAt);
-
-/**
- * Why a finished run no longer shows the plan, or null: a gateway of the run was deleted or
- * changed, the set of gateways of a composite changed, the plan settings or the nodes (whose
- * counts the summary gives) changed after the run was started — by timestamps for edits made
- * before this page was opened, and by versions for any made since (deletions included).
- */
-export function staleReason(store: PlanStore, run: CoverageRun, inputsWhenShown: string): string | null {
-  const byId = new Map(store.gateways.map((g) => [g.id, g]));
-  const gone = run.gatewayIds.filter((id) => !byId.has(id));
-  if (gone.length > 0) return `${gone.length === 1 ? 'a gateway of this run was' : `${gone.length} gateways of this run were`} deleted`;
-  const changed = run.gatewayIds.map((id) => byId.get(id)).filter((g) => g && after(g.updatedAt, run.createdAt));
-  if (changed.length > 0) return `gateway ${changed.map((g) => g?.name).join(', ')} changed after this run`;
-  if (run.gatewayIds.length > 1 && store.gateways.length !== run.gatewayIds.length) return 'gateways were added since this composite run';
-  if (after(store.plan.updatedAt, run.createdAt)) return 'the plan settings changed after this run';
-  if (store.nodes.some((n) => after(n.updatedAt, run.createdAt))) return 'nodes changed after this run (its node counts are old)';
-  if (planInputs(store) !== inputsWhenShown) return 'the plan was edited since this overlay was drawn';
-  return null;
 }
 
 /** The coverage method that matches the plan's own: full P.1812 when the plan predicts with it. */
