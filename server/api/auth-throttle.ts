@@ -19,6 +19,8 @@ export interface AuthThrottle {
 export interface ThrottleOptions {
   maxFailures: number;
   windowMs: number;
+  /** The clock (ms since the epoch); tests pin it so a run cannot straddle a window boundary. */
+  now?: () => number;
 }
 
 export const defaultThrottle: ThrottleOptions = { maxFailures: 30, windowMs: 60_000 };
@@ -33,7 +35,7 @@ export function memoryThrottle(options: ThrottleOptions = defaultThrottle): Auth
   const counts = new Map<string, { index: number; count: number }>();
   return {
     async begin(address) {
-      const { index, retryAfterS } = windowOf(Date.now(), options.windowMs);
+      const { index, retryAfterS } = windowOf((options.now ?? Date.now)(), options.windowMs);
       let entry = counts.get(address);
       if (!entry || entry.index !== index) {
         entry = { index, count: 0 };
@@ -61,7 +63,7 @@ export function redisThrottle(url: string, prefix: string, options: ThrottleOpti
   const keyOf = (address: string, index: number) => `${prefix}authfail:${index}:${address}`;
   return {
     async begin(address) {
-      const { index, retryAfterS } = windowOf(Date.now(), options.windowMs);
+      const { index, retryAfterS } = windowOf((options.now ?? Date.now)(), options.windowMs);
       try {
         const key = keyOf(address, index);
         const [[, count]] = (await redis.multi().incr(key).pexpire(key, options.windowMs * 2).exec()) as [[unknown, number], unknown];
@@ -75,7 +77,7 @@ export function redisThrottle(url: string, prefix: string, options: ThrottleOpti
       }
     },
     async succeeded(address) {
-      const { index } = windowOf(Date.now(), options.windowMs);
+      const { index } = windowOf((options.now ?? Date.now)(), options.windowMs);
       try {
         await redis.decr(keyOf(address, index));
       } catch {

@@ -10,6 +10,11 @@ import { memoryThrottle, redisThrottle } from '../../server/api/auth-throttle.ts
 import { issueToken, tokenRecheckMs } from '../../server/db/repositories/accounts.ts';
 import { bearer, createTestApp, describeEngines, type TestApp } from '../helpers/test-app.ts';
 
+// A pinned clock in the middle of a throttle window: the fixed windows reset at each boundary, and a
+// sequence of slow wrong tokens that straddled one would start counting afresh.
+const clock = { ms: 1_800_030_000 };
+const pinnedNow = () => clock.ms;
+
 const wrongToken = () => `esk_${randomBytes(8).toString('hex')}_${randomBytes(32).toString('base64url')}`;
 
 describeEngines('token cache and failed-authentication throttle', (engine) => {
@@ -41,7 +46,7 @@ describeEngines('token cache and failed-authentication throttle', (engine) => {
   });
 
   it('after the allowed number of wrong tokens, an address gets 429 with Retry-After; missing tokens and cached good ones are not throttled', async () => {
-    const app = await buildApp({ db: t.db, config: t.config, logger: false, authThrottle: memoryThrottle({ maxFailures: 5, windowMs: 60_000 }) });
+    const app = await buildApp({ db: t.db, config: t.config, logger: false, authThrottle: memoryThrottle({ maxFailures: 5, windowMs: 60_000, now: pinnedNow }) });
     await app.ready();
     try {
       const http = request(app.server);
@@ -55,13 +60,16 @@ describeEngines('token cache and failed-authentication throttle', (engine) => {
       expect(throttled.body).toEqual({ error: { code: 'rate_limited', message: expect.stringMatching(/failed sign-ins/) } });
       expect((await http.get('/api/v1/plans')).status).toBe(401); // no token: not a guess
       expect((await http.get('/api/v1/plans').set(bearer(t.tokens.viewer))).status).toBe(200);
+      // The next window starts afresh: a wrong token is verified (401) again.
+      clock.ms += 60_000;
+      expect((await http.get('/api/v1/plans').set(bearer(wrongToken()))).status).toBe(401);
     } finally {
       await app.close();
     }
   }, 60_000);
 
   it('a concurrent burst of wrong tokens is cut at the limit (attempts count when they start)', async () => {
-    const app = await buildApp({ db: t.db, config: t.config, logger: false, authThrottle: memoryThrottle({ maxFailures: 5, windowMs: 60_000 }) });
+    const app = await buildApp({ db: t.db, config: t.config, logger: false, authThrottle: memoryThrottle({ maxFailures: 5, windowMs: 60_000, now: pinnedNow }) });
     await app.ready();
     try {
       const http = request(app.server);
@@ -92,8 +100,8 @@ const hasRedis = await redisAvailable();
 describe.skipIf(!hasRedis && process.env.CI !== 'true')('the throttle through Redis is shared between processes', () => {
   it('failures counted by one API process throttle the same address in another', async () => {
     const prefix = `earshot-test-${randomBytes(4).toString('hex')}:`;
-    const a = redisThrottle('redis://127.0.0.1:6379', prefix, { maxFailures: 3, windowMs: 60_000 });
-    const b = redisThrottle('redis://127.0.0.1:6379', prefix, { maxFailures: 3, windowMs: 60_000 });
+    const a = redisThrottle('redis://127.0.0.1:6379', prefix, { maxFailures: 3, windowMs: 60_000, now: pinnedNow });
+    const b = redisThrottle('redis://127.0.0.1:6379', prefix, { maxFailures: 3, windowMs: 60_000, now: pinnedNow });
     try {
       for (let i = 0; i < 3; i++) expect((await a.begin('198.51.100.7')).allowed).toBe(true);
       expect((await b.begin('198.51.100.7')).allowed).toBe(false);
