@@ -9,6 +9,7 @@ import { buildApp } from '../../server/api/app.ts';
 import { memoryThrottle, redisThrottle } from '../../server/api/auth-throttle.ts';
 import { issueToken, tokenRecheckMs } from '../../server/db/repositories/accounts.ts';
 import { bearer, createTestApp, describeEngines, type TestApp } from '../helpers/test-app.ts';
+import { REDIS_URL, inCi, redisReady } from '../helpers/queue-workers.ts';
 
 // A pinned clock in the middle of a throttle window: the fixed windows reset at each boundary, and a
 // sequence of slow wrong tokens that straddled one would start counting afresh.
@@ -82,26 +83,11 @@ describeEngines('token cache and failed-authentication throttle', (engine) => {
   }, 60_000);
 });
 
-async function redisAvailable(): Promise<boolean> {
-  const { Redis } = await import('ioredis');
-  const redis = new Redis('redis://127.0.0.1:6379', { lazyConnect: true, maxRetriesPerRequest: 0, connectTimeout: 1000 });
-  redis.on('error', () => undefined);
-  try {
-    await redis.connect();
-    return (await redis.ping()) === 'PONG';
-  } catch {
-    return false;
-  } finally {
-    redis.disconnect();
-  }
-}
-const hasRedis = await redisAvailable();
-
-describe.skipIf(!hasRedis && process.env.CI !== 'true')('the throttle through Redis is shared between processes', () => {
+describe.skipIf(!redisReady && !inCi)('the throttle through Redis is shared between processes', () => {
   it('failures counted by one API process throttle the same address in another', async () => {
     const prefix = `earshot-test-${randomBytes(4).toString('hex')}:`;
-    const a = redisThrottle('redis://127.0.0.1:6379', prefix, { maxFailures: 3, windowMs: 60_000, now: pinnedNow });
-    const b = redisThrottle('redis://127.0.0.1:6379', prefix, { maxFailures: 3, windowMs: 60_000, now: pinnedNow });
+    const a = redisThrottle(REDIS_URL, prefix, { maxFailures: 3, windowMs: 60_000, now: pinnedNow });
+    const b = redisThrottle(REDIS_URL, prefix, { maxFailures: 3, windowMs: 60_000, now: pinnedNow });
     try {
       for (let i = 0; i < 3; i++) expect((await a.begin('198.51.100.7')).allowed).toBe(true);
       expect((await b.begin('198.51.100.7')).allowed).toBe(false);

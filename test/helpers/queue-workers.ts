@@ -26,6 +26,8 @@ async function redisReachable(): Promise<boolean> {
 }
 
 const redisOk = await redisReachable();
+/** Redis answers (at EARSHOT_TEST_REDIS_URL, default 127.0.0.1:6379). */
+export const redisReady = redisOk;
 /** Redis and PostgreSQL both answer. */
 export const queueReady = redisOk && postgresAvailable;
 

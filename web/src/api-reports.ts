@@ -1,7 +1,7 @@
 // Client calls of reports, exports and scenarios (server/api/routes/exports.ts,
 // server/api/routes/scenarios.ts).
 import { ApiError, request, storedToken, type Plan } from './api.ts';
-import type { LinkStatus } from './api.ts';
+import type { Answer, LinkStatus } from './api.ts';
 
 export interface ScenarioSide {
   planId: string;
@@ -42,26 +42,9 @@ export const comparePlans = (planId: string, otherPlanId: string): Promise<PlanC
 export const copyPlan = (planId: string, name: string): Promise<Plan & { copied: Record<string, number> }> =>
   request('POST', `/plans/${encodeURIComponent(planId)}/copy`, { name });
 
-export interface BomLine {
-  category: 'antenna' | 'feedline' | 'connector' | 'mast' | 'gateway' | 'site';
-  name: string;
-  quantity: number;
-  unit: 'each' | 'm';
-  unitCostUsd: number | null;
-  costUsd: number;
-}
-
-/** The plan's bill of materials as the server prices it (the report's and bom.csv's figures). */
-export interface BillOfMaterials {
-  lines: BomLine[];
-  totalsUsd: Record<BomLine['category'], number>;
-  nodeKitCostUsd: number;
-  gatewayKitCostUsd: number;
-  kitCostUsd: number;
-  totalUsd: number;
-  unpriced: string[];
-  notes: string[];
-}
+/** The plan's bill of materials as the server prices it (the report's and bom.csv's figures); its shape comes from the OpenAPI document. */
+export type BillOfMaterials = Answer<'/api/v1/plans/{planId}/bom', 'get'>;
+export type BomLine = BillOfMaterials['lines'][number];
 
 export const getBillOfMaterials = (planId: string): Promise<BillOfMaterials> => request<BillOfMaterials>('GET', `/plans/${encodeURIComponent(planId)}/bom`);
 
