@@ -3191,7 +3191,17 @@ export interface paths {
                     content: {
                         "application/json": {
                             items: {
+                                /** @description attempts of the run's own job (the parent, for a split run) */
                                 attempts: number;
+                                /** @description a run of several gateways is split into a child job per gateway; null: the run is one job (a single gateway, or a run from before the split) */
+                                children: {
+                                    cancelled: number;
+                                    done: number;
+                                    failed: number;
+                                    /** @description children taken more than once (a worker died or failed) */
+                                    retried: number;
+                                    total: number;
+                                } | null;
                                 createdAt: string;
                                 error: string | null;
                                 finishedAt: (string) | null;
@@ -3200,7 +3210,7 @@ export interface paths {
                                 /** @description fast | full (los from the command line) */
                                 mode: string | null;
                                 planId: string;
-                                /** @description 0 … 1 */
+                                /** @description 0 … 1; a run split into a child per gateway: the cells its children have predicted, summed, over all (95 %), then the composite */
                                 progress: number;
                                 radiusKm: number | null;
                                 requiredMarginDb: number | null;
@@ -3282,6 +3292,8 @@ export interface paths {
                                         share: number;
                                     };
                                 } | null;
+                                /** @description ids (host:pid) of the workers that took part: the children's and the last one that held the run's own job */
+                                workers: string[];
                             }[];
                             next: string | null;
                             total: number;
@@ -3348,7 +3360,17 @@ export interface paths {
                     };
                     content: {
                         "application/json": {
+                            /** @description attempts of the run's own job (the parent, for a split run) */
                             attempts: number;
+                            /** @description a run of several gateways is split into a child job per gateway; null: the run is one job (a single gateway, or a run from before the split) */
+                            children: {
+                                cancelled: number;
+                                done: number;
+                                failed: number;
+                                /** @description children taken more than once (a worker died or failed) */
+                                retried: number;
+                                total: number;
+                            } | null;
                             createdAt: string;
                             error: string | null;
                             finishedAt: (string) | null;
@@ -3357,7 +3379,7 @@ export interface paths {
                             /** @description fast | full (los from the command line) */
                             mode: string | null;
                             planId: string;
-                            /** @description 0 … 1 */
+                            /** @description 0 … 1; a run split into a child per gateway: the cells its children have predicted, summed, over all (95 %), then the composite */
                             progress: number;
                             radiusKm: number | null;
                             requiredMarginDb: number | null;
@@ -3439,6 +3461,8 @@ export interface paths {
                                     share: number;
                                 };
                             } | null;
+                            /** @description ids (host:pid) of the workers that took part: the children's and the last one that held the run's own job */
+                            workers: string[];
                         };
                     };
                 };
@@ -3495,7 +3519,17 @@ export interface paths {
                     };
                     content: {
                         "application/json": {
+                            /** @description attempts of the run's own job (the parent, for a split run) */
                             attempts: number;
+                            /** @description a run of several gateways is split into a child job per gateway; null: the run is one job (a single gateway, or a run from before the split) */
+                            children: {
+                                cancelled: number;
+                                done: number;
+                                failed: number;
+                                /** @description children taken more than once (a worker died or failed) */
+                                retried: number;
+                                total: number;
+                            } | null;
                             createdAt: string;
                             error: string | null;
                             finishedAt: (string) | null;
@@ -3504,7 +3538,7 @@ export interface paths {
                             /** @description fast | full (los from the command line) */
                             mode: string | null;
                             planId: string;
-                            /** @description 0 … 1 */
+                            /** @description 0 … 1; a run split into a child per gateway: the cells its children have predicted, summed, over all (95 %), then the composite */
                             progress: number;
                             radiusKm: number | null;
                             requiredMarginDb: number | null;
@@ -3586,6 +3620,8 @@ export interface paths {
                                     share: number;
                                 };
                             } | null;
+                            /** @description ids (host:pid) of the workers that took part: the children's and the last one that held the run's own job */
+                            workers: string[];
                         };
                     };
                 };
@@ -3644,7 +3680,17 @@ export interface paths {
                     };
                     content: {
                         "application/json": {
+                            /** @description attempts of the run's own job (the parent, for a split run) */
                             attempts: number;
+                            /** @description a run of several gateways is split into a child job per gateway; null: the run is one job (a single gateway, or a run from before the split) */
+                            children: {
+                                cancelled: number;
+                                done: number;
+                                failed: number;
+                                /** @description children taken more than once (a worker died or failed) */
+                                retried: number;
+                                total: number;
+                            } | null;
                             createdAt: string;
                             error: string | null;
                             finishedAt: (string) | null;
@@ -3653,7 +3699,7 @@ export interface paths {
                             /** @description fast | full (los from the command line) */
                             mode: string | null;
                             planId: string;
-                            /** @description 0 … 1 */
+                            /** @description 0 … 1; a run split into a child per gateway: the cells its children have predicted, summed, over all (95 %), then the composite */
                             progress: number;
                             radiusKm: number | null;
                             requiredMarginDb: number | null;
@@ -3735,6 +3781,8 @@ export interface paths {
                                     share: number;
                                 };
                             } | null;
+                            /** @description ids (host:pid) of the workers that took part: the children's and the last one that held the run's own job */
+                            workers: string[];
                         };
                     };
                 };
