@@ -103,6 +103,8 @@ describeEngines('coverage runs split into a child per gateway, in process', (eng
     expect(run.status, run.error ?? '').toBe('done');
     expect(run.progress).toBe(1);
     expect(run.children).toEqual({ total: 3, done: 3, retried: 0, failed: 0, cancelled: 0 });
+    // The parent ran once: one composite over the three parts.
+    expect(run.attempts).toBe(1);
     expect(run.workers).toEqual([expect.stringMatching(new RegExp(`:${process.pid}$`))]);
     // One child per gateway, each with the checksum of the part it wrote.
     const parts = await t.db.prisma.linkRun.findFirstOrThrow({ where: { kind: COVERAGE_PARTS_KIND, params: { path: ['coverageRunId'], equals: run.id } }, include: { tiles: { orderBy: { index: 'asc' } } } });
