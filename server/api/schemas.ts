@@ -81,6 +81,15 @@ export const jsonObject = z
 
 export const dateTime = z.date().or(z.string());
 
+/** The children of a run split into child jobs (fleet link table runs, multi-gateway coverage runs), counted by state. */
+export const runChildren = z.object({
+  total: z.number().int(),
+  done: z.number().int(),
+  retried: z.number().int().describe('children taken more than once (a worker died or failed)'),
+  failed: z.number().int(),
+  cancelled: z.number().int(),
+});
+
 // ---- One rule per physical input ------------------------------------------------------------
 // Every route that takes one of these quantities builds its field here, and
 // GET /client-settings serves the same table so every UI form uses the same limits.

@@ -1,12 +1,14 @@
 // Where the files the database rows point at live, and the only code that resolves or removes
 // them: terrain uploads under <filesDir>/terrain/<planId>/, coverage results under
-// <filesDir>/coverage/<runId>/. Rows store paths relative to filesDir (absolute paths, which
+// <filesDir>/coverage/<runId>/, the per-gateway parts of a split coverage run under
+// <filesDir>/coverage/<runId>.parts/ until its composite is built. Rows store paths
+// relative to filesDir (absolute paths, which
 // tests use, stay as they are; a path relative to the data folder is an older layout).
 // Used by the link engine and the coverage job (server/jobs), the use cases (server/app) and
 // the routes (server/api), so every room resolves a stored path the same way.
-import { existsSync } from 'node:fs';
+import { existsSync, mkdirSync, renameSync, rmSync, writeFileSync } from 'node:fs';
 import { readdir, rm, stat } from 'node:fs/promises';
-import { isAbsolute, join, relative, resolve } from 'node:path';
+import { dirname, isAbsolute, join, relative, resolve } from 'node:path';
 import type { Config } from '../config.ts';
 import type { Database } from './database.ts';
 import type { PlanFiles } from './repositories/plans.ts';
@@ -29,6 +31,45 @@ export function resultDir(config: Pick<Config, 'filesDir'>, runId: string): stri
   return join(config.filesDir, 'coverage', runId);
 }
 
+/** The folder of a split coverage run's per-gateway parts (server/jobs/coverage-split.ts), removed once the run finishes. */
+export function coveragePartsDir(config: Pick<Config, 'filesDir'>, runId: string): string {
+  return join(config.filesDir, 'coverage', `${runId}.parts`);
+}
+
+/** The part of gateway `index` of a split coverage run: keyed by run and gateway, so a retried child overwrites it. */
+export function coveragePartFile(config: Pick<Config, 'filesDir'>, runId: string, index: number): string {
+  return join(coveragePartsDir(config, runId), `gateway-${index}.part`);
+}
+
+/**
+ * Writes `bytes` to `path` atomically: a temporary file beside it, then one rename
+ * (a reader sees the old file or the whole new one, never a half-written one; a
+ * writer killed before the rename leaves only the temporary file, which
+ * `removeCoverageParts` and `removePlanFiles` clear). `beforeRename` may refuse
+ * (false): the temporary file is removed and nothing is replaced.
+ */
+export async function writeFileAtomic(path: string, bytes: Uint8Array, beforeRename?: () => Promise<boolean>): Promise<boolean> {
+  const temp = `${path}.partial-${process.pid}-${Date.now()}`;
+  mkdirSync(dirname(path), { recursive: true });
+  try {
+    writeFileSync(temp, bytes);
+    if (beforeRename && !(await beforeRename())) {
+      rmSync(temp, { force: true });
+      return false;
+    }
+    renameSync(temp, path);
+    return true;
+  } catch (error) {
+    rmSync(temp, { force: true });
+    throw error;
+  }
+}
+
+/** Removes a split coverage run's parts folder (its composite is built, or the run ended without one). */
+export function removeCoverageParts(config: Pick<Config, 'filesDir'>, runId: string): void {
+  rmSync(coveragePartsDir(config, runId), { recursive: true, force: true });
+}
+
 /** The folder terrain uploads live in (one sub-folder per plan). */
 export function terrainDir(config: Pick<Config, 'filesDir'>): string {
   return join(config.filesDir, 'terrain');
@@ -47,8 +88,8 @@ export async function removeTerrainFileIfUnused(db: Database, config: FileConfig
 /**
  * Removes a deleted plan's files: <filesDir>/terrain/<planId>/ (uploads, incl. unfinished
  * ones), terrain files it referenced elsewhere under filesDir, and its coverage result
- * folders (with any `.partial-*` folders of interrupted runs). Never touches anything outside
- * filesDir. Returns the paths that could not be removed.
+ * folders (with any `.partial-*` folders of interrupted runs and `.parts` folders of split
+ * runs). Never touches anything outside filesDir. Returns the paths that could not be removed.
  */
 export async function removePlanFiles(filesDir: string, planId: string, files: PlanFiles): Promise<string[]> {
   const root = resolve(filesDir);
@@ -75,7 +116,7 @@ export async function removePlanFiles(filesDir: string, planId: string, files: P
   const partials = await readdir(coverageDir).catch(() => [] as string[]);
   for (const runId of files.coverageRunIds) {
     targets.add(resultDir({ filesDir: root }, runId));
-    for (const name of partials) if (name.startsWith(`${runId}.partial-`)) targets.add(join(coverageDir, name));
+    for (const name of partials) if (name.startsWith(`${runId}.partial-`) || name === `${runId}.parts`) targets.add(join(coverageDir, name));
   }
   const failed: string[] = [];
   for (const target of targets) {

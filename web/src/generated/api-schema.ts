@@ -3198,7 +3198,17 @@ export interface paths {
                     content: {
                         "application/json": {
                             items: {
+                                /** @description attempts of the run's own job (the parent, for a split run) */
                                 attempts: number;
+                                /** @description a run of several gateways is split into a child job per gateway; null: the run is one job (a single gateway, or a run from before the split) */
+                                children: {
+                                    cancelled: number;
+                                    done: number;
+                                    failed: number;
+                                    /** @description children taken more than once (a worker died or failed) */
+                                    retried: number;
+                                    total: number;
+                                } | null;
                                 createdAt: string;
                                 error: string | null;
                                 finishedAt: (string) | null;
@@ -3207,7 +3217,7 @@ export interface paths {
                                 /** @description fast | full (los from the command line) */
                                 mode: string | null;
                                 planId: string;
-                                /** @description 0 … 1 */
+                                /** @description 0 … 1; a run split into a child per gateway: the cells its children have predicted, summed, over all (95 %), then the composite */
                                 progress: number;
                                 radiusKm: number | null;
                                 requiredMarginDb: number | null;
@@ -3289,6 +3299,8 @@ export interface paths {
                                         share: number;
                                     };
                                 } | null;
+                                /** @description ids (host:pid) of the workers that took part: the children's and the last one that held the run's own job */
+                                workers: string[];
                             }[];
                             next: string | null;
                             total: number;
@@ -3355,7 +3367,17 @@ export interface paths {
                     };
                     content: {
                         "application/json": {
+                            /** @description attempts of the run's own job (the parent, for a split run) */
                             attempts: number;
+                            /** @description a run of several gateways is split into a child job per gateway; null: the run is one job (a single gateway, or a run from before the split) */
+                            children: {
+                                cancelled: number;
+                                done: number;
+                                failed: number;
+                                /** @description children taken more than once (a worker died or failed) */
+                                retried: number;
+                                total: number;
+                            } | null;
                             createdAt: string;
                             error: string | null;
                             finishedAt: (string) | null;
@@ -3364,7 +3386,7 @@ export interface paths {
                             /** @description fast | full (los from the command line) */
                             mode: string | null;
                             planId: string;
-                            /** @description 0 … 1 */
+                            /** @description 0 … 1; a run split into a child per gateway: the cells its children have predicted, summed, over all (95 %), then the composite */
                             progress: number;
                             radiusKm: number | null;
                             requiredMarginDb: number | null;
@@ -3446,6 +3468,8 @@ export interface paths {
                                     share: number;
                                 };
                             } | null;
+                            /** @description ids (host:pid) of the workers that took part: the children's and the last one that held the run's own job */
+                            workers: string[];
                         };
                     };
                 };
@@ -3502,7 +3526,17 @@ export interface paths {
                     };
                     content: {
                         "application/json": {
+                            /** @description attempts of the run's own job (the parent, for a split run) */
                             attempts: number;
+                            /** @description a run of several gateways is split into a child job per gateway; null: the run is one job (a single gateway, or a run from before the split) */
+                            children: {
+                                cancelled: number;
+                                done: number;
+                                failed: number;
+                                /** @description children taken more than once (a worker died or failed) */
+                                retried: number;
+                                total: number;
+                            } | null;
                             createdAt: string;
                             error: string | null;
                             finishedAt: (string) | null;
@@ -3511,7 +3545,7 @@ export interface paths {
                             /** @description fast | full (los from the command line) */
                             mode: string | null;
                             planId: string;
-                            /** @description 0 … 1 */
+                            /** @description 0 … 1; a run split into a child per gateway: the cells its children have predicted, summed, over all (95 %), then the composite */
                             progress: number;
                             radiusKm: number | null;
                             requiredMarginDb: number | null;
@@ -3593,6 +3627,8 @@ export interface paths {
                                     share: number;
                                 };
                             } | null;
+                            /** @description ids (host:pid) of the workers that took part: the children's and the last one that held the run's own job */
+                            workers: string[];
                         };
                     };
                 };
@@ -3651,7 +3687,17 @@ export interface paths {
                     };
                     content: {
                         "application/json": {
+                            /** @description attempts of the run's own job (the parent, for a split run) */
                             attempts: number;
+                            /** @description a run of several gateways is split into a child job per gateway; null: the run is one job (a single gateway, or a run from before the split) */
+                            children: {
+                                cancelled: number;
+                                done: number;
+                                failed: number;
+                                /** @description children taken more than once (a worker died or failed) */
+                                retried: number;
+                                total: number;
+                            } | null;
                             createdAt: string;
                             error: string | null;
                             finishedAt: (string) | null;
@@ -3660,7 +3706,7 @@ export interface paths {
                             /** @description fast | full (los from the command line) */
                             mode: string | null;
                             planId: string;
-                            /** @description 0 … 1 */
+                            /** @description 0 … 1; a run split into a child per gateway: the cells its children have predicted, summed, over all (95 %), then the composite */
                             progress: number;
                             radiusKm: number | null;
                             requiredMarginDb: number | null;
@@ -3742,6 +3788,8 @@ export interface paths {
                                     share: number;
                                 };
                             } | null;
+                            /** @description ids (host:pid) of the workers that took part: the children's and the last one that held the run's own job */
+                            workers: string[];
                         };
                     };
                 };
