@@ -2,8 +2,8 @@
 // Runs one of earshot's programs from the compiled tree: `node scripts/launch.mjs
 // <server|cli|worker> [args…]`. Before it starts the program it regenerates the
 // Prisma client when prisma/schema.prisma changed and recompiles server/ into
-// build/ when any source changed (both checks are a hash or a stat walk, a few ms),
-// all in this one process so a command pays Node's start-up once.
+// build/ when any source changed (one stat of the schema, one stat per source: a few
+// ms together), all in this one process so a command pays Node's start-up once.
 import { join } from 'node:path';
 import { buildIsFresh, buildServer, root } from './build-server.mjs';
 import { clientIsFresh, generate } from './prisma-generate.mjs';
