@@ -85,25 +85,37 @@ export async function removePlanFiles(filesDir: string, planId: string, files: P
   return failed;
 }
 
+/**
+ * Removes the regular file at `path` when it was last written at least `minAgeMs` before `nowMs`;
+ * true when it removed it. A file that is gone, is not a regular file, or is younger is left alone
+ * (a young file may be an upload still being written).
+ */
+export async function removeIfOlderThan(path: string, nowMs: number, minAgeMs: number): Promise<boolean> {
+  const info = await stat(path).catch(() => null);
+  if (!info || !info.isFile() || nowMs - info.mtimeMs < minAgeMs) return false;
+  await rm(path, { force: true });
+  return true;
+}
+
+/** The per-plan folders under <filesDir>/terrain/ (none when the folder does not exist). */
+async function terrainPlanDirs(terrainDir: string): Promise<string[]> {
+  try {
+    return (await readdir(terrainDir, { withFileTypes: true })).filter((entry) => entry.isDirectory()).map((entry) => entry.name);
+  } catch {
+    return [];
+  }
+}
+
 /** Removes `.incoming-*.tif` upload files under <filesDir>/terrain/<planId>/ not written to for `minAgeMs`. */
 export async function sweepIncomingFiles(terrainDir: string, minAgeMs: number): Promise<string[]> {
   const removed: string[] = [];
-  let planDirs: string[];
-  try {
-    planDirs = (await readdir(terrainDir, { withFileTypes: true })).filter((entry) => entry.isDirectory()).map((entry) => entry.name);
-  } catch {
-    return removed;
-  }
   const now = Date.now();
-  for (const planId of planDirs) {
+  for (const planId of await terrainPlanDirs(terrainDir)) {
     const dir = join(terrainDir, planId);
     for (const file of await readdir(dir).catch(() => [] as string[])) {
       if (!/^\.incoming-[0-9a-f-]+\.tif$/.test(file)) continue;
       const path = join(dir, file);
-      const info = await stat(path).catch(() => null);
-      if (!info || !info.isFile() || now - info.mtimeMs < minAgeMs) continue;
-      await rm(path, { force: true });
-      removed.push(path);
+      if (await removeIfOlderThan(path, now, minAgeMs)) removed.push(path);
     }
   }
   return removed;
@@ -111,25 +123,16 @@ export async function sweepIncomingFiles(terrainDir: string, minAgeMs: number): 
 
 /** Removes files under <filesDir>/terrain/<planId>/ that no terrain layer row references and that are older than `minAgeMs`. */
 export async function sweepOrphanFiles(db: Database, terrainDir: string, minAgeMs: number): Promise<string[]> {
-  let planDirs: string[];
-  try {
-    planDirs = (await readdir(terrainDir, { withFileTypes: true })).filter((entry) => entry.isDirectory()).map((entry) => entry.name);
-  } catch {
-    return [];
-  }
   const removed: string[] = [];
   const now = Date.now();
-  for (const planId of planDirs) {
+  for (const planId of await terrainPlanDirs(terrainDir)) {
     const dir = join(terrainDir, planId);
     // Layers of this plan and of its copies (which share the files) keep a file.
     const referenced = await terrainFileNamesReferencedIn(db, planId);
     for (const file of await readdir(dir)) {
       if (referenced.has(file)) continue;
       const path = join(dir, file);
-      const info = await stat(path).catch(() => null);
-      if (!info || !info.isFile() || now - info.mtimeMs < minAgeMs) continue;
-      await rm(path, { force: true });
-      removed.push(path);
+      if (await removeIfOlderThan(path, now, minAgeMs)) removed.push(path);
     }
   }
   return removed;

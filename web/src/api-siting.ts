@@ -8,6 +8,8 @@ export interface SitingRequest {
   minimise?: 'gateways' | 'cost';
   budgetUsd?: number;
   maxGateways?: number;
+  /** Capacity cap: nodes one gateway may serve (range: client-settings ranges.maxNodesPerGateway). */
+  maxNodesPerGateway?: number;
 }
 
 export interface SitingSelected {

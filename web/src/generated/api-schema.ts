@@ -194,6 +194,13 @@ export interface paths {
                                     step: number;
                                     unit: string;
                                 };
+                                maxNodesPerGateway: {
+                                    max: number;
+                                    min: number;
+                                    note: string;
+                                    step: number;
+                                    unit: string;
+                                };
                                 nodeAntennaHeightAglM: {
                                     max: number;
                                     min: number;
@@ -6709,6 +6716,7 @@ export interface paths {
                         /** @description true: the plan's gateways stay as built (fixed, cost 0). false: start over — they become ordinary candidates (cost 0 USD, built already) and apply replaces the plan's gateways with the answer (dropped ones removed; undo restores them) */
                         keepExistingGateways: boolean;
                         maxGateways?: number;
+                        /** @description capacity cap: each gateway serves at most this many nodes (FIELD_RANGES.maxNodesPerGateway) */
                         maxNodesPerGateway?: number;
                         /** @enum {string} */
                         minimise?: "gateways" | "cost";
