@@ -2,7 +2,7 @@
 // CRS, NoData and scale/offset, and windows of samples as Float32 (NaN for
 // NoData). A file is opened with geotiff's fromFile, so only the header and
 // the tiles/strips a window touches are ever read from disk.
-import { stat } from 'node:fs/promises';
+import { open, stat } from 'node:fs/promises';
 import { fromArrayBuffer, fromFile, getDecoder, type GeoTIFF, type GeoTIFFImage, type TypedArray } from 'geotiff';
 import { inspectTiff } from './tiff-structure.ts';
 import { BoundedInflateDecoder, BoundedLzwDecoder, BoundedPackBitsDecoder } from './tiff-decoders.ts';
@@ -96,6 +96,8 @@ const OTHER_COMPRESSION_NAMES: Record<number, string> = {
 };
 
 const MAX_CACHE_BLOCK_BYTES = 4 * 1024 * 1024;
+/** Sample formats whose every value Float32 represents exactly (so a converted sample equals NoData iff the raw one did). */
+const EXACT_IN_FLOAT32: ReadonlySet<SampleFormat> = new Set(['uint8', 'int8', 'uint16', 'int16', 'float32']);
 /** Decoded tile/strip bytes one window read holds at a time (at least one block). */
 const WINDOW_DECODE_BYTES = 16 * 1024 * 1024;
 
@@ -146,7 +148,7 @@ export async function openGeoRaster(source: string | ArrayBuffer): Promise<GeoRa
     throw new RasterError('not_tiff', `not a TIFF file (${message.split('\n')[0]})`);
   }
   try {
-    return await describe(tiff, fileBytes, structure.images.length);
+    return await describe(tiff, fileBytes, structure.images.length, typeof source === 'string' ? source : null);
   } catch (error) {
     await closeQuietly(tiff);
     if (error instanceof RasterError) throw error;
@@ -165,7 +167,7 @@ async function closeQuietly(tiff: GeoTIFF): Promise<void> {
   }
 }
 
-async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number): Promise<GeoRaster> {
+async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number, path: string | null): Promise<GeoRaster> {
   const image = await tiff.getImage(0);
   const directory = image.getFileDirectory();
   const widthPx = image.getWidth();
@@ -275,9 +277,15 @@ async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number): P
     const ty0 = Math.floor(y0 / tileH);
     const ty1 = Math.floor((y0 + h - 1) / tileH);
     const out = new Float32Array(w * h);
-    const copyBlock = (tx: number, ty: number, data: ArrayBuffer) => {
+    // Samples that Float32 holds exactly, unscaled: blocks are copied row by row with TypedArray#set and
+    // NoData is then found with indexOf (both native, same values as the per-sample loop below).
+    const copyNative = scale === 1 && offset === 0 && EXACT_IN_FLOAT32.has(sampleFormat);
+    const finish = (): Float32Array => {
+      if (copyNative && nd !== null) for (let i = out.indexOf(nd); i !== -1; i = out.indexOf(nd, i + 1)) out[i] = Number.NaN;
+      return out;
+    };
+    const copyBlock = (tx: number, ty: number, values: TypedArray) => {
       const blockH = img.getBlockHeight(ty);
-      const values = typedView(sampleFormat, data, tileW * blockH);
       // Part of this block inside the window, in block coordinates.
       const bx0 = Math.max(0, x0 - tx * tileW);
       const bx1 = Math.min(tileW, x0 + w - tx * tileW);
@@ -287,7 +295,10 @@ async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number): P
         let src = by * tileW + bx0;
         let dst = (ty * tileH + by - y0) * w + tx * tileW + bx0 - x0;
         const end = src + (bx1 - bx0);
-        if (nd === null) {
+        if (copyNative) {
+          // Typed-array copy (converts natively; a cold process would run a JavaScript loop interpreted).
+          out.set(values.subarray(src, end), dst);
+        } else if (nd === null) {
           // No NoData, or NoData NaN (NaN stays NaN through scale/offset).
           if (scale === 1 && offset === 0) for (; src < end; src++, dst++) out[dst] = values[src];
           else for (; src < end; src++, dst++) out[dst] = values[src] * scale + offset;
@@ -300,10 +311,11 @@ async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number): P
         }
       }
     };
-    // Blocks are decoded a few at a time and copied at once, so a window over a stripped raster (every
-    // strip is the full width) holds at most WINDOW_DECODE_BYTES of decoded blocks, not all of them.
     const across = tx1 - tx0 + 1;
     const count = across * (ty1 - ty0 + 1);
+    if (path !== null && (await readUncompressed(img, path, tx0, ty0, across, count, copyBlock))) return finish();
+    // Blocks are decoded a few at a time and copied at once, so a window over a stripped raster (every
+    // strip is the full width) holds at most WINDOW_DECODE_BYTES of decoded blocks, not all of them.
     const lanes = Math.max(1, Math.min(16, count, Math.floor(WINDOW_DECODE_BYTES / (tileW * tileH * bytesPerSample))));
     let next = 0;
     const lane = async () => {
@@ -312,11 +324,74 @@ async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number): P
         const tx = tx0 + (index % across);
         const ty = ty0 + Math.floor(index / across);
         const tile = await img.getTileOrStrip(tx, ty, 0, decoder as never);
-        copyBlock(tx, ty, tile.data as ArrayBuffer);
+        const data = tile.data as ArrayBuffer;
+        copyBlock(tx, ty, typedView(sampleFormat, data, 0, tileW * img.getBlockHeight(ty)));
       }
     };
     await Promise.all(Array.from({ length: lanes }, lane));
-    return out;
+    return finish();
+  };
+
+  // Uncompressed blocks of a file need no decoder: the window's blocks are read straight from the file,
+  // neighbours (a writer puts them one after another) in one read of at most WINDOW_DECODE_BYTES, and
+  // copied from views of that buffer (one read instead of geotiff's fetch of 64 KiB pieces per block,
+  // each assembled into a fresh buffer). Returns false, having read nothing, when a block is sparse
+  // (byte count 0), shorter than its pixels or beyond the end of the file: the decoder path handles
+  // (or refuses) those exactly as before.
+  const readUncompressed = async (
+    img: GeoTIFFImage,
+    file: string,
+    tx0: number,
+    ty0: number,
+    across: number,
+    count: number,
+    copyBlock: (tx: number, ty: number, values: TypedArray) => void,
+  ): Promise<boolean> => {
+    const dir = img.getFileDirectory();
+    if (Number(dir.getValue('Compression' as never) ?? 1) !== 1) return false;
+    const tileW = img.getTileWidth();
+    const perRow = Math.ceil(img.getWidth() / tileW);
+    const offsetsTag = img.isTiled ? 'TileOffsets' : 'StripOffsets';
+    const countsTag = img.isTiled ? 'TileByteCounts' : 'StripByteCounts';
+    const blocks: { tx: number; ty: number; offset: number; bytes: number }[] = [];
+    for (let k = 0; k < count; k++) {
+      const tx = tx0 + (k % across);
+      const ty = ty0 + Math.floor(k / across);
+      const index = ty * perRow + tx;
+      const offset = Number(await dir.loadValueIndexed(offsetsTag, index));
+      const stored = Number(await dir.loadValueIndexed(countsTag, index));
+      const bytes = tileW * img.getBlockHeight(ty) * bytesPerSample;
+      if (!(stored >= bytes && offset >= 0 && offset + bytes <= fileBytes)) return false;
+      blocks.push({ tx, ty, offset, bytes });
+    }
+    blocks.sort((a, b) => a.offset - b.offset);
+    const handle = await open(file, 'r');
+    try {
+      for (let first = 0; first < blocks.length; ) {
+        // A run of blocks whose span stays within the cap and has no gap above 1 MiB (always at least one block).
+        const start = blocks[first].offset;
+        let last = first;
+        while (
+          last + 1 < blocks.length &&
+          blocks[last + 1].offset + blocks[last + 1].bytes - start <= WINDOW_DECODE_BYTES &&
+          blocks[last + 1].offset - (blocks[last].offset + blocks[last].bytes) <= 1024 * 1024
+        ) {
+          last++;
+        }
+        const span = Math.max(...blocks.slice(first, last + 1).map((b) => b.offset + b.bytes)) - start;
+        const buffer = new ArrayBuffer(span);
+        const { bytesRead } = await handle.read(new Uint8Array(buffer), 0, span, start);
+        if (bytesRead < span) throw new RasterError('corrupt', `the file ended ${span - bytesRead} bytes early inside a ${img.isTiled ? 'tile' : 'strip'}`);
+        for (let k = first; k <= last; k++) {
+          const block = blocks[k];
+          copyBlock(block.tx, block.ty, typedView(sampleFormat, buffer, block.offset - start, block.bytes / bytesPerSample));
+        }
+        first = last + 1;
+      }
+    } finally {
+      await handle.close();
+    }
+    return true;
   };
 
   const blockCellsTouched = (x0: number, y0: number, w: number, h: number, level = 0): number => {
@@ -461,19 +536,27 @@ async function makeDecoder(img: GeoTIFFImage): Promise<Decoder> {
   return getDecoder(compression, parameters);
 }
 
-/** A typed view of `count` decoded samples (little-endian, as the fast path requires). */
-function typedView(format: SampleFormat, buffer: ArrayBuffer, count: number): TypedArray {
+/**
+ * A typed view of `count` samples (little-endian, as the fast path requires) starting `byteOffset`
+ * bytes into `buffer`; a block at an offset that is not a multiple of the sample size (TIFF does not
+ * require alignment) is copied out first.
+ */
+function typedView(format: SampleFormat, buffer: ArrayBuffer, byteOffset: number, count: number): TypedArray {
   const bytes = { uint8: 1, int8: 1, uint16: 2, int16: 2, uint32: 4, int32: 4, float32: 4, float64: 8 }[format];
-  if (buffer.byteLength < count * bytes) throw new RasterError('corrupt', `a tile/strip decoded to ${buffer.byteLength} bytes, ${count * bytes} expected`);
+  if (buffer.byteLength - byteOffset < count * bytes) throw new RasterError('corrupt', `a tile/strip decoded to ${buffer.byteLength - byteOffset} bytes, ${count * bytes} expected`);
+  if (byteOffset % bytes !== 0) {
+    buffer = buffer.slice(byteOffset, byteOffset + count * bytes);
+    byteOffset = 0;
+  }
   switch (format) {
-    case 'uint8': return new Uint8Array(buffer, 0, count);
-    case 'int8': return new Int8Array(buffer, 0, count);
-    case 'uint16': return new Uint16Array(buffer, 0, count);
-    case 'int16': return new Int16Array(buffer, 0, count);
-    case 'uint32': return new Uint32Array(buffer, 0, count);
-    case 'int32': return new Int32Array(buffer, 0, count);
-    case 'float32': return new Float32Array(buffer, 0, count);
-    case 'float64': return new Float64Array(buffer, 0, count);
+    case 'uint8': return new Uint8Array(buffer, byteOffset, count);
+    case 'int8': return new Int8Array(buffer, byteOffset, count);
+    case 'uint16': return new Uint16Array(buffer, byteOffset, count);
+    case 'int16': return new Int16Array(buffer, byteOffset, count);
+    case 'uint32': return new Uint32Array(buffer, byteOffset, count);
+    case 'int32': return new Int32Array(buffer, byteOffset, count);
+    case 'float32': return new Float32Array(buffer, byteOffset, count);
+    case 'float64': return new Float64Array(buffer, byteOffset, count);
   }
 }
 
