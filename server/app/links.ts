@@ -17,7 +17,7 @@ import { describeSpread, planningSpread, type AppliedCalibration, type PlanningS
 import type { LinkStatus } from '../planning/status.ts';
 import { LinkEngine, LinkInputError, type KitOverrides, type NodeLinksOutcome, type PlanContext } from '../jobs/link-engine.ts';
 import { AppError } from './errors.ts';
-import { loadCatalog, recommendForNode, type RecommendRequest } from './recommend.ts';
+import { loadCatalog, recommendForNode, type PricedKitOption, type RecommendRequest } from './recommend.ts';
 import { nodeCautions, visitSheet } from './visit-sheet.ts';
 import { CAUTIONS_FOOTER } from '../planning/cautions.ts';
 
@@ -216,6 +216,12 @@ export async function nodeVisitSheet(engine: LinkEngine, plan: PlanRow, nodeId: 
  * Starts the fleet kit recommendation as a job (its row and audit entry first, then the
  * work in the background). Returns the job and the promise of the work.
  */
+/** What a finished fleet recommendation job stores as its summary (and GET …/recommend/:jobId answers as result). */
+export interface FleetRecommendationSummary {
+  counts: { meetsTarget: number; noOption: number; alreadyServed: number };
+  nodes: Array<{ nodeId: string; nodeName: string; status: LinkStatus; anyMeetsTarget: boolean; best: PricedKitOption | null; advice: string[] }>;
+}
+
 /** Where a background job reports what went wrong (the API passes its request logger). */
 export interface JobLog {
   error(detail: Record<string, unknown>, message: string): void;
@@ -235,7 +241,7 @@ async function runFleetRecommendation(engine: LinkEngine, ctx: PlanContext, jobI
   try {
     const catalog = await loadCatalog(db, ctx.teamId);
     const outcomes = await engine.fleet(ctx);
-    const nodes: unknown[] = [];
+    const nodes: FleetRecommendationSummary['nodes'] = [];
     const counts = { meetsTarget: 0, noOption: 0, alreadyServed: 0 };
     let lastWrite = 0;
     for (let i = 0; i < outcomes.length; i++) {
@@ -251,7 +257,7 @@ async function runFleetRecommendation(engine: LinkEngine, ctx: PlanContext, jobI
         await updateKitJob(db, jobId, { progress: Math.min(progress, 0.999) });
       }
     }
-    await updateKitJob(db, jobId, { status: 'done', progress: 1, summary: { counts, nodes } });
+    await updateKitJob(db, jobId, { status: 'done', progress: 1, summary: { counts, nodes } satisfies FleetRecommendationSummary });
   } catch (error) {
     const known = error instanceof AppError || error instanceof PlanSettingsError || error instanceof InvalidPatternError;
     // The cause goes to the log with the job id, so "see the server log" leads somewhere.
