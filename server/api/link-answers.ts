@@ -273,10 +273,10 @@ export const visitSheetResponse = z.object({
   warnings: z.array(z.string()),
 });
 
-/** POST /plans/:planId/recommend (202): the fleet recommendation job just started. */
+/** POST /plans/:planId/recommend (202): the fleet recommendation run just started. */
 export const fleetRecommendationStarted = z.object({ id: z.string(), status: z.literal('running'), progress: z.number(), poll: z.string().describe('URL to poll for progress and the result') });
 
-/** GET /plans/:planId/recommend/:jobId: its progress, and the result once done (startFleetRecommendation in server/app/links.ts). */
+/** GET /plans/:planId/recommend/:runId: its progress, and the result once done (startFleetRecommendation in server/app/links.ts). */
 export const fleetRecommendationJob = z.object({
   id: z.string(),
   status: z.string().describe('running, done or failed'),
@@ -292,7 +292,7 @@ export const fleetRecommendationJob = z.object({
       ),
     })
     .nullable()
-    .describe('null until the job is done'),
+    .describe('null until the run is done'),
 });
 
 const rowProblem = z.object({ row: z.number().int(), field: z.string(), message: z.string() });

@@ -47,7 +47,7 @@ export interface CoverageJobParams {
   targetHeightM: number;
   /** A fixed SF for every cell, or null: the node SF rule (fastest allowed SF meeting the target). */
   sf: number | null;
-  requiredMarginDb: number;
+  targetMarginDb: number;
   frequencyMhz: number;
   /** Median effective earth-radius factor k50 from the plan's ΔN (P.1812-8 Eq. (5)), as links use. */
   kFactor: number;
@@ -85,6 +85,24 @@ function unionOf(placements: WindowPlacement[]): WindowPlacement {
 }
 
 /**
+ * A run's stored params in today's names. Runs stored before the rename kept the target margin
+ * as `requiredMarginDb` (one concept, one name: targetMarginDb, as plans and links call it).
+ */
+export function storedCoverageParams(stored: unknown): Partial<CoverageJobParams> {
+  const params = { ...((stored ?? {}) as Partial<CoverageJobParams> & { requiredMarginDb?: number }) };
+  if (params.targetMarginDb === undefined && params.requiredMarginDb !== undefined) params.targetMarginDb = params.requiredMarginDb;
+  delete params.requiredMarginDb;
+  return params;
+}
+
+/** A run's stored summary in today's names (older summaries said `requiredMarginDb`, like their params). */
+export function storedCoverageSummary(stored: unknown): Record<string, unknown> | null {
+  if (stored === null || typeof stored !== 'object') return null;
+  const { requiredMarginDb, ...summary } = stored as Record<string, unknown>;
+  return summary.targetMarginDb === undefined && requiredMarginDb !== undefined ? { ...summary, targetMarginDb: requiredMarginDb } : summary;
+}
+
+/**
  * Runs the job for `runId`. Returns the final status it left the row in,
  * or 'skipped' when the row was already finished (a duplicate delivery).
  */
@@ -92,7 +110,7 @@ export async function executeCoverageRun(db: Database, config: Config, runId: st
   const row = await findCoverageRunById(db, runId);
   if (!row) return 'skipped';
   if (!(await claimCoverageRun(db, runId, options.workerId))) return 'skipped';
-  const params = row.params as unknown as CoverageJobParams;
+  const params = storedCoverageParams(row.params) as CoverageJobParams;
   const controller = new AbortController();
   let lastReport = 0;
   let reporting: Promise<void> = Promise.resolve();
@@ -212,7 +230,7 @@ export async function executeCoverageRun(db: Database, config: Config, runId: st
       await reporting;
       if (controller.signal.aborted) throw new RunCancelledError();
     }
-    const composite = buildComposite(union.widthPx, union.heightPx, parts, params.requiredMarginDb);
+    const composite = buildComposite(union.widthPx, union.heightPx, parts, params.targetMarginDb);
     const nodes = params.nodes.map((node) => {
       const p = raster!.lonLatToPixel(node.lon, node.lat);
       const col = p.x - union.x0;
@@ -224,7 +242,7 @@ export async function executeCoverageRun(db: Database, config: Config, runId: st
       const p = nodes[k];
       return p.col === null || p.row === null || !inside[Math.floor(p.row) * union.widthPx + Math.floor(p.col)];
     });
-    const summary = summarise(composite, inside, gatewayCount, params.requiredMarginDb, cellArea, nodes);
+    const summary = summarise(composite, inside, gatewayCount, params.targetMarginDb, cellArea, nodes);
     const summaryJson = {
       ...summary,
       gateways: summary.gateways.map((entry) => ({ ...entry, gatewayId: params.gateways[entry.index].id, name: params.gateways[entry.index].name })),
@@ -246,7 +264,7 @@ export async function executeCoverageRun(db: Database, config: Config, runId: st
         allowedSfs: params.budget.radio.allowedSfs,
         kFactor: params.kFactor,
       },
-      requiredMarginDb: params.requiredMarginDb,
+      targetMarginDb: params.targetMarginDb,
       clutter: clutter
         ? {
             layerId: clutter.layerId,

@@ -248,7 +248,7 @@ describe('fleet table, link check, recommendation, visit sheet', () => {
     expect(bad.body.error.message).toMatch(/mastHeightsM/);
   });
 
-  it('fleet recommendation runs as a job with progress and a result', async () => {
+  it('fleet recommendation runs as a run with progress and a result', async () => {
     const viewer = await request(t.app.server).post(`/api/v1/plans/${planId}/recommend`).set(bearer(t.tokens.viewer)).send({});
     expect(viewer.status).toBe(403);
     const start = await request(t.app.server).post(`/api/v1/plans/${planId}/recommend`).set(bearer(t.tokens.planner)).send({ targetMarginDb: 5 });

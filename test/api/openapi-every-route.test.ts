@@ -68,7 +68,7 @@ const operations = () =>
 it('every JSON operation declares a 2xx application/json response schema that describes its answer', () => {
   const all = operations();
   // The routes this contract was written for are among them (a path typo would otherwise pass).
-  for (const must of ['GET /plans/{planId}/nodes/{nodeId}/links', 'GET /plans/{planId}/nodes/{nodeId}/check', 'POST /plans/{planId}/nodes/{nodeId}/recommend', 'GET /plans/{planId}/nodes/{nodeId}/visit-sheet', 'GET /plans/{planId}/recommend/{jobId}', 'POST /plans/{planId}/readings/import']) {
+  for (const must of ['GET /plans/{planId}/nodes/{nodeId}/links', 'GET /plans/{planId}/nodes/{nodeId}/check', 'POST /plans/{planId}/nodes/{nodeId}/recommend', 'GET /plans/{planId}/nodes/{nodeId}/visit-sheet', 'GET /plans/{planId}/recommend/{runId}', 'POST /plans/{planId}/readings/import']) {
     expect(all.map((o) => o.key)).toContain(must);
   }
   expect(all.length).toBeGreaterThan(90);

@@ -3203,7 +3203,6 @@ export interface paths {
                                 /** @description 0 … 1 */
                                 progress: number;
                                 radiusKm: number | null;
-                                requiredMarginDb: number | null;
                                 sf: number | null;
                                 startedAt: (string) | null;
                                 /** @enum {string} */
@@ -3254,7 +3253,6 @@ export interface paths {
                                         unserved: number;
                                     };
                                     radiusKm?: number;
-                                    requiredMarginDb?: number;
                                     served: {
                                         areaKm2: number;
                                         cells: number;
@@ -3262,6 +3260,7 @@ export interface paths {
                                         share: number;
                                     };
                                     sf?: number | null;
+                                    targetMarginDb?: number;
                                     terrain?: {
                                         /** @description 0 … 1: the smallest share of a gateway disc that had terrain */
                                         discShare: number;
@@ -3282,6 +3281,7 @@ export interface paths {
                                         share: number;
                                     };
                                 } | null;
+                                targetMarginDb: number | null;
                             }[];
                             next: string | null;
                             total: number;
@@ -3318,8 +3318,8 @@ export interface paths {
                             txPowerDbm?: number;
                         };
                         radiusKm: number;
-                        requiredMarginDb?: number;
                         sf?: number;
+                        targetMarginDb?: number;
                         useClutter?: boolean;
                     };
                 };
@@ -3360,7 +3360,6 @@ export interface paths {
                             /** @description 0 … 1 */
                             progress: number;
                             radiusKm: number | null;
-                            requiredMarginDb: number | null;
                             sf: number | null;
                             startedAt: (string) | null;
                             /** @enum {string} */
@@ -3411,7 +3410,6 @@ export interface paths {
                                     unserved: number;
                                 };
                                 radiusKm?: number;
-                                requiredMarginDb?: number;
                                 served: {
                                     areaKm2: number;
                                     cells: number;
@@ -3419,6 +3417,7 @@ export interface paths {
                                     share: number;
                                 };
                                 sf?: number | null;
+                                targetMarginDb?: number;
                                 terrain?: {
                                     /** @description 0 … 1: the smallest share of a gateway disc that had terrain */
                                     discShare: number;
@@ -3439,6 +3438,7 @@ export interface paths {
                                     share: number;
                                 };
                             } | null;
+                            targetMarginDb: number | null;
                         };
                     };
                 };
@@ -3507,7 +3507,6 @@ export interface paths {
                             /** @description 0 … 1 */
                             progress: number;
                             radiusKm: number | null;
-                            requiredMarginDb: number | null;
                             sf: number | null;
                             startedAt: (string) | null;
                             /** @enum {string} */
@@ -3558,7 +3557,6 @@ export interface paths {
                                     unserved: number;
                                 };
                                 radiusKm?: number;
-                                requiredMarginDb?: number;
                                 served: {
                                     areaKm2: number;
                                     cells: number;
@@ -3566,6 +3564,7 @@ export interface paths {
                                     share: number;
                                 };
                                 sf?: number | null;
+                                targetMarginDb?: number;
                                 terrain?: {
                                     /** @description 0 … 1: the smallest share of a gateway disc that had terrain */
                                     discShare: number;
@@ -3586,6 +3585,7 @@ export interface paths {
                                     share: number;
                                 };
                             } | null;
+                            targetMarginDb: number | null;
                         };
                     };
                 };
@@ -3656,7 +3656,6 @@ export interface paths {
                             /** @description 0 … 1 */
                             progress: number;
                             radiusKm: number | null;
-                            requiredMarginDb: number | null;
                             sf: number | null;
                             startedAt: (string) | null;
                             /** @enum {string} */
@@ -3707,7 +3706,6 @@ export interface paths {
                                     unserved: number;
                                 };
                                 radiusKm?: number;
-                                requiredMarginDb?: number;
                                 served: {
                                     areaKm2: number;
                                     cells: number;
@@ -3715,6 +3713,7 @@ export interface paths {
                                     share: number;
                                 };
                                 sf?: number | null;
+                                targetMarginDb?: number;
                                 terrain?: {
                                     /** @description 0 … 1: the smallest share of a gateway disc that had terrain */
                                     discShare: number;
@@ -3735,6 +3734,7 @@ export interface paths {
                                     share: number;
                                 };
                             } | null;
+                            targetMarginDb: number | null;
                         };
                     };
                 };
@@ -6784,7 +6784,7 @@ export interface paths {
         };
         get?: never;
         put?: never;
-        /** Kit recommendation for the whole fleet as a job; poll GET /plans/:planId/recommend/:jobId for progress and the result */
+        /** Kit recommendation for the whole fleet as a run; poll GET /plans/:planId/recommend/:runId for progress and the result */
         post: {
             parameters: {
                 query?: never;
@@ -6847,7 +6847,7 @@ export interface paths {
         patch?: never;
         trace?: never;
     };
-    "/api/v1/plans/{planId}/recommend/{jobId}": {
+    "/api/v1/plans/{planId}/recommend/{runId}": {
         parameters: {
             query?: never;
             header?: never;
@@ -6860,8 +6860,8 @@ export interface paths {
                 query?: never;
                 header?: never;
                 path: {
-                    jobId: string;
                     planId: string;
+                    runId: string;
                 };
                 cookie?: never;
             };
@@ -6896,7 +6896,7 @@ export interface paths {
                             id: string;
                             /** @description 0 … 1 */
                             progress: number;
-                            /** @description null until the job is done */
+                            /** @description null until the run is done */
                             result: {
                                 counts: {
                                     alreadyServed: number;
