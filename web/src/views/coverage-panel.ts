@@ -145,7 +145,7 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
     field('Node environment', environment),
     field('Payload (bytes)', payload, 'Default: the largest payload of the plan’s nodes'),
     field('Spreading factor', sf),
-    field('Target margin (dB)', margin, 'Cells at or above it count as served'),
+    field('Target margin for this run (dB)', margin, 'Cells at or above it count as served (starts at the plan target margin)'),
     canEdit() ? startButton : h('p', { class: 'muted small' }, 'Only planners start coverage runs; finished runs can be shown.'),
   );
   panel.append(form, runBox, overlayBox);
@@ -340,7 +340,7 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
       rangeProblem('Node antenna height (m)', rxHeight),
       rangeProblem('Node transmit power (dBm)', txPower),
       rangeProblem('Feedline length (m)', feedlineLength),
-      rangeProblem('Target margin (dB)', margin),
+      rangeProblem('Target margin for this run (dB)', margin),
       rangeProblem('Payload (bytes)', payload),
     ].filter((p): p is string => p !== null);
     if (problems.length > 0) {
