@@ -165,6 +165,163 @@ async function closeQuietly(tiff: GeoTIFF): Promise<void> {
   }
 }
 
+/** How stored samples become metres: NoData (GDAL_NODATA; null = none, NaN = NaN) and GDAL's scale/offset. */
+interface SampleConversion {
+  sampleFormat: SampleFormat;
+  noData: number | null;
+  scale: number;
+  offset: number;
+}
+
+/** The GDAL_NODATA tag and the GDAL_METADATA scale/offset of the first image. */
+async function readSampleConversion(image: GeoTIFFImage, directory: Directory): Promise<Omit<SampleConversion, 'sampleFormat'>> {
+  const noDataText = directory.hasTag('GDAL_NODATA') ? String(directory.getValue('GDAL_NODATA')).replace(/\0+$/, '').trim() : '';
+  const noData = noDataText === '' ? null : noDataText.toLowerCase() === 'nan' ? Number.NaN : Number(noDataText);
+  if (noData !== null && Number.isNaN(noData) && noDataText.toLowerCase() !== 'nan') throw new RasterError('corrupt', `GDAL_NODATA tag "${noDataText}" is not a number`);
+  let scale = 1;
+  let offset = 0;
+  const metadata = await image.getGDALMetadata(0);
+  if (metadata) {
+    if (metadata.SCALE !== undefined) scale = Number(metadata.SCALE);
+    if (metadata.OFFSET !== undefined) offset = Number(metadata.OFFSET);
+    if (!Number.isFinite(scale) || !Number.isFinite(offset)) throw new RasterError('corrupt', 'GDAL_METADATA scale/offset is not a number');
+  }
+  return { noData, scale, offset };
+}
+
+/** The reduced-resolution images (overviews) after the first, largest first as stored; masks are skipped. */
+async function readOverviews(tiff: GeoTIFF, imageCount: number, widthPx: number): Promise<{ overviews: OverviewInfo[]; overviewImages: GeoTIFFImage[] }> {
+  const overviews: OverviewInfo[] = [];
+  const overviewImages: GeoTIFFImage[] = [];
+  for (let i = 1; i < imageCount; i++) {
+    const candidate = await tiff.getImage(i);
+    const subfileType = tagNumbers(candidate.getFileDirectory(), 'NewSubfileType')?.[0] ?? 0;
+    // Bit 0: reduced-resolution version; bit 2: transparency mask (skipped).
+    if ((subfileType & 1) === 1 && (subfileType & 4) === 0 && candidate.getWidth() < widthPx) {
+      overviews.push({ widthPx: candidate.getWidth(), heightPx: candidate.getHeight(), factor: widthPx / candidate.getWidth() });
+      overviewImages.push(candidate);
+    }
+  }
+  return { overviews, overviewImages };
+}
+
+/** NoData as the stored samples compare it: in the sample's own precision (a Float32 NoData such as -3.4028235e38 is not exactly the double); null = none or NaN (NaN stays NaN through scale/offset). */
+function comparableNoData({ noData, sampleFormat }: SampleConversion): number | null {
+  return noData === null || Number.isNaN(noData) ? null : sampleFormat === 'float32' ? Math.fround(noData) : noData;
+}
+
+/** Stored samples → metres (scale, offset), NoData → NaN. */
+function samplesToFloat(raw: TypedArray, conversion: SampleConversion): Float32Array {
+  const { scale, offset } = conversion;
+  const nd = comparableNoData(conversion);
+  const out = new Float32Array(raw.length);
+  const n = raw.length;
+  if (nd === null) {
+    for (let i = 0; i < n; i++) out[i] = raw[i] * scale + offset;
+  } else {
+    for (let i = 0; i < n; i++) {
+      const v = raw[i];
+      out[i] = v === nd ? Number.NaN : v * scale + offset;
+    }
+  }
+  return out;
+}
+
+/**
+ * The fast window read: decodes each tile/strip the window touches once and converts it row by row
+ * straight into the Float32 window (see the fast-path note in describe).
+ */
+async function readBlocksIntoWindow(img: GeoTIFFImage, decoder: Decoder, window: { x0: number; y0: number; w: number; h: number }, conversion: SampleConversion, bytesPerSample: number): Promise<Float32Array> {
+  const { x0, y0, w, h } = window;
+  const { sampleFormat, scale, offset } = conversion;
+  const nd = comparableNoData(conversion);
+  const tileW = img.getTileWidth();
+  const tileH = img.getTileHeight();
+  const tx0 = Math.floor(x0 / tileW);
+  const tx1 = Math.floor((x0 + w - 1) / tileW);
+  const ty0 = Math.floor(y0 / tileH);
+  const ty1 = Math.floor((y0 + h - 1) / tileH);
+  const out = new Float32Array(w * h);
+  const copyBlock = (tx: number, ty: number, data: ArrayBuffer) => {
+    const blockH = img.getBlockHeight(ty);
+    const values = typedView(sampleFormat, data, tileW * blockH);
+    // Part of this block inside the window, in block coordinates.
+    const bx0 = Math.max(0, x0 - tx * tileW);
+    const bx1 = Math.min(tileW, x0 + w - tx * tileW);
+    const by0 = Math.max(0, y0 - ty * tileH);
+    const by1 = Math.min(blockH, y0 + h - ty * tileH);
+    for (let by = by0; by < by1; by++) {
+      let src = by * tileW + bx0;
+      let dst = (ty * tileH + by - y0) * w + tx * tileW + bx0 - x0;
+      const end = src + (bx1 - bx0);
+      if (nd === null) {
+        // No NoData, or NoData NaN (NaN stays NaN through scale/offset).
+        if (scale === 1 && offset === 0) for (; src < end; src++, dst++) out[dst] = values[src];
+        else for (; src < end; src++, dst++) out[dst] = values[src] * scale + offset;
+      } else {
+        // Compared in the sample's own precision (a Float32 NoData such as -3.4028235e38 is not exactly the double).
+        for (; src < end; src++, dst++) {
+          const v = values[src];
+          out[dst] = v === nd ? Number.NaN : v * scale + offset;
+        }
+      }
+    }
+  };
+  // Blocks are decoded a few at a time and copied at once, so a window over a stripped raster (every
+  // strip is the full width) holds at most WINDOW_DECODE_BYTES of decoded blocks, not all of them.
+  const across = tx1 - tx0 + 1;
+  const count = across * (ty1 - ty0 + 1);
+  const lanes = Math.max(1, Math.min(16, count, Math.floor(WINDOW_DECODE_BYTES / (tileW * tileH * bytesPerSample))));
+  let next = 0;
+  const lane = async () => {
+    while (next < count) {
+      const index = next++;
+      const tx = tx0 + (index % across);
+      const ty = ty0 + Math.floor(index / across);
+      const tile = await img.getTileOrStrip(tx, ty, 0, decoder as never);
+      copyBlock(tx, ty, tile.data as ArrayBuffer);
+    }
+  };
+  await Promise.all(Array.from({ length: lanes }, lane));
+  return out;
+}
+
+/** Every tile/strip table of every image is consistent, each block's byte count is plausible and each block lies inside the file. */
+async function verifyImageBlockExtents(images: GeoTIFFImage[], fileBytes: number): Promise<void> {
+  for (let level = 0; level < images.length; level++) {
+    const dir = images[level].getFileDirectory();
+    const tiledImage = dir.hasTag('TileOffsets');
+    let offsets: ArrayLike<number | bigint> | undefined;
+    let counts: ArrayLike<number | bigint> | undefined;
+    try {
+      offsets = (await dir.loadValue(tiledImage ? 'TileOffsets' : 'StripOffsets')) as ArrayLike<number | bigint> | undefined;
+      counts = (await dir.loadValue(tiledImage ? 'TileByteCounts' : 'StripByteCounts')) as ArrayLike<number | bigint> | undefined;
+    } catch (error) {
+      throw new RasterError('corrupt', `the ${tiledImage ? 'tile' : 'strip'} table of image ${level} cannot be read (${error instanceof Error ? error.message : String(error)})`);
+    }
+    if (!offsets || !counts || offsets.length !== counts.length) throw new RasterError('corrupt', `image ${level} has no consistent ${tiledImage ? 'tile' : 'strip'} offset/byte-count tables`);
+    const img = images[level];
+    const expected = tiledImage
+      ? Math.ceil(img.getWidth() / img.getTileWidth()) * Math.ceil(img.getHeight() / img.getTileHeight())
+      : Math.ceil(img.getHeight() / img.getTileHeight());
+    if (offsets.length < expected) throw new RasterError('corrupt', `image ${level} lists ${offsets.length} ${tiledImage ? 'tiles' : 'strips'}, its size needs ${expected}`);
+    // A compressed block is never much larger than its decoded size (LZW at worst ~1.5×); a larger
+    // byte count is a lie that would make one read pull that many bytes from the file.
+    const img0 = images[level];
+    const bitsPerPixel = dir.getValue('PlanarConfiguration' as never) === 2 ? img0.getBitsPerSample(0) : img0.getBitsPerSample(0) * img0.getSamplesPerPixel();
+    const maxStored = 2 * Math.ceil((img0.getTileWidth() * bitsPerPixel) / 8) * img0.getTileHeight() + 65_536;
+    for (let i = 0; i < offsets.length; i++) {
+      if (Number(counts[i]) > maxStored) {
+        throw new RasterError('corrupt', `${tiledImage ? 'tile' : 'strip'} ${i} of image ${level} claims ${Number(counts[i])} stored bytes, more than its pixels could need`);
+      }
+      const end = Number(offsets[i]) + Number(counts[i]);
+      if (!(end <= fileBytes)) {
+        throw new RasterError('corrupt', `the file is truncated or corrupt: ${tiledImage ? 'tile' : 'strip'} ${i} of image ${level} ends at byte ${end}, the file has ${fileBytes}`);
+      }
+    }
+  }
+}
+
 async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number): Promise<GeoRaster> {
   const image = await tiff.getImage(0);
   const directory = image.getFileDirectory();
@@ -186,33 +343,12 @@ async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number): P
   const crsInfo = readCrs(image);
   const transform = transformForCrs(crsInfo);
 
-  const noDataText = directory.hasTag('GDAL_NODATA') ? String(directory.getValue('GDAL_NODATA')).replace(/\0+$/, '').trim() : '';
-  const noData = noDataText === '' ? null : noDataText.toLowerCase() === 'nan' ? Number.NaN : Number(noDataText);
-  if (noData !== null && Number.isNaN(noData) && noDataText.toLowerCase() !== 'nan') throw new RasterError('corrupt', `GDAL_NODATA tag "${noDataText}" is not a number`);
-
-  let scale = 1;
-  let offset = 0;
-  const metadata = await image.getGDALMetadata(0);
-  if (metadata) {
-    if (metadata.SCALE !== undefined) scale = Number(metadata.SCALE);
-    if (metadata.OFFSET !== undefined) offset = Number(metadata.OFFSET);
-    if (!Number.isFinite(scale) || !Number.isFinite(offset)) throw new RasterError('corrupt', 'GDAL_METADATA scale/offset is not a number');
-  }
+  const { noData, scale, offset } = await readSampleConversion(image, directory);
 
   const tiled = image.isTiled;
   const nativeBlock = { widthPx: image.getTileWidth(), heightPx: image.getTileHeight() };
 
-  const overviews: OverviewInfo[] = [];
-  const overviewImages: GeoTIFFImage[] = [];
-  for (let i = 1; i < imageCount; i++) {
-    const candidate = await tiff.getImage(i);
-    const subfileType = tagNumbers(candidate.getFileDirectory(), 'NewSubfileType')?.[0] ?? 0;
-    // Bit 0: reduced-resolution version; bit 2: transparency mask (skipped).
-    if ((subfileType & 1) === 1 && (subfileType & 4) === 0 && candidate.getWidth() < widthPx) {
-      overviews.push({ widthPx: candidate.getWidth(), heightPx: candidate.getHeight(), factor: widthPx / candidate.getWidth() });
-      overviewImages.push(candidate);
-    }
-  }
+  const { overviews, overviewImages } = await readOverviews(tiff, imageCount, widthPx);
 
   const blockLayout = chooseBlockLayout(widthPx, heightPx, tiled, nativeBlock);
   const gt = geoTransformAndType.geoTransform;
@@ -231,23 +367,8 @@ async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number): P
     return result as unknown as TypedArray;
   };
 
-  const toFloat = (raw: TypedArray): Float32Array => {
-    const out = new Float32Array(raw.length);
-    const n = raw.length;
-    if (noData === null) {
-      for (let i = 0; i < n; i++) out[i] = raw[i] * scale + offset;
-    } else if (Number.isNaN(noData)) {
-      for (let i = 0; i < n; i++) out[i] = raw[i] * scale + offset; // NaN stays NaN
-    } else {
-      // Compare in the sample's own precision (a Float32 NoData such as -3.4028235e38 is not exactly the double).
-      const nd = sampleFormat === 'float32' ? Math.fround(noData) : noData;
-      for (let i = 0; i < n; i++) {
-        const v = raw[i];
-        out[i] = v === nd ? Number.NaN : v * scale + offset;
-      }
-    }
-    return out;
-  };
+  const conversion: SampleConversion = { sampleFormat, noData, scale, offset };
+  const toFloat = (raw: TypedArray): Float32Array => samplesToFloat(raw, conversion);
 
   // Fast path (every layout our writer and GDAL's defaults produce: one sample per pixel, whole bytes,
   // little-endian or bytes): decode each tile/strip the window touches once (geotiff's own decoders, with
@@ -265,59 +386,8 @@ async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number): P
     }
     return decoder;
   };
-  const nd = noData === null || Number.isNaN(noData) ? null : sampleFormat === 'float32' ? Math.fround(noData) : noData;
-  const readFast = async (img: GeoTIFFImage, x0: number, y0: number, w: number, h: number): Promise<Float32Array> => {
-    const decoder = await decoderFor(img);
-    const tileW = img.getTileWidth();
-    const tileH = img.getTileHeight();
-    const tx0 = Math.floor(x0 / tileW);
-    const tx1 = Math.floor((x0 + w - 1) / tileW);
-    const ty0 = Math.floor(y0 / tileH);
-    const ty1 = Math.floor((y0 + h - 1) / tileH);
-    const out = new Float32Array(w * h);
-    const copyBlock = (tx: number, ty: number, data: ArrayBuffer) => {
-      const blockH = img.getBlockHeight(ty);
-      const values = typedView(sampleFormat, data, tileW * blockH);
-      // Part of this block inside the window, in block coordinates.
-      const bx0 = Math.max(0, x0 - tx * tileW);
-      const bx1 = Math.min(tileW, x0 + w - tx * tileW);
-      const by0 = Math.max(0, y0 - ty * tileH);
-      const by1 = Math.min(blockH, y0 + h - ty * tileH);
-      for (let by = by0; by < by1; by++) {
-        let src = by * tileW + bx0;
-        let dst = (ty * tileH + by - y0) * w + tx * tileW + bx0 - x0;
-        const end = src + (bx1 - bx0);
-        if (nd === null) {
-          // No NoData, or NoData NaN (NaN stays NaN through scale/offset).
-          if (scale === 1 && offset === 0) for (; src < end; src++, dst++) out[dst] = values[src];
-          else for (; src < end; src++, dst++) out[dst] = values[src] * scale + offset;
-        } else {
-          // Compared in the sample's own precision (a Float32 NoData such as -3.4028235e38 is not exactly the double).
-          for (; src < end; src++, dst++) {
-            const v = values[src];
-            out[dst] = v === nd ? Number.NaN : v * scale + offset;
-          }
-        }
-      }
-    };
-    // Blocks are decoded a few at a time and copied at once, so a window over a stripped raster (every
-    // strip is the full width) holds at most WINDOW_DECODE_BYTES of decoded blocks, not all of them.
-    const across = tx1 - tx0 + 1;
-    const count = across * (ty1 - ty0 + 1);
-    const lanes = Math.max(1, Math.min(16, count, Math.floor(WINDOW_DECODE_BYTES / (tileW * tileH * bytesPerSample))));
-    let next = 0;
-    const lane = async () => {
-      while (next < count) {
-        const index = next++;
-        const tx = tx0 + (index % across);
-        const ty = ty0 + Math.floor(index / across);
-        const tile = await img.getTileOrStrip(tx, ty, 0, decoder as never);
-        copyBlock(tx, ty, tile.data as ArrayBuffer);
-      }
-    };
-    await Promise.all(Array.from({ length: lanes }, lane));
-    return out;
-  };
+  const readFast = async (img: GeoTIFFImage, x0: number, y0: number, w: number, h: number): Promise<Float32Array> =>
+    readBlocksIntoWindow(img, await decoderFor(img), { x0, y0, w, h }, conversion, bytesPerSample);
 
   const blockCellsTouched = (x0: number, y0: number, w: number, h: number, level = 0): number => {
     const img = level === 0 ? image : overviewImages[level - 1];
@@ -374,41 +444,7 @@ async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number): P
     return { lon, lat };
   };
 
-  const verifyBlockExtents = async (): Promise<void> => {
-    const images = [image, ...overviewImages];
-    for (let level = 0; level < images.length; level++) {
-      const dir = images[level].getFileDirectory();
-      const tiledImage = dir.hasTag('TileOffsets');
-      let offsets: ArrayLike<number | bigint> | undefined;
-      let counts: ArrayLike<number | bigint> | undefined;
-      try {
-        offsets = (await dir.loadValue(tiledImage ? 'TileOffsets' : 'StripOffsets')) as ArrayLike<number | bigint> | undefined;
-        counts = (await dir.loadValue(tiledImage ? 'TileByteCounts' : 'StripByteCounts')) as ArrayLike<number | bigint> | undefined;
-      } catch (error) {
-        throw new RasterError('corrupt', `the ${tiledImage ? 'tile' : 'strip'} table of image ${level} cannot be read (${error instanceof Error ? error.message : String(error)})`);
-      }
-      if (!offsets || !counts || offsets.length !== counts.length) throw new RasterError('corrupt', `image ${level} has no consistent ${tiledImage ? 'tile' : 'strip'} offset/byte-count tables`);
-      const img = images[level];
-      const expected = tiledImage
-        ? Math.ceil(img.getWidth() / img.getTileWidth()) * Math.ceil(img.getHeight() / img.getTileHeight())
-        : Math.ceil(img.getHeight() / img.getTileHeight());
-      if (offsets.length < expected) throw new RasterError('corrupt', `image ${level} lists ${offsets.length} ${tiledImage ? 'tiles' : 'strips'}, its size needs ${expected}`);
-      // A compressed block is never much larger than its decoded size (LZW at worst ~1.5×); a larger
-      // byte count is a lie that would make one read pull that many bytes from the file.
-      const img0 = images[level];
-      const bitsPerPixel = dir.getValue('PlanarConfiguration' as never) === 2 ? img0.getBitsPerSample(0) : img0.getBitsPerSample(0) * img0.getSamplesPerPixel();
-      const maxStored = 2 * Math.ceil((img0.getTileWidth() * bitsPerPixel) / 8) * img0.getTileHeight() + 65_536;
-      for (let i = 0; i < offsets.length; i++) {
-        if (Number(counts[i]) > maxStored) {
-          throw new RasterError('corrupt', `${tiledImage ? 'tile' : 'strip'} ${i} of image ${level} claims ${Number(counts[i])} stored bytes, more than its pixels could need`);
-        }
-        const end = Number(offsets[i]) + Number(counts[i]);
-        if (!(end <= fileBytes)) {
-          throw new RasterError('corrupt', `the file is truncated or corrupt: ${tiledImage ? 'tile' : 'strip'} ${i} of image ${level} ends at byte ${end}, the file has ${fileBytes}`);
-        }
-      }
-    }
-  };
+  const verifyBlockExtents = (): Promise<void> => verifyImageBlockExtents([image, ...overviewImages], fileBytes);
 
   return {
     fileBytes,
