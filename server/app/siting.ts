@@ -393,7 +393,9 @@ export async function executeSitingRun(deps: SitingDeps, runId: string): Promise
     let matrix: SitingMatrix;
     let fromCache = false;
     if (cached && cached.candidates.length === built.candidates.length) {
-      matrix = cached;
+      // The hash covers what the links depend on (positions, radio kit), not prices or the mast
+      // choice: the cells are reused, the candidates (cost, mast, names) are this run's own.
+      matrix = { ...cached, candidates: [...built.candidates] };
       fromCache = true;
     } else {
       const onProgress = async (fraction: number) => reportSitingProgress(deps.db, runId, 0.02 + 0.9 * fraction);

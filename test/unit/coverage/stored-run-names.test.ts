@@ -1,7 +1,7 @@
 // Coverage runs stored before the target margin had one name kept it as `requiredMarginDb` in their
 // params and summary; they read back under today's name (targetMarginDb), and new rows are untouched.
 import { expect, it } from 'vitest';
-import { storedCoverageParams, storedCoverageSummary } from '../../../server/jobs/coverage-job.ts';
+import { storedCoverageParams, storedCoverageSummary } from '../../../server/jobs/coverage-params.ts';
 
 it('old params and summaries read their requiredMarginDb as targetMarginDb; new ones pass as they are', () => {
   expect(storedCoverageParams({ mode: 'fast', radiusKm: 2, requiredMarginDb: 7.5 })).toEqual({ mode: 'fast', radiusKm: 2, targetMarginDb: 7.5 });

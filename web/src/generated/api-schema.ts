@@ -194,6 +194,13 @@ export interface paths {
                                     step: number;
                                     unit: string;
                                 };
+                                maxNodesPerGateway: {
+                                    max: number;
+                                    min: number;
+                                    note: string;
+                                    step: number;
+                                    unit: string;
+                                };
                                 nodeAntennaHeightAglM: {
                                     max: number;
                                     min: number;
@@ -3191,7 +3198,17 @@ export interface paths {
                     content: {
                         "application/json": {
                             items: {
+                                /** @description attempts of the run's own job (the parent, for a split run) */
                                 attempts: number;
+                                /** @description a run of several gateways is split into a child job per gateway; null: the run is one job (a single gateway, or a run from before the split) */
+                                children: {
+                                    cancelled: number;
+                                    done: number;
+                                    failed: number;
+                                    /** @description children taken more than once (a worker died or failed) */
+                                    retried: number;
+                                    total: number;
+                                } | null;
                                 createdAt: string;
                                 error: string | null;
                                 finishedAt: (string) | null;
@@ -3200,7 +3217,7 @@ export interface paths {
                                 /** @description fast | full (los from the command line) */
                                 mode: string | null;
                                 planId: string;
-                                /** @description 0 … 1 */
+                                /** @description 0 … 1; a run split into a child per gateway: the cells its children have predicted, summed, over all (95 %), then the composite */
                                 progress: number;
                                 radiusKm: number | null;
                                 sf: number | null;
@@ -3282,6 +3299,8 @@ export interface paths {
                                     };
                                 } | null;
                                 targetMarginDb: number | null;
+                                /** @description ids (host:pid) of the workers that took part: the children's and the last one that held the run's own job */
+                                workers: string[];
                             }[];
                             next: string | null;
                             total: number;
@@ -3348,7 +3367,17 @@ export interface paths {
                     };
                     content: {
                         "application/json": {
+                            /** @description attempts of the run's own job (the parent, for a split run) */
                             attempts: number;
+                            /** @description a run of several gateways is split into a child job per gateway; null: the run is one job (a single gateway, or a run from before the split) */
+                            children: {
+                                cancelled: number;
+                                done: number;
+                                failed: number;
+                                /** @description children taken more than once (a worker died or failed) */
+                                retried: number;
+                                total: number;
+                            } | null;
                             createdAt: string;
                             error: string | null;
                             finishedAt: (string) | null;
@@ -3357,7 +3386,7 @@ export interface paths {
                             /** @description fast | full (los from the command line) */
                             mode: string | null;
                             planId: string;
-                            /** @description 0 … 1 */
+                            /** @description 0 … 1; a run split into a child per gateway: the cells its children have predicted, summed, over all (95 %), then the composite */
                             progress: number;
                             radiusKm: number | null;
                             sf: number | null;
@@ -3439,6 +3468,8 @@ export interface paths {
                                 };
                             } | null;
                             targetMarginDb: number | null;
+                            /** @description ids (host:pid) of the workers that took part: the children's and the last one that held the run's own job */
+                            workers: string[];
                         };
                     };
                 };
@@ -3495,7 +3526,17 @@ export interface paths {
                     };
                     content: {
                         "application/json": {
+                            /** @description attempts of the run's own job (the parent, for a split run) */
                             attempts: number;
+                            /** @description a run of several gateways is split into a child job per gateway; null: the run is one job (a single gateway, or a run from before the split) */
+                            children: {
+                                cancelled: number;
+                                done: number;
+                                failed: number;
+                                /** @description children taken more than once (a worker died or failed) */
+                                retried: number;
+                                total: number;
+                            } | null;
                             createdAt: string;
                             error: string | null;
                             finishedAt: (string) | null;
@@ -3504,7 +3545,7 @@ export interface paths {
                             /** @description fast | full (los from the command line) */
                             mode: string | null;
                             planId: string;
-                            /** @description 0 … 1 */
+                            /** @description 0 … 1; a run split into a child per gateway: the cells its children have predicted, summed, over all (95 %), then the composite */
                             progress: number;
                             radiusKm: number | null;
                             sf: number | null;
@@ -3586,6 +3627,8 @@ export interface paths {
                                 };
                             } | null;
                             targetMarginDb: number | null;
+                            /** @description ids (host:pid) of the workers that took part: the children's and the last one that held the run's own job */
+                            workers: string[];
                         };
                     };
                 };
@@ -3644,7 +3687,17 @@ export interface paths {
                     };
                     content: {
                         "application/json": {
+                            /** @description attempts of the run's own job (the parent, for a split run) */
                             attempts: number;
+                            /** @description a run of several gateways is split into a child job per gateway; null: the run is one job (a single gateway, or a run from before the split) */
+                            children: {
+                                cancelled: number;
+                                done: number;
+                                failed: number;
+                                /** @description children taken more than once (a worker died or failed) */
+                                retried: number;
+                                total: number;
+                            } | null;
                             createdAt: string;
                             error: string | null;
                             finishedAt: (string) | null;
@@ -3653,7 +3706,7 @@ export interface paths {
                             /** @description fast | full (los from the command line) */
                             mode: string | null;
                             planId: string;
-                            /** @description 0 … 1 */
+                            /** @description 0 … 1; a run split into a child per gateway: the cells its children have predicted, summed, over all (95 %), then the composite */
                             progress: number;
                             radiusKm: number | null;
                             sf: number | null;
@@ -3735,6 +3788,8 @@ export interface paths {
                                 };
                             } | null;
                             targetMarginDb: number | null;
+                            /** @description ids (host:pid) of the workers that took part: the children's and the last one that held the run's own job */
+                            workers: string[];
                         };
                     };
                 };
@@ -7505,6 +7560,7 @@ export interface paths {
                         /** @description true: the plan's gateways stay as built (fixed, cost 0). false: start over — they become ordinary candidates (cost 0 USD, built already) and apply replaces the plan's gateways with the answer (dropped ones removed; undo restores them) */
                         keepExistingGateways: boolean;
                         maxGateways?: number;
+                        /** @description capacity cap: each gateway serves at most this many nodes (FIELD_RANGES.maxNodesPerGateway) */
                         maxNodesPerGateway?: number;
                         /** @enum {string} */
                         minimise?: "gateways" | "cost";
