@@ -111,7 +111,7 @@ export const FIELD_RANGES = {
   gatewayTxPowerDbm: { min: -10, max: 36, unit: 'dBm', step: 0.5, note: 'conducted power at the gateway radio port' },
   nodeFeedlineLengthM: { min: 0, max: 500, unit: 'm', step: 0.5, note: 'cable from the node radio to its antenna' },
   gatewayFeedlineLengthM: { min: 0, max: 1000, unit: 'm', step: 0.5, note: 'cable from the gateway radio to its antenna' },
-  targetMarginDb: { min: -20, max: 60, unit: 'dB', step: 0.5, note: 'fade margin a node must reach to count as served' },
+  targetMarginDb: { min: -20, max: 60, unit: 'dB', step: 0.5, note: 'target margin: the fade margin a node must reach to count as served' },
   sigmaDb: { min: 0, max: 30, unit: 'dB', step: 0.1, note: 'a spread of the received level (σL or σM)' },
   noiseFigureDb: { min: 0, max: 20, unit: 'dB', step: 0.1, note: 'gateway receiver noise figure' },
   coverageRadiusKm: { min: 0.1, max: 100, unit: 'km', step: 0.1, note: 'radius of a coverage run around each gateway (clipped to the terrain)' },

@@ -39,7 +39,7 @@ export interface CoverageRequest {
   nodeKit?: Partial<CoverageNodeKit>;
   /** A fixed SF for every cell; default: the node SF rule. */
   sf?: number;
-  requiredMarginDb?: number;
+  targetMarginDb?: number;
   useClutter?: boolean;
 }
 
@@ -182,7 +182,7 @@ export async function resolveCoverageRequest(
     if (error instanceof AppError) throw new AppError('invalid_input', 'invalid_input', `nodeKit.${error.message}`);
     throw error;
   });
-  const requiredMarginDb = request.requiredMarginDb ?? settings.targetMarginDb;
+  const targetMarginDb = request.targetMarginDb ?? settings.targetMarginDb;
   const { bandPlan, ...radio } = node.radioSettings;
   const nodes = await allNodes(db, plan.id);
   return {
@@ -190,14 +190,14 @@ export async function resolveCoverageRequest(
     radiusKm: request.radiusKm,
     targetHeightM: Math.max(kit.antennaHeightAglM, MIN_PATH_ANTENNA_HEIGHT_M),
     sf: request.sf ?? null,
-    requiredMarginDb,
+    targetMarginDb,
     frequencyMhz: settings.frequencyMhz,
     kFactor: medianEarthFactor(settings.path.deltaN),
     p1812: { deltaN: settings.path.deltaN, n0: settings.path.n0, timePercent: settings.path.timePercent, polarisation: settings.path.polarization },
     budget: {
       nodeKit: node.kit,
       node: node.radio,
-      radio: { ...radio, targetMarginDb: requiredMarginDb, bandPlanId: bandPlan.id },
+      radio: { ...radio, targetMarginDb, bandPlanId: bandPlan.id },
       nodeAntennaHeightAglM: kit.antennaHeightAglM,
       method: settings.path.method,
       deltaN: settings.path.deltaN,

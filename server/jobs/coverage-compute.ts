@@ -195,7 +195,7 @@ export function composeCoverage(raster: GeoRaster, params: CoverageJobParams, pa
     }
     discShares.push(Math.min(1, withTerrainKm2 / ((Math.PI * radiusM * radiusM) / 1e6)));
   }
-  const composite = buildComposite(union.widthPx, union.heightPx, placed, params.requiredMarginDb);
+  const composite = buildComposite(union.widthPx, union.heightPx, placed, params.targetMarginDb);
   const nodes = params.nodes.map((node) => {
     const p = raster.lonLatToPixel(node.lon, node.lat);
     const col = p.x - union.x0;
@@ -207,7 +207,7 @@ export function composeCoverage(raster: GeoRaster, params: CoverageJobParams, pa
     const p = nodes[k];
     return p.col === null || p.row === null || !inside[Math.floor(p.row) * union.widthPx + Math.floor(p.col)];
   });
-  const summary = summarise(composite, inside, gatewayCount, params.requiredMarginDb, cellArea, nodes);
+  const summary = summarise(composite, inside, gatewayCount, params.targetMarginDb, cellArea, nodes);
   const summaryJson = {
     ...summary,
     gateways: summary.gateways.map((entry) => ({ ...entry, gatewayId: params.gateways[entry.index].id, name: params.gateways[entry.index].name })),
@@ -229,7 +229,7 @@ export function composeCoverage(raster: GeoRaster, params: CoverageJobParams, pa
       allowedSfs: params.budget.radio.allowedSfs,
       kFactor: params.kFactor,
     },
-    requiredMarginDb: params.requiredMarginDb,
+    targetMarginDb: params.targetMarginDb,
     clutter: clutter
       ? {
           layerId: clutter.layerId,

@@ -20,6 +20,7 @@ import type { CoverageMode } from '../coverage/area.ts';
 import { RunCancelledError, type AreaPool } from './area-runner.ts';
 import { closeCoverageRasters, composeCoverage, gatewayPlacement, openCoverageRasters, predictGatewayPart, WorkerCannotRead, type CoverageRasters, type GatewayPart } from './coverage-compute.ts';
 import { awaitCoverageParts } from './coverage-split.ts';
+import { storedCoverageParams } from './coverage-params.ts';
 import type { LinkRunJobs } from './link-runs.ts';
 
 /** The one link budget of a run (server/planning/link.ts), as plain data a worker can read from the row. */
@@ -44,7 +45,7 @@ export interface CoverageJobParams {
   targetHeightM: number;
   /** A fixed SF for every cell, or null: the node SF rule (fastest allowed SF meeting the target). */
   sf: number | null;
-  requiredMarginDb: number;
+  targetMarginDb: number;
   frequencyMhz: number;
   /** Median effective earth-radius factor k50 from the plan's ΔN (P.1812-8 Eq. (5)), as links use. */
   kFactor: number;
@@ -106,7 +107,7 @@ export async function executeCoverageRun(db: Database, config: Config, runId: st
   const row = await findCoverageRunById(db, runId);
   if (!row) return 'skipped';
   if (!(await claimCoverageRun(db, runId, options.workerId))) return 'skipped';
-  const params = row.params as unknown as CoverageJobParams;
+  const params = storedCoverageParams<CoverageJobParams>(row.params) as CoverageJobParams;
   const split = options.parts !== undefined && params.gateways.length > 1;
   const controller = new AbortController();
   let lastReport = 0;

@@ -22,6 +22,7 @@ import { AppError } from '../app/errors.ts';
 import type { WindowPlacement } from '../coverage/terrain-window.ts';
 import { closeCoverageRasters, openCoverageRasters, predictGatewayPart, WorkerCannotRead, type CoverageRasters, type GatewayPart } from './coverage-compute.ts';
 import type { CoverageJobParams } from './coverage-job.ts';
+import { storedCoverageParams } from './coverage-params.ts';
 import { RunCancelledError, type AreaPool } from './area-runner.ts';
 import type { LinkRunJobs } from './link-runs.ts';
 
@@ -114,7 +115,7 @@ export class CoveragePartExecutor {
   async predict(params: CoveragePartsParams, index: number, cells: number, workerId: string, checkpoint: (cellsDone: number) => Promise<boolean>): Promise<CoveragePartResult | null> {
     const run = await findCoverageRunById(this.db, params.coverageRunId);
     if (!run || run.status !== 'running') return null;
-    const jobParams = run.params as unknown as CoverageJobParams;
+    const jobParams = storedCoverageParams<CoverageJobParams>(run.params) as CoverageJobParams;
     const gateway = jobParams.gateways[index];
     if (!gateway) throw new Error(`coverage run ${run.id} has no gateway ${index}`);
     let rasters: CoverageRasters | null = null;

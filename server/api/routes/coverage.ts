@@ -14,6 +14,7 @@ import { maxCoverageCells, resolveCoverageRequest } from '../../app/coverage.ts'
 import { legend, renderMarginTile } from '../../coverage/tiles.ts';
 import { createCoverageJobs, type CoverageJobs } from '../../jobs/runner.ts';
 import type { CoverageJobParams } from '../../jobs/coverage-job.ts';
+import { storedCoverageParams, storedCoverageSummary } from '../../jobs/coverage-params.ts';
 import { COVERAGE_PARTS_KIND, coverageChildren } from '../../jobs/coverage-split.ts';
 import { cancelLinkRunsOf } from '../../db/repositories/link-runs.ts';
 import { resultDir, RESULT_FILES } from '../../db/files.ts';
@@ -52,7 +53,7 @@ export const coverageBody = z.strictObject({
   nodeKit: coverageNodeKit.optional(),
   /** A fixed SF for every cell (default: the node SF rule, fastest allowed SF meeting the target). */
   sf: z.number().int('must be a whole number').min(7, 'must be 7–12').max(12, 'must be 7–12').optional(),
-  requiredMarginDb: targetMarginDb().optional(),
+  targetMarginDb: targetMarginDb().optional(),
   /** Use the plan's clutter layer when it has one (default true). */
   useClutter: z.boolean({ error: 'must be true or false' }).optional(),
 });
@@ -74,7 +75,7 @@ const coverageSummary = z.object({
   mode: z.string().optional(),
   radiusKm: z.number().optional(),
   sf: z.number().int().nullable().optional(),
-  requiredMarginDb: z.number().optional(),
+  targetMarginDb: z.number().optional(),
   terrain: z
     .object({
       discShare: z.number().describe('0 … 1: the smallest share of a gateway disc that had terrain'),
@@ -103,7 +104,7 @@ export const coverageRunResponse = z
     mode: z.string().nullable().describe('fast | full (los from the command line)'),
     radiusKm: z.number().nullable(),
     sf: z.number().int().nullable(),
-    requiredMarginDb: z.number().nullable(),
+    targetMarginDb: z.number().nullable(),
     summary: coverageSummary.nullable().describe('null until done; shares of the area per margin class, node classes, per-gateway load'),
     createdAt: dateTime,
     startedAt: dateTime.nullable(),
@@ -122,7 +123,7 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
   const tags = ['coverage'];
 
   async function runView(run: CoverageRunRow) {
-    const params = (run.params ?? {}) as Partial<CoverageJobParams>;
+    const params = storedCoverageParams<CoverageJobParams>(run.params);
     // A split run: progress and children summed from its children (live, so a parent whose worker died still shows them move).
     const split = await coverageChildren(db, run);
     const gatewayCount = (run.gatewayIds as string[]).length;
@@ -141,9 +142,9 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
       mode: params.mode ?? null,
       radiusKm: params.radiusKm ?? null,
       sf: params.sf ?? null,
-      requiredMarginDb: params.requiredMarginDb ?? null,
+      targetMarginDb: params.targetMarginDb ?? null,
       // Stored by the coverage job in this shape (server/jobs/coverage-job.ts).
-      summary: (run.summary ?? null) as z.infer<typeof coverageSummary> | null,
+      summary: storedCoverageSummary(run.summary) as z.infer<typeof coverageSummary> | null,
       createdAt: run.createdAt.toISOString(),
       startedAt: run.startedAt?.toISOString() ?? null,
       finishedAt: run.finishedAt?.toISOString() ?? null,
