@@ -15,7 +15,7 @@ import { MIN_PATH_ANTENNA_HEIGHT_M } from '../planning/path.ts';
 import type { AppliedCalibration } from '../planning/spread.ts';
 import { CLUTTER_CLASSES, clutterHeightsByIndex, type ClutterClass } from '../terrain/clutter.ts';
 import { openGeoRaster, type GeoRaster } from '../terrain/raster.ts';
-import type { CoverageJobParams } from '../jobs/coverage-job.ts';
+import type { CoverageJobParams } from '../jobs/coverage-params.ts';
 import { resolveStoredFile } from '../db/files.ts';
 import type { LinkEngine } from '../jobs/link-engine.ts';
 import { AppError } from './errors.ts';

@@ -39,7 +39,7 @@ import {
 import { type LinkEngine, type PlanContext } from '../jobs/link-engine.ts';
 import { computeSitingMatrix, matrixInputs, SitingCancelled, type SitingCandidate, type SitingMatrix } from '../jobs/siting-matrix.ts';
 import { splitSitingMatrix } from '../jobs/siting-matrix-split.ts';
-import type { LinkRunJobs } from '../jobs/link-runs.ts';
+import type { LinkRunJobs } from '../jobs/link-run-jobs.ts';
 import { gatewayKitPrice } from './kit-price.ts';
 import { DEFAULT_GATEWAY_ANTENNA_ID, DEFAULT_GATEWAY_FEEDLINE_ID, DEFAULT_GATEWAY_NOISE_FIGURE_DB } from '../planning/gateway-kit.ts';
 import { isExcluded, localHighPoints, parseExclusionAreas, pickSpaced, type ExclusionArea, type HighPoint, type LonLatBox } from '../siting/candidates.ts';

@@ -21,7 +21,7 @@ import { resolveBandPlan } from '../planning/settings.ts';
 import { buildComposite, summarise, type PlacedProducts } from '../coverage/composite.ts';
 import { BYTE_NODATA } from '../coverage/rasterise.ts';
 import { runArea, type AreaPool } from './area-runner.ts';
-import type { CoverageJobParams } from './coverage-job.ts';
+import type { CoverageJobParams } from './coverage-params.ts';
 
 /** One gateway's prediction on the elevation raster's grid: its window (raster pixels), per-cell products and basic loss. */
 export interface GatewayPart {

@@ -13,59 +13,11 @@ import type { Database } from '../db/client.ts';
 import type { Config } from '../config.ts';
 import { removeCoverageParts, resultDir } from '../db/files.ts';
 import { claimCoverageRun, completeCoverageRun, failCoverageRun, findCoverageRunById, reportCoverageProgress } from '../db/repositories/coverage-runs.ts';
-import type { ClutterPreset } from '../terrain/clutter.ts';
-import type { EndKit, GatewayRadio, LinkRadioSettings, NodeRadio } from '../planning/link.ts';
-import type { PropagationMethodId } from '../planning/path.ts';
-import type { CoverageMode } from '../coverage/area.ts';
 import { RunCancelledError, type AreaPool } from './area-runner.ts';
 import { closeCoverageRasters, composeCoverage, gatewayPlacement, openCoverageRasters, predictGatewayPart, WorkerCannotRead, type CoverageRasters, type GatewayPart } from './coverage-compute.ts';
 import { awaitCoverageParts } from './coverage-split.ts';
-import { storedCoverageParams } from './coverage-params.ts';
-import type { LinkRunJobs } from './link-runs.ts';
-
-/** The one link budget of a run (server/planning/link.ts), as plain data a worker can read from the row. */
-export interface CoverageBudgetParams {
-  /** The node kit everywhere on the map, as a node with that kit would have it (resolveNode). */
-  nodeKit: EndKit;
-  node: NodeRadio;
-  /** The link settings of that node (allowed SFs for its payload, target, spread); bandPlan by id. */
-  radio: Omit<LinkRadioSettings, 'bandPlan'> & { bandPlanId: string };
-  /** Node antenna height above ground as given, m (negative in a pit). */
-  nodeAntennaHeightAglM: number;
-  method: PropagationMethodId;
-  deltaN: number;
-}
-
-/** Everything a run needs, resolved when the run is created (server/app/coverage.ts), so workers need no plan logic. */
-export interface CoverageJobParams {
-  /** fast or full (los gives visibility only, which has no margin: CLI only). */
-  mode: Exclude<CoverageMode, 'los'>;
-  radiusKm: number;
-  /** Node antenna height the sweeps use, m (the node kit's, at least 1 m as for link paths). */
-  targetHeightM: number;
-  /** A fixed SF for every cell, or null: the node SF rule (fastest allowed SF meeting the target). */
-  sf: number | null;
-  targetMarginDb: number;
-  frequencyMhz: number;
-  /** Median effective earth-radius factor k50 from the plan's ΔN (P.1812-8 Eq. (5)), as links use. */
-  kFactor: number;
-  /** P.1812 options of the plan (full mode): ΔN, N0, time percent, polarisation. */
-  p1812: { deltaN: number; n0: number; timePercent: number; polarisation: 'horizontal' | 'vertical' };
-  budget: CoverageBudgetParams;
-  /** Elevation layer file (absolute, or relative to the files folder) and its id. */
-  terrainPath: string;
-  terrainLayerId: string;
-  /**
-   * The plan's clutter layer for this run (null or absent: none): file, class
-   * table (terrain room's code presets) and representative height per class index (m,
-   * the P.1812 defaults with the plan's overrides, `clutterHeightsByIndex`).
-   */
-  clutter?: { layerId: string; name: string; path: string; codes: ClutterPreset; heightByClassM: number[] } | null;
-  gateways: Array<{ id: string; name: string; lat: number; lon: number; heightAglM: number; kit: EndKit; radio: GatewayRadio }>;
-  /** Cells of each gateway's window, in gateway order (the weight of its child in a split run's progress; absent on older runs). */
-  windowCells?: number[];
-  nodes: Array<{ id: string; name?: string; lat: number; lon: number }>;
-}
+import { storedCoverageParams, type CoverageJobParams } from './coverage-params.ts';
+import type { LinkRunJobs } from './link-run-jobs.ts';
 
 export interface ExecuteOptions {
   pool?: AreaPool;

@@ -21,10 +21,10 @@ import { transactionLimits } from '../db/repositories/audit.ts';
 import { AppError } from '../app/errors.ts';
 import type { WindowPlacement } from '../coverage/terrain-window.ts';
 import { closeCoverageRasters, openCoverageRasters, predictGatewayPart, WorkerCannotRead, type CoverageRasters, type GatewayPart } from './coverage-compute.ts';
-import type { CoverageJobParams } from './coverage-job.ts';
+import type { CoverageJobParams } from './coverage-params.ts';
 import { storedCoverageParams } from './coverage-params.ts';
 import { RunCancelledError, type AreaPool } from './area-runner.ts';
-import type { LinkRunJobs } from './link-runs.ts';
+import type { LinkRunJobs } from './link-run-jobs.ts';
 
 /** Kind of a LinkRun whose tiles are the gateways of a split coverage run. */
 export const COVERAGE_PARTS_KIND = 'coverage-parts';

@@ -29,7 +29,8 @@ import type { PathPrediction } from '../planning/path.ts';
 import { AppError } from '../app/errors.ts';
 import { LinkInputError, pathEnd, type GatewayContext, type LinkEngine, type PlanContext, type ResolvedNode } from './link-engine.ts';
 import type { LinkPathPair } from './link-pool.ts';
-import { queuePrefix, redisConnection } from './runner.ts';
+import { queuePrefix, redisConnection } from './queue-connection.ts';
+import type { LinkRunJobs } from './link-run-jobs.ts';
 import { candidateRow, predictSitingBlock, SitingCancelled, type SitingCandidate, type SitingMatrixBlock } from './siting-matrix.ts';
 import { COVERAGE_PARTS_KIND, CoveragePartExecutor, type CoveragePartsParams } from './coverage-split.ts';
 import type { AreaPool } from './area-runner.ts';
@@ -296,16 +297,6 @@ export class LinkTileExecutor {
   }
 }
 
-/** Where tiles go: this process, or the BullMQ queue that `npm run worker` processes take them from. */
-export interface LinkRunJobs {
-  readonly kind: 'in-process' | 'bullmq';
-  enqueue(runId: string, indices: readonly number[]): Promise<void>;
-  /** Takes queued tiles of a cancelled run off the queue (running ones stop at their next batch). */
-  withdraw(runId: string, indices: readonly number[]): Promise<void>;
-  /** Resolves when nothing is queued in this process (tests; a no-op for the queue). */
-  idle(): Promise<void>;
-  close(): Promise<void>;
-}
 
 /** The in-process runner: tiles one after the other, each spread over the link engine's worker threads. */
 class InProcessLinkRuns implements LinkRunJobs {

@@ -14,7 +14,9 @@ import { unfinishedCoverageRuns } from '../db/repositories/coverage-runs.ts';
 import { executeCoverageRun } from './coverage-job.ts';
 import { createAreaPool, type AreaPool } from './area-runner.ts';
 import type { LinkEngine } from './link-engine.ts';
-import { linkRunJobsFor, type LinkRunJobs } from './link-runs.ts';
+import { linkRunJobsFor } from './link-runs.ts';
+import type { LinkRunJobs } from './link-run-jobs.ts';
+import { queuePrefix, redisConnection } from './queue-connection.ts';
 
 export const COVERAGE_QUEUE = 'coverage';
 /** Attempts per coverage job on the queue: a worker that dies, or cannot read a layer, hands the run to another. */
@@ -26,24 +28,6 @@ export interface CoverageJobs {
   readonly parts: LinkRunJobs;
   enqueue(runId: string): Promise<void>;
   close(): Promise<void>;
-}
-
-/** Redis key prefix of the queues (EARSHOT_QUEUE_PREFIX, default "earshot"), so several installs or test runs can share one Redis. */
-export function queuePrefix(env: NodeJS.ProcessEnv = process.env): string {
-  return env.EARSHOT_QUEUE_PREFIX?.trim() || 'earshot';
-}
-
-/** BullMQ connection options from a redis:// URL. */
-export function redisConnection(url: string): { host: string; port: number; password?: string; username?: string; db?: number; maxRetriesPerRequest: null } {
-  const parsed = new URL(url);
-  return {
-    host: parsed.hostname || '127.0.0.1',
-    port: parsed.port ? Number(parsed.port) : 6379,
-    password: parsed.password ? decodeURIComponent(parsed.password) : undefined,
-    username: parsed.username ? decodeURIComponent(parsed.username) : undefined,
-    db: parsed.pathname && parsed.pathname.length > 1 ? Number(parsed.pathname.slice(1)) : undefined,
-    maxRetriesPerRequest: null,
-  };
 }
 
 class InProcessJobs implements CoverageJobs {

@@ -24,7 +24,8 @@ import { createCoverageRun } from '../../server/db/repositories/coverage-runs.ts
 import { executeCoverageRun } from '../../server/jobs/coverage-job.ts';
 import { COVERAGE_PARTS_KIND } from '../../server/jobs/coverage-split.ts';
 import { LINK_TILE_QUEUE } from '../../server/jobs/link-runs.ts';
-import { COVERAGE_QUEUE, redisConnection } from '../../server/jobs/runner.ts';
+import { COVERAGE_QUEUE } from '../../server/jobs/runner.ts';
+import { redisConnection } from '../../server/jobs/queue-connection.ts';
 import { makeSyntheticDem } from '../unit/coverage/synthetic-dem.ts';
 
 const suite = queueSuite('coverage-split-queue');

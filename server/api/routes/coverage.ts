@@ -13,7 +13,7 @@ import { openGeoRaster, type GeoRaster } from '../../terrain/raster.ts';
 import { maxCoverageCells, resolveCoverageRequest } from '../../app/coverage.ts';
 import { legend, renderMarginTile } from '../../coverage/tiles.ts';
 import { createCoverageJobs, type CoverageJobs } from '../../jobs/runner.ts';
-import type { CoverageJobParams } from '../../jobs/coverage-job.ts';
+import type { CoverageJobParams } from '../../jobs/coverage-params.ts';
 import { storedCoverageParams, storedCoverageSummary } from '../../jobs/coverage-params.ts';
 import { COVERAGE_PARTS_KIND, coverageChildren } from '../../jobs/coverage-split.ts';
 import { cancelLinkRunsOf } from '../../db/repositories/link-runs.ts';
