@@ -170,16 +170,21 @@ export async function completeLinkTile(
 ): Promise<{ written: number; runDone: boolean; writeSeconds: number }> {
   const t0 = performance.now();
   // Lock order everywhere: tile rows first, then the run row (cancel and fail follow it too).
+  // The tile is updated ONCE in this transaction: a second UPDATE of a row version this
+  // transaction made fires PostgreSQL's foreign-key check on "runId", which takes FOR KEY SHARE
+  // on the run row; the FOR UPDATE below would then be a lock upgrade, and two last tiles each
+  // holding the share lock and waiting for the other's deadlocked (seen with 3 workers in
+  // test/api/link-runs-queue.test.ts). So the rows are upserted first and the ownership check
+  // is the tile's one UPDATE; a lost attempt throws and rolls the upsert back with it.
   return retryTransient(() => db.prisma.$transaction(async (tx) => {
-    const owned = await tx.$executeRaw`UPDATE "LinkRunTile" SET "status" = 'done', "doneBy" = ${input.workerId}, "finishedAt" = CURRENT_TIMESTAMP
-      WHERE "runId" = ${input.runId} AND "index" = ${input.index} AND "attempts" = ${input.attempt} AND "status" = 'running'
-        AND EXISTS (SELECT 1 FROM "LinkRun" r WHERE r."id" = ${input.runId} AND r."status" = 'running')`;
-    if (owned !== 1) throw new LinkTileLost();
     const written = await upsertLinkRows(tx, input.planId, input.rows);
     const writeSeconds = (performance.now() - t0) / 1000;
     const result = input.result === undefined ? null : JSON.stringify(input.result);
-    await tx.$executeRaw`UPDATE "LinkRunTile" SET "linksWritten" = ${input.rows.length}, "seconds" = ${input.seconds + writeSeconds}, "writeSeconds" = ${writeSeconds}, "result" = ${result}::jsonb
-      WHERE "runId" = ${input.runId} AND "index" = ${input.index}`;
+    const owned = await tx.$executeRaw`UPDATE "LinkRunTile" SET "status" = 'done', "doneBy" = ${input.workerId}, "finishedAt" = CURRENT_TIMESTAMP,
+        "linksWritten" = ${input.rows.length}, "seconds" = ${input.seconds + writeSeconds}, "writeSeconds" = ${writeSeconds}, "result" = ${result}::jsonb
+      WHERE "runId" = ${input.runId} AND "index" = ${input.index} AND "attempts" = ${input.attempt} AND "status" = 'running'
+        AND EXISTS (SELECT 1 FROM "LinkRun" r WHERE r."id" = ${input.runId} AND r."status" = 'running')`;
+    if (owned !== 1) throw new LinkTileLost();
     await tx.$queryRaw`SELECT "id" FROM "LinkRun" WHERE "id" = ${input.runId} FOR UPDATE`;
     const finished = await tx.$executeRaw`UPDATE "LinkRun" SET "status" = 'done', "finishedAt" = CURRENT_TIMESTAMP
       WHERE "id" = ${input.runId} AND "status" = 'running' AND NOT EXISTS (SELECT 1 FROM "LinkRunTile" t WHERE t."runId" = ${input.runId} AND t."status" <> 'done')`;
