@@ -146,6 +146,18 @@ function buildingTypeOf(value: string | null, fallback: BuildingType): BuildingT
   return value === 'traditional' || value === 'thermally-efficient' ? value : fallback;
 }
 
+/** Node kit hashes by their per-node inputs, per resolved settings object (see resolveNode). */
+const kitHashes = new WeakMap<ResolvedLinkSettings, Map<string, string>>();
+
+function kitHashMemo(settings: ResolvedLinkSettings): Map<string, string> {
+  let memo = kitHashes.get(settings);
+  if (!memo) {
+    memo = new Map();
+    kitHashes.set(settings, memo);
+  }
+  return memo;
+}
+
 /** Cold paths below this count are predicted in-thread (starting workers would cost more). */
 const MIN_POOL_PAIRS = 8;
 /** Nodes per group of the fleet table's cold paths (see fleet()). */
@@ -412,8 +424,22 @@ export class LinkEngine {
       spread: settings.spread,
       environment: { ...settings.environment, indoorBuildingType: buildingTypeOf(row.buildingType, settings.environment.indoorBuildingType) },
     };
-    const { bandPlan: _plan, ...radioPart } = radioSettings;
-    const kitHash = hashOf({ a: hashOfShared(antenna, ctx.objectHashes), f: feedline ? hashOfShared(feedline, ctx.objectHashes) : null, length: kit.feedlineLengthM, c: kit.connectors.map((u) => [u.connector.id, u.connector.lossDb, u.count]), radio, radioPart });
+    const a = hashOfShared(antenna, ctx.objectHashes);
+    const fh = feedline ? hashOfShared(feedline, ctx.objectHashes) : null;
+    const c = kit.connectors.map((u) => [u.connector.id, u.connector.lossDb, u.count]);
+    const indoorBuildingType = radioSettings.environment.indoorBuildingType;
+    // The hash below is a function of the plan-wide settings (one object per context) and these
+    // per-node values alone, so nodes alike share one hash: 5,000 nodes no longer serialise the
+    // settings' spread and environment 5,000 times (JSON.stringify keeps every value apart that
+    // stableJson would: both write numbers the same way).
+    const memoKey = JSON.stringify([a, fh, kit.feedlineLengthM, c, radio.txPowerDbm, radio.phyPayloadBytes, radio.sfPolicy, radio.fixedSf, radio.environment, allowed, indoorBuildingType]);
+    const memo = kitHashMemo(settings);
+    let kitHash = memo.get(memoKey);
+    if (kitHash === undefined) {
+      const { bandPlan: _plan, ...radioPart } = radioSettings;
+      kitHash = hashOf({ a, f: fh, length: kit.feedlineLengthM, c, radio, radioPart });
+      memo.set(memoKey, kitHash);
+    }
     return { row, antennaHeightAglM, kit, radio, radioSettings, antenna, feedline, kitHash, warnings };
   }
 
@@ -554,8 +580,10 @@ export class LinkEngine {
     //    in groups of nodes so budgets and cache writes of one group overlap the
     //    workers' paths of the next.
     // Each node's pairs as step 1 measured them (distance, path hash), so step 3 does not
-    // measure and hash every pair a second time.
-    const resolved: Array<{ node: ResolvedNode; pairs: Map<string, PairKey> } | { broken: NodeRow; message: string } | null> = [];
+    // measure and hash every pair a second time. The resolved node itself is not kept: step 3
+    // resolves it again (the catalog lookups and kit hash are memoised per context), so 5,000
+    // resolved kits are not held, and promoted, through the whole pass.
+    const resolved: Array<{ row: NodeRow; pairs: Map<string, PairKey> } | { broken: NodeRow; message: string } | null> = [];
     const groups: Array<Map<string, LinkPathPair>> = [];
     const seen = new Set<string>();
     for (const row of nodes) {
@@ -569,7 +597,7 @@ export class LinkEngine {
       }
       const group = Math.floor(resolved.length / FLEET_GROUP_NODES);
       const pairs = new Map<string, PairKey>();
-      resolved.push({ node, pairs });
+      resolved.push({ row, pairs });
       const stored = storedHashes.get(row.id);
       for (const gateway of ctx.gateways) {
         const distanceM = bearingsBetween(row.lat, row.lon, gateway.row.lat, gateway.row.lon).distanceM;
@@ -614,7 +642,7 @@ export class LinkEngine {
         const ids: string[] = [];
         for (let k = i; k < Math.min(total, i + FLEET_GROUP_NODES); k++) {
           const entry = resolved[k];
-          if (entry && 'node' in entry) ids.push(entry.node.row.id);
+          if (entry && 'pairs' in entry) ids.push(entry.row.id);
         }
         byNode = new Map();
         for (const row of await listLinkRowsForNodes(this.db, ctx.plan.id, ids)) {
@@ -623,14 +651,15 @@ export class LinkEngine {
           else byNode.set(row.nodeId, [row]);
         }
       }
-      const entry = resolved[i] as { node: ResolvedNode; pairs: Map<string, PairKey> } | { broken: NodeRow; message: string };
+      const entry = resolved[i] as { row: NodeRow; pairs: Map<string, PairKey> } | { broken: NodeRow; message: string };
       resolved[i] = null; // visited nodes are the caller's to keep or drop
       if ('broken' in entry) {
         await visit(brokenNodeOutcome(entry.broken, entry.message));
         onProgress?.(i + 1, total);
         continue;
       }
-      const { outcome, toSave } = await this.nodeLinks(ctx, entry.node, byNode.get(entry.node.row.id) ?? [], true, precomputed, entry.pairs);
+      const node = await this.resolveNode(ctx, entry.row);
+      const { outcome, toSave } = await this.nodeLinks(ctx, node, byNode.get(entry.row.id) ?? [], true, precomputed, entry.pairs);
       await visit(outcome);
       pending.push(...toSave);
       if (pending.length >= 500) {
