@@ -422,7 +422,7 @@ export class LinkEngine {
       bandPlan: settings.bandPlan,
       targetMarginDb: settings.targetMarginDb,
       spread: settings.spread,
-      environment: { ...settings.environment, indoorBuildingType: buildingTypeOf(row.buildingType, settings.environment.indoorBuildingType) },
+      environment: { indoorBuildingType: buildingTypeOf(row.buildingType, settings.environment.indoorBuildingType), pitExtraLossDb: settings.environment.pitExtraLossDb, pitSigmaDb: settings.environment.pitSigmaDb },
     };
     const a = hashOfShared(antenna, ctx.objectHashes);
     const fh = feedline ? hashOfShared(feedline, ctx.objectHashes) : null;
@@ -514,7 +514,9 @@ export class LinkEngine {
     }
     const summary = summariseNodeLinks(links, { targetMarginDb: ctx.settings.targetMarginDb, targetDelivery: ctx.settings.targetDelivery }, ctx.settings.gatewayCorrelation);
     const paths = new Map(inRange.map((entry) => [entry.gateway.row.id, entry.path]));
-    return { outcome: { ...summary, node, paths, computed, cached, outOfRange }, toSave };
+    // Fields written out, not spread (see linkBudget in server/planning/link.ts).
+    const outcome: NodeLinksOutcome = { links: summary.links, combinedDeliveryProbability: summary.combinedDeliveryProbability, status: summary.status, bestGatewayId: summary.bestGatewayId, bestMarginDb: summary.bestMarginDb, node, paths, computed, cached, outOfRange };
+    return { outcome, toSave };
   }
 
   /**
