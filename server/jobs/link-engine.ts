@@ -15,7 +15,7 @@ import type { GatewayRow } from '../db/repositories/gateways.ts';
 import { findNode, type NodeRow } from '../db/repositories/nodes.ts';
 import type { PlanRow } from '../db/repositories/plans.ts';
 import { findAntennaDesignForTeam, findFeedlineForTeam } from '../db/repositories/kit.ts';
-import { nodeLinkFingerprint, listGatewaysForLinks, listNodeLinkRows, listLinkRowsForNodes, listNodesForLinks, listPlanLinkPathHashes, listTerrainForLinks, saveLinkRows, type LinkRow } from '../db/repositories/links.ts';
+import { nodeLinkFingerprint, listGatewaysForLinks, listNodeLinkRows, listLinkRowsForNodes, listNodesForLinks, listLinkPathHashesForNodes, listTerrainForLinks, saveLinkRows, type LinkRow } from '../db/repositories/links.ts';
 import type { AntennaDesign } from '../radio/antennas.ts';
 import { connectorLossDb, findConnector, type ConnectorUse, type FeedlineType } from '../radio/feedlines.ts';
 import type { BuildingType } from '../radio/building-entry-loss.ts';
@@ -572,12 +572,9 @@ export class LinkEngine {
    */
   async fleetEach(ctx: PlanContext, visit: (outcome: NodeLinksOutcome) => void | Promise<void>, onProgress?: (done: number, total: number) => void): Promise<number> {
     const nodes = await listNodesForLinks(this.db, ctx.plan.id);
-    const storedHashes = new Map<string, Map<string, string | null>>();
-    for (const row of await listPlanLinkPathHashes(this.db, ctx.plan.id)) {
-      const byGateway = storedHashes.get(row.nodeId);
-      if (byGateway) byGateway.set(row.gatewayId, row.pathHash);
-      else storedHashes.set(row.nodeId, new Map([[row.gatewayId, row.pathHash]]));
-    }
+    // The stored path hashes are read a group of nodes at a time (not the plan's 15,000 rows at
+    // once, which stayed alive through the whole of step 1 and were promoted with it).
+    let storedHashes = new Map<string, Map<string, string | null>>();
     // 1. Resolve every node and collect the paths the cache lacks (one per path hash),
     //    in groups of nodes so budgets and cache writes of one group overlap the
     //    workers' paths of the next.
@@ -588,7 +585,16 @@ export class LinkEngine {
     const resolved: Array<{ row: NodeRow; pairs: Map<string, PairKey> } | { broken: NodeRow; message: string } | null> = [];
     const groups: Array<Map<string, LinkPathPair>> = [];
     const seen = new Set<string>();
-    for (const row of nodes) {
+    for (let r = 0; r < nodes.length; r++) {
+      const row = nodes[r];
+      if (r % FLEET_GROUP_NODES === 0) {
+        storedHashes = new Map();
+        for (const stored of await listLinkPathHashesForNodes(this.db, ctx.plan.id, nodes.slice(r, r + FLEET_GROUP_NODES).map((n) => n.id))) {
+          const byGateway = storedHashes.get(stored.nodeId);
+          if (byGateway) byGateway.set(stored.gatewayId, stored.pathHash);
+          else storedHashes.set(stored.nodeId, new Map([[stored.gatewayId, stored.pathHash]]));
+        }
+      }
       let node: ResolvedNode;
       try {
         node = await this.resolveNode(ctx, row);
