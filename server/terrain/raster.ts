@@ -126,8 +126,17 @@ function ArrayLike(value: unknown): boolean {
   return Array.isArray(value) || ArrayBuffer.isView(value);
 }
 
+export interface OpenRasterOptions {
+  /**
+   * Decoded tiles readWindow keeps (least recently used first out; default 0 = none). A caller
+   * reading many overlapping windows in turn (the report map: every file tile lies under ~4 map
+   * tiles) decodes each tile once instead of once per window.
+   */
+  decodedTileCache?: number;
+}
+
 /** Opens a GeoTIFF from a path (read lazily from disk) or from bytes in memory and checks it is usable. */
-export async function openGeoRaster(source: string | ArrayBuffer): Promise<GeoRaster> {
+export async function openGeoRaster(source: string | ArrayBuffer, options: OpenRasterOptions = {}): Promise<GeoRaster> {
   let tiff: GeoTIFF;
   let fileBytes = 0;
   try {
@@ -146,7 +155,7 @@ export async function openGeoRaster(source: string | ArrayBuffer): Promise<GeoRa
     throw new RasterError('not_tiff', `not a TIFF file (${message.split('\n')[0]})`);
   }
   try {
-    return await describe(tiff, fileBytes, structure.images.length);
+    return await describe(tiff, fileBytes, structure.images.length, Math.max(0, Math.floor(options.decodedTileCache ?? 0)));
   } catch (error) {
     await closeQuietly(tiff);
     if (error instanceof RasterError) throw error;
@@ -165,7 +174,7 @@ async function closeQuietly(tiff: GeoTIFF): Promise<void> {
   }
 }
 
-async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number): Promise<GeoRaster> {
+async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number, decodedTileCache: number): Promise<GeoRaster> {
   const image = await tiff.getImage(0);
   const directory = image.getFileDirectory();
   const widthPx = image.getWidth();
@@ -257,6 +266,22 @@ async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number): P
   const bytesPerSample = bits / 8;
   const fastPath = image.getSamplesPerPixel() === 1 && (image.littleEndian || bytesPerSample === 1);
   const decoders = new Map<GeoTIFFImage, Promise<Decoder>>();
+  // Decoded tiles by image and tile, most recently used last (OpenRasterOptions.decodedTileCache).
+  const decoded = new Map<string, Promise<ArrayBuffer>>();
+  const decodedTile = (img: GeoTIFFImage, tx: number, ty: number, decoder: Decoder): Promise<ArrayBuffer> => {
+    const read = async () => (await img.getTileOrStrip(tx, ty, 0, decoder as never)).data as ArrayBuffer;
+    if (decodedTileCache === 0) return read();
+    const key = `${img === image ? 0 : overviewImages.indexOf(img) + 1}:${tx}:${ty}`;
+    let data = decoded.get(key);
+    if (data) decoded.delete(key);
+    else {
+      data = read();
+      data.catch(() => decoded.delete(key));
+    }
+    decoded.set(key, data);
+    if (decoded.size > decodedTileCache) decoded.delete(decoded.keys().next().value as string);
+    return data;
+  };
   const decoderFor = (img: GeoTIFFImage): Promise<Decoder> => {
     let decoder = decoders.get(img);
     if (!decoder) {
@@ -311,8 +336,7 @@ async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number): P
         const index = next++;
         const tx = tx0 + (index % across);
         const ty = ty0 + Math.floor(index / across);
-        const tile = await img.getTileOrStrip(tx, ty, 0, decoder as never);
-        copyBlock(tx, ty, tile.data as ArrayBuffer);
+        copyBlock(tx, ty, await decodedTile(img, tx, ty, decoder));
       }
     };
     await Promise.all(Array.from({ length: lanes }, lane));
@@ -436,7 +460,10 @@ async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number): P
     lonLatToPixel,
     pixelToLonLat,
     transform,
-    close: () => closeQuietly(tiff),
+    close: () => {
+      decoded.clear();
+      return closeQuietly(tiff);
+    },
   };
 }
 
