@@ -2,13 +2,14 @@
 // Runs one of earshot's programs from the compiled tree: `node scripts/launch.mjs
 // <server|cli|worker> [args…]`. Before it starts the program it regenerates the
 // Prisma client when prisma/schema.prisma changed and recompiles server/ into
-// build/ when any source changed (both checks are a hash or a stat walk, a few ms),
-// all in this one process so a command pays Node's start-up once.
+// build/ when any source changed (one stat of the schema, one stat per source: a few
+// ms together), all in this one process so a command pays Node's start-up once.
 import { join } from 'node:path';
 import { buildIsFresh, buildServer, root } from './build-server.mjs';
 import { clientIsFresh, generate } from './prisma-generate.mjs';
 
-const programs = { server: 'main.js', cli: 'cli.js', worker: join('jobs', 'worker-main.js') };
+// The CLI runs from its bundle (build/cli/, see build-server.mjs); the server and the workers from the per-file tree.
+const programs = { server: join('server', 'main.js'), cli: join('cli', 'cli.js'), worker: join('server', 'jobs', 'worker-main.js') };
 const [name, ...args] = process.argv.slice(2);
 if (!name || !(name in programs)) {
   process.stderr.write(`launch: name a program: ${Object.keys(programs).join(', ')}\n`);
@@ -16,7 +17,7 @@ if (!name || !(name in programs)) {
 }
 if (!clientIsFresh()) generate({ quiet: true });
 if (!buildIsFresh()) await buildServer({ quiet: name === 'cli' });
-const entry = join(root, 'build', 'server', programs[name]);
+const entry = join(root, 'build', programs[name]);
 // The programs decide whether they are the main module by comparing argv[1] with themselves.
 process.argv = [process.argv[0], entry, ...args];
 await import(entry);

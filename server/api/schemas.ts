@@ -81,6 +81,15 @@ export const jsonObject = z
 
 export const dateTime = z.date().or(z.string());
 
+/** The children of a run split into child jobs (fleet link table runs, multi-gateway coverage runs), counted by state. */
+export const runChildren = z.object({
+  total: z.number().int(),
+  done: z.number().int(),
+  retried: z.number().int().describe('children taken more than once (a worker died or failed)'),
+  failed: z.number().int(),
+  cancelled: z.number().int(),
+});
+
 // ---- One rule per physical input ------------------------------------------------------------
 // Every route that takes one of these quantities builds its field here, and
 // GET /client-settings serves the same table so every UI form uses the same limits.
@@ -102,11 +111,12 @@ export const FIELD_RANGES = {
   gatewayTxPowerDbm: { min: -10, max: 36, unit: 'dBm', step: 0.5, note: 'conducted power at the gateway radio port' },
   nodeFeedlineLengthM: { min: 0, max: 500, unit: 'm', step: 0.5, note: 'cable from the node radio to its antenna' },
   gatewayFeedlineLengthM: { min: 0, max: 1000, unit: 'm', step: 0.5, note: 'cable from the gateway radio to its antenna' },
-  targetMarginDb: { min: -20, max: 60, unit: 'dB', step: 0.5, note: 'fade margin a node must reach to count as served' },
+  targetMarginDb: { min: -20, max: 60, unit: 'dB', step: 0.5, note: 'target margin: the fade margin a node must reach to count as served' },
   sigmaDb: { min: 0, max: 30, unit: 'dB', step: 0.1, note: 'a spread of the received level (σL or σM)' },
   noiseFigureDb: { min: 0, max: 20, unit: 'dB', step: 0.1, note: 'gateway receiver noise figure' },
   coverageRadiusKm: { min: 0.1, max: 100, unit: 'km', step: 0.1, note: 'radius of a coverage run around each gateway (clipped to the terrain)' },
   payloadBytes: { min: 1, max: 255, unit: 'B', step: 1, note: 'application payload of one uplink' },
+  maxNodesPerGateway: { min: 1, max: 1_000_000, unit: 'nodes/gateway', step: 1, note: 'most nodes one gateway may serve in a siting answer; a node that must be heard by k gateways takes a place at each of them' },
 } as const satisfies Record<string, FieldRange>;
 
 export type RangedField = keyof typeof FIELD_RANGES;
@@ -129,4 +139,5 @@ export const sigmaDb = () => ranged('sigmaDb');
 export const noiseFigureDb = () => ranged('noiseFigureDb');
 export const coverageRadiusKm = () => ranged('coverageRadiusKm');
 export const payloadBytes = () => ranged('payloadBytes').int('must be a whole number');
+export const maxNodesPerGateway = () => ranged('maxNodesPerGateway').int('must be a whole number');
 export const nodeEnvironment = () => z.enum(['outdoor', 'indoor', 'pit'], { error: 'must be outdoor, indoor or pit' });

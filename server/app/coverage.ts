@@ -15,7 +15,7 @@ import { MIN_PATH_ANTENNA_HEIGHT_M } from '../planning/path.ts';
 import type { AppliedCalibration } from '../planning/spread.ts';
 import { CLUTTER_CLASSES, clutterHeightsByIndex, type ClutterClass } from '../terrain/clutter.ts';
 import { openGeoRaster, type GeoRaster } from '../terrain/raster.ts';
-import type { CoverageJobParams } from '../jobs/coverage-job.ts';
+import type { CoverageJobParams } from '../jobs/coverage-params.ts';
 import { resolveStoredFile } from '../db/files.ts';
 import type { LinkEngine } from '../jobs/link-engine.ts';
 import { AppError } from './errors.ts';
@@ -39,7 +39,7 @@ export interface CoverageRequest {
   nodeKit?: Partial<CoverageNodeKit>;
   /** A fixed SF for every cell; default: the node SF rule. */
   sf?: number;
-  requiredMarginDb?: number;
+  targetMarginDb?: number;
   useClutter?: boolean;
 }
 
@@ -86,20 +86,20 @@ export async function resolveCoverageRequest(
   const radiusM = request.radiusKm * 1000;
   const maxCells = maxCoverageCells();
   // The finest elevation layer under every gateway; a radius past its edge is clipped (NoData beyond).
-  let chosen: { layer: (typeof layers)[number]; path: string } | null = null;
+  let chosen: { layer: (typeof layers)[number]; windowCells: number[] } | null = null;
   let firstProblem: CoverageInputError | null = null;
   for (const layer of layers) {
     const path = resolveStoredFile(config, layer.filePath);
     const raster = await openReadableRaster(path);
     if (!raster) continue;
     try {
-      let cells = 0;
-      for (const g of gateways) {
+      const windowCells = gateways.map((g) => {
         const w = windowFor(raster, { lat: g.row.lat, lon: g.row.lon, radiusM, maxCells, allowClip: true });
-        cells += w.widthPx * w.heightPx;
-      }
+        return w.widthPx * w.heightPx;
+      });
+      const cells = windowCells.reduce((sum, n) => sum + n, 0);
       if (cells > maxCells * 4) throw new CoverageInputError('too_many_cells', `the run would compute ${cells} cells, above the ceiling of ${maxCells * 4}; use fewer gateways or a smaller radius`);
-      chosen = { layer, path };
+      chosen = { layer, windowCells };
       break;
     } catch (error) {
       if (!(error instanceof CoverageInputError)) throw error;
@@ -138,7 +138,8 @@ export async function resolveCoverageRequest(
           return p.x >= 0 && p.y >= 0 && p.x < raster.widthPx && p.y < raster.heightPx;
         });
         if (covers) {
-          clutter = { layerId: layer.id, name: layer.name, path, codes: 'earshot', heightByClassM };
+          // The stored path (relative to the files folder): every worker resolves it in its own (shared) files folder.
+          clutter = { layerId: layer.id, name: layer.name, path: layer.filePath, codes: 'earshot', heightByClassM };
           break;
         }
       } finally {
@@ -181,7 +182,7 @@ export async function resolveCoverageRequest(
     if (error instanceof AppError) throw new AppError('invalid_input', 'invalid_input', `nodeKit.${error.message}`);
     throw error;
   });
-  const requiredMarginDb = request.requiredMarginDb ?? settings.targetMarginDb;
+  const targetMarginDb = request.targetMarginDb ?? settings.targetMarginDb;
   const { bandPlan, ...radio } = node.radioSettings;
   const nodes = await allNodes(db, plan.id);
   return {
@@ -189,22 +190,24 @@ export async function resolveCoverageRequest(
     radiusKm: request.radiusKm,
     targetHeightM: Math.max(kit.antennaHeightAglM, MIN_PATH_ANTENNA_HEIGHT_M),
     sf: request.sf ?? null,
-    requiredMarginDb,
+    targetMarginDb,
     frequencyMhz: settings.frequencyMhz,
     kFactor: medianEarthFactor(settings.path.deltaN),
     p1812: { deltaN: settings.path.deltaN, n0: settings.path.n0, timePercent: settings.path.timePercent, polarisation: settings.path.polarization },
     budget: {
       nodeKit: node.kit,
       node: node.radio,
-      radio: { ...radio, targetMarginDb: requiredMarginDb, bandPlanId: bandPlan.id },
+      radio: { ...radio, targetMarginDb, bandPlanId: bandPlan.id },
       nodeAntennaHeightAglM: kit.antennaHeightAglM,
       method: settings.path.method,
       deltaN: settings.path.deltaN,
     },
-    terrainPath: chosen.path,
+    // As stored (relative to the files folder): a worker on another machine resolves it in its own mount of the shared folder.
+    terrainPath: chosen.layer.filePath,
     terrainLayerId: chosen.layer.id,
     clutter,
     gateways: gateways.map((g) => ({ id: g.row.id, name: g.row.name, lat: g.row.lat, lon: g.row.lon, heightAglM: g.row.antennaHeightAglM, kit: g.kit, radio: g.radio })),
+    windowCells: chosen.windowCells,
     nodes: nodes.map((n) => ({ id: n.id, name: n.name, lat: n.lat, lon: n.lon })),
   };
 }

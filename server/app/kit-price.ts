@@ -14,7 +14,10 @@ export interface NodeKitParts {
   mastOptionId?: string | null;
 }
 
-export function nodeKitPrice(parts: NodeKitParts, masts: readonly MastOption[]): KitPrice & { mastName: string | null; mastOptionId: string | null } {
+/** A node kit's price with the mast it names (the recommendation, kit chooser and visit sheet show this). */
+export type NodeKitPrice = KitPrice & { mastName: string | null; mastOptionId: string | null };
+
+export function nodeKitPrice(parts: NodeKitParts, masts: readonly MastOption[]): NodeKitPrice {
   const hasFeedline = parts.feedline !== null && parts.feedlineLengthM > 0;
   const mast = mastForHeight(masts, parts.antennaHeightAglM, parts.mastOptionId);
   const price = kitPrice({

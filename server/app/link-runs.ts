@@ -7,7 +7,8 @@
 import { writeWithAudit, type AuditPrincipal } from '../db/repositories/audit.ts';
 import { cancelLinkRun, createLinkRun, findLinkRun, finishEmptyLinkRun, linkRunTotals, listLinkRuns, unfinishedLinkTiles, type LinkRunRow } from '../db/repositories/link-runs.ts';
 import type { PlanRow } from '../db/repositories/plans.ts';
-import { cutLinkTiles, DEFAULT_TILE_PAIRS, type LinkRunJobs } from '../jobs/link-runs.ts';
+import { cutLinkTiles, DEFAULT_TILE_PAIRS } from '../jobs/link-runs.ts';
+import type { LinkRunJobs } from '../jobs/link-run-jobs.ts';
 import type { LinkEngine } from '../jobs/link-engine.ts';
 import { AppError } from './errors.ts';
 

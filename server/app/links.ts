@@ -1,11 +1,11 @@
 // Use cases of links and kit: a node's links, the fleet table, the installer's link
-// check, the visit sheet, kit recommendations (one node, the fleet as a job) and the
+// check, the visit sheet, kit recommendations (one node, the fleet as a run) and the
 // `earshot link` / `earshot recommend` reports. The API routes, the CLI and the loopback
 // admin routes all call these, so every caller gets the same numbers and the same JSON.
 import { z } from 'zod';
 import { recordAudit } from '../db/repositories/audit.ts';
 import type { Principal } from '../db/repositories/accounts.ts';
-import { createKitJob, findPlanById, updateKitJob } from '../db/repositories/links.ts';
+import { createKitRun, findPlanById, updateKitRun } from '../db/repositories/links.ts';
 import { decodeCursor, encodeCursor } from '../db/repositories/pagination.ts';
 import type { PlanRow } from '../db/repositories/plans.ts';
 import { installCautions, linkCheck } from '../planning/check.ts';
@@ -17,7 +17,7 @@ import { describeSpread, planningSpread, type AppliedCalibration, type PlanningS
 import type { LinkStatus } from '../planning/status.ts';
 import { LinkEngine, LinkInputError, type KitOverrides, type NodeLinksOutcome, type PlanContext } from '../jobs/link-engine.ts';
 import { AppError } from './errors.ts';
-import { loadCatalog, recommendForNode, type RecommendRequest } from './recommend.ts';
+import { loadCatalog, recommendForNode, type PricedKitOption, type RecommendRequest } from './recommend.ts';
 import { nodeCautions, visitSheet } from './visit-sheet.ts';
 import { CAUTIONS_FOOTER } from '../planning/cautions.ts';
 
@@ -213,9 +213,15 @@ export async function nodeVisitSheet(engine: LinkEngine, plan: PlanRow, nodeId: 
 }
 
 /**
- * Starts the fleet kit recommendation as a job (its row and audit entry first, then the
- * work in the background). Returns the job and the promise of the work.
+ * Starts the fleet kit recommendation as a run (its row and audit entry first, then the
+ * work in the background). Returns the run and the promise of the work.
  */
+/** What a finished fleet recommendation run stores as its summary (and GET …/recommend/:runId answers as result). */
+export interface FleetRecommendationSummary {
+  counts: { meetsTarget: number; noOption: number; alreadyServed: number };
+  nodes: Array<{ nodeId: string; nodeName: string; status: LinkStatus; anyMeetsTarget: boolean; best: PricedKitOption | null; advice: string[] }>;
+}
+
 /** Where a background job reports what went wrong (the API passes its request logger). */
 export interface JobLog {
   error(detail: Record<string, unknown>, message: string): void;
@@ -224,18 +230,18 @@ export interface JobLog {
 export async function startFleetRecommendation(engine: LinkEngine, plan: PlanRow, principal: Principal, body: RecommendRequest, processId: string, log: JobLog, calibration?: AppliedCalibration | null) {
   const ctx = await planContextFor(engine, plan, calibration);
   const db = engine.database;
-  const job = await createKitJob(db, plan.id, body, principal.userId, processId);
+  const job = await createKitRun(db, plan.id, body, principal.userId, processId);
   await recordAudit(db, { principal, action: 'create', entity: 'kit-recommendation', entityId: job.id, detail: { planId: plan.id } });
   const work = runFleetRecommendation(engine, ctx, job.id, body, log);
   return { job, work };
 }
 
-async function runFleetRecommendation(engine: LinkEngine, ctx: PlanContext, jobId: string, body: RecommendRequest, log: JobLog): Promise<void> {
+async function runFleetRecommendation(engine: LinkEngine, ctx: PlanContext, runId: string, body: RecommendRequest, log: JobLog): Promise<void> {
   const db = engine.database;
   try {
     const catalog = await loadCatalog(db, ctx.teamId);
     const outcomes = await engine.fleet(ctx);
-    const nodes: unknown[] = [];
+    const nodes: FleetRecommendationSummary['nodes'] = [];
     const counts = { meetsTarget: 0, noOption: 0, alreadyServed: 0 };
     let lastWrite = 0;
     for (let i = 0; i < outcomes.length; i++) {
@@ -248,16 +254,16 @@ async function runFleetRecommendation(engine: LinkEngine, ctx: PlanContext, jobI
       const progress = (i + 1) / outcomes.length;
       if (Date.now() - lastWrite > 500 || i === outcomes.length - 1) {
         lastWrite = Date.now();
-        await updateKitJob(db, jobId, { progress: Math.min(progress, 0.999) });
+        await updateKitRun(db, runId, { progress: Math.min(progress, 0.999) });
       }
     }
-    await updateKitJob(db, jobId, { status: 'done', progress: 1, summary: { counts, nodes } });
+    await updateKitRun(db, runId, { status: 'done', progress: 1, summary: { counts, nodes } satisfies FleetRecommendationSummary });
   } catch (error) {
     const known = error instanceof AppError || error instanceof PlanSettingsError || error instanceof InvalidPatternError;
-    // The cause goes to the log with the job id, so "see the server log" leads somewhere.
-    log.error({ err: error, jobId, planId: ctx.plan.id }, 'fleet recommendation job failed');
-    const message = known ? (error as Error).message : `the recommendation failed (job ${jobId}); the server log has the cause under this job id`;
-    await updateKitJob(db, jobId, { status: 'failed', error: message }).catch((writeError: unknown) => log.error({ err: writeError, jobId }, 'could not record the failed job'));
+    // The cause goes to the log with the run id, so "see the server log" leads somewhere.
+    log.error({ err: error, runId, planId: ctx.plan.id }, 'fleet recommendation run failed');
+    const message = known ? (error as Error).message : `the recommendation failed (run ${runId}); the server log has the cause under this run id`;
+    await updateKitRun(db, runId, { status: 'failed', error: message }).catch((writeError: unknown) => log.error({ err: writeError, runId }, 'could not record the failed run'));
   }
 }
 

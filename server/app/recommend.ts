@@ -8,9 +8,8 @@ import type { NodeRow } from '../db/repositories/nodes.ts';
 import type { AntennaDesign } from '../radio/antennas.ts';
 import type { FeedlineType } from '../radio/feedlines.ts';
 import type { MastOption } from '../radio/masts.ts';
-import { nodeKitPrice } from './kit-price.ts';
+import { nodeKitPrice, type NodeKitPrice } from './kit-price.ts';
 import { CAUTIONS_FOOTER, fittedCautions, type CautionGroup } from '../planning/cautions.ts';
-import type { KitPrice } from '../planning/kit-price.ts';
 import { nodeLinkResults, summariseNodeLinks } from '../planning/node-links.ts';
 import { predictPath, type PathPrediction } from '../planning/path.ts';
 import { recommendKit, type KitCandidate, type KitEvaluation, type RankedKitOption, type Recommendation } from '../planning/recommend.ts';
@@ -29,7 +28,7 @@ export interface PricedKitOption extends RankedKitOption {
   antennaName: string;
   feedlineName: string | null;
   mastName: string | null;
-  price: KitPrice;
+  price: NodeKitPrice;
 }
 
 export interface NodeRecommendation extends Omit<Recommendation, 'options'> {

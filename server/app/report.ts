@@ -8,7 +8,7 @@ import type { Config } from '../config.ts';
 import type { PlanRow } from '../db/repositories/plans.ts';
 import { latestDoneCoverageRun, planPositions } from '../db/repositories/scenarios.ts';
 import { allTerrainLayers } from '../db/repositories/terrain-layers.ts';
-import type { CoverageJobParams } from '../jobs/coverage-job.ts';
+import type { CoverageJobParams } from '../jobs/coverage-params.ts';
 import { RESULT_FILES, resolveStoredFile, resultDir } from '../db/files.ts';
 import type { LinkEngine } from '../jobs/link-engine.ts';
 import { openGeoRaster, type GeoRaster } from '../terrain/raster.ts';

@@ -39,7 +39,7 @@ import {
 import { type LinkEngine, type PlanContext } from '../jobs/link-engine.ts';
 import { computeSitingMatrix, matrixInputs, SitingCancelled, type SitingCandidate, type SitingMatrix } from '../jobs/siting-matrix.ts';
 import { splitSitingMatrix } from '../jobs/siting-matrix-split.ts';
-import type { LinkRunJobs } from '../jobs/link-runs.ts';
+import type { LinkRunJobs } from '../jobs/link-run-jobs.ts';
 import { gatewayKitPrice } from './kit-price.ts';
 import { DEFAULT_GATEWAY_ANTENNA_ID, DEFAULT_GATEWAY_FEEDLINE_ID, DEFAULT_GATEWAY_NOISE_FIGURE_DB } from '../planning/gateway-kit.ts';
 import { isExcluded, localHighPoints, parseExclusionAreas, pickSpaced, type ExclusionArea, type HighPoint, type LonLatBox } from '../siting/candidates.ts';
@@ -393,7 +393,9 @@ export async function executeSitingRun(deps: SitingDeps, runId: string): Promise
     let matrix: SitingMatrix;
     let fromCache = false;
     if (cached && cached.candidates.length === built.candidates.length) {
-      matrix = cached;
+      // The hash covers what the links depend on (positions, radio kit), not prices or the mast
+      // choice: the cells are reused, the candidates (cost, mast, names) are this run's own.
+      matrix = { ...cached, candidates: [...built.candidates] };
       fromCache = true;
     } else {
       const onProgress = async (fraction: number) => reportSitingProgress(deps.db, runId, 0.02 + 0.9 * fraction);

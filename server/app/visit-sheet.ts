@@ -6,8 +6,7 @@ import { buildSheet, BuildSheetError, type BuildSheet } from '../radio/build-she
 import { installCautions, percentileRange, type ExpectedRange } from '../planning/check.ts';
 import type { NodeRecommendation } from './recommend.ts';
 import type { NodeLinksOutcome, PlanContext } from '../jobs/link-engine.ts';
-import { nodeKitPrice } from './kit-price.ts';
-import type { KitPrice } from '../planning/kit-price.ts';
+import { nodeKitPrice, type NodeKitPrice } from './kit-price.ts';
 import { STATUS_WORDS, statusPhrase, type LinkStatus } from '../planning/status.ts';
 import { fittedCautions, CAUTIONS_FOOTER, type CautionGroup } from '../planning/cautions.ts';
 import type { MastOption } from '../radio/masts.ts';
@@ -17,7 +16,7 @@ export interface VisitSheet {
   generatedAt: string;
   plan: { id: string; name: string; bandPlan: string; frequencyMhz: number };
   node: { id: string; name: string; deviceType: string; lat: number; lon: number; environment: string; installStatus: string; accessNotes: string };
-  status: string;
+  status: LinkStatus;
   combinedDeliveryProbability: number;
   kit: {
     antenna: { id: string; name: string; homemade: boolean; gainDbi: number };
@@ -26,9 +25,9 @@ export interface VisitSheet {
     mastOptionId: string | null;
     mastName: string | null;
     /** The one kit price (server/app/kit-price.ts), with part names. */
-    price: KitPrice;
+    price: NodeKitPrice;
     meetsTarget: boolean;
-    recommended: { antennaDesignId: string; antennaName: string; mastHeightM: number; mastName: string | null; feedlineId: string | null; feedlineName: string | null; feedlineLengthM: number; cost: number; price: KitPrice; reason: string } | null;
+    recommended: { antennaDesignId: string; antennaName: string; mastHeightM: number; mastName: string | null; feedlineId: string | null; feedlineName: string | null; feedlineLengthM: number; cost: number; price: NodeKitPrice; reason: string } | null;
   };
   buildSheet: BuildSheet | null;
   gateways: Array<{ id: string; name: string; distanceM: number; aimAzimuthDeg: number; elevationDeg: number; sf: number; expectedRssiDbm: ExpectedRange; expectedSnrDb: ExpectedRange; sigmaDb: number; marginDb: number }>;
@@ -112,7 +111,7 @@ function esc(value: unknown): string {
 const dec = (value: number, digits = 1) => (Number.isFinite(value) ? value.toFixed(digits) : '—');
 
 /** Printable HTML of a visit sheet (no scripts, no external resources). */
-const priceRows = (price: KitPrice): string =>
+const priceRows = (price: NodeKitPrice): string =>
   `${price.lines.map((l) => `<tr><td>${esc(l.name)}</td><td>${l.unit === 'm' ? `${dec(l.quantity)} m` : `× ${l.quantity}`}</td><td class="num">${dec(l.costUsd, 2)} USD</td></tr>`).join('')}<tr class="total"><th colspan="2">Kit total</th><td class="num">${dec(price.totalUsd, 2)} USD</td></tr>`;
 
 /** A readable time in the viewer's zone when known (?tz= from the app), else UTC said plainly. */

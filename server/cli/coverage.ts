@@ -8,8 +8,6 @@ import { z } from 'zod';
 import { CliUsageError, defineCommand, integerOption, latLonOption, numberOption, stringOption, type CommandDefinition } from './framework.ts';
 import { openGeoRaster, RasterError } from '../terrain/raster.ts';
 import { CoverageInputError, loadTerrainWindow, writeOnRasterGrid } from '../coverage/terrain-window.ts';
-import { runArea } from '../jobs/area-runner.ts';
-import { defaultWorkerCount } from '../jobs/pool.ts';
 import { LOSS_NODATA } from '../coverage/outputs.ts';
 import { BYTE_NODATA } from '../coverage/rasterise.ts';
 import { viewshedWavefront } from '../coverage/wavefront.ts';
@@ -59,17 +57,23 @@ export const coverageCommands: CommandDefinition[] = [
           frequencyMhz: o['frequency-mhz'] ?? 915,
           p1812: { siteLatDeg: o.site.lat },
         };
-        // Default: every core for big windows; small ones finish before threads would have started.
-        const cells = loaded.terrain.frame.widthPx * loaded.terrain.frame.heightPx;
-        const workers = o.workers ?? (cells > 1_000_000 || o.mode === 'full' ? defaultWorkerCount() : 1);
-        // los on a projected DEM: one pass over the cells (wavefront.ts), in this thread; otherwise the ray sweeps.
+        // los on a projected DEM: one pass over the cells (wavefront.ts), in this thread; otherwise the ray
+        // sweeps on the worker pool (imported only then: the los run does not load the pool and the models).
         const wavefront = o.mode === 'los' ? viewshedWavefront(loaded.terrain, request, radiusM) : null;
-        const result = wavefront
-          ? { ...wavefront, plan: null }
-          : await runArea(loaded.terrain, request, { workers, onProgress: (fraction) => context.progress(fraction, o.mode) });
+        let workers = 1;
+        let result;
+        if (wavefront) result = { ...wavefront, plan: null };
+        else {
+          const [{ runArea }, { defaultWorkerCount }] = await Promise.all([import('../jobs/area-runner.ts'), import('../jobs/pool.ts')]);
+          // Default: every core for big windows; small ones finish before threads would have started.
+          const cells = loaded.terrain.frame.widthPx * loaded.terrain.frame.heightPx;
+          workers = o.workers ?? (cells > 1_000_000 || o.mode === 'full' ? defaultWorkerCount() : 1);
+          result = await runArea(loaded.terrain, request, { workers, onProgress: (fraction) => context.progress(fraction, o.mode) });
+        }
         let inside = 0;
         if (result.visible) {
-          for (let i = 0; i < result.visible.length; i++) if (result.visible[i] !== BYTE_NODATA) inside++;
+          if (wavefront) inside = wavefront.insideCells;
+          else for (let i = 0; i < result.visible.length; i++) if (result.visible[i] !== BYTE_NODATA) inside++;
           writeOnRasterGrid(o.out, raster, loaded.placement, result.visible, 'uint8', BYTE_NODATA, 'none');
         } else if ('lossDb' in result && result.lossDb) {
           for (let i = 0; i < result.lossDb.length; i++) if (result.lossDb[i] === result.lossDb[i]) inside++;
@@ -80,7 +84,7 @@ export const coverageCommands: CommandDefinition[] = [
           mode: o.mode,
           cells: inside,
           seconds,
-          workers: wavefront ? 1 : workers,
+          workers,
           method: wavefront ? 'wavefront' : 'rays',
           visibleCells: result.visibleCells ?? null,
           rays: result.plan?.rayCount ?? null,

@@ -30,7 +30,7 @@ export interface Composite {
   deliveryProbability: Float32Array;
 }
 
-export function buildComposite(widthPx: number, heightPx: number, parts: PlacedProducts[], requiredMarginDb: number): Composite {
+export function buildComposite(widthPx: number, heightPx: number, parts: PlacedProducts[], targetMarginDb: number): Composite {
   const n = widthPx * heightPx;
   const bestServer = new Int16Array(n).fill(-1);
   const marginDb = new Float32Array(n).fill(Number.NaN);
@@ -59,7 +59,7 @@ export function buildComposite(widthPx: number, heightPx: number, parts: PlacedP
           marginDb[dst] = p.marginDb[src];
           lossDb[dst] = part.lossDb[src];
         }
-        if (p.marginDb[src] >= requiredMarginDb && redundancy[dst] < 255) redundancy[dst]++;
+        if (p.marginDb[src] >= targetMarginDb && redundancy[dst] < 255) redundancy[dst]++;
         if (bestSf[dst] === 255) bestSf[dst] = 0;
         const sf = p.bestSf[src];
         if (sf >= 7 && sf <= 12 && (bestSf[dst] === 0 || sf < bestSf[dst])) bestSf[dst] = sf;
@@ -75,8 +75,8 @@ export function buildComposite(widthPx: number, heightPx: number, parts: PlacedP
 export type ServiceClass = 'served' | 'marginal' | 'unserved';
 
 /** served: margin ≥ required; marginal: 0 ≤ margin < required; unserved: below sensitivity or not reached. */
-export function classify(marginDb: number, requiredMarginDb: number): ServiceClass {
-  if (marginDb === marginDb && marginDb >= requiredMarginDb) return 'served';
+export function classify(marginDb: number, targetMarginDb: number): ServiceClass {
+  if (marginDb === marginDb && marginDb >= targetMarginDb) return 'served';
   if (marginDb === marginDb && marginDb >= 0) return 'marginal';
   return 'unserved';
 }
@@ -108,7 +108,7 @@ export function summarise(
   composite: Composite,
   inside: Uint8Array,
   gatewayCount: number,
-  requiredMarginDb: number,
+  targetMarginDb: number,
   cellAreaKm2: (row: number) => number,
   nodes: NodePosition[],
 ): CoverageSummary {
@@ -124,7 +124,7 @@ export function summarise(
       if (!inside[i]) continue;
       cells++;
       area += a;
-      const c = classify(composite.marginDb[i], requiredMarginDb);
+      const c = classify(composite.marginDb[i], targetMarginDb);
       counts[c]++;
       areas[c] += a;
       const best = composite.bestServer[i];
@@ -142,7 +142,7 @@ export function summarise(
       nodeCounts.outside++;
       continue;
     }
-    nodeCounts[classify(composite.marginDb[i], requiredMarginDb)]++;
+    nodeCounts[classify(composite.marginDb[i], targetMarginDb)]++;
     const best = composite.bestServer[i];
     if (best >= 0 && composite.marginDb[i] >= 0) gateways[best].nodes++;
   }

@@ -124,14 +124,24 @@ export function writeOnRasterGrid(
       readBlock: (_level, bx0, by0, w, h) => {
         const block = make(w * h);
         block.fill(noData);
+        // Columns of this block that the window covers.
+        const c0 = Math.max(bx0, placement.x0);
+        const c1 = Math.min(bx0 + w, placement.x0 + placement.widthPx);
+        if (c1 <= c0) return block;
+        // Bytes into a byte raster hold no NaN: whole rows are copied as they are.
+        const copyRows = sampleType === 'uint8' && data instanceof Uint8Array;
         for (let row = 0; row < h; row++) {
           const wy = by0 + row - placement.y0;
           if (wy < 0 || wy >= placement.heightPx) continue;
-          for (let col = 0; col < w; col++) {
-            const wx = bx0 + col - placement.x0;
-            if (wx < 0 || wx >= placement.widthPx) continue;
-            const v = data[wy * placement.widthPx + wx];
-            block[row * w + col] = v === v ? v : noData;
+          const from = wy * placement.widthPx + (c0 - placement.x0);
+          const to = row * w + (c0 - bx0);
+          if (copyRows) {
+            block.set(data.subarray(from, from + (c1 - c0)), to);
+            continue;
+          }
+          for (let k = 0; k < c1 - c0; k++) {
+            const v = data[from + k];
+            block[to + k] = v === v ? v : noData;
           }
         }
         return block;

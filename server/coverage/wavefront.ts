@@ -16,10 +16,11 @@ const NO_HORIZON = -1e30;
 
 /**
  * Visibility of every window cell (1 visible, 0 hidden, 255 outside the
- * radius or NoData) for a projected window; returns null for geographic
- * windows (their rays are not straight in pixel space; use the ray sweep).
+ * radius or NoData) for a projected window, with the counts of visible and of
+ * inside (not 255) cells; returns null for geographic windows (their rays are
+ * not straight in pixel space; use the ray sweep).
  */
-export function viewshedWavefront(terrain: TerrainWindow, site: SweepSite, radiusM: number): { visible: Uint8Array; visibleCells: number } | null {
+export function viewshedWavefront(terrain: TerrainWindow, site: SweepSite, radiusM: number): { visible: Uint8Array; visibleCells: number; insideCells: number } | null {
   const f = terrain.frame;
   if (f.kind !== 'projected') return null;
   const w = f.widthPx;
@@ -47,12 +48,26 @@ export function viewshedWavefront(terrain: TerrainWindow, site: SweepSite, radiu
   const withGround = new Float32Array(w * h);
   const visible = new Uint8Array(w * h).fill(BYTE_NODATA);
   let visibleCells = 0;
+  let insideCells = 0;
   const o = or * w + oc;
   withGround[o] = NO_HORIZON;
   if (elevation[o] === elevation[o] && (e0 + oc * g[1] + or * g[2]) ** 2 + (n0 + oc * g[4] + or * g[5]) ** 2 <= radius2) {
     visible[o] = 1;
     visibleCells++;
+    insideCells++;
   }
+  // Cells that cannot matter are skipped (north-up grids): with D a cell's distance from the observer's
+  // cell centre in whole-cell offsets, each of the two predecessors of a cell on ring n lies at most
+  // D·(n−1)/n + (one cell along the side) from it, and D/n ≥ the cell size across the side, so D grows by
+  // at most |cellX − cellY| per ring going inwards. Every cell an inside cell depends on (itself, its
+  // predecessors, theirs, …) therefore has D ≤ radius + (site to cell-centre offset) + rings·|cellX − cellY|;
+  // cells beyond that bound (plus one cell of margin) are never read by a cell inside the radius and are
+  // outside it themselves, so skipping them leaves every output cell as it was (255 outside the radius).
+  const northUp = g[2] === 0 && g[4] === 0;
+  const cellX = Math.abs(g[1]);
+  const cellY = Math.abs(g[5]);
+  const needM = radiusM + Math.hypot(cellX, cellY) + rings * Math.abs(cellX - cellY) + Math.max(cellX, cellY);
+  const need2 = needM * needM;
   for (let n = 1; n <= rings; n++) {
     const back = (n - 1) / n;
     // Cells of ring n: |dc| = n (left/right sides, predecessors in column oc ± (n−1)) or |dr| = n (top/bottom).
@@ -66,8 +81,15 @@ export function viewshedWavefront(terrain: TerrainWindow, site: SweepSite, radiu
       const hi = vertical ? n : n - 1;
       const centre = vertical ? or : oc;
       const limit = vertical ? h : w;
-      const startT = Math.max(lo, -centre);
-      const endT = Math.min(hi, limit - 1 - centre);
+      let startT = Math.max(lo, -centre);
+      let endT = Math.min(hi, limit - 1 - centre);
+      if (northUp) {
+        const acrossM = n * (vertical ? cellX : cellY);
+        if (acrossM * acrossM > need2) continue;
+        const reach = Math.floor(Math.sqrt(need2 - acrossM * acrossM) / (vertical ? cellY : cellX));
+        startT = Math.max(startT, -reach);
+        endT = Math.min(endT, reach);
+      }
       const prevFixed = vertical ? oc + sign * (n - 1) : or + sign * (n - 1);
       // Cell index, and local metres, as affine functions of the position u = centre + t along the side
       // (no per-cell branch on the side's orientation).
@@ -100,6 +122,7 @@ export function viewshedWavefront(terrain: TerrainWindow, site: SweepSite, radiu
         const slope = lowered / d;
         withGround[cell] = slope > horizon ? slope : horizon;
         if (d2 > radius2) continue;
+        insideCells++;
         if ((lowered + targetM) / d >= horizon) {
           visible[cell] = 1;
           visibleCells++;
@@ -109,5 +132,5 @@ export function viewshedWavefront(terrain: TerrainWindow, site: SweepSite, radiu
       }
     }
   }
-  return { visible, visibleCells };
+  return { visible, visibleCells, insideCells };
 }

@@ -1,12 +1,14 @@
 // Where the files the database rows point at live, and the only code that resolves or removes
 // them: terrain uploads under <filesDir>/terrain/<planId>/, coverage results under
-// <filesDir>/coverage/<runId>/. Rows store paths relative to filesDir (absolute paths, which
+// <filesDir>/coverage/<runId>/, the per-gateway parts of a split coverage run under
+// <filesDir>/coverage/<runId>.parts/ until its composite is built. Rows store paths
+// relative to filesDir (absolute paths, which
 // tests use, stay as they are; a path relative to the data folder is an older layout).
 // Used by the link engine and the coverage job (server/jobs), the use cases (server/app) and
 // the routes (server/api), so every room resolves a stored path the same way.
-import { existsSync } from 'node:fs';
+import { existsSync, mkdirSync, renameSync, rmSync, writeFileSync } from 'node:fs';
 import { readdir, rm, stat } from 'node:fs/promises';
-import { isAbsolute, join, relative, resolve } from 'node:path';
+import { dirname, isAbsolute, join, relative, resolve } from 'node:path';
 import type { Config } from '../config.ts';
 import type { Database } from './database.ts';
 import type { PlanFiles } from './repositories/plans.ts';
@@ -29,6 +31,45 @@ export function resultDir(config: Pick<Config, 'filesDir'>, runId: string): stri
   return join(config.filesDir, 'coverage', runId);
 }
 
+/** The folder of a split coverage run's per-gateway parts (server/jobs/coverage-split.ts), removed once the run finishes. */
+export function coveragePartsDir(config: Pick<Config, 'filesDir'>, runId: string): string {
+  return join(config.filesDir, 'coverage', `${runId}.parts`);
+}
+
+/** The part of gateway `index` of a split coverage run: keyed by run and gateway, so a retried child overwrites it. */
+export function coveragePartFile(config: Pick<Config, 'filesDir'>, runId: string, index: number): string {
+  return join(coveragePartsDir(config, runId), `gateway-${index}.part`);
+}
+
+/**
+ * Writes `bytes` to `path` atomically: a temporary file beside it, then one rename
+ * (a reader sees the old file or the whole new one, never a half-written one; a
+ * writer killed before the rename leaves only the temporary file, which
+ * `removeCoverageParts` and `removePlanFiles` clear). `beforeRename` may refuse
+ * (false): the temporary file is removed and nothing is replaced.
+ */
+export async function writeFileAtomic(path: string, bytes: Uint8Array, beforeRename?: () => Promise<boolean>): Promise<boolean> {
+  const temp = `${path}.partial-${process.pid}-${Date.now()}`;
+  mkdirSync(dirname(path), { recursive: true });
+  try {
+    writeFileSync(temp, bytes);
+    if (beforeRename && !(await beforeRename())) {
+      rmSync(temp, { force: true });
+      return false;
+    }
+    renameSync(temp, path);
+    return true;
+  } catch (error) {
+    rmSync(temp, { force: true });
+    throw error;
+  }
+}
+
+/** Removes a split coverage run's parts folder (its composite is built, or the run ended without one). */
+export function removeCoverageParts(config: Pick<Config, 'filesDir'>, runId: string): void {
+  rmSync(coveragePartsDir(config, runId), { recursive: true, force: true });
+}
+
 /** The folder terrain uploads live in (one sub-folder per plan). */
 export function terrainDir(config: Pick<Config, 'filesDir'>): string {
   return join(config.filesDir, 'terrain');
@@ -47,8 +88,8 @@ export async function removeTerrainFileIfUnused(db: Database, config: FileConfig
 /**
  * Removes a deleted plan's files: <filesDir>/terrain/<planId>/ (uploads, incl. unfinished
  * ones), terrain files it referenced elsewhere under filesDir, and its coverage result
- * folders (with any `.partial-*` folders of interrupted runs). Never touches anything outside
- * filesDir. Returns the paths that could not be removed.
+ * folders (with any `.partial-*` folders of interrupted runs and `.parts` folders of split
+ * runs). Never touches anything outside filesDir. Returns the paths that could not be removed.
  */
 export async function removePlanFiles(filesDir: string, planId: string, files: PlanFiles): Promise<string[]> {
   const root = resolve(filesDir);
@@ -75,7 +116,7 @@ export async function removePlanFiles(filesDir: string, planId: string, files: P
   const partials = await readdir(coverageDir).catch(() => [] as string[]);
   for (const runId of files.coverageRunIds) {
     targets.add(resultDir({ filesDir: root }, runId));
-    for (const name of partials) if (name.startsWith(`${runId}.partial-`)) targets.add(join(coverageDir, name));
+    for (const name of partials) if (name.startsWith(`${runId}.partial-`) || name === `${runId}.parts`) targets.add(join(coverageDir, name));
   }
   const failed: string[] = [];
   for (const target of targets) {
@@ -85,25 +126,37 @@ export async function removePlanFiles(filesDir: string, planId: string, files: P
   return failed;
 }
 
+/**
+ * Removes the regular file at `path` when it was last written at least `minAgeMs` before `nowMs`;
+ * true when it removed it. A file that is gone, is not a regular file, or is younger is left alone
+ * (a young file may be an upload still being written).
+ */
+export async function removeIfOlderThan(path: string, nowMs: number, minAgeMs: number): Promise<boolean> {
+  const info = await stat(path).catch(() => null);
+  if (!info || !info.isFile() || nowMs - info.mtimeMs < minAgeMs) return false;
+  await rm(path, { force: true });
+  return true;
+}
+
+/** The per-plan folders under <filesDir>/terrain/ (none when the folder does not exist). */
+async function terrainPlanDirs(terrainDir: string): Promise<string[]> {
+  try {
+    return (await readdir(terrainDir, { withFileTypes: true })).filter((entry) => entry.isDirectory()).map((entry) => entry.name);
+  } catch {
+    return [];
+  }
+}
+
 /** Removes `.incoming-*.tif` upload files under <filesDir>/terrain/<planId>/ not written to for `minAgeMs`. */
 export async function sweepIncomingFiles(terrainDir: string, minAgeMs: number): Promise<string[]> {
   const removed: string[] = [];
-  let planDirs: string[];
-  try {
-    planDirs = (await readdir(terrainDir, { withFileTypes: true })).filter((entry) => entry.isDirectory()).map((entry) => entry.name);
-  } catch {
-    return removed;
-  }
   const now = Date.now();
-  for (const planId of planDirs) {
+  for (const planId of await terrainPlanDirs(terrainDir)) {
     const dir = join(terrainDir, planId);
     for (const file of await readdir(dir).catch(() => [] as string[])) {
       if (!/^\.incoming-[0-9a-f-]+\.tif$/.test(file)) continue;
       const path = join(dir, file);
-      const info = await stat(path).catch(() => null);
-      if (!info || !info.isFile() || now - info.mtimeMs < minAgeMs) continue;
-      await rm(path, { force: true });
-      removed.push(path);
+      if (await removeIfOlderThan(path, now, minAgeMs)) removed.push(path);
     }
   }
   return removed;
@@ -111,25 +164,16 @@ export async function sweepIncomingFiles(terrainDir: string, minAgeMs: number): 
 
 /** Removes files under <filesDir>/terrain/<planId>/ that no terrain layer row references and that are older than `minAgeMs`. */
 export async function sweepOrphanFiles(db: Database, terrainDir: string, minAgeMs: number): Promise<string[]> {
-  let planDirs: string[];
-  try {
-    planDirs = (await readdir(terrainDir, { withFileTypes: true })).filter((entry) => entry.isDirectory()).map((entry) => entry.name);
-  } catch {
-    return [];
-  }
   const removed: string[] = [];
   const now = Date.now();
-  for (const planId of planDirs) {
+  for (const planId of await terrainPlanDirs(terrainDir)) {
     const dir = join(terrainDir, planId);
     // Layers of this plan and of its copies (which share the files) keep a file.
     const referenced = await terrainFileNamesReferencedIn(db, planId);
     for (const file of await readdir(dir)) {
       if (referenced.has(file)) continue;
       const path = join(dir, file);
-      const info = await stat(path).catch(() => null);
-      if (!info || !info.isFile() || now - info.mtimeMs < minAgeMs) continue;
-      await rm(path, { force: true });
-      removed.push(path);
+      if (await removeIfOlderThan(path, now, minAgeMs)) removed.push(path);
     }
   }
   return removed;

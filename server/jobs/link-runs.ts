@@ -29,8 +29,11 @@ import type { PathPrediction } from '../planning/path.ts';
 import { AppError } from '../app/errors.ts';
 import { LinkInputError, pathEnd, type GatewayContext, type LinkEngine, type PlanContext, type ResolvedNode } from './link-engine.ts';
 import type { LinkPathPair } from './link-pool.ts';
-import { queuePrefix, redisConnection } from './runner.ts';
+import { queuePrefix, redisConnection } from './queue-connection.ts';
+import type { LinkRunJobs } from './link-run-jobs.ts';
 import { candidateRow, predictSitingBlock, SitingCancelled, type SitingCandidate, type SitingMatrixBlock } from './siting-matrix.ts';
+import { COVERAGE_PARTS_KIND, CoveragePartExecutor, type CoveragePartsParams } from './coverage-split.ts';
+import type { AreaPool } from './area-runner.ts';
 
 /** Kind of a LinkRun whose tiles are blocks of a siting run's matrix (server/jobs/siting-matrix-split.ts). */
 export const SITING_MATRIX_KIND = 'siting-matrix';
@@ -128,11 +131,21 @@ export interface TileOptions {
   onBatch?: (info: { runId: string; index: number; pairsDone: number }) => Promise<void> | void;
 }
 
-/** Executes tiles with one link engine; keeps each run's plan context for the next tile of that run. */
+/**
+ * Executes tiles with one link engine; keeps each run's plan context for the next tile of that run.
+ * Tiles of a split coverage run (one gateway each) go to a CoveragePartExecutor on this process's
+ * area pool (`areaPool`, none: in the calling thread).
+ */
 export class LinkTileExecutor {
   private readonly contexts = new Map<string, { at: number; ctx: Promise<PlanContext> }>();
+  private readonly coverage: CoveragePartExecutor;
 
-  constructor(private readonly engine: LinkEngine) {}
+  constructor(
+    private readonly engine: LinkEngine,
+    options: { config: Pick<Config, 'filesDir' | 'dataDir'>; areaPool?: () => AreaPool | undefined },
+  ) {
+    this.coverage = new CoveragePartExecutor(engine.database, options.config, options.areaPool);
+  }
 
   private context(runId: string, planId: string, workerId: string): Promise<PlanContext> {
     const now = Date.now();
@@ -168,7 +181,6 @@ export class LinkTileExecutor {
     try {
       const tile = await findLinkTile(db, runId, index);
       if (!tile) return { kind: 'skipped', reason: 'no such tile' };
-      const ctx = await this.context(runId, run.planId, options.workerId);
       const checkpoint = async (pairsDone: number) => {
         await options.onBatch?.({ runId, index, pairsDone });
         // Give the event loop a turn (the queue's lock renewal runs on a timer), then check for a cancel.
@@ -179,11 +191,17 @@ export class LinkTileExecutor {
       const gatewayIds = tile.gatewayIds as string[];
       let rows: LinkRow[] | null = [];
       let result: unknown;
-      if (run.kind === SITING_MATRIX_KIND) {
+      if (run.kind === COVERAGE_PARTS_KIND) {
+        // One gateway of a split coverage run: its part goes to the files folder, its place and checksum in the result.
+        const part = await this.coverage.predict(run.params as unknown as CoveragePartsParams, index, tile.pairs, options.workerId, checkpoint);
+        if (part === null) rows = null;
+        else result = part;
+      } else if (run.kind === SITING_MATRIX_KIND) {
+        const ctx = await this.context(runId, run.planId, options.workerId);
         const block = await this.sitingBlock(ctx, run.params as unknown as SitingMatrixParams, nodeIds, gatewayIds, checkpoint);
         if (block === null) rows = null;
         else result = block;
-      } else rows = await this.predict(ctx, nodeIds, gatewayIds, checkpoint);
+      } else rows = await this.predict(await this.context(runId, run.planId, options.workerId), nodeIds, gatewayIds, checkpoint);
       if (rows === null) return { kind: 'skipped', reason: 'cancelled or taken over while running' };
       const done = await completeLinkTile(db, { runId, planId: run.planId, index, attempt, workerId: options.workerId, rows, result, seconds: (performance.now() - t0) / 1000 });
       return { kind: 'done', written: done.written, runDone: done.runDone };
@@ -279,16 +297,6 @@ export class LinkTileExecutor {
   }
 }
 
-/** Where tiles go: this process, or the BullMQ queue that `npm run worker` processes take them from. */
-export interface LinkRunJobs {
-  readonly kind: 'in-process' | 'bullmq';
-  enqueue(runId: string, indices: readonly number[]): Promise<void>;
-  /** Takes queued tiles of a cancelled run off the queue (running ones stop at their next batch). */
-  withdraw(runId: string, indices: readonly number[]): Promise<void>;
-  /** Resolves when nothing is queued in this process (tests; a no-op for the queue). */
-  idle(): Promise<void>;
-  close(): Promise<void>;
-}
 
 /** The in-process runner: tiles one after the other, each spread over the link engine's worker threads. */
 class InProcessLinkRuns implements LinkRunJobs {
@@ -299,8 +307,8 @@ class InProcessLinkRuns implements LinkRunJobs {
   private closed = false;
   private readonly workerId = `${hostname()}:${process.pid}`;
 
-  constructor(engine: LinkEngine) {
-    this.executor = new LinkTileExecutor(engine);
+  constructor(engine: LinkEngine, options: ConstructorParameters<typeof LinkTileExecutor>[1]) {
+    this.executor = new LinkTileExecutor(engine, options);
   }
 
   async enqueue(runId: string, indices: readonly number[]): Promise<void> {
@@ -380,9 +388,18 @@ class BullLinkRuns implements LinkRunJobs {
   }
 }
 
-/** The runner for this configuration; unfinished tiles of earlier runs are queued again. */
+/**
+ * The runner for this configuration, as it is: the BullMQ queue with REDIS_URL, else this
+ * process (its coverage children on `areaPool`). A split coverage run's parent queues its own
+ * children (coverage-split.ts), also after a restart.
+ */
+export function linkRunJobsFor(config: Config, engine: LinkEngine, options: { areaPool?: () => AreaPool | undefined } = {}, env: NodeJS.ProcessEnv = process.env): LinkRunJobs {
+  return config.redisUrl ? new BullLinkRuns(config.redisUrl, queuePrefix(env)) : new InProcessLinkRuns(engine, { config, areaPool: options.areaPool });
+}
+
+/** The runner for this configuration; unfinished tiles of earlier runs are queued again (a coverage run's children by their parent). */
 export async function createLinkRunJobs(db: Database, config: Config, engine: LinkEngine, env: NodeJS.ProcessEnv = process.env): Promise<LinkRunJobs> {
-  const jobs: LinkRunJobs = config.redisUrl ? new BullLinkRuns(config.redisUrl, queuePrefix(env)) : new InProcessLinkRuns(engine);
-  for (const run of await unfinishedLinkRuns(db)) await jobs.enqueue(run.id, await unfinishedLinkTiles(db, run.id));
+  const jobs = linkRunJobsFor(config, engine, {}, env);
+  for (const run of await unfinishedLinkRuns(db)) if (run.kind !== COVERAGE_PARTS_KIND) await jobs.enqueue(run.id, await unfinishedLinkTiles(db, run.id));
   return jobs;
 }

@@ -3,7 +3,9 @@
 // using every thread). With REDIS_URL: a BullMQ queue; `npm run worker`
 // processes (server/jobs/worker-main.ts) on any machine take the jobs.
 // Job state always lives in the CoverageRun row, so a restart loses nothing:
-// unfinished rows are queued again when the runner starts.
+// unfinished rows are queued again when the runner starts. A run of several
+// gateways is split into a child per gateway on the link-tiles runner
+// (`parts`: this process, or the BullMQ link-tiles queue), see coverage-split.ts.
 import { hostname } from 'node:os';
 import { Queue } from 'bullmq';
 import type { Database } from '../db/client.ts';
@@ -11,31 +13,21 @@ import type { Config } from '../config.ts';
 import { unfinishedCoverageRuns } from '../db/repositories/coverage-runs.ts';
 import { executeCoverageRun } from './coverage-job.ts';
 import { createAreaPool, type AreaPool } from './area-runner.ts';
+import type { LinkEngine } from './link-engine.ts';
+import { linkRunJobsFor } from './link-runs.ts';
+import type { LinkRunJobs } from './link-run-jobs.ts';
+import { queuePrefix, redisConnection } from './queue-connection.ts';
 
 export const COVERAGE_QUEUE = 'coverage';
+/** Attempts per coverage job on the queue: a worker that dies, or cannot read a layer, hands the run to another. */
+export const COVERAGE_ATTEMPTS = 3;
 
 export interface CoverageJobs {
   readonly kind: 'in-process' | 'bullmq';
+  /** Where the children of split runs go (cancel takes the queued ones off it). */
+  readonly parts: LinkRunJobs;
   enqueue(runId: string): Promise<void>;
   close(): Promise<void>;
-}
-
-/** Redis key prefix of the queues (EARSHOT_QUEUE_PREFIX, default "earshot"), so several installs or test runs can share one Redis. */
-export function queuePrefix(env: NodeJS.ProcessEnv = process.env): string {
-  return env.EARSHOT_QUEUE_PREFIX?.trim() || 'earshot';
-}
-
-/** BullMQ connection options from a redis:// URL. */
-export function redisConnection(url: string): { host: string; port: number; password?: string; username?: string; db?: number; maxRetriesPerRequest: null } {
-  const parsed = new URL(url);
-  return {
-    host: parsed.hostname || '127.0.0.1',
-    port: parsed.port ? Number(parsed.port) : 6379,
-    password: parsed.password ? decodeURIComponent(parsed.password) : undefined,
-    username: parsed.username ? decodeURIComponent(parsed.username) : undefined,
-    db: parsed.pathname && parsed.pathname.length > 1 ? Number(parsed.pathname.slice(1)) : undefined,
-    maxRetriesPerRequest: null,
-  };
 }
 
 class InProcessJobs implements CoverageJobs {
@@ -44,11 +36,17 @@ class InProcessJobs implements CoverageJobs {
   private queue: string[] = [];
   private running: Promise<void> | null = null;
   private closed = false;
+  private readonly shutdown = new AbortController();
+  readonly parts: LinkRunJobs;
 
   constructor(
     private readonly db: Database,
     private readonly config: Config,
-  ) {}
+    engine: LinkEngine,
+  ) {
+    // The children run in this process too, on the same area pool, while their parent waits.
+    this.parts = linkRunJobsFor(config, engine, { areaPool: () => this.pool ?? undefined });
+  }
 
   async enqueue(runId: string): Promise<void> {
     if (this.closed) throw new Error('job runner is closed');
@@ -62,7 +60,7 @@ class InProcessJobs implements CoverageJobs {
         const runId = this.queue.shift()!;
         // Small windows run faster in the calling thread than the pool can start up.
         this.pool ??= this.config.workerCount > 1 ? createAreaPool(this.config.workerCount) : null;
-        await executeCoverageRun(this.db, this.config, runId, { pool: this.pool ?? undefined, workers: 1, workerId: `${hostname()}:${process.pid}` }).catch(() => undefined);
+        await executeCoverageRun(this.db, this.config, runId, { pool: this.pool ?? undefined, workers: 1, workerId: `${hostname()}:${process.pid}`, parts: this.parts, pollMs: 100, shutdown: this.shutdown.signal }).catch(() => undefined);
       }
     } finally {
       this.running = null;
@@ -72,7 +70,10 @@ class InProcessJobs implements CoverageJobs {
   async close(): Promise<void> {
     this.closed = true;
     this.queue = [];
+    // A parent waiting for its children stops waiting (the run stays running: the next start resumes it).
+    this.shutdown.abort();
     await this.running?.catch(() => undefined);
+    await this.parts.close();
     await this.pool?.close();
     this.pool = null;
   }
@@ -82,23 +83,28 @@ class BullJobs implements CoverageJobs {
   readonly kind = 'bullmq' as const;
   private readonly queue: Queue;
 
-  constructor(redisUrl: string, prefix: string) {
+  constructor(
+    redisUrl: string,
+    prefix: string,
+    readonly parts: LinkRunJobs,
+  ) {
     this.queue = new Queue(COVERAGE_QUEUE, { connection: redisConnection(redisUrl), prefix });
   }
 
   async enqueue(runId: string): Promise<void> {
     // jobId = run id: a run is never queued twice; attempts cover a worker that dies.
-    await this.queue.add('run', { runId }, { jobId: runId, attempts: 3, backoff: { type: 'fixed', delay: 1000 }, removeOnComplete: 1000, removeOnFail: 1000 });
+    await this.queue.add('run', { runId }, { jobId: runId, attempts: COVERAGE_ATTEMPTS, backoff: { type: 'fixed', delay: 1000 }, removeOnComplete: 1000, removeOnFail: 1000 });
   }
 
   async close(): Promise<void> {
     await this.queue.close();
+    await this.parts.close();
   }
 }
 
 /** The runner for this configuration; unfinished runs of a previous process are queued again. */
-export async function createCoverageJobs(db: Database, config: Config, env: NodeJS.ProcessEnv = process.env): Promise<CoverageJobs> {
-  const jobs: CoverageJobs = config.redisUrl ? new BullJobs(config.redisUrl, queuePrefix(env)) : new InProcessJobs(db, config);
+export async function createCoverageJobs(db: Database, config: Config, engine: LinkEngine, env: NodeJS.ProcessEnv = process.env): Promise<CoverageJobs> {
+  const jobs: CoverageJobs = config.redisUrl ? new BullJobs(config.redisUrl, queuePrefix(env), linkRunJobsFor(config, engine, {}, env)) : new InProcessJobs(db, config, engine);
   for (const run of await unfinishedCoverageRuns(db)) await jobs.enqueue(run.id);
   return jobs;
 }

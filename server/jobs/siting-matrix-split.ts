@@ -9,7 +9,8 @@
 import type { Database } from '../db/client.ts';
 import { cancelLinkRun, createLinkRun, findLinkRunById, linkRunTotals, linkTileResults, unfinishedLinkRunsOf, unfinishedLinkTiles, type NewLinkTile } from '../db/repositories/link-runs.ts';
 import type { LinkEngine, PlanContext } from './link-engine.ts';
-import { DEFAULT_TILE_PAIRS, needsAllGateways, SITING_MATRIX_KIND, TILE_GATEWAYS, type LinkRunJobs, type SitingMatrixParams } from './link-runs.ts';
+import { DEFAULT_TILE_PAIRS, needsAllGateways, SITING_MATRIX_KIND, TILE_GATEWAYS, type SitingMatrixParams } from './link-runs.ts';
+import type { LinkRunJobs } from './link-run-jobs.ts';
 import { assembleSitingMatrix, SitingCancelled, type MatrixInputs, type SitingCandidate, type SitingMatrix, type SitingMatrixBlock } from './siting-matrix.ts';
 
 /** How often the parent looks at its tiles, ms. */

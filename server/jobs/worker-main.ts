@@ -1,5 +1,6 @@
 // `npm run worker`: a queue worker process. Takes coverage jobs and the tiles
-// of fleet link table runs (server/jobs/link-runs.ts) from the BullMQ queues on
+// of fleet link table runs, siting matrices and split coverage runs (one gateway
+// each; server/jobs/link-runs.ts, coverage-split.ts) from the BullMQ queues on
 // REDIS_URL and runs them on a worker-thread pool, writing
 // state to the shared PostgreSQL (DATABASE_URL) and results to the shared
 // files folder (EARSHOT_DATA_DIR). Run as many as you like, on any machine
@@ -10,10 +11,12 @@ import { loadConfig } from '../config.ts';
 import { openDatabase } from '../db/client.ts';
 import { executeCoverageRun } from './coverage-job.ts';
 import { createAreaPool } from './area-runner.ts';
-import { COVERAGE_QUEUE, queuePrefix, redisConnection } from './runner.ts';
+import { COVERAGE_ATTEMPTS, COVERAGE_QUEUE } from './runner.ts';
+import { queuePrefix, redisConnection } from './queue-connection.ts';
 import { LinkEngine } from './link-engine.ts';
-import { LINK_TILE_QUEUE, LinkTileExecutor, TILE_ATTEMPTS } from './link-runs.ts';
+import { LINK_TILE_QUEUE, LinkTileExecutor, linkRunJobsFor, TILE_ATTEMPTS } from './link-runs.ts';
 import { failLinkTile, findLinkTile } from '../db/repositories/link-runs.ts';
+import { failCoverageRun } from '../db/repositories/coverage-runs.ts';
 
 async function main(): Promise<void> {
   const config = loadConfig();
@@ -22,11 +25,17 @@ async function main(): Promise<void> {
   const db = await openDatabase(config);
   const pool = config.workerCount > 1 ? createAreaPool(config.workerCount) : undefined;
   const workerId = `${hostname()}:${process.pid}`;
+  const engine = new LinkEngine(db, config);
+  // A split coverage run's parent queues its children (one gateway each) on the link-tiles queue.
+  const parts = linkRunJobsFor(config, engine);
+  const shutdown = new AbortController();
   const worker = new Worker(
     COVERAGE_QUEUE,
     async (job) => {
       const runId = String((job.data as { runId?: unknown }).runId ?? '');
-      const outcome = await executeCoverageRun(db, config, runId, { pool, workers: 1, workerId });
+      const final = job.attemptsMade + 1 >= (job.opts.attempts ?? COVERAGE_ATTEMPTS);
+      // A CoverageAttemptFailed (a layer or part this worker cannot read, or this worker stopping) goes to the queue: another worker retries.
+      const outcome = await executeCoverageRun(db, config, runId, { pool, workers: 1, workerId, parts, final, shutdown: shutdown.signal });
       return { outcome };
     },
     {
@@ -40,10 +49,16 @@ async function main(): Promise<void> {
     },
   );
   worker.on('error', (error) => console.error(`worker: ${error.message}`));
+  // A run the queue gives up on without our processor (stalled too often: its workers keep dying) fails, once.
+  worker.on('failed', (job, error) => {
+    if (!job || !/stalled/i.test(error.message)) return;
+    const runId = String((job.data as { runId?: unknown }).runId ?? '');
+    void failCoverageRun(db, runId, `the run's workers stopped responding (${error.message})`).catch((failure: unknown) => console.error(`worker: could not record a stalled run: ${String(failure)}`));
+  });
   // Tiles of fleet link table runs: the link engine of this process (its paths on
   // EARSHOT_WORKERS threads), one tile at a time; a tile is idempotent and written in one transaction.
-  const engine = new LinkEngine(db, config);
-  const executor = new LinkTileExecutor(engine);
+  // Tiles of split coverage runs (a gateway each) run on this process's coverage threads.
+  const executor = new LinkTileExecutor(engine, { config, areaPool: () => pool });
   const tiles = new Worker(
     LINK_TILE_QUEUE,
     async (job) => {
@@ -75,7 +90,10 @@ async function main(): Promise<void> {
   await Promise.all([worker.waitUntilReady(), tiles.waitUntilReady()]);
   console.log(`earshot worker ${workerId} ready (queues ${queuePrefix()}:${COVERAGE_QUEUE}, ${queuePrefix()}:${LINK_TILE_QUEUE}; ${pool?.size ?? 1} coverage thread(s), ${engine.workerCount || 1} link thread(s))`);
   const stop = async () => {
+    // A parent waiting for its children hands its run back to the queue (another worker resumes it).
+    shutdown.abort();
     await Promise.all([worker.close(), tiles.close()]);
+    await parts.close();
     await engine.close();
     await pool?.close();
     await db.close();

@@ -1,7 +1,8 @@
 // The set-multicover instance of gateway siting and the parts of it that need
 // no solver: how many gateways each node must hear, greedy selection (a start
 // for the MILP and the figure it is compared with), whether a selection is
-// feasible, and each selected site's marginal value.
+// feasible, and each selected site's marginal value. Which nodes a selection covers
+// within a capacity cap needs the solver for k > 1 (selectionCovered in milp.ts).
 //
 // A node i is heard by the candidates H(i) (the matrix's "meets" cells). It
 // needs r_i = min(k, |H(i)|) of them selected: a node no candidate hears is
@@ -198,29 +199,14 @@ export function capacityHoming(instance: CoverInstance, selected: Uint8Array, re
 }
 
 /**
- * The nodes a selection covers when no solver says which: those heard by r_i selected
- * candidates, and with a capacity cap only those a maximum flow homes in full (a node the
- * flow homes in part is dropped, which frees seats and never unhomes another). Exact for
- * k = 1; for k > 1 a feasible set, not always the largest (the MILP's own answer is read
- * from its variables instead, see milp.ts).
- */
-export function selectionCovered(instance: CoverInstance, options: CoverOptions, selected: Uint8Array): Uint8Array {
-  const required = requirements(instance, options.requiredGateways);
-  const covered = coveredMask(instance, selected, required);
-  if (options.maxNodesPerGateway === undefined) return covered;
-  const { units } = capacityHoming(instance, selected, required, options.maxNodesPerGateway, covered);
-  for (let i = 0; i < instance.nodeCount; i++) if (covered[i] && units[i] < required[i]) covered[i] = 0;
-  return covered;
-}
-
-/**
  * Greedy multicover (Chvátal's rule generalised to multicover): start from the
  * fixed gateways, then repeatedly add the candidate with the most unmet
  * requirement units per dollar (cost mode) or in total (gateway mode), until
  * every coverable node is met. In the budget variant it adds, within the budget
  * and the gateway limit, the candidate that completes the most nodes (ties: most
  * requirement units), and stops when nothing more fits or helps.
- * No capacity rule: with a cap the caller checks the result (capacityFlow).
+ * No capacity rule: with a cap the caller finds the nodes the result covers within it
+ * (selectionCovered in milp.ts).
  */
 export function greedyCover(instance: CoverInstance, options: CoverOptions): Uint8Array {
   const required = requirements(instance, options.requiredGateways);

@@ -15,7 +15,7 @@
 // Capacity cap M:  Σ_{p∈i} a_p ≥ r_i (or r_i·y_i), a_p ≤ x_j(p), Σ_{p∋j} a_p ≤ M·x_j.
 // Fixed gateways:  x_j = 1.
 import type { Highs } from 'highs';
-import { capacityFlow, capacityHoming, coveredMask, greedyCover, isBudgetVariant, requirements, selectionCostUsd, selectionCount, selectionCovered, type CoverInstance, type CoverOptions } from './cover.ts';
+import { capacityFlow, capacityHoming, coveredMask, greedyCover, isBudgetVariant, requirements, selectionCostUsd, selectionCount, type CoverInstance, type CoverOptions } from './cover.ts';
 
 export interface SolveOptions {
   /** Wall-clock limit of the MILP, seconds (default 10). */
@@ -66,8 +66,11 @@ function pushTerms(lines: string[], head: string, terms: string[], tail: string)
   }
 }
 
-/** The LP text of the model, with the weights used in the objective. */
-export function sitingLpText(instance: CoverInstance, options: CoverOptions): { text: string; budget: boolean; weights: Float64Array } {
+/**
+ * The LP text of the model, with the weights used in the objective. `fixedSelection` pins every
+ * x_j to it (0 or 1): the model then only decides which nodes the selection covers (y, a).
+ */
+export function sitingLpText(instance: CoverInstance, options: CoverOptions, fixedSelection?: Uint8Array): { text: string; budget: boolean; weights: Float64Array } {
   const required = requirements(instance, options.requiredGateways);
   const budget = isBudgetVariant(options);
   const m = instance.candidateCount;
@@ -123,7 +126,7 @@ export function sitingLpText(instance: CoverInstance, options: CoverOptions): { 
     pushTerms(lines, ' gateways:', terms, `<= ${options.maxGateways}`);
   }
   lines.push('Bounds');
-  for (let j = 0; j < m; j++) lines.push(instance.fixed[j] ? ` x_${j} = 1` : ` 0 <= x_${j} <= 1`);
+  for (let j = 0; j < m; j++) lines.push(fixedSelection ? ` x_${j} = ${fixedSelection[j] ? 1 : 0}` : instance.fixed[j] ? ` x_${j} = 1` : ` 0 <= x_${j} <= 1`);
   if (cap !== undefined) for (let p = 0; p < instance.hearIndex.length; p++) lines.push(` 0 <= a_${p} <= 1`);
   if (budget) for (let i = 0; i < instance.nodeCount; i++) if (required[i] > 0) lines.push(` 0 <= y_${i} <= 1`);
   lines.push('General');
@@ -137,18 +140,18 @@ export function sitingLpText(instance: CoverInstance, options: CoverOptions): { 
 
 /**
  * Objective of a selection in the model's units (see sitingLpText). Budget variant: the nodes
- * of `covered` (default: selectionCovered, the nodes the selection covers within the cap).
+ * of `covered` (the answer's covered set: solutionCovered or selectionCovered).
  */
-export function modelObjective(instance: CoverInstance, options: CoverOptions, selected: Uint8Array, covered?: Uint8Array): number {
-  if (isBudgetVariant(options)) return selectionCount(covered ?? selectionCovered(instance, options, selected));
+export function modelObjective(instance: CoverInstance, options: CoverOptions, selected: Uint8Array, covered: Uint8Array): number {
+  if (isBudgetVariant(options)) return selectionCount(covered);
   return options.minimise === 'cost' ? selectionCostUsd(instance, selected) : selectionCount(selected);
 }
 
 /**
  * Whether a selection obeys every rule of the options (capacity via the exact flow check).
  * Cover variant: every coverable node met and homed within the cap. Budget variant: within
- * the budget and gateway limit, and every node of `covered` (default selectionCovered) heard
- * by r_i selected candidates and all of them homed within the cap at once.
+ * the budget and gateway limit, and every node of `covered` (the covered set claimed for it;
+ * none when left out) heard by r_i selected candidates and all of them homed within the cap at once.
  */
 export function selectionFeasible(instance: CoverInstance, options: CoverOptions, selected: Uint8Array, coveredNodes?: Uint8Array): boolean {
   for (let j = 0; j < instance.candidateCount; j++) if (instance.fixed[j] && !selected[j]) return false;
@@ -159,7 +162,7 @@ export function selectionFeasible(instance: CoverInstance, options: CoverOptions
     if (options.maxGateways !== undefined && selectionCount(selected) > options.maxGateways) return false;
   }
   const heard = coveredMask(instance, selected, required);
-  const covered = budget ? (coveredNodes ?? selectionCovered(instance, options, selected)) : heard;
+  const covered = budget ? (coveredNodes ?? new Uint8Array(instance.nodeCount)) : heard;
   for (let i = 0; i < instance.nodeCount; i++) {
     if (!budget && required[i] > 0 && !heard[i]) return false;
     if (covered[i] && !heard[i]) return false;
@@ -181,6 +184,58 @@ function validate(instance: CoverInstance, options: CoverOptions): string | null
   return null;
 }
 
+/** One HiGHS run of an LP text: what the callers read back (the model is disposed). */
+interface LpRun {
+  status: number;
+  /** HiGHS holds a primal feasible solution. */
+  hasSolution: boolean;
+  /** Column value by variable name (NaN when the model has no such column or no solution). */
+  value: (name: string) => number;
+  /** mip_dual_bound, null when not finite. */
+  bound: number | null;
+  seconds: number;
+}
+
+function runLp(highs: Highs, text: string, solve: SolveOptions, start?: (column: (name: string) => number | undefined, numCols: number) => Float64Array | null): LpRun {
+  const model = highs.createModel({ format: 'lp', data: text });
+  const t0 = performance.now();
+  try {
+    model.options.set('output_flag', false);
+    model.options.set('time_limit', solve.timeLimitS ?? 10);
+    model.options.set('mip_rel_gap', solve.relativeGap ?? 0);
+    model.options.set('mip_abs_gap', 1e-7);
+    const numCols = model.getDimensions().numCols;
+    const columns = new Map<string, number>();
+    for (let c = 0; c < numCols; c++) columns.set(model.getColName(c), c);
+    const startValues = start?.((name) => columns.get(name), numCols) ?? null;
+    if (startValues) {
+      try {
+        model.setSolution({ colValue: startValues });
+      } catch {
+        // A start HiGHS refuses only costs time, never correctness.
+      }
+    }
+    model.run();
+    const seconds = (performance.now() - t0) / 1000;
+    const status = model.getModelStatus();
+    const hasSolution = status !== highs.constants.modelStatus.infeasible && Number(model.info.get('primal_solution_status')) === highs.constants.solutionStatus.feasible;
+    const values = hasSolution ? Float64Array.from(model.getSolution().colValue as ArrayLike<number>) : new Float64Array(0);
+    const bound = Number(model.info.get('mip_dual_bound'));
+    return {
+      status,
+      hasSolution,
+      value: (name) => {
+        const c = columns.get(name);
+        return c === undefined || !hasSolution ? Number.NaN : values[c];
+      },
+      bound: Number.isFinite(bound) ? bound : null,
+      seconds,
+    };
+  } finally {
+    model.dispose();
+  }
+}
+
 /**
  * Solves the siting model: greedy first (its answer is HiGHS's start when it
  * obeys every rule), then the MILP to proven optimality or the time limit.
@@ -192,7 +247,7 @@ export function solveSiting(highs: Highs, instance: CoverInstance, options: Cove
   const g0 = performance.now();
   const greedySelected = greedyCover(instance, options);
   const greedySeconds = (performance.now() - g0) / 1000;
-  const greedyCovered = selectionCovered(instance, options, greedySelected);
+  const greedyCovered = selectionCovered(highs, instance, options, greedySelected, solve);
   const greedyFeasible = selectionFeasible(instance, options, greedySelected, greedyCovered);
   const greedy = { selected: greedySelected, covered: greedyCovered, seconds: greedySeconds, feasible: greedyFeasible };
   const budget = isBudgetVariant(options);
@@ -200,7 +255,7 @@ export function solveSiting(highs: Highs, instance: CoverInstance, options: Cove
   for (const f of instance.fixed) fixedCount += f;
   if (budget && options.maxGateways !== undefined && fixedCount > options.maxGateways) {
     const selected = Uint8Array.from(instance.fixed);
-    return { status: 'infeasible', selected, covered: selectionCovered(instance, options, selected), objective: Number.NaN, bound: null, gapPercent: Number.NaN, solver, seconds: 0, message: `maxGateways: ${options.maxGateways} is fewer than the ${fixedCount} gateways kept as built`, greedy };
+    return { status: 'infeasible', selected, covered: selectionCovered(highs, instance, options, selected, solve), objective: Number.NaN, bound: null, gapPercent: Number.NaN, solver, seconds: 0, message: `maxGateways: ${options.maxGateways} is fewer than the ${fixedCount} gateways kept as built`, greedy };
   }
   const required = requirements(instance, options.requiredGateways);
   let decisions = 0;
@@ -208,74 +263,89 @@ export function solveSiting(highs: Highs, instance: CoverInstance, options: Cove
   if (instance.candidateCount === 0 || decisions === 0 || required.every((r) => r === 0)) {
     // Nothing to decide: the fixed gateways are the answer (no candidate, or no node any candidate hears).
     const selected = Uint8Array.from(instance.fixed);
-    const covered = selectionCovered(instance, options, selected);
+    const covered = selectionCovered(highs, instance, options, selected, solve);
     const feasible = selectionFeasible(instance, options, selected, covered);
     const objective = modelObjective(instance, options, selected, covered);
     return { status: feasible ? 'optimal' : 'infeasible', selected, covered, objective, bound: feasible ? objective : null, gapPercent: feasible ? 0 : Number.NaN, solver: 'none (nothing to decide)', seconds: 0, message: feasible ? null : 'the gateways kept as built break the capacity cap', greedy };
   }
   const { text } = sitingLpText(instance, options);
-  const model = highs.createModel({ format: 'lp', data: text });
-  const t0 = performance.now();
-  try {
-    model.options.set('output_flag', false);
-    model.options.set('time_limit', solve.timeLimitS ?? 10);
-    model.options.set('mip_rel_gap', solve.relativeGap ?? 0);
-    model.options.set('mip_abs_gap', 1e-7);
-    const numCols = model.getDimensions().numCols;
-    const column = new Map<string, number>();
-    for (let c = 0; c < numCols; c++) column.set(model.getColName(c), c);
-    if (greedyFeasible) {
-      const start = new Float64Array(numCols);
-      for (let j = 0; j < instance.candidateCount; j++) start[column.get(`x_${j}`) as number] = greedySelected[j];
-      if (budget) for (let i = 0; i < instance.nodeCount; i++) if (required[i] > 0) start[column.get(`y_${i}`) as number] = greedyCovered[i];
-      if (options.maxNodesPerGateway !== undefined) {
-        // The greedy's homes, from the same maximum flow that found its covered set.
-        const { pair } = capacityHoming(instance, greedySelected, required, options.maxNodesPerGateway, greedyCovered);
-        for (let p = 0; p < pair.length; p++) {
-          const c = column.get(`a_${p}`);
-          if (c !== undefined) start[c] = pair[p];
-        }
-      }
-      try {
-        model.setSolution({ colValue: start });
-      } catch {
-        // A start HiGHS refuses only costs time, never correctness.
+  const lp = runLp(highs, text, solve, (column, numCols) => {
+    if (!greedyFeasible) return null;
+    const start = new Float64Array(numCols);
+    for (let j = 0; j < instance.candidateCount; j++) start[column(`x_${j}`) as number] = greedySelected[j];
+    if (budget) for (let i = 0; i < instance.nodeCount; i++) if (required[i] > 0) start[column(`y_${i}`) as number] = greedyCovered[i];
+    if (options.maxNodesPerGateway !== undefined) {
+      // The greedy's homes, from the same maximum flow that made its covered set whole.
+      const { pair } = capacityHoming(instance, greedySelected, required, options.maxNodesPerGateway, greedyCovered);
+      for (let p = 0; p < pair.length; p++) {
+        const c = column(`a_${p}`);
+        if (c !== undefined) start[c] = pair[p];
       }
     }
-    model.run();
-    const seconds = (performance.now() - t0) / 1000;
-    const status = model.getModelStatus();
-    const codes = highs.constants.modelStatus;
-    if (status === codes.infeasible) {
-      const selected = Uint8Array.from(instance.fixed);
-      return { status: 'infeasible', selected, covered: selectionCovered(instance, options, selected), objective: Number.NaN, bound: null, gapPercent: Number.NaN, solver, seconds, message: infeasibleMessage(options), greedy };
-    }
-    const hasSolution = Number(model.info.get('primal_solution_status')) === highs.constants.solutionStatus.feasible;
-    if (!hasSolution) {
-      // Time ran out before HiGHS found a solution of its own: fall back on greedy when it obeys the rules.
-      const message = `HiGHS stopped (${statusName(highs, status)}) without a solution`;
-      if (greedyFeasible) {
-        const objective = modelObjective(instance, options, greedySelected, greedyCovered);
-        return { status: 'feasible', selected: greedySelected, covered: greedyCovered, objective, bound: null, gapPercent: Number.NaN, solver: `greedy (${solver} ${message})`, seconds, message, greedy };
-      }
-      const selected = Uint8Array.from(instance.fixed);
-      return { status: 'infeasible', selected, covered: selectionCovered(instance, options, selected), objective: Number.NaN, bound: null, gapPercent: Number.NaN, solver, seconds, message, greedy };
-    }
-    const values = model.getSolution().colValue as Float64Array;
-    const selected = new Uint8Array(instance.candidateCount);
-    for (let j = 0; j < instance.candidateCount; j++) selected[j] = values[column.get(`x_${j}`) as number] > 0.5 ? 1 : 0;
-    const covered = solutionCovered(instance, options, required, selected, (name) => values[column.get(name) as number]);
-    const objective = modelObjective(instance, options, selected, covered);
-    let bound: number | null = Number(model.info.get('mip_dual_bound'));
-    if (!Number.isFinite(bound)) bound = null;
-    // The budget model's objective carries the ε tie-break; its bound on covered nodes is ⌊bound + ½⌋.
-    if (bound !== null && budget) bound = Math.floor(bound + 0.5);
-    const proven = status === codes.optimal;
-    const gapPercent = proven ? 0 : bound === null ? Number.NaN : (100 * Math.abs(objective - bound)) / Math.max(Math.abs(objective), 1e-9);
-    return { status: proven ? 'optimal' : 'feasible', selected, covered, objective, bound: proven ? objective : bound, gapPercent, solver, seconds, message: proven ? null : `HiGHS stopped: ${statusName(highs, status)}`, greedy };
-  } finally {
-    model.dispose();
+    return start;
+  });
+  const { seconds, status } = lp;
+  const codes = highs.constants.modelStatus;
+  if (status === codes.infeasible) {
+    const selected = Uint8Array.from(instance.fixed);
+    return { status: 'infeasible', selected, covered: selectionCovered(highs, instance, options, selected, solve), objective: Number.NaN, bound: null, gapPercent: Number.NaN, solver, seconds, message: infeasibleMessage(options), greedy };
   }
+  if (!lp.hasSolution) {
+    // Time ran out before HiGHS found a solution of its own: fall back on greedy when it obeys the rules.
+    const message = `HiGHS stopped (${statusName(highs, status)}) without a solution`;
+    if (greedyFeasible) {
+      const objective = modelObjective(instance, options, greedySelected, greedyCovered);
+      return { status: 'feasible', selected: greedySelected, covered: greedyCovered, objective, bound: null, gapPercent: Number.NaN, solver: `greedy (${solver} ${message})`, seconds, message, greedy };
+    }
+    const selected = Uint8Array.from(instance.fixed);
+    return { status: 'infeasible', selected, covered: selectionCovered(highs, instance, options, selected, solve), objective: Number.NaN, bound: null, gapPercent: Number.NaN, solver, seconds, message, greedy };
+  }
+  const selected = new Uint8Array(instance.candidateCount);
+  for (let j = 0; j < instance.candidateCount; j++) selected[j] = lp.value(`x_${j}`) > 0.5 ? 1 : 0;
+  const covered = solutionCovered(instance, options, required, selected, lp.value);
+  const objective = modelObjective(instance, options, selected, covered);
+  let bound = lp.bound;
+  // The budget model's objective carries the ε tie-break; its bound on covered nodes is ⌊bound + ½⌋.
+  if (bound !== null && budget) bound = Math.floor(bound + 0.5);
+  const proven = status === codes.optimal;
+  const gapPercent = proven ? 0 : bound === null ? Number.NaN : (100 * Math.abs(objective - bound)) / Math.max(Math.abs(objective), 1e-9);
+  return { status: proven ? 'optimal' : 'feasible', selected, covered, objective, bound: proven ? objective : bound, gapPercent, solver, seconds, message: proven ? null : `HiGHS stopped: ${statusName(highs, status)}`, greedy };
+}
+
+/**
+ * The nodes a given selection covers (the greedy figure, the fixed gateways alone): the most
+ * nodes heard by r_i selected candidates that can all be homed within the cap at once. Without a
+ * cap, every node heard by r_i of them. With a cap it is the siting model itself with every x_j
+ * pinned to the selection (sitingLpText's fixedSelection; only y and a are left to decide), read
+ * by the same solutionCovered as SitingSolution.covered: one rule for "covered within the cap".
+ * Two shortcuts give the same set without HiGHS: when a maximum flow homes every heard node in
+ * full (nothing more can be covered), and when every r_i ≤ 1 (a maximum flow then homes the most
+ * nodes there are). For r_i > 1 no flow alone is exact (with one seat each and r_i = 3 this is
+ * packing triples), so the MILP decides. Should HiGHS stop without a solution at the time limit,
+ * the flow's fully homed nodes are counted (a feasible set, possibly short of the optimum).
+ */
+export function selectionCovered(highs: Highs, instance: CoverInstance, options: CoverOptions, selected: Uint8Array, solve: SolveOptions = {}): Uint8Array {
+  const required = requirements(instance, options.requiredGateways);
+  const heard = coveredMask(instance, selected, required);
+  const cap = options.maxNodesPerGateway;
+  if (cap === undefined) return heard;
+  const { units } = capacityHoming(instance, selected, required, cap, heard);
+  const homed = new Uint8Array(instance.nodeCount);
+  let all = true;
+  let multi = false;
+  for (let i = 0; i < instance.nodeCount; i++) {
+    if (!heard[i]) continue;
+    if (units[i] >= required[i]) homed[i] = 1;
+    else all = false;
+    if (required[i] > 1) multi = true;
+  }
+  if (all || !multi) return homed;
+  // The budget form of the model maximises covered nodes; with x pinned its limits hold trivially.
+  const pinned: CoverOptions = { requiredGateways: options.requiredGateways, maxNodesPerGateway: cap, maxGateways: selectionCount(selected) };
+  const lp = runLp(highs, sitingLpText(instance, pinned, selected).text, solve);
+  if (!lp.hasSolution) return homed;
+  const covered = solutionCovered(instance, pinned, required, selected, lp.value);
+  return selectionCount(covered) >= selectionCount(homed) ? covered : homed;
 }
 
 /**

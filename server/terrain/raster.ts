@@ -2,7 +2,7 @@
 // CRS, NoData and scale/offset, and windows of samples as Float32 (NaN for
 // NoData). A file is opened with geotiff's fromFile, so only the header and
 // the tiles/strips a window touches are ever read from disk.
-import { stat } from 'node:fs/promises';
+import { open, stat } from 'node:fs/promises';
 import { fromArrayBuffer, fromFile, getDecoder, type GeoTIFF, type GeoTIFFImage, type TypedArray } from 'geotiff';
 import { inspectTiff } from './tiff-structure.ts';
 import { BoundedInflateDecoder, BoundedLzwDecoder, BoundedPackBitsDecoder } from './tiff-decoders.ts';
@@ -98,6 +98,8 @@ const OTHER_COMPRESSION_NAMES: Record<number, string> = {
 const MAX_CACHE_BLOCK_BYTES = 4 * 1024 * 1024;
 /** Decoded tile/strip bytes one window read holds at a time (at least one block). */
 const WINDOW_DECODE_BYTES = 16 * 1024 * 1024;
+/** Sample formats whose every value Float32 represents exactly (so a converted sample equals NoData iff the raw one did). */
+const EXACT_IN_FLOAT32: ReadonlySet<SampleFormat> = new Set(['uint8', 'int8', 'uint16', 'int16', 'float32']);
 
 function formatOf(sampleFormat: number, bits: number): SampleFormat | null {
   if (sampleFormat === 1 && bits === 8) return 'uint8';
@@ -155,7 +157,7 @@ export async function openGeoRaster(source: string | ArrayBuffer, options: OpenR
     throw new RasterError('not_tiff', `not a TIFF file (${message.split('\n')[0]})`);
   }
   try {
-    return await describe(tiff, fileBytes, structure.images.length, Math.max(0, Math.floor(options.decodedTileCache ?? 0)));
+    return await describe(tiff, fileBytes, structure.images.length, typeof source === 'string' ? source : null, Math.max(0, Math.floor(options.decodedTileCache ?? 0)));
   } catch (error) {
     await closeQuietly(tiff);
     if (error instanceof RasterError) throw error;
@@ -174,7 +176,242 @@ async function closeQuietly(tiff: GeoTIFF): Promise<void> {
   }
 }
 
-async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number, decodedTileCache: number): Promise<GeoRaster> {
+/** How stored samples become metres: NoData (GDAL_NODATA; null = none, NaN = NaN) and GDAL's scale/offset. */
+interface SampleConversion {
+  sampleFormat: SampleFormat;
+  noData: number | null;
+  scale: number;
+  offset: number;
+}
+
+/** The GDAL_NODATA tag and the GDAL_METADATA scale/offset of the first image. */
+async function readSampleConversion(image: GeoTIFFImage, directory: Directory): Promise<Omit<SampleConversion, 'sampleFormat'>> {
+  const noDataText = directory.hasTag('GDAL_NODATA') ? String(directory.getValue('GDAL_NODATA')).replace(/\0+$/, '').trim() : '';
+  const noData = noDataText === '' ? null : noDataText.toLowerCase() === 'nan' ? Number.NaN : Number(noDataText);
+  if (noData !== null && Number.isNaN(noData) && noDataText.toLowerCase() !== 'nan') throw new RasterError('corrupt', `GDAL_NODATA tag "${noDataText}" is not a number`);
+  let scale = 1;
+  let offset = 0;
+  const metadata = await image.getGDALMetadata(0);
+  if (metadata) {
+    if (metadata.SCALE !== undefined) scale = Number(metadata.SCALE);
+    if (metadata.OFFSET !== undefined) offset = Number(metadata.OFFSET);
+    if (!Number.isFinite(scale) || !Number.isFinite(offset)) throw new RasterError('corrupt', 'GDAL_METADATA scale/offset is not a number');
+  }
+  return { noData, scale, offset };
+}
+
+/** The reduced-resolution images (overviews) after the first, largest first as stored; masks are skipped. */
+async function readOverviews(tiff: GeoTIFF, imageCount: number, widthPx: number): Promise<{ overviews: OverviewInfo[]; overviewImages: GeoTIFFImage[] }> {
+  const overviews: OverviewInfo[] = [];
+  const overviewImages: GeoTIFFImage[] = [];
+  for (let i = 1; i < imageCount; i++) {
+    const candidate = await tiff.getImage(i);
+    const subfileType = tagNumbers(candidate.getFileDirectory(), 'NewSubfileType')?.[0] ?? 0;
+    // Bit 0: reduced-resolution version; bit 2: transparency mask (skipped).
+    if ((subfileType & 1) === 1 && (subfileType & 4) === 0 && candidate.getWidth() < widthPx) {
+      overviews.push({ widthPx: candidate.getWidth(), heightPx: candidate.getHeight(), factor: widthPx / candidate.getWidth() });
+      overviewImages.push(candidate);
+    }
+  }
+  return { overviews, overviewImages };
+}
+
+/** NoData as the stored samples compare it: in the sample's own precision (a Float32 NoData such as -3.4028235e38 is not exactly the double); null = none or NaN (NaN stays NaN through scale/offset). */
+function comparableNoData({ noData, sampleFormat }: SampleConversion): number | null {
+  return noData === null || Number.isNaN(noData) ? null : sampleFormat === 'float32' ? Math.fround(noData) : noData;
+}
+
+/** Stored samples → metres (scale, offset), NoData → NaN. */
+function samplesToFloat(raw: TypedArray, conversion: SampleConversion): Float32Array {
+  const { scale, offset } = conversion;
+  const nd = comparableNoData(conversion);
+  const out = new Float32Array(raw.length);
+  const n = raw.length;
+  if (nd === null) {
+    for (let i = 0; i < n; i++) out[i] = raw[i] * scale + offset;
+  } else {
+    for (let i = 0; i < n; i++) {
+      const v = raw[i];
+      out[i] = v === nd ? Number.NaN : v * scale + offset;
+    }
+  }
+  return out;
+}
+
+/**
+ * The fast window read: decodes each tile/strip the window touches once and converts it row by row
+ * straight into the Float32 window (see the fast-path note in describe).
+ */
+async function readBlocksIntoWindow(
+  img: GeoTIFFImage,
+  decoder: Decoder,
+  window: { x0: number; y0: number; w: number; h: number },
+  conversion: SampleConversion,
+  bytesPerSample: number,
+  file: { path: string; fileBytes: number } | null,
+  decodeTile: (tx: number, ty: number) => Promise<ArrayBuffer> = async (tx, ty) => (await img.getTileOrStrip(tx, ty, 0, decoder as never)).data as ArrayBuffer,
+): Promise<Float32Array> {
+  const { x0, y0, w, h } = window;
+  const { sampleFormat, scale, offset } = conversion;
+  const nd = comparableNoData(conversion);
+  const tileW = img.getTileWidth();
+  const tileH = img.getTileHeight();
+  const tx0 = Math.floor(x0 / tileW);
+  const tx1 = Math.floor((x0 + w - 1) / tileW);
+  const ty0 = Math.floor(y0 / tileH);
+  const ty1 = Math.floor((y0 + h - 1) / tileH);
+  const out = new Float32Array(w * h);
+  // Samples that Float32 holds exactly, unscaled: blocks are copied row by row with TypedArray#set and
+  // NoData is then found with indexOf (both native, same values as the per-sample loop below).
+  const copyNative = scale === 1 && offset === 0 && EXACT_IN_FLOAT32.has(sampleFormat);
+  const finish = (): Float32Array => {
+    if (copyNative && nd !== null) for (let i = out.indexOf(nd); i !== -1; i = out.indexOf(nd, i + 1)) out[i] = Number.NaN;
+    return out;
+  };
+  const copyBlock = (tx: number, ty: number, values: TypedArray) => {
+    const blockH = img.getBlockHeight(ty);
+    // Part of this block inside the window, in block coordinates.
+    const bx0 = Math.max(0, x0 - tx * tileW);
+    const bx1 = Math.min(tileW, x0 + w - tx * tileW);
+    const by0 = Math.max(0, y0 - ty * tileH);
+    const by1 = Math.min(blockH, y0 + h - ty * tileH);
+    for (let by = by0; by < by1; by++) {
+      let src = by * tileW + bx0;
+      let dst = (ty * tileH + by - y0) * w + tx * tileW + bx0 - x0;
+      const end = src + (bx1 - bx0);
+      if (copyNative) {
+        // Typed-array copy (converts natively; a cold process would run a JavaScript loop interpreted).
+        out.set(values.subarray(src, end), dst);
+      } else if (nd === null) {
+        // No NoData, or NoData NaN (NaN stays NaN through scale/offset).
+        if (scale === 1 && offset === 0) for (; src < end; src++, dst++) out[dst] = values[src];
+        else for (; src < end; src++, dst++) out[dst] = values[src] * scale + offset;
+      } else {
+        // Compared in the sample's own precision (a Float32 NoData such as -3.4028235e38 is not exactly the double).
+        for (; src < end; src++, dst++) {
+          const v = values[src];
+          out[dst] = v === nd ? Number.NaN : v * scale + offset;
+        }
+      }
+    }
+  };
+  const across = tx1 - tx0 + 1;
+  const count = across * (ty1 - ty0 + 1);
+  if (file !== null && (await readUncompressed(img, file, { tx0, ty0, across, count }, sampleFormat, bytesPerSample, copyBlock))) return finish();
+  // Blocks are decoded a few at a time and copied at once, so a window over a stripped raster (every
+  // strip is the full width) holds at most WINDOW_DECODE_BYTES of decoded blocks, not all of them.
+  const lanes = Math.max(1, Math.min(16, count, Math.floor(WINDOW_DECODE_BYTES / (tileW * tileH * bytesPerSample))));
+  let next = 0;
+  const lane = async () => {
+    while (next < count) {
+      const index = next++;
+      const tx = tx0 + (index % across);
+      const ty = ty0 + Math.floor(index / across);
+      copyBlock(tx, ty, typedView(sampleFormat, await decodeTile(tx, ty), 0, tileW * img.getBlockHeight(ty)));
+    }
+  };
+  await Promise.all(Array.from({ length: lanes }, lane));
+  return finish();
+}
+
+// Uncompressed blocks of a file need no decoder: the window's blocks are read straight from the file,
+// neighbours (a writer puts them one after another) in one read of at most WINDOW_DECODE_BYTES, and
+// copied from views of that buffer (one read instead of geotiff's fetch of 64 KiB pieces per block,
+// each assembled into a fresh buffer). Returns false, having read nothing, when a block is sparse
+// (byte count 0), shorter than its pixels or beyond the end of the file: the decoder path handles
+// (or refuses) those exactly as before.
+async function readUncompressed(
+  img: GeoTIFFImage,
+  { path: file, fileBytes }: { path: string; fileBytes: number },
+  { tx0, ty0, across, count }: { tx0: number; ty0: number; across: number; count: number },
+  sampleFormat: SampleFormat,
+  bytesPerSample: number,
+  copyBlock: (tx: number, ty: number, values: TypedArray) => void,
+): Promise<boolean> {
+  const dir = img.getFileDirectory();
+  if (Number(dir.getValue('Compression' as never) ?? 1) !== 1) return false;
+  const tileW = img.getTileWidth();
+  const perRow = Math.ceil(img.getWidth() / tileW);
+  const offsetsTag = img.isTiled ? 'TileOffsets' : 'StripOffsets';
+  const countsTag = img.isTiled ? 'TileByteCounts' : 'StripByteCounts';
+  const blocks: { tx: number; ty: number; offset: number; bytes: number }[] = [];
+  for (let k = 0; k < count; k++) {
+    const tx = tx0 + (k % across);
+    const ty = ty0 + Math.floor(k / across);
+    const index = ty * perRow + tx;
+    const offset = Number(await dir.loadValueIndexed(offsetsTag, index));
+    const stored = Number(await dir.loadValueIndexed(countsTag, index));
+    const bytes = tileW * img.getBlockHeight(ty) * bytesPerSample;
+    if (!(stored >= bytes && offset >= 0 && offset + bytes <= fileBytes)) return false;
+    blocks.push({ tx, ty, offset, bytes });
+  }
+  blocks.sort((a, b) => a.offset - b.offset);
+  const handle = await open(file, 'r');
+  try {
+    for (let first = 0; first < blocks.length; ) {
+      // A run of blocks whose span stays within the cap and has no gap above 1 MiB (always at least one block).
+      const start = blocks[first].offset;
+      let last = first;
+      while (
+        last + 1 < blocks.length &&
+        blocks[last + 1].offset + blocks[last + 1].bytes - start <= WINDOW_DECODE_BYTES &&
+        blocks[last + 1].offset - (blocks[last].offset + blocks[last].bytes) <= 1024 * 1024
+      ) {
+        last++;
+      }
+      const span = Math.max(...blocks.slice(first, last + 1).map((b) => b.offset + b.bytes)) - start;
+      const buffer = new ArrayBuffer(span);
+      const { bytesRead } = await handle.read(new Uint8Array(buffer), 0, span, start);
+      if (bytesRead < span) throw new RasterError('corrupt', `the file ended ${span - bytesRead} bytes early inside a ${img.isTiled ? 'tile' : 'strip'}`);
+      for (let k = first; k <= last; k++) {
+        const block = blocks[k];
+        copyBlock(block.tx, block.ty, typedView(sampleFormat, buffer, block.offset - start, block.bytes / bytesPerSample));
+      }
+      first = last + 1;
+    }
+  } finally {
+    await handle.close();
+  }
+  return true;
+}
+
+/** Every tile/strip table of every image is consistent, each block's byte count is plausible and each block lies inside the file. */
+async function verifyImageBlockExtents(images: GeoTIFFImage[], fileBytes: number): Promise<void> {
+  for (let level = 0; level < images.length; level++) {
+    const dir = images[level].getFileDirectory();
+    const tiledImage = dir.hasTag('TileOffsets');
+    let offsets: ArrayLike<number | bigint> | undefined;
+    let counts: ArrayLike<number | bigint> | undefined;
+    try {
+      offsets = (await dir.loadValue(tiledImage ? 'TileOffsets' : 'StripOffsets')) as ArrayLike<number | bigint> | undefined;
+      counts = (await dir.loadValue(tiledImage ? 'TileByteCounts' : 'StripByteCounts')) as ArrayLike<number | bigint> | undefined;
+    } catch (error) {
+      throw new RasterError('corrupt', `the ${tiledImage ? 'tile' : 'strip'} table of image ${level} cannot be read (${error instanceof Error ? error.message : String(error)})`);
+    }
+    if (!offsets || !counts || offsets.length !== counts.length) throw new RasterError('corrupt', `image ${level} has no consistent ${tiledImage ? 'tile' : 'strip'} offset/byte-count tables`);
+    const img = images[level];
+    const expected = tiledImage
+      ? Math.ceil(img.getWidth() / img.getTileWidth()) * Math.ceil(img.getHeight() / img.getTileHeight())
+      : Math.ceil(img.getHeight() / img.getTileHeight());
+    if (offsets.length < expected) throw new RasterError('corrupt', `image ${level} lists ${offsets.length} ${tiledImage ? 'tiles' : 'strips'}, its size needs ${expected}`);
+    // A compressed block is never much larger than its decoded size (LZW at worst ~1.5×); a larger
+    // byte count is a lie that would make one read pull that many bytes from the file.
+    const img0 = images[level];
+    const bitsPerPixel = dir.getValue('PlanarConfiguration' as never) === 2 ? img0.getBitsPerSample(0) : img0.getBitsPerSample(0) * img0.getSamplesPerPixel();
+    const maxStored = 2 * Math.ceil((img0.getTileWidth() * bitsPerPixel) / 8) * img0.getTileHeight() + 65_536;
+    for (let i = 0; i < offsets.length; i++) {
+      if (Number(counts[i]) > maxStored) {
+        throw new RasterError('corrupt', `${tiledImage ? 'tile' : 'strip'} ${i} of image ${level} claims ${Number(counts[i])} stored bytes, more than its pixels could need`);
+      }
+      const end = Number(offsets[i]) + Number(counts[i]);
+      if (!(end <= fileBytes)) {
+        throw new RasterError('corrupt', `the file is truncated or corrupt: ${tiledImage ? 'tile' : 'strip'} ${i} of image ${level} ends at byte ${end}, the file has ${fileBytes}`);
+      }
+    }
+  }
+}
+
+async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number, path: string | null, decodedTileCache: number): Promise<GeoRaster> {
   const image = await tiff.getImage(0);
   const directory = image.getFileDirectory();
   const widthPx = image.getWidth();
@@ -195,33 +432,12 @@ async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number, de
   const crsInfo = readCrs(image);
   const transform = transformForCrs(crsInfo);
 
-  const noDataText = directory.hasTag('GDAL_NODATA') ? String(directory.getValue('GDAL_NODATA')).replace(/\0+$/, '').trim() : '';
-  const noData = noDataText === '' ? null : noDataText.toLowerCase() === 'nan' ? Number.NaN : Number(noDataText);
-  if (noData !== null && Number.isNaN(noData) && noDataText.toLowerCase() !== 'nan') throw new RasterError('corrupt', `GDAL_NODATA tag "${noDataText}" is not a number`);
-
-  let scale = 1;
-  let offset = 0;
-  const metadata = await image.getGDALMetadata(0);
-  if (metadata) {
-    if (metadata.SCALE !== undefined) scale = Number(metadata.SCALE);
-    if (metadata.OFFSET !== undefined) offset = Number(metadata.OFFSET);
-    if (!Number.isFinite(scale) || !Number.isFinite(offset)) throw new RasterError('corrupt', 'GDAL_METADATA scale/offset is not a number');
-  }
+  const { noData, scale, offset } = await readSampleConversion(image, directory);
 
   const tiled = image.isTiled;
   const nativeBlock = { widthPx: image.getTileWidth(), heightPx: image.getTileHeight() };
 
-  const overviews: OverviewInfo[] = [];
-  const overviewImages: GeoTIFFImage[] = [];
-  for (let i = 1; i < imageCount; i++) {
-    const candidate = await tiff.getImage(i);
-    const subfileType = tagNumbers(candidate.getFileDirectory(), 'NewSubfileType')?.[0] ?? 0;
-    // Bit 0: reduced-resolution version; bit 2: transparency mask (skipped).
-    if ((subfileType & 1) === 1 && (subfileType & 4) === 0 && candidate.getWidth() < widthPx) {
-      overviews.push({ widthPx: candidate.getWidth(), heightPx: candidate.getHeight(), factor: widthPx / candidate.getWidth() });
-      overviewImages.push(candidate);
-    }
-  }
+  const { overviews, overviewImages } = await readOverviews(tiff, imageCount, widthPx);
 
   const blockLayout = chooseBlockLayout(widthPx, heightPx, tiled, nativeBlock);
   const gt = geoTransformAndType.geoTransform;
@@ -240,23 +456,8 @@ async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number, de
     return result as unknown as TypedArray;
   };
 
-  const toFloat = (raw: TypedArray): Float32Array => {
-    const out = new Float32Array(raw.length);
-    const n = raw.length;
-    if (noData === null) {
-      for (let i = 0; i < n; i++) out[i] = raw[i] * scale + offset;
-    } else if (Number.isNaN(noData)) {
-      for (let i = 0; i < n; i++) out[i] = raw[i] * scale + offset; // NaN stays NaN
-    } else {
-      // Compare in the sample's own precision (a Float32 NoData such as -3.4028235e38 is not exactly the double).
-      const nd = sampleFormat === 'float32' ? Math.fround(noData) : noData;
-      for (let i = 0; i < n; i++) {
-        const v = raw[i];
-        out[i] = v === nd ? Number.NaN : v * scale + offset;
-      }
-    }
-    return out;
-  };
+  const conversion: SampleConversion = { sampleFormat, noData, scale, offset };
+  const toFloat = (raw: TypedArray): Float32Array => samplesToFloat(raw, conversion);
 
   // Fast path (every layout our writer and GDAL's defaults produce: one sample per pixel, whole bytes,
   // little-endian or bytes): decode each tile/strip the window touches once (geotiff's own decoders, with
@@ -266,22 +467,6 @@ async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number, de
   const bytesPerSample = bits / 8;
   const fastPath = image.getSamplesPerPixel() === 1 && (image.littleEndian || bytesPerSample === 1);
   const decoders = new Map<GeoTIFFImage, Promise<Decoder>>();
-  // Decoded tiles by image and tile, most recently used last (OpenRasterOptions.decodedTileCache).
-  const decoded = new Map<string, Promise<ArrayBuffer>>();
-  const decodedTile = (img: GeoTIFFImage, tx: number, ty: number, decoder: Decoder): Promise<ArrayBuffer> => {
-    const read = async () => (await img.getTileOrStrip(tx, ty, 0, decoder as never)).data as ArrayBuffer;
-    if (decodedTileCache === 0) return read();
-    const key = `${img === image ? 0 : overviewImages.indexOf(img) + 1}:${tx}:${ty}`;
-    let data = decoded.get(key);
-    if (data) decoded.delete(key);
-    else {
-      data = read();
-      data.catch(() => decoded.delete(key));
-    }
-    decoded.set(key, data);
-    if (decoded.size > decodedTileCache) decoded.delete(decoded.keys().next().value as string);
-    return data;
-  };
   const decoderFor = (img: GeoTIFFImage): Promise<Decoder> => {
     let decoder = decoders.get(img);
     if (!decoder) {
@@ -290,57 +475,23 @@ async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number, de
     }
     return decoder;
   };
-  const nd = noData === null || Number.isNaN(noData) ? null : sampleFormat === 'float32' ? Math.fround(noData) : noData;
+  // Decoded tiles by image and tile, most recently used last (OpenRasterOptions.decodedTileCache).
+  const decoded = new Map<string, Promise<ArrayBuffer>>();
+  const cachedTile = (img: GeoTIFFImage, decoder: Decoder) => (tx: number, ty: number): Promise<ArrayBuffer> => {
+    const key = `${img === image ? 0 : overviewImages.indexOf(img) + 1}:${tx}:${ty}`;
+    let data = decoded.get(key);
+    if (data) decoded.delete(key);
+    else {
+      data = img.getTileOrStrip(tx, ty, 0, decoder as never).then((tile) => tile.data as ArrayBuffer);
+      data.catch(() => decoded.delete(key));
+    }
+    decoded.set(key, data);
+    if (decoded.size > decodedTileCache) decoded.delete(decoded.keys().next().value as string);
+    return data;
+  };
   const readFast = async (img: GeoTIFFImage, x0: number, y0: number, w: number, h: number): Promise<Float32Array> => {
     const decoder = await decoderFor(img);
-    const tileW = img.getTileWidth();
-    const tileH = img.getTileHeight();
-    const tx0 = Math.floor(x0 / tileW);
-    const tx1 = Math.floor((x0 + w - 1) / tileW);
-    const ty0 = Math.floor(y0 / tileH);
-    const ty1 = Math.floor((y0 + h - 1) / tileH);
-    const out = new Float32Array(w * h);
-    const copyBlock = (tx: number, ty: number, data: ArrayBuffer) => {
-      const blockH = img.getBlockHeight(ty);
-      const values = typedView(sampleFormat, data, tileW * blockH);
-      // Part of this block inside the window, in block coordinates.
-      const bx0 = Math.max(0, x0 - tx * tileW);
-      const bx1 = Math.min(tileW, x0 + w - tx * tileW);
-      const by0 = Math.max(0, y0 - ty * tileH);
-      const by1 = Math.min(blockH, y0 + h - ty * tileH);
-      for (let by = by0; by < by1; by++) {
-        let src = by * tileW + bx0;
-        let dst = (ty * tileH + by - y0) * w + tx * tileW + bx0 - x0;
-        const end = src + (bx1 - bx0);
-        if (nd === null) {
-          // No NoData, or NoData NaN (NaN stays NaN through scale/offset).
-          if (scale === 1 && offset === 0) for (; src < end; src++, dst++) out[dst] = values[src];
-          else for (; src < end; src++, dst++) out[dst] = values[src] * scale + offset;
-        } else {
-          // Compared in the sample's own precision (a Float32 NoData such as -3.4028235e38 is not exactly the double).
-          for (; src < end; src++, dst++) {
-            const v = values[src];
-            out[dst] = v === nd ? Number.NaN : v * scale + offset;
-          }
-        }
-      }
-    };
-    // Blocks are decoded a few at a time and copied at once, so a window over a stripped raster (every
-    // strip is the full width) holds at most WINDOW_DECODE_BYTES of decoded blocks, not all of them.
-    const across = tx1 - tx0 + 1;
-    const count = across * (ty1 - ty0 + 1);
-    const lanes = Math.max(1, Math.min(16, count, Math.floor(WINDOW_DECODE_BYTES / (tileW * tileH * bytesPerSample))));
-    let next = 0;
-    const lane = async () => {
-      while (next < count) {
-        const index = next++;
-        const tx = tx0 + (index % across);
-        const ty = ty0 + Math.floor(index / across);
-        copyBlock(tx, ty, await decodedTile(img, tx, ty, decoder));
-      }
-    };
-    await Promise.all(Array.from({ length: lanes }, lane));
-    return out;
+    return readBlocksIntoWindow(img, decoder, { x0, y0, w, h }, conversion, bytesPerSample, path === null ? null : { path, fileBytes }, decodedTileCache > 0 ? cachedTile(img, decoder) : undefined);
   };
 
   const blockCellsTouched = (x0: number, y0: number, w: number, h: number, level = 0): number => {
@@ -398,41 +549,7 @@ async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number, de
     return { lon, lat };
   };
 
-  const verifyBlockExtents = async (): Promise<void> => {
-    const images = [image, ...overviewImages];
-    for (let level = 0; level < images.length; level++) {
-      const dir = images[level].getFileDirectory();
-      const tiledImage = dir.hasTag('TileOffsets');
-      let offsets: ArrayLike<number | bigint> | undefined;
-      let counts: ArrayLike<number | bigint> | undefined;
-      try {
-        offsets = (await dir.loadValue(tiledImage ? 'TileOffsets' : 'StripOffsets')) as ArrayLike<number | bigint> | undefined;
-        counts = (await dir.loadValue(tiledImage ? 'TileByteCounts' : 'StripByteCounts')) as ArrayLike<number | bigint> | undefined;
-      } catch (error) {
-        throw new RasterError('corrupt', `the ${tiledImage ? 'tile' : 'strip'} table of image ${level} cannot be read (${error instanceof Error ? error.message : String(error)})`);
-      }
-      if (!offsets || !counts || offsets.length !== counts.length) throw new RasterError('corrupt', `image ${level} has no consistent ${tiledImage ? 'tile' : 'strip'} offset/byte-count tables`);
-      const img = images[level];
-      const expected = tiledImage
-        ? Math.ceil(img.getWidth() / img.getTileWidth()) * Math.ceil(img.getHeight() / img.getTileHeight())
-        : Math.ceil(img.getHeight() / img.getTileHeight());
-      if (offsets.length < expected) throw new RasterError('corrupt', `image ${level} lists ${offsets.length} ${tiledImage ? 'tiles' : 'strips'}, its size needs ${expected}`);
-      // A compressed block is never much larger than its decoded size (LZW at worst ~1.5×); a larger
-      // byte count is a lie that would make one read pull that many bytes from the file.
-      const img0 = images[level];
-      const bitsPerPixel = dir.getValue('PlanarConfiguration' as never) === 2 ? img0.getBitsPerSample(0) : img0.getBitsPerSample(0) * img0.getSamplesPerPixel();
-      const maxStored = 2 * Math.ceil((img0.getTileWidth() * bitsPerPixel) / 8) * img0.getTileHeight() + 65_536;
-      for (let i = 0; i < offsets.length; i++) {
-        if (Number(counts[i]) > maxStored) {
-          throw new RasterError('corrupt', `${tiledImage ? 'tile' : 'strip'} ${i} of image ${level} claims ${Number(counts[i])} stored bytes, more than its pixels could need`);
-        }
-        const end = Number(offsets[i]) + Number(counts[i]);
-        if (!(end <= fileBytes)) {
-          throw new RasterError('corrupt', `the file is truncated or corrupt: ${tiledImage ? 'tile' : 'strip'} ${i} of image ${level} ends at byte ${end}, the file has ${fileBytes}`);
-        }
-      }
-    }
-  };
+  const verifyBlockExtents = (): Promise<void> => verifyImageBlockExtents([image, ...overviewImages], fileBytes);
 
   return {
     fileBytes,
@@ -488,19 +605,27 @@ async function makeDecoder(img: GeoTIFFImage): Promise<Decoder> {
   return getDecoder(compression, parameters);
 }
 
-/** A typed view of `count` decoded samples (little-endian, as the fast path requires). */
-function typedView(format: SampleFormat, buffer: ArrayBuffer, count: number): TypedArray {
+/**
+ * A typed view of `count` samples (little-endian, as the fast path requires) starting `byteOffset`
+ * bytes into `buffer`; a block at an offset that is not a multiple of the sample size (TIFF does not
+ * require alignment) is copied out first.
+ */
+function typedView(format: SampleFormat, buffer: ArrayBuffer, byteOffset: number, count: number): TypedArray {
   const bytes = { uint8: 1, int8: 1, uint16: 2, int16: 2, uint32: 4, int32: 4, float32: 4, float64: 8 }[format];
-  if (buffer.byteLength < count * bytes) throw new RasterError('corrupt', `a tile/strip decoded to ${buffer.byteLength} bytes, ${count * bytes} expected`);
+  if (buffer.byteLength - byteOffset < count * bytes) throw new RasterError('corrupt', `a tile/strip decoded to ${buffer.byteLength - byteOffset} bytes, ${count * bytes} expected`);
+  if (byteOffset % bytes !== 0) {
+    buffer = buffer.slice(byteOffset, byteOffset + count * bytes);
+    byteOffset = 0;
+  }
   switch (format) {
-    case 'uint8': return new Uint8Array(buffer, 0, count);
-    case 'int8': return new Int8Array(buffer, 0, count);
-    case 'uint16': return new Uint16Array(buffer, 0, count);
-    case 'int16': return new Int16Array(buffer, 0, count);
-    case 'uint32': return new Uint32Array(buffer, 0, count);
-    case 'int32': return new Int32Array(buffer, 0, count);
-    case 'float32': return new Float32Array(buffer, 0, count);
-    case 'float64': return new Float64Array(buffer, 0, count);
+    case 'uint8': return new Uint8Array(buffer, byteOffset, count);
+    case 'int8': return new Int8Array(buffer, byteOffset, count);
+    case 'uint16': return new Uint16Array(buffer, byteOffset, count);
+    case 'int16': return new Int16Array(buffer, byteOffset, count);
+    case 'uint32': return new Uint32Array(buffer, byteOffset, count);
+    case 'int32': return new Int32Array(buffer, byteOffset, count);
+    case 'float32': return new Float32Array(buffer, byteOffset, count);
+    case 'float64': return new Float64Array(buffer, byteOffset, count);
   }
 }
 

@@ -1,6 +1,7 @@
 // Hillshade basemap tiles (Web Mercator XYZ, 256 px) rendered from a plan's elevation rasters,
 // so the map works offline. Reads one window per raster per tile, from the overview whose
-// resolution best fits the tile, and mosaics finest layer first.
+// resolution best fits the zoom (one choice per raster and zoom, so neighbouring tiles agree),
+// and mosaics finest layer first.
 import { encodePng } from './png.ts';
 import { hillshade, mercatorPixelSizeM, mercatorPixelToLonLat, type HillshadeOptions } from './hillshade.ts';
 import type { GeoRaster } from './raster.ts';
@@ -91,7 +92,6 @@ export async function hillshadeTilePixels(rasters: GeoRaster[], z: number, x: nu
     }
     rowCellM[r] = mercatorPixelSizeM(lat[r * n], z);
   }
-  const tileCellM = rowCellM[n >> 1];
   let tooCoarse = false;
   const ordered = [...rasters].sort((a, b) => Math.min(a.resolutionM.x, a.resolutionM.y) - Math.min(b.resolutionM.x, b.resolutionM.y));
   const px = scratch.px;
@@ -99,7 +99,12 @@ export async function hillshadeTilePixels(rasters: GeoRaster[], z: number, x: nu
   for (const raster of ordered) {
     const b = raster.boundsLonLat;
     if (b.east < lon[0] || b.west > lon[n * n - 1] || b.north < lat[n * n - 1] || b.south > lat[0]) continue;
-    const { level, fx, fy, w, h } = chooseLevel(raster, tileCellM);
+    // The level is chosen per raster and zoom, at the raster's centre latitude, never per tile: a tile's own
+    // Mercator cell size changes with its latitude (∝ cos φ), so two neighbours one above the other could
+    // pick different overviews where 2^k × the raster's cell size falls between theirs, and shade the two
+    // sides of their seam from different resolutions.
+    const centreLat = (b.north + b.south) / 2;
+    const { level, fx, fy, w, h } = chooseLevel(raster, mercatorPixelSizeM(centreLat, z));
     // Pixel coordinates in the chosen level; exact transforms every 8th column, linear between (smooth at tile scale).
     const gt = raster.geoTransform;
     const toPixel = (k: number) => {

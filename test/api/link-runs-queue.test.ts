@@ -20,7 +20,7 @@ import { createFleetFixture, linkRowsOf, seeded, type FleetFixture } from '../he
 import { QueueWorkers, queueSuite, REDIS_URL, requireQueue } from '../helpers/queue-workers.ts';
 import { buildApp } from '../../server/api/app.ts';
 import { LINK_TILE_QUEUE } from '../../server/jobs/link-runs.ts';
-import { redisConnection } from '../../server/jobs/runner.ts';
+import { redisConnection } from '../../server/jobs/queue-connection.ts';
 
 const suite = queueSuite('link-runs-queue');
 

@@ -11,6 +11,8 @@ import { bearer, createTestApp, type TestApp } from '../helpers/test-app.ts';
 import { writeGeoTiff } from '../../server/terrain/geotiff-writer.ts';
 import { writeFileSync } from 'node:fs';
 import { standardNormalCdf } from '../../server/planning/probability.ts';
+import { findPlanById } from '../../server/db/repositories/links.ts';
+import { nodeLinkCheck, nodeLinks, nodeRecommendation, nodeVisitSheet } from '../../server/app/links.ts';
 
 const WGS84 = geodesic.Geodesic.WGS84;
 const NODE = { lat: 40, lon: -105 };
@@ -246,7 +248,7 @@ describe('fleet table, link check, recommendation, visit sheet', () => {
     expect(bad.body.error.message).toMatch(/mastHeightsM/);
   });
 
-  it('fleet recommendation runs as a job with progress and a result', async () => {
+  it('fleet recommendation runs as a run with progress and a result', async () => {
     const viewer = await request(t.app.server).post(`/api/v1/plans/${planId}/recommend`).set(bearer(t.tokens.viewer)).send({});
     expect(viewer.status).toBe(403);
     const start = await request(t.app.server).post(`/api/v1/plans/${planId}/recommend`).set(bearer(t.tokens.planner)).send({ targetMarginDb: 5 });
@@ -284,6 +286,42 @@ describe('fleet table, link check, recommendation, visit sheet', () => {
     const sheet = await request(t.app.server).get(`/api/v1/plans/${planId}/nodes/${node.body.id}/visit-sheet?format=json`).set(bearer(t.tokens.installer));
     expect(sheet.status).toBe(200);
     expect(sheet.body.buildSheet.elements.map((e: { name: string }) => e.name)).toContain('radiator');
+  });
+
+  it('links, check, recommend and visit sheet answer exactly what their use cases build: the response schemas drop no key', async () => {
+    // Each route parses its answer through its response schema (server/api/link-answers.ts), which
+    // drops keys it does not list; so the JSON must equal the use case's own output, key for key.
+    const plan = await findPlanById(t.db, planId);
+    expect(plan).not.toBeNull();
+    const engine = t.app.linkEngine;
+    const json = (value: unknown): unknown => JSON.parse(JSON.stringify(value));
+    const nodes = (await t.db.prisma.node.findMany({ where: { planId }, select: { id: true, name: true } })).map((n) => n.id);
+    expect(nodes.length).toBeGreaterThanOrEqual(3);
+    const as = bearer(t.tokens.planner);
+    for (const id of nodes) {
+      const links = await request(t.app.server).get(`/api/v1/plans/${planId}/nodes/${id}/links`).set(as);
+      expect(links.status).toBe(200);
+      // The use case answers a repeat from the front cache: equal but for the cache counts.
+      const { cache: _routeCache, ...routeLinks } = links.body;
+      const { cache: _caseCache, ...caseLinks } = json(await nodeLinks(engine, plan!, id)) as Record<string, unknown>;
+      expect(routeLinks).toEqual(caseLinks);
+      const preview = await request(t.app.server).get(`/api/v1/plans/${planId}/nodes/${id}/links?antennaHeightAglM=4&feedlineId=none`).set(as);
+      expect(preview.body).toEqual(json(await nodeLinks(engine, plan!, id, { antennaHeightAglM: 4, feedlineId: null })));
+      const check = await request(t.app.server).get(`/api/v1/plans/${planId}/nodes/${id}/check`).set(as);
+      expect(check.status).toBe(200);
+      expect(check.body).toEqual(json(await nodeLinkCheck(engine, plan!, id)));
+      const body = { targetMarginDb: 5, mastHeightsM: [3, 6] };
+      const recommendation = await request(t.app.server).post(`/api/v1/plans/${planId}/nodes/${id}/recommend`).set(as).send(body);
+      expect(recommendation.status).toBe(200);
+      expect(recommendation.body).toEqual(json(await nodeRecommendation(engine, plan!, id, body)));
+      const sheet = await request(t.app.server).get(`/api/v1/plans/${planId}/nodes/${id}/visit-sheet?format=json`).set(as);
+      expect(sheet.status).toBe(200);
+      expect(sheet.body).toEqual({ ...(json(await nodeVisitSheet(engine, plan!, id)) as object), generatedAt: sheet.body.generatedAt });
+    }
+    // The three kinds of answer were all exercised: a link with a profile, a build sheet, a recommendation on the sheet.
+    const sheets = await Promise.all(nodes.map(async (id) => (await request(t.app.server).get(`/api/v1/plans/${planId}/nodes/${id}/visit-sheet?format=json`).set(as)).body));
+    expect(sheets.some((s) => s.buildSheet !== null)).toBe(true);
+    expect(sheets.some((s) => s.kit.recommended !== null)).toBe(true);
   });
 });
 

@@ -132,7 +132,7 @@ describeEngines('OpenAPI response schemas', (engine) => {
     const tif = Buffer.from(writeGeoTiff({ widthPx: width, heightPx: width, data, geoTransform: [290500, 30, 0, 5520500, 0, -30], epsg: 32632, noData: -32768 }));
     const layer = await http.post(`/api/v1/plans/${planId}/terrain`).set(as).set('Content-Type', 'image/tiff').send(tif);
     expect(layer.status, JSON.stringify(layer.body)).toBe(201);
-    const run = await createCoverageRun(t.db, planId, { gatewayIds: ['g1'], params: { mode: 'fast', radiusKm: 1, sf: 10, requiredMarginDb: 10 }, createdById: null });
+    const run = await createCoverageRun(t.db, planId, { gatewayIds: ['g1'], params: { mode: 'fast', radiusKm: 1, sf: 10, targetMarginDb: 10 }, createdById: null });
     const antenna = await http.post('/api/v1/kit/antenna-designs').set(as).send({ name: 'Ground plane', kind: 'ground-plane', gainDbi: 2.1, fromMhz: 860, toMhz: 930 });
     expect(antenna.status, JSON.stringify(antenna.body)).toBe(201);
     const token = await http.post('/api/v1/tokens').set(as).send({ role: 'viewer', label: 'openapi check', expiresInDays: 2 });

@@ -11,7 +11,8 @@ import { createTestApp, describeEngines, type TestApp } from '../helpers/test-ap
 import { createFleetFixture, seeded, type FleetFixture } from '../helpers/fleet-fixture.ts';
 import { LinkEngine } from '../../server/jobs/link-engine.ts';
 import { computeSitingMatrix, matrixInputs, SitingCancelled, type SitingCandidate } from '../../server/jobs/siting-matrix.ts';
-import { createLinkRunJobs, type LinkRunJobs } from '../../server/jobs/link-runs.ts';
+import { createLinkRunJobs } from '../../server/jobs/link-runs.ts';
+import type { LinkRunJobs } from '../../server/jobs/link-run-jobs.ts';
 import { cutSitingTiles, splitSitingMatrix } from '../../server/jobs/siting-matrix-split.ts';
 
 describeEngines('siting matrix split into blocks', (engineName) => {

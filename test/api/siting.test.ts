@@ -235,6 +235,46 @@ describeEngines('gateway siting API', (engine) => {
     await request(t.app.server).delete(`/api/v1/plans/${planId}/sites/${site.body.id}`).set(auth);
   }, 120_000);
 
+  it('a chosen candidate costs what the bill of materials prices its gateway at: same kit (mast included), same number', async () => {
+    const mast = await t.db.prisma.mastOption.findFirstOrThrow({ where: { teamId: null, costUsd: { gt: 0 } }, orderBy: { costUsd: 'asc' } });
+    const bomBefore = await request(t.app.server).get(`/api/v1/plans/${planId}/bom`).set(auth);
+    expect(bomBefore.status).toBe(200);
+    expect(bomBefore.body.gatewayKitCostUsd).toBe(0); // the set-up removed every gateway
+    // One gateway, first without a mast, then the kit with a mast (the feedline length left to the
+    // plan's rule, height + drop). The second run reuses the first one's matrix (the mast changes no
+    // link), but its candidates are priced with its own kit.
+    const plain = await request(t.app.server).post(`/api/v1/plans/${planId}/siting`).set(auth).send({ ...body(1), maxGateways: 1 });
+    expect((await waitDone(t, auth, planId, plain.body.id)).status).toBe('done');
+    const start = await request(t.app.server).post(`/api/v1/plans/${planId}/siting`).set(auth).send({ ...body(1), maxGateways: 1, gatewayKit: { mastOptionId: mast.id } });
+    expect(start.status).toBe(202);
+    const run = await waitDone(t, auth, planId, start.body.id);
+    expect(run.status, String(run.error)).toBe('done');
+    expect((run.result as { matrix: { cached: boolean } }).matrix.cached).toBe(true);
+    const costs = async (id: string) => new Map(((await request(t.app.server).get(`/api/v1/plans/${planId}/siting/${id}/matrix`).set(auth)).body as Matrix).candidates.map((c) => [c.id, c.costUsd]));
+    const [plainCosts, mastCosts] = await Promise.all([costs(plain.body.id), costs(start.body.id)]);
+    for (const [id, cost] of mastCosts) if (id.startsWith('site:')) expect(cost - (plainCosts.get(id) as number), id).toBeCloseTo(mast.costUsd, 2);
+    const chosen = (run.result as { selected: Array<{ candidateId: string; siteId: string | null; costUsd: number; kept: boolean }> }).selected;
+    expect(chosen).toHaveLength(1);
+    expect(chosen[0].kept).toBe(false);
+    const site = ((await request(t.app.server).get(`/api/v1/plans/${planId}/sites?limit=1000`).set(auth)).body.items as Array<{ id: string; name: string; costUsd: number | null }>).find((s) => s.id === chosen[0].siteId);
+    expect(site, 'the chosen candidate is a site').toBeDefined();
+    const applied = await request(t.app.server).post(`/api/v1/plans/${planId}/siting/${start.body.id}/apply`).set(auth);
+    expect(applied.status).toBe(201);
+    const bom = await request(t.app.server).get(`/api/v1/plans/${planId}/bom`).set(auth);
+    expect(bom.status).toBe(200);
+    // Candidate cost = site works + kit; the bill prices the applied gateway's kit and the site works apart.
+    const siteCostUsd = site!.costUsd ?? 0;
+    expect(bom.body.gatewayKitCostUsd).toBeGreaterThan(0);
+    expect(bom.body.gatewayKitCostUsd).toBeCloseTo(chosen[0].costUsd - siteCostUsd, 2);
+    expect(bom.body.kitCostUsd - bomBefore.body.kitCostUsd).toBeCloseTo(chosen[0].costUsd - siteCostUsd, 2);
+    const works = (bom.body.lines as Array<{ category: string; name: string; costUsd: number }>).filter((l) => l.category === 'site');
+    expect(works.reduce((sum, l) => sum + l.costUsd, 0)).toBeCloseTo(siteCostUsd, 2);
+    // The mast is one of the kit's lines (the bare antenna + feedline figure would leave it and the connectors out).
+    const mastCount = (b: { lines: Array<{ category: string; name: string; quantity: number }> }) => b.lines.find((l) => l.category === 'mast' && l.name === mast.name)?.quantity ?? 0;
+    expect(mastCount(bom.body) - mastCount(bomBefore.body)).toBe(1);
+    for (const id of applied.body.gatewayIds) expect((await request(t.app.server).delete(`/api/v1/plans/${planId}/gateways/${id}`).set(auth)).status).toBe(204);
+  }, 240_000);
+
   it('bad input answers 400 naming the field; another team answers 404; non-planners 403', async () => {
     const post = (payload: unknown, headers = auth) => request(t.app.server).post(`/api/v1/plans/${planId}/siting`).set(headers).send(payload as object);
     const k0 = await post({ ...body(1), requiredGateways: 0 });

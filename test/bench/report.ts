@@ -72,7 +72,7 @@ export async function makeBenchPlan(t: TestApp, dir: string): Promise<{ planId: 
   }
   await t.db.prisma.node.createMany({ data: rows });
   // A finished coverage run with a synthetic margin raster (falls off with distance from the centre).
-  const run = await t.db.prisma.coverageRun.create({ data: { planId, gatewayIds, params: { mode: 'fast', radiusKm: 15, sf: 9, targetHeightM: 2, requiredMarginDb: 10 }, status: 'done', progress: 1, finishedAt: new Date(), resultPath: '' } });
+  const run = await t.db.prisma.coverageRun.create({ data: { planId, gatewayIds, params: { mode: 'fast', radiusKm: 15, sf: 9, targetHeightM: 2, targetMarginDb: 10 }, status: 'done', progress: 1, finishedAt: new Date(), resultPath: '' } });
   mkdirSync(resultDir(t.config, run.id), { recursive: true });
   writeFileSync(join(resultDir(t.config, run.id), RESULT_FILES.margin), writeGeoTiff({ widthPx: SIZE_PX, heightPx: SIZE_PX, data: grid((u, v) => 35 - 60 * Math.hypot(u - 0.5, v - 0.5) + 6 * Math.sin(20 * u)), geoTransform, epsg: 4326, compression: 'deflate', tiled: { tileSizePx: 256 }, overviews: [2, 4] }));
 

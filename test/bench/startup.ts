@@ -5,10 +5,15 @@
 // 2. `earshot token issue` on an embedded data folder (no server running: the CLI opens the folder);
 // 3. a server restart on an existing data folder, until it prints its listening line;
 // 4. `earshot coverage --mode los` against gdal_viewshed on the same DEM, observer and radius.
-// Printed as one table, each figure as a ratio to its reference (or a time against its target);
-// EARSHOT_BENCH_BASELINE=<another checkout> adds that tree's compiled programs as a column.
+// Printed as one table, each figure as a ratio to its reference (or a time against its target), with
+// the CPU time (user + system) of the same runs beside the wall time of the spawned commands;
+// EARSHOT_BENCH_BASELINE=<another checkout> adds that tree's compiled programs as a column (e.g. main's
+// tree exported with `git archive main | tar -x -C <dir>`, node_modules linked and the Prisma client copied).
+// "compiled" is what `npm run earshot` runs: the CLI from its bundle build/cli/ (scripts/build-server.mjs),
+// the server from the per-file tree build/server/; most of a short command's time is Node's own start,
+// loading modules and, for coverage, reading the DEM and writing the GeoTIFF.
 import { spawn, spawnSync } from 'node:child_process';
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { createServer } from 'node:net';
 import { cpus, loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -18,18 +23,43 @@ import { makeSyntheticDem } from '../unit/coverage/synthetic-dem.ts';
 
 const repeats = 3;
 
+// CPU time of the waited-for children of this process (user + system, /proc/self/stat fields 16 and 17,
+// in clock ticks of 10 ms): on a shared machine a child's CPU time varies less than its wall time.
+function childrenCpuMs(): number | null {
+  try {
+    const fields = readFileSync('/proc/self/stat', 'utf8').replace(/^.*\) /, '').split(' ');
+    // After "pid (comm) " the fields start at number 3 (state): cutime is field 16, cstime 17.
+    return (Number(fields[16 - 3]) + Number(fields[17 - 3])) * 10;
+  } catch {
+    return null;
+  }
+}
+
+/** Last CPU time measured by wallMs (ms), or null where /proc is missing. */
+let lastCpuMs: number | null = null;
+
 function wallMs(command: string, args: string[], env: NodeJS.ProcessEnv = process.env): number {
+  const cpuBefore = childrenCpuMs();
   const started = performance.now();
   const result = spawnSync(command, args, { encoding: 'utf8', env, timeout: 300_000 });
   const elapsed = performance.now() - started;
+  const cpuAfter = childrenCpuMs();
+  lastCpuMs = cpuBefore === null || cpuAfter === null ? null : cpuAfter - cpuBefore;
   if (result.status !== 0) throw new Error(`${command} ${args.join(' ')} failed: ${result.stderr.split('\n')[0]}`);
   return elapsed;
 }
 
 const best = (times: number[]) => Math.min(...times);
-function bestOf(run: () => number): number {
+/** Best (least) CPU time of the runs of the last bestOf, by name of the measured program. */
+const bestCpu = new Map<string, number | null>();
+function bestOf(run: () => number, cpuKey?: string): number {
   const times: number[] = [];
-  for (let i = 0; i < repeats; i++) times.push(run());
+  const cpu: number[] = [];
+  for (let i = 0; i < repeats; i++) {
+    times.push(run());
+    if (lastCpuMs !== null) cpu.push(lastCpuMs);
+  }
+  if (cpuKey) bestCpu.set(cpuKey, cpu.length === repeats ? best(cpu) : null);
   return best(times);
 }
 
@@ -83,6 +113,8 @@ interface Row {
   target: string;
   /** Ratio against the reference, or the plain time when the target is a time. */
   ratio: (ms: number) => string;
+  /** CPU time (user + system, best of the runs) of the reference and of each program, when measured. */
+  cpuMs?: Record<string, number | null>;
 }
 
 // EARSHOT_BENCH_BASELINE=<folder of another checkout, e.g. main's>: its compiled programs are
@@ -105,18 +137,22 @@ export async function run(): Promise<void> {
     const rows: Row[] = [];
     const each = (measure: (name: string, argv: (program: string, entry: string, args: string[]) => string[]) => number | null) =>
       Object.fromEntries(columns.map((name) => [name, measure(name, programs[name])]));
+    // CPU times of one row's programs (and reference), from the bestOf calls keyed `${figure}:${name}`.
+    const cpuOf = (figure: string) => Object.fromEntries(['reference', ...columns].map((name) => [name, bestCpu.get(`${figure}:${name}`) ?? null]));
 
     // 1. Bare node and the smallest CLI command.
-    const bareMs = bestOf(() => wallMs(process.execPath, ['-e', '0']));
+    const bareMs = bestOf(() => wallMs(process.execPath, ['-e', '0']), 'airtime:reference');
     const airtime = ['airtime', '--sf', '10', '--bw-khz', '125', '--payload-bytes', '24', '--json'];
-    rows.push({ figure: 'earshot airtime', reference: 'node -e 0', referenceMs: bareMs, ms: each((_n, argv) => bestOf(() => wallMs(process.execPath, argv('cli', 'server/cli.ts', airtime)))), target: '≤ 10×', ratio: (ms) => `${(ms / bareMs).toFixed(1)}×` });
+    const airtimeMs = each((name, argv) => bestOf(() => wallMs(process.execPath, argv('cli', 'server/cli.ts', airtime)), `airtime:${name}`));
+    rows.push({ figure: 'earshot airtime', reference: 'node -e 0', referenceMs: bareMs, ms: airtimeMs, target: '≤ 10×', ratio: (ms) => `${(ms / bareMs).toFixed(1)}×`, cpuMs: cpuOf('airtime') });
 
     // 2. token issue on an embedded folder made (with the demo team) by a first server start.
     const dataDir = join(dir, 'data');
     const firstStartMs = await serverStartMs(programs.compiled('server', 'server/main.ts', []), dataDir);
     const env = { ...process.env, EARSHOT_DATA_DIR: dataDir };
     const issue = ['token', 'issue', '--team', 'demo', '--role', 'viewer', '--json'];
-    rows.push({ figure: 'earshot token issue (embedded folder)', reference: '', referenceMs: null, ms: each((_n, argv) => bestOf(() => wallMs(process.execPath, argv('cli', 'server/cli.ts', issue), env))), target: '≤ 3000 ms', ratio: (ms) => `${ms.toFixed(0)} ms` });
+    const issueMs = each((name, argv) => bestOf(() => wallMs(process.execPath, argv('cli', 'server/cli.ts', issue), env), `token:${name}`));
+    rows.push({ figure: 'earshot token issue (embedded folder)', reference: '', referenceMs: null, ms: issueMs, target: '≤ 3000 ms', ratio: (ms) => `${ms.toFixed(0)} ms`, cpuMs: cpuOf('token') });
 
     // 3. Restart on the existing folder (best of 2).
     const restart: Record<string, number | null> = {};
@@ -138,21 +174,26 @@ export async function run(): Promise<void> {
       const oy = 4_100_000 - 700.5 * cellM;
       const info = spawnSync('gdaltransform', ['-s_srs', 'EPSG:32633', '-t_srs', 'EPSG:4326', '-output_xy'], { input: `${ox} ${oy}\n`, encoding: 'utf8' });
       const [lon, lat] = info.stdout.trim().split(/\s+/).map(Number);
-      const gdalMs = bestOf(() => wallMs('gdal_viewshed', ['-q', '-oz', '20', '-tz', '1.5', '-md', '20000', '-cc', '0.75', '-vv', '1', '-iv', '0', '-ov', '100', '-ox', String(ox), '-oy', String(oy), demPath, join(dir, 'gdal.tif')]));
+      const gdalMs = bestOf(() => wallMs('gdal_viewshed', ['-q', '-oz', '20', '-tz', '1.5', '-md', '20000', '-cc', '0.75', '-vv', '1', '-iv', '0', '-ov', '100', '-ox', String(ox), '-oy', String(oy), demPath, join(dir, 'gdal.tif')]), 'los:reference');
       const coverage = ['coverage', '--terrain', demPath, '--site', `${lat},${lon}`, '--height-m', '20', '--radius-km', '20', '--mode', 'los', '--out', join(dir, 'los.tif'), '--json'];
-      rows.push({ figure: 'earshot coverage --mode los (20 km, 1400² DEM)', reference: 'gdal_viewshed', referenceMs: gdalMs, ms: each((_n, argv) => bestOf(() => wallMs(process.execPath, argv('cli', 'server/cli.ts', coverage)))), target: '≤ 2×', ratio: (ms) => `${(ms / gdalMs).toFixed(2)}×` });
+      const losMs = each((name, argv) => bestOf(() => wallMs(process.execPath, argv('cli', 'server/cli.ts', coverage)), `los:${name}`));
+      rows.push({ figure: 'earshot coverage --mode los (20 km, 1400² DEM)', reference: 'gdal_viewshed', referenceMs: gdalMs, ms: losMs, target: '≤ 2×', ratio: (ms) => `${(ms / gdalMs).toFixed(2)}×`, cpuMs: cpuOf('los') });
     } else {
       log('coverage --mode los vs gdal_viewshed: skipped (gdal-bin not installed)');
     }
 
     // One table: every figure, its reference, each program's wall time and ratio, the target.
     const header = ['figure', 'reference', ...columns.map((name) => (name === 'baseline' ? `baseline (${baseline})` : name)), 'target'];
+    const cpuNote = (row: Row, name: string) => {
+      const cpu = row.cpuMs?.[name];
+      return cpu === null || cpu === undefined ? '' : ` (cpu ${cpu.toFixed(0)})`;
+    };
     const table = rows.map((row) => [
       row.figure,
-      row.referenceMs === null ? '–' : `${row.reference} ${row.referenceMs.toFixed(0)} ms`,
+      row.referenceMs === null ? '–' : `${row.reference} ${row.referenceMs.toFixed(0)} ms${cpuNote(row, 'reference')}`,
       ...columns.map((name) => {
         const ms = row.ms[name];
-        return ms === null || ms === undefined ? '–' : row.referenceMs === null ? row.ratio(ms) : `${ms.toFixed(0)} ms = ${row.ratio(ms)}`;
+        return ms === null || ms === undefined ? '–' : row.referenceMs === null ? `${row.ratio(ms)}${cpuNote(row, name)}` : `${ms.toFixed(0)} ms = ${row.ratio(ms)}${cpuNote(row, name)}`;
       }),
       row.target,
     ]);
@@ -161,7 +202,7 @@ export async function run(): Promise<void> {
     log(line(header));
     log(`|${widths.map((w) => '-'.repeat(w + 2)).join('|')}|`);
     for (const cells of table) log(line(cells));
-    log(`wall times, best of ${repeats} (restarts: best of 2); load average now ${loadavg().map((l) => l.toFixed(1)).join(' ')}`);
+    log(`wall times, best of ${repeats} (restarts: best of 2); (cpu N): least user + system CPU ms of the same runs (10 ms ticks); load average now ${loadavg().map((l) => l.toFixed(1)).join(' ')}`);
   } catch (error) {
     log(`startup bench failed: ${error instanceof Error ? error.message : String(error)}`);
     throw error;

@@ -18,9 +18,8 @@ import type { AddressInfo } from 'node:net';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
-import pg from 'pg';
 import { writeGeoTiffFile } from '../../server/terrain/geotiff-writer.ts';
-import { postgresAdminUrl, postgresAvailable } from '../helpers/test-app.ts';
+import { adminQuery, postgresAdminUrl, postgresAvailable, withDatabase } from '../helpers/test-app.ts';
 
 const here = fileURLToPath(import.meta.url);
 const SIZE = 20000;
@@ -156,20 +155,9 @@ async function uploadChild(file: string, engine: string): Promise<void> {
   const dataDir = mkdtempSync(join(tmpdir(), 'earshot-upload-bench-data-'));
   let databaseUrl: string | undefined;
   const database = `earshot_upload_bench_${process.pid}`;
-  const admin = async (sql: string) => {
-    const client = new pg.Client({ connectionString: postgresAdminUrl });
-    await client.connect();
-    try {
-      await client.query(sql);
-    } finally {
-      await client.end();
-    }
-  };
   if (engine === 'postgres') {
-    await admin(`CREATE DATABASE "${database}"`);
-    const url = new URL(postgresAdminUrl);
-    url.pathname = `/${database}`;
-    databaseUrl = url.toString();
+    await adminQuery(`CREATE DATABASE "${database}"`);
+    databaseUrl = withDatabase(postgresAdminUrl, database);
   }
   const server = await startServer({ ...loadConfig({ EARSHOT_DATA_DIR: dataDir, EARSHOT_DEMO: 'off', HOST: '127.0.0.1', ...(databaseUrl ? { DATABASE_URL: databaseUrl } : {}) }), port: 0 }, { logger: false });
   try {
@@ -215,7 +203,7 @@ async function uploadChild(file: string, engine: string): Promise<void> {
   } finally {
     await server.stop();
     rmSync(dataDir, { recursive: true, force: true });
-    if (databaseUrl) await admin(`DROP DATABASE IF EXISTS "${database}" WITH (FORCE)`);
+    if (databaseUrl) await adminQuery(`DROP DATABASE IF EXISTS "${database}" WITH (FORCE)`);
   }
 }
 

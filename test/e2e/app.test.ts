@@ -324,7 +324,7 @@ describe('map front end (chromium)', () => {
     // Choices come from GET /client-settings: more than one band plan and method to pick from.
     expect(await page.locator('#plan-band option').count()).toBeGreaterThan(1);
     expect(await page.locator('#plan-method option').count()).toBeGreaterThan(1);
-    await page.getByLabel('Target fade margin (dB)').fill(String(newMargin));
+    await page.getByLabel('Target margin (dB)').fill(String(newMargin));
     await page.getByLabel('Location variability σL (dB)').fill('7.5');
     await page.locator('dialog').screenshot({ path: 'test-artefacts/screenshots/05c-plan-settings.png' });
     await page.getByRole('button', { name: 'Save plan settings' }).click();
@@ -350,7 +350,7 @@ describe('map front end (chromium)', () => {
     expect(status).toBe(200);
     watch.expectHttpError(new RegExp(`/api/v1/plans/${planId}$`), 409);
     await page.getByRole('button', { name: 'Plan settings' }).click();
-    await page.getByLabel('Target fade margin (dB)').fill(String(newMargin + 1.5));
+    await page.getByLabel('Target margin (dB)').fill(String(newMargin + 1.5));
     await page.getByRole('button', { name: 'Save plan settings' }).click();
     await page.getByRole('heading', { name: 'Someone else changed this first' }).waitFor();
     expect(await textOf('dialog')).toContain('the plan settings');

@@ -4,29 +4,23 @@
 // delivery-with-load figures beside the link-only ones in the fleet table and the summary.
 // Every step fails on a console error or a request that leaves the local server.
 import { afterAll, beforeAll, beforeEach, describe, expect, it } from 'vitest';
-import type { Browser, BrowserContext, Page } from 'playwright-core';
-import { accessibilityProblems, buildWeb, guard, launchBrowser, newContext, screenshot, startServer, type Guard, type RunningServer } from './harness.ts';
+import type { Page } from 'playwright-core';
+import { accessibilityProblems, openSession, screenshot, type Guard, type RunningServer, type Session } from './harness.ts';
 
+let session: Session;
 let server: RunningServer;
-let browser: Browser;
-let context: BrowserContext;
 let page: Page;
 let watch: Guard;
 let planId = '';
 
 beforeAll(async () => {
-  buildWeb();
-  [server, browser] = await Promise.all([startServer(), launchBrowser()]);
-  context = await newContext(browser);
-  page = await context.newPage();
-  page.setDefaultTimeout(120_000);
-  watch = guard(page, server.baseUrl);
+  // Signed in by the start-up link, on the demo plan.
+  session = await openSession({ plan: 'demo', signIn: 'link' });
+  ({ server, page, watch, planId } = session);
 }, 300_000);
 
 afterAll(async () => {
-  await context?.close();
-  await browser?.close();
-  await server?.stop();
+  await session?.close();
 });
 
 beforeEach(() => {
@@ -47,13 +41,7 @@ async function capacityFromApi(query: string): Promise<CapacityAnswer> {
 
 describe('network load view (chromium)', () => {
   it('opens from the plan menu and shows per-gateway load bars per SF and channel with the server’s figures', async () => {
-    watch.expectHttpError(/\/api\/v1\/me$/, 401);
-    await page.goto(server.signInUrl);
-    await page.locator('a.plan-link').first().waitFor();
-    await page.locator('a.plan-link').first().click();
-    await page.waitForURL(/#\/plan\//);
-    planId = decodeURIComponent(/#\/plan\/([^/?]+)/.exec(page.url())?.[1] ?? '');
-    expect(planId).not.toBe('');
+    expect(page.url()).toContain(`#/plan/${encodeURIComponent(planId)}`);
     await page.getByRole('link', { name: 'Network load' }).click();
     await page.getByRole('heading', { name: 'Network load', level: 1 }).waitFor();
     await page.locator('#capacity-totals').waitFor();

@@ -184,6 +184,86 @@ export function buildWeb(): void {
   if (result.status !== 0) throw new Error('web build failed');
 }
 
+export interface SessionOptions {
+  /** 'demo': the demo plan the server seeds (default); 'blank': a new empty plan of the demo team. */
+  plan?: 'demo' | 'blank';
+  /** 'link': the start-up sign-in link (default); 'token': a token issued by the CLI, exchanged for the cookie; 'none': not signed in. */
+  signIn?: 'link' | 'token' | 'none';
+  /** Role of the CLI token (signIn 'token'; default planner). The start-up link is a planner's. */
+  role?: 'planner' | 'installer' | 'viewer';
+  viewport?: { width: number; height: number };
+  serviceWorkers?: 'allow' | 'block';
+  /** Playwright's default timeout for the page's waits (default 120 s: the machine is shared). */
+  pageTimeoutMs?: number;
+}
+
+export interface Session {
+  server: RunningServer;
+  browser: Browser;
+  context: BrowserContext;
+  page: Page;
+  /** Guards the page (console errors, foreign hosts, unexpected HTTP errors); the 401 probe before sign-in is expected. */
+  watch: Guard;
+  /** The plan the session opened on (the demo plan or the blank one); '' when not signed in. */
+  planId: string;
+  /** Closes the context, the browser and the server (and removes its data folder). */
+  close(): Promise<void>;
+}
+
+/**
+ * The one set-up of a browser test: builds the web front end, starts the server on a temporary data
+ * folder (it seeds the demo team and plan), launches Chromium, opens a guarded page, signs in (by the
+ * printed link or by a CLI token) and opens the demo plan or a new blank one at #/plan/<id>.
+ */
+export async function openSession(options: SessionOptions = {}): Promise<Session> {
+  buildWeb();
+  const [server, browser] = await Promise.all([startServer(), launchBrowser()]);
+  const context = await newContext(browser, options.viewport, { serviceWorkers: options.serviceWorkers });
+  const page = await context.newPage();
+  page.setDefaultTimeout(options.pageTimeoutMs ?? 120_000);
+  const watch = guard(page, server.baseUrl);
+  const close = async (): Promise<void> => {
+    await context.close().catch(() => undefined);
+    await browser.close().catch(() => undefined);
+    await server.stop();
+  };
+  try {
+    const signIn = options.signIn ?? 'link';
+    if (signIn === 'none') return { server, browser, context, page, watch, planId: '', close };
+    // Before signing in the app probes /api/v1/me and gets 401: that one is expected.
+    watch.expectHttpError(/\/api\/v1\/me$/, 401);
+    if (signIn === 'link') await page.goto(server.signInUrl);
+    else {
+      const issued = cli(server, ['token', 'issue', '--team', 'demo', '--role', options.role ?? 'planner']) as { token: string };
+      await page.goto(server.baseUrl);
+      const status = await page.evaluate(
+        async (token) => (await fetch('/signin', { method: 'POST', headers: { 'content-type': 'application/json', accept: 'application/json', 'x-earshot-request': '1' }, body: JSON.stringify({ token }) })).status,
+        issued.token,
+      );
+      if (status >= 300) throw new Error(`signing in with a CLI token answered ${status}`);
+      await page.goto(server.baseUrl);
+    }
+    let planId: string;
+    if ((options.plan ?? 'demo') === 'demo') {
+      await page.locator('a.plan-link').first().waitFor();
+      planId = decodeURIComponent(/#\/plan\/([^/?]+)/.exec((await page.locator('a.plan-link').first().getAttribute('href')) ?? '')?.[1] ?? '');
+    } else {
+      planId = await page.evaluate(async () => {
+        const response = await fetch('/api/v1/plans', { method: 'POST', headers: { 'content-type': 'application/json', 'x-earshot-request': '1' }, body: JSON.stringify({ name: 'Blank plan (e2e)' }) });
+        if (response.status !== 201) throw new Error(`creating a blank plan answered ${response.status}`);
+        return ((await response.json()) as { id: string }).id;
+      });
+    }
+    if (!planId) throw new Error('no plan to open');
+    await page.goto(`${server.baseUrl}/#/plan/${encodeURIComponent(planId)}`);
+    await page.waitForURL(/#\/plan\//);
+    return { server, browser, context, page, watch, planId, close };
+  } catch (error) {
+    await close();
+    throw error;
+  }
+}
+
 /**
  * Accessibility checks run in the page: every visible form control and button has an
  * accessible name, and visible text meets the WCAG 2.x contrast minimum of 4.5:1

@@ -1,36 +1,29 @@
 // One rule per physical input: the forms take their limits from GET /client-settings (the
 // API's own FIELD_RANGES), so typing the API's limits into a form gives the API's answer.
-import type { Browser, BrowserContext, Page } from 'playwright-core';
+import type { Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { buildWeb, launchBrowser, newContext, startServer, type RunningServer } from './harness.ts';
+import { openSession, type Session } from './harness.ts';
 
-let server: RunningServer;
-let browser: Browser;
-let context: BrowserContext;
+let session: Session;
 let page: Page;
+let planId = '';
 
 beforeAll(async () => {
-  buildWeb();
-  [server, browser] = await Promise.all([startServer(), launchBrowser()]);
-  context = await newContext(browser);
-  page = await context.newPage();
-  page.setDefaultTimeout(30_000);
+  // Signed in with a planner token the CLI issues (exchanged for the cookie), on the demo plan.
+  session = await openSession({ plan: 'demo', signIn: 'token', role: 'planner', pageTimeoutMs: 30_000 });
+  ({ page, planId } = session);
 }, 240_000);
 
 afterAll(async () => {
-  await context?.close();
-  await browser?.close();
-  await server?.stop();
+  await session?.close();
 });
 
 type Range = { min: number; max: number; unit: string };
 
 describe('field ranges: forms and API accept the same numbers (chromium)', () => {
   it('the coverage form uses the API ranges; the API limits typed into it pass, one step beyond is refused by both', async () => {
-    await page.goto(server.signInUrl);
-    await page.locator('a.plan-link').first().click();
     await page.waitForSelector('#coverage-rx-height');
-    const planId = decodeURIComponent(/#\/plan\/([^/?]+)/.exec(page.url())?.[1] ?? '');
+    expect(planId).not.toBe('');
     const ranges = (await page.evaluate(async () => (await (await fetch('/api/v1/client-settings')).json()).ranges)) as Record<string, Range>;
     const fields: Array<[string, string]> = [
       ['#coverage-rx-height', 'nodeAntennaHeightAglM'],

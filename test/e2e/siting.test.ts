@@ -91,4 +91,51 @@ describe('gateway siting view (chromium)', () => {
     expect((await api<{ total: number }>(`/plans/${planId}/gateways`)).total).toBe(before);
     watch.assertClean();
   }, 600_000);
+
+  it('the nodes-per-gateway field takes its limits from /client-settings (FIELD_RANGES); beyond them the form and the API refuse; within them the run gets the cap', async () => {
+    await page.goto(`${server.baseUrl}/#/plan/${encodeURIComponent(planId)}/siting`);
+    await page.reload();
+    await page.getByRole('heading', { name: 'Gateway siting', level: 1 }).waitFor();
+    const range = (await page.evaluate(async () => (await (await fetch('/api/v1/client-settings')).json()).ranges.maxNodesPerGateway)) as { min: number; max: number; step: number; unit: string };
+    const input = page.locator('#siting-max-per-gateway');
+    expect(Number(await input.getAttribute('min'))).toBe(range.min);
+    expect(Number(await input.getAttribute('max'))).toBe(range.max);
+    expect(Number(await input.getAttribute('step'))).toBe(range.step);
+    // Units and range in the help text, from the same served range.
+    const hint = await page.locator('#siting-max-per-gateway-hint').innerText();
+    expect(hint).toContain(`${range.min} to ${range.max}`);
+    expect(hint).toContain(range.unit);
+    expect(await page.getByLabel('Nodes per gateway, at most (optional)').count()).toBe(1);
+    // One step beyond: the form refuses before sending (no new run), and so does the API, naming the field.
+    const runsBefore = (await api<{ total: number }>(`/plans/${planId}/siting`)).total;
+    await input.fill(String(range.max + range.step));
+    await page.locator('#siting-run').click();
+    await expect.poll(async () => (await page.locator('#siting-status').textContent()) ?? '').toContain(`Nodes per gateway, at most (optional): a number from ${range.min} to ${range.max}`);
+    await input.fill(String(range.min - range.step));
+    await page.locator('#siting-run').click();
+    await expect.poll(async () => (await page.locator('#siting-status').textContent()) ?? '').toContain(`a number from ${range.min} to ${range.max}`);
+    expect((await api<{ total: number }>(`/plans/${planId}/siting`)).total).toBe(runsBefore);
+    watch.expectHttpError(/\/siting$/, 400);
+    const refused = await page.evaluate(
+      async ([p, cap]) => {
+        const r = await fetch(`/api/v1/plans/${p}/siting`, { method: 'POST', headers: { 'content-type': 'application/json', 'x-earshot-request': '1' }, body: JSON.stringify({ requiredGateways: 1, candidates: { sites: true, terrainPoints: 0 }, keepExistingGateways: true, maxNodesPerGateway: cap }) });
+        return { status: r.status, body: (await r.json()) as { error?: { message: string } } };
+      },
+      [planId, range.max + range.step] as const,
+    );
+    expect(refused.status).toBe(400);
+    expect(refused.body.error?.message).toMatch(/maxNodesPerGateway/);
+    // Within the range: the run is started with the cap, and the answer homes at most that many nodes on each chosen gateway.
+    await input.fill('4');
+    await page.locator('#siting-max-gateways').fill('2');
+    await page.locator('#siting-run').click();
+    await page.locator('#siting-summary').waitFor();
+    const runs = await api<{ items: Array<Run & { params: { maxNodesPerGateway?: number } }> }>(`/plans/${planId}/siting`);
+    expect(runs.items[0].params.maxNodesPerGateway).toBe(4);
+    expect(runs.items[0].status).toBe('done');
+    const covered = (runs.items[0].result as unknown as { coveredNodeIds: string[] }).coveredNodeIds.length;
+    expect(covered).toBeLessThanOrEqual(4 * runs.items[0].result.objective.gateways);
+    expect(await page.locator('#siting-summary').innerText()).toContain(`Covers ${covered} of`);
+    watch.assertClean();
+  }, 600_000);
 });

@@ -48,13 +48,15 @@ async function checkPostgres(): Promise<boolean> {
 /** Whether PostgreSQL answers at EARSHOT_TEST_DATABASE_URL (default 127.0.0.1:5432). */
 export const postgresAvailable: boolean = await checkPostgres();
 
-function withDatabase(url: string, database: string): string {
+/** `url` with its database name replaced (a fresh test database on the admin connection's server). */
+export function withDatabase(url: string, database: string): string {
   const parsed = new URL(url);
   parsed.pathname = `/${database}`;
   return parsed.toString();
 }
 
-async function adminQuery(sql: string): Promise<void> {
+/** One statement on the admin connection (CREATE / DROP DATABASE of the tests and benches). */
+export async function adminQuery(sql: string): Promise<void> {
   const client = new pg.Client({ connectionString: postgresAdminUrl });
   await client.connect();
   try {

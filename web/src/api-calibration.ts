@@ -1,54 +1,18 @@
 // Client calls of calibration from field readings (server/api/routes/calibration.ts):
 // bulk reading import, fits, history, apply, revert; and a node's own readings.
-import { request, type Reading } from './api.ts';
+import { request, type Answer } from './api.ts';
 
-export type CalibrationGrouping = 'none' | 'environment' | 'clutter' | 'distance';
+/** A stored calibration fit as the server answers it; shapes from the OpenAPI document. */
+export type CalibrationResult = Answer<'/api/v1/plans/{planId}/calibration/{calibrationId}', 'get'>;
+export type CalibrationGrouping = CalibrationResult['grouping'];
+export type CalibrationGroup = CalibrationResult['groups'][number];
+export type CalibrationList = Answer<'/api/v1/plans/{planId}/calibration', 'get'>;
+type CalibrationApplied = Answer<'/api/v1/plans/{planId}/calibration/apply', 'post'>;
+type CalibrationReverted = Answer<'/api/v1/plans/{planId}/calibration/revert', 'post'>;
+type NodeReadings = Answer<'/api/v1/plans/{planId}/nodes/{nodeId}/readings', 'get'>;
 
-export interface CalibrationGroup {
-  key: string;
-  n: number;
-  fitted: boolean;
-  note?: string;
-  nodes?: number;
-  biasDb?: number;
-  sigmaDb?: number;
-  biasCi95Db?: [number, number];
-  sigmaCi95Db?: [number, number];
-}
-
-export interface CalibrationResult {
-  id: string;
-  planId: string;
-  grouping: CalibrationGrouping;
-  n: number;
-  nodes: number;
-  biasDb: number;
-  sigmaDb: number;
-  biasCi95Db: [number, number];
-  sigmaCi95Db: [number, number];
-  outlierCount: number;
-  groups: CalibrationGroup[];
-  outliers: Array<{ readingId: string; nodeId: string; gatewayId: string; residualDb: number; modifiedZ: number; group: string }>;
-  crossValidation: { folds: number; seed: number; n: number; rmseBeforeDb: number; rmseAfterDb: number; meanErrorBeforeDb: number; meanErrorAfterDb: number; method: string } | null;
-  crossValidationNote?: string;
-  method: { bias: string; sigma: string; outliers: string; crossValidation: string };
-  excluded: Array<{ readingId: string; nodeId: string; gatewayId: string | null; reason: string }>;
-  residuals: Array<{ readingId: string; nodeId: string; gatewayId: string; distanceM: number; residualDb: number; group: string }>;
-  createdAt: string;
-  applied: boolean;
-  appliedAt: string | null;
-  revertedAt: string | null;
-}
-
-export interface ReadingImportAnswer {
-  dryRun: boolean;
-  valid: boolean;
-  rowCount: number;
-  created: number;
-  duplicates: Array<{ row: number; sameAs: string }>;
-  errors: Array<{ row: number; field: string; message: string }>;
-  ignoredColumns: string[];
-}
+/** The reading import's answer: a preview (?dryRun=true, 200) or what was stored (201). */
+export type ReadingImportAnswer = Answer<'/api/v1/plans/{planId}/readings/import', 'post', 200> | Answer<'/api/v1/plans/{planId}/readings/import', 'post', 201>;
 
 export const importReadings = (planId: string, text: string, dryRun: boolean): Promise<ReadingImportAnswer> => {
   const json = /^\s*[[{]/.test(text);
@@ -57,14 +21,15 @@ export const importReadings = (planId: string, text: string, dryRun: boolean): P
 
 export const fitCalibration = (planId: string, grouping: CalibrationGrouping): Promise<CalibrationResult> => request<CalibrationResult>('POST', `/plans/${planId}/calibration`, { grouping });
 
-export const listCalibrations = (planId: string): Promise<{ items: CalibrationResult[]; total: number; appliedId: string | null }> => request('GET', `/plans/${planId}/calibration?limit=20`);
+
+export const listCalibrations = (planId: string): Promise<CalibrationList> => request('GET', `/plans/${planId}/calibration?limit=20`);
 
 export const getCalibration = (planId: string, id: string): Promise<CalibrationResult> => request<CalibrationResult>('GET', `/plans/${planId}/calibration/${encodeURIComponent(id)}`);
 
-export const applyCalibration = (planId: string, calibrationId: string): Promise<{ applied: CalibrationResult; previousId: string | null; changed: boolean }> =>
+export const applyCalibration = (planId: string, calibrationId: string): Promise<CalibrationApplied> =>
   request('POST', `/plans/${planId}/calibration/apply`, { calibrationId });
 
-export const revertCalibration = (planId: string): Promise<{ reverted: CalibrationResult; restored: CalibrationResult | null }> => request('POST', `/plans/${planId}/calibration/revert`);
+export const revertCalibration = (planId: string): Promise<CalibrationReverted> => request('POST', `/plans/${planId}/calibration/revert`);
 
-export const getNodeReadingsFor = (planId: string, nodeId: string, signal?: AbortSignal): Promise<{ items: Reading[]; total: number; meanRssiDifferenceDb: number | null }> =>
+export const getNodeReadingsFor = (planId: string, nodeId: string, signal?: AbortSignal): Promise<NodeReadings> =>
   request('GET', `/plans/${planId}/nodes/${encodeURIComponent(nodeId)}/readings`, undefined, undefined, signal);

@@ -1,36 +1,13 @@
 // Gateway checks: peak EIRP, the band plan's legal check and fitted cautions (server/app/gateway-checks.ts).
-import { request } from './api.ts';
+import { request, type Answer, type BodyOf } from './api.ts';
 
-export interface CautionGroup {
-  topic: string;
-  items: string[];
-}
-export interface GatewayCheck {
-  gatewayId: string | null;
-  name: string;
-  txPowerDbm: number;
-  antennaName: string;
-  antennaGainDbi: number;
-  antennaHeightAglM: number;
-  feedlineName: string | null;
-  lossesDb: number;
-  peakEirpDbm: number;
-  peakErpDbm: number;
-  legal: { withinLimit: boolean; maxEirpDbm: number | null; excessDb: number | null; limitName: string | null; source: string | null; warnings: string[] };
-  bandPlanName: string;
-  cautions: CautionGroup[];
-  cautionsFooter: string;
-}
-export interface GatewayKitDraft {
-  name?: string;
-  txPowerDbm: number;
-  antennaHeightAglM: number;
-  antennaDesignId: string;
-  feedlineId?: string | null;
-  feedlineLengthM?: number;
-}
+/** The gateway checks answer; shapes from the OpenAPI document. */
+export type GatewayChecks = Answer<'/api/v1/plans/{planId}/gateway-checks', 'get'>;
+export type GatewayCheck = Answer<'/api/v1/plans/{planId}/gateway-checks/preview', 'post'>;
+export type CautionGroup = GatewayCheck['cautions'][number];
+export type GatewayKitDraft = BodyOf<'/api/v1/plans/{planId}/gateway-checks/preview', 'post'>;
 
-export const getGatewayChecks = (planId: string, signal?: AbortSignal): Promise<{ items: GatewayCheck[]; warnings: string[] }> =>
+export const getGatewayChecks = (planId: string, signal?: AbortSignal): Promise<GatewayChecks> =>
   request('GET', `/plans/${encodeURIComponent(planId)}/gateway-checks`, undefined, undefined, signal);
 export const previewGatewayCheck = (planId: string, draft: GatewayKitDraft, signal?: AbortSignal): Promise<GatewayCheck> =>
   request('POST', `/plans/${encodeURIComponent(planId)}/gateway-checks/preview`, draft, undefined, signal);

@@ -1,28 +1,10 @@
 // The one kit price (server/app/kit-price.ts) for a kit not saved yet, and the status words.
-import { request } from './api.ts';
+import { request, type Answer, type BodyOf } from './api.ts';
 
-export interface KitPriceLine {
-  /** antenna | feedline | connectors | mast */
-  part: string;
-  name: string;
-  quantity: number;
-  unit: 'each' | 'm';
-  costUsd: number;
-}
-export interface KitPrice {
-  lines: KitPriceLine[];
-  totalUsd: number;
-  unpriced: string[];
-  mastName?: string | null;
-  mastOptionId?: string | null;
-}
-export interface KitDraft {
-  antennaDesignId: string;
-  antennaHeightAglM: number;
-  feedlineId: string | null;
-  feedlineLengthM: number;
-  mastOptionId?: string | null;
-}
+/** The one kit price with part names; its shape comes from the OpenAPI document. */
+export type KitPrice = Answer<'/api/v1/plans/{planId}/kit-price', 'post'>;
+export type KitPriceLine = KitPrice['lines'][number];
+export type KitDraft = BodyOf<'/api/v1/plans/{planId}/kit-price', 'post'>;
 export const getKitPrice = (planId: string, draft: KitDraft, signal?: AbortSignal): Promise<KitPrice> =>
   request('POST', `/plans/${encodeURIComponent(planId)}/kit-price`, draft, undefined, signal);
 

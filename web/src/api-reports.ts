@@ -1,45 +1,18 @@
 // Client calls of reports, exports and scenarios (server/api/routes/exports.ts,
 // server/api/routes/scenarios.ts).
-import { ApiError, request, storedToken, type Plan } from './api.ts';
-import type { Answer, LinkStatus } from './api.ts';
+import { ApiError, request, storedToken } from './api.ts';
+import type { Answer } from './api.ts';
 
-export interface ScenarioSide {
-  planId: string;
-  name: string;
-  counts: Record<LinkStatus, number>;
-  nodes: number;
-  gateways: number;
-  sites: number;
-  redundancy: { none: number; one: number; twoOrMore: number };
-  kitCostUsd: number;
-  costUsd: number;
-  servedShare: number;
-  risks: { unserved: number; singleGateway: number; illegal: number; overDutyCycle: number };
-}
-
-export interface NodeComparison {
-  id: string;
-  name: string;
-  idA: string | null;
-  idB: string | null;
-  statusA: LinkStatus | null;
-  statusB: LinkStatus | null;
-  marginA: number | null;
-  marginB: number | null;
-  marginChangeDb: number | null;
-}
-
-export interface PlanComparison {
-  a: ScenarioSide;
-  b: ScenarioSide;
-  nodes: NodeComparison[];
-  matching: string;
-}
+/** Two plans side by side (server/app/scenarios.ts); shapes from the OpenAPI document. */
+export type PlanComparison = Answer<'/api/v1/plans/{planId}/compare/{otherPlanId}', 'get'>;
+export type ScenarioSide = PlanComparison['a'];
+export type NodeComparison = PlanComparison['nodes'][number];
+type PlanCopy = Answer<'/api/v1/plans/{planId}/copy', 'post', 201>;
 
 export const comparePlans = (planId: string, otherPlanId: string): Promise<PlanComparison> =>
   request<PlanComparison>('GET', `/plans/${encodeURIComponent(planId)}/compare/${encodeURIComponent(otherPlanId)}`);
 
-export const copyPlan = (planId: string, name: string): Promise<Plan & { copied: Record<string, number> }> =>
+export const copyPlan = (planId: string, name: string): Promise<PlanCopy> =>
   request('POST', `/plans/${encodeURIComponent(planId)}/copy`, { name });
 
 /** The plan's bill of materials as the server prices it (the report's and bom.csv's figures); its shape comes from the OpenAPI document. */

@@ -2,9 +2,9 @@
 // the audit log). The browser session is always the HttpOnly cookie: a pasted token is
 // exchanged for it with POST /signin (token in the body, never in a URL), so tiles, sheets and
 // downloads, which the browser fetches without our headers, are signed in too.
-import { ApiError, request, storeToken, type ListPage } from './api.ts';
+import { ApiError, request, storeToken, type Answer, type BodyOf } from './api.ts';
 
-export type Role = 'planner' | 'installer' | 'viewer';
+export type Role = Answer<'/api/v1/me', 'get'>['role'];
 
 /** Exchanges an API token or a one-time sign-in token for the session cookie. */
 export async function signInWithToken(token: string): Promise<void> {
@@ -37,45 +37,17 @@ export async function signOut(): Promise<void> {
   }
 }
 
-export interface Invitation {
-  link: string;
-  qrSvg: string;
-  id: string;
-  userId: string;
-  userName: string;
-  role: Role;
-  expiresAt: string;
-}
-export const inviteTeammate = (body: { role: Role; userName?: string; expiresInDays?: number }): Promise<Invitation> => request<Invitation>('POST', '/invitations', body);
+/** A new invitation (its one-time sign-in link and QR code); shapes from the OpenAPI document. */
+export type Invitation = Answer<'/api/v1/invitations', 'post', 201>;
+export const inviteTeammate = (body: BodyOf<'/api/v1/invitations', 'post'>): Promise<Invitation> => request<Invitation>('POST', '/invitations', body);
 
-export interface AccessEntry {
-  id: string;
-  kind: 'api-token' | 'browser-session' | 'sign-in-link';
-  label: string;
-  createdAt: string;
-  lastUsedAt: string | null;
-  expiresAt: string | null;
-  current: boolean;
-}
-export interface TeamMember {
-  id: string;
-  name: string;
-  role: Role;
-  createdAt: string;
-  access: AccessEntry[];
-}
+export type TeamMember = Answer<'/api/v1/team/access', 'get'>['items'][number];
+export type AccessEntry = TeamMember['access'][number];
 export async function getTeamAccess(): Promise<TeamMember[]> {
-  return (await request<{ items: TeamMember[] }>('GET', '/team/access')).items;
+  return (await request<Answer<'/api/v1/team/access', 'get'>>('GET', '/team/access')).items;
 }
 export const revokeAccess = (tokenId: string): Promise<void> => request<void>('DELETE', `/tokens/${encodeURIComponent(tokenId)}`);
 
-export interface AuditEntry {
-  id: string;
-  userId: string | null;
-  action: string;
-  entity: string;
-  entityId: string;
-  detail: unknown;
-  at: string;
-}
-export const getAudit = (limit = 100): Promise<ListPage<AuditEntry>> => request<ListPage<AuditEntry>>('GET', `/audit?limit=${limit}`);
+type AuditPage = Answer<'/api/v1/audit', 'get'>;
+export type AuditEntry = AuditPage['items'][number];
+export const getAudit = (limit = 100): Promise<AuditPage> => request<AuditPage>('GET', `/audit?limit=${limit}`);

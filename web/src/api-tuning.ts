@@ -1,37 +1,9 @@
 // Client calls for antenna tuning (POST /api/v1/tune, antenna readings of a node).
-import { request } from './api.ts';
+import { request, type Answer } from './api.ts';
 
-export interface TuneAdvice {
-  code: string;
-  message: string;
-  buildSheetNotes?: string[];
-}
-
-export interface TuneResult {
-  bandId: string;
-  bandName: string;
-  bandFromMhz: number;
-  bandToMhz: number;
-  bandCentreMhz: number;
-  resonanceMhz: number;
-  vswrAtResonance: number;
-  returnLossDbAtResonance: number | null;
-  vswrAtBandCentre: number;
-  returnLossDbAtBandCentre: number | null;
-  vswr2BandMhz: [number, number] | null;
-  channels: Array<{ frequencyMhz: number; vswr: number; returnLossDb: number | null }>;
-  design: string | null;
-  element: string | null;
-  lengthMm: number | null;
-  newLengthMm: number | null;
-  trimMm: number | null;
-  advice: TuneAdvice[];
-  lengthRule: string;
-  cautions: string[];
-  sweep: { source: 'touchstone' | 'csv'; description: string; points: number; fromMhz: number; toMhz: number };
-  chart: Array<{ frequencyMhz: number; vswr: number }>;
-  reading: { id: string; nodeId: string; measuredAt: string } | null;
-}
+/** The tuning answer; its shape comes from the OpenAPI document. */
+export type TuneResult = Answer<'/api/v1/tune', 'post'>;
+export type TuneAdvice = TuneResult['advice'][number];
 
 export interface TuneRequest {
   s1p?: string;

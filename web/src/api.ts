@@ -13,7 +13,10 @@ export type Answer<P extends keyof paths, M extends Method, S extends number = 2
   responses: { [K in S]: { content: { 'application/json': infer T } } };
 }
   ? T
-  : never;
+  : // Not `never` (which fits everywhere and would hide a wrong path or status): a type no answer has.
+    { readonly noJsonAnswer: `${P} ${M} ${S}` };
+/** The query parameters a route takes. */
+export type QueryOf<P extends keyof paths, M extends Method> = paths[P][M] extends { parameters: { query?: infer Q } } ? NonNullable<Q> : never;
 /** The JSON body a route takes. */
 export type BodyOf<P extends keyof paths, M extends Method> = paths[P][M] extends { requestBody?: { content: { 'application/json': infer T } } } ? T : never;
 const tokenKey = 'earshot.token';
@@ -195,49 +198,13 @@ export const hillshadeTileUrl = (planId: string): string => `${base}/plans/${pla
 
 // ---------- links, link check, recommendation, readings ----------
 
-export type LinkStatus = 'served' | 'marginal' | 'unserved';
+export type LinkStatus = NodeLinks['status'];
 
-export interface Link {
-  gatewayId: string;
-  gatewayName?: string;
-  distanceM: number;
-  basicLossDb: number;
-  rssiDbm: number;
-  snrDb: number;
-  marginDb: number;
-  bestSf: number | null;
-  deliveryProbability: number;
-  /** The planning spread σ (dB): deliveryProbability = Φ(marginDb / sigmaDb). */
-  sigmaDb?: number;
-  sigmaSource?: 'default' | 'plan' | 'calibration';
-  timeOnAirMs?: number | null;
-  usedSf?: number;
-  lineOfSight?: boolean;
-  method?: string;
-  legal: { withinLimit: boolean; peakEirpDbm: number; maxEirpDbm: number | null; excessDb: number | null; source: string | null } | null;
-}
-export interface NodeLinks {
-  nodeId: string;
-  /** Best first (highest delivery probability, then margin). */
-  links: Link[];
-  combinedDeliveryProbability: number;
-  status: LinkStatus;
-  bestGatewayId: string | null;
-  target: { targetMarginDb: number; targetDelivery: number };
-  assumptions?: { method?: string; frequencyMhz?: number; sigmaDb?: number; sigmaSource?: 'default' | 'plan' | 'calibration'; locationSigmaDb?: number; combination?: string };
-  kit?: { antennaDesignId: string; antennaHeightAglM: number; feedlineId: string | null; feedlineLengthM: number };
-  outOfRange?: Array<{ gatewayId: string; distanceM: number }>;
-  preview?: boolean;
-  warnings?: string[];
-}
-/** Kit fields GET .../links accepts to preview another kit without saving it. */
-export interface KitPreview {
-  antennaDesignId?: string;
-  antennaHeightAglM?: number;
-  /** '' or 'none' = no feedline. */
-  feedlineId?: string;
-  feedlineLengthM?: number;
-}
+/** One predicted link (best first in NodeLinks.links); its shape comes from the OpenAPI document. */
+export type NodeLinks = Answer<'/api/v1/plans/{planId}/nodes/{nodeId}/links', 'get'>;
+export type Link = NodeLinks['links'][number];
+/** Kit fields GET .../links accepts to preview another kit without saving it ('' or 'none' feedlineId = no feedline). */
+export type KitPreview = QueryOf<'/api/v1/plans/{planId}/nodes/{nodeId}/links', 'get'>;
 export function getNodeLinks(planId: string, nodeId: string, preview?: KitPreview, signal?: AbortSignal): Promise<NodeLinks> {
   const q = new URLSearchParams();
   for (const [key, value] of Object.entries(preview ?? {})) if (value !== undefined) q.set(key, String(value));
@@ -245,106 +212,17 @@ export function getNodeLinks(planId: string, nodeId: string, preview?: KitPrevie
   return request<NodeLinks>('GET', `/plans/${planId}/nodes/${nodeId}/links${query ? `?${query}` : ''}`, undefined, undefined, signal);
 }
 
-export interface ProfilePoint {
-  distanceM: number;
-  lat: number | null;
-  lon: number | null;
-  groundM: number;
-  /** Ground + clutter height, m. */
-  clutterTopM: number;
-  /** Straight ray node → gateway on the chart's flat baseline, m. */
-  rayM: number;
-  fresnelUpperM: number;
-  fresnelLowerM: number;
-  /** Ground + clutter + earth bulge: the surface the ray must clear, m. */
-  obstacleM: number;
-}
-export interface Range {
-  p10: number;
-  p50: number;
-  p90: number;
-}
-export interface LinkProfile {
-  gatewayId: string;
-  lineOfSight: boolean;
-  worstClearanceRatio: number | null;
-  worstClearanceAtM: number | null;
-  kFactor: number;
-  points: ProfilePoint[];
-  obstructions: Array<{ distanceM: number; obstacleM: number; clearanceM: number; clearanceRatio: number }>;
-  expected: { rssiDbm: Range; snrDb: Range; sigmaDb: number; sf: number; note: string };
-}
-export interface KitChoice {
-  antennaDesignId?: string | null;
-  antennaHeightAglM?: number;
-  mastHeightM?: number;
-  feedlineId?: string | null;
-  feedlineLengthM?: number;
-  cost?: number;
-}
-export interface LinkCheck {
-  nodeId: string;
-  status: LinkStatus;
-  combinedDeliveryProbability: number;
-  gatewayId: string | null;
-  gatewayName: string | null;
-  link: Link | null;
-  /** null when no gateway is in range. */
-  profile: LinkProfile | null;
-  currentKit: KitChoice;
-  recommendedKit: (KitChoice & { meetsTarget?: boolean; reason?: string }) | null;
-  recommendation?: { anyMeetsTarget: boolean; advice: string[] };
-  cautions: string[];
-  /** Cautions fitted to this node's job (height, gain, EIRP, pit or building), grouped, each once. */
-  fittedCautions?: Array<{ topic: string; items: string[] }>;
-  cautionsFooter?: string;
-  warnings: string[];
-}
+export type LinkCheck = Answer<'/api/v1/plans/{planId}/nodes/{nodeId}/check', 'get'>;
+/** null when no gateway is in range. */
+export type LinkProfile = NonNullable<LinkCheck['profile']>;
+export type ProfilePoint = LinkProfile['points'][number];
+export type Range = LinkProfile['expected']['rssiDbm'];
 export const getLinkCheck = (planId: string, nodeId: string, signal?: AbortSignal): Promise<LinkCheck> =>
   request<LinkCheck>('GET', `/plans/${planId}/nodes/${nodeId}/check`, undefined, undefined, signal);
 
-export interface RecommendRequest {
-  targetMarginDb?: number;
-  targetDelivery?: number;
-  antennaDesignIds?: string[];
-  mastHeightsM?: number[];
-  feedlineIds?: string[];
-  maxCost?: number;
-}
-export interface RecommendOption {
-  antennaDesignId: string;
-  mastHeightM: number;
-  mastOptionId: string | null;
-  /** null = the radio sits at the antenna (no feedline). */
-  feedlineId: string | null;
-  feedlineLengthM: number;
-  /** Kit cost, USD (catalog prices). */
-  cost: number;
-  /** The one kit price with part names (antenna, feedline, connectors, mast); newer servers. */
-  price?: { lines: Array<{ part: string; name: string; quantity: number; unit: 'each' | 'm'; costUsd: number }>; totalUsd: number; unpriced: string[] };
-  antennaName?: string;
-  feedlineName?: string | null;
-  mastName?: string | null;
-  /** Best link margin at the chosen SF; null = no gateway in range. */
-  marginDb: number | null;
-  deliveryProbability: number;
-  bestGatewayId: string | null;
-  meetsTarget: boolean;
-  reason: string;
-}
-export interface Recommendation {
-  nodeId: string;
-  options: RecommendOption[];
-  anyMeetsTarget: boolean;
-  best: RecommendOption | null;
-  /** Plain advice when nothing meets the target. */
-  advice: string[];
-  warnings: string[];
-  target: { targetMarginDb: number; targetDelivery: number };
-  /** Cautions fitted to the recommended kit (its mast height, gain and EIRP). */
-  fittedCautions?: Array<{ topic: string; items: string[] }>;
-  cautionsFooter?: string;
-}
+export type RecommendRequest = NonNullable<BodyOf<'/api/v1/plans/{planId}/nodes/{nodeId}/recommend', 'post'>>;
+export type Recommendation = Answer<'/api/v1/plans/{planId}/nodes/{nodeId}/recommend', 'post'>;
+export type RecommendOption = Recommendation['options'][number];
 export const recommend = (planId: string, nodeId: string, body: RecommendRequest, signal?: AbortSignal): Promise<Recommendation> =>
   request<Recommendation>('POST', `/plans/${planId}/nodes/${nodeId}/recommend`, body, undefined, signal);
 
@@ -358,65 +236,12 @@ export const visitSheetUrl = (planId: string, nodeId: string): string => {
   }
   return `${base}/plans/${planId}/nodes/${nodeId}/visit-sheet${/^[A-Za-z0-9_+\-/]+$/.test(tz) ? `?tz=${encodeURIComponent(tz)}` : ''}`;
 };
-export interface BuildSheet {
-  design: string;
-  designName: string;
-  frequencyMhz: number;
-  wavelengthMm: number;
-  elements: Array<{ name: string; count: number; lengthMm: number; lengthIn: number; note?: string }>;
-  notes: string[];
-  cautions: string[];
-  feedImpedanceOhm?: number;
-  estimatedVswr?: number;
-  radialCount?: number;
-  droopDeg?: number;
-  sources: string[];
-}
-export interface KitPriceShape {
-  lines: Array<{ part: string; name: string; quantity: number; unit: 'each' | 'm'; costUsd: number }>;
-  totalUsd: number;
-  unpriced: string[];
-}
-export interface VisitSheet {
-  title: string;
-  generatedAt: string;
-  plan: { id: string; name: string; bandPlan: string; frequencyMhz: number };
-  node: { id: string; name: string; deviceType: string; lat: number; lon: number; environment: string; installStatus: string; accessNotes: string };
-  status: LinkStatus;
-  combinedDeliveryProbability: number;
-  kit: {
-    antenna: { id: string; name: string; homemade: boolean; gainDbi: number };
-    feedline: { id: string; name: string; lengthM: number } | null;
-    antennaHeightAglM: number;
-    mastOptionId: string | null;
-    meetsTarget: boolean;
-    recommended: { antennaDesignId: string; antennaName?: string; mastHeightM: number; mastName?: string | null; feedlineId: string | null; feedlineName?: string | null; feedlineLengthM: number; cost: number; price?: KitPriceShape; reason: string } | null;
-    /** The one kit price with part names (newer servers). */
-    price?: KitPriceShape;
-    mastName?: string | null;
-  };
-  buildSheet: BuildSheet | null;
-  gateways: Array<{ id: string; name: string; distanceM: number; aimAzimuthDeg: number; elevationDeg: number; sf: number; expectedRssiDbm: Range; expectedSnrDb: Range; marginDb: number }>;
-  cautions: string[];
-  /** Cautions fitted to this node as it stands (server/planning/cautions.ts). */
-  fittedCautions?: Array<{ topic: string; items: string[] }>;
-  cautionsFooter?: string;
-  warnings: string[];
-}
+export type VisitSheet = Answer<'/api/v1/plans/{planId}/nodes/{nodeId}/visit-sheet', 'get'>;
 export const getVisitSheet = (planId: string, nodeId: string): Promise<VisitSheet> =>
   request<VisitSheet>('GET', `/plans/${planId}/nodes/${nodeId}/visit-sheet?format=json`);
 
-export interface ReadingInput {
-  nodeId: string;
-  gatewayId: string;
-  rssiDbm: number;
-  snrDb: number;
-  sf: number;
-  measuredAt: string;
-  lat?: number;
-  lon?: number;
-  note?: string;
-}
+/** One field reading as POST …/readings takes it (the single-reading form of its body). */
+export type ReadingInput = Extract<BodyOf<'/api/v1/plans/{planId}/readings', 'post'>, { rssiDbm: number }>;
 /** A reading beside the prediction at its gateway (measured − predicted differences, dB). */
 export type Reading = Answer<'/api/v1/plans/{planId}/nodes/{nodeId}/readings', 'get'>['items'][number];
 export const postReading = (planId: string, body: ReadingInput): Promise<Answer<'/api/v1/plans/{planId}/readings', 'post', 201>> =>

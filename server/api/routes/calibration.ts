@@ -15,6 +15,8 @@ import { loadPlanForPrincipal } from '../scope.ts';
 import { errorResponses, finite, id, latitude, longitude, pageQuery, planParams } from '../schemas.ts';
 import { devEuiField } from './nodes.ts';
 import { asApiError } from './links.ts';
+import { fieldReadingResponse } from './readings.ts';
+import { readingImportDone, readingImportPreview } from '../link-answers.ts';
 
 /** "SF7", "SF7BW125", "7" or 7 → 7 (a gateway log writes the data rate either way). */
 function sfValue(value: unknown): unknown {
@@ -156,6 +158,7 @@ export default async function calibrationRoutes(app: FastifyInstance): Promise<v
         tags,
         params: planParams,
         querystring: importQuery,
+        response: { 200: readingImportPreview.describe('?dryRun=true: what would be stored'), 201: readingImportDone(fieldReadingResponse).describe('stored: the first 100 readings'), ...errorResponses },
       },
     },
     async (request, reply) => {

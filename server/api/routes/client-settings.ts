@@ -11,6 +11,7 @@ import { z } from 'zod';
 import { bandPlans } from '../../radio/band-plans.ts';
 import { DEFAULT_BANDWIDTH_KHZ, loraBandwidthsKhz, uplinkSfsFor } from '../../planning/settings.ts';
 import { PROPAGATION_METHODS } from '../../planning/path.ts';
+import type { Config } from '../../config.ts';
 import { FIELD_RANGES, type RangedField } from '../schemas.ts';
 
 const fieldRange = z.object({ min: z.number(), max: z.number(), unit: z.string(), step: z.number(), note: z.string() });
@@ -46,6 +47,25 @@ export const clientSettingsResponse = z.object({
 });
 export type ClientSettings = z.infer<typeof clientSettingsResponse>;
 
+/** What GET /client-settings answers for a configuration (the route serves exactly this; the web's unit tests read it). */
+export function clientSettings(config: Pick<Config, 'onlineBaseLayerUrl'>): ClientSettings {
+  const urlTemplate = config.onlineBaseLayerUrl;
+  // The config has no attribution setting yet: none is sent (the map labels the layer itself).
+  return {
+    onlineBaseLayer: urlTemplate ? { urlTemplate } : null,
+    defaultBandwidthKhz: DEFAULT_BANDWIDTH_KHZ,
+    bandPlans: bandPlans.map((plan) => ({
+      id: plan.id,
+      name: plan.name,
+      uplinkSfs: uplinkSfsFor(plan, DEFAULT_BANDWIDTH_KHZ),
+      bandwidths: loraBandwidthsKhz(plan).map((bandwidthKhz) => ({ bandwidthKhz, uplinkSfs: uplinkSfsFor(plan, bandwidthKhz) })),
+      otherBandwidthSfs: uplinkSfsFor(plan, Number.NaN),
+    })),
+    propagationMethods: [...PROPAGATION_METHODS],
+    ranges: FIELD_RANGES,
+  };
+}
+
 export default async function clientSettingsRoutes(app: FastifyInstance): Promise<void> {
   const { config } = app.deps;
   app.withTypeProvider<ZodTypeProvider>().get(
@@ -57,22 +77,6 @@ export default async function clientSettingsRoutes(app: FastifyInstance): Promis
         response: { 200: clientSettingsResponse },
       },
     },
-    async (): Promise<ClientSettings> => {
-      const urlTemplate = config.onlineBaseLayerUrl;
-      // The config has no attribution setting yet: none is sent (the map labels the layer itself).
-      return {
-        onlineBaseLayer: urlTemplate ? { urlTemplate } : null,
-        defaultBandwidthKhz: DEFAULT_BANDWIDTH_KHZ,
-        bandPlans: bandPlans.map((plan) => ({
-          id: plan.id,
-          name: plan.name,
-          uplinkSfs: uplinkSfsFor(plan, DEFAULT_BANDWIDTH_KHZ),
-          bandwidths: loraBandwidthsKhz(plan).map((bandwidthKhz) => ({ bandwidthKhz, uplinkSfs: uplinkSfsFor(plan, bandwidthKhz) })),
-          otherBandwidthSfs: uplinkSfsFor(plan, Number.NaN),
-        })),
-        propagationMethods: [...PROPAGATION_METHODS],
-        ranges: FIELD_RANGES,
-      };
-    },
+    async (): Promise<ClientSettings> => clientSettings(config),
   );
 }

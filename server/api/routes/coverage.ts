@@ -13,14 +13,17 @@ import { openGeoRaster, type GeoRaster } from '../../terrain/raster.ts';
 import { maxCoverageCells, resolveCoverageRequest } from '../../app/coverage.ts';
 import { legend, renderMarginTile } from '../../coverage/tiles.ts';
 import { createCoverageJobs, type CoverageJobs } from '../../jobs/runner.ts';
-import type { CoverageJobParams } from '../../jobs/coverage-job.ts';
+import type { CoverageJobParams } from '../../jobs/coverage-params.ts';
+import { storedCoverageParams, storedCoverageSummary } from '../../jobs/coverage-params.ts';
+import { COVERAGE_PARTS_KIND, coverageChildren } from '../../jobs/coverage-split.ts';
+import { cancelLinkRunsOf } from '../../db/repositories/link-runs.ts';
 import { resultDir, RESULT_FILES } from '../../db/files.ts';
 import { requireRole } from '../auth.ts';
 import { ApiError, apiErrorOf } from '../errors.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
 import { streamRunProgress } from '../run-events.ts';
 import { appliedCalibrationFigures } from '../../app/calibration.ts';
-import { coverageRadiusKm, dateTime, errorResponses, id, nodeAntennaHeightAglM, nodeEnvironment, nodeFeedlineLengthM, nodeTxPowerDbm, pageOf, pageQuery, payloadBytes, planParams, targetMarginDb } from '../schemas.ts';
+import { coverageRadiusKm, dateTime, errorResponses, id, nodeAntennaHeightAglM, nodeEnvironment, nodeFeedlineLengthM, nodeTxPowerDbm, pageOf, pageQuery, payloadBytes, planParams, runChildren, targetMarginDb } from '../schemas.ts';
 
 const runParams = z.strictObject({ planId: id(), runId: id() });
 const tileParams = z.strictObject({
@@ -50,7 +53,7 @@ export const coverageBody = z.strictObject({
   nodeKit: coverageNodeKit.optional(),
   /** A fixed SF for every cell (default: the node SF rule, fastest allowed SF meeting the target). */
   sf: z.number().int('must be a whole number').min(7, 'must be 7–12').max(12, 'must be 7–12').optional(),
-  requiredMarginDb: targetMarginDb().optional(),
+  targetMarginDb: targetMarginDb().optional(),
   /** Use the plan's clutter layer when it has one (default true). */
   useClutter: z.boolean({ error: 'must be true or false' }).optional(),
 });
@@ -72,7 +75,7 @@ const coverageSummary = z.object({
   mode: z.string().optional(),
   radiusKm: z.number().optional(),
   sf: z.number().int().nullable().optional(),
-  requiredMarginDb: z.number().optional(),
+  targetMarginDb: z.number().optional(),
   terrain: z
     .object({
       discShare: z.number().describe('0 … 1: the smallest share of a gateway disc that had terrain'),
@@ -92,14 +95,16 @@ export const coverageRunResponse = z
     id: z.string(),
     planId: z.string(),
     status: z.enum(['queued', 'running', 'done', 'failed', 'cancelled']),
-    progress: z.number().describe('0 … 1'),
+    progress: z.number().describe('0 … 1; a run split into a child per gateway: the cells its children have predicted, summed, over all (95 %), then the composite'),
     error: z.string().nullable(),
-    attempts: z.number().int(),
+    attempts: z.number().int().describe("attempts of the run's own job (the parent, for a split run)"),
+    children: runChildren.nullable().describe('a run of several gateways is split into a child job per gateway; null: the run is one job (a single gateway, or a run from before the split)'),
+    workers: z.array(z.string()).describe("ids (host:pid) of the workers that took part: the children's and the last one that held the run's own job"),
     gatewayIds: z.array(z.string()),
     mode: z.string().nullable().describe('fast | full (los from the command line)'),
     radiusKm: z.number().nullable(),
     sf: z.number().int().nullable(),
-    requiredMarginDb: z.number().nullable(),
+    targetMarginDb: z.number().nullable(),
     summary: coverageSummary.nullable().describe('null until done; shares of the area per margin class, node classes, per-gateway load'),
     createdAt: dateTime,
     startedAt: dateTime.nullable(),
@@ -112,38 +117,46 @@ const legendResponse = z.object({
   note: z.string(),
 });
 
-function runView(run: CoverageRunRow) {
-  const params = (run.params ?? {}) as Partial<CoverageJobParams>;
-  return {
-    id: run.id,
-    planId: run.planId,
-    status: run.status,
-    progress: run.progress,
-    error: run.error,
-    attempts: run.attempts,
-    gatewayIds: run.gatewayIds as string[],
-    mode: params.mode ?? null,
-    radiusKm: params.radiusKm ?? null,
-    sf: params.sf ?? null,
-    requiredMarginDb: params.requiredMarginDb ?? null,
-    // Stored by the coverage job in this shape (server/jobs/coverage-job.ts).
-    summary: (run.summary ?? null) as z.infer<typeof coverageSummary> | null,
-    createdAt: run.createdAt.toISOString(),
-    startedAt: run.startedAt?.toISOString() ?? null,
-    finishedAt: run.finishedAt?.toISOString() ?? null,
-  };
-}
-
 export default async function coverageRoutes(app: FastifyInstance): Promise<void> {
   const api = app.withTypeProvider<ZodTypeProvider>();
   const { db, config } = app.deps;
   const tags = ['coverage'];
+
+  async function runView(run: CoverageRunRow) {
+    const params = storedCoverageParams<CoverageJobParams>(run.params);
+    // A split run: progress and children summed from its children (live, so a parent whose worker died still shows them move).
+    const split = await coverageChildren(db, run);
+    const gatewayCount = (run.gatewayIds as string[]).length;
+    const children = split?.children ?? (gatewayCount > 1 && run.status === 'queued' ? { total: gatewayCount, done: 0, retried: 0, failed: 0, cancelled: 0 } : null);
+    const workers = [...new Set([...(split?.workers ?? []), ...(run.lockedBy ? [run.lockedBy] : [])])].sort();
+    return {
+      id: run.id,
+      planId: run.planId,
+      status: run.status,
+      progress: run.status === 'done' ? 1 : split && run.status === 'running' ? Math.min(0.999, Math.max(run.progress, split.fraction)) : run.progress,
+      error: run.error,
+      attempts: run.attempts,
+      children,
+      workers,
+      gatewayIds: run.gatewayIds as string[],
+      mode: params.mode ?? null,
+      radiusKm: params.radiusKm ?? null,
+      sf: params.sf ?? null,
+      targetMarginDb: params.targetMarginDb ?? null,
+      // Stored by the coverage job in this shape (server/jobs/coverage-job.ts).
+      summary: storedCoverageSummary(run.summary) as z.infer<typeof coverageSummary> | null,
+      createdAt: run.createdAt.toISOString(),
+      startedAt: run.startedAt?.toISOString() ?? null,
+      finishedAt: run.finishedAt?.toISOString() ?? null,
+    };
+  }
+
   // The job runner: the one the app was given, else our own (pool, or BullMQ with REDIS_URL), closed with the app.
   let jobs: CoverageJobs;
   const given = app.deps.jobs as Partial<CoverageJobs> | undefined;
   if (given && typeof given.enqueue === 'function') jobs = given as CoverageJobs;
   else {
-    jobs = await createCoverageJobs(db, config);
+    jobs = await createCoverageJobs(db, config, app.linkEngine);
     app.addHook('onClose', async () => jobs.close());
   }
   const rasterCache = new Map<string, Promise<GeoRaster>>();
@@ -204,7 +217,7 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
   api.get('/plans/:planId/coverage', { schema: { summary: 'Coverage runs of a plan, newest first', tags, params: planParams, querystring: pageQuery, response: { 200: pageOf(coverageRunResponse), ...errorResponses } } }, async (request) => {
     const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
     const page = await listCoverageRuns(db, plan.id, request.query);
-    return { ...page, items: page.items.map(runView) };
+    return { ...page, items: await Promise.all(page.items.map(runView)) };
   });
 
   const layerQuery = z.strictObject({ layer: z.enum(['margin', 'loss', 'redundancy', 'best-sf'], { error: 'must be margin, loss, redundancy or best-sf' }).optional() });
@@ -230,13 +243,13 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
       await resultRaster(run, file);
       reply.header('content-type', 'image/tiff').header('content-disposition', `attachment; filename="coverage-${run.id}-${layer}.tif"`);
       // A stream is sent as it is (Fastify skips the serializer); the 200 schema describes the JSON form.
-      return reply.send(createReadStream(join(resultDir(config, run.id), file)) as unknown as ReturnType<typeof runView>);
+      return reply.send(createReadStream(join(resultDir(config, run.id), file)) as unknown as Awaited<ReturnType<typeof runView>>);
     },
   );
 
   api.get('/plans/:planId/coverage/:runId/events', { schema: { summary: 'Progress of a run as server-sent events until it finishes (text/event-stream)', tags, params: runParams } }, async (request, reply) => {
     const { plan, run } = await loadRun(request, request.params.planId, request.params.runId);
-    await streamRunProgress(request, reply, runView(run), async () => {
+    await streamRunProgress(request, reply, await runView(run), async () => {
       const current = await findCoverageRun(db, plan.id, run.id);
       return current ? runView(current) : null;
     });
@@ -245,13 +258,17 @@ export default async function coverageRoutes(app: FastifyInstance): Promise<void
   api.post('/plans/:planId/coverage/:runId/cancel', { schema: { summary: 'Cancel a queued or running coverage run', tags, params: runParams, response: { 200: coverageRunResponse, ...errorResponses } } }, async (request) => {
     const principal = requireRole(request, 'planner');
     const { plan, run } = await loadRun(request, request.params.planId, request.params.runId);
-    await writeWithAudit(
+    // The run and every unfinished child in one write; then the queued children leave the queue
+    // (a running one stops at its next check and writes nothing).
+    const children = await writeWithAudit(
       db,
       async (tx) => {
         if (!(await cancelCoverageRun(tx, plan.id, run.id))) throw new ApiError(409, 'already_finished', `the run is already ${run.status}`);
+        return cancelLinkRunsOf(tx, COVERAGE_PARTS_KIND, 'coverageRunId', run.id);
       },
       () => ({ principal, action: 'cancel', entity: 'coverage_run', entityId: run.id, detail: { planId: plan.id } }),
     );
+    for (const child of children) await jobs.parts.withdraw(child.runId, child.pending);
     return runView((await findCoverageRun(db, plan.id, run.id))!);
   });
 

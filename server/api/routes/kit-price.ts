@@ -10,9 +10,8 @@ import { ApiError } from '../errors.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
 import { errorResponses, id, nonNegative, planParams } from '../schemas.ts';
 import { loadCatalog } from '../../app/recommend.ts';
+import { kitPriceSchema as kitPriceResponse } from '../link-answers.ts';
 
-const priceLine = z.object({ part: z.enum(['antenna', 'feedline', 'connectors', 'mast']), name: z.string(), quantity: z.number(), unit: z.enum(['each', 'm']), costUsd: z.number() });
-const kitPriceResponse = z.object({ lines: z.array(priceLine), totalUsd: z.number(), unpriced: z.array(z.string()), mastName: z.string().nullable(), mastOptionId: z.string().nullable() });
 const word = z.object({ label: z.string(), meaning: z.string() });
 
 export default async function kitPriceRoutes(app: FastifyInstance): Promise<void> {

@@ -6,11 +6,12 @@ import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { cancelLinkRunFor, findLinkRunView, listLinkRunViews, startLinkRun, TILE_PAIRS_RANGE, type LinkRunDeps } from '../../app/link-runs.ts';
-import { createLinkRunJobs, type LinkRunJobs } from '../../jobs/link-runs.ts';
+import { createLinkRunJobs } from '../../jobs/link-runs.ts';
+import type { LinkRunJobs } from '../../jobs/link-run-jobs.ts';
 import { requireRole } from '../auth.ts';
 import { apiErrorOf } from '../errors.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
-import { dateTime, errorResponses, id, planParams } from '../schemas.ts';
+import { dateTime, errorResponses, id, planParams, runChildren } from '../schemas.ts';
 
 const runParams = z.strictObject({ planId: id(), runId: id() });
 
@@ -31,13 +32,7 @@ export const linkRunResponse = z.object({
   planId: z.string(),
   status,
   progress: z.number().describe('0 … 1: pairs of the finished children, plus the paths the running children have predicted so far, over all pairs'),
-  children: z.object({
-    total: z.number().int(),
-    done: z.number().int(),
-    retried: z.number().int().describe('children taken more than once (a worker died or failed)'),
-    failed: z.number().int(),
-    cancelled: z.number().int(),
-  }),
+  children: runChildren,
   workers: z.array(z.string()).describe('ids (host:pid) of the workers that took part'),
   pairs: z.number().int().describe('node × gateway pairs within range'),
   pairsDone: z.number().int(),

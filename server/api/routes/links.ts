@@ -1,12 +1,12 @@
 // Links and kit: a node's predicted links, the fleet table, the installer's
 // link check and visit sheet, kit recommendations (one node, or the fleet as
-// a job with progress) and field readings beside the prediction.
+// a run with progress) and field readings beside the prediction.
 // Routes only parse, call the use cases in server/app/links.ts and shape the answer.
 import { hostname } from 'node:os';
 import type { FastifyInstance } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import { findKitJob, updateKitJob } from '../../db/repositories/links.ts';
+import { findKitRun, updateKitRun } from '../../db/repositories/links.ts';
 import type { PlanRow } from '../../db/repositories/plans.ts';
 import { requireRole } from '../auth.ts';
 import { ApiError, apiErrorOf } from '../errors.ts';
@@ -25,12 +25,14 @@ import {
   recommendReport,
   recommendReportInput,
   startFleetRecommendation,
+  type FleetRecommendationSummary,
   type RecommendRequest,
 } from '../../app/links.ts';
 import { visitSheetHtml } from '../../app/visit-sheet.ts';
+import { fleetRecommendationJob, fleetRecommendationStarted, linkCheckResponse, linkStatusSchema, nodeLinksResponse, recommendationResponse, sigmaSourceSchema, visitSheetResponse } from '../link-answers.ts';
 import { registerReadingRoutes } from './readings.ts';
 
-const linkStatus = z.enum(['served', 'marginal', 'unserved']);
+const linkStatus = linkStatusSchema;
 /** GET /plans/:planId/links (fleetTable in server/app/links.ts): one row per node, a page of them. */
 const fleetTableResponse = z.object({
   items: z.array(
@@ -55,13 +57,13 @@ const fleetTableResponse = z.object({
   total: z.number().int(),
   next: z.string().nullable(),
   counts: z.object({ served: z.number().int(), marginal: z.number().int(), unserved: z.number().int() }),
-  assumptions: z.object({ sigmaDb: z.number(), sigmaSource: z.enum(['default', 'plan', 'calibration']), sigmaModelDb: z.number(), sigmaNote: z.string() }),
+  assumptions: z.object({ sigmaDb: z.number(), sigmaSource: sigmaSourceSchema, sigmaModelDb: z.number(), sigmaNote: z.string() }),
   cache: z.object({ computed: z.number().int(), cached: z.number().int() }),
   warnings: z.array(z.string()),
 });
 
 const nodeParams = z.strictObject({ planId: id(), nodeId: id() });
-const jobParams = z.strictObject({ planId: id(), jobId: id() });
+const runParams = z.strictObject({ planId: id(), runId: id() });
 const planParams = z.strictObject({ planId: id() });
 
 const coerceNumber = (rule: z.ZodNumber) =>
@@ -121,6 +123,7 @@ export default async function linkRoutes(app: FastifyInstance): Promise<void> {
         tags,
         params: nodeParams,
         querystring: kitOverrideQuery,
+        response: { 200: nodeLinksResponse, ...errorResponses },
       },
     },
     async (request) => {
@@ -148,6 +151,7 @@ export default async function linkRoutes(app: FastifyInstance): Promise<void> {
         tags,
         params: nodeParams,
         querystring: checkQuery,
+        response: { 200: linkCheckResponse, ...errorResponses },
       },
     },
     async (request) => {
@@ -158,7 +162,7 @@ export default async function linkRoutes(app: FastifyInstance): Promise<void> {
 
   api.post(
     '/plans/:planId/nodes/:nodeId/recommend',
-    { schema: { summary: 'Kit options for a node (antenna × mast height × feedline), cheapest meeting the target first; an honest answer when none does', tags, params: nodeParams, body: recommendBody.optional() } },
+    { schema: { summary: 'Kit options for a node (antenna × mast height × feedline), cheapest meeting the target first; an honest answer when none does', tags, params: nodeParams, body: recommendBody.optional(), response: { 200: recommendationResponse, ...errorResponses } } },
     async (request) => {
       const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
       return nodeRecommendation(engine, plan, request.params.nodeId, (request.body ?? {}) as RecommendRequest).catch(asApiError);
@@ -167,7 +171,7 @@ export default async function linkRoutes(app: FastifyInstance): Promise<void> {
 
   api.post(
     '/plans/:planId/recommend',
-    { schema: { summary: 'Kit recommendation for the whole fleet as a job; poll GET /plans/:planId/recommend/:jobId for progress and the result', tags, params: planParams, body: recommendBody.optional() } },
+    { schema: { summary: 'Kit recommendation for the whole fleet as a run; poll GET /plans/:planId/recommend/:runId for progress and the result', tags, params: planParams, body: recommendBody.optional(), response: { 202: fleetRecommendationStarted, ...errorResponses } } },
     async (request, reply) => {
       const principal = requireRole(request, 'planner');
       const plan = await loadPlanForPrincipal(db, principal, request.params.planId);
@@ -178,20 +182,21 @@ export default async function linkRoutes(app: FastifyInstance): Promise<void> {
     },
   );
 
-  api.get('/plans/:planId/recommend/:jobId', { schema: { summary: 'Progress and result of a fleet kit recommendation', tags, params: jobParams } }, async (request) => {
+  api.get('/plans/:planId/recommend/:runId', { schema: { summary: 'Progress and result of a fleet kit recommendation', tags, params: runParams, response: { 200: fleetRecommendationJob, ...errorResponses } } }, async (request) => {
     const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
-    let job = await findKitJob(db, plan.id, request.params.jobId);
-    if (!job) throw new ApiError(404, 'not_found', 'job not found');
+    let run = await findKitRun(db, plan.id, request.params.runId);
+    if (!run) throw new ApiError(404, 'not_found', 'run not found');
     // A run whose process is gone (restart) would never finish: say so instead of spinning.
-    if (job.status === 'running' && job.lockedBy !== processId && job.lockedAt && Date.now() - job.lockedAt.getTime() > 60_000) {
-      job = await updateKitJob(db, job.id, { status: 'failed', error: 'interrupted: the server restarted while it ran; start it again' });
+    if (run.status === 'running' && run.lockedBy !== processId && run.lockedAt && Date.now() - run.lockedAt.getTime() > 60_000) {
+      run = await updateKitRun(db, run.id, { status: 'failed', error: 'interrupted: the server restarted while it ran; start it again' });
     }
-    return { id: job.id, status: job.status, progress: job.progress, error: job.error, createdAt: job.createdAt, finishedAt: job.finishedAt, result: job.summary };
+    // The summary column holds what runFleetRecommendation stored (FleetRecommendationSummary).
+    return { id: run.id, status: run.status, progress: run.progress, error: run.error, createdAt: run.createdAt, finishedAt: run.finishedAt, result: (run.summary ?? null) as FleetRecommendationSummary | null };
   });
 
   api.get(
     '/plans/:planId/nodes/:nodeId/visit-sheet',
-    { schema: { summary: "The installer's printable visit sheet (HTML; ?format=json for the same content as JSON)", tags, params: nodeParams, querystring: sheetQuery } },
+    { schema: { summary: "The installer's printable visit sheet (HTML; ?format=json for the same content as JSON)", tags, params: nodeParams, querystring: sheetQuery, response: { 200: { description: 'the printable page (text/html), or with ?format=json the same content as JSON', content: { 'application/json': { schema: visitSheetResponse }, 'text/html': { schema: z.string() } } }, ...errorResponses } } },
     async (request, reply) => {
       const plan = await loadPlanForPrincipal(db, request.principal, request.params.planId);
       const sheet = await nodeVisitSheet(engine, plan, request.params.nodeId).catch(asApiError);

@@ -12,7 +12,7 @@ import { requireRole } from '../auth.ts';
 import { apiErrorOf } from '../errors.ts';
 import { streamRunProgress } from '../run-events.ts';
 import { loadPlanForPrincipal } from '../scope.ts';
-import { dateTime, errorResponses, finite, id, nonNegative, pageOf, pageQuery, planParams } from '../schemas.ts';
+import { dateTime, errorResponses, finite, id, maxNodesPerGateway, nonNegative, pageOf, pageQuery, planParams } from '../schemas.ts';
 
 const runParams = z.strictObject({ planId: id(), runId: id() });
 
@@ -38,7 +38,7 @@ export const sitingBody = z.strictObject({
   minimise: z.enum(['gateways', 'cost'], { error: 'must be gateways or cost' }).optional(),
   maxGateways: wholeNumber(0, 10_000).optional(),
   budgetUsd: finite().min(0, 'must be ≥ 0 USD').max(1e9, 'must be ≤ 1000000000 USD').optional(),
-  maxNodesPerGateway: wholeNumber(1, 1_000_000).optional(),
+  maxNodesPerGateway: maxNodesPerGateway().optional().describe('capacity cap: each gateway serves at most this many nodes (FIELD_RANGES.maxNodesPerGateway)'),
   gatewayKit: z
     .strictObject({
       antennaDesignId: id().optional(),

@@ -228,6 +228,30 @@ export async function unfinishedLinkRunsOf(db: Database, kind: string, parentKey
   return db.prisma.linkRun.findMany({ where: { kind, status: { in: ['queued', 'running'] }, params: { path: [parentKey], equals: parentId } } });
 }
 
+/** The newest run of a kind whose params name this parent, whatever its status (a split coverage run's parts). */
+export async function latestLinkRunOf(db: Database, kind: string, parentKey: string, parentId: string): Promise<LinkRunRow | null> {
+  return db.prisma.linkRun.findFirst({ where: { kind, params: { path: [parentKey], equals: parentId } }, orderBy: [{ createdAt: 'desc' }, { id: 'desc' }] });
+}
+
+/**
+ * Cancels every unfinished run of a kind whose params name this parent, with their
+ * unfinished tiles (cancelLinkRun each); returns the tiles that were pending, to take
+ * off the queue once the caller's transaction committed.
+ */
+export async function cancelLinkRunsOf(db: Database, kind: string, parentKey: string, parentId: string): Promise<Array<{ runId: string; pending: number[] }>> {
+  const out: Array<{ runId: string; pending: number[] }> = [];
+  for (const run of await unfinishedLinkRunsOf(db, kind, parentKey, parentId)) {
+    const pending = await unfinishedLinkTiles(db, run.id);
+    if (await cancelLinkRun(db, run.planId, run.id)) out.push({ runId: run.id, pending });
+  }
+  return out;
+}
+
+/** The failed tile of a run (lowest index), whose error says why the run failed. */
+export async function failedLinkTile(db: Database, runId: string): Promise<LinkRunTileRow | null> {
+  return db.prisma.linkRunTile.findFirst({ where: { runId, status: 'failed' }, orderBy: { index: 'asc' } });
+}
+
 /** Tile indices of a run not yet finished (to queue again after a restart), in order. */
 export async function unfinishedLinkTiles(db: Database, runId: string): Promise<number[]> {
   const rows = await db.prisma.linkRunTile.findMany({ where: { runId, status: { in: ['queued', 'running'] } }, select: { index: true }, orderBy: { index: 'asc' } });

@@ -136,15 +136,15 @@ export async function listTerrainForLinks(db: Database, planId: string) {
 // Fleet-wide kit recommendation runs are kept in the job table (model
 // CoverageRun, kind 'kit-recommendation') so their progress and result
 // survive a restart.
-export const KIT_JOB_KIND = 'kit-recommendation';
+export const KIT_RUN_KIND = 'kit-recommendation';
 
-export async function createKitJob(db: Database, planId: string, params: unknown, createdById: string | null, lockedBy: string) {
+export async function createKitRun(db: Database, planId: string, params: unknown, createdById: string | null, lockedBy: string) {
   return db.prisma.coverageRun.create({
-    data: { planId, kind: KIT_JOB_KIND, params: params as Prisma.InputJsonValue, status: 'running', progress: 0, createdById, startedAt: new Date(), lockedBy, lockedAt: new Date() },
+    data: { planId, kind: KIT_RUN_KIND, params: params as Prisma.InputJsonValue, status: 'running', progress: 0, createdById, startedAt: new Date(), lockedBy, lockedAt: new Date() },
   });
 }
 
-export async function updateKitJob(db: Database, id: string, patch: { progress?: number; status?: 'running' | 'done' | 'failed'; error?: string | null; summary?: unknown }) {
+export async function updateKitRun(db: Database, id: string, patch: { progress?: number; status?: 'running' | 'done' | 'failed'; error?: string | null; summary?: unknown }) {
   const { summary, ...rest } = patch;
   return db.prisma.coverageRun.update({
     where: { id },
@@ -157,8 +157,8 @@ export async function updateKitJob(db: Database, id: string, patch: { progress?:
   });
 }
 
-export async function findKitJob(db: Database, planId: string, id: string) {
-  return db.prisma.coverageRun.findFirst({ where: { id, planId, kind: KIT_JOB_KIND } });
+export async function findKitRun(db: Database, planId: string, id: string) {
+  return db.prisma.coverageRun.findFirst({ where: { id, planId, kind: KIT_RUN_KIND } });
 }
 
 /** A plan by id alone, for the command line (an operator on the machine; the API always scopes by team). */

@@ -94,3 +94,54 @@ describe('los wavefront over square rings (one visit per cell)', () => {
     expect(viewshedWavefront({ frame: geographic, elevationM: elevation }, site, 900)).toBeNull();
   });
 });
+
+describe('los wavefront: the cells skipped beyond the radius change nothing', () => {
+  // A cell's horizon and visibility do not depend on the radius (the radius only decides which cells are
+  // written), so a run with a small radius must give, cell for cell, what a run with a radius covering the
+  // whole window gives inside the small radius. The small run skips the window's corners (cells no inside
+  // cell depends on); a skip bound that is too tight shows here as differences near the circle.
+  const cases: { name: string; cellXM: number; cellYM: number; siteCol: number; siteRow: number; radiusM: number }[] = [
+    { name: 'square 30 m cells, observer off-centre', cellXM: 30, cellYM: 30, siteCol: 83, siteRow: 131, radiusM: 3_000 },
+    { name: 'square cells, site off the cell centre', cellXM: 25, cellYM: 25, siteCol: 120.83, siteRow: 99.21, radiusM: 2_200 },
+    { name: 'non-square cells 30 × 18 m', cellXM: 30, cellYM: 18, siteCol: 140, siteRow: 110, radiusM: 1_600 },
+    { name: 'non-square cells 12 × 40 m', cellXM: 12, cellYM: 40, siteCol: 100.4, siteRow: 90.7, radiusM: 2_000 },
+  ];
+  for (const c of cases) {
+    it(c.name, () => {
+      const widthPx = 241;
+      const heightPx = 221;
+      const dem = makeSyntheticDem(widthPx, heightPx, Math.min(c.cellXM, c.cellYM), 11, 2.5);
+      const frame = makeGridFrame({
+        kind: 'projected',
+        widthPx,
+        heightPx,
+        geoTransform: [500_000, c.cellXM, 0, 4_000_000, 0, -c.cellYM],
+        siteX: 500_000 + c.siteCol * c.cellXM,
+        siteY: 4_000_000 - c.siteRow * c.cellYM,
+      });
+      const terrain = { frame, elevationM: dem.elevationM };
+      const small = viewshedWavefront(terrain, site, c.radiusM)!;
+      const whole = viewshedWavefront(terrain, site, 1e7)!;
+      let inside = 0;
+      let visible = 0;
+      for (let i = 0; i < small.visible.length; i++) {
+        const col = i % widthPx;
+        const row = Math.floor(i / widthPx);
+        const dM = Math.hypot(500_000 + (col + 0.5) * c.cellXM - frame.siteX, 4_000_000 - (row + 0.5) * c.cellYM - frame.siteY);
+        // Inside the radius (a hair of rounding either side of it left out), every cell must have been computed.
+        if (dM < c.radiusM - 1e-6 && whole.visible[i] !== BYTE_NODATA) expect(small.visible[i], `cell ${col},${row} inside the radius`).not.toBe(BYTE_NODATA);
+        if (dM > c.radiusM + 1e-6) expect(small.visible[i], `cell ${col},${row} beyond the radius`).toBe(BYTE_NODATA);
+        if (small.visible[i] === BYTE_NODATA) continue;
+        inside++;
+        if (small.visible[i] === 1) visible++;
+        if (small.visible[i] !== whole.visible[i]) expect.fail(`cell ${i % widthPx},${Math.floor(i / widthPx)}: ${small.visible[i]} with the small radius, ${whole.visible[i]} with the whole window`);
+      }
+      expect(inside).toBe(small.insideCells);
+      expect(visible).toBe(small.visibleCells);
+      // The circle is well inside the window: the run did skip corner cells, and kept a real mix of visible and hidden.
+      expect(inside).toBeLessThan(0.6 * widthPx * heightPx);
+      expect(visible).toBeGreaterThan(0.05 * inside);
+      expect(visible).toBeLessThan(0.95 * inside);
+    });
+  }
+});

@@ -1,7 +1,8 @@
 import { beforeAll, describe, expect, it } from 'vitest';
+import fc from 'fast-check';
 import type { Highs } from 'highs';
-import { capacityFlow, capacityHoming, coverInstance, selectionCovered, greedyCover, marginalNodes, requirements, type CoverInstance, type CoverOptions } from '../../../server/siting/cover.ts';
-import { selectionFeasible, sitingLpText, solveSiting } from '../../../server/siting/milp.ts';
+import { capacityFlow, capacityHoming, coverInstance, greedyCover, marginalNodes, requirements, type CoverInstance, type CoverOptions } from '../../../server/siting/cover.ts';
+import { selectionCovered, selectionFeasible, sitingLpText, solveSiting } from '../../../server/siting/milp.ts';
 import { radioHorizonM } from '../../../server/siting/horizon.ts';
 
 let highs: Highs;
@@ -99,7 +100,7 @@ describe('siting MILP (HiGHS) against brute force on small random instances', ()
           expect(solution.status, `round ${round}`).toBe('optimal');
           expect(solution.gapPercent).toBe(0);
           expect(solution.objective, `round ${round}`).toBeCloseTo(brute.best, 6);
-          expect(selectionFeasible(instance, options, solution.selected), `round ${round}`).toBe(true);
+          expect(selectionFeasible(instance, options, solution.selected, solution.covered), `round ${round}`).toBe(true);
           for (let j = 0; j < instance.candidateCount; j++) if (instance.fixed[j]) expect(solution.selected[j]).toBe(1);
           solvedFeasible++;
         }
@@ -199,7 +200,7 @@ describe('siting edge cases', () => {
     expect(load).toEqual([3, 3]);
     expect(Array.from(units).reduce((a, b) => a + b, 0)).toBe(6);
     // The covered set drops the node homed in part: 3 nodes, not the 4 that two chosen gateways hear.
-    const covered = selectionCovered(instance, { requiredGateways: 2, maxNodesPerGateway: 3 }, Uint8Array.from([1, 1]));
+    const covered = selectionCovered(highs, instance, { requiredGateways: 2, maxNodesPerGateway: 3 }, Uint8Array.from([1, 1]));
     expect(Array.from(covered).reduce((a, b) => a + b, 0)).toBe(3);
   });
 
@@ -304,3 +305,69 @@ describe('capacity cap (maxNodesPerGateway) against enumeration of assignments',
     });
   }
 });
+
+describe('selectionCovered (a given selection under a nodes-per-gateway cap) against brute force', () => {
+  /** The most coverable nodes all homed at once within the cap, over every subset of nodes (by enumeration of assignments). */
+  function mostHomed(instance: CoverInstance, selected: Uint8Array, r: Int32Array, cap: number): number {
+    const nodes = Array.from({ length: instance.nodeCount }, (_x, i) => i).filter((i) => r[i] > 0);
+    let best = 0;
+    for (let sub = 0; sub < 1 << nodes.length; sub++) {
+      const chosen = nodes.filter((_i, b) => (sub >> b) & 1);
+      if (chosen.length > best && assignable(instance, selected, r, chosen, cap)) best = chosen.length;
+    }
+    return best;
+  }
+
+  it('k = 3, three gateways of two seats: 4 single-hearer nodes fill the seats (the flow-and-drop count found 3, keeping a node that takes a seat at each)', () => {
+    // Gateways A, B, C. Nodes 0 and 6 hear only C, nodes 1, 2, 4 only A (r = 1); nodes 3 and 5 hear all three (r = 3).
+    // Best: 0 and 6 on C, two of 1, 2, 4 on A = 4 nodes. A node with r = 3 takes one seat at each and blocks two others.
+    // Found by the property test below against the earlier rule (max flow over all heard nodes, then drop the part-homed ones).
+    const meets = [[false, false, true], [true, false, false], [true, false, false], [true, true, true], [true, false, false], [true, true, true], [false, false, true]];
+    const instance = coverInstance(meets, 3, [1, 1, 1]);
+    const covered = selectionCovered(highs, instance, { requiredGateways: 3, maxNodesPerGateway: 2 }, Uint8Array.from([1, 1, 1]));
+    expect(selectionCount(covered)).toBe(4);
+    expect(assignable(instance, Uint8Array.from([1, 1, 1]), requirements(instance, 3), [...covered.keys()].filter((i) => covered[i]), 2)).toBe(true);
+  });
+
+  it('never fewer nodes than the brute-force optimum, and the nodes it reports can all be seated (fast-check, k = 1…3)', () => {
+    const instances = fc
+      .record({ nodes: fc.integer({ min: 1, max: 7 }), candidates: fc.integer({ min: 1, max: 4 }) })
+      .chain(({ nodes, candidates }) =>
+        fc.record({
+          meets: fc.array(fc.array(fc.boolean(), { minLength: candidates, maxLength: candidates }), { minLength: nodes, maxLength: nodes }),
+          selected: fc.array(fc.integer({ min: 0, max: 1 }), { minLength: candidates, maxLength: candidates }),
+          k: fc.integer({ min: 1, max: 3 }),
+          cap: fc.integer({ min: 1, max: 4 }),
+        }),
+      );
+    fc.assert(
+      fc.property(instances, ({ meets, selected, k, cap }) => {
+        const m = selected.length;
+        const instance = coverInstance(meets, m, Array.from({ length: m }, () => 100));
+        const chosen = Uint8Array.from(selected);
+        const r = requirements(instance, k);
+        const covered = selectionCovered(highs, instance, { requiredGateways: k, maxNodesPerGateway: cap }, chosen);
+        const reported = Array.from({ length: instance.nodeCount }, (_x, i) => i).filter((i) => covered[i] === 1);
+        expect(reported.length).toBeGreaterThanOrEqual(mostHomed(instance, chosen, r, cap));
+        expect(assignable(instance, chosen, r, reported, cap)).toBe(true);
+      }),
+      { numRuns: 400, seed: 20261202 },
+    );
+  });
+
+  it('the greedy figure under a cap is counted the same way: greedy.covered equals selectionCovered of the greedy selection', () => {
+    const rand = random(777);
+    for (let round = 0; round < 20; round++) {
+      const instance = randomInstance(rand, false);
+      const options: CoverOptions = { requiredGateways: 1 + (round % 3), maxNodesPerGateway: 1 + Math.floor(rand() * 3), maxGateways: 1 + Math.floor(rand() * 3) };
+      const solution = solveSiting(highs, instance, options);
+      expect(Array.from(solution.greedy.covered), `round ${round}`).toEqual(Array.from(selectionCovered(highs, instance, options, solution.greedy.selected)));
+      const r = requirements(instance, options.requiredGateways);
+      expect(selectionCount(solution.greedy.covered), `round ${round}`).toBe(mostHomed(instance, solution.greedy.selected, r, options.maxNodesPerGateway as number));
+    }
+  });
+});
+
+function selectionCount(mask: Uint8Array): number {
+  return mask.reduce((a, b) => a + b, 0);
+}

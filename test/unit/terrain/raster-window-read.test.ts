@@ -1,7 +1,7 @@
 // readWindow's own tile/strip path (raster.ts readFast) against geotiff.js readRasters, the reference
 // decoder it replaced: the same values for GDAL-written files with predictors, LZW, PackBits,
-// stripped and tiled layouts, windows crossing block edges, and big-endian files (which keep the
-// geotiff.js path). NoData → NaN and scale/offset are checked in raster.test.ts.
+// stripped and tiled layouts, uncompressed blocks (read straight from the file), windows crossing
+// block edges, and big-endian files (which keep the geotiff.js path). NoData → NaN and scale/offset are checked in raster.test.ts.
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -38,6 +38,11 @@ describeWithGdal('readWindow (own tile path) = geotiff.js readRasters on GDAL-wr
     { name: 'UInt16 PackBits stripped', type: 'UInt16', options: ['COMPRESS=PACKBITS'] },
     { name: 'Float64 uncompressed tiled 128', type: 'Float64', options: ['TILED=YES', 'BLOCKXSIZE=128', 'BLOCKYSIZE=128'] },
     { name: 'Byte deflate stripped', type: 'Byte', options: ['COMPRESS=DEFLATE'] },
+    // Uncompressed blocks are read straight from the file (one read per run of neighbouring blocks) and
+    // copied natively, NoData found afterwards: same values as the decoder path.
+    { name: 'Float32 uncompressed tiled 64', type: 'Float32', options: ['TILED=YES', 'BLOCKXSIZE=64', 'BLOCKYSIZE=64'] },
+    { name: 'Int16 uncompressed stripped 7 rows', type: 'Int16', options: ['BLOCKYSIZE=7'] },
+    { name: 'Byte uncompressed stripped', type: 'Byte', options: [] },
     { name: 'Float32 big-endian deflate tiled (geotiff.js path)', type: 'Float32', options: ['COMPRESS=DEFLATE', 'ENDIANNESS=BIG', 'TILED=YES'] },
   ];
   for (const { name, type, options } of cases) {

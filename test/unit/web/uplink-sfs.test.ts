@@ -4,18 +4,10 @@ import { describe, expect, it } from 'vitest';
 import { bandPlans } from '../../../server/radio/band-plans.ts';
 import { DEFAULT_BANDWIDTH_KHZ, loraBandwidthsKhz, uplinkSfsFor } from '../../../server/planning/settings.ts';
 import { planUplinkSfs } from '../../../web/src/uplink-sfs.ts';
+import { clientSettings } from '../../../server/api/routes/client-settings.ts';
 
-// What GET /client-settings serves (server/api/routes/client-settings.ts), built the same way.
-const settings = {
-  defaultBandwidthKhz: DEFAULT_BANDWIDTH_KHZ,
-  bandPlans: bandPlans.map((plan) => ({
-    id: plan.id,
-    name: plan.name,
-    uplinkSfs: uplinkSfsFor(plan, DEFAULT_BANDWIDTH_KHZ),
-    bandwidths: loraBandwidthsKhz(plan).map((bandwidthKhz) => ({ bandwidthKhz, uplinkSfs: uplinkSfsFor(plan, bandwidthKhz) })),
-    otherBandwidthSfs: uplinkSfsFor(plan, Number.NaN),
-  })),
-};
+// What GET /client-settings serves (the route answers clientSettings(config)).
+const settings = clientSettings({});
 
 describe('planUplinkSfs', () => {
   it('every band plan at each of its bandwidths gives exactly the server rule (uplinkSfsFor)', () => {

@@ -194,6 +194,13 @@ export interface paths {
                                     step: number;
                                     unit: string;
                                 };
+                                maxNodesPerGateway: {
+                                    max: number;
+                                    min: number;
+                                    note: string;
+                                    step: number;
+                                    unit: string;
+                                };
                                 nodeAntennaHeightAglM: {
                                     max: number;
                                     min: number;
@@ -3191,7 +3198,17 @@ export interface paths {
                     content: {
                         "application/json": {
                             items: {
+                                /** @description attempts of the run's own job (the parent, for a split run) */
                                 attempts: number;
+                                /** @description a run of several gateways is split into a child job per gateway; null: the run is one job (a single gateway, or a run from before the split) */
+                                children: {
+                                    cancelled: number;
+                                    done: number;
+                                    failed: number;
+                                    /** @description children taken more than once (a worker died or failed) */
+                                    retried: number;
+                                    total: number;
+                                } | null;
                                 createdAt: string;
                                 error: string | null;
                                 finishedAt: (string) | null;
@@ -3200,10 +3217,9 @@ export interface paths {
                                 /** @description fast | full (los from the command line) */
                                 mode: string | null;
                                 planId: string;
-                                /** @description 0 … 1 */
+                                /** @description 0 … 1; a run split into a child per gateway: the cells its children have predicted, summed, over all (95 %), then the composite */
                                 progress: number;
                                 radiusKm: number | null;
-                                requiredMarginDb: number | null;
                                 sf: number | null;
                                 startedAt: (string) | null;
                                 /** @enum {string} */
@@ -3254,7 +3270,6 @@ export interface paths {
                                         unserved: number;
                                     };
                                     radiusKm?: number;
-                                    requiredMarginDb?: number;
                                     served: {
                                         areaKm2: number;
                                         cells: number;
@@ -3262,6 +3277,7 @@ export interface paths {
                                         share: number;
                                     };
                                     sf?: number | null;
+                                    targetMarginDb?: number;
                                     terrain?: {
                                         /** @description 0 … 1: the smallest share of a gateway disc that had terrain */
                                         discShare: number;
@@ -3282,6 +3298,9 @@ export interface paths {
                                         share: number;
                                     };
                                 } | null;
+                                targetMarginDb: number | null;
+                                /** @description ids (host:pid) of the workers that took part: the children's and the last one that held the run's own job */
+                                workers: string[];
                             }[];
                             next: string | null;
                             total: number;
@@ -3318,8 +3337,8 @@ export interface paths {
                             txPowerDbm?: number;
                         };
                         radiusKm: number;
-                        requiredMarginDb?: number;
                         sf?: number;
+                        targetMarginDb?: number;
                         useClutter?: boolean;
                     };
                 };
@@ -3348,7 +3367,17 @@ export interface paths {
                     };
                     content: {
                         "application/json": {
+                            /** @description attempts of the run's own job (the parent, for a split run) */
                             attempts: number;
+                            /** @description a run of several gateways is split into a child job per gateway; null: the run is one job (a single gateway, or a run from before the split) */
+                            children: {
+                                cancelled: number;
+                                done: number;
+                                failed: number;
+                                /** @description children taken more than once (a worker died or failed) */
+                                retried: number;
+                                total: number;
+                            } | null;
                             createdAt: string;
                             error: string | null;
                             finishedAt: (string) | null;
@@ -3357,10 +3386,9 @@ export interface paths {
                             /** @description fast | full (los from the command line) */
                             mode: string | null;
                             planId: string;
-                            /** @description 0 … 1 */
+                            /** @description 0 … 1; a run split into a child per gateway: the cells its children have predicted, summed, over all (95 %), then the composite */
                             progress: number;
                             radiusKm: number | null;
-                            requiredMarginDb: number | null;
                             sf: number | null;
                             startedAt: (string) | null;
                             /** @enum {string} */
@@ -3411,7 +3439,6 @@ export interface paths {
                                     unserved: number;
                                 };
                                 radiusKm?: number;
-                                requiredMarginDb?: number;
                                 served: {
                                     areaKm2: number;
                                     cells: number;
@@ -3419,6 +3446,7 @@ export interface paths {
                                     share: number;
                                 };
                                 sf?: number | null;
+                                targetMarginDb?: number;
                                 terrain?: {
                                     /** @description 0 … 1: the smallest share of a gateway disc that had terrain */
                                     discShare: number;
@@ -3439,6 +3467,9 @@ export interface paths {
                                     share: number;
                                 };
                             } | null;
+                            targetMarginDb: number | null;
+                            /** @description ids (host:pid) of the workers that took part: the children's and the last one that held the run's own job */
+                            workers: string[];
                         };
                     };
                 };
@@ -3495,7 +3526,17 @@ export interface paths {
                     };
                     content: {
                         "application/json": {
+                            /** @description attempts of the run's own job (the parent, for a split run) */
                             attempts: number;
+                            /** @description a run of several gateways is split into a child job per gateway; null: the run is one job (a single gateway, or a run from before the split) */
+                            children: {
+                                cancelled: number;
+                                done: number;
+                                failed: number;
+                                /** @description children taken more than once (a worker died or failed) */
+                                retried: number;
+                                total: number;
+                            } | null;
                             createdAt: string;
                             error: string | null;
                             finishedAt: (string) | null;
@@ -3504,10 +3545,9 @@ export interface paths {
                             /** @description fast | full (los from the command line) */
                             mode: string | null;
                             planId: string;
-                            /** @description 0 … 1 */
+                            /** @description 0 … 1; a run split into a child per gateway: the cells its children have predicted, summed, over all (95 %), then the composite */
                             progress: number;
                             radiusKm: number | null;
-                            requiredMarginDb: number | null;
                             sf: number | null;
                             startedAt: (string) | null;
                             /** @enum {string} */
@@ -3558,7 +3598,6 @@ export interface paths {
                                     unserved: number;
                                 };
                                 radiusKm?: number;
-                                requiredMarginDb?: number;
                                 served: {
                                     areaKm2: number;
                                     cells: number;
@@ -3566,6 +3605,7 @@ export interface paths {
                                     share: number;
                                 };
                                 sf?: number | null;
+                                targetMarginDb?: number;
                                 terrain?: {
                                     /** @description 0 … 1: the smallest share of a gateway disc that had terrain */
                                     discShare: number;
@@ -3586,6 +3626,9 @@ export interface paths {
                                     share: number;
                                 };
                             } | null;
+                            targetMarginDb: number | null;
+                            /** @description ids (host:pid) of the workers that took part: the children's and the last one that held the run's own job */
+                            workers: string[];
                         };
                     };
                 };
@@ -3644,7 +3687,17 @@ export interface paths {
                     };
                     content: {
                         "application/json": {
+                            /** @description attempts of the run's own job (the parent, for a split run) */
                             attempts: number;
+                            /** @description a run of several gateways is split into a child job per gateway; null: the run is one job (a single gateway, or a run from before the split) */
+                            children: {
+                                cancelled: number;
+                                done: number;
+                                failed: number;
+                                /** @description children taken more than once (a worker died or failed) */
+                                retried: number;
+                                total: number;
+                            } | null;
                             createdAt: string;
                             error: string | null;
                             finishedAt: (string) | null;
@@ -3653,10 +3706,9 @@ export interface paths {
                             /** @description fast | full (los from the command line) */
                             mode: string | null;
                             planId: string;
-                            /** @description 0 … 1 */
+                            /** @description 0 … 1; a run split into a child per gateway: the cells its children have predicted, summed, over all (95 %), then the composite */
                             progress: number;
                             radiusKm: number | null;
-                            requiredMarginDb: number | null;
                             sf: number | null;
                             startedAt: (string) | null;
                             /** @enum {string} */
@@ -3707,7 +3759,6 @@ export interface paths {
                                     unserved: number;
                                 };
                                 radiusKm?: number;
-                                requiredMarginDb?: number;
                                 served: {
                                     areaKm2: number;
                                     cells: number;
@@ -3715,6 +3766,7 @@ export interface paths {
                                     share: number;
                                 };
                                 sf?: number | null;
+                                targetMarginDb?: number;
                                 terrain?: {
                                     /** @description 0 … 1: the smallest share of a gateway disc that had terrain */
                                     discShare: number;
@@ -3735,6 +3787,9 @@ export interface paths {
                                     share: number;
                                 };
                             } | null;
+                            targetMarginDb: number | null;
+                            /** @description ids (host:pid) of the workers that took part: the children's and the last one that held the run's own job */
+                            workers: string[];
                         };
                     };
                 };
@@ -5490,12 +5545,205 @@ export interface paths {
             };
             requestBody?: never;
             responses: {
+                /** @description { error: { code, message } }; 400 invalid_input names the field and rule, 409 version_conflict adds currentVersion */
+                "4XX": {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/json": {
+                            error: {
+                                code: string;
+                                message: string;
+                            } & {
+                                [key: string]: unknown;
+                            };
+                        };
+                    };
+                };
                 /** @description Default Response */
                 200: {
                     headers: {
                         [name: string]: unknown;
                     };
-                    content?: never;
+                    content: {
+                        "application/json": {
+                            cautions: string[];
+                            cautionsFooter: string;
+                            combinedDeliveryProbability: number;
+                            currentKit: {
+                                antennaDesignId: string;
+                                antennaHeightAglM: number;
+                                feedlineId: string | null;
+                                feedlineLengthM: number;
+                            };
+                            fittedCautions: {
+                                items: string[];
+                                /** @enum {string} */
+                                topic: "Work at height" | "Lightning and grounding" | "RF exposure" | "Legal power" | "On site";
+                            }[];
+                            gatewayId: string | null;
+                            gatewayName: string | null;
+                            link: {
+                                basicLossDb: number;
+                                bestSf: number | null;
+                                calibrationBiasDb: number;
+                                /** @description Φ(marginDb / sigmaDb), 0 … 1 */
+                                deliveryProbability: number;
+                                distanceM: number;
+                                eirpDbm: number;
+                                environmentLossDb: number;
+                                environmentSource: string;
+                                freeSpaceLossDb: number;
+                                gatewayAzimuthDeg: number;
+                                gatewayElevationDeg: number;
+                                gatewayFeedlineLossDb: number;
+                                gatewayGainDbi: number;
+                                gatewayId: string;
+                                gatewayMismatchLossDb: number;
+                                gatewayName: string | null;
+                                legal: {
+                                    bandPlanId: string;
+                                    conductedPowerDbm: number;
+                                    dutyCyclePercent: number | null;
+                                    dwellTimeMs: number | null;
+                                    /** @description dB over the limit; ≤ 0 when legal */
+                                    excessDb: number | null;
+                                    /** @description governing limit; null when the channel lies in no sub-band */
+                                    limitId: string | null;
+                                    listenBeforeTalk: boolean;
+                                    maxConductedDbm: number | null;
+                                    maxEirpDbm: number | null;
+                                    maxErpDbm: number | null;
+                                    peakEirpDbm: number;
+                                    peakErpDbm: number;
+                                    source: string | null;
+                                    warnings: string[];
+                                    withinLimit: boolean;
+                                } | null;
+                                lineOfSight: boolean;
+                                marginDb: number;
+                                method: string;
+                                nodeAzimuthDeg: number;
+                                nodeElevationDeg: number;
+                                nodeFeedlineLossDb: number;
+                                nodeGainDbi: number;
+                                nodeMismatchLossDb: number;
+                                perSf: {
+                                    /** @description frame within the dwell-time limit; null = no limit */
+                                    dwellOk: boolean | null;
+                                    marginDb: number;
+                                    meetsTarget: boolean;
+                                    /** @description what the duty-cycle rule allows; null = no rule */
+                                    messagesPerHour: number | null;
+                                    sensitivityDbm: number;
+                                    sf: number;
+                                    timeOnAirMs: number;
+                                }[];
+                                rssiDbm: number;
+                                /** @description planning spread σ, dB */
+                                sigmaDb: number;
+                                sigmaLocationDb: number;
+                                sigmaModelDb: number;
+                                /** @enum {string} */
+                                sigmaSource: "default" | "plan" | "calibration";
+                                snrDb: number;
+                                /** @description the path loss terms by name, dB */
+                                terms: {
+                                    [key: string]: number;
+                                };
+                                timeOnAirMs: number;
+                                usedSf: number;
+                                warnings: string[];
+                            } | null;
+                            nodeId: string;
+                            nodeName: string;
+                            /** @description null when no gateway is in range */
+                            profile: {
+                                expected: {
+                                    note: string;
+                                    rssiDbm: {
+                                        p10: number;
+                                        p50: number;
+                                        p90: number;
+                                    };
+                                    sf: number;
+                                    sigmaDb: number;
+                                    snrDb: {
+                                        p10: number;
+                                        p50: number;
+                                        p90: number;
+                                    };
+                                };
+                                gatewayId: string;
+                                kFactor: number;
+                                lineOfSight: boolean;
+                                obstructions: {
+                                    clearanceM: number;
+                                    clearanceRatio: number;
+                                    distanceM: number;
+                                    obstacleM: number;
+                                }[];
+                                points: {
+                                    /** @description ground + clutter height, m */
+                                    clutterTopM: number;
+                                    distanceM: number;
+                                    fresnelLowerM: number;
+                                    fresnelUpperM: number;
+                                    groundM: number;
+                                    lat: number | null;
+                                    lon: number | null;
+                                    /** @description ground + clutter + earth bulge, m */
+                                    obstacleM: number;
+                                    /** @description straight ray node → gateway on the flat baseline, m */
+                                    rayM: number;
+                                }[];
+                                worstClearanceAtM: number | null;
+                                worstClearanceRatio: number | null;
+                            } | null;
+                            recommendation: {
+                                advice: string[];
+                                anyMeetsTarget: boolean;
+                            };
+                            recommendedKit: {
+                                antennaDesignId: string;
+                                antennaName: string;
+                                bestGatewayId: string | null;
+                                /** @description kit cost, USD (catalog prices) */
+                                cost: number;
+                                deliveryProbability: number;
+                                /** @description null = the radio sits at the antenna */
+                                feedlineId: string | null;
+                                feedlineLengthM: number;
+                                feedlineName: string | null;
+                                /** @description best link margin at the chosen SF; null = no gateway in range */
+                                marginDb: number | null;
+                                mastHeightM: number;
+                                mastName: string | null;
+                                mastOptionId: string | null;
+                                meetsTarget: boolean;
+                                price: {
+                                    lines: {
+                                        costUsd: number;
+                                        name: string;
+                                        /** @enum {string} */
+                                        part: "antenna" | "feedline" | "connectors" | "mast";
+                                        quantity: number;
+                                        /** @enum {string} */
+                                        unit: "each" | "m";
+                                    }[];
+                                    mastName: string | null;
+                                    mastOptionId: string | null;
+                                    totalUsd: number;
+                                    unpriced: string[];
+                                };
+                                reason: string;
+                            } | null;
+                            /** @enum {string} */
+                            status: "served" | "marginal" | "unserved";
+                            warnings: string[];
+                        };
+                    };
                 };
             };
         };
@@ -5532,12 +5780,146 @@ export interface paths {
             };
             requestBody?: never;
             responses: {
+                /** @description { error: { code, message } }; 400 invalid_input names the field and rule, 409 version_conflict adds currentVersion */
+                "4XX": {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/json": {
+                            error: {
+                                code: string;
+                                message: string;
+                            } & {
+                                [key: string]: unknown;
+                            };
+                        };
+                    };
+                };
                 /** @description Default Response */
                 200: {
                     headers: {
                         [name: string]: unknown;
                     };
-                    content?: never;
+                    content: {
+                        "application/json": {
+                            assumptions: {
+                                bandwidthKhz: number;
+                                combination: string;
+                                frequencyMhz: number;
+                                gatewayCorrelation: number;
+                                /** @description older name of sigmaLocationDb, kept for existing clients */
+                                locationSigmaDb: number;
+                                locationSigmaSource: string;
+                                method: string;
+                                sigmaDb: number;
+                                sigmaLocationDb: number;
+                                sigmaModelDb: number;
+                                sigmaNote: string;
+                                /** @enum {string} */
+                                sigmaSource: "default" | "plan" | "calibration";
+                            };
+                            bestGatewayId: string | null;
+                            cache: {
+                                cached: number;
+                                computed: number;
+                            };
+                            combinedDeliveryProbability: number;
+                            kit: {
+                                antennaDesignId: string;
+                                antennaHeightAglM: number;
+                                feedlineId: string | null;
+                                feedlineLengthM: number;
+                            };
+                            /** @description best first (highest delivery probability, then margin) */
+                            links: {
+                                basicLossDb: number;
+                                bestSf: number | null;
+                                calibrationBiasDb: number;
+                                /** @description Φ(marginDb / sigmaDb), 0 … 1 */
+                                deliveryProbability: number;
+                                distanceM: number;
+                                eirpDbm: number;
+                                environmentLossDb: number;
+                                environmentSource: string;
+                                freeSpaceLossDb: number;
+                                gatewayAzimuthDeg: number;
+                                gatewayElevationDeg: number;
+                                gatewayFeedlineLossDb: number;
+                                gatewayGainDbi: number;
+                                gatewayId: string;
+                                gatewayMismatchLossDb: number;
+                                gatewayName: string | null;
+                                legal: {
+                                    bandPlanId: string;
+                                    conductedPowerDbm: number;
+                                    dutyCyclePercent: number | null;
+                                    dwellTimeMs: number | null;
+                                    /** @description dB over the limit; ≤ 0 when legal */
+                                    excessDb: number | null;
+                                    /** @description governing limit; null when the channel lies in no sub-band */
+                                    limitId: string | null;
+                                    listenBeforeTalk: boolean;
+                                    maxConductedDbm: number | null;
+                                    maxEirpDbm: number | null;
+                                    maxErpDbm: number | null;
+                                    peakEirpDbm: number;
+                                    peakErpDbm: number;
+                                    source: string | null;
+                                    warnings: string[];
+                                    withinLimit: boolean;
+                                } | null;
+                                lineOfSight: boolean;
+                                marginDb: number;
+                                method: string;
+                                nodeAzimuthDeg: number;
+                                nodeElevationDeg: number;
+                                nodeFeedlineLossDb: number;
+                                nodeGainDbi: number;
+                                nodeMismatchLossDb: number;
+                                perSf: {
+                                    /** @description frame within the dwell-time limit; null = no limit */
+                                    dwellOk: boolean | null;
+                                    marginDb: number;
+                                    meetsTarget: boolean;
+                                    /** @description what the duty-cycle rule allows; null = no rule */
+                                    messagesPerHour: number | null;
+                                    sensitivityDbm: number;
+                                    sf: number;
+                                    timeOnAirMs: number;
+                                }[];
+                                rssiDbm: number;
+                                /** @description planning spread σ, dB */
+                                sigmaDb: number;
+                                sigmaLocationDb: number;
+                                sigmaModelDb: number;
+                                /** @enum {string} */
+                                sigmaSource: "default" | "plan" | "calibration";
+                                snrDb: number;
+                                /** @description the path loss terms by name, dB */
+                                terms: {
+                                    [key: string]: number;
+                                };
+                                timeOnAirMs: number;
+                                usedSf: number;
+                                warnings: string[];
+                            }[];
+                            nodeId: string;
+                            outOfRange: {
+                                distanceM: number;
+                                gatewayId: string;
+                            }[];
+                            /** @description true when kit query parameters were applied (nothing saved) */
+                            preview: boolean;
+                            /** @enum {string} */
+                            status: "served" | "marginal" | "unserved";
+                            target: {
+                                targetDelivery: number;
+                                targetMarginDb: number;
+                            };
+                            warnings: string[];
+                        };
+                    };
                 };
             };
         };
@@ -5667,12 +6049,124 @@ export interface paths {
                 };
             };
             responses: {
+                /** @description { error: { code, message } }; 400 invalid_input names the field and rule, 409 version_conflict adds currentVersion */
+                "4XX": {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/json": {
+                            error: {
+                                code: string;
+                                message: string;
+                            } & {
+                                [key: string]: unknown;
+                            };
+                        };
+                    };
+                };
                 /** @description Default Response */
                 200: {
                     headers: {
                         [name: string]: unknown;
                     };
-                    content?: never;
+                    content: {
+                        "application/json": {
+                            /** @description plain advice when nothing meets the target */
+                            advice: string[];
+                            anyMeetsTarget: boolean;
+                            /** @description the best option found, meeting or not (null when the catalog is empty) */
+                            best: {
+                                antennaDesignId: string;
+                                bestGatewayId: string | null;
+                                /** @description kit cost, USD (catalog prices) */
+                                cost: number;
+                                deliveryProbability: number;
+                                /** @description null = the radio sits at the antenna */
+                                feedlineId: string | null;
+                                feedlineLengthM: number;
+                                /** @description best link margin at the chosen SF; null = no gateway in range */
+                                marginDb: number | null;
+                                mastHeightM: number;
+                                mastOptionId: string | null;
+                                meetsTarget: boolean;
+                                reason: string;
+                            } | null;
+                            catalog: {
+                                antennas: {
+                                    costUsd: number;
+                                    id: string;
+                                    name: string;
+                                }[];
+                                feedlines: {
+                                    costUsdPerM: number;
+                                    id: string | null;
+                                    name: string;
+                                }[];
+                                masts: {
+                                    costUsd: number;
+                                    heightM: number;
+                                    mastOptionId: string | null;
+                                }[];
+                            };
+                            cautionsFooter: string;
+                            combinations: number;
+                            currentKit: {
+                                antennaDesignId: string;
+                                antennaHeightAglM: number;
+                                feedlineId: string | null;
+                                feedlineLengthM: number;
+                            };
+                            evaluated: number;
+                            /** @description cautions fitted to the first option */
+                            fittedCautions: {
+                                items: string[];
+                                /** @enum {string} */
+                                topic: "Work at height" | "Lightning and grounding" | "RF exposure" | "Legal power" | "On site";
+                            }[];
+                            nodeId: string;
+                            /** @description cheapest meeting the target first */
+                            options: {
+                                antennaDesignId: string;
+                                antennaName: string;
+                                bestGatewayId: string | null;
+                                /** @description kit cost, USD (catalog prices) */
+                                cost: number;
+                                deliveryProbability: number;
+                                /** @description null = the radio sits at the antenna */
+                                feedlineId: string | null;
+                                feedlineLengthM: number;
+                                feedlineName: string | null;
+                                /** @description best link margin at the chosen SF; null = no gateway in range */
+                                marginDb: number | null;
+                                mastHeightM: number;
+                                mastName: string | null;
+                                mastOptionId: string | null;
+                                meetsTarget: boolean;
+                                price: {
+                                    lines: {
+                                        costUsd: number;
+                                        name: string;
+                                        /** @enum {string} */
+                                        part: "antenna" | "feedline" | "connectors" | "mast";
+                                        quantity: number;
+                                        /** @enum {string} */
+                                        unit: "each" | "m";
+                                    }[];
+                                    mastName: string | null;
+                                    mastOptionId: string | null;
+                                    totalUsd: number;
+                                    unpriced: string[];
+                                };
+                                reason: string;
+                            }[];
+                            target: {
+                                targetDelivery: number;
+                                targetMarginDb: number;
+                            };
+                            warnings: string[];
+                        };
+                    };
                 };
             };
         };
@@ -5706,12 +6200,170 @@ export interface paths {
             };
             requestBody?: never;
             responses: {
-                /** @description Default Response */
+                /** @description { error: { code, message } }; 400 invalid_input names the field and rule, 409 version_conflict adds currentVersion */
+                "4XX": {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/json": {
+                            error: {
+                                code: string;
+                                message: string;
+                            } & {
+                                [key: string]: unknown;
+                            };
+                        };
+                    };
+                };
+                /** @description the printable page (text/html), or with ?format=json the same content as JSON */
                 200: {
                     headers: {
                         [name: string]: unknown;
                     };
-                    content?: never;
+                    content: {
+                        "application/json": {
+                            buildSheet: {
+                                cautions: string[];
+                                design: string;
+                                designName: string;
+                                droopDeg?: number;
+                                elements: {
+                                    count: number;
+                                    lengthIn: number;
+                                    lengthMm: number;
+                                    name: string;
+                                    note?: string;
+                                }[];
+                                estimatedVswr?: number;
+                                feedImpedanceOhm?: number;
+                                frequencyMhz: number;
+                                lengthFactor: number;
+                                notes: string[];
+                                radialCount?: number;
+                                sources: string[];
+                                wavelengthMm: number;
+                            } | null;
+                            cautions: string[];
+                            cautionsFooter: string;
+                            combinedDeliveryProbability: number;
+                            fittedCautions: {
+                                items: string[];
+                                /** @enum {string} */
+                                topic: "Work at height" | "Lightning and grounding" | "RF exposure" | "Legal power" | "On site";
+                            }[];
+                            gateways: {
+                                aimAzimuthDeg: number;
+                                distanceM: number;
+                                elevationDeg: number;
+                                expectedRssiDbm: {
+                                    p10: number;
+                                    p50: number;
+                                    p90: number;
+                                };
+                                expectedSnrDb: {
+                                    p10: number;
+                                    p50: number;
+                                    p90: number;
+                                };
+                                id: string;
+                                marginDb: number;
+                                name: string;
+                                sf: number;
+                                sigmaDb: number;
+                            }[];
+                            generatedAt: string;
+                            kit: {
+                                antenna: {
+                                    gainDbi: number;
+                                    homemade: boolean;
+                                    id: string;
+                                    name: string;
+                                };
+                                antennaHeightAglM: number;
+                                feedline: {
+                                    id: string;
+                                    lengthM: number;
+                                    name: string;
+                                } | null;
+                                mastName: string | null;
+                                mastOptionId: string | null;
+                                meetsTarget: boolean;
+                                price: {
+                                    lines: {
+                                        costUsd: number;
+                                        name: string;
+                                        /** @enum {string} */
+                                        part: "antenna" | "feedline" | "connectors" | "mast";
+                                        quantity: number;
+                                        /** @enum {string} */
+                                        unit: "each" | "m";
+                                    }[];
+                                    mastName: string | null;
+                                    mastOptionId: string | null;
+                                    totalUsd: number;
+                                    unpriced: string[];
+                                };
+                                recommended: {
+                                    antennaDesignId: string;
+                                    antennaName: string;
+                                    cost: number;
+                                    feedlineId: string | null;
+                                    feedlineLengthM: number;
+                                    feedlineName: string | null;
+                                    mastHeightM: number;
+                                    mastName: string | null;
+                                    price: {
+                                        lines: {
+                                            costUsd: number;
+                                            name: string;
+                                            /** @enum {string} */
+                                            part: "antenna" | "feedline" | "connectors" | "mast";
+                                            quantity: number;
+                                            /** @enum {string} */
+                                            unit: "each" | "m";
+                                        }[];
+                                        mastName: string | null;
+                                        mastOptionId: string | null;
+                                        totalUsd: number;
+                                        unpriced: string[];
+                                    };
+                                    reason: string;
+                                } | null;
+                            };
+                            /** @description blanks for the installer to fill in */
+                            measurements: {
+                                gatewayId: string;
+                                gatewayName: string;
+                                measuredRssiDbm: null;
+                                measuredSnrDb: null;
+                                sf: number;
+                                time: null;
+                            }[];
+                            node: {
+                                accessNotes: string;
+                                deviceType: string;
+                                environment: string;
+                                id: string;
+                                installStatus: string;
+                                lat: number;
+                                lon: number;
+                                name: string;
+                            };
+                            plan: {
+                                bandPlan: string;
+                                frequencyMhz: number;
+                                id: string;
+                                name: string;
+                            };
+                            /** @enum {string} */
+                            status: "served" | "marginal" | "unserved";
+                            statusText: string;
+                            title: string;
+                            warnings: string[];
+                        };
+                        "text/html": string;
+                    };
                 };
             };
         };
@@ -6066,12 +6718,109 @@ export interface paths {
             };
             requestBody?: never;
             responses: {
-                /** @description Default Response */
+                /** @description { error: { code, message } }; 400 invalid_input names the field and rule, 409 version_conflict adds currentVersion */
+                "4XX": {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/json": {
+                            error: {
+                                code: string;
+                                message: string;
+                            } & {
+                                [key: string]: unknown;
+                            };
+                        };
+                    };
+                };
+                /** @description ?dryRun=true: what would be stored */
                 200: {
                     headers: {
                         [name: string]: unknown;
                     };
-                    content?: never;
+                    content: {
+                        "application/json": {
+                            /** @description rows that will be (or were) stored */
+                            created: number;
+                            dryRun: boolean;
+                            /** @description rows recognised as an uplink already stored or repeated in this import; never stored twice */
+                            duplicates: {
+                                row: number;
+                                sameAs: string;
+                            }[];
+                            errors: {
+                                field: string;
+                                message: string;
+                                row: number;
+                            }[];
+                            ignoredColumns: string[];
+                            preview: {
+                                gatewayId: string | null;
+                                /** @description JSON: the node kit at the time of the reading */
+                                kit?: unknown;
+                                lat: number | null;
+                                lon: number | null;
+                                measuredAt: string;
+                                nodeId: string;
+                                note: string;
+                                rssiDbm: number;
+                                sf: number;
+                                snrDb: number;
+                                source?: string;
+                            }[];
+                            rowCount: number;
+                            valid: boolean;
+                        };
+                    };
+                };
+                /** @description stored: the first 100 readings */
+                201: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/json": {
+                            /** @description rows that will be (or were) stored */
+                            created: number;
+                            dryRun: boolean;
+                            /** @description rows recognised as an uplink already stored or repeated in this import; never stored twice */
+                            duplicates: {
+                                row: number;
+                                sameAs: string;
+                            }[];
+                            errors: {
+                                field: string;
+                                message: string;
+                                row: number;
+                            }[];
+                            ignoredColumns: string[];
+                            items: {
+                                createdAt: string;
+                                createdById: string | null;
+                                gatewayId: string | null;
+                                id: string;
+                                /** @description JSON: the node kit at the time of the reading */
+                                kit: unknown;
+                                lat: number | null;
+                                lon: number | null;
+                                measuredAt: string;
+                                nodeId: string;
+                                note: string;
+                                planId: string;
+                                /** @description dBm measured */
+                                rssiDbm: number;
+                                sf: number;
+                                /** @description dB measured */
+                                snrDb: number;
+                                /** @description manual, or the import that brought it */
+                                source: string;
+                            }[];
+                            itemsNote?: string;
+                            rowCount: number;
+                            valid: boolean;
+                        };
+                    };
                 };
             };
         };
@@ -6090,7 +6839,7 @@ export interface paths {
         };
         get?: never;
         put?: never;
-        /** Kit recommendation for the whole fleet as a job; poll GET /plans/:planId/recommend/:jobId for progress and the result */
+        /** Kit recommendation for the whole fleet as a run; poll GET /plans/:planId/recommend/:runId for progress and the result */
         post: {
             parameters: {
                 query?: never;
@@ -6113,12 +6862,37 @@ export interface paths {
                 };
             };
             responses: {
-                /** @description Default Response */
-                200: {
+                /** @description { error: { code, message } }; 400 invalid_input names the field and rule, 409 version_conflict adds currentVersion */
+                "4XX": {
                     headers: {
                         [name: string]: unknown;
                     };
-                    content?: never;
+                    content: {
+                        "application/json": {
+                            error: {
+                                code: string;
+                                message: string;
+                            } & {
+                                [key: string]: unknown;
+                            };
+                        };
+                    };
+                };
+                /** @description Default Response */
+                202: {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/json": {
+                            id: string;
+                            /** @description URL to poll for progress and the result */
+                            poll: string;
+                            progress: number;
+                            /** @enum {string} */
+                            status: "running";
+                        };
+                    };
                 };
             };
         };
@@ -6128,7 +6902,7 @@ export interface paths {
         patch?: never;
         trace?: never;
     };
-    "/api/v1/plans/{planId}/recommend/{jobId}": {
+    "/api/v1/plans/{planId}/recommend/{runId}": {
         parameters: {
             query?: never;
             header?: never;
@@ -6141,19 +6915,96 @@ export interface paths {
                 query?: never;
                 header?: never;
                 path: {
-                    jobId: string;
                     planId: string;
+                    runId: string;
                 };
                 cookie?: never;
             };
             requestBody?: never;
             responses: {
+                /** @description { error: { code, message } }; 400 invalid_input names the field and rule, 409 version_conflict adds currentVersion */
+                "4XX": {
+                    headers: {
+                        [name: string]: unknown;
+                    };
+                    content: {
+                        "application/json": {
+                            error: {
+                                code: string;
+                                message: string;
+                            } & {
+                                [key: string]: unknown;
+                            };
+                        };
+                    };
+                };
                 /** @description Default Response */
                 200: {
                     headers: {
                         [name: string]: unknown;
                     };
-                    content?: never;
+                    content: {
+                        "application/json": {
+                            createdAt: string;
+                            error: string | null;
+                            finishedAt: (string) | null;
+                            id: string;
+                            /** @description 0 … 1 */
+                            progress: number;
+                            /** @description null until the run is done */
+                            result: {
+                                counts: {
+                                    alreadyServed: number;
+                                    meetsTarget: number;
+                                    noOption: number;
+                                };
+                                nodes: {
+                                    advice: string[];
+                                    anyMeetsTarget: boolean;
+                                    best: {
+                                        antennaDesignId: string;
+                                        antennaName: string;
+                                        bestGatewayId: string | null;
+                                        /** @description kit cost, USD (catalog prices) */
+                                        cost: number;
+                                        deliveryProbability: number;
+                                        /** @description null = the radio sits at the antenna */
+                                        feedlineId: string | null;
+                                        feedlineLengthM: number;
+                                        feedlineName: string | null;
+                                        /** @description best link margin at the chosen SF; null = no gateway in range */
+                                        marginDb: number | null;
+                                        mastHeightM: number;
+                                        mastName: string | null;
+                                        mastOptionId: string | null;
+                                        meetsTarget: boolean;
+                                        price: {
+                                            lines: {
+                                                costUsd: number;
+                                                name: string;
+                                                /** @enum {string} */
+                                                part: "antenna" | "feedline" | "connectors" | "mast";
+                                                quantity: number;
+                                                /** @enum {string} */
+                                                unit: "each" | "m";
+                                            }[];
+                                            mastName: string | null;
+                                            mastOptionId: string | null;
+                                            totalUsd: number;
+                                            unpriced: string[];
+                                        };
+                                        reason: string;
+                                    } | null;
+                                    nodeId: string;
+                                    nodeName: string;
+                                    /** @enum {string} */
+                                    status: "served" | "marginal" | "unserved";
+                                }[];
+                            } | null;
+                            /** @description running, done or failed */
+                            status: string;
+                        };
+                    };
                 };
             };
         };
@@ -6709,6 +7560,7 @@ export interface paths {
                         /** @description true: the plan's gateways stay as built (fixed, cost 0). false: start over — they become ordinary candidates (cost 0 USD, built already) and apply replaces the plan's gateways with the answer (dropped ones removed; undo restores them) */
                         keepExistingGateways: boolean;
                         maxGateways?: number;
+                        /** @description capacity cap: each gateway serves at most this many nodes (FIELD_RANGES.maxNodesPerGateway) */
                         maxNodesPerGateway?: number;
                         /** @enum {string} */
                         minimise?: "gateways" | "cost";

@@ -145,7 +145,7 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
     field('Node environment', environment),
     field('Payload (bytes)', payload, 'Default: the largest payload of the plan’s nodes'),
     field('Spreading factor', sf),
-    field('Required margin (dB)', margin, 'Cells at or above it count as served'),
+    field('Target margin for this run (dB)', margin, 'Cells at or above it count as served (starts at the plan target margin)'),
     canEdit() ? startButton : h('p', { class: 'muted small' }, 'Only planners start coverage runs; finished runs can be shown.'),
   );
   panel.append(form, runBox, overlayBox);
@@ -263,7 +263,7 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
     }
     closeSource();
     startButton.disabled = false;
-    const what = `${run.mode ?? ''} run, ${run.radiusKm ?? '–'} km, ${run.sf ? `SF${run.sf}` : 'node SF rule'}, margin ≥ ${run.requiredMarginDb ?? '–'} dB`;
+    const what = `${run.mode ?? ''} run, ${run.radiusKm ?? '–'} km, ${run.sf ? `SF${run.sf}` : 'node SF rule'}, margin ≥ ${run.targetMarginDb ?? '–'} dB`;
     if (state === 'done') {
       runBox.append(notice('ok', h('span', { id: 'coverage-state' }, `Coverage run finished (${what}). The overlay is on the map.`)));
       announce('Coverage run finished');
@@ -334,13 +334,13 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
 
   startButton.addEventListener('click', () => {
     const radiusKm = Number(radius.value);
-    const requiredMarginDb = Number(margin.value);
+    const targetMarginDb = Number(margin.value);
     const problems = [
       rangeProblem('Radius (km)', radius),
       rangeProblem('Node antenna height (m)', rxHeight),
       rangeProblem('Node transmit power (dBm)', txPower),
       rangeProblem('Feedline length (m)', feedlineLength),
-      rangeProblem('Required margin (dB)', margin),
+      rangeProblem('Target margin for this run (dB)', margin),
       rangeProblem('Payload (bytes)', payload),
     ].filter((p): p is string => p !== null);
     if (problems.length > 0) {
@@ -351,7 +351,7 @@ export function renderCoveragePanel(panel: HTMLElement, store: PlanStore, map: L
     const body: CoverageRequest = {
       mode: mode.value as 'fast' | 'full',
       radiusKm,
-      requiredMarginDb,
+      targetMarginDb,
       nodeKit: {
         antennaDesignId: nodeAntenna.value,
         antennaHeightAglM: Number(rxHeight.value),

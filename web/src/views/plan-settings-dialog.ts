@@ -54,7 +54,7 @@ export function openPlanSettingsDialog(store: PlanStore, settings: Pick<ClientSe
       field('Plan name', name),
       field('Description', description),
       field('Band plan', band, 'Sets the frequency, channel rules and transmit power limits'),
-      field('Target fade margin (dB)', margin, 'A node counts as served at or above this margin (−20 to 60 dB)'),
+      field('Target margin (dB)', margin, 'A node counts as served at or above this margin (−20 to 60 dB)'),
       field('Location variability σL (dB)', sigma, 'Spread of the level over a small area; empty = ITU-R P.1812 §4.8 with its antenna-height factor (0 to 30 dB)'),
       field('Model error σM (dB)', modelSigma, 'How far the path model may miss in practice; empty = 6 dB. Probabilities use σ = √(σL² + σM²) until a calibration is applied (0 to 30 dB)'),
       field('Propagation method', method),
@@ -69,7 +69,7 @@ export function openPlanSettingsDialog(store: PlanStore, settings: Pick<ClientSe
       if (description.value !== String(plan.description ?? '')) changes.description = description.value;
       if (band.value !== plan.bandPlanId) changes.bandPlanId = band.value;
       const marginDb = Number(margin.value);
-      const marginProblem = rangeProblem('Target fade margin (dB)', margin);
+      const marginProblem = rangeProblem('Target margin (dB)', margin);
       if (marginProblem) problems.push(marginProblem);
       else if (marginDb !== plan.targetMarginDb) changes.targetMarginDb = marginDb;
       if (sigma.value.trim() === '') {

@@ -8,6 +8,7 @@ import { getFleet, hillshadeTileUrl, listEntities, type FleetNode } from '../api
 import { applySiting, cancelSiting, getSiting, startSiting, undoSiting, type SitingResult, type SitingRun } from '../api-siting.ts';
 import type { Route } from '../router.ts';
 import { planHash } from '../router.ts';
+import { applyRange, fieldRange, rangeProblem } from '../ranges.ts';
 import { canEdit } from '../session.ts';
 import { announce, clear, errorText, field, h, money, notice, select } from '../ui.ts';
 
@@ -55,6 +56,10 @@ export async function renderSiting(main: HTMLElement, route: Route): Promise<() 
   const keepExisting = h('input', { type: 'checkbox', id: 'siting-keep', checked: true });
   const budget = numberInput('siting-budget', { min: '0', step: '100', placeholder: 'none' });
   const maxGateways = numberInput('siting-max-gateways', { min: '0', step: '1', placeholder: 'none' });
+  // Limits from the server's FIELD_RANGES (GET /client-settings), the rule the API applies.
+  const perGateway = applyRange(numberInput('siting-max-per-gateway', { inputmode: 'numeric', placeholder: 'none' }), 'maxNodesPerGateway');
+  const perGatewayRange = fieldRange('maxNodesPerGateway');
+  const perGatewayLabel = 'Nodes per gateway, at most (optional)';
   const run = h('button', { type: 'submit', id: 'siting-run' }, 'Find sites');
   const status = h('p', { id: 'siting-status', 'aria-live': 'polite', class: 'muted' });
   const progress = h('progress', { id: 'siting-progress', max: '1', value: '0', hidden: true });
@@ -62,7 +67,8 @@ export async function renderSiting(main: HTMLElement, route: Route): Promise<() 
   const out = h('div', { id: 'siting-result' });
   const form = h(
     'form',
-    { class: 'card toolbar-form', id: 'siting-form' },
+    // novalidate: the panel checks the values itself and says which field and rule (the browser's bubble names neither).
+    { class: 'card toolbar-form', id: 'siting-form', novalidate: true },
     field('Each node heard by', k),
     field('Optimise for', objective),
     field('Use the plan’s candidate sites', useSites),
@@ -70,6 +76,11 @@ export async function renderSiting(main: HTMLElement, route: Route): Promise<() 
     field('Keep existing gateways', keepExisting, 'Ticked: the plan’s gateways stay and the optimiser adds to them. Unticked: start over — existing gateways are candidates like the others (no cost, they are built), and applying removes the ones the answer drops (undo puts them back).'),
     field('Budget (USD, optional)', budget, 'With a budget or a gateway limit the optimiser covers as many nodes as it can within it.'),
     field('At most this many gateways (optional)', maxGateways),
+    field(
+      perGatewayLabel,
+      perGateway,
+      `The most nodes one gateway may serve (its radio’s or backhaul’s capacity); a node that must be heard by 2 or 3 gateways takes a place at each of them. Nodes the chosen gateways hear but cannot seat are listed as full.${perGatewayRange ? ` Whole ${perGatewayRange.unit}, ${perGatewayRange.min} to ${perGatewayRange.max}.` : ''}`,
+    ),
     run,
   );
   main.append(form, h('div', { class: 'button-row' }, progress, cancel), status, out);
@@ -115,6 +126,7 @@ export async function renderSiting(main: HTMLElement, route: Route): Promise<() 
       const budgetUsd = budget.value === '' ? undefined : Number(budget.value);
       const limit = maxGateways.value === '' ? undefined : Number(maxGateways.value);
       const points = Number(terrainPoints.value || '0');
+      const cap = perGateway.value.trim() === '' ? undefined : Number(perGateway.value);
       if (budgetUsd !== undefined && !(budgetUsd >= 0)) {
         status.textContent = 'The budget must be 0 USD or more.';
         return;
@@ -122,6 +134,13 @@ export async function renderSiting(main: HTMLElement, route: Route): Promise<() 
       if (limit !== undefined && !(Number.isInteger(limit) && limit >= 0)) {
         status.textContent = 'The gateway limit must be a whole number, 0 or more.';
         return;
+      }
+      if (cap !== undefined) {
+        const problem = rangeProblem(perGatewayLabel, perGateway) ?? (Number.isInteger(cap) ? null : `${perGatewayLabel}: a whole number.`);
+        if (problem) {
+          status.textContent = problem;
+          return;
+        }
       }
       if (!(Number.isInteger(points) && points >= 0 && points <= 500)) {
         status.textContent = 'Terrain high points must be a whole number from 0 to 500.';
@@ -138,6 +157,7 @@ export async function renderSiting(main: HTMLElement, route: Route): Promise<() 
           minimise: objective.value as 'gateways' | 'cost',
           ...(budgetUsd !== undefined ? { budgetUsd } : {}),
           ...(limit !== undefined ? { maxGateways: limit } : {}),
+          ...(cap !== undefined ? { maxNodesPerGateway: cap } : {}),
         });
         currentRun = started.id;
         progress.hidden = false;

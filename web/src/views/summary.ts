@@ -191,7 +191,7 @@ export async function renderSummary(main: HTMLElement, route: Route): Promise<vo
       const sm = done.summary;
       append(
         coverage,
-        h('p', {}, `${done.mode ?? ''} run over ${done.gatewayIds.length} gateway(s), ${done.radiusKm ?? '–'} km, SF${done.sf ?? '–'}, margin ≥ ${done.requiredMarginDb ?? '–'} dB; finished ${done.finishedAt ? new Date(done.finishedAt).toLocaleString() : ''}.`),
+        h('p', {}, `${done.mode ?? ''} run over ${done.gatewayIds.length} gateway(s), ${done.radiusKm ?? '–'} km, SF${done.sf ?? '–'}, margin ≥ ${done.targetMarginDb ?? '–'} dB; finished ${done.finishedAt ? new Date(done.finishedAt).toLocaleString() : ''}.`),
         h(
           'table',
           { class: 'data-table compact' },
