@@ -109,9 +109,10 @@ export interface CapacityNodeEntry {
 /** One node's fleet outcome turned into the capacity engine's plain input. */
 export function capacityEntryOf(ctx: PlanContext, outcome: NodeLinksOutcome, rateScale: number, gatewayIndex: ReadonlyMap<string, number> = new Map(ctx.gateways.map((g, k) => [g.row.id, k]))): CapacityNodeEntry {
   const row = outcome.node.row;
-  const entry = { nodeId: row.id, nodeName: row.name, messagesPerHour: row.messagesPerHour * rateScale, warnings: [...outcome.node.warnings] };
+  const messagesPerHour = row.messagesPerHour * rateScale;
   const best = outcome.links[0];
-  if (!best) return { ...entry, input: null };
+  // One object per node, fields written out (an object spread's copy outlived young collections; see server/planning/link.ts).
+  if (!best) return { nodeId: row.id, nodeName: row.name, messagesPerHour, warnings: [...outcome.node.warnings], input: null };
   // The node sends at the SF its best link uses (the network's data-rate choice); at each
   // gateway the link engine's budget at that SF gives margin, RSSI and delivery probability.
   const sf = best.usedSf;
@@ -123,7 +124,7 @@ export function capacityEntryOf(ctx: PlanContext, outcome: NodeLinksOutcome, rat
     const marginDb = atSf ? atSf.marginDb : link.marginDb;
     links.push({ gateway: index, rssiDbm: link.rssiDbm, linkProbability: deliveryProbability(marginDb, link.sigmaDb), heard: marginDb >= 0 });
   }
-  return { ...entry, input: { sf, bandwidthKhz: ctx.settings.bandwidthKhz, timeOnAirMs: best.timeOnAirMs, messagesPerHour: entry.messagesPerHour, links } };
+  return { nodeId: row.id, nodeName: row.name, messagesPerHour, warnings: [...outcome.node.warnings], input: { sf, bandwidthKhz: ctx.settings.bandwidthKhz, timeOnAirMs: best.timeOnAirMs, messagesPerHour, links } };
 }
 
 /** The rate scale a capacity request asks for (1 = the nodes' own rates). */

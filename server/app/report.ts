@@ -21,6 +21,12 @@ import { planFigures, type PlanFigures } from './plan-figures.ts';
 /** The map's raster size: about 2 pixels per point across the page's text width. */
 const MAP_WIDTH_PX = 990;
 const MAP_HEIGHT_PX = 1000;
+/**
+ * Decoded file tiles each map raster keeps while the map is drawn: a map tile reads the 2 × 2
+ * file tiles under it and its neighbours share them, so two rows of file tiles across the
+ * ~5-tile-wide view (≤ 16 at 256 × 256 × 4 bytes, 4 MB) let each be decoded once, not ~4 times.
+ */
+const MAP_DECODED_TILES = 16;
 
 const PROPAGATION_SOURCES: Record<string, string> = {
   p1812: 'ITU-R P.1812 path-specific method (terrain profile, diffraction, clutter)',
@@ -61,7 +67,7 @@ async function openElevation(engine: LinkEngine, config: Config, planId: string)
   const rasters: GeoRaster[] = [];
   for (const row of rows) {
     try {
-      rasters.push(await openGeoRaster(resolveStoredFile(config, row.filePath)));
+      rasters.push(await openGeoRaster(resolveStoredFile(config, row.filePath), { decodedTileCache: MAP_DECODED_TILES }));
     } catch {
       // An unreadable layer leaves the map without relief there; the link engine reports it in the warnings.
     }
@@ -75,7 +81,7 @@ async function latestMargin(engine: LinkEngine, config: Config, planId: string, 
   const path = join(resultDir(config, run.id), RESULT_FILES.margin);
   if (!existsSync(path)) return null;
   const params = (run.params ?? {}) as Partial<CoverageJobParams>;
-  const raster = await openGeoRaster(path).catch(() => null);
+  const raster = await openGeoRaster(path, { decodedTileCache: MAP_DECODED_TILES }).catch(() => null);
   if (!raster) return null;
   const when = run.finishedAt ? reportTime(run.finishedAt, timeZone) : 'at an unrecorded time';
   const gateways = Array.isArray(run.gatewayIds) ? run.gatewayIds.length : 0;

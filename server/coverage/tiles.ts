@@ -40,12 +40,33 @@ export function legend() {
   };
 }
 
+/** Buffers one margin tile render needs; a caller rendering many tiles (the report map) reuses one. */
+export interface MarginTileScratch {
+  px: Float64Array;
+  py: Float64Array;
+  /** RGBA, TILE_SIZE_PX² × 4 bytes: the returned pixels (cleared at the start of each render). */
+  pixels: Uint8Array;
+}
+
+export function newMarginTileScratch(): MarginTileScratch {
+  const n = TILE_SIZE_PX;
+  return { px: new Float64Array(n * n), py: new Float64Array(n * n), pixels: new Uint8Array(n * n * 4) };
+}
+
 /** Renders tile (z, x, y) of a margin raster (nearest cell); returns null for an invalid tile address. */
 export async function renderMarginTile(raster: GeoRaster, z: number, x: number, y: number): Promise<Uint8Array | null> {
+  const pixels = await marginTilePixels(raster, z, x, y);
+  return pixels ? encodePng(TILE_SIZE_PX, TILE_SIZE_PX, pixels, 'rgba') : null;
+}
+
+/**
+ * The RGBA pixels renderMarginTile encodes (null for an invalid tile address). With a `scratch`
+ * (newMarginTileScratch) the pixels are its buffer, overwritten by the next render.
+ */
+export async function marginTilePixels(raster: GeoRaster, z: number, x: number, y: number, scratch: MarginTileScratch = newMarginTileScratch()): Promise<Uint8Array | null> {
   if (!validTile(z, x, y)) return null;
   const n = TILE_SIZE_PX;
-  const px = new Float64Array(n * n);
-  const py = new Float64Array(n * n);
+  const { px, py } = scratch;
   let minX = Infinity;
   let minY = Infinity;
   let maxX = -Infinity;
@@ -62,7 +83,7 @@ export async function renderMarginTile(raster: GeoRaster, z: number, x: number, 
       if (q.y > maxY) maxY = q.y;
     }
   }
-  const pixels = new Uint8Array(n * n * 4);
+  const pixels = scratch.pixels.fill(0);
   const x0 = Math.max(0, Math.floor(minX));
   const y0 = Math.max(0, Math.floor(minY));
   const x1 = Math.min(raster.widthPx, Math.ceil(maxX) + 1);
@@ -84,5 +105,5 @@ export async function renderMarginTile(raster: GeoRaster, z: number, x: number, 
       }
     }
   }
-  return encodePng(n, n, pixels, 'rgba');
+  return pixels;
 }

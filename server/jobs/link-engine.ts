@@ -15,7 +15,7 @@ import type { GatewayRow } from '../db/repositories/gateways.ts';
 import { findNode, type NodeRow } from '../db/repositories/nodes.ts';
 import type { PlanRow } from '../db/repositories/plans.ts';
 import { findAntennaDesignForTeam, findFeedlineForTeam } from '../db/repositories/kit.ts';
-import { nodeLinkFingerprint, listGatewaysForLinks, listNodeLinkRows, listLinkRowsForNodes, listNodesForLinks, listPlanLinkPathHashes, listTerrainForLinks, saveLinkRows, type LinkRow } from '../db/repositories/links.ts';
+import { nodeLinkFingerprint, listGatewaysForLinks, listNodeLinkRows, listLinkRowsForNodes, listNodesForLinks, listLinkPathHashesForNodes, listTerrainForLinks, saveLinkRows, type LinkRow } from '../db/repositories/links.ts';
 import type { AntennaDesign } from '../radio/antennas.ts';
 import { connectorLossDb, findConnector, type ConnectorUse, type FeedlineType } from '../radio/feedlines.ts';
 import type { BuildingType } from '../radio/building-entry-loss.ts';
@@ -144,6 +144,18 @@ function linkRowOf(nodeId: string, gatewayId: string, inputHash: string, pathHas
 
 function buildingTypeOf(value: string | null, fallback: BuildingType): BuildingType {
   return value === 'traditional' || value === 'thermally-efficient' ? value : fallback;
+}
+
+/** Node kit hashes by their per-node inputs, per resolved settings object (see resolveNode). */
+const kitHashes = new WeakMap<ResolvedLinkSettings, Map<string, string>>();
+
+function kitHashMemo(settings: ResolvedLinkSettings): Map<string, string> {
+  let memo = kitHashes.get(settings);
+  if (!memo) {
+    memo = new Map();
+    kitHashes.set(settings, memo);
+  }
+  return memo;
 }
 
 /** Cold paths below this count are predicted in-thread (starting workers would cost more). */
@@ -410,10 +422,24 @@ export class LinkEngine {
       bandPlan: settings.bandPlan,
       targetMarginDb: settings.targetMarginDb,
       spread: settings.spread,
-      environment: { ...settings.environment, indoorBuildingType: buildingTypeOf(row.buildingType, settings.environment.indoorBuildingType) },
+      environment: { indoorBuildingType: buildingTypeOf(row.buildingType, settings.environment.indoorBuildingType), pitExtraLossDb: settings.environment.pitExtraLossDb, pitSigmaDb: settings.environment.pitSigmaDb },
     };
-    const { bandPlan: _plan, ...radioPart } = radioSettings;
-    const kitHash = hashOf({ a: hashOfShared(antenna, ctx.objectHashes), f: feedline ? hashOfShared(feedline, ctx.objectHashes) : null, length: kit.feedlineLengthM, c: kit.connectors.map((u) => [u.connector.id, u.connector.lossDb, u.count]), radio, radioPart });
+    const a = hashOfShared(antenna, ctx.objectHashes);
+    const fh = feedline ? hashOfShared(feedline, ctx.objectHashes) : null;
+    const c = kit.connectors.map((u) => [u.connector.id, u.connector.lossDb, u.count]);
+    const indoorBuildingType = radioSettings.environment.indoorBuildingType;
+    // The hash below is a function of the plan-wide settings (one object per context) and these
+    // per-node values alone, so nodes alike share one hash: 5,000 nodes no longer serialise the
+    // settings' spread and environment 5,000 times (JSON.stringify keeps every value apart that
+    // stableJson would: both write numbers the same way).
+    const memoKey = JSON.stringify([a, fh, kit.feedlineLengthM, c, radio.txPowerDbm, radio.phyPayloadBytes, radio.sfPolicy, radio.fixedSf, radio.environment, allowed, indoorBuildingType]);
+    const memo = kitHashMemo(settings);
+    let kitHash = memo.get(memoKey);
+    if (kitHash === undefined) {
+      const { bandPlan: _plan, ...radioPart } = radioSettings;
+      kitHash = hashOf({ a, f: fh, length: kit.feedlineLengthM, c, radio, radioPart });
+      memo.set(memoKey, kitHash);
+    }
     return { row, antennaHeightAglM, kit, radio, radioSettings, antenna, feedline, kitHash, warnings };
   }
 
@@ -488,7 +514,9 @@ export class LinkEngine {
     }
     const summary = summariseNodeLinks(links, { targetMarginDb: ctx.settings.targetMarginDb, targetDelivery: ctx.settings.targetDelivery }, ctx.settings.gatewayCorrelation);
     const paths = new Map(inRange.map((entry) => [entry.gateway.row.id, entry.path]));
-    return { outcome: { ...summary, node, paths, computed, cached, outOfRange }, toSave };
+    // Fields written out, not spread (see linkBudget in server/planning/link.ts).
+    const outcome: NodeLinksOutcome = { links: summary.links, combinedDeliveryProbability: summary.combinedDeliveryProbability, status: summary.status, bestGatewayId: summary.bestGatewayId, bestMarginDb: summary.bestMarginDb, node, paths, computed, cached, outOfRange };
+    return { outcome, toSave };
   }
 
   /**
@@ -544,21 +572,29 @@ export class LinkEngine {
    */
   async fleetEach(ctx: PlanContext, visit: (outcome: NodeLinksOutcome) => void | Promise<void>, onProgress?: (done: number, total: number) => void): Promise<number> {
     const nodes = await listNodesForLinks(this.db, ctx.plan.id);
-    const storedHashes = new Map<string, Map<string, string | null>>();
-    for (const row of await listPlanLinkPathHashes(this.db, ctx.plan.id)) {
-      const byGateway = storedHashes.get(row.nodeId);
-      if (byGateway) byGateway.set(row.gatewayId, row.pathHash);
-      else storedHashes.set(row.nodeId, new Map([[row.gatewayId, row.pathHash]]));
-    }
+    // The stored path hashes are read a group of nodes at a time (not the plan's 15,000 rows at
+    // once, which stayed alive through the whole of step 1 and were promoted with it).
+    let storedHashes = new Map<string, Map<string, string | null>>();
     // 1. Resolve every node and collect the paths the cache lacks (one per path hash),
     //    in groups of nodes so budgets and cache writes of one group overlap the
     //    workers' paths of the next.
     // Each node's pairs as step 1 measured them (distance, path hash), so step 3 does not
-    // measure and hash every pair a second time.
-    const resolved: Array<{ node: ResolvedNode; pairs: Map<string, PairKey> } | { broken: NodeRow; message: string } | null> = [];
+    // measure and hash every pair a second time. The resolved node itself is not kept: step 3
+    // resolves it again (the catalog lookups and kit hash are memoised per context), so 5,000
+    // resolved kits are not held, and promoted, through the whole pass.
+    const resolved: Array<{ row: NodeRow; pairs: Map<string, PairKey> } | { broken: NodeRow; message: string } | null> = [];
     const groups: Array<Map<string, LinkPathPair>> = [];
     const seen = new Set<string>();
-    for (const row of nodes) {
+    for (let r = 0; r < nodes.length; r++) {
+      const row = nodes[r];
+      if (r % FLEET_GROUP_NODES === 0) {
+        storedHashes = new Map();
+        for (const stored of await listLinkPathHashesForNodes(this.db, ctx.plan.id, nodes.slice(r, r + FLEET_GROUP_NODES).map((n) => n.id))) {
+          const byGateway = storedHashes.get(stored.nodeId);
+          if (byGateway) byGateway.set(stored.gatewayId, stored.pathHash);
+          else storedHashes.set(stored.nodeId, new Map([[stored.gatewayId, stored.pathHash]]));
+        }
+      }
       let node: ResolvedNode;
       try {
         node = await this.resolveNode(ctx, row);
@@ -569,7 +605,7 @@ export class LinkEngine {
       }
       const group = Math.floor(resolved.length / FLEET_GROUP_NODES);
       const pairs = new Map<string, PairKey>();
-      resolved.push({ node, pairs });
+      resolved.push({ row, pairs });
       const stored = storedHashes.get(row.id);
       for (const gateway of ctx.gateways) {
         const distanceM = bearingsBetween(row.lat, row.lon, gateway.row.lat, gateway.row.lon).distanceM;
@@ -614,7 +650,7 @@ export class LinkEngine {
         const ids: string[] = [];
         for (let k = i; k < Math.min(total, i + FLEET_GROUP_NODES); k++) {
           const entry = resolved[k];
-          if (entry && 'node' in entry) ids.push(entry.node.row.id);
+          if (entry && 'pairs' in entry) ids.push(entry.row.id);
         }
         byNode = new Map();
         for (const row of await listLinkRowsForNodes(this.db, ctx.plan.id, ids)) {
@@ -623,14 +659,15 @@ export class LinkEngine {
           else byNode.set(row.nodeId, [row]);
         }
       }
-      const entry = resolved[i] as { node: ResolvedNode; pairs: Map<string, PairKey> } | { broken: NodeRow; message: string };
+      const entry = resolved[i] as { row: NodeRow; pairs: Map<string, PairKey> } | { broken: NodeRow; message: string };
       resolved[i] = null; // visited nodes are the caller's to keep or drop
       if ('broken' in entry) {
         await visit(brokenNodeOutcome(entry.broken, entry.message));
         onProgress?.(i + 1, total);
         continue;
       }
-      const { outcome, toSave } = await this.nodeLinks(ctx, entry.node, byNode.get(entry.node.row.id) ?? [], true, precomputed, entry.pairs);
+      const node = await this.resolveNode(ctx, entry.row);
+      const { outcome, toSave } = await this.nodeLinks(ctx, node, byNode.get(entry.row.id) ?? [], true, precomputed, entry.pairs);
       await visit(outcome);
       pending.push(...toSave);
       if (pending.length >= 500) {

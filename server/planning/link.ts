@@ -105,8 +105,15 @@ export interface LinkBudget {
  */
 export function linkBudget(path: PathPrediction, nodeKit: EndKit, gatewayKit: EndKit, node: NodeRadio, gateway: GatewayRadio, settings: LinkRadioSettings): LinkBudget {
   const env = environmentLoss(node.environment, settings.frequencyMhz, path.nodeElevationDeg, settings.environment);
+  // Fields written out rather than spread: an object spread here made every link's input an
+  // object that outlived young-generation collections (V8's clone path), so a 5,000-node report
+  // promoted ~10 MB of them to the old generation (npm run bench -- report, server/report/README.md).
+  const s = settings.spread;
   const spread = planningSpread({
-    ...settings.spread,
+    locationWidthM: s.locationWidthM,
+    planLocationSigmaDb: s.planLocationSigmaDb,
+    planModelSigmaDb: s.planModelSigmaDb,
+    calibration: s.calibration,
     frequencyMhz: settings.frequencyMhz,
     nodeAntennaHeightAglM: path.nodeAntennaHeightAglM,
     nodeClutterHeightM: path.nodeClutterHeightM,

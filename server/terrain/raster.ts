@@ -128,8 +128,17 @@ function ArrayLike(value: unknown): boolean {
   return Array.isArray(value) || ArrayBuffer.isView(value);
 }
 
+export interface OpenRasterOptions {
+  /**
+   * Decoded tiles readWindow keeps (least recently used first out; default 0 = none). A caller
+   * reading many overlapping windows in turn (the report map: every file tile lies under ~4 map
+   * tiles) decodes each tile once instead of once per window.
+   */
+  decodedTileCache?: number;
+}
+
 /** Opens a GeoTIFF from a path (read lazily from disk) or from bytes in memory and checks it is usable. */
-export async function openGeoRaster(source: string | ArrayBuffer): Promise<GeoRaster> {
+export async function openGeoRaster(source: string | ArrayBuffer, options: OpenRasterOptions = {}): Promise<GeoRaster> {
   let tiff: GeoTIFF;
   let fileBytes = 0;
   try {
@@ -148,7 +157,7 @@ export async function openGeoRaster(source: string | ArrayBuffer): Promise<GeoRa
     throw new RasterError('not_tiff', `not a TIFF file (${message.split('\n')[0]})`);
   }
   try {
-    return await describe(tiff, fileBytes, structure.images.length, typeof source === 'string' ? source : null);
+    return await describe(tiff, fileBytes, structure.images.length, typeof source === 'string' ? source : null, Math.max(0, Math.floor(options.decodedTileCache ?? 0)));
   } catch (error) {
     await closeQuietly(tiff);
     if (error instanceof RasterError) throw error;
@@ -240,6 +249,7 @@ async function readBlocksIntoWindow(
   conversion: SampleConversion,
   bytesPerSample: number,
   file: { path: string; fileBytes: number } | null,
+  decodeTile: (tx: number, ty: number) => Promise<ArrayBuffer> = async (tx, ty) => (await img.getTileOrStrip(tx, ty, 0, decoder as never)).data as ArrayBuffer,
 ): Promise<Float32Array> {
   const { x0, y0, w, h } = window;
   const { sampleFormat, scale, offset } = conversion;
@@ -297,8 +307,7 @@ async function readBlocksIntoWindow(
       const index = next++;
       const tx = tx0 + (index % across);
       const ty = ty0 + Math.floor(index / across);
-      const tile = await img.getTileOrStrip(tx, ty, 0, decoder as never);
-      copyBlock(tx, ty, typedView(sampleFormat, tile.data as ArrayBuffer, 0, tileW * img.getBlockHeight(ty)));
+      copyBlock(tx, ty, typedView(sampleFormat, await decodeTile(tx, ty), 0, tileW * img.getBlockHeight(ty)));
     }
   };
   await Promise.all(Array.from({ length: lanes }, lane));
@@ -402,7 +411,7 @@ async function verifyImageBlockExtents(images: GeoTIFFImage[], fileBytes: number
   }
 }
 
-async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number, path: string | null): Promise<GeoRaster> {
+async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number, path: string | null, decodedTileCache: number): Promise<GeoRaster> {
   const image = await tiff.getImage(0);
   const directory = image.getFileDirectory();
   const widthPx = image.getWidth();
@@ -466,8 +475,24 @@ async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number, pa
     }
     return decoder;
   };
-  const readFast = async (img: GeoTIFFImage, x0: number, y0: number, w: number, h: number): Promise<Float32Array> =>
-    readBlocksIntoWindow(img, await decoderFor(img), { x0, y0, w, h }, conversion, bytesPerSample, path === null ? null : { path, fileBytes });
+  // Decoded tiles by image and tile, most recently used last (OpenRasterOptions.decodedTileCache).
+  const decoded = new Map<string, Promise<ArrayBuffer>>();
+  const cachedTile = (img: GeoTIFFImage, decoder: Decoder) => (tx: number, ty: number): Promise<ArrayBuffer> => {
+    const key = `${img === image ? 0 : overviewImages.indexOf(img) + 1}:${tx}:${ty}`;
+    let data = decoded.get(key);
+    if (data) decoded.delete(key);
+    else {
+      data = img.getTileOrStrip(tx, ty, 0, decoder as never).then((tile) => tile.data as ArrayBuffer);
+      data.catch(() => decoded.delete(key));
+    }
+    decoded.set(key, data);
+    if (decoded.size > decodedTileCache) decoded.delete(decoded.keys().next().value as string);
+    return data;
+  };
+  const readFast = async (img: GeoTIFFImage, x0: number, y0: number, w: number, h: number): Promise<Float32Array> => {
+    const decoder = await decoderFor(img);
+    return readBlocksIntoWindow(img, decoder, { x0, y0, w, h }, conversion, bytesPerSample, path === null ? null : { path, fileBytes }, decodedTileCache > 0 ? cachedTile(img, decoder) : undefined);
+  };
 
   const blockCellsTouched = (x0: number, y0: number, w: number, h: number, level = 0): number => {
     const img = level === 0 ? image : overviewImages[level - 1];
@@ -552,7 +577,10 @@ async function describe(tiff: GeoTIFF, fileBytes: number, imageCount: number, pa
     lonLatToPixel,
     pixelToLonLat,
     transform,
-    close: () => closeQuietly(tiff),
+    close: () => {
+      decoded.clear();
+      return closeQuietly(tiff);
+    },
   };
 }
 

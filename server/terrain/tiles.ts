@@ -47,16 +47,42 @@ function chooseLevel(raster: GeoRaster, targetM: number): { level: number; fx: n
   return best;
 }
 
+/** Buffers one hillshade tile render needs; a caller rendering many tiles (the report map) reuses one. */
+export interface HillshadeTileScratch {
+  heights: Float64Array;
+  lat: Float64Array;
+  lon: Float64Array;
+  px: Float64Array;
+  py: Float64Array;
+  rowCellM: Float64Array;
+}
+
+export function newHillshadeTileScratch(): HillshadeTileScratch {
+  const n = TILE_SIZE_PX + 2;
+  return { heights: new Float64Array(n * n), lat: new Float64Array(n * n), lon: new Float64Array(n * n), px: new Float64Array(n * n), py: new Float64Array(n * n), rowCellM: new Float64Array(n) };
+}
+
+/** A hillshade tile's pixels before PNG encoding: grey + alpha, TILE_SIZE_PX² × 2 bytes. */
+export interface HillshadeTilePixels {
+  pixels: Uint8Array;
+  hasData: boolean;
+  tooCoarse: boolean;
+}
+
 /**
  * Renders tile (z, x, y): heights sampled (bilinear, pixel-centre convention) at the centres of a 258 × 258
  * grid (the tile plus a one-pixel ring for Horn's 3 × 3 window), then shaded; transparent where no data.
  */
 export async function renderHillshadeTile(rasters: GeoRaster[], z: number, x: number, y: number, options: HillshadeOptions = {}): Promise<TileResult> {
+  const { pixels, hasData, tooCoarse } = await hillshadeTilePixels(rasters, z, x, y, options);
+  return { png: encodePng(TILE_SIZE_PX, TILE_SIZE_PX, pixels, 'grey-alpha'), hasData, tooCoarse };
+}
+
+/** The pixels renderHillshadeTile encodes; `scratch` (newHillshadeTileScratch) is overwritten and may be reused for the next tile. */
+export async function hillshadeTilePixels(rasters: GeoRaster[], z: number, x: number, y: number, options: HillshadeOptions = {}, scratch: HillshadeTileScratch = newHillshadeTileScratch()): Promise<HillshadeTilePixels> {
   const n = TILE_SIZE_PX + 2;
-  const heights = new Float64Array(n * n).fill(Number.NaN);
-  const lat = new Float64Array(n * n);
-  const lon = new Float64Array(n * n);
-  const rowCellM = new Float64Array(n);
+  const { heights, lat, lon, rowCellM } = scratch;
+  heights.fill(Number.NaN);
   for (let r = 0; r < n; r++) {
     const py = y * TILE_SIZE_PX + r - 1 + 0.5;
     for (let c = 0; c < n; c++) {
@@ -68,8 +94,8 @@ export async function renderHillshadeTile(rasters: GeoRaster[], z: number, x: nu
   }
   let tooCoarse = false;
   const ordered = [...rasters].sort((a, b) => Math.min(a.resolutionM.x, a.resolutionM.y) - Math.min(b.resolutionM.x, b.resolutionM.y));
-  const px = new Float64Array(n * n);
-  const pyArr = new Float64Array(n * n);
+  const px = scratch.px;
+  const pyArr = scratch.py;
   for (const raster of ordered) {
     const b = raster.boundsLonLat;
     if (b.east < lon[0] || b.west > lon[n * n - 1] || b.north < lat[n * n - 1] || b.south > lat[0]) continue;
@@ -160,5 +186,5 @@ export async function renderHillshadeTile(rasters: GeoRaster[], z: number, x: nu
       hasData = true;
     }
   }
-  return { png: encodePng(TILE_SIZE_PX, TILE_SIZE_PX, pixels, 'grey-alpha'), hasData, tooCoarse };
+  return { pixels, hasData, tooCoarse };
 }

@@ -29,12 +29,14 @@ export async function listPlanLinkRows(db: Database, planId: string): Promise<Li
 }
 
 /**
- * The path hash of every cached row of a plan, without the stored path: what the fleet
- * needs up front to know which paths the cache lacks (a few dozen bytes a row, where a
- * full row carries the whole path prediction).
+ * The path hash of the cached rows of some nodes of a plan, without the stored path: what the
+ * fleet's first step needs, a group of nodes at a time, to know which paths the cache lacks (a few
+ * dozen bytes a row, where a full row carries the path). The ids travel as one comma-joined text
+ * (cuid ids never hold a comma), as upsertLinkRows sends them.
  */
-export async function listPlanLinkPathHashes(db: Database, planId: string): Promise<Array<{ nodeId: string; gatewayId: string; pathHash: string | null }>> {
-  return db.prisma.$queryRaw<Array<{ nodeId: string; gatewayId: string; pathHash: string | null }>>`SELECT "nodeId", "gatewayId", "result"->>'pathHash' AS "pathHash" FROM "Link" WHERE "planId" = ${planId}`;
+export async function listLinkPathHashesForNodes(db: Database, planId: string, nodeIds: readonly string[]): Promise<Array<{ nodeId: string; gatewayId: string; pathHash: string | null }>> {
+  if (nodeIds.length === 0) return [];
+  return db.prisma.$queryRaw<Array<{ nodeId: string; gatewayId: string; pathHash: string | null }>>`SELECT "nodeId", "gatewayId", "result"->>'pathHash' AS "pathHash" FROM "Link" WHERE "planId" = ${planId} AND "nodeId" = ANY(string_to_array(${nodeIds.join(',')}, ','))`;
 }
 
 /** Cached rows of some nodes of a plan (one page of the fleet). */
