@@ -10,8 +10,8 @@
 // from its children, and once every child is done reads the parts back and runs
 // composeCoverage once over them, as the whole run does in one job.
 import { createHash } from 'node:crypto';
-import { readFileSync } from 'node:fs';
-import { relative } from 'node:path';
+import { readFileSync, rmdirSync, rmSync } from 'node:fs';
+import { dirname, relative } from 'node:path';
 import type { Config } from '../config.ts';
 import type { Database } from '../db/client.ts';
 import { coveragePartFile, resolveStoredFile, writeFileAtomic } from '../db/files.ts';
@@ -154,7 +154,9 @@ export class CoveragePartExecutor {
       const bytes = encodeCoveragePart(part, gateway.id);
       const file = coveragePartFile(this.config, run.id, index);
       // Last look before the part replaces any earlier attempt's: a cancelled or taken-over attempt writes nothing.
-      if (!(await writeFileAtomic(file, bytes, () => checkpoint(cells)))) return null;
+      const written = await writeFileAtomic(file, bytes, () => checkpoint(cells));
+      await this.dropIfRunEnded(run.id, file);
+      if (!written) return null;
       return { file: relative(this.config.filesDir, file), bytes: bytes.length, sha256: sha256(bytes), placement: part.placement };
     } catch (error) {
       if (error instanceof RunCancelledError || controller.signal.aborted) return null;
@@ -162,6 +164,25 @@ export class CoveragePartExecutor {
     } finally {
       await checking;
       await closeCoverageRasters(rasters);
+    }
+  }
+
+  /**
+   * A child that passed its last check just before a cancel can still rename its part (and
+   * `writeFileAtomic` makes the folder) after the parent removed the parts folder. Looked at
+   * after the write: if the coverage run has ended meanwhile, its parts are nobody's, so this
+   * part and the folder (when empty) go. If the run still ran at this look, the rename came
+   * before the run ended, so the parent's own removal, which follows the end, takes the part.
+   * Only an ended run counts: a taken-over attempt must not remove a part its successor owns.
+   */
+  private async dropIfRunEnded(coverageRunId: string, file: string): Promise<void> {
+    const now = await findCoverageRunById(this.db, coverageRunId);
+    if (now && (now.status === 'queued' || now.status === 'running')) return;
+    rmSync(file, { force: true });
+    try {
+      rmdirSync(dirname(file));
+    } catch {
+      // Not empty (another part or a retry's file) or already gone: the parent's sweep has it.
     }
   }
 }
