@@ -8,6 +8,7 @@ import { loadConfig } from '../config.ts';
 import { dataFolderHolder, openDatabase } from '../db/client.ts';
 import { LinkEngine } from '../jobs/link-engine.ts';
 import { AppError } from '../app/errors.ts';
+import { FIELD_RANGES } from '../planning/field-ranges.ts';
 import { sitingReport, type SitingReportInput, type SitingResult } from '../app/siting.ts';
 import { CliUsageError, defineCommand, flagOption, integerOption, numberOption, stringOption, type CommandDefinition } from './framework.ts';
 import { callRunningServer, readRunningServer } from './running-server.ts';
@@ -58,7 +59,9 @@ export const sitingCommands: CommandDefinition[] = [
         .refine((v) => v >= 0, { message: 'must be ≥ 0' })
         .optional(),
       'max-nodes-per-gateway': integerOption()
-        .refine((v) => v >= 1, { message: 'must be ≥ 1' })
+        .refine((v) => v >= FIELD_RANGES.maxNodesPerGateway.min && v <= FIELD_RANGES.maxNodesPerGateway.max, {
+          message: `must be ${FIELD_RANGES.maxNodesPerGateway.min}–${FIELD_RANGES.maxNodesPerGateway.max} ${FIELD_RANGES.maxNodesPerGateway.unit}`,
+        })
         .optional(),
       minimise: z.enum(['gateways', 'cost'], { error: 'must be gateways or cost' }).optional(),
       'time-limit-s': positive().optional(),

@@ -309,7 +309,7 @@ export const getMe = (): Promise<Me> => request<Me>('GET', '/me');
 export type ClientSettings = Answer<'/api/v1/client-settings', 'get'>;
 /** An uplink SF with the LoRaWAN maximum application payload it carries (null: none stated). */
 export type UplinkSf = ClientSettings['bandPlans'][number]['uplinkSfs'][number];
-/** The valid range of each physical input (server/api/schemas.ts FIELD_RANGES). */
+/** The valid range of each physical input (FIELD_RANGES, server/planning/field-ranges.ts). */
 export type FieldRanges = ClientSettings['ranges'];
 export type FieldRange = FieldRanges[keyof FieldRanges];
 export const getClientSettings = (): Promise<ClientSettings> => request<ClientSettings>('GET', '/client-settings');

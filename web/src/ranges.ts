@@ -1,5 +1,5 @@
 // The valid range of each physical input, as the server defines it (FIELD_RANGES in
-// server/api/schemas.ts, served by GET /client-settings). Every form sets its inputs'
+// server/planning/field-ranges.ts, served by GET /client-settings). Every form sets its inputs'
 // min/max/step from here and checks typed values against the same limits, so the forms
 // and the API accept the same numbers.
 import { getClientSettings, type FieldRange, type FieldRanges } from './api.ts';

@@ -43,7 +43,7 @@ export const clientSettingsResponse = z.object({
   propagationMethods: z.array(z.string()).describe('propagation method ids a plan may use (propagationMethod)'),
   ranges: z
     .object(Object.fromEntries(Object.keys(FIELD_RANGES).map((field) => [field, fieldRange])) as Record<RangedField, typeof fieldRange>)
-    .describe('the valid range of each physical input, the same rules every route applies (server/api/schemas.ts FIELD_RANGES)'),
+    .describe('the valid range of each physical input, the same rules every route applies (FIELD_RANGES, server/planning/field-ranges.ts)'),
 });
 export type ClientSettings = z.infer<typeof clientSettingsResponse>;
 

@@ -164,7 +164,7 @@ export interface paths {
                             } | null;
                             /** @description propagation method ids a plan may use (propagationMethod) */
                             propagationMethods: string[];
-                            /** @description the valid range of each physical input, the same rules every route applies (server/api/schemas.ts FIELD_RANGES) */
+                            /** @description the valid range of each physical input, the same rules every route applies (FIELD_RANGES, server/planning/field-ranges.ts) */
                             ranges: {
                                 coverageRadiusKm: {
                                     max: number;
