@@ -175,6 +175,12 @@ async function openPostgres(url: string, options: OpenOptions): Promise<Database
   // Loaded here so processes on an embedded folder never load the PostgreSQL driver.
   const [{ default: pg }, { PrismaPg }] = await Promise.all([import('pg'), import('@prisma/adapter-pg')]);
   const pool = new pg.Pool({ connectionString: url, max: 10 });
+  // An idle pooled connection that the server ends (a PostgreSQL restart, an administrator's
+  // pg_terminate_backend, DROP DATABASE … WITH (FORCE) after a test) is emitted as an 'error' on
+  // the pool; with no listener Node treats it as an uncaught exception and the process dies. The
+  // pool has already discarded that connection and the next query opens a new one, and a query in
+  // flight gets its own error, so there is nothing more to do here.
+  pool.on('error', () => {});
   try {
     if (!options.skipMigrations) {
       // One connection for the whole run, so the advisory lock serialises concurrent starters
