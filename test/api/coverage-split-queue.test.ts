@@ -9,60 +9,26 @@
 // after the last attempt.
 // Mandatory in CI (CI=true); elsewhere a visible skip when Redis or PostgreSQL is unreachable.
 import type { ChildProcess } from 'node:child_process';
-import { existsSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { existsSync, mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { Queue } from 'bullmq';
-import proj4 from 'proj4';
 import request from 'supertest';
 import { afterAll, beforeAll, expect, it } from 'vitest';
 import { bearer, createTestApp, type TestApp } from '../helpers/test-app.ts';
 import { QueueWorkers, queueSuite, REDIS_URL, requireQueue } from '../helpers/queue-workers.ts';
-import { writeGeoTiff } from '../../server/terrain/geotiff-writer.ts';
-import { coveragePartsDir, RESULT_FILES, resultDir } from '../../server/db/files.ts';
+import { coveragePartsDir, resultDir } from '../../server/db/files.ts';
 import { createCoverageRun } from '../../server/db/repositories/coverage-runs.ts';
 import { executeCoverageRun } from '../../server/jobs/coverage-job.ts';
 import { COVERAGE_PARTS_KIND } from '../../server/jobs/coverage-split.ts';
 import { LINK_TILE_QUEUE } from '../../server/jobs/link-runs.ts';
 import { COVERAGE_QUEUE } from '../../server/jobs/runner.ts';
 import { redisConnection } from '../../server/jobs/queue-connection.ts';
-import { makeSyntheticDem } from '../unit/coverage/synthetic-dem.ts';
+import { lonLatOf, resultFiles, uploadSyntheticTerrain, type CoverageRunView } from '../helpers/split-coverage.ts';
 
 const suite = queueSuite('coverage-split-queue');
 
-const UTM33 = '+proj=utm +zone=33 +datum=WGS84 +units=m +no_defs';
-const ORIGIN_X = 500_000;
-const ORIGIN_Y = 4_100_000;
-const CELL_M = 30;
 const SIZE = 500;
-
-function lonLatOf(col: number, row: number): { lat: number; lon: number } {
-  const [lon, lat] = proj4(UTM33, 'WGS84', [ORIGIN_X + (col + 0.5) * CELL_M, ORIGIN_Y - (row + 0.5) * CELL_M]) as [number, number];
-  return { lat, lon };
-}
-
-interface RunView {
-  id: string;
-  status: string;
-  progress: number;
-  error: string | null;
-  attempts: number;
-  children: { total: number; done: number; retried: number; failed: number; cancelled: number } | null;
-  workers: string[];
-  summary: Record<string, unknown> | null;
-}
-
-function resultFiles(config: TestApp['config'], runId: string): Record<string, string> {
-  const out: Record<string, string> = {};
-  for (const name of Object.values(RESULT_FILES)) {
-    const bytes = readFileSync(join(resultDir(config, runId), name));
-    if (name === RESULT_FILES.meta) {
-      const { runId: _id, ...rest } = JSON.parse(bytes.toString('utf8')) as Record<string, unknown>;
-      out[name] = JSON.stringify(rest);
-    } else out[name] = bytes.toString('base64');
-  }
-  return out;
-}
 
 suite('coverage runs split into a child per gateway on BullMQ queue workers (Redis 127.0.0.1:6379, PostgreSQL)', () => {
   let t: TestApp | undefined;
@@ -80,9 +46,7 @@ suite('coverage runs split into a child per gateway on BullMQ queue workers (Red
     const http = request(t.app.server);
     const plan = await http.post('/api/v1/plans').set(as()).send({ name: 'Split coverage on the queue (synthetic terrain)' });
     planId = plan.body.id;
-    const dem = makeSyntheticDem(SIZE, SIZE, CELL_M, 5, 1);
-    const bytes = Buffer.from(writeGeoTiff({ widthPx: SIZE, heightPx: SIZE, data: dem.elevationM, geoTransform: [ORIGIN_X, CELL_M, 0, ORIGIN_Y, 0, -CELL_M], epsg: 32633, noData: -9999 }));
-    expect((await http.post(`/api/v1/plans/${planId}/terrain`).set(as()).set('Content-Type', 'image/tiff').send(bytes)).status).toBe(201);
+    await uploadSyntheticTerrain(http, as(), planId, SIZE, 5);
     for (const [name, col, row] of [['North mast', 200, 180], ['South mast', 260, 300], ['West mast', 120, 260]] as const) {
       expect((await http.post(`/api/v1/plans/${planId}/gateways`).set(as()).send({ name, ...lonLatOf(col, row), antennaHeightAglM: 20 })).status).toBe(201);
     }
@@ -96,8 +60,8 @@ suite('coverage runs split into a child per gateway on BullMQ queue workers (Red
     await pool.cleanUp();
   });
 
-  const read = async (runId: string) => (await request(t!.app.server).get(`/api/v1/plans/${planId}/coverage/${runId}`).set(as())).body as RunView;
-  async function settle(runId: string, timeoutMs = 180_000): Promise<RunView> {
+  const read = async (runId: string) => (await request(t!.app.server).get(`/api/v1/plans/${planId}/coverage/${runId}`).set(as())).body as CoverageRunView;
+  async function settle(runId: string, timeoutMs = 180_000): Promise<CoverageRunView> {
     const deadline = Date.now() + timeoutMs;
     let run = await read(runId);
     while (['queued', 'running'].includes(run.status) && Date.now() < deadline) {

@@ -6,55 +6,19 @@
 // the terrain fails with a message naming the worker and the gateway, after its
 // retry, and the run fails with it. The part file codec keeps every bit.
 // The queue's workers run the same children: test/api/coverage-split-queue.test.ts.
-import { existsSync, readdirSync, readFileSync } from 'node:fs';
+import { existsSync, readdirSync } from 'node:fs';
 import { join } from 'node:path';
-import proj4 from 'proj4';
 import request from 'supertest';
 import { afterAll, beforeAll, expect, it } from 'vitest';
 import { bearer, createTestApp, describeEngines, type TestApp } from '../helpers/test-app.ts';
-import { writeGeoTiff } from '../../server/terrain/geotiff-writer.ts';
-import { coveragePartsDir, RESULT_FILES, resultDir } from '../../server/db/files.ts';
+import { coveragePartsDir, resultDir } from '../../server/db/files.ts';
 import { createCoverageRun } from '../../server/db/repositories/coverage-runs.ts';
 import { executeCoverageRun } from '../../server/jobs/coverage-job.ts';
 import { COVERAGE_PARTS_KIND, decodeCoveragePart, encodeCoveragePart } from '../../server/jobs/coverage-split.ts';
 import { createCoverageJobs } from '../../server/jobs/runner.ts';
-import { makeSyntheticDem } from '../unit/coverage/synthetic-dem.ts';
+import { lonLatOf, resultFiles, uploadSyntheticTerrain, type CoverageRunView } from '../helpers/split-coverage.ts';
 
-const UTM33 = '+proj=utm +zone=33 +datum=WGS84 +units=m +no_defs';
-const ORIGIN_X = 500_000;
-const ORIGIN_Y = 4_100_000;
-const CELL_M = 30;
 const SIZE = 400;
-
-function lonLatOf(col: number, row: number): { lat: number; lon: number } {
-  const [lon, lat] = proj4(UTM33, 'WGS84', [ORIGIN_X + (col + 0.5) * CELL_M, ORIGIN_Y - (row + 0.5) * CELL_M]) as [number, number];
-  return { lat, lon };
-}
-
-interface RunView {
-  id: string;
-  status: string;
-  progress: number;
-  error: string | null;
-  attempts: number;
-  children: { total: number; done: number; retried: number; failed: number; cancelled: number } | null;
-  workers: string[];
-  summary: Record<string, unknown> | null;
-}
-
-/** The result files of a run, meta.json without its run id (the one field that names the run). */
-function resultFiles(config: TestApp['config'], runId: string): Record<string, string> {
-  const dir = resultDir(config, runId);
-  const out: Record<string, string> = {};
-  for (const name of Object.values(RESULT_FILES)) {
-    const bytes = readFileSync(join(dir, name));
-    if (name === RESULT_FILES.meta) {
-      const { runId: _id, ...rest } = JSON.parse(bytes.toString('utf8')) as Record<string, unknown>;
-      out[name] = JSON.stringify(rest);
-    } else out[name] = bytes.toString('base64');
-  }
-  return out;
-}
 
 describeEngines('coverage runs split into a child per gateway, in process', (engine) => {
   let t: TestApp;
@@ -63,12 +27,12 @@ describeEngines('coverage runs split into a child per gateway, in process', (eng
   const gatewayIds: string[] = [];
   const as = () => bearer(t.tokens.planner);
 
-  async function settle(runId: string, until = (run: RunView) => !['queued', 'running'].includes(run.status), timeoutMs = 120_000): Promise<RunView> {
+  async function settle(runId: string, until = (run: CoverageRunView) => !['queued', 'running'].includes(run.status), timeoutMs = 120_000): Promise<CoverageRunView> {
     const deadline = Date.now() + timeoutMs;
     for (;;) {
       const got = await http.get(`/api/v1/plans/${planId}/coverage/${runId}`).set(as());
       expect(got.status, JSON.stringify(got.body)).toBe(200);
-      if (until(got.body as RunView) || Date.now() > deadline) return got.body as RunView;
+      if (until(got.body as CoverageRunView) || Date.now() > deadline) return got.body as CoverageRunView;
       await new Promise((resolve) => setTimeout(resolve, 50));
     }
   }
@@ -78,9 +42,7 @@ describeEngines('coverage runs split into a child per gateway, in process', (eng
     http = request(t.app.server);
     const plan = await http.post('/api/v1/plans').set(as()).send({ name: 'Split coverage plan (synthetic terrain)' });
     planId = plan.body.id;
-    const dem = makeSyntheticDem(SIZE, SIZE, CELL_M, 7, 1);
-    const bytes = Buffer.from(writeGeoTiff({ widthPx: SIZE, heightPx: SIZE, data: dem.elevationM, geoTransform: [ORIGIN_X, CELL_M, 0, ORIGIN_Y, 0, -CELL_M], epsg: 32633, noData: -9999 }));
-    expect((await http.post(`/api/v1/plans/${planId}/terrain`).set(as()).set('Content-Type', 'image/tiff').send(bytes)).status).toBe(201);
+    await uploadSyntheticTerrain(http, as(), planId, SIZE, 7);
     // Three masts whose discs overlap (best server, redundancy) and one whose disc is clipped by the terrain's edge.
     for (const [name, col, row] of [['Hill mast', 150, 160], ['Valley mast', 230, 200], ['Edge mast', 370, 120]] as const) {
       const res = await http.post(`/api/v1/plans/${planId}/gateways`).set(as()).send({ name, ...lonLatOf(col, row), antennaHeightAglM: 18 });
@@ -128,7 +90,7 @@ describeEngines('coverage runs split into a child per gateway, in process', (eng
     expect(summary.gateways.filter((g) => g.bestServerCells > 0).length).toBe(3);
     expect(summary.terrain.discShare).toBeLessThan(0.99);
     // The run done whole reports no children.
-    const wholeView = (await http.get(`/api/v1/plans/${planId}/coverage/${whole.id}`).set(as())).body as RunView;
+    const wholeView = (await http.get(`/api/v1/plans/${planId}/coverage/${whole.id}`).set(as())).body as CoverageRunView;
     expect(wholeView.children).toBeNull();
   }, 180_000);
 
