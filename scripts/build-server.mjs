@@ -17,7 +17,9 @@
 // Prisma client's folder resolve exactly as in the per-file tree, which the workers run.
 import { copyFileSync, existsSync, mkdirSync, readdirSync, readFileSync, renameSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { dirname, join, relative } from 'node:path';
+import { builtinModules } from 'node:module';
 import { fileURLToPath } from 'node:url';
+import { heavyStubMessage, lightBundleName, lightCommandsName, loadLightBundle } from './cli-light.mjs';
 
 export const root = join(dirname(fileURLToPath(import.meta.url)), '..');
 export const buildDir = join(root, 'build');
@@ -71,8 +73,11 @@ const tsUrlSpecifier = /(new URL\(\s*)(['"])(\.{1,2}\/[^'"\n]*?)\.ts\2/g;
 
 const zodLocalesDir = join(root, 'node_modules', 'zod', 'v4', 'locales');
 
-async function bundleCli(esbuild, outdir) {
-  const cliPlugin = {
+// The bundle's handling of our sources and packages; `cjs` for the light bundle (scripts/cli-light.mjs),
+// where import.meta does not exist: its URL is the wrapper's __earshotBundleUrl, same folder (build/cli/).
+function cliPlugin({ cjs = false, stubs = new Set() } = {}) {
+  const metaUrl = cjs ? '__earshotBundleUrl' : 'import.meta.url';
+  return {
     name: 'earshot-cli-bundle',
     setup(build) {
       build.onResolve({ filter: /^[^./]/ }, (args) => {
@@ -85,30 +90,83 @@ async function bundleCli(esbuild, outdir) {
       build.onLoad({ filter: /\.(ts|mjs)$/ }, (args) => {
         const rel = relative(root, args.path);
         if (!sourceDirs.some((dir) => rel.startsWith(`${dir}/`))) return undefined;
+        // A command module that needs packages outside the bundle: the light bundle holds a stub that throws.
+        if (stubs.has(rel)) return { contents: `throw new Error(${JSON.stringify(heavyStubMessage)});`, loader: 'js' };
         // Every output file sits in build/cli/, so `../<rel>.js` from it is the module's per-file twin.
         const twin = JSON.stringify(`../${rel.replace(/\.ts$/, '.js')}`);
         const contents = readFileSync(args.path, 'utf8')
           .replace(tsUrlSpecifier, '$1$2$3.js$2')
-          .replace(/\bimport\.meta\.url\b/g, `new URL(${twin}, import.meta.url).href`);
+          .replace(/\bimport\.meta\.url\b/g, `new URL(${twin}, ${metaUrl}).href`);
         return { contents, loader: args.path.endsWith('.ts') ? 'ts' : 'js' };
       });
     },
   };
-  await esbuild.build({
+}
+
+const bundleOptions = { bundle: true, platform: 'node', target: 'node20', minifyWhitespace: true, minifySyntax: true, logLevel: 'silent', absWorkingDir: root, metafile: true };
+
+async function bundleCli(esbuild, outdir) {
+  const result = await esbuild.build({
+    ...bundleOptions,
     entryPoints: [join(root, 'server', 'cli.ts')],
     outdir,
-    bundle: true,
     splitting: true,
     format: 'esm',
-    platform: 'node',
-    target: 'node20',
     sourcemap: 'linked',
     sourcesContent: false,
-    minifyWhitespace: true,
-    minifySyntax: true,
-    logLevel: 'silent',
-    plugins: [cliPlugin],
+    plugins: [cliPlugin()],
   });
+  await bundleCliLight(esbuild, outdir, result.metafile);
+}
+
+const isBuiltin = (specifier) => specifier.startsWith('node:') || builtinModules.includes(specifier);
+
+/**
+ * The light bundle (scripts/cli-light.mjs): the CLI with every command module whose imports (static or
+ * dynamic, all the way down, read from the ESM bundle's metafile) reach no package outside the bundle;
+ * the other command modules are stubs there, and build/cli/light-commands.json lists the commands that
+ * remain (found by loading each command of the index from the new bundle), which launch.mjs runs from it.
+ */
+async function bundleCliLight(esbuild, outdir, metafile) {
+  const commandsFile = 'server/cli/commands.ts';
+  const modules = (metafile.inputs[commandsFile]?.imports ?? []).filter((i) => i.kind === 'dynamic-import' && !i.external).map((i) => i.path);
+  const needsPackages = (start) => {
+    const seen = new Set();
+    const stack = [start];
+    while (stack.length > 0) {
+      const path = stack.pop();
+      if (seen.has(path)) continue;
+      seen.add(path);
+      for (const i of metafile.inputs[path]?.imports ?? []) {
+        if (i.external) {
+          // Our own import of another package, or any import() of one (a vm.Script has no loader for
+          // import()); a bundled package's static import of its own dependency becomes a require() there
+          // that runs only where that package's code runs (geotiff's LERC and ZStandard decoders).
+          if (!isBuiltin(i.path) && (i.kind === 'dynamic-import' || !path.includes('node_modules/'))) return true;
+        } else stack.push(i.path);
+      }
+    }
+    return false;
+  };
+  const stubs = new Set(modules.filter(needsPackages));
+  await esbuild.build({
+    ...bundleOptions,
+    stdin: { contents: "export { runCli } from './cli.ts';\nexport { commandIndex } from './cli/commands.ts';\n", resolveDir: join(root, 'server'), loader: 'ts', sourcefile: 'server/cli-light-entry.ts' },
+    outfile: join(outdir, lightBundleName),
+    format: 'cjs',
+    plugins: [cliPlugin({ cjs: true, stubs })],
+  });
+  const { exports } = loadLightBundle(outdir, null);
+  const words = [];
+  for (const entry of exports.commandIndex) {
+    try {
+      await entry.load();
+      words.push(entry.words);
+    } catch (error) {
+      if (!(error instanceof Error && error.message === heavyStubMessage)) throw error;
+    }
+  }
+  writeFileSync(join(outdir, lightCommandsName), `${JSON.stringify({ words, stubbedModules: [...stubs].sort() }, null, 2)}\n`);
 }
 
 export function buildIsFresh() {

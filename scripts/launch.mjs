@@ -7,6 +7,7 @@
 import { join } from 'node:path';
 import { buildIsFresh, buildServer, root } from './build-server.mjs';
 import { clientIsFresh, generate } from './prisma-generate.mjs';
+import { commandWords, isLightCommand, lightBundleName, loadLightBundle } from './cli-light.mjs';
 
 // The CLI runs from its bundle (build/cli/, see build-server.mjs); the server and the workers from the per-file tree.
 const programs = { server: join('server', 'main.js'), cli: join('cli', 'cli.js'), worker: join('server', 'jobs', 'worker-main.js') };
@@ -17,7 +18,17 @@ if (!name || !(name in programs)) {
 }
 if (!clientIsFresh()) generate({ quiet: true });
 if (!buildIsFresh()) await buildServer({ quiet: name === 'cli' });
-const entry = join(root, 'build', programs[name]);
-// The programs decide whether they are the main module by comparing argv[1] with themselves.
-process.argv = [process.argv[0], entry, ...args];
-await import(entry);
+const cliDir = join(root, 'build', 'cli');
+const words = name === 'cli' ? commandWords(args) : '';
+if (name === 'cli' && isLightCommand(cliDir, words)) {
+  // A command of the light bundle (scripts/cli-light.mjs): one CommonJS file with a V8 code cache.
+  process.argv = [process.argv[0], join(cliDir, lightBundleName), ...args];
+  const { exports, saveCache } = loadLightBundle(cliDir, words);
+  process.exitCode = await exports.runCli(args);
+  saveCache();
+} else {
+  const entry = join(root, 'build', programs[name]);
+  // The programs decide whether they are the main module by comparing argv[1] with themselves.
+  process.argv = [process.argv[0], entry, ...args];
+  await import(entry);
+}

@@ -38,6 +38,25 @@ describe('compiled build (build/server)', () => {
     expect(entry).not.toMatch(/from\s*"\.\.?\/[^"]*\.ts"/);
   });
 
+  it('runs the commands without other packages from the light bundle (build/cli/light.cjs) with a V8 code cache', () => {
+    const listed = JSON.parse(readFileSync('build/cli/light-commands.json', 'utf8')) as { words: string[]; stubbedModules: string[] };
+    // airtime and coverage import no package outside the bundle; token issue opens the database (Prisma, PGlite).
+    expect(listed.words).toEqual(expect.arrayContaining(['airtime', 'coverage']));
+    expect(listed.words).not.toContain('token issue');
+    expect(listed.stubbedModules).toContain('server/cli/admin.ts');
+    // A vm.Script has no loader for import(): the light bundle holds none.
+    expect(readFileSync('build/cli/light.cjs', 'utf8')).not.toMatch(/\bimport\(/);
+    const args = ['battery', '--help'];
+    const first = compiled(args);
+    expect(first.status, first.stderr).toBe(0);
+    // The first run of a command leaves its code cache; the next run reads it and answers the same.
+    expect(existsSync('build/cli/.code-cache/battery.v8')).toBe(true);
+    const second = compiled(args);
+    expect(second.status, second.stderr).toBe(0);
+    expect(second.stdout).toBe(first.stdout);
+    expect(first.stdout).toBe(fromSources(args).stdout);
+  });
+
   it('a compiled los run on an uncompressed tiled DEM writes the same file as the sources, byte for byte', () => {
     const size = 300;
     const dem = makeSyntheticDem(size, size, 30, 7, 1.2);
