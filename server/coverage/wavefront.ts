@@ -44,13 +44,22 @@ export function viewshedWavefront(terrain: TerrainWindow, site: SweepSite, radiu
   const cellM = Math.min(Math.hypot(g[1], g[4]), Math.hypot(g[2], g[5]));
   const rings = Math.min(Math.ceil(radiusM / cellM) + 1, Math.max(oc, w - 1 - oc, or, h - 1 - or));
   const radius2 = radiusM * radiusM;
-  // withGround[cell]: horizon slope including the cell's own ground (what farther cells see).
-  const withGround = new Float32Array(w * h);
+  // Horizon slopes including each cell's own ground (what farther cells see), kept for two rings only:
+  // ring n reads ring n − 1 alone. Slots per ring m: four sides of 2m + 1 (left column, right column,
+  // top row, bottom row; position along the side + m), the corners held by the columns and copied to
+  // the rows' end slots once the ring is done, so every predecessor pair is two neighbouring slots and
+  // a side's reads and writes run along memory (a column of a full grid is one cache line per cell).
+  // Float32 as the grid it replaces, and a slot never written reads 0 as that grid's cells did.
+  const maxRing = Math.max(oc, w - 1 - oc, or, h - 1 - or);
+  let prevRing = new Float32Array(4 * (2 * maxRing + 1));
+  let ring = new Float32Array(4 * (2 * maxRing + 1));
   const visible = new Uint8Array(w * h).fill(BYTE_NODATA);
+  // Visible and inside cells counted by sweepSide: [visible, inside].
+  const counts = new Float64Array(2);
   let visibleCells = 0;
   let insideCells = 0;
   const o = or * w + oc;
-  withGround[o] = NO_HORIZON;
+  prevRing.fill(NO_HORIZON, 0, 4);
   if (elevation[o] === elevation[o] && (e0 + oc * g[1] + or * g[2]) ** 2 + (n0 + oc * g[4] + or * g[5]) ** 2 <= radius2) {
     visible[o] = 1;
     visibleCells++;
@@ -70,6 +79,9 @@ export function viewshedWavefront(terrain: TerrainWindow, site: SweepSite, radiu
   const need2 = needM * needM;
   for (let n = 1; n <= rings; n++) {
     const back = (n - 1) / n;
+    const sideSlots = 2 * n + 1;
+    const prevSideSlots = 2 * n - 1;
+    ring.fill(0, 0, 4 * sideSlots);
     // Cells of ring n: |dc| = n (left/right sides, predecessors in column oc ± (n−1)) or |dr| = n (top/bottom).
     for (let side = 0; side < 4; side++) {
       const vertical = side < 2; // left/right side: the ring's column is fixed
@@ -90,47 +102,74 @@ export function viewshedWavefront(terrain: TerrainWindow, site: SweepSite, radiu
         startT = Math.max(startT, -reach);
         endT = Math.min(endT, reach);
       }
-      const prevFixed = vertical ? oc + sign * (n - 1) : or + sign * (n - 1);
       // Cell index, and local metres, as affine functions of the position u = centre + t along the side
       // (no per-cell branch on the side's orientation).
       const stride = vertical ? w : 1;
       const fixedBase = vertical ? fixed : fixed * w;
-      const prevBase = vertical ? prevFixed : prevFixed * w;
+      // Slot of position t on this side of ring n, and of position a on the same side of ring n − 1.
+      const slotBase = side * sideSlots + n;
+      const prevSlotBase = side * prevSideSlots + n - 1;
       const eFixed = e0 + (vertical ? fixed * g[1] : fixed * g[2]);
       const nFixed = n0 + (vertical ? fixed * g[4] : fixed * g[5]);
       const eAlong = vertical ? g[2] : g[1];
       const nAlong = vertical ? g[5] : g[4];
-      for (let t = startT; t <= endT; t++) {
-        const u = centre + t;
-        const cell = fixedBase + u * stride;
-        // Where the sight line to this cell crosses the previous ring, and its two neighbours there.
-        const along = t * back;
-        const a0 = Math.floor(along);
-        const frac = along - a0;
-        const p0 = prevBase + (centre + a0) * stride;
-        const horizon = frac > 0 ? withGround[p0] * (1 - frac) + withGround[p0 + stride] * frac : withGround[p0];
-        const e = eFixed + u * eAlong;
-        const nn = nFixed + u * nAlong;
-        const d2 = e * e + nn * nn;
-        const ground = elevation[cell];
-        if (ground !== ground) {
-          withGround[cell] = horizon;
-          continue;
-        }
-        const d = Math.sqrt(d2);
-        const lowered = ground - d2 * dropPerM2 - eyeM;
-        const slope = lowered / d;
-        withGround[cell] = slope > horizon ? slope : horizon;
-        if (d2 > radius2) continue;
-        insideCells++;
-        if ((lowered + targetM) / d >= horizon) {
-          visible[cell] = 1;
-          visibleCells++;
-        } else {
-          visible[cell] = 0;
-        }
-      }
+      sweepSide(startT, endT, centre, back, fixedBase, stride, prevSlotBase, slotBase, eFixed, nFixed, eAlong, nAlong, prevRing, ring, elevation, visible, dropPerM2, eyeM, targetM, radius2, counts);
+    }
+    // Corners (computed on the columns) into the end slots of the rows: top row ← the columns' first
+    // slots, bottom row ← their last.
+    ring[2 * sideSlots] = ring[0];
+    ring[3 * sideSlots - 1] = ring[sideSlots];
+    ring[3 * sideSlots] = ring[sideSlots - 1];
+    ring[4 * sideSlots - 1] = ring[2 * sideSlots - 1];
+    const done = prevRing;
+    prevRing = ring;
+    ring = done;
+  }
+  return { visible, visibleCells: visibleCells + counts[0], insideCells: insideCells + counts[1] };
+}
+
+/**
+ * The cells t = startT…endT of one side of ring n (see viewshedWavefront): a small function of its own, so
+ * that V8 optimises it after a few sides instead of waiting for the on-stack replacement of the whole
+ * sweep (a run is one call; its first ~1.4 M cells would otherwise run in the interpreter the longer).
+ */
+function sweepSide(
+  startT: number, endT: number, centre: number, back: number, fixedBase: number, stride: number, prevSlotBase: number, slotBase: number,
+  eFixed: number, nFixed: number, eAlong: number, nAlong: number, prevRing: Float32Array, ring: Float32Array, elevation: Float32Array, visible: Uint8Array,
+  dropPerM2: number, eyeM: number, targetM: number, radius2: number, counts: Float64Array,
+): void {
+  let visibleCells = 0;
+  let insideCells = 0;
+  for (let t = startT; t <= endT; t++) {
+    const u = centre + t;
+    const cell = fixedBase + u * stride;
+    // Where the sight line to this cell crosses the previous ring, and its two neighbours there.
+    const along = t * back;
+    const a0 = Math.floor(along);
+    const frac = along - a0;
+    const p0 = prevSlotBase + a0;
+    const horizon = frac > 0 ? prevRing[p0] * (1 - frac) + prevRing[p0 + 1] * frac : prevRing[p0];
+    const e = eFixed + u * eAlong;
+    const nn = nFixed + u * nAlong;
+    const d2 = e * e + nn * nn;
+    const ground = elevation[cell];
+    if (ground !== ground) {
+      ring[slotBase + t] = horizon;
+      continue;
+    }
+    const d = Math.sqrt(d2);
+    const lowered = ground - d2 * dropPerM2 - eyeM;
+    const slope = lowered / d;
+    ring[slotBase + t] = slope > horizon ? slope : horizon;
+    if (d2 > radius2) continue;
+    insideCells++;
+    if ((lowered + targetM) / d >= horizon) {
+      visible[cell] = 1;
+      visibleCells++;
+    } else {
+      visible[cell] = 0;
     }
   }
-  return { visible, visibleCells, insideCells };
+  counts[0] += visibleCells;
+  counts[1] += insideCells;
 }

@@ -7,7 +7,6 @@
 // optimised readers like). Used by the demo terrain script, the coverage
 // GeoTIFF export, tests and benchmarks.
 import { openSync, writeSync, closeSync } from 'node:fs';
-import { deflateSync } from 'node:zlib';
 import { crsKindForEpsg } from './crs.ts';
 
 export type RasterArray = Float32Array | Float64Array | Int8Array | Uint8Array | Int16Array | Uint16Array | Int32Array | Uint32Array;
@@ -279,7 +278,8 @@ function writeIfd(view: DataView, at: number, fields: Field[], nextIfd: number):
 
 function encodeBlock(block: RasterArray, compression: 'none' | 'deflate' | undefined): Uint8Array {
   const raw = new Uint8Array(block.buffer, block.byteOffset, block.byteLength);
-  return compression === 'deflate' ? deflateSync(raw) : raw;
+  // node:zlib only when deflating (an uncompressed write, the CLI's los raster, does not load it).
+  return compression === 'deflate' ? process.getBuiltinModule('node:zlib').deflateSync(raw) : raw;
 }
 
 /** Copies a window of a row-major raster into a fresh block of blockW × blockH (padding with `fill`). */

@@ -2,7 +2,8 @@
 // bytes its size declares (plus a little slack), so a small compressed block cannot expand into
 // gigabytes (a "decompression bomb"). geotiff's own LZW and PackBits decoders grow a JavaScript
 // array without limit; deflate goes through node's zlib with maxOutputLength.
-import { inflateSync } from 'node:zlib';
+// node:zlib is fetched when a block is inflated (process.getBuiltinModule): loading it costs a short
+// command (an uncompressed DEM's los run) ~5 ms of start-up.
 import { BaseDecoder } from 'geotiff';
 
 type Parameters = ConstructorParameters<typeof BaseDecoder>[0];
@@ -30,7 +31,7 @@ function exactBuffer(bytes: Uint8Array): ArrayBuffer {
 export class BoundedInflateDecoder extends BoundedDecoder {
   override decodeBlock(buffer: ArrayBufferLike): ArrayBufferLike {
     try {
-      return exactBuffer(inflateSync(new Uint8Array(buffer), { maxOutputLength: this.limit }));
+      return exactBuffer(process.getBuiltinModule('node:zlib').inflateSync(new Uint8Array(buffer), { maxOutputLength: this.limit }));
     } catch (error) {
       if ((error as NodeJS.ErrnoException).code === 'ERR_BUFFER_TOO_LARGE') throw new Error(`a deflate block expands beyond its declared ${this.limit - 16} bytes`);
       throw error;
