@@ -18,24 +18,18 @@ ALTER TABLE "Link" ADD CONSTRAINT "Link_pkey" PRIMARY KEY ("planId", "nodeId", "
 
 -- Deleting nodes, gateways or plans (directly or by a cascade from their plan) deletes their
 -- cached links, once per statement over the deleted rows.
-CREATE OR REPLACE FUNCTION "earshot_drop_links_of_nodes"() RETURNS trigger LANGUAGE plpgsql AS $$
+CREATE OR REPLACE FUNCTION "earshot_drop_links"() RETURNS trigger LANGUAGE plpgsql AS $$
 BEGIN
-  DELETE FROM "Link" l USING deleted d WHERE l."planId" = d."planId" AND l."nodeId" = d."id";
+  IF TG_TABLE_NAME = 'Plan' THEN
+    DELETE FROM "Link" l USING deleted d WHERE l."planId" = d."id";
+  ELSIF TG_TABLE_NAME = 'Node' THEN
+    DELETE FROM "Link" l USING deleted d WHERE l."planId" = d."planId" AND l."nodeId" = d."id";
+  ELSE
+    DELETE FROM "Link" l USING deleted d WHERE l."planId" = d."planId" AND l."gatewayId" = d."id";
+  END IF;
   RETURN NULL;
 END
 $$;
-CREATE OR REPLACE FUNCTION "earshot_drop_links_of_gateways"() RETURNS trigger LANGUAGE plpgsql AS $$
-BEGIN
-  DELETE FROM "Link" l USING deleted d WHERE l."planId" = d."planId" AND l."gatewayId" = d."id";
-  RETURN NULL;
-END
-$$;
-CREATE OR REPLACE FUNCTION "earshot_drop_links_of_plans"() RETURNS trigger LANGUAGE plpgsql AS $$
-BEGIN
-  DELETE FROM "Link" l USING deleted d WHERE l."planId" = d."id";
-  RETURN NULL;
-END
-$$;
-CREATE TRIGGER "Node_drop_links" AFTER DELETE ON "Node" REFERENCING OLD TABLE AS deleted FOR EACH STATEMENT EXECUTE FUNCTION "earshot_drop_links_of_nodes"();
-CREATE TRIGGER "Gateway_drop_links" AFTER DELETE ON "Gateway" REFERENCING OLD TABLE AS deleted FOR EACH STATEMENT EXECUTE FUNCTION "earshot_drop_links_of_gateways"();
-CREATE TRIGGER "Plan_drop_links" AFTER DELETE ON "Plan" REFERENCING OLD TABLE AS deleted FOR EACH STATEMENT EXECUTE FUNCTION "earshot_drop_links_of_plans"();
+CREATE TRIGGER "Node_drop_links" AFTER DELETE ON "Node" REFERENCING OLD TABLE AS deleted FOR EACH STATEMENT EXECUTE FUNCTION "earshot_drop_links"();
+CREATE TRIGGER "Gateway_drop_links" AFTER DELETE ON "Gateway" REFERENCING OLD TABLE AS deleted FOR EACH STATEMENT EXECUTE FUNCTION "earshot_drop_links"();
+CREATE TRIGGER "Plan_drop_links" AFTER DELETE ON "Plan" REFERENCING OLD TABLE AS deleted FOR EACH STATEMENT EXECUTE FUNCTION "earshot_drop_links"();
