@@ -9,7 +9,9 @@
 // the CPU time (user + system) of the same runs beside the wall time of the spawned commands;
 // EARSHOT_BENCH_BASELINE=<another checkout> adds that tree's compiled programs as a column (e.g. main's
 // tree exported with `git archive main | tar -x -C <dir>`, node_modules linked and the Prisma client copied).
-// "compiled" is what `npm run earshot` runs: the CLI from its bundle build/cli/ (scripts/build-server.mjs),
+// "compiled" is what `npm run earshot` runs: the CLI from its bundle build/cli/ (scripts/build-server.mjs;
+// airtime and coverage from its light bundle with a V8 code cache that a command's first run writes, so
+// after a rebuild the first of the 3 runs compiles and the best of 3 is a cached run),
 // the server from the per-file tree build/server/; most of a short command's time is Node's own start,
 // loading modules and, for coverage, reading the DEM and writing the GeoTIFF.
 import { spawn, spawnSync } from 'node:child_process';
