@@ -2,10 +2,11 @@
 // {pathHash}, as one unnest INSERT ... ON CONFLICT DO UPDATE; any other row as one
 // jsonb_to_recordset upsert; both in one transaction) on both engines: new pairs inserted,
 // known pairs replaced in place, a pair listed twice keeps its last row, JSON results and
-// packed bytes read back equal, other plans untouched.
+// packed bytes read back equal, other plans untouched; rows of a node or gateway not in the
+// plan left out; links deleted with their gateway, node or plan (no foreign keys, triggers).
 import { afterAll, beforeAll, expect, it } from 'vitest';
 import { createTestApp, describeEngines, type TestApp } from '../helpers/test-app.ts';
-import { listNodeLinkRows, listPlanLinkRows, saveLinkRows, type LinkRow } from '../../server/db/repositories/links.ts';
+import { listNodeLinkRows, listPlanLinkRows, saveLinkRows, upsertLinkRows, type LinkRow } from '../../server/db/repositories/links.ts';
 
 describeEngines('link cache writes', (engine) => {
   let t: TestApp;
@@ -78,12 +79,45 @@ describeEngines('link cache writes', (engine) => {
   it('a failing statement keeps none of the write (the slim and the JSON statement share one transaction)', async () => {
     const before = await listPlanLinkRows(t.db, planId);
     const rows = rowsOf((n, g) => `h2-${n}-${g}`);
-    // The last row (a JSON one: node 399) names a node that does not exist: the foreign key rejects the
+    // The last row (a JSON one: node 399) has no input hash: the column's NOT NULL rejects the
     // second statement, and the slim rows the first one wrote go with it.
     expect(rows[rows.length - 1].packed).toBeNull();
-    rows[rows.length - 1] = { ...rows[rows.length - 1], nodeId: 'no-such-node' };
+    rows[rows.length - 1] = { ...rows[rows.length - 1], inputHash: null as unknown as string };
     await expect(saveLinkRows(t.db, planId, rows)).rejects.toThrow();
     const after = await listPlanLinkRows(t.db, planId);
     expect(new Map(after.map((row) => [`${row.nodeId}|${row.gatewayId}`, row.inputHash]))).toEqual(new Map(before.map((row) => [`${row.nodeId}|${row.gatewayId}`, row.inputHash])));
+  });
+
+  it('a row of a node or gateway not in the plan is left out, not an error (the rule the foreign keys kept)', async () => {
+    const before = await listPlanLinkRows(t.db, planId);
+    const stray: LinkRow[] = [
+      { nodeId: 'no-such-node', gatewayId: gatewayIds[0], inputHash: 'x', result: { pathHash: 'px' }, packed: new Uint8Array([1]) },
+      { nodeId: nodeIds[0], gatewayId: 'no-such-gateway', inputHash: 'x', result: { pathHash: 'px' }, packed: new Uint8Array([1]) },
+      // A node and a gateway of another plan, written under this plan.
+      { nodeId: otherNodeId, gatewayId: gatewayIds[0], inputHash: 'x', result: { pathHash: 'px' }, packed: new Uint8Array([1]) },
+      { nodeId: nodeIds[0], gatewayId: otherGatewayId, inputHash: 'x', result: { pathHash: 'px', path: { note: 'json form' } }, packed: null },
+    ];
+    const kept = { nodeId: nodeIds[1], gatewayId: gatewayIds[1], inputHash: 'kept', result: { pathHash: 'pk' }, packed: new Uint8Array([2, 3]) };
+    expect(await upsertLinkRows(t.db.prisma, planId, [...stray, kept])).toBe(1);
+    const after = await listPlanLinkRows(t.db, planId);
+    expect(after).toHaveLength(before.length);
+    expect(after.find((row) => row.nodeId === nodeIds[1] && row.gatewayId === gatewayIds[1])?.inputHash).toBe('kept');
+    expect(await listPlanLinkRows(t.db, otherPlanId)).toHaveLength(1);
+  });
+
+  it('deleting a gateway, a node or a whole plan deletes their cached links (statement triggers, no foreign keys)', async () => {
+    const prisma = t.db.prisma;
+    const count = (where: { planId: string; nodeId?: string; gatewayId?: string }) => prisma.link.count({ where });
+    expect(await count({ planId, gatewayId: gatewayIds[2] })).toBe(400);
+    await prisma.gateway.delete({ where: { id: gatewayIds[2] } });
+    expect(await count({ planId, gatewayId: gatewayIds[2] })).toBe(0);
+    expect(await count({ planId })).toBe(800);
+    await prisma.node.deleteMany({ where: { id: { in: nodeIds.slice(0, 10) } } });
+    expect(await count({ planId })).toBe(780);
+    expect(await count({ planId, nodeId: nodeIds[10] })).toBe(2);
+    // The plan goes (its nodes and gateways by their own cascade): every row of it goes, the other plan's stays.
+    await prisma.plan.delete({ where: { id: planId } });
+    expect(await count({ planId })).toBe(0);
+    expect(await count({ planId: otherPlanId })).toBe(1);
   });
 });

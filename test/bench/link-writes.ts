@@ -1,18 +1,23 @@
-// The database's cost of writing one tile of Link rows, before and after the
-// slim rows of issue 20 (`npm run bench -- link-writes`), side by side in one
-// run on PostgreSQL: the same 1 500 real pairs (a synthetic fleet of our own,
-// P.1812 over a 90 m DEM) written as
-//   before: one jsonb_to_recordset upsert of rows whose JSON result holds the
-//           path and a budget summary (the statement the tiles used until now,
-//           kept here as the reference);
-//   after:  upsertLinkRows (server/db/repositories/links.ts): the path packed
-//           into bytes (server/planning/path-pack.ts), {pathHash} as the JSON,
-//           one unnest upsert.
+// The database's cost of writing one tile of Link rows in the three forms issue 20
+// went through (`npm run bench -- link-writes`), side by side in one run on
+// PostgreSQL: the same 1 500 real pairs (a synthetic fleet of our own, P.1812 over
+// a 90 m DEM) written as
+//   json, keyed:   one jsonb_to_recordset upsert of rows whose JSON result holds
+//                  the path and a budget summary, into the table as it was until
+//                  migration 20261207010000 (random UUID id, unique (node, gateway),
+//                  plan and gateway indexes, three foreign keys); kept here as a
+//                  scratch table "BenchLinkKeyed" with the same statement;
+//   slim, keyed:   the path packed into bytes (server/planning/path-pack.ts),
+//                  {pathHash} as the JSON, one unnest upsert, same scratch table;
+//   slim, keyless: upsertLinkRows (server/db/repositories/links.ts) into "Link" as
+//                  it is now (key (plan, node, gateway), no foreign keys, rows
+//                  joined to their node and gateway in the plan).
 // Reported per row: CPU of the PostgreSQL backends of the bench's own database
 // (from /proc, so other databases' load on the shared server is not counted;
 // summed over all writes of a form, as /proc counts in 10 ms ticks),
-// statement wall time, and the stored row size. The two forms alternate, cold
-// (rows deleted before each write) and warm (the same rows upserted again).
+// statement wall time, and the stored row size. The forms take turns (order
+// rotated each repetition), cold (rows deleted before each write) and warm (the
+// same rows upserted again).
 // Size: LINK_WRITES_ROWS (default 1 500, one default tile), LINK_WRITES_REPS (default 10).
 import { readFileSync } from 'node:fs';
 import { createTestApp, postgresAvailable } from '../helpers/test-app.ts';
@@ -39,13 +44,33 @@ async function backendCpu(db: Database): Promise<number> {
   return rows.reduce((sum, row) => sum + cpuSeconds(Number(row.pid)), 0);
 }
 
-/** The tiles' write before issue 20's slim rows: the whole result as JSON, one jsonb_to_recordset upsert. */
-async function writeBefore(db: Database, planId: string, rows: ReadonlyArray<{ nodeId: string; gatewayId: string; inputHash: string; result: unknown }>): Promise<void> {
+/** The Link table as it was before migration 20261207010000, as a scratch table of the bench's database. */
+async function createKeyedTable(db: Database): Promise<void> {
+  await db.prisma.$executeRawUnsafe(`CREATE TABLE "BenchLinkKeyed" ("id" TEXT PRIMARY KEY, "planId" TEXT NOT NULL REFERENCES "Plan"("id") ON DELETE CASCADE,
+    "nodeId" TEXT NOT NULL REFERENCES "Node"("id") ON DELETE CASCADE, "gatewayId" TEXT NOT NULL REFERENCES "Gateway"("id") ON DELETE CASCADE,
+    "inputHash" TEXT NOT NULL, "result" JSONB NOT NULL, "packed" BYTEA, "computedAt" TIMESTAMP(3) NOT NULL DEFAULT CURRENT_TIMESTAMP)`);
+  await db.prisma.$executeRawUnsafe('CREATE UNIQUE INDEX "BenchLinkKeyed_nodeId_gatewayId_key" ON "BenchLinkKeyed"("nodeId", "gatewayId")');
+  await db.prisma.$executeRawUnsafe('CREATE INDEX "BenchLinkKeyed_planId_idx" ON "BenchLinkKeyed"("planId")');
+  await db.prisma.$executeRawUnsafe('CREATE INDEX "BenchLinkKeyed_gatewayId_idx" ON "BenchLinkKeyed"("gatewayId")');
+}
+
+/** json, keyed: the tiles' write before the slim rows (the whole result as JSON). */
+async function writeJsonKeyed(db: Database, planId: string, rows: ReadonlyArray<{ nodeId: string; gatewayId: string; inputHash: string; result: unknown }>): Promise<void> {
   const json = JSON.stringify(rows.map((row) => ({ nodeId: row.nodeId, gatewayId: row.gatewayId, inputHash: row.inputHash, result: row.result })));
-  await db.prisma.$executeRaw`INSERT INTO "Link" ("id", "planId", "nodeId", "gatewayId", "inputHash", "result", "computedAt")
+  await db.prisma.$executeRaw`INSERT INTO "BenchLinkKeyed" ("id", "planId", "nodeId", "gatewayId", "inputHash", "result", "computedAt")
       SELECT gen_random_uuid()::text, ${planId}, r."nodeId", r."gatewayId", r."inputHash", r."result", CURRENT_TIMESTAMP
       FROM jsonb_to_recordset(${json}::jsonb) AS r("nodeId" text, "gatewayId" text, "inputHash" text, "result" jsonb)
     ON CONFLICT ("nodeId", "gatewayId") DO UPDATE SET "planId" = EXCLUDED."planId", "inputHash" = EXCLUDED."inputHash", "result" = EXCLUDED."result", "computedAt" = EXCLUDED."computedAt"`;
+}
+
+/** slim, keyed: the slim rows' unnest upsert as it was before the keyless table. */
+async function writeSlimKeyed(db: Database, planId: string, rows: readonly LinkRow[]): Promise<void> {
+  const col = (pick: (row: LinkRow) => string) => rows.map(pick).join(',');
+  await db.prisma.$executeRaw`INSERT INTO "BenchLinkKeyed" ("id", "planId", "nodeId", "gatewayId", "inputHash", "result", "packed", "computedAt")
+      SELECT gen_random_uuid()::text, ${planId}, r.n, r.g, r.h, jsonb_build_object('pathHash', r.ph), decode(r.p, 'base64'), CURRENT_TIMESTAMP
+      FROM unnest(string_to_array(${col((row) => row.nodeId)}, ','), string_to_array(${col((row) => row.gatewayId)}, ','), string_to_array(${col((row) => row.inputHash)}, ','),
+                  string_to_array(${col((row) => (row.result as { pathHash: string }).pathHash)}, ','), string_to_array(${col((row) => Buffer.from(row.packed!).toString('base64'))}, ',')) AS r(n, g, h, ph, p)
+    ON CONFLICT ("nodeId", "gatewayId") DO UPDATE SET "planId" = EXCLUDED."planId", "inputHash" = EXCLUDED."inputHash", "result" = EXCLUDED."result", "packed" = EXCLUDED."packed", "computedAt" = EXCLUDED."computedAt"`;
 }
 
 export async function run(): Promise<void> {
@@ -73,17 +98,18 @@ export async function run(): Promise<void> {
       const summary = { gatewayId, distanceM, basicLossDb, rssiDbm, snrDb, marginDb, bestSf, usedSf, deliveryProbability, timeOnAirMs, legalOk: link.legal ? link.legal.withinLimit : null };
       return { nodeId: row.nodeId, gatewayId: row.gatewayId, inputHash: row.inputHash, result: { pathHash: (row.result as { pathHash: string }).pathHash, path: unpackPath(row.packed!), summary } };
     });
-    console.log(`${after.length} Link rows of a synthetic fleet (P.1812, 90 m DEM); ${reps} alternating writes of each form, cold and warm; PostgreSQL backends of this database only`);
-    type Form = 'before' | 'after';
-    const figures: Record<Form, { cold: number[]; warm: number[]; coldWall: number[]; warmWall: number[]; bytes: number }> = {
-      before: { cold: [], warm: [], coldWall: [], warmWall: [], bytes: 0 },
-      after: { cold: [], warm: [], coldWall: [], warmWall: [], bytes: 0 },
-    };
-    const write = (form: Form) => (form === 'before' ? writeBefore(t.db, fleet.planId, before) : upsertLinkRows(t.db.prisma, fleet.planId, after).then(() => undefined));
+    console.log(`${after.length} Link rows of a synthetic fleet (P.1812, 90 m DEM); ${reps} rotating writes of each form, cold and warm; PostgreSQL backends of this database only`);
+    const FORMS = ['json, keyed', 'slim, keyed', 'slim, keyless'] as const;
+    type Form = (typeof FORMS)[number];
+    const figures = Object.fromEntries(FORMS.map((form) => [form, { cold: [] as number[], warm: [] as number[], coldWall: [] as number[], warmWall: [] as number[], bytes: 0 }])) as Record<Form, { cold: number[]; warm: number[]; coldWall: number[]; warmWall: number[]; bytes: number }>;
+    await createKeyedTable(t.db);
+    const write = (form: Form): Promise<unknown> => (form === 'json, keyed' ? writeJsonKeyed(t.db, fleet.planId, before) : form === 'slim, keyed' ? writeSlimKeyed(t.db, fleet.planId, after) : upsertLinkRows(t.db.prisma, fleet.planId, after));
+    const table = (form: Form) => (form === 'slim, keyless' ? '"Link"' : '"BenchLinkKeyed"');
     for (let rep = 0; rep < reps; rep++) {
-      for (const form of (rep % 2 === 0 ? ['before', 'after'] : ['after', 'before']) as Form[]) {
+      for (const form of FORMS.map((_f, k) => FORMS[(k + rep) % FORMS.length])) {
         await t.db.prisma.link.deleteMany({ where: { planId: fleet.planId } });
-        await t.db.prisma.$executeRawUnsafe('VACUUM "Link"');
+        await t.db.prisma.$executeRawUnsafe('DELETE FROM "BenchLinkKeyed"');
+        await t.db.prisma.$executeRawUnsafe(`VACUUM ${table(form)}`);
         for (const phase of ['cold', 'warm'] as const) {
           const cpu0 = await backendCpu(t.db);
           const w0 = performance.now();
@@ -93,19 +119,25 @@ export async function run(): Promise<void> {
           figures[form][phase].push((cpu * 1000) / after.length);
           figures[form][phase === 'cold' ? 'coldWall' : 'warmWall'].push(wall / after.length);
         }
-        const [size] = await t.db.prisma.$queryRaw<Array<{ bytes: number }>>`SELECT avg(pg_column_size(l.*))::float8 AS bytes FROM "Link" l WHERE "planId" = ${fleet.planId}`;
+        const [size] = await t.db.prisma.$queryRawUnsafe<Array<{ bytes: number }>>(`SELECT avg(pg_column_size(l.*))::float8 AS bytes FROM ${table(form)} l WHERE "planId" = $1`, fleet.planId);
         figures[form].bytes = Number(size.bytes);
       }
     }
     const median = (values: number[]) => [...values].sort((a, b) => a - b)[Math.floor(values.length / 2)];
     const mean = (values: number[]) => values.reduce((sum, v) => sum + v, 0) / values.length;
     console.log('\nform | row bytes | PG CPU ms/row cold | PG CPU ms/row warm | wall ms/row cold | wall ms/row warm   (CPU: over all writes; wall: medians)');
-    for (const form of ['before', 'after'] as Form[]) {
+    for (const form of FORMS) {
       const f = figures[form];
       console.log(`${form} | ${f.bytes.toFixed(0)} | ${mean(f.cold).toFixed(4)} | ${mean(f.warm).toFixed(4)} | ${median(f.coldWall).toFixed(4)} | ${median(f.warmWall).toFixed(4)}`);
     }
-    const ratio = (key: 'cold' | 'warm' | 'coldWall' | 'warmWall') => (key.endsWith('Wall') ? median(figures.before[key]) / median(figures.after[key]) : mean(figures.before[key]) / mean(figures.after[key])).toFixed(2);
-    console.log(`after vs before: rows ${(figures.before.bytes / figures.after.bytes).toFixed(2)}× smaller; PG CPU ${ratio('cold')}× less cold, ${ratio('warm')}× less warm; wall ${ratio('coldWall')}× / ${ratio('warmWall')}× faster`);
+    const now = figures['slim, keyless'];
+    for (const form of ['json, keyed', 'slim, keyed'] as const) {
+      const f = figures[form];
+      console.log(
+        `slim, keyless vs ${form}: rows ${(f.bytes / now.bytes).toFixed(2)}× smaller; PG CPU ${(mean(f.cold) / mean(now.cold)).toFixed(2)}× less cold, ${(mean(f.warm) / mean(now.warm)).toFixed(2)}× less warm; ` +
+          `wall ${(median(f.coldWall) / median(now.coldWall)).toFixed(2)}× / ${(median(f.warmWall) / median(now.warmWall)).toFixed(2)}× faster`,
+      );
+    }
     console.log(`load average: ${readFileSync('/proc/loadavg', 'utf8').split(' ').slice(0, 3).join(' ')}`);
   } finally {
     await t.close();

@@ -61,8 +61,10 @@ function slimPathHash(row: LinkRow): string | null {
  * INSERT, the JSON result built in SQL; any other row (a path the packed
  * layout does not know, or a test's free JSON) as one JSON parameter through
  * `jsonb_to_recordset`. A pair listed twice keeps its last row (one statement
- * may not update a row twice). The id of a new row is a random UUID (Prisma's
- * cuid() default is client-side); nothing reads Link ids. Returns rows written.
+ * may not update a row twice). A row is written only while its node and its
+ * gateway are in the plan (the rule the table's foreign keys kept before
+ * migration 20261207010000, at a fraction of their cost): a row of a node or
+ * gateway deleted meanwhile is left out, not an error. Returns rows written.
  */
 export async function upsertLinkRows(tx: Pick<Database['prisma'], '$executeRaw'>, planId: string, rows: readonly LinkRow[]): Promise<number> {
   if (rows.length === 0) return 0;
@@ -88,20 +90,22 @@ export async function upsertLinkRows(tx: Pick<Database['prisma'], '$executeRaw'>
   }
   let written = 0;
   if (slim.nodeIds.length > 0) {
-    written += await tx.$executeRaw`INSERT INTO "Link" ("id", "planId", "nodeId", "gatewayId", "inputHash", "result", "packed", "computedAt")
-        SELECT gen_random_uuid()::text, ${planId}, r.n, r.g, r.h, jsonb_build_object('pathHash', r.ph), decode(r.p, 'base64'), CURRENT_TIMESTAMP
+    written += await tx.$executeRaw`INSERT INTO "Link" ("planId", "nodeId", "gatewayId", "inputHash", "result", "packed", "computedAt")
+        SELECT ${planId}, r.n, r.g, r.h, jsonb_build_object('pathHash', r.ph), decode(r.p, 'base64'), CURRENT_TIMESTAMP
         FROM unnest(string_to_array(${slim.nodeIds.join(',')}, ','), string_to_array(${slim.gatewayIds.join(',')}, ','), string_to_array(${slim.inputHashes.join(',')}, ','),
                     string_to_array(${slim.pathHashes.join(',')}, ','), string_to_array(${slim.packed.join(',')}, ',')) AS r(n, g, h, ph, p)
-      ON CONFLICT ("nodeId", "gatewayId") DO UPDATE SET "planId" = EXCLUDED."planId", "inputHash" = EXCLUDED."inputHash", "result" = EXCLUDED."result", "packed" = EXCLUDED."packed", "computedAt" = EXCLUDED."computedAt"`;
+        WHERE EXISTS (SELECT 1 FROM "Node" x WHERE x."id" = r.n AND x."planId" = ${planId}) AND EXISTS (SELECT 1 FROM "Gateway" y WHERE y."id" = r.g AND y."planId" = ${planId})
+      ON CONFLICT ("planId", "nodeId", "gatewayId") DO UPDATE SET "inputHash" = EXCLUDED."inputHash", "result" = EXCLUDED."result", "packed" = EXCLUDED."packed", "computedAt" = EXCLUDED."computedAt"`;
   }
   if (other.length > 0) {
     const json = JSON.stringify(
       other.map((row) => ({ nodeId: row.nodeId, gatewayId: row.gatewayId, inputHash: row.inputHash, result: row.result, packed: row.packed ? Buffer.from(row.packed.buffer, row.packed.byteOffset, row.packed.byteLength).toString('base64') : null })),
     );
-    written += await tx.$executeRaw`INSERT INTO "Link" ("id", "planId", "nodeId", "gatewayId", "inputHash", "result", "packed", "computedAt")
-        SELECT gen_random_uuid()::text, ${planId}, r."nodeId", r."gatewayId", r."inputHash", r."result", decode(r."packed", 'base64'), CURRENT_TIMESTAMP
+    written += await tx.$executeRaw`INSERT INTO "Link" ("planId", "nodeId", "gatewayId", "inputHash", "result", "packed", "computedAt")
+        SELECT ${planId}, r."nodeId", r."gatewayId", r."inputHash", r."result", decode(r."packed", 'base64'), CURRENT_TIMESTAMP
         FROM jsonb_to_recordset(${json}::jsonb) AS r("nodeId" text, "gatewayId" text, "inputHash" text, "result" jsonb, "packed" text)
-      ON CONFLICT ("nodeId", "gatewayId") DO UPDATE SET "planId" = EXCLUDED."planId", "inputHash" = EXCLUDED."inputHash", "result" = EXCLUDED."result", "packed" = EXCLUDED."packed", "computedAt" = EXCLUDED."computedAt"`;
+        WHERE EXISTS (SELECT 1 FROM "Node" x WHERE x."id" = r."nodeId" AND x."planId" = ${planId}) AND EXISTS (SELECT 1 FROM "Gateway" y WHERE y."id" = r."gatewayId" AND y."planId" = ${planId})
+      ON CONFLICT ("planId", "nodeId", "gatewayId") DO UPDATE SET "inputHash" = EXCLUDED."inputHash", "result" = EXCLUDED."result", "packed" = EXCLUDED."packed", "computedAt" = EXCLUDED."computedAt"`;
   }
   return written;
 }
