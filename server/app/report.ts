@@ -11,8 +11,8 @@ import { allTerrainLayers } from '../db/repositories/terrain-layers.ts';
 import type { CoverageJobParams } from '../jobs/coverage-params.ts';
 import { RESULT_FILES, resolveStoredFile, resultDir } from '../db/files.ts';
 import type { LinkEngine } from '../jobs/link-engine.ts';
-import { openGeoRaster, type GeoRaster } from '../terrain/raster.ts';
-import { fitView, paddedBox, renderMapImage } from '../report/map.ts';
+import { renderMapInWorker } from '../jobs/map-worker.ts';
+import { fitView, paddedBox } from '../report/map.ts';
 import { isTimeZone, MAX_RISK_NAMES, renderReportPdf, reportTime, type ReportModel } from '../report/pdf.ts';
 import { AppError } from './errors.ts';
 import { exportFileName } from './exports.ts';
@@ -62,30 +62,21 @@ function assumptionsOf(f: PlanFigures): Array<[string, string]> {
   ];
 }
 
-async function openElevation(engine: LinkEngine, config: Config, planId: string): Promise<GeoRaster[]> {
+async function elevationPaths(engine: LinkEngine, config: Config, planId: string): Promise<string[]> {
   const rows = (await allTerrainLayers(engine.database, planId)).filter((row) => row.kind === 'elevation');
-  const rasters: GeoRaster[] = [];
-  for (const row of rows) {
-    try {
-      rasters.push(await openGeoRaster(resolveStoredFile(config, row.filePath), { decodedTileCache: MAP_DECODED_TILES }));
-    } catch {
-      // An unreadable layer leaves the map without relief there; the link engine reports it in the warnings.
-    }
-  }
-  return rasters;
+  return rows.map((row) => resolveStoredFile(config, row.filePath));
 }
 
-async function latestMargin(engine: LinkEngine, config: Config, planId: string, timeZone: string | null): Promise<{ raster: GeoRaster; description: string } | null> {
+/** The latest finished coverage run's margin raster file and the words the map's caption gives it; null: no run or no file. */
+async function latestMargin(engine: LinkEngine, config: Config, planId: string, timeZone: string | null): Promise<{ path: string; description: string } | null> {
   const run = await latestDoneCoverageRun(engine.database, planId);
   if (!run) return null;
   const path = join(resultDir(config, run.id), RESULT_FILES.margin);
   if (!existsSync(path)) return null;
   const params = (run.params ?? {}) as Partial<CoverageJobParams>;
-  const raster = await openGeoRaster(path, { decodedTileCache: MAP_DECODED_TILES }).catch(() => null);
-  if (!raster) return null;
   const when = run.finishedAt ? reportTime(run.finishedAt, timeZone) : 'at an unrecorded time';
   const gateways = Array.isArray(run.gatewayIds) ? run.gatewayIds.length : 0;
-  return { raster, description: `Coverage run ${run.id} (${params.mode ?? '?'} mode, ${gateways} gateway(s), radius ${params.radiusKm ?? '?'} km, SF${params.sf ?? '?'}, node antenna ${params.targetHeightM ?? '?'} m AGL), finished ${when}.` };
+  return { path, description: `Coverage run ${run.id} (${params.mode ?? '?'} mode, ${gateways} gateway(s), radius ${params.radiusKm ?? '?'} km, SF${params.sf ?? '?'}, node antenna ${params.targetHeightM ?? '?'} m AGL), finished ${when}.` };
 }
 
 function capacityRows(f: PlanFigures): Array<[string, string]> | null {
@@ -145,20 +136,17 @@ export interface PlanReportOptions {
 export async function planReport(engine: LinkEngine, config: Config, plan: PlanRow, options: PlanReportOptions = {}): Promise<{ fileName: string; pdf: Buffer; figures: PlanFigures }> {
   const timeZone = options.timeZone ?? null;
   if (timeZone !== null && !isTimeZone(timeZone)) throw new AppError('invalid_input', 'invalid_input', `tz: "${timeZone}" is not an IANA time zone (such as Europe/Berlin)`);
-  // The map first, from the plan's positions alone, then the fleet pass: the map's raster
-  // buffers are made and freed before the fleet's garbage grows the heap, so the two peaks
-  // do not stack (the 5,000-node bench: npm run bench -- report).
+  // The map first, from the plan's positions alone, then the fleet pass. The map is drawn in a
+  // thread of its own (server/jobs/map-worker.ts) whose raster buffers are all released when it
+  // ends, so none of them is still resident under the fleet's and the PDF's peaks (the 5,000-node
+  // bench: npm run bench -- report).
   let map: ReportModel['map'] = null;
   const box = paddedBox(await planPositions(engine.database, plan.id));
-  const margin = box ? await latestMargin(engine, config, plan.id, timeZone) : null;
   if (box) {
-    const elevation = await openElevation(engine, config, plan.id);
-    try {
-      const view = fitView(box, MAP_WIDTH_PX, MAP_HEIGHT_PX);
-      map = { view, image: await renderMapImage(view, elevation, margin?.raster ?? null), coverage: margin?.description ?? null, terrain: '' };
-    } finally {
-      await Promise.all([...elevation.map((r) => r.close()), margin?.raster.close()]);
-    }
+    const margin = await latestMargin(engine, config, plan.id, timeZone);
+    const view = fitView(box, MAP_WIDTH_PX, MAP_HEIGHT_PX);
+    const drawn = await renderMapInWorker({ view, elevationPaths: await elevationPaths(engine, config, plan.id), marginPath: margin?.path ?? null, decodedTileCache: MAP_DECODED_TILES });
+    map = { view, image: drawn.png, coverage: drawn.marginShown ? (margin?.description ?? null) : null, terrain: '' };
   }
   options.onProgress?.(0.1);
   const figures = await planFigures(engine, plan, options.onProgress ? (x) => options.onProgress?.(0.1 + x * 0.8) : undefined);

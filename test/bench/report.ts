@@ -8,10 +8,11 @@
 //     (sampled every 10 ms) next to the RSS before it;
 //  3. GET /export.geojson and /export.csv beside it.
 //  2b. (PostgreSQL) the same report in a fresh process running the compiled server
-//      (build/, no tsx): its baseline RSS and its peak RSS during the report, side by side.
+//      (build/, no tsx) with the environment `npm start` sets (MALLOC_ARENA_MAX), then with
+//      glibc's defaults: each one's baseline RSS and its peak RSS during the report.
 // REPORT_BENCH_OUT=<file> keeps the last PDF for a look.
 import { spawnSync } from 'node:child_process';
-import { mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir, loadavg } from 'node:os';
 import { join } from 'node:path';
 import { performance } from 'node:perf_hooks';
@@ -70,7 +71,10 @@ export async function makeBenchPlan(t: TestApp, dir: string): Promise<{ planId: 
   for (let i = 0; i < NODES; i++) {
     rows.push({ planId, name: `Node ${String(i + 1).padStart(4, '0')}`, lat: CENTRE.lat + (rand() - 0.5) * 26 * kmLat, lon: CENTRE.lon + (rand() - 0.5) * 26 * kmLon, deviceType: 'probe', antennaDesignId: 'helical-stub', antennaHeightAglM: 1 + rand() * 3, environment: rand() < 0.15 ? ('indoor' as const) : ('outdoor' as const) });
   }
-  await t.db.prisma.node.createMany({ data: rows });
+  // Awaited statements of 1,000 rows: one createMany of 5,000 rows is over PostgreSQL's bind
+  // parameter limit, so Prisma split it into chunks it sent at once on one transaction's
+  // connection (pg: "Calling client.query() when the client is already executing a query").
+  for (let i = 0; i < rows.length; i += 1000) await t.db.prisma.node.createMany({ data: rows.slice(i, i + 1000) });
   // A finished coverage run with a synthetic margin raster (falls off with distance from the centre).
   const run = await t.db.prisma.coverageRun.create({ data: { planId, gatewayIds, params: { mode: 'fast', radiusKm: 15, sf: 9, targetHeightM: 2, targetMarginDb: 10 }, status: 'done', progress: 1, finishedAt: new Date(), resultPath: '' } });
   mkdirSync(resultDir(t.config, run.id), { recursive: true });
@@ -122,16 +126,25 @@ export async function run(): Promise<void> {
       const built = spawnSync(process.execPath, ['scripts/build-server.mjs', '--quiet'], { encoding: 'utf8' });
       if (built.status !== 0) throw new Error(`build-server failed: ${built.stderr.slice(-400)}`);
       const buildDir = join(process.cwd(), 'build');
-      const child = spawnSync(process.execPath, ['test/bench/_report-child.mjs'], {
-        env: { ...process.env, DATABASE_URL: t.config.databaseUrl, EARSHOT_DATA_DIR: t.config.dataDir, BENCH_FILES_DIR: t.config.filesDir, BENCH_PLAN_ID: planId, BENCH_BUILD_DIR: buildDir },
-        encoding: 'utf8',
-        timeout: 300_000,
-      });
-      const line = child.stdout.trim().split('\n').pop() ?? '';
-      if (child.status !== 0 || !line.startsWith('{')) console.log(`2b. fresh-process report failed: ${child.stderr.slice(-400)}`);
-      else {
-        const r = JSON.parse(line) as { ms: number; bytes: number; baselineRssMb: number; peakRssMb: number };
-        console.log(`2b. report.pdf in a fresh compiled-JS process (warm link cache, in-thread paths): ${(r.ms / 1000).toFixed(2)} s; RSS baseline ${r.baselineRssMb.toFixed(0)} MB → peak ${r.peakRssMb.toFixed(0)} MB (report's own increment +${(r.peakRssMb - r.baselineRssMb).toFixed(0)} MB; peak/baseline ${(r.peakRssMb / r.baselineRssMb).toFixed(2)}×; target ≤ 20 s, ≤ 300 MB peak)`);
+      // The process environment `npm start` gives the server (package.json: MALLOC_ARENA_MAX), so
+      // the child is measured as the server runs; then glibc's default arenas beside it, for scale.
+      const startScript = (JSON.parse(readFileSync(join(process.cwd(), 'package.json'), 'utf8')) as { scripts: Record<string, string> }).scripts.start;
+      const arenas = /\bMALLOC_ARENA_MAX=(\d+)/.exec(startScript)?.[1];
+      const { MALLOC_ARENA_MAX: _inherited, ...inherited } = process.env;
+      const variants: Array<[string, NodeJS.ProcessEnv]> = [[arenas ? `as npm start runs it, MALLOC_ARENA_MAX=${arenas}` : 'as npm start runs it', arenas ? { MALLOC_ARENA_MAX: arenas } : {}]];
+      if (arenas) variants.push(["glibc's default arenas, for scale", {}]);
+      for (const [label, extra] of variants) {
+        const child = spawnSync(process.execPath, ['test/bench/_report-child.mjs'], {
+          env: { ...inherited, ...extra, DATABASE_URL: t.config.databaseUrl, EARSHOT_DATA_DIR: t.config.dataDir, BENCH_FILES_DIR: t.config.filesDir, BENCH_PLAN_ID: planId, BENCH_BUILD_DIR: buildDir },
+          encoding: 'utf8',
+          timeout: 300_000,
+        });
+        const line = child.stdout.trim().split('\n').pop() ?? '';
+        if (child.status !== 0 || !line.startsWith('{')) console.log(`2b. fresh-process report (${label}) failed: ${child.stderr.slice(-400)}`);
+        else {
+          const r = JSON.parse(line) as { ms: number; bytes: number; baselineRssMb: number; peakRssMb: number };
+          console.log(`2b. report.pdf in a fresh compiled-JS process (${label}; warm link cache, in-thread paths): ${(r.ms / 1000).toFixed(2)} s; RSS baseline ${r.baselineRssMb.toFixed(0)} MB → peak ${r.peakRssMb.toFixed(0)} MB (report's own increment +${(r.peakRssMb - r.baselineRssMb).toFixed(0)} MB; peak/baseline ${(r.peakRssMb / r.baselineRssMb).toFixed(2)}×; target ≤ 20 s, ≤ 300 MB peak); load ${loadavg()[0].toFixed(2)}`);
+        }
       }
     }
     for (const file of ['export.geojson', 'export.csv']) {

@@ -8,6 +8,10 @@ import { writeGeoTiff } from '../../../server/terrain/geotiff-writer.ts';
 import { openGeoRaster } from '../../../server/terrain/raster.ts';
 import { renderHillshadeTile, TILE_SIZE_PX } from '../../../server/terrain/tiles.ts';
 import { renderMarginTile } from '../../../server/coverage/tiles.ts';
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { renderMapInWorker } from '../../../server/jobs/map-worker.ts';
 
 const SIZE = 400;
 
@@ -46,6 +50,39 @@ describe('report map image', () => {
       expect(Buffer.from(await renderMapImage(view, [dem], null)).equals(Buffer.from(shadeOnly))).toBe(true);
     } finally {
       await Promise.all([dem.close(), margin.close()]);
+    }
+  });
+
+  it('the report draws it in a worker thread (renderMapInWorker): the same bytes as in-thread; an unreadable margin or layer is left out', async () => {
+    const dir = mkdtempSync(join(tmpdir(), 'earshot-map-worker-'));
+    try {
+      const demPath = join(dir, 'dem.tif');
+      const marginPath = join(dir, 'margin.tif');
+      writeFileSync(demPath, new Uint8Array(raster((u, v) => 900 + 150 * Math.sin(7 * u) * Math.cos(5 * v))));
+      writeFileSync(marginPath, new Uint8Array(raster((u, v) => 30 - 70 * Math.hypot(u - 0.5, v - 0.5))));
+      writeFileSync(join(dir, 'broken.tif'), 'not a tiff');
+      const zoom = 13;
+      const corner = lonLatToGlobalPx(-110.26, 44.56, zoom);
+      const view: MapView = { zoom, x0: Math.floor(corner.x) , y0: Math.floor(corner.y), widthPx: 300, heightPx: 200 };
+      const dem = await openGeoRaster(demPath, { decodedTileCache: 16 });
+      const margin = await openGeoRaster(marginPath, { decodedTileCache: 16 });
+      let inThread: Uint8Array;
+      let shadeOnly: Uint8Array;
+      try {
+        inThread = await renderMapImage(view, [dem], margin);
+        shadeOnly = await renderMapImage(view, [dem], null);
+      } finally {
+        await Promise.all([dem.close(), margin.close()]);
+      }
+      const drawn = await renderMapInWorker({ view, elevationPaths: [demPath, join(dir, 'broken.tif')], marginPath, decodedTileCache: 16 });
+      expect(drawn.marginShown).toBe(true);
+      expect(Buffer.from(drawn.png).equals(Buffer.from(inThread))).toBe(true);
+      const noMargin = await renderMapInWorker({ view, elevationPaths: [demPath], marginPath: join(dir, 'broken.tif'), decodedTileCache: 16 });
+      expect(noMargin.marginShown).toBe(false);
+      expect(Buffer.from(noMargin.png).equals(Buffer.from(shadeOnly))).toBe(true);
+      expect(Buffer.from(shadeOnly).equals(Buffer.from(inThread))).toBe(false);
+    } finally {
+      rmSync(dir, { recursive: true, force: true });
     }
   });
 });
