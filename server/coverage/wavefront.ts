@@ -42,6 +42,7 @@ export function viewshedWavefront(terrain: TerrainWindow, site: SweepSite, radiu
   const e0 = g[0] + 0.5 * g[1] + 0.5 * g[2] - f.siteX;
   const n0 = g[3] + 0.5 * g[4] + 0.5 * g[5] - f.siteY;
   const cellM = Math.min(Math.hypot(g[1], g[4]), Math.hypot(g[2], g[5]));
+  // Rings out to the radius, or to the window's farthest edge when that comes first.
   const rings = Math.min(Math.ceil(radiusM / cellM) + 1, Math.max(oc, w - 1 - oc, or, h - 1 - or));
   const radius2 = radiusM * radiusM;
   // Horizon slopes including each cell's own ground (what farther cells see), kept for two rings only:
@@ -50,20 +51,17 @@ export function viewshedWavefront(terrain: TerrainWindow, site: SweepSite, radiu
   // the rows' end slots once the ring is done, so every predecessor pair is two neighbouring slots and
   // a side's reads and writes run along memory (a column of a full grid is one cache line per cell).
   // Float32 as the grid it replaces, and a slot never written reads 0 as that grid's cells did.
-  const maxRing = Math.max(oc, w - 1 - oc, or, h - 1 - or);
-  let prevRing = new Float32Array(4 * (2 * maxRing + 1));
-  let ring = new Float32Array(4 * (2 * maxRing + 1));
+  let prevRing = new Float32Array(4 * (2 * rings + 1));
+  let ring = new Float32Array(4 * (2 * rings + 1));
   const visible = new Uint8Array(w * h).fill(BYTE_NODATA);
-  // Visible and inside cells counted by sweepSide: [visible, inside].
+  // Visible and inside cells, [visible, inside]: the site's own cell here, every other one in sweepSide.
   const counts = new Float64Array(2);
-  let visibleCells = 0;
-  let insideCells = 0;
   const o = or * w + oc;
   prevRing.fill(NO_HORIZON, 0, 4);
   if (elevation[o] === elevation[o] && (e0 + oc * g[1] + or * g[2]) ** 2 + (n0 + oc * g[4] + or * g[5]) ** 2 <= radius2) {
     visible[o] = 1;
-    visibleCells++;
-    insideCells++;
+    counts[0]++;
+    counts[1]++;
   }
   // Cells that cannot matter are skipped (north-up grids): with D a cell's distance from the observer's
   // cell centre in whole-cell offsets, each of the two predecessors of a cell on ring n lies at most
@@ -125,7 +123,7 @@ export function viewshedWavefront(terrain: TerrainWindow, site: SweepSite, radiu
     prevRing = ring;
     ring = done;
   }
-  return { visible, visibleCells: visibleCells + counts[0], insideCells: insideCells + counts[1] };
+  return { visible, visibleCells: counts[0], insideCells: counts[1] };
 }
 
 /**
