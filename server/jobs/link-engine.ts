@@ -29,10 +29,10 @@ import { packPath, unpackPath } from '../planning/path-pack.ts';
 import { resolveLinkSettings, sfsCarrying, type ResolvedLinkSettings } from '../planning/settings.ts';
 import type { AppliedCalibration } from '../planning/spread.ts';
 import { findAppliedCalibration } from '../db/repositories/calibrations.ts';
-import { bearingsBetween } from '../planning/geometry.ts';
+import { bearingsBetween, isWithinDistanceM } from '../planning/geometry.ts';
 
 /** A node → gateway pair as the fleet's first pass measured it: distance, and the path hash when within range. */
-interface PairKey {
+export interface PairKey {
   distanceM: number;
   pathHash: string | null;
 }
@@ -694,7 +694,7 @@ export class LinkEngine {
 
   /** Gateways of the context within range of a node. */
   gatewaysInRange(ctx: PlanContext, node: { lat: number; lon: number }): GatewayContext[] {
-    return ctx.gateways.filter((gateway) => bearingsBetween(node.lat, node.lon, gateway.row.lat, gateway.row.lon).distanceM <= ctx.settings.maxLinkRangeM);
+    return ctx.gateways.filter((gateway) => isWithinDistanceM(node.lat, node.lon, gateway.row.lat, gateway.row.lon, ctx.settings.maxLinkRangeM));
   }
 
   /** Resolves catalog entries for the recommendation. */

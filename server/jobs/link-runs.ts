@@ -24,10 +24,10 @@ import {
   unfinishedLinkTiles,
   type NewLinkTile,
 } from '../db/repositories/link-runs.ts';
-import { bearingsBetween } from '../planning/geometry.ts';
+import { bearingsBetween, isWithinDistanceM } from '../planning/geometry.ts';
 import type { PathPrediction } from '../planning/path.ts';
 import { AppError } from '../app/errors.ts';
-import { LinkInputError, pathEnd, type GatewayContext, type LinkEngine, type PlanContext, type ResolvedNode } from './link-engine.ts';
+import { LinkInputError, pathEnd, type GatewayContext, type LinkEngine, type PairKey, type PlanContext, type ResolvedNode } from './link-engine.ts';
 import type { LinkPathPair } from './link-pool.ts';
 import { queuePrefix, redisConnection } from './queue-connection.ts';
 import type { LinkRunJobs } from './link-run-jobs.ts';
@@ -98,7 +98,7 @@ export async function cutLinkTiles(engine: LinkEngine, ctx: PlanContext, tilePai
     for (const node of nodes) {
       let inRange = 0;
       for (const g of gateways) {
-        if (bearingsBetween(node.row.lat, node.row.lon, g.row.lat, g.row.lon).distanceM <= maxRangeM) inRange++;
+        if (isWithinDistanceM(node.row.lat, node.row.lon, g.row.lat, g.row.lon, maxRangeM)) inRange++;
         else pairsOutOfRange++;
       }
       if (inRange === 0) continue;
@@ -278,7 +278,9 @@ export class LinkTileExecutor {
       if (list) list.push(row);
       else byNode.set(row.nodeId, [row]);
     }
-    const nodes: ResolvedNode[] = [];
+    // Each pair is range-tested and hashed once here; nodeLinks gets the node's
+    // in-range gateways with their distances and hashes instead of redoing both.
+    const nodes: Array<{ node: ResolvedNode; near: GatewayContext[]; keys: Map<string, PairKey> }> = [];
     const missing = new Map<string, LinkPathPair>();
     for (const row of nodeRows) {
       let node: ResolvedNode;
@@ -288,11 +290,15 @@ export class LinkTileExecutor {
         if (error instanceof LinkInputError) continue;
         throw error;
       }
-      nodes.push(node);
+      const near: GatewayContext[] = [];
+      const keys = new Map<string, PairKey>();
+      nodes.push({ node, near, keys });
       const stored = new Map((byNode.get(row.id) ?? []).map((link) => [link.gatewayId, (link.result as { pathHash?: unknown } | null)?.pathHash]));
       for (const g of gateways) {
-        if (bearingsBetween(row.lat, row.lon, g.row.lat, g.row.lon).distanceM > ctx.settings.maxLinkRangeM) continue;
+        if (!isWithinDistanceM(row.lat, row.lon, g.row.lat, g.row.lon, ctx.settings.maxLinkRangeM)) continue;
         const hash = engine.pathHash(tileCtx, node, g);
+        near.push(g);
+        keys.set(g.row.id, { distanceM: bearingsBetween(row.lat, row.lon, g.row.lat, g.row.lon).distanceM, pathHash: hash });
         if (stored.get(g.row.id) === hash) continue;
         missing.set(hash, { node: pathEnd(row, node.antennaHeightAglM), gateway: pathEnd(g.row, g.row.antennaHeightAglM) });
       }
@@ -306,8 +312,8 @@ export class LinkTileExecutor {
       if (!(await checkpoint(start + paths.length))) return null;
     }
     const rows: LinkRow[] = [];
-    for (const node of nodes) {
-      const { toSave } = await engine.nodeLinks(tileCtx, node, byNode.get(node.row.id) ?? [], true, precomputed);
+    for (const { node, near, keys } of nodes) {
+      const { toSave } = await engine.nodeLinks({ ...tileCtx, gateways: near }, node, byNode.get(node.row.id) ?? [], true, precomputed, keys);
       rows.push(...toSave);
     }
     return rows;

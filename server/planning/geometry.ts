@@ -44,3 +44,28 @@ function normaliseDeg(angleDeg: number): number {
   const a = angleDeg % 360;
   return a < 0 ? a + 360 : a;
 }
+
+// Mean earth radius for the spherical pre-filter only (IUGG mean radius R1, from memory).
+const MEAN_EARTH_RADIUS_M = 6_371_008.8;
+// On WGS84 the radius of curvature runs from 6,335 km (meridian at the equator)
+// to 6,400 km (at the poles), so the geodesic is within −0.6 % … +0.5 % of the
+// great circle on the mean sphere; a 1 % band on each side is safe.
+const SPHERE_BAND = 0.01;
+
+/**
+ * Whether two points lie within `maxDistanceM` of each other along the WGS84
+ * geodesic. A great-circle (haversine) distance decides every pair clearly
+ * inside or outside; only pairs within 1 % of the limit pay for the exact
+ * geodesic inverse. Fleet link runs test every node × gateway pair and most
+ * are far out of range, so this is the one range test they share.
+ */
+export function isWithinDistanceM(fromLat: number, fromLon: number, toLat: number, toLon: number, maxDistanceM: number): boolean {
+  const toRad = Math.PI / 180;
+  const sinHalfDLat = Math.sin(((toLat - fromLat) * toRad) / 2);
+  const sinHalfDLon = Math.sin(((toLon - fromLon) * toRad) / 2);
+  const h = sinHalfDLat * sinHalfDLat + Math.cos(fromLat * toRad) * Math.cos(toLat * toRad) * sinHalfDLon * sinHalfDLon;
+  const sphereM = 2 * MEAN_EARTH_RADIUS_M * Math.asin(Math.min(1, Math.sqrt(h)));
+  if (sphereM > maxDistanceM * (1 + SPHERE_BAND)) return false;
+  if (sphereM < maxDistanceM * (1 - SPHERE_BAND)) return true;
+  return bearingsBetween(fromLat, fromLon, toLat, toLon).distanceM <= maxDistanceM;
+}
