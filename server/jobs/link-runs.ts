@@ -280,7 +280,7 @@ export class LinkTileExecutor {
     }
     // Each pair is range-tested and hashed once here; nodeLinks gets the node's
     // in-range gateways with their distances and hashes instead of redoing both.
-    const nodes: Array<{ node: ResolvedNode; near: GatewayContext[]; keys: Map<string, PairKey> }> = [];
+    const nodes: Array<{ node: ResolvedNode; gatewaysInRange: GatewayContext[]; pairKeys: Map<string, PairKey> }> = [];
     const missing = new Map<string, LinkPathPair>();
     for (const row of nodeRows) {
       let node: ResolvedNode;
@@ -290,15 +290,15 @@ export class LinkTileExecutor {
         if (error instanceof LinkInputError) continue;
         throw error;
       }
-      const near: GatewayContext[] = [];
-      const keys = new Map<string, PairKey>();
-      nodes.push({ node, near, keys });
+      const gatewaysInRange: GatewayContext[] = [];
+      const pairKeys = new Map<string, PairKey>();
+      nodes.push({ node, gatewaysInRange, pairKeys });
       const stored = new Map((byNode.get(row.id) ?? []).map((link) => [link.gatewayId, (link.result as { pathHash?: unknown } | null)?.pathHash]));
       for (const g of gateways) {
         if (!isWithinDistanceM(row.lat, row.lon, g.row.lat, g.row.lon, ctx.settings.maxLinkRangeM)) continue;
         const hash = engine.pathHash(tileCtx, node, g);
-        near.push(g);
-        keys.set(g.row.id, { distanceM: bearingsBetween(row.lat, row.lon, g.row.lat, g.row.lon).distanceM, pathHash: hash });
+        gatewaysInRange.push(g);
+        pairKeys.set(g.row.id, { distanceM: bearingsBetween(row.lat, row.lon, g.row.lat, g.row.lon).distanceM, pathHash: hash });
         if (stored.get(g.row.id) === hash) continue;
         missing.set(hash, { node: pathEnd(row, node.antennaHeightAglM), gateway: pathEnd(g.row, g.row.antennaHeightAglM) });
       }
@@ -312,8 +312,8 @@ export class LinkTileExecutor {
       if (!(await checkpoint(start + paths.length))) return null;
     }
     const rows: LinkRow[] = [];
-    for (const { node, near, keys } of nodes) {
-      const { toSave } = await engine.nodeLinks({ ...tileCtx, gateways: near }, node, byNode.get(node.row.id) ?? [], true, precomputed, keys);
+    for (const { node, gatewaysInRange, pairKeys } of nodes) {
+      const { toSave } = await engine.nodeLinks({ ...tileCtx, gateways: gatewaysInRange }, node, byNode.get(node.row.id) ?? [], true, precomputed, pairKeys);
       rows.push(...toSave);
     }
     return rows;

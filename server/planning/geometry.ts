@@ -45,11 +45,9 @@ function normaliseDeg(angleDeg: number): number {
   return a < 0 ? a + 360 : a;
 }
 
-// Mean earth radius for the spherical pre-filter only (IUGG mean radius R1, from memory).
-const MEAN_EARTH_RADIUS_M = 6_371_008.8;
 // On WGS84 the radius of curvature runs from 6,335 km (meridian at the equator)
 // to 6,400 km (at the poles), so the geodesic is within −0.6 % … +0.5 % of the
-// great circle on the mean sphere; a 1 % band on each side is safe.
+// great circle on the 6,371 km sphere of the path geometry; a 1 % band on each side is safe.
 const SPHERE_BAND = 0.01;
 
 /**
@@ -64,7 +62,7 @@ export function isWithinDistanceM(fromLat: number, fromLon: number, toLat: numbe
   const sinHalfDLat = Math.sin(((toLat - fromLat) * toRad) / 2);
   const sinHalfDLon = Math.sin(((toLon - fromLon) * toRad) / 2);
   const h = sinHalfDLat * sinHalfDLat + Math.cos(fromLat * toRad) * Math.cos(toLat * toRad) * sinHalfDLon * sinHalfDLon;
-  const sphereM = 2 * MEAN_EARTH_RADIUS_M * Math.asin(Math.min(1, Math.sqrt(h)));
+  const sphereM = 2 * EARTH_RADIUS_KM * 1000 * Math.asin(Math.min(1, Math.sqrt(h)));
   if (sphereM > maxDistanceM * (1 + SPHERE_BAND)) return false;
   if (sphereM < maxDistanceM * (1 - SPHERE_BAND)) return true;
   return bearingsBetween(fromLat, fromLon, toLat, toLon).distanceM <= maxDistanceM;
